@@ -1,0 +1,34 @@
+package mcmc
+
+import "math"
+
+// Positive maps u in R to x = exp(u) > 0. LogJac is log |dx/du| = u.
+type Positive struct{}
+
+// Value returns exp(u).
+func (Positive) Value(u float64) float64 { return math.Exp(u) }
+
+// LogJac returns log |dx/du| = u.
+func (Positive) LogJac(u float64) float64 { return u }
+
+// Unit maps u in R to x = 1/(1+exp(-u)) in (0, 1). log |dx/du| = log x + log(1-x),
+// and d/du of that log-Jacobian is 1 - 2x.
+type Unit struct{}
+
+// Value returns the logistic function of u.
+func (Unit) Value(u float64) float64 { return 1 / (1 + math.Exp(-u)) }
+
+// LogJac returns log x(1-x), computed stably as -|u| - 2 log(1 + exp(-|u|)).
+func (Unit) LogJac(u float64) float64 {
+	a := math.Abs(u)
+	return -a - 2*math.Log1p(math.Exp(-a))
+}
+
+// Bounded maps u in R to x = Lo + (Hi-Lo)/(1+exp(-u)) in (Lo, Hi).
+type Bounded struct{ Lo, Hi float64 }
+
+// Value returns Lo + (Hi-Lo) logistic(u).
+func (b Bounded) Value(u float64) float64 { return b.Lo + (b.Hi-b.Lo)*Unit{}.Value(u) }
+
+// LogJac returns log(Hi-Lo) + log logistic(u)(1-logistic(u)).
+func (b Bounded) LogJac(u float64) float64 { return math.Log(b.Hi-b.Lo) + Unit{}.LogJac(u) }
