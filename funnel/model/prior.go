@@ -1,0 +1,129 @@
+package model
+
+import (
+	"fmt"
+	"math"
+)
+
+// Family names a prior distribution family.
+type Family string
+
+// The prior families a priors file may name.
+const (
+	Normal     Family = "normal"     // Normal(mean P1, sd P2) on the real line
+	HalfNormal Family = "halfnormal" // HalfNormal(sd P1) on x > 0: 2/(P1 sqrt(2 pi)) exp(-x^2/(2 P1^2))
+	Gamma      Family = "gamma"      // Gamma(shape P1, rate P2) on x > 0
+	Beta       Family = "beta"       // Beta(P1, P2) on (0, 1)
+	Flat       Family = "flat"       // improper uniform on the parameter's natural support
+	Jeffreys   Family = "jeffreys"   // improper 1/x on x > 0 (flat on log x; for a scale)
+	Fixed      Family = "fixed"      // the parameter is held at P1 and not sampled
+)
+
+// Support is where a parameter lives.
+type Support int
+
+// Supports.
+const (
+	Real Support = iota
+	PositiveReal
+	UnitInterval
+)
+
+// Prior is a prior distribution for one parameter.
+type Prior struct {
+	Family Family
+	P1, P2 float64
+}
+
+// LogPdf returns log p(x) up to a constant that does not depend on x, and
+// d/dx log p(x). Outside the support it returns -Inf.
+func (p Prior) LogPdf(x float64) (lp, d float64) {
+	switch p.Family {
+	case Normal:
+		z := (x - p.P1) / p.P2
+		return -0.5*z*z - math.Log(p.P2), -z / p.P2
+	case HalfNormal:
+		if x < 0 {
+			return math.Inf(-1), 0
+		}
+		z := x / p.P1
+		return -0.5*z*z - math.Log(p.P1) + math.Log(2), -z / p.P1
+	case Gamma:
+		if x <= 0 {
+			return math.Inf(-1), 0
+		}
+		lg, _ := math.Lgamma(p.P1)
+		return p.P1*math.Log(p.P2) - lg + (p.P1-1)*math.Log(x) - p.P2*x, (p.P1-1)/x - p.P2
+	case Beta:
+		if x <= 0 || x >= 1 {
+			return math.Inf(-1), 0
+		}
+		la, _ := math.Lgamma(p.P1)
+		lb, _ := math.Lgamma(p.P2)
+		lab, _ := math.Lgamma(p.P1 + p.P2)
+		return lab - la - lb + (p.P1-1)*math.Log(x) + (p.P2-1)*math.Log1p(-x), (p.P1-1)/x - (p.P2-1)/(1-x)
+	case Flat, Fixed:
+		return 0, 0
+	case Jeffreys:
+		if x <= 0 {
+			return math.Inf(-1), 0
+		}
+		return -math.Log(x), -1 / x
+	}
+	panic("model: unknown prior family " + string(p.Family))
+}
+
+// Support returns the natural support of the family; Flat and Fixed return
+// def, the support of the parameter's default prior.
+func (p Prior) Support(def Support) Support {
+	switch p.Family {
+	case Normal:
+		return Real
+	case HalfNormal, Gamma, Jeffreys:
+		return PositiveReal
+	case Beta:
+		return UnitInterval
+	}
+	return def
+}
+
+// Check returns an error if the parameters of p are not valid for its family.
+func (p Prior) Check() error {
+	bad := func(f string, args ...any) error { return fmt.Errorf(f, args...) }
+	finite := !math.IsNaN(p.P1) && !math.IsInf(p.P1, 0) && !math.IsNaN(p.P2) && !math.IsInf(p.P2, 0)
+	if !finite {
+		return bad("prior parameters must be finite numbers")
+	}
+	switch p.Family {
+	case Normal:
+		if p.P2 <= 0 {
+			return bad("normal needs p1 = mean and p2 = sd > 0")
+		}
+	case HalfNormal:
+		if p.P1 <= 0 {
+			return bad("halfnormal needs p1 = sd > 0")
+		}
+	case Gamma:
+		if p.P1 <= 0 || p.P2 <= 0 {
+			return bad("gamma needs p1 = shape > 0 and p2 = rate > 0")
+		}
+	case Beta:
+		if p.P1 <= 0 || p.P2 <= 0 {
+			return bad("beta needs p1 > 0 and p2 > 0")
+		}
+	case Flat, Jeffreys, Fixed:
+	default:
+		return bad("unknown family %q; expected normal, halfnormal, gamma, beta, flat, jeffreys or fixed", p.Family)
+	}
+	return nil
+}
+
+func (p Prior) String() string {
+	switch p.Family {
+	case Normal, Gamma, Beta:
+		return fmt.Sprintf("%s(%g, %g)", p.Family, p.P1, p.P2)
+	case HalfNormal, Fixed:
+		return fmt.Sprintf("%s(%g)", p.Family, p.P1)
+	}
+	return string(p.Family)
+}

@@ -1,0 +1,88 @@
+package model
+
+import (
+	"math"
+	"time"
+)
+
+// SeasonPeriod is the seasonal period in weeks (365.25/7, rounded as in DESIGN.md).
+const SeasonPeriod = 52.18
+
+// Scaled is one national series in model units (DESIGN.md "Scaling").
+type Scaled struct {
+	T     int
+	Weeks []time.Time
+	// Tau is (t-1)/(T-1) for t = 1..T.
+	Tau []float64
+	// Season holds cos(2 pi t/P), cos(4 pi t/P), sin(2 pi t/P), sin(4 pi t/P)
+	// for t = 1..T: the regressors of c[1], c[2], d[1], d[2].
+	Season [4][]float64
+	// Upper and Search are spend divided by its mean over weeks with spend > 0,
+	// [channel][week].
+	Upper, Search [][]float64
+	// Queries and Outcome are divided by their means.
+	Queries, Outcome []float64
+	// Controls are standardised, [control][week].
+	Controls [][]float64
+
+	UpperNames, SearchNames, ControlNames []string
+	// UpperScale and SearchScale are the divisors: the mean raw spend per
+	// week over weeks with spend > 0.
+	UpperScale, SearchScale []float64
+	// QueriesScale and OutcomeScale are mean(q) and mean(y), in raw units.
+	QueriesScale, OutcomeScale float64
+	ControlMean, ControlSD     []float64
+	// RawUpper and RawSearch keep the raw spend for per-unit figures.
+	RawUpper, RawSearch [][]float64
+}
+
+// SpendScale returns the mean of x over the weeks with x > 0 (0 if none).
+func SpendScale(x []float64) float64 {
+	sum, n := 0.0, 0
+	for _, v := range x {
+		if v > 0 {
+			sum += v
+			n++
+		}
+	}
+	if n == 0 {
+		return 0
+	}
+	return sum / float64(n)
+}
+
+func scaleSpend(cols [][]float64) ([][]float64, []float64) {
+	var out [][]float64
+	var div []float64
+	for _, x := range cols {
+		d := SpendScale(x)
+		out = append(out, scaled(x, d))
+		div = append(div, d)
+	}
+	return out, div
+}
+
+func scaled(x []float64, d float64) []float64 {
+	out := make([]float64, len(x))
+	for i, v := range x {
+		out[i] = v / d
+	}
+	return out
+}
+
+func mean(x []float64) float64 {
+	s := 0.0
+	for _, v := range x {
+		s += v
+	}
+	return s / float64(len(x))
+}
+
+func meanSD(x []float64) (m, sd float64) {
+	m = mean(x)
+	ss := 0.0
+	for _, v := range x {
+		ss += (v - m) * (v - m)
+	}
+	return m, math.Sqrt(ss / float64(len(x)-1))
+}

@@ -1,0 +1,95 @@
+package model
+
+import "fmt"
+
+// The default priors of DESIGN.md.
+var (
+	PriorMu       = Prior{Normal, 0.5, 0.5}
+	PriorTrend    = Prior{Normal, 0, 0.5}
+	PriorSeason   = Prior{Normal, 0, 0.25}
+	PriorControl  = Prior{Normal, 0, 0.5}
+	PriorCoef     = Prior{HalfNormal, 0.5, 0}
+	PriorRetain   = Prior{Beta, 3, 3}
+	PriorHalfSat  = Prior{Gamma, 3, 3}
+	PriorShape    = Prior{Gamma, 4, 2}
+	PriorSigma    = Prior{HalfNormal, 0.5, 0}
+	defaultMedias = [4]Prior{PriorCoef, PriorRetain, PriorHalfSat, PriorShape}
+)
+
+// Options change how stages are built.
+type Options struct {
+	// Linear lists data columns whose channel term is coef * x (no adstock,
+	// no saturation).
+	Linear map[string]bool
+	// Priors overrides default priors by parameter name.
+	Priors map[string]Prior
+	// Plain samples in the direct coordinates (for comparison only).
+	Plain bool
+}
+
+func baseStage(name, suffix string, y []float64, sc *Scaled) *Stage {
+	st := &Stage{Name: name, Y: y, Intercept: "mu_" + suffix, MuPrior: PriorMu,
+		Sigma: "sigma_" + suffix, SigmaPrior: PriorSigma}
+	st.Regressors = append(st.Regressors, Regressor{Name: "b_" + suffix, X: sc.Tau, Prior: PriorTrend, Default: Real})
+	for k, nm := range []string{"c%s[1]", "c%s[2]", "d%s[1]", "d%s[2]"} {
+		st.Regressors = append(st.Regressors, Regressor{Name: fmt.Sprintf(nm, suffix), X: sc.Season[k], Prior: PriorSeason, Default: Real})
+	}
+	for k, z := range sc.Controls {
+		st.Regressors = append(st.Regressors, Regressor{Name: fmt.Sprintf("phi_%s[%s]", suffix, sc.ControlNames[k]), X: z, Prior: PriorControl, Default: Real})
+	}
+	return st
+}
+
+func channel(col string, x []float64, coef, lam, k, s string, o Options) Channel {
+	return Channel{Column: col, X: x,
+		Coef: coef + "[" + col + "]", Lam: lam + "[" + col + "]", K: k + "[" + col + "]", S: s + "[" + col + "]",
+		Priors: defaultMedias, Linear: o.Linear[col]}
+}
+
+// Demand returns stage 1: q~[t] on trend, seasonality, controls and each
+// upper-funnel channel (alpha, lam, K, S).
+func Demand(sc *Scaled, o Options) (*Stage, error) {
+	st := baseStage("demand", "q", sc.Queries, sc)
+	for c, col := range sc.UpperNames {
+		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o))
+	}
+	return finish(st, o)
+}
+
+// Outcome returns stage 2: y~[t] on trend, seasonality, controls, gamma q~,
+// each paid-search channel (beta, lam_s, K_s, S_s) and each upper-funnel
+// channel directly (delta, lam2, K2, S2).
+func Outcome(sc *Scaled, o Options) (*Stage, error) {
+	st := outcomeBase("outcome", sc, o)
+	st.Regressors = append(st.Regressors, Regressor{Name: "gamma", X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
+	// keep gamma right after the controls, before the channels
+	return finish(withChannels(st, sc, o), o)
+}
+
+// Naive returns stage 2 without the query term: what a model that ignores
+// branded search demand would credit to paid search.
+func Naive(sc *Scaled, o Options) (*Stage, error) {
+	return finish(withChannels(outcomeBase("naive", sc, o), sc, o), o)
+}
+
+func outcomeBase(name string, sc *Scaled, o Options) *Stage {
+	return baseStage(name, "y", sc.Outcome, sc)
+}
+
+func withChannels(st *Stage, sc *Scaled, o Options) *Stage {
+	for s, col := range sc.SearchNames {
+		st.Channels = append(st.Channels, channel(col, sc.Search[s], "beta", "lam_s", "K_s", "S_s", o))
+	}
+	for c, col := range sc.UpperNames {
+		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "delta", "lam2", "K2", "S2", o))
+	}
+	return st
+}
+
+func finish(st *Stage, o Options) (*Stage, error) {
+	st.Plain = o.Plain
+	for name, p := range o.Priors {
+		st.SetPrior(name, p)
+	}
+	return st, nil
+}

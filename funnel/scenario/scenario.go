@@ -1,0 +1,370 @@
+package scenario
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sort"
+	"time"
+
+	"spillway/funnel/data"
+	"spillway/funnel/model"
+	"spillway/funnel/transform"
+)
+
+// Channel holds the true transform of one channel in one stage.
+type Channel struct {
+	Coef, Lam, K, S float64
+}
+
+// Params are the true parameters of one scenario in generating units: the
+// stages are written for q and y relative to their baselines QueryBase and
+// OutcomeBase; Simulate rescales them to the fitted model's units.
+type Params struct {
+	MuQ, BQ, MuY, BY float64
+	SeasonQ, SeasonY [4]float64 // c[1], c[2], d[1], d[2]
+	PhiQ, PhiY       float64    // price effect (per sd of price)
+	Demand           []Channel  // per upper channel (alpha, lam, K, S)
+	Direct           []Channel  // per upper channel (delta, lam2, K2, S2)
+	Search           Channel    // paid search (beta, lam_s, K_s, S_s)
+	Gamma            float64
+	SigmaQ, SigmaY   float64
+}
+
+// Scenario describes a simulated data set.
+type Scenario struct {
+	Name  string
+	Weeks int
+	// Regions is 0 for national data; otherwise the number of regions.
+	Regions int
+	Seed    uint64
+	Start   time.Time
+	P       Params
+	// SearchFollowsQueries is the share of paid-search spend that tracks
+	// query volume (auction spend rises with searches).
+	SearchFollowsQueries float64
+	// Spend levels: mean weekly spend when on, raw currency units.
+	VideoLevel, AudioLevel, SearchLevel float64
+	QueryBase, OutcomeBase              float64
+}
+
+// Spec is the role declaration of every simulated data set.
+var Spec = data.Spec{Date: "week", Upper: []string{"video_spend", "audio_spend"}, Search: []string{"search_spend"},
+	Queries: "branded_queries", Outcome: "conversions", Controls: []string{"price"}}
+
+// RegionSpec is Spec with the region and population columns.
+var RegionSpec = func() data.Spec {
+	s := Spec
+	s.Region, s.Population = "region", "population"
+	return s
+}()
+
+var demoParams = Params{
+	MuQ: 0.6, BQ: 0.08, SeasonQ: [4]float64{0.06, 0.02, -0.04, 0.015}, PhiQ: -0.02,
+	Demand: []Channel{{0.45, 0.55, 0.7, 1.5}, {0.2, 0.35, 0.5, 1.1}},
+	MuY:    0.3, BY: 0.05, SeasonY: [4]float64{0.05, 0.01, 0.03, -0.01}, PhiY: -0.06,
+	Gamma: 0.35, Search: Channel{0.12, 0.15, 0.9, 1.3},
+	Direct: []Channel{{0.18, 0.45, 0.8, 1.4}, {0.12, 0.3, 0.6, 1.2}},
+	SigmaQ: 0.035, SigmaY: 0.03,
+}
+
+// Named returns a built-in scenario: "demo" (156 weeks, national),
+// "demo-regions" (the demo across 24 regions), and recovery-test variants
+// "slow-burn" (long carryover, strong saturation, mostly mediated video) and
+// "direct-audio" (audio works with no mediation at all, video 10% mediated).
+// weeks and regions of 0 keep the scenario's own.
+func Named(name string, seed uint64, weeks, regions int) (*Scenario, error) {
+	s := &Scenario{Name: name, Weeks: 156, Seed: seed, Start: time.Date(2023, 1, 2, 0, 0, 0, 0, time.UTC),
+		P: demoParams, SearchFollowsQueries: 0.6,
+		VideoLevel: 120000, AudioLevel: 40000, SearchLevel: 55000, QueryBase: 40000, OutcomeBase: 2500}
+	s.P.Demand = append([]Channel(nil), demoParams.Demand...)
+	s.P.Direct = append([]Channel(nil), demoParams.Direct...)
+	switch name {
+	case "demo":
+	case "demo-regions":
+		s.Regions = 24
+	case "slow-burn":
+		s.P.Demand = []Channel{{0.7, 0.8, 0.5, 2.2}, {0.15, 0.6, 0.9, 1.0}}
+		s.P.Direct = []Channel{{0.06, 0.75, 0.6, 2.0}, {0.2, 0.5, 1.1, 0.9}}
+		s.P.Gamma = 0.5
+	case "direct-audio":
+		s.P.Demand = []Channel{{0.08, 0.3, 0.9, 1.2}, {0, 0.5, 1, 2}}
+		s.P.Direct = []Channel{{0.3, 0.25, 0.7, 1.6}, {0.2, 0.2, 0.5, 1.3}}
+		s.P.Gamma = 0.3
+		s.P.Search = Channel{0.2, 0.1, 0.8, 1.5}
+	default:
+		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn or direct-audio", name)
+	}
+	if weeks > 0 {
+		s.Weeks = weeks
+	}
+	if regions > 0 {
+		s.Regions = regions
+	}
+	if s.Weeks < 52 {
+		return nil, fmt.Errorf("scenario: %d weeks is too few; the model needs at least 52", s.Weeks)
+	}
+	return s, nil
+}
+
+// Region is one region's true parameters in fitted model units.
+type Region struct {
+	Name       string
+	Population float64
+	Demand     map[string]float64
+	Outcome    map[string]float64
+}
+
+// Result is a simulated data set and the truth behind it.
+type Result struct {
+	Data *data.Dataset
+	// Demand and Outcome are the true parameters in the fitted model's units
+	// (national data), named as the model names them.
+	Demand, Outcome map[string]float64
+	// Regions holds the per-region truth of a regional scenario.
+	Regions []Region
+}
+
+// Simulate draws the data. The same scenario and seed give the same data.
+func (s *Scenario) Simulate() (*Result, error) {
+	rng := rand.New(rand.NewPCG(s.Seed, 0x5ca1ab1e))
+	weeks := make([]time.Time, s.Weeks)
+	for i := range weeks {
+		weeks[i] = s.Start.AddDate(0, 0, 7*i)
+	}
+	video, audio := s.videoSpend(rng), s.audioSpend(rng)
+	price := s.price(rng)
+	spec := Spec
+	if s.Regions > 0 {
+		spec = RegionSpec
+	}
+	ds := &data.Dataset{Spec: spec, Weeks: weeks}
+	res := &Result{Data: ds}
+	if s.Regions == 0 {
+		reg, dem, out := s.region(rng, "", 0, weeks, video, audio, price, s.P)
+		ds.Regions = []data.Region{reg}
+		res.Demand, res.Outcome = dem, out
+		return res, nil
+	}
+	pops := make([]float64, s.Regions)
+	total := 0.0
+	for g := range pops {
+		pops[g] = math.Round(3e5 * math.Exp(1.1*rng.NormFloat64()+0.8))
+		total += pops[g]
+	}
+	for g := 0; g < s.Regions; g++ {
+		share := pops[g] / total
+		// region-specific spend around the national plan, intercept and
+		// media effectiveness (DESIGN.md's region panel)
+		rv, ra := make([]float64, s.Weeks), make([]float64, s.Weeks)
+		for i := range rv {
+			rv[i] = round2(video[i] * share * math.Exp(0.15*rng.NormFloat64()))
+			ra[i] = round2(audio[i] * share * math.Exp(0.15*rng.NormFloat64()))
+		}
+		p := s.P
+		p.MuQ += 0.08 * rng.NormFloat64()
+		p.MuY += 0.08 * rng.NormFloat64()
+		p.Demand = scaleCoefs(p.Demand, rng, 0.2)
+		p.Direct = scaleCoefs(p.Direct, rng, 0.2)
+		p.Gamma *= math.Exp(0.15 * rng.NormFloat64())
+		p.Search.Coef *= math.Exp(0.2 * rng.NormFloat64())
+		r2 := *s
+		r2.QueryBase, r2.OutcomeBase, r2.SearchLevel = s.QueryBase*share, s.OutcomeBase*share, s.SearchLevel*share
+		name := fmt.Sprintf("R%02d", g+1)
+		reg, dem, out := r2.region(rng, name, pops[g], weeks, rv, ra, price, p)
+		ds.Regions = append(ds.Regions, reg)
+		res.Regions = append(res.Regions, Region{Name: name, Population: pops[g], Demand: dem, Outcome: out})
+	}
+	return res, nil
+}
+
+func scaleCoefs(cs []Channel, rng *rand.Rand, sd float64) []Channel {
+	out := append([]Channel(nil), cs...)
+	for i := range out {
+		out[i].Coef *= math.Exp(sd * rng.NormFloat64())
+	}
+	return out
+}
+
+// region simulates one series from p and returns it with the true
+// parameters rescaled to the units the model fits in.
+func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time.Time, video, audio, price []float64, p Params) (data.Region, map[string]float64, map[string]float64) {
+	T := len(weeks)
+	upperRaw := [][]float64{video, audio}
+	upper := make([][]float64, 2)
+	for c, x := range upperRaw {
+		upper[c] = divide(x, model.SpendScale(x))
+	}
+	z := standardise(price)
+	tau := make([]float64, T)
+	var season [4][]float64
+	for k := range season {
+		season[k] = make([]float64, T)
+	}
+	for i := 0; i < T; i++ {
+		tau[i] = float64(i) / float64(T-1)
+		w := 2 * math.Pi * float64(i+1) / model.SeasonPeriod
+		season[0][i], season[1][i], season[2][i], season[3][i] = math.Cos(w), math.Cos(2*w), math.Sin(w), math.Sin(2*w)
+	}
+	// stage 1 in generating units
+	q := make([]float64, T)
+	for i := 0; i < T; i++ {
+		q[i] = p.MuQ + p.BQ*tau[i] + p.PhiQ*z[i] + p.SigmaQ*rng.NormFloat64()
+		for k := 0; k < 4; k++ {
+			q[i] += p.SeasonQ[k] * season[k][i]
+		}
+	}
+	for c, ch := range p.Demand {
+		h := hillSeries(upper[c], ch)
+		for i := range q {
+			q[i] += ch.Coef * h[i]
+		}
+	}
+	// paid search spend partly follows query volume
+	mq := mean(q)
+	search := make([]float64, T)
+	for i := range search {
+		f := s.SearchFollowsQueries*q[i]/mq + (1 - s.SearchFollowsQueries)
+		search[i] = round2(s.SearchLevel * f * math.Exp(0.08*rng.NormFloat64()))
+	}
+	xs := divide(search, model.SpendScale(search))
+	y := make([]float64, T)
+	for i := 0; i < T; i++ {
+		y[i] = p.MuY + p.BY*tau[i] + p.PhiY*z[i] + p.Gamma*q[i] + p.SigmaY*rng.NormFloat64()
+		for k := 0; k < 4; k++ {
+			y[i] += p.SeasonY[k] * season[k][i]
+		}
+	}
+	hs := hillSeries(xs, p.Search)
+	for i := range y {
+		y[i] += p.Search.Coef * hs[i]
+	}
+	for c, ch := range p.Direct {
+		h := hillSeries(upper[c], ch)
+		for i := range y {
+			y[i] += ch.Coef * h[i]
+		}
+	}
+	// raw units; the model divides by the means, so the truth is rescaled by them
+	mqs, mys := mean(q), mean(y)
+	queries, outcome := make([]float64, T), make([]float64, T)
+	for i := range q {
+		queries[i] = math.Round(q[i] * s.QueryBase)
+		outcome[i] = math.Round(y[i] * s.OutcomeBase)
+	}
+	// rounding changes the means slightly; use the means the model will see
+	mqs = mean(queries) / s.QueryBase
+	mys = mean(outcome) / s.OutcomeBase
+	dem := map[string]float64{"mu_q": p.MuQ / mqs, "b_q": p.BQ / mqs, "phi_q[price]": p.PhiQ / mqs, "sigma_q": p.SigmaQ / mqs}
+	out := map[string]float64{"mu_y": p.MuY / mys, "b_y": p.BY / mys, "phi_y[price]": p.PhiY / mys, "sigma_y": p.SigmaY / mys,
+		"gamma": p.Gamma * mqs / mys}
+	for k, nm := range []string{"[1]", "[2]"} {
+		dem["cq"+nm], dem["dq"+nm] = p.SeasonQ[k]/mqs, p.SeasonQ[k+2]/mqs
+		out["cy"+nm], out["dy"+nm] = p.SeasonY[k]/mys, p.SeasonY[k+2]/mys
+	}
+	for c, col := range Spec.Upper {
+		ch := p.Demand[c]
+		dem["alpha["+col+"]"], dem["lam["+col+"]"], dem["K["+col+"]"], dem["S["+col+"]"] = ch.Coef/mqs, ch.Lam, ch.K, ch.S
+		d := p.Direct[c]
+		out["delta["+col+"]"], out["lam2["+col+"]"], out["K2["+col+"]"], out["S2["+col+"]"] = d.Coef/mys, d.Lam, d.K, d.S
+	}
+	sc := Spec.Search[0]
+	out["beta["+sc+"]"], out["lam_s["+sc+"]"], out["K_s["+sc+"]"], out["S_s["+sc+"]"] = p.Search.Coef/mys, p.Search.Lam, p.Search.K, p.Search.S
+	reg := data.Region{Name: name, Population: pop, Series: data.Series{
+		Weeks: weeks, Upper: upperRaw, Search: [][]float64{search}, Queries: queries, Outcome: outcome,
+		Controls: [][]float64{price}}}
+	return reg, dem, out
+}
+
+// videoSpend draws flighted video spend: bursts of 3 to 8 weeks on, gaps of
+// 2 to 6 weeks off, heavier in spring and autumn.
+func (s *Scenario) videoSpend(rng *rand.Rand) []float64 {
+	x := make([]float64, s.Weeks)
+	for i := 0; i < s.Weeks; {
+		on := 3 + rng.IntN(6)
+		level := s.VideoLevel * math.Exp(0.35*rng.NormFloat64())
+		for j := 0; j < on && i < s.Weeks; j++ {
+			season := 1 + 0.25*math.Cos(4*math.Pi*float64(i)/model.SeasonPeriod)
+			x[i] = round2(level * season * math.Exp(0.1*rng.NormFloat64()))
+			i++
+		}
+		i += 2 + rng.IntN(5)
+	}
+	return x
+}
+
+// audioSpend draws always-on audio with a summer lift and off weeks.
+func (s *Scenario) audioSpend(rng *rand.Rand) []float64 {
+	x := make([]float64, s.Weeks)
+	for i := range x {
+		if rng.Float64() < 0.15 {
+			continue
+		}
+		summer := 1 + 0.4*math.Sin(2*math.Pi*float64(i)/model.SeasonPeriod)
+		x[i] = round2(s.AudioLevel * summer * math.Exp(0.3*rng.NormFloat64()))
+	}
+	return x
+}
+
+// price draws a list price near 49 with promotion weeks.
+func (s *Scenario) price(rng *rand.Rand) []float64 {
+	x := make([]float64, s.Weeks)
+	for i := range x {
+		x[i] = 49 + 0.4*rng.NormFloat64()
+		if rng.Float64() < 0.12 {
+			x[i] -= 5
+		}
+		x[i] = round2(x[i])
+	}
+	return x
+}
+
+func hillSeries(x []float64, c Channel) []float64 {
+	a := transform.Adstock(nil, x, c.Lam)
+	for i, v := range a {
+		a[i] = transform.Hill(v, c.K, c.S)
+	}
+	return a
+}
+
+func divide(x []float64, d float64) []float64 {
+	out := make([]float64, len(x))
+	for i, v := range x {
+		out[i] = v / d
+	}
+	return out
+}
+
+func standardise(x []float64) []float64 {
+	m := mean(x)
+	ss := 0.0
+	for _, v := range x {
+		ss += (v - m) * (v - m)
+	}
+	sd := math.Sqrt(ss / float64(len(x)-1))
+	out := make([]float64, len(x))
+	for i, v := range x {
+		out[i] = (v - m) / sd
+	}
+	return out
+}
+
+func mean(x []float64) float64 {
+	s := 0.0
+	for _, v := range x {
+		s += v
+	}
+	return s / float64(len(x))
+}
+
+func round2(v float64) float64 { return math.Round(v*100) / 100 }
+
+// ParamNames returns the sorted names of a truth map (for stable output).
+func ParamNames(m map[string]float64) []string {
+	out := make([]string, 0, len(m))
+	for k := range m {
+		out = append(out, k)
+	}
+	sort.Strings(out)
+	return out
+}
