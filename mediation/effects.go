@@ -156,9 +156,23 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 	}
 	T := sc.T
 	my := sc.OutcomeScale
-	// the regressors of stage 2 other than q and paid search's own term, for
-	// the omitted-variable identity: intercept, trend, season, controls
-	base := 1 + 1 + 4 + len(sc.Controls)
+	// The omitted-variable identity regresses q~ on stage 2's other
+	// sampled regressors: the intercept, trend, seasons and controls that
+	// are not held fixed, then every channel's response.
+	var baseCols [][]float64
+	if !isFixed(in.Outcome.MuPrior) {
+		ones := make([]float64, T)
+		for i := range ones {
+			ones[i] = 1
+		}
+		baseCols = append(baseCols, ones)
+	}
+	for _, r := range in.Outcome.Regressors {
+		if r.Name != "gamma" && !isFixed(r.Prior) {
+			baseCols = append(baseCols, r.X)
+		}
+	}
+	base := len(baseCols)
 	p := base + ns + nu
 	upperIdx := make([]int, nu)
 	searchIdx := make([]int, ns)
@@ -217,14 +231,12 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 					}
 				}
 				// paid search: controlled, and apparent by the omitted-variable identity
-				for i := 0; i < T; i++ {
-					X.Set(i, 0, 1)
-					X.Set(i, 1, sc.Tau[i])
-					for k := 0; k < 4; k++ {
-						X.Set(i, 2+k, sc.Season[k][i])
-					}
-					for k := range sc.Controls {
-						X.Set(i, 6+k, sc.Controls[k][i])
+				if ns == 0 {
+					continue
+				}
+				for k, col := range baseCols {
+					for i, v := range col {
+						X.Set(i, k, v)
 					}
 				}
 				for s := 0; s < ns; s++ {
@@ -461,3 +473,5 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 	}
 	return out, nil
 }
+
+func isFixed(p model.Prior) bool { return p.Family == model.Fixed }

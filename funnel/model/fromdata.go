@@ -49,4 +49,3 @@ func Scale(s data.Series, spec data.Spec) *Scaled {
 	}
 	return sc
 }
-

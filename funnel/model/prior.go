@@ -14,7 +14,7 @@ const (
 	HalfNormal Family = "halfnormal" // HalfNormal(sd P1) on x > 0: 2/(P1 sqrt(2 pi)) exp(-x^2/(2 P1^2))
 	Gamma      Family = "gamma"      // Gamma(shape P1, rate P2) on x > 0
 	Beta       Family = "beta"       // Beta(P1, P2) on (0, 1)
-	Flat       Family = "flat"       // improper uniform on the parameter's natural support
+	Flat       Family = "flat"       // improper uniform: on the real line for a coefficient, else on the parameter's support
 	Jeffreys   Family = "jeffreys"   // improper 1/x on x > 0 (flat on log x; for a scale)
 	Fixed      Family = "fixed"      // the parameter is held at P1 and not sampled
 )

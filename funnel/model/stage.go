@@ -96,11 +96,21 @@ func (s *Stage) SetPrior(name string, p Prior) bool {
 // prior does not fit its parameter (a beta prior on a coefficient, say).
 func (s *Stage) Target() (*Target, error) {
 	t := &Target{st: s, T: len(s.Y)}
+	coefficient := map[string]bool{}
+	for _, r := range s.Regressors {
+		coefficient[r.Name] = true
+	}
+	for _, c := range s.Channels {
+		coefficient[c.Coef] = true
+	}
 	add := func(name string, p Prior, def Support) (int, error) {
 		if err := p.Check(); err != nil {
 			return 0, fmt.Errorf("prior for %s: %v", name, err)
 		}
 		sup := p.Support(def)
+		if p.Family == Flat && coefficient[name] {
+			sup = Real // a flat prior on a coefficient frees its sign
+		}
 		if def == UnitInterval && sup != UnitInterval || def != UnitInterval && sup == UnitInterval {
 			return 0, fmt.Errorf("prior for %s: %s does not fit a parameter on %s", name, p.Family, supportName(def))
 		}

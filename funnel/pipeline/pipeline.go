@@ -1,0 +1,103 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/mediation"
+)
+
+// StageNames are the three fits in the order they run.
+var StageNames = [3]string{"demand", "outcome", "naive"}
+
+// Stages builds the three stages for sc.
+func Stages(sc *model.Scaled, o model.Options) ([3]*model.Stage, error) {
+	var out [3]*model.Stage
+	for i, f := range []func(*model.Scaled, model.Options) (*model.Stage, error){model.Demand, model.Outcome, model.Naive} {
+		st, err := f(sc, o)
+		if err != nil {
+			return out, err
+		}
+		out[i] = st
+	}
+	return out, nil
+}
+
+// Known reports whether name is a parameter of any of the stages.
+func Known(st [3]*model.Stage) func(string) bool {
+	names := map[string]bool{}
+	for _, s := range st {
+		for _, n := range s.Names() {
+			names[n] = true
+		}
+	}
+	return func(n string) bool { return names[n] }
+}
+
+// Fitted holds the three fits.
+type Fitted struct {
+	Data   *model.Scaled
+	Stages [3]*model.Stage
+	Fits   [3]*mcmc.Fit
+	// Wall is each stage's wall time in seconds, warm-up and sampling of all
+	// chains as the user waits for it.
+	Wall [3]float64
+}
+
+// StageHook is called before each stage starts; it may return a progress
+// recorder for the stage and a function to call when the stage ends (either
+// may be nil).
+type StageHook func(stage string) (mcmc.Recorder, func())
+
+// Fit runs the three stages with settings s (chains in parallel, stages one
+// after another). Stage k uses seed s.Seed + k so the fits draw independent
+// streams. hook may be nil.
+func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings, hook StageHook) (*Fitted, error) {
+	st, err := Stages(sc, o)
+	if err != nil {
+		return nil, err
+	}
+	f := &Fitted{Data: sc, Stages: st}
+	for k, stage := range st {
+		tg, err := stage.Target()
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", stage.Name, err)
+		}
+		set := s
+		set.Seed = s.Seed + uint64(k)
+		var done func()
+		if hook != nil {
+			set.Recorder, done = hook(stage.Name)
+		}
+		t0 := time.Now()
+		fit, err := mcmc.Run(ctx, tg, &set)
+		if done != nil {
+			done()
+		}
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", stage.Name, err)
+		}
+		f.Fits[k] = fit
+		f.Wall[k] = time.Since(t0).Seconds()
+	}
+	return f, nil
+}
+
+// Inputs pairs the fits' draws for the effect split.
+func (f *Fitted) Inputs() *mediation.Inputs {
+	return Pair(f.Data, f.Stages, f.Fits)
+}
+
+// Pair builds the split's inputs from stages and their fits (e.g. read back
+// from a fit folder).
+func Pair(sc *model.Scaled, st [3]*model.Stage, fits [3]*mcmc.Fit) *mediation.Inputs {
+	in := &mediation.Inputs{Data: sc, Demand: st[0], Outcome: st[1], Naive: st[2],
+		DemandDraws: mediation.FromFit(fits[0]), OutcomeDraws: mediation.FromFit(fits[1])}
+	if fits[2] != nil {
+		in.NaiveDraws = mediation.FromFit(fits[2])
+	}
+	return in
+}

@@ -1,0 +1,233 @@
+package mediation
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+	"time"
+
+	"gonum.org/v1/gonum/floats/scalar"
+	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/model"
+	"spillway/funnel/transform"
+	"spillway/mediation/ols"
+)
+
+// synth builds a scaled national series with two upper channels, one search
+// channel and a control, and random parameter vectors for both stages.
+func synth(t *testing.T, T int, seed uint64, o model.Options) (*model.Scaled, *model.Stage, *model.Stage, []float64, []float64) {
+	t.Helper()
+	rng := rand.New(rand.NewPCG(seed, 2))
+	sc := &model.Scaled{T: T, UpperNames: []string{"video", "audio"}, SearchNames: []string{"search"}, ControlNames: []string{"price"},
+		OutcomeScale: 2500, QueriesScale: 40000}
+	start := time.Date(2024, 1, 1, 0, 0, 0, 0, time.UTC)
+	sc.Tau = make([]float64, T)
+	for k := range sc.Season {
+		sc.Season[k] = make([]float64, T)
+	}
+	for i := 0; i < T; i++ {
+		sc.Weeks = append(sc.Weeks, start.AddDate(0, 0, 7*i))
+		sc.Tau[i] = float64(i) / float64(T-1)
+		w := 2 * math.Pi * float64(i+1) / model.SeasonPeriod
+		sc.Season[0][i], sc.Season[1][i], sc.Season[2][i], sc.Season[3][i] = math.Cos(w), math.Cos(2*w), math.Sin(w), math.Sin(2*w)
+	}
+	spend := func() ([]float64, []float64) {
+		raw := make([]float64, T)
+		for i := range raw {
+			if rng.Float64() < 0.7 {
+				raw[i] = 1000 * rng.ExpFloat64()
+			}
+		}
+		d := model.SpendScale(raw)
+		x := make([]float64, T)
+		for i := range x {
+			x[i] = raw[i] / d
+		}
+		return raw, x
+	}
+	for c := 0; c < 2; c++ {
+		raw, x := spend()
+		sc.RawUpper, sc.Upper = append(sc.RawUpper, raw), append(sc.Upper, x)
+	}
+	raw, x := spend()
+	sc.RawSearch, sc.Search = [][]float64{raw}, [][]float64{x}
+	z := make([]float64, T)
+	sc.Queries, sc.Outcome = make([]float64, T), make([]float64, T)
+	for i := range z {
+		z[i] = rng.NormFloat64()
+		sc.Queries[i] = 1 + 0.1*rng.NormFloat64()
+		sc.Outcome[i] = 1 + 0.1*rng.NormFloat64()
+	}
+	sc.Controls = [][]float64{z}
+	d1, _ := model.Demand(sc, o)
+	d2, _ := model.Outcome(sc, o)
+	draw := func(st *model.Stage) []float64 {
+		v := make([]float64, len(st.Names()))
+		for i, n := range st.Names() {
+			switch n[0] {
+			case 'l':
+				v[i] = 0.2 + 0.6*rng.Float64()
+			case 'K', 'S':
+				v[i] = 0.5 + rng.Float64()
+			default:
+				v[i] = 0.05 + 0.4*rng.Float64()
+			}
+		}
+		return v
+	}
+	return sc, d1, d2, draw(d1), draw(d2)
+}
+
+func param(st *model.Stage, v []float64, name string) float64 {
+	for i, n := range st.Names() {
+		if n == name {
+			return v[i]
+		}
+	}
+	panic("no parameter " + name)
+}
+
+// TestSplitClosedForm checks the whole-period effects against DESIGN.md's
+// closed forms: NIE = mean(y) gamma alpha sum_t H(a(x)), NDE = mean(y) delta
+// sum_t H(a(x); lam2, K2, S2), computed here directly from the transforms.
+// For a quarter, the counterfactual zeroes spend inside the quarter only, so
+// carryover into the following weeks counts and earlier weeks do not.
+func TestSplitClosedForm(t *testing.T) {
+	sc, st1, st2, v1, v2 := synth(t, 104, 1, model.Options{})
+	in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
+		DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
+	wins := Quarters(sc.Weeks)
+	res, err := Split(in, wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := map[string]float64{}
+	for _, e := range res.Effects {
+		got[e.Channel+"/"+e.Path+"/"+e.Window] = e.Draws[0]
+	}
+	hsum := func(x []float64, lam, k, s float64) []float64 {
+		a := transform.Adstock(nil, x, lam)
+		for i := range a {
+			a[i] = transform.Hill(a[i], k, s)
+		}
+		return a
+	}
+	gamma := param(st2, v2, "gamma")
+	for c, col := range sc.UpperNames {
+		h1 := hsum(sc.Upper[c], param(st1, v1, "lam["+col+"]"), param(st1, v1, "K["+col+"]"), param(st1, v1, "S["+col+"]"))
+		h2 := hsum(sc.Upper[c], param(st2, v2, "lam2["+col+"]"), param(st2, v2, "K2["+col+"]"), param(st2, v2, "S2["+col+"]"))
+		var s1, s2 float64
+		for i := range h1 {
+			s1 += h1[i]
+			s2 += h2[i]
+		}
+		wantVia := sc.OutcomeScale * gamma * param(st1, v1, "alpha["+col+"]") * s1
+		wantDir := sc.OutcomeScale * param(st2, v2, "delta["+col+"]") * s2
+		for _, c := range []struct {
+			key  string
+			want float64
+		}{{col + "/via_search/all", wantVia}, {col + "/direct/all", wantDir}, {col + "/total/all", wantVia + wantDir}, {col + "/mediated_share/all", wantVia / (wantVia + wantDir)}} {
+			if !scalar.EqualWithinAbsOrRel(got[c.key], c.want, 1e-12, 1e-12) {
+				t.Errorf("%s: got %v, want %v (closed form)", c.key, got[c.key], c.want)
+			}
+		}
+		// a quarter: zero the spend inside it; weeks before it are untouched
+		q := wins[3]
+		cf := append([]float64(nil), sc.Upper[c]...)
+		for i := q.From; i <= q.To; i++ {
+			cf[i] = 0
+		}
+		h1cf := hsum(cf, param(st1, v1, "lam["+col+"]"), param(st1, v1, "K["+col+"]"), param(st1, v1, "S["+col+"]"))
+		d := 0.0
+		for i := range h1 {
+			d += h1[i] - h1cf[i]
+		}
+		want := sc.OutcomeScale * gamma * param(st1, v1, "alpha["+col+"]") * d
+		if k := col + "/via_search/" + q.Name; !scalar.EqualWithinAbsOrRel(got[k], want, 1e-12, 1e-12) {
+			t.Errorf("%s: got %v, want %v", k, got[k], want)
+		}
+	}
+}
+
+// TestBorrowedIdentity checks the omitted-variable identity (Wooldridge,
+// Introductory Econometrics, ch. 3): if the outcome were exactly the stage-2
+// predictor, least squares of y~ on stage 2's regressors without q~ would
+// give paid search the coefficient beta + gamma d. The split's apparent
+// effect must equal mean(y) times that refitted coefficient times sum H.
+func TestBorrowedIdentity(t *testing.T) {
+	sc, st1, st2, v1, v2 := synth(t, 120, 2, model.Options{})
+	// make the outcome exactly the stage-2 predictor at v2
+	sc.Outcome = st2.Predict(nil, v2)
+	in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
+		DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
+	res, err := Split(in, Quarters(sc.Weeks)[:1])
+	if err != nil {
+		t.Fatal(err)
+	}
+	T := sc.T
+	X := mat.NewDense(T, 10, nil)
+	hs, _ := st2.Response(nil, st2.ChannelIndex("search"), v2, sc.Search[0])
+	hv, _ := st2.Response(nil, st2.ChannelIndex("video"), v2, sc.Upper[0])
+	ha, _ := st2.Response(nil, st2.ChannelIndex("audio"), v2, sc.Upper[1])
+	y := make([]float64, T)
+	for i := 0; i < T; i++ {
+		X.SetRow(i, []float64{1, sc.Tau[i], sc.Season[0][i], sc.Season[1][i], sc.Season[2][i], sc.Season[3][i], sc.Controls[0][i], hs[i], hv[i], ha[i]})
+		y[i] = sc.Outcome[i] - param(st2, v2, "gamma")*0 // y~ itself, q~ omitted from X
+	}
+	fit, err := ols.Solve(X, y)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sum := 0.0
+	for _, v := range hs {
+		sum += v
+	}
+	want := sc.OutcomeScale * fit.Coef[7] * sum
+	var app, ctl, share float64
+	for _, e := range res.Borrowed {
+		switch e.Path {
+		case "apparent":
+			app = e.Draws[0]
+		case "controlled":
+			ctl = e.Draws[0]
+		case "borrowed_share":
+			share = e.Draws[0]
+		}
+	}
+	if !scalar.EqualWithinAbsOrRel(app, want, 1e-9, 1e-9) {
+		t.Errorf("apparent: got %v, want %v (refit without the query term)", app, want)
+	}
+	if wantCtl := sc.OutcomeScale * param(st2, v2, "beta[search]") * sum; !scalar.EqualWithinAbsOrRel(ctl, wantCtl, 1e-12, 1e-12) {
+		t.Errorf("controlled: got %v, want %v", ctl, wantCtl)
+	}
+	if !scalar.EqualWithinAbsOrRel(share, (app-ctl)/app, 1e-9, 1e-9) {
+		t.Errorf("borrowed share: got %v, want %v", share, (app-ctl)/app)
+	}
+}
+
+// TestQuarters checks calendar quarter windows by week start date.
+func TestQuarters(t *testing.T) {
+	var weeks []time.Time
+	start := time.Date(2023, 12, 25, 0, 0, 0, 0, time.UTC) // a Monday in 2023Q4
+	for i := 0; i < 20; i++ {
+		weeks = append(weeks, start.AddDate(0, 0, 7*i))
+	}
+	w := Quarters(weeks)
+	want := []Window{{"all", 0, 19}, {"2023Q4", 0, 0}, {"2024Q1", 1, 13}, {"2024Q2", 14, 19}}
+	if len(w) != len(want) {
+		t.Fatalf("got %v, want %v", w, want)
+	}
+	for i := range w {
+		if w[i] != want[i] {
+			t.Errorf("window %d: got %v, want %v", i, w[i], want[i])
+		}
+	}
+	r, err := ParseWindow("2024-02-01:2024-02-29", weeks)
+	if err != nil || r.From != 6 || r.To != 9 {
+		t.Errorf("custom window: got %v %v, want weeks 6..9", r, err)
+	}
+	if _, err := ParseWindow("2025Q1", weeks); err == nil {
+		t.Error("a window outside the data must be an error")
+	}
+}
