@@ -32,3 +32,25 @@ func (b Bounded) Value(u float64) float64 { return b.Lo + (b.Hi-b.Lo)*Unit{}.Val
 
 // LogJac returns log(Hi-Lo) + log logistic(u)(1-logistic(u)).
 func (b Bounded) LogJac(u float64) float64 { return math.Log(b.Hi-b.Lo) + Unit{}.LogJac(u) }
+
+// LogJacGrad returns d/du log |dx/du| = 1.
+func (Positive) LogJacGrad(u float64) float64 { return 1 }
+
+// Unconstrain returns u = log x, the inverse of Value, for x > 0.
+func (Positive) Unconstrain(x float64) float64 { return math.Log(x) }
+
+// LogJacGrad returns d/du log x(1-x) = 1 - 2x with x = logistic(u).
+func (Unit) LogJacGrad(u float64) float64 { return 1 - 2*Unit{}.Value(u) }
+
+// Unconstrain returns u = logit(x) = log(x/(1-x)), the inverse of Value,
+// for x in (0, 1).
+func (Unit) Unconstrain(x float64) float64 { return math.Log(x) - math.Log1p(-x) }
+
+// LogJacGrad returns d/du of LogJac, 1 - 2 logistic(u).
+func (b Bounded) LogJacGrad(u float64) float64 { return Unit{}.LogJacGrad(u) }
+
+// Unconstrain returns u = logit((x-Lo)/(Hi-Lo)), the inverse of Value, for
+// x in (Lo, Hi).
+func (b Bounded) Unconstrain(x float64) float64 {
+	return Unit{}.Unconstrain((x - b.Lo) / (b.Hi - b.Lo))
+}

@@ -10,14 +10,36 @@ import (
 // spec. It does not validate: the loader has already rejected all-zero spend
 // and constant controls.
 func Scale(s data.Series, spec data.Spec) *Scaled {
+	return ScaleTrain(s, spec, nil)
+}
+
+// ScaleTrain is Scale with the scaling constants (spend divisors, the means
+// of queries and outcome, control means and sds) computed over the training
+// weeks only, train[t] true, and Mask set to the other weeks, so the stages
+// leave them out of the likelihood while adstock still runs through them.
+// tau is (t-1)/(L-1) with L-1 the index of the last training week, so tau
+// is 1 there (and above 1 in weeks forecast beyond it). A nil train means
+// every week (Scale).
+func ScaleTrain(s data.Series, spec data.Spec, train []bool) *Scaled {
 	T := len(s.Weeks)
+	in := func(i int) bool { return train == nil || train[i] }
 	sc := &Scaled{T: T, Weeks: s.Weeks,
 		UpperNames: spec.Upper, SearchNames: spec.Search, ControlNames: spec.Controls,
 		RawUpper: s.Upper, RawSearch: s.Search}
+	last := T - 1
+	if train != nil {
+		sc.Mask = make([]bool, T)
+		for i := range train {
+			sc.Mask[i] = !train[i]
+			if train[i] {
+				last = i
+			}
+		}
+	}
 	sc.Tau = make([]float64, T)
 	for i := range sc.Tau {
-		if T > 1 {
-			sc.Tau[i] = float64(i) / float64(T-1)
+		if last > 0 {
+			sc.Tau[i] = float64(i) / float64(last)
 		}
 	}
 	for k := range sc.Season {
@@ -31,14 +53,32 @@ func Scale(s data.Series, spec data.Spec) *Scaled {
 		sc.Season[2][i] = math.Sin(w)
 		sc.Season[3][i] = math.Sin(2 * w)
 	}
-	sc.Upper, sc.UpperScale = scaleSpend(s.Upper)
-	sc.Search, sc.SearchScale = scaleSpend(s.Search)
-	sc.QueriesScale = mean(s.Queries)
+	pick := func(x []float64) []float64 {
+		if train == nil {
+			return x
+		}
+		var out []float64
+		for i, v := range x {
+			if in(i) {
+				out = append(out, v)
+			}
+		}
+		return out
+	}
+	for _, x := range s.Upper {
+		d := SpendScale(pick(x))
+		sc.Upper, sc.UpperScale = append(sc.Upper, scaled(x, d)), append(sc.UpperScale, d)
+	}
+	for _, x := range s.Search {
+		d := SpendScale(pick(x))
+		sc.Search, sc.SearchScale = append(sc.Search, scaled(x, d)), append(sc.SearchScale, d)
+	}
+	sc.QueriesScale = mean(pick(s.Queries))
 	sc.Queries = scaled(s.Queries, sc.QueriesScale)
-	sc.OutcomeScale = mean(s.Outcome)
+	sc.OutcomeScale = mean(pick(s.Outcome))
 	sc.Outcome = scaled(s.Outcome, sc.OutcomeScale)
 	for _, z := range s.Controls {
-		m, sd := meanSD(z)
+		m, sd := meanSD(pick(z))
 		out := make([]float64, T)
 		for i, v := range z {
 			out[i] = (v - m) / sd

@@ -8,6 +8,8 @@ import (
 
 	"gonum.org/v1/gonum/diff/fd"
 	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/mcmc/mcmctest"
 )
 
 // testScaled builds a small scaled series with two upper channels, one search
@@ -75,7 +77,7 @@ var optionCases = []struct {
 	{"linear video", Options{Linear: map[string]bool{"video": true}}},
 	{"fixed and real priors", Options{Priors: map[string]Prior{
 		"b_q": {Fixed, 0, 0}, "b_y": {Fixed, 0, 0}, "K[audio]": {Fixed, 0.8, 0},
-		"alpha[video]": {Normal, 0, 1}, "delta[video]": {Normal, 0, 1}, "sigma_q": {Jeffreys, 0, 0}, "mu_y": {Flat, 0, 0},
+		"alpha[video]": {Normal, 0, 1}, "delta[video]": {Normal, 0, 1}, "delta[audio]": {Flat, 0, 0}, "sigma_q": {Jeffreys, 0, 0}, "mu_y": {Flat, 0, 0},
 	}}},
 	{"fixed intercept", Options{Priors: map[string]Prior{"mu_q": {Fixed, 0.3, 0}, "mu_y": {Fixed, 0.3, 0}}}},
 }
@@ -84,14 +86,30 @@ var optionCases = []struct {
 // finite differences (gonum diff/fd) at seeded random points.
 func TestGradient(t *testing.T) {
 	sc := testScaled(80, 3)
+	masked := testScaled(80, 3)
+	masked.Mask = make([]bool, 80)
+	for i := 60; i < 72; i++ {
+		masked.Mask[i] = true // a held-out stretch
+	}
 	rng := rand.New(rand.NewPCG(7, 7))
-	for _, oc := range optionCases {
-		for _, st := range stages(t, sc, oc.o) {
+	cases := append(optionCases, struct {
+		name string
+		o    Options
+	}{"masked", Options{}})
+	for _, oc := range cases {
+		data := sc
+		if oc.name == "masked" {
+			data = masked
+		}
+		for _, st := range stages(t, data, oc.o) {
 			tg, err := st.Target()
 			if err != nil {
 				t.Fatalf("%s %s: %v", oc.name, st.Name, err)
 			}
 			n := tg.Dim()
+			// the project's reusable check (gonum fd central differences)
+			mcmctest.CheckGradient(t, tg, 1e-4, &mcmctest.GradSettings{Seed: 3, Points: 5, Radius: 1})
+			mcmctest.CheckNoAlloc(t, tg, make([]float64, n))
 			grad := make([]float64, n)
 			for rep := 0; rep < 5; rep++ {
 				x := make([]float64, n)
@@ -102,6 +120,9 @@ func TestGradient(t *testing.T) {
 				lp := tg.LogProbGrad(grad, x)
 				if math.IsInf(lp, 0) || math.IsNaN(lp) {
 					t.Fatalf("%s %s: log density %v", oc.name, st.Name, lp)
+				}
+				if v := tg.LogProb(x); math.Abs(v-lp) > 1e-9*math.Max(1, math.Abs(lp)) {
+					t.Errorf("%s %s: LogProb %v, LogProbGrad %v", oc.name, st.Name, v, lp)
 				}
 				want := fd.Gradient(nil, f, x, &fd.Settings{Formula: fd.Central, Step: 1e-6})
 				// |grad - fd|inf relative to max(1, |fd|inf): central differences
@@ -186,14 +207,52 @@ func TestSamePosterior(t *testing.T) {
 	}
 }
 
+// BenchmarkLogProbGrad and BenchmarkLogProb time the outcome stage (three
+// saturating channels, 156 weeks); the goal is a gradient at most 4 times
+// the cost of the density alone, with no allocation.
 func BenchmarkLogProbGrad(b *testing.B) {
-	sc := testScaled(156, 3)
-	st, _ := Outcome(sc, Options{})
-	tg, _ := st.Target()
-	x := make([]float64, tg.Dim())
+	tg, x := benchTarget()
 	g := make([]float64, tg.Dim())
 	b.ReportAllocs()
 	for b.Loop() {
 		tg.LogProbGrad(g, x)
+	}
+}
+
+func BenchmarkLogProb(b *testing.B) {
+	tg, x := benchTarget()
+	b.ReportAllocs()
+	for b.Loop() {
+		tg.LogProb(x)
+	}
+}
+
+func benchTarget() (*Target, []float64) {
+	sc := testScaled(156, 3)
+	st, _ := Outcome(sc, Options{})
+	tg, _ := st.Target()
+	x := make([]float64, tg.Dim())
+	for i := range x {
+		x[i] = 0.1 * float64(i%5)
+	}
+	return tg, x
+}
+
+// TestMaskDropsWeeks checks that a masked week leaves the likelihood: the
+// density must not change when a masked week's response changes.
+func TestMaskDropsWeeks(t *testing.T) {
+	sc := testScaled(60, 5)
+	sc.Mask = make([]bool, 60)
+	sc.Mask[30] = true
+	st, _ := Outcome(sc, Options{})
+	tg, _ := st.Target()
+	x := make([]float64, tg.Dim())
+	a := tg.LogProb(x)
+	sc.Outcome[30] += 5
+	b := tg.LogProb(x)
+	sc.Outcome[31] += 5
+	c := tg.LogProb(x)
+	if a != b || b == c {
+		t.Errorf("masked week changed the density (%v, %v) or an unmasked one did not (%v)", a, b, c)
 	}
 }

@@ -34,6 +34,9 @@ type Scaled struct {
 	ControlMean, ControlSD     []float64
 	// RawUpper and RawSearch keep the raw spend for per-unit figures.
 	RawUpper, RawSearch [][]float64
+	// Mask, if not nil, marks weeks left out of the likelihood (held out for
+	// validation); transforms still run through them.
+	Mask []bool
 }
 
 // SpendScale returns the mean of x over the weeks with x > 0 (0 if none).

@@ -43,6 +43,8 @@ type Stage struct {
 	Sigma      string
 	SigmaPrior Prior
 	Plain      bool // sample in the direct coordinates (no centring, no coefficient rescaling)
+	// Mask, if not nil, marks weeks left out of the likelihood.
+	Mask []bool
 }
 
 // Names returns the stage's constrained parameter names in draw order:
@@ -232,6 +234,7 @@ type Target struct {
 	ch      []chanTerm
 	centred bool
 
+	nObs      int       // weeks in the likelihood (not masked)
 	nat, gnat []float64 // natural values and gradients, len(par)
 	n, w      []float64 // linear predictor and scaled residuals, len T
 }
@@ -239,6 +242,12 @@ type Target struct {
 var _ mcmc.Target = (*Target)(nil)
 
 func (t *Target) alloc() {
+	t.nObs = t.T
+	for _, m := range t.st.Mask {
+		if m {
+			t.nObs--
+		}
+	}
 	t.nat = make([]float64, len(t.par))
 	t.gnat = make([]float64, len(t.par))
 	t.n = make([]float64, t.T)
@@ -274,7 +283,7 @@ func (t *Target) Clone() mcmc.Target {
 // decode fills t.nat from the unconstrained x (the intercept slot holds the
 // centred intercept m0 until the end of the likelihood pass), and computes
 // each channel's transformed series.
-func (t *Target) decode(x []float64) {
+func (t *Target) decode(x []float64, wantGrad bool) {
 	for i, p := range t.par {
 		if p.free < 0 {
 			t.nat[i] = p.prior.P1
@@ -302,6 +311,20 @@ func (t *Target) decode(x []float64) {
 			continue
 		}
 		lam, k, s := t.nat[c.k[1]], t.nat[c.k[2]], t.nat[c.k[3]]
+		if !wantGrad {
+			transform.Adstock(c.a, c.x, lam)
+			sh := 0.0
+			for i, a := range c.a {
+				c.h[i] = transform.Hill(a, k, s)
+				sh += c.h[i]
+			}
+			c.hbar = sh / float64(t.T)
+			c.href = 1
+			if !t.st.Plain {
+				c.href = transform.Hill(c.abar, k, s)
+			}
+			continue
+		}
 		transform.AdstockGrad(c.a, c.da, c.x, lam)
 		var sh, shl, shk, shs float64
 		for i, a := range c.a {
@@ -335,7 +358,22 @@ func (t *Target) LogProbGrad(grad, x []float64) float64 {
 	if len(x) != t.dim || len(grad) != t.dim {
 		panic("model: dimension mismatch")
 	}
-	t.decode(x)
+	return t.logProb(grad, x)
+}
+
+// LogProb returns the log posterior density at x without its gradient.
+func (t *Target) LogProb(x []float64) float64 {
+	if len(x) != t.dim {
+		panic("model: dimension mismatch")
+	}
+	return t.logProb(nil, x)
+}
+
+// logProb computes the log density, and its gradient into grad unless grad
+// is nil.
+func (t *Target) logProb(grad, x []float64) float64 {
+	wantGrad := grad != nil
+	t.decode(x, wantGrad)
 	for _, v := range t.nat {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
 			return math.Inf(-1)
@@ -382,14 +420,46 @@ func (t *Target) LogProbGrad(grad, x []float64) float64 {
 	inv2 := 1 / (sigma * sigma)
 	ss := 0.0
 	sw := 0.0
+	mask := t.st.Mask
 	for i, y := range t.st.Y {
+		if mask != nil && mask[i] {
+			t.w[i] = 0
+			continue
+		}
 		e := y - t.n[i]
 		ss += e * e
 		t.w[i] = e * inv2
 		sw += t.w[i]
 	}
-	lp := -float64(t.T)*math.Log(sigma) - 0.5*ss*inv2
-	g[t.sigma] += -float64(t.T)/sigma + ss*inv2/sigma
+	lp := -float64(t.nObs)*math.Log(sigma) - 0.5*ss*inv2
+	if !wantGrad {
+		lpm, _ := t.par[t.mu].prior.LogPdf(mu)
+		lp += lpm
+		for i, p := range t.par {
+			if i == t.mu || p.free < 0 {
+				continue
+			}
+			l, _ := p.prior.LogPdf(nat[i])
+			lp += l
+			switch p.sup {
+			case PositiveReal:
+				lp += math.Log(nat[i])
+			case UnitInterval:
+				lp += math.Log(nat[i]) + math.Log1p(-nat[i])
+			}
+		}
+		for j := range t.ch {
+			c := &t.ch[j]
+			if pc := t.par[c.k[0]]; pc.free >= 0 && pc.sup == Real && !t.st.Plain {
+				lp -= math.Log(c.href)
+			}
+		}
+		if math.IsNaN(lp) {
+			return math.Inf(-1)
+		}
+		return lp
+	}
+	g[t.sigma] += -float64(t.nObs)/sigma + ss*inv2/sigma
 
 	// priors; the intercept prior acts on mu, a function of the others
 	lpm, gmu := t.par[t.mu].prior.LogPdf(mu)
@@ -498,7 +568,7 @@ func (t *Target) Constrain(dst, x []float64) []float64 {
 	if dst == nil {
 		dst = make([]float64, len(t.par))
 	}
-	t.decode(x)
+	t.decode(x, true)
 	copy(dst, t.nat)
 	mu := t.nat[t.mu]
 	if t.centred {

@@ -28,7 +28,7 @@ type Options struct {
 }
 
 func baseStage(name, suffix string, y []float64, sc *Scaled) *Stage {
-	st := &Stage{Name: name, Y: y, Intercept: "mu_" + suffix, MuPrior: PriorMu,
+	st := &Stage{Name: name, Y: y, Mask: sc.Mask, Intercept: "mu_" + suffix, MuPrior: PriorMu,
 		Sigma: "sigma_" + suffix, SigmaPrior: PriorSigma}
 	st.Regressors = append(st.Regressors, Regressor{Name: "b_" + suffix, X: sc.Tau, Prior: PriorTrend, Default: Real})
 	for k, nm := range []string{"c%s[1]", "c%s[2]", "d%s[1]", "d%s[2]"} {
@@ -60,7 +60,7 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 // each paid-search channel (beta, lam_s, K_s, S_s) and each upper-funnel
 // channel directly (delta, lam2, K2, S2).
 func Outcome(sc *Scaled, o Options) (*Stage, error) {
-	st := outcomeBase("outcome", sc, o)
+	st := outcomeBase("outcome", sc)
 	st.Regressors = append(st.Regressors, Regressor{Name: "gamma", X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
 	return finish(withChannels(st, sc, o), o)
@@ -69,10 +69,10 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 // Naive returns stage 2 without the query term: what a model that ignores
 // branded search demand would credit to paid search.
 func Naive(sc *Scaled, o Options) (*Stage, error) {
-	return finish(withChannels(outcomeBase("naive", sc, o), sc, o), o)
+	return finish(withChannels(outcomeBase("naive", sc), sc, o), o)
 }
 
-func outcomeBase(name string, sc *Scaled, o Options) *Stage {
+func outcomeBase(name string, sc *Scaled) *Stage {
 	return baseStage(name, "y", sc.Outcome, sc)
 }
 

@@ -1,0 +1,374 @@
+package mcmc
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"sync"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// Recorder receives progress from the chains. Record is called after every
+// iteration of every chain, from that chain's goroutine, so implementations
+// must be safe for concurrent use. chain is 0-based; iter counts from 1 to
+// Warmup+Draws within the chain; warmup reports whether the iteration was a
+// warm-up iteration. A non-nil error stops the run, and Run returns it.
+type Recorder interface {
+	Record(chain, iter int, warmup bool) error
+}
+
+// Settings configures Run. A nil *Settings means the zero value, and every
+// zero field means its documented default.
+type Settings struct {
+	// Chains is the number of chains, run in parallel goroutines. Zero means 4.
+	Chains int
+	// Warmup is the number of warm-up (adaptation) iterations per chain; they
+	// are discarded. Zero means 1000; use NoWarmup for none.
+	Warmup int
+	// Draws is the number of kept iterations per chain. Zero means 1000.
+	Draws int
+	// Seed seeds the random streams: chain c (0-based) uses
+	// rand.NewPCG(Seed, uint64(c)). The default 0 is a valid seed.
+	Seed uint64
+	// TargetAccept is the dual-averaging target δ for the mean acceptance
+	// statistic, in (0, 1). Zero means 0.8.
+	TargetAccept float64
+	// MaxTreeDepth caps the trajectory at 2^MaxTreeDepth leapfrog steps.
+	// Zero means 10.
+	MaxTreeDepth int
+	// Recorder, if not nil, receives progress after each iteration.
+	Recorder Recorder
+	// Init, if not nil, writes chain's initial unconstrained point into dst
+	// (len Dim()) and returns false if it cannot. Nil means each coordinate
+	// uniform in (−2, 2), redrawn up to InitTries times until the log density
+	// and its gradient are finite.
+	Init func(chain int, dst []float64) bool
+}
+
+// NoWarmup as Settings.Warmup asks for no warm-up at all: the step size comes
+// from the initial heuristic and the metric is the identity.
+const NoWarmup = -1
+
+// InitTries is the number of random initial points tried per chain.
+const InitTries = 100
+
+// Defaults of Settings.
+const (
+	DefaultChains       = 4
+	DefaultWarmup       = 1000
+	DefaultDraws        = 1000
+	DefaultTargetAccept = 0.8
+	DefaultMaxTreeDepth = 10
+)
+
+// resolved returns s with the defaults filled in, or an error for values
+// that cannot be used.
+func (s *Settings) resolved() (Settings, error) {
+	var r Settings
+	if s != nil {
+		r = *s
+	}
+	if r.Chains == 0 {
+		r.Chains = DefaultChains
+	}
+	switch {
+	case r.Warmup == 0:
+		r.Warmup = DefaultWarmup
+	case r.Warmup == NoWarmup:
+		r.Warmup = 0
+	}
+	if r.Draws == 0 {
+		r.Draws = DefaultDraws
+	}
+	if r.TargetAccept == 0 {
+		r.TargetAccept = DefaultTargetAccept
+	}
+	if r.MaxTreeDepth == 0 {
+		r.MaxTreeDepth = DefaultMaxTreeDepth
+	}
+	switch {
+	case r.Chains < 0:
+		return r, fmt.Errorf("mcmc: chains = %d, want > 0", r.Chains)
+	case r.Warmup < 0:
+		return r, fmt.Errorf("mcmc: warmup = %d, want >= 0", r.Warmup)
+	case r.Draws < 0:
+		return r, fmt.Errorf("mcmc: draws = %d, want > 0", r.Draws)
+	case !(r.TargetAccept > 0 && r.TargetAccept < 1):
+		return r, fmt.Errorf("mcmc: target acceptance %v, want in (0, 1)", r.TargetAccept)
+	case r.MaxTreeDepth < 0 || r.MaxTreeDepth > 30:
+		return r, fmt.Errorf("mcmc: max tree depth %d, want in [1, 30]", r.MaxTreeDepth)
+	}
+	return r, nil
+}
+
+// Fit holds the draws of all chains on the constrained scale.
+type Fit struct {
+	// Names are the constrained parameter names, one per column of Draws.
+	Names []string
+	// Chains holds one entry per chain, in chain order.
+	Chains []Chain
+}
+
+// Chain is one chain's kept draws and sampler statistics.
+type Chain struct {
+	// Draws has one row per kept iteration and one column per name, holding
+	// constrained values.
+	Draws *mat.Dense
+	// Stats are the sampler statistics; zero when read back from CSV.
+	Stats ChainStats
+}
+
+// ChainStats are one chain's sampler statistics.
+type ChainStats struct {
+	// WarmupSeconds and SamplingSeconds are wall-clock times of the two
+	// phases, in seconds.
+	WarmupSeconds, SamplingSeconds float64
+	// GradientEvaluations counts calls of LogProbGrad, warm-up included.
+	GradientEvaluations int
+	// Divergences counts divergent sampling iterations (energy error > 1000).
+	Divergences int
+	// TreeDepthHits counts sampling iterations that stopped at MaxTreeDepth.
+	TreeDepthHits int
+	// StepSize is the adapted leapfrog step size used for sampling.
+	StepSize float64
+	// EBFMI is the energy Bayesian fraction of missing information over the
+	// sampling iterations, Σ(E_n − E_{n−1})² / Σ(E_n − Ē)² (Betancourt 2016,
+	// "Diagnosing suboptimal cotangent disintegrations in Hamiltonian Monte
+	// Carlo"); NaN with fewer than two draws.
+	EBFMI float64
+	// MeanLeapfrogs is the mean number of leapfrog steps per sampling draw.
+	MeanLeapfrogs float64
+	// MeanAccept is the mean acceptance statistic over the sampling draws.
+	MeanAccept float64
+	// InvMetric is the adapted diagonal inverse metric (variance estimate of
+	// each unconstrained coordinate).
+	InvMetric []float64
+}
+
+// Column returns the draws of the named parameter per chain, as fresh slices
+// indexed [chain][iteration], or nil if the name is absent.
+func (f *Fit) Column(name string) [][]float64 {
+	j := -1
+	for i, n := range f.Names {
+		if n == name {
+			j = i
+			break
+		}
+	}
+	if j < 0 {
+		return nil
+	}
+	return f.column(j)
+}
+
+func (f *Fit) column(j int) [][]float64 {
+	out := make([][]float64, len(f.Chains))
+	for c, ch := range f.Chains {
+		out[c] = mat.Col(nil, j, ch.Draws)
+	}
+	return out
+}
+
+// NumDraws returns the total number of kept draws over all chains.
+func (f *Fit) NumDraws() int {
+	n := 0
+	for _, ch := range f.Chains {
+		if ch.Draws != nil {
+			r, _ := ch.Draws.Dims()
+			n += r
+		}
+	}
+	return n
+}
+
+// Run samples t with s.Chains NUTS chains in parallel goroutines, each on its
+// own clone of t (t itself is only asked for Names and Clone) and its own
+// random stream, so the draws are identical whatever GOMAXPROCS is. A nil s
+// means the defaults. Cancelling ctx stops all chains and returns ctx.Err();
+// an error from one chain (no finite initial point, a failed step-size
+// search, a Recorder error) stops the others and is returned, the lowest
+// chain's first.
+func Run(ctx context.Context, t Target, s *Settings) (*Fit, error) {
+	set, err := s.resolved()
+	if err != nil {
+		return nil, err
+	}
+	names := t.Names()
+	if t.Dim() < 1 {
+		return nil, errors.New("mcmc: model has dimension 0")
+	}
+	if len(names) == 0 {
+		return nil, errors.New("mcmc: target has no parameter names")
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	fit := &Fit{Names: append([]string(nil), names...), Chains: make([]Chain, set.Chains)}
+	errs := make([]error, set.Chains)
+	var wg sync.WaitGroup
+	for c := range set.Chains {
+		tc := t.Clone()
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			ch, err := runChain(ctx, tc, c, &set, len(names))
+			if err != nil {
+				errs[c] = err
+				cancel()
+				return
+			}
+			fit.Chains[c] = ch
+		}()
+	}
+	wg.Wait()
+	// Prefer a real failure over the cancellations it caused.
+	var first error
+	for _, e := range errs {
+		if e != nil && !errors.Is(e, context.Canceled) {
+			return nil, e
+		}
+		if e != nil && first == nil {
+			first = e
+		}
+	}
+	if first != nil {
+		return nil, first
+	}
+	return fit, nil
+}
+
+// runChain runs chain c (0-based) of set on t.
+func runChain(ctx context.Context, t Target, c int, set *Settings, nNames int) (Chain, error) {
+	rng := rand.New(rand.NewPCG(set.Seed, uint64(c)))
+	dim := t.Dim()
+	s := newNUTS(t, rng, set.MaxTreeDepth)
+	q0 := make([]float64, dim)
+	if set.Init != nil {
+		if !set.Init(c, q0) {
+			return Chain{}, fmt.Errorf("mcmc: chain %d: Init failed", c+1)
+		}
+		if !s.setPosition(q0) {
+			return Chain{}, fmt.Errorf("mcmc: chain %d: log density or gradient not finite at the given initial point", c+1)
+		}
+	} else {
+		ok := false
+		for try := 0; try < InitTries && !ok; try++ {
+			for i := range q0 {
+				q0[i] = -2 + 4*rng.Float64()
+			}
+			ok = s.setPosition(q0)
+		}
+		if !ok {
+			return Chain{}, &InitError{Chain: c, Tries: InitTries}
+		}
+	}
+	if err := s.findStepSize(); err != nil {
+		return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
+	}
+
+	da := NewDualAveraging(set.TargetAccept, math.Log(10*s.eps))
+	sched := newWindowSchedule(set.Warmup, DefaultInitBuffer, DefaultTermBuffer, DefaultBaseWindow)
+	wf := newWelford(dim)
+	varBuf := make([]float64, dim)
+
+	start := time.Now()
+	for it := 0; it < set.Warmup; it++ {
+		if err := ctx.Err(); err != nil {
+			return Chain{}, err
+		}
+		s.transition()
+		s.eps = da.Learn(s.accept)
+		inWin, endWin := sched.step()
+		if inWin {
+			wf.add(s.z.q)
+		}
+		if endWin {
+			wf.regularizedVariance(varBuf)
+			for _, v := range varBuf {
+				if math.IsNaN(v) || math.IsInf(v, 0) {
+					return Chain{}, fmt.Errorf("mcmc: chain %d: numerical overflow in metric adaptation", c+1)
+				}
+			}
+			wf.restart()
+			s.setMetric(varBuf)
+			if err := s.findStepSize(); err != nil {
+				return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
+			}
+			da.Mu = math.Log(10 * s.eps)
+			da.Restart()
+		}
+		if set.Recorder != nil {
+			if err := set.Recorder.Record(c, it+1, true); err != nil {
+				return Chain{}, err
+			}
+		}
+	}
+	if set.Warmup > 0 {
+		s.eps = da.Final()
+	}
+	warmSec := time.Since(start).Seconds()
+
+	draws := mat.NewDense(set.Draws, nNames, nil)
+	energy := make([]float64, set.Draws)
+	st := ChainStats{StepSize: s.eps}
+	leapfrogs, acceptSum := 0, 0.0
+	start = time.Now()
+	raw := draws.RawMatrix()
+	for it := 0; it < set.Draws; it++ {
+		if err := ctx.Err(); err != nil {
+			return Chain{}, err
+		}
+		s.transition()
+		if s.divergent {
+			st.Divergences++
+		}
+		if s.depth >= set.MaxTreeDepth {
+			st.TreeDepthHits++
+		}
+		leapfrogs += s.nLeapfrog
+		acceptSum += s.accept
+		energy[it] = s.energy
+		t.Constrain(raw.Data[it*raw.Stride:it*raw.Stride+nNames], s.z.q)
+		if set.Recorder != nil {
+			if err := set.Recorder.Record(c, set.Warmup+it+1, false); err != nil {
+				return Chain{}, err
+			}
+		}
+	}
+	st.SamplingSeconds = time.Since(start).Seconds()
+	st.WarmupSeconds = warmSec
+	st.GradientEvaluations = s.gradEvals
+	st.EBFMI = ebfmi(energy)
+	st.MeanLeapfrogs = float64(leapfrogs) / float64(set.Draws)
+	st.MeanAccept = acceptSum / float64(set.Draws)
+	st.InvMetric = append([]float64(nil), s.invMetric...)
+	return Chain{Draws: draws, Stats: st}, nil
+}
+
+// ebfmi returns Σ(E_n − E_{n−1})² / Σ(E_n − Ē)², NaN for fewer than two
+// energies or zero spread.
+func ebfmi(e []float64) float64 {
+	if len(e) < 2 {
+		return math.NaN()
+	}
+	mean := 0.0
+	for _, v := range e {
+		mean += v
+	}
+	mean /= float64(len(e))
+	num, den := 0.0, 0.0
+	for i, v := range e {
+		den += (v - mean) * (v - mean)
+		if i > 0 {
+			d := v - e[i-1]
+			num += d * d
+		}
+	}
+	if den == 0 {
+		return math.NaN()
+	}
+	return num / den
+}
