@@ -52,7 +52,7 @@ func TestRecovery(t *testing.T) {
 			t.Fatal(err)
 		}
 		scaled := model.Scale(res.Data.National(), res.Data.Spec)
-		fit, err := Fit(context.Background(), scaled, model.Options{}, mcmc.Settings{Chains: 4, Warmup: 500, Draws: 500, Seed: 3}, nil)
+		fit, err := Fit(context.Background(), scaled, model.Options{}, mcmc.Settings{Seed: 3}, nil)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -1,0 +1,247 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"github.com/spf13/pflag"
+	"golang.org/x/term"
+
+	"spillway/funnel/data"
+	"spillway/funnel/mcmc"
+	"spillway/funnel/mcmc/progress"
+	"spillway/funnel/model"
+	"spillway/funnel/pipeline"
+)
+
+// samplingFlags are the options of every command that fits the model.
+type samplingFlags struct {
+	out                   string
+	force                 bool
+	seed                  uint64
+	chains, warmup, draws int
+	priors                string
+	linear                []string
+	quiet                 bool
+}
+
+func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
+	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
+	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
+	fs.Uint64Var(&s.seed, "seed", 1, "random seed; the same data, flags and seed give the same draws")
+	fs.IntVar(&s.chains, "chains", mcmc.DefaultChains, "number of chains, run in parallel")
+	fs.IntVar(&s.warmup, "warmup", mcmc.DefaultWarmup, "warm-up iterations per chain")
+	fs.IntVar(&s.draws, "draws", mcmc.DefaultDraws, "kept draws per chain")
+	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
+	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
+	fs.BoolVar(&s.quiet, "quiet", false, "no progress on standard error")
+}
+
+func (s *samplingFlags) validate() error {
+	switch {
+	case s.chains < 1:
+		return usagef("--chains must be at least 1")
+	case s.chains > 64:
+		return usagef("--chains %d is more than 64", s.chains)
+	case s.warmup < 20:
+		return usagef("--warmup must be at least 20 (the step size and mass matrix adapt during warm-up)")
+	case s.draws < 10:
+		return usagef("--draws must be at least 10")
+	}
+	return nil
+}
+
+func init() {
+	var roles roleFlags
+	var opts samplingFlags
+	fs := pflag.NewFlagSet("fit", pflag.ContinueOnError)
+	roles.addFlags(fs)
+	opts.addFlags(fs)
+	register(&command{
+		name:  "fit",
+		usage: "fit --data FILE (roles) --out FOLDER [flags]",
+		short: "fit the demand, outcome and naive stages",
+		long: `Fit checks the data and fits the model's three stages one after another, each
+with several chains in parallel (No-U-Turn Sampler): demand (branded queries on
+upper-funnel spend), outcome (the outcome on queries, paid search and the
+upper funnel directly) and naive (the outcome stage without queries, a
+cross-check for paid search). It writes FOLDER/spec.json, FOLDER/data.csv, and
+for each stage FOLDER/STAGE/draws.csv, summary.csv and stats.json, and
+FOLDER/verdict.txt: whether the fit deserves trust (R-hat <= 1.01, bulk and
+tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not.
+Regional data are fitted as their national sum.
+
+EXAMPLE
+  spillway fit --data sales.csv --date week --upper video,audio --search search \
+    --queries brand_queries --outcome orders --controls price --out fit1
+
+` + exitStatusHelp,
+		order: 40,
+		flags: fs,
+		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+			if err := noArgs(args); err != nil {
+				return err
+			}
+			od, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
+			if err != nil {
+				return err
+			}
+			defer od.Abort()
+			if err := od.Commit(); err != nil {
+				return err
+			}
+			fmt.Fprintf(stdout, "fit written to %s\n", od.Final())
+			return nil
+		},
+	})
+}
+
+// runFit fits and writes the fit folder into a temporary output folder,
+// which the caller commits (after adding more, as run does) or aborts. With
+// demo set, the data are that built-in scenario and roles are ignored.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (od *outDir, err error) {
+	if err := opts.validate(); err != nil {
+		return nil, err
+	}
+	out, err := newOutDir(opts.out, opts.force)
+	if err != nil {
+		return nil, err
+	}
+	defer func() {
+		if err != nil {
+			out.Abort()
+		}
+	}()
+	od = out
+	var ds *data.Dataset
+	if demo != "" {
+		if ds, err = demoData(demo); err != nil {
+			return nil, err
+		}
+	} else if ds, err = roles.load(); err != nil {
+		return nil, err
+	}
+	for _, w := range ds.Warnings {
+		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
+	}
+	if len(ds.Regions) > 1 {
+		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
+	}
+	cols := map[string]bool{}
+	for _, c := range append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...) {
+		cols[c] = true
+	}
+	o := model.Options{Linear: map[string]bool{}}
+	for _, c := range opts.linear {
+		if !cols[c] {
+			return nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
+		}
+		o.Linear[c] = true
+	}
+	sc := model.Scale(ds.National(), ds.Spec)
+	var priorBytes []byte
+	if opts.priors != "" {
+		st, err := pipeline.Stages(sc, o)
+		if err != nil {
+			return nil, err
+		}
+		if o.Priors, err = model.LoadPriors(opts.priors, pipeline.Known(st)); err != nil {
+			return nil, badData(err)
+		}
+		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
+			return nil, badData(err)
+		}
+	}
+	fs := &fitSpec{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws,
+		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
+	verb := "fit"
+	if demo != "" {
+		verb = "run"
+	}
+	fs.Command = rerunCommand(verb, fs, opts.out)
+	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed}
+	// a prior that does not fit its parameter is the user's input error:
+	// find it before any sampling
+	stages, err := pipeline.Stages(sc, o)
+	if err != nil {
+		return nil, err
+	}
+	for _, st := range stages {
+		if _, err := st.Target(); err != nil {
+			return nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
+		}
+	}
+	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
+	if err != nil {
+		return nil, err
+	}
+	files, reps, err := fitFiles(fs, ds, priorBytes, fitted)
+	if err != nil {
+		return nil, err
+	}
+	for name, b := range files {
+		if err := od.WriteFile(name, b); err != nil {
+			return nil, err
+		}
+	}
+	printFitSummary(stdout, reps, fitted)
+	if v := string(files["verdict.txt"]); !strings.HasPrefix(v, "trustworthy") {
+		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
+	}
+	return od, nil
+}
+
+// progressHook returns the per-stage progress display: a bar when stderr
+// is a terminal, a plain line every few seconds otherwise, none with --quiet.
+func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
+	if opts.quiet {
+		return nil
+	}
+	tty := false
+	if f, ok := stderr.(*os.File); ok {
+		tty = term.IsTerminal(int(f.Fd()))
+	}
+	return func(stage string) (mcmc.Recorder, func()) {
+		p := progress.New(progress.Options{Writer: stderr, Terminal: tty, Label: stage, Chains: opts.chains, Iterations: opts.warmup + opts.draws})
+		return p, func() { _ = p.Finish() }
+	}
+}
+
+// printFitSummary prints one line per stage and the verdict.
+func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
+	for k, r := range reps {
+		maxR, minB, minT := 0.0, 1e300, 1e300
+		for _, s := range r.summary {
+			if s.Constant() {
+				continue
+			}
+			maxR = max(maxR, s.Rhat)
+			minB = min(minB, s.ESSBulk)
+			minT = min(minT, s.ESSTail)
+		}
+		div, leap := 0, 0.0
+		for _, c := range f.Fits[k].Chains {
+			div += c.Stats.Divergences
+			leap += c.Stats.MeanLeapfrogs / float64(len(f.Fits[k].Chains))
+		}
+		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %.3f, min bulk ESS %.0f, min tail ESS %.0f, %d divergences, %.0f leapfrog steps per draw\n",
+			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], maxR, minB, minT, div, leap)
+	}
+	ok := true
+	for _, r := range reps {
+		ok = ok && r.verdict.Trustworthy
+	}
+	if ok {
+		fmt.Fprintln(w, "verdict: trustworthy (R-hat <= 1.01, ESS >= 400, no divergences, E-BFMI >= 0.3 in every stage)")
+		return
+	}
+	fmt.Fprintln(w, "verdict: NOT TRUSTWORTHY; do not use these numbers before fixing:")
+	for _, r := range reps {
+		for _, why := range r.verdict.Reasons {
+			fmt.Fprintf(w, "  %s: %s\n", r.name, why)
+		}
+	}
+}

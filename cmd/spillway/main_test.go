@@ -1,0 +1,306 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"regexp"
+	"slices"
+	"strings"
+	"testing"
+
+	"github.com/spf13/pflag"
+
+	"spillway/funnel/data"
+)
+
+// writetest is a test-only command that shows the output mechanism: it
+// loads data through roleFlags, then writes the data back into an atomic
+// output folder and commits it. With --fail-after-write it fails after
+// writing (as a real command might mid-way); a cancelled context stops it
+// before the commit.
+var writetestOpts struct {
+	roles          roleFlags
+	out            string
+	force          bool
+	failAfterWrite bool
+}
+
+func init() {
+	fs := pflag.NewFlagSet("writetest", pflag.ContinueOnError)
+	writetestOpts.roles.addFlags(fs)
+	fs.StringVar(&writetestOpts.out, "out", "", "output `FOLDER`")
+	fs.BoolVar(&writetestOpts.force, "force", false, "replace an existing output folder")
+	fs.BoolVar(&writetestOpts.failAfterWrite, "fail-after-write", false, "fail after writing (test)")
+	register(&command{
+		name: "writetest", usage: "writetest --out FOLDER (role flags)", short: "test-only: copy the data into a folder",
+		long:  "Writetest copies the data into an output folder.\n\nEXAMPLE\n  spillway writetest --out x --data d.csv ...\n\n" + exitStatusHelp,
+		order: 999, flags: fs,
+		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+			o := &writetestOpts
+			if err := noArgs(args); err != nil {
+				return err
+			}
+			od, err := newOutDir(o.out, o.force) // before any work
+			if err != nil {
+				return err
+			}
+			defer od.Abort()
+			d, err := o.roles.load()
+			if err != nil {
+				return err
+			}
+			var buf bytes.Buffer
+			if err := data.WriteCSV(&buf, d); err != nil {
+				return err
+			}
+			if err := od.WriteFile("data/copy.csv", buf.Bytes()); err != nil {
+				return err
+			}
+			if o.failAfterWrite {
+				return errors.New("failed on purpose after writing")
+			}
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			return od.Commit()
+		},
+	})
+}
+
+// runCmd runs spillway with args and returns the exit status and outputs.
+func runCmd(t *testing.T, args ...string) (code int, stdout, stderr string) {
+	t.Helper()
+	return runCtx(t, context.Background(), args...)
+}
+
+func runCtx(t *testing.T, ctx context.Context, args ...string) (code int, stdout, stderr string) {
+	t.Helper()
+	var out, errb bytes.Buffer
+	code = run(ctx, args, &out, &errb)
+	return code, out.String(), errb.String()
+}
+
+func TestHelp(t *testing.T) {
+	for _, args := range [][]string{{"help"}, {"--help"}, {"-h"}} {
+		code, out, errs := runCmd(t, args...)
+		if code != 0 || errs != "" || !strings.Contains(out, "Commands:\n") || !regexp.MustCompile(`\n  inspect +check and summarise a data file\n`).MatchString(out) {
+			t.Errorf("%v: got %d, stdout %q, stderr %q", args, code, out, errs)
+		}
+	}
+	for _, args := range [][]string{{"help", "inspect"}, {"inspect", "--help"}, {"inspect", "-h"}} {
+		code, out, errs := runCmd(t, args...)
+		if code != 0 || errs != "" || !strings.HasPrefix(out, "Usage: spillway inspect --data FILE") {
+			t.Errorf("%v: got %d, stdout %q, stderr %q", args, code, out, errs)
+		}
+		// Flags come between the description and the example, in the order added.
+		iFlags, iEx, iExit := strings.Index(out, "FLAGS\n"), strings.Index(out, "EXAMPLE\n"), strings.Index(out, "EXIT STATUS\n")
+		if !(0 < iFlags && iFlags < iEx && iEx < iExit) {
+			t.Errorf("%v: sections out of order:\n%s", args, out)
+		}
+		if strings.Index(out, "--data FILE") > strings.Index(out, "--spec FILE") {
+			t.Errorf("%v: flags not in the order added:\n%s", args, out)
+		}
+	}
+	if code, out, errs := runCmd(t); code != exitUsage || out != "" || !strings.Contains(errs, "Usage:\n  spillway COMMAND") {
+		t.Errorf("no arguments: got %d, stdout %q, stderr %q; want 2 and the command list on stderr", code, out, errs)
+	}
+}
+
+func TestEveryCommandDocumentsExitStatus(t *testing.T) {
+	for _, c := range sortedCommands() {
+		if !strings.Contains(c.long, "EXIT STATUS") || !strings.Contains(c.long, "EXAMPLE") {
+			t.Errorf("%s: long help lacks EXAMPLE or EXIT STATUS", c.name)
+		}
+		if c.short == "" || c.usage == "" {
+			t.Errorf("%s: no short help or usage", c.name)
+		}
+		if !strings.HasPrefix(c.usage, c.name) {
+			t.Errorf("%s: usage %q does not start with the command name", c.name, c.usage)
+		}
+		code, out, _ := runCmd(t, "help", c.name)
+		if code != 0 || !strings.Contains(out, "EXIT STATUS\n") {
+			t.Errorf("help %s: got %d", c.name, code)
+		}
+	}
+}
+
+func TestUsageErrors(t *testing.T) {
+	tests := []struct {
+		args []string
+		want string // the whole of stderr
+	}{
+		{[]string{"fitt"}, "spillway: unknown command \"fitt\"\nRun 'spillway help' for usage.\n"},
+		{[]string{"--frobnicate"}, "spillway: unknown flag --frobnicate\nRun 'spillway help' for usage.\n"},
+		{[]string{"inspect", "--foo"}, "spillway inspect: unknown flag --foo\nRun 'spillway help inspect' for usage.\n"},
+		{[]string{"inspect", "--foo=1"}, "spillway inspect: unknown flag --foo\nRun 'spillway help inspect' for usage.\n"},
+		{[]string{"inspect", "-x"}, "spillway inspect: unknown flag -x\nRun 'spillway help inspect' for usage.\n"},
+		{[]string{"inspect", "--data"}, "spillway inspect: flag --data needs a value\nRun 'spillway help inspect' for usage.\n"},
+		{[]string{"inspect", "extra"}, "spillway inspect: unexpected argument \"extra\" (this command takes flags only)\nRun 'spillway help inspect' for usage.\n"},
+		{[]string{"inspect"}, "spillway inspect: no data file: name it with --data FILE (or \"data\" in the spec file)\nRun 'spillway help inspect' for usage.\n"},
+		{[]string{"help", "nope"}, "spillway help: unknown command \"nope\"\nRun 'spillway help' for usage.\n"},
+		{[]string{"writetest", "--fail-after-write=maybe"}, "spillway writetest: invalid value \"maybe\" for --fail-after-write: must be true or false\nRun 'spillway help writetest' for usage.\n"},
+	}
+	for _, test := range tests {
+		code, out, errs := runCmd(t, test.args...)
+		if code != exitUsage || out != "" || errs != test.want {
+			t.Errorf("%v: got %d, stdout %q, stderr %q; want 2 and stderr %q", test.args, code, out, errs, test.want)
+		}
+	}
+}
+
+func TestVersion(t *testing.T) {
+	code, out, _ := runCmd(t, "--version")
+	if code != 0 || !strings.HasPrefix(out, "spillway ") {
+		t.Errorf("got %d %q", code, out)
+	}
+}
+
+func TestExitCode(t *testing.T) {
+	de := &data.DataError{File: "a.csv", Line: 2, Err: errors.New("bad")}
+	cancelled, cancel := context.WithCancel(context.Background())
+	cancel()
+	tests := []struct {
+		name string
+		ctx  context.Context
+		err  error
+		want int
+	}{
+		{"nil", context.Background(), nil, 0},
+		{"other", context.Background(), errors.New("disk full"), 1},
+		{"usage", context.Background(), usagef("no --out"), 2},
+		{"bad data", context.Background(), badData(errors.New("priors.json:3: bad prior")), 2},
+		{"data error", context.Background(), de, 2},
+		{"wrapped data error", context.Background(), fmt.Errorf("load: %w", de), 2},
+		{"canceled", context.Background(), fmt.Errorf("sampling: %w", context.Canceled), 130},
+		{"error after cancel", cancelled, errors.New("write: broken"), 130},
+	}
+	for _, test := range tests {
+		if got := exitCode(test.ctx, test.err); got != test.want {
+			t.Errorf("%s: got %d, want %d", test.name, got, test.want)
+		}
+	}
+	if badData(nil) != nil {
+		t.Error("badData(nil) is not nil")
+	}
+}
+
+// TestFlagsReset checks that flags parsed in one run do not leak into the
+// next, and that repeated slice flags append.
+func TestFlagsReset(t *testing.T) {
+	path := writeFile(t, "data.csv", cmdFrame(60).csv())
+	// A column the file lacks fails only while it is asked for.
+	code, _, errs := runCmd(t, inspectArgs(path, "--controls", "price", "--controls", "missing")...)
+	if code != exitUsage || !strings.Contains(errs, `column "missing": not in the header (asked for by --controls)`) {
+		t.Fatalf("repeated --controls: got %d %q", code, errs)
+	}
+	code, out, errs := runCmd(t, inspectArgs(path)...)
+	if code != 0 || strings.Contains(out, "price") {
+		t.Fatalf("second run (no --controls): got %d, stderr %q, price in output: %v", code, errs, strings.Contains(out, "price"))
+	}
+	code, out, _ = runCmd(t, inspectArgs(path, "--controls", "price")...)
+	if code != 0 || !strings.Contains(out, "price") {
+		t.Fatalf("third run: got %d", code)
+	}
+}
+
+func TestInspect(t *testing.T) {
+	f := cmdFrame(60)
+	f.set(30, "sales", "900000") // an outlier
+	path := writeFile(t, "data.csv", f.csv())
+	code, out, errs := runCmd(t, inspectArgs(path, "--controls", "price")...)
+	if code != 0 {
+		t.Fatalf("got %d: %s", code, errs)
+	}
+	for _, want := range []string{"File:     " + path + "\n", "Weeks:    60 (2023-01-02 to 2024-02-19)\n", "Regions:  none (national data)\n", "Warnings: 1\n"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("stdout lacks %q:\n%s", want, out)
+		}
+	}
+	if want := "spillway inspect: warning: \"sales\" has 1 week more than 5 MADs from its median"; !strings.HasPrefix(errs, want) || strings.Count(errs, "\n") != 1 {
+		t.Errorf("stderr: got %q, want one line starting %q", errs, want)
+	}
+}
+
+func TestSpecFile(t *testing.T) {
+	dir := t.TempDir()
+	writeFileIn(t, dir, "data.csv", cmdFrame(60).csv())
+	spec := writeFileIn(t, dir, "spec.json", `{"data": "data.csv", "date": "week", "upper": ["video", "audio"],
+  "search": ["search"], "queries": "queries", "outcome": "sales", "controls": ["nope"]}`)
+	// The spec's "nope" control is overridden by the flag.
+	code, out, errs := runCmd(t, "inspect", "--spec", spec, "--controls", "price")
+	if code != 0 || !strings.Contains(out, "price") {
+		t.Errorf("spec plus flags: got %d, stderr %q", code, errs)
+	}
+	code, _, errs = runCmd(t, "inspect", "--spec", spec)
+	if code != exitUsage || !strings.Contains(errs, `column "nope": not in the header (asked for by --controls)`) {
+		t.Errorf("spec alone: got %d, stderr %q", code, errs)
+	}
+	bad := writeFileIn(t, dir, "bad.json", "{\n  \"date\": \"week\",\n  \"outcomes\": \"sales\"\n}\n")
+	code, _, errs = runCmd(t, "inspect", "--spec", bad)
+	if want := "spillway inspect: " + bad + ":3:3: unknown key \"outcomes\""; code != exitUsage || !strings.HasPrefix(errs, want) {
+		t.Errorf("bad spec: got %d, stderr %q, want prefix %q", code, errs, want)
+	}
+}
+
+func writeFile(t *testing.T, name, text string) string {
+	t.Helper()
+	return writeFileIn(t, t.TempDir(), name, text)
+}
+
+func writeFileIn(t *testing.T, dir, name, text string) string {
+	t.Helper()
+	p := filepath.Join(dir, name)
+	if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+// inspectArgs returns the arguments to inspect path with the roles of
+// cmdFrame (no controls unless added) followed by more.
+func inspectArgs(path string, more ...string) []string {
+	return append([]string{"inspect", "--data", path, "--date", "week", "--upper", "video,audio", "--search", "search",
+		"--queries", "queries", "--outcome", "sales"}, more...)
+}
+
+func TestResetFlags(t *testing.T) {
+	fs := pflag.NewFlagSet("x", pflag.ContinueOnError)
+	names := fs.StringSlice("names", []string{"a"}, "")
+	nums := fs.IntSlice("nums", []int{1, 2}, "")
+	seed := fs.Uint64("seed", 7, "")
+	force := fs.Bool("force", false, "")
+	parse := func(args ...string) {
+		t.Helper()
+		resetFlags(fs)
+		if err := fs.Parse(args); err != nil {
+			t.Fatal(err)
+		}
+	}
+	parse("--names", "b,c", "--names", "d", "--nums", "5", "--seed", "9", "--force")
+	if !slices.Equal(*names, []string{"b", "c", "d"}) || !slices.Equal(*nums, []int{5}) || *seed != 9 || !*force {
+		t.Fatalf("first parse: got %v %v %v %v", *names, *nums, *seed, *force)
+	}
+	parse()
+	if !slices.Equal(*names, []string{"a"}) || !slices.Equal(*nums, []int{1, 2}) || *seed != 7 || *force || fs.Changed("names") {
+		t.Fatalf("after reset: got %v %v %v %v", *names, *nums, *seed, *force)
+	}
+	parse("--names", "e", "--nums", "3,4")
+	if !slices.Equal(*names, []string{"e"}) || !slices.Equal(*nums, []int{3, 4}) {
+		t.Fatalf("second parse: got %v %v", *names, *nums)
+	}
+	if err := fs.Parse([]string{"--nums", "x"}); err == nil || !slices.Equal(*nums, []int{3, 4}) {
+		t.Fatalf("a bad value: got %v, nums %v", err, *nums)
+	}
+	// The help shows the wrapped flags as pflag would.
+	if u := flagUsages(fs); !strings.Contains(u, "--names strings") || !strings.Contains(u, `(default [a])`) {
+		t.Errorf("usage: %s", u)
+	}
+	if _, ok := fs.Lookup("names").Value.(*resettableSlice); !ok {
+		t.Error("flagUsages did not put the wrapper back")
+	}
+}

@@ -1,0 +1,254 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"slices"
+	"strings"
+)
+
+// outDir is an output folder written atomically: everything goes into a
+// temporary sibling folder, which Commit renames into place. Until then the
+// final path is untouched, and Abort (or any failure) leaves nothing behind.
+//
+// Use it as:
+//
+//	od, err := newOutDir(opts.out, opts.force) // before any work
+//	if err != nil { return err }
+//	defer od.Abort()                           // no-op after Commit
+//	... write files under od.Path() ...
+//	return od.Commit()
+type outDir struct {
+	final   string   // the folder asked for
+	tmp     string   // the temporary sibling being written
+	force   bool     // replace an existing final folder on Commit
+	made    []string // parent folders created by newOutDir, deepest first
+	settled bool     // Commit or Abort has run
+}
+
+// newOutDir prepares an atomic output folder at path. Without force an
+// existing path is a usage error, reported here, before any work starts;
+// with force an existing folder is replaced on Commit (a file in the way is
+// an error either way). Missing parent folders are created (and removed
+// again by Abort). The temporary folder is ".NAME.tmp-XXXX" in the same
+// parent, so that Commit is a rename within one file system.
+func newOutDir(path string, force bool) (*outDir, error) {
+	if path == "" {
+		return nil, usagef("no output folder given; name one with --out")
+	}
+	final := filepath.Clean(path)
+	if fi, err := os.Stat(final); err == nil {
+		switch {
+		case !fi.IsDir():
+			return nil, usagef("output path %s exists and is not a folder", final)
+		case !force:
+			return nil, usagef("output folder %s already exists; use --force to replace it", final)
+		}
+	} else if !errors.Is(err, fs.ErrNotExist) {
+		return nil, err
+	}
+	o := &outDir{final: final, force: force}
+	parent := filepath.Dir(final)
+	for p := parent; ; p = filepath.Dir(p) {
+		if _, err := os.Stat(p); err == nil {
+			break
+		}
+		o.made = append(o.made, p)
+		if filepath.Dir(p) == p {
+			break
+		}
+	}
+	if err := os.MkdirAll(parent, 0o755); err != nil {
+		o.removeMade()
+		return nil, fmt.Errorf("cannot create the output folder's parent: %w", err)
+	}
+	tmp, err := os.MkdirTemp(parent, "."+filepath.Base(final)+".tmp-")
+	if err != nil {
+		o.removeMade()
+		return nil, fmt.Errorf("cannot create a temporary output folder: %w", err)
+	}
+	o.tmp = tmp
+	return o, nil
+}
+
+// Path returns the temporary folder to write into.
+func (o *outDir) Path() string { return o.tmp }
+
+// Final returns the folder that Commit creates.
+func (o *outDir) Final() string { return o.final }
+
+// WriteFile writes data to name (a slash-separated path relative to the
+// output folder), creating sub-folders as needed.
+func (o *outDir) WriteFile(name string, data []byte) error {
+	p, err := within(o.tmp, name)
+	if err != nil {
+		return err
+	}
+	if err := os.MkdirAll(filepath.Dir(p), 0o755); err != nil {
+		return err
+	}
+	return os.WriteFile(p, data, 0o644)
+}
+
+// Commit renames the temporary folder into place. An existing final folder
+// is replaced only with force (it is moved aside first and removed after the
+// rename, and put back if the rename fails); without force one that
+// appeared meanwhile is an error, and the new output is discarded.
+func (o *outDir) Commit() error {
+	if o.settled {
+		panic("spillway: outDir committed or aborted twice")
+	}
+	if err := os.Chmod(o.tmp, 0o755); err != nil {
+		o.Abort()
+		return err
+	}
+	old := ""
+	if _, err := os.Lstat(o.final); err == nil {
+		if !o.force {
+			o.Abort()
+			return usagef("output folder %s already exists; use --force to replace it", o.final)
+		}
+		aside, err := os.MkdirTemp(filepath.Dir(o.final), "."+filepath.Base(o.final)+".old-")
+		if err == nil {
+			err = os.Remove(aside)
+		}
+		if err == nil {
+			err = os.Rename(o.final, aside)
+		}
+		if err != nil {
+			o.Abort()
+			return fmt.Errorf("cannot move the old output folder aside: %w", err)
+		}
+		old = aside
+	}
+	if err := os.Rename(o.tmp, o.final); err != nil {
+		if old != "" {
+			_ = os.Rename(old, o.final)
+		}
+		o.Abort()
+		return fmt.Errorf("cannot put the output folder in place: %w", err)
+	}
+	o.settled = true
+	if old != "" {
+		if err := os.RemoveAll(old); err != nil {
+			return fmt.Errorf("the output is in place, but the old folder %s could not be removed: %w", old, err)
+		}
+	}
+	return nil
+}
+
+// Abort removes the temporary folder and any parents newOutDir created. It
+// does nothing after Commit, so it can be deferred right after newOutDir.
+func (o *outDir) Abort() {
+	if o.settled {
+		return
+	}
+	o.settled = true
+	_ = os.RemoveAll(o.tmp)
+	o.removeMade()
+}
+
+// removeMade removes the parent folders newOutDir created, if empty.
+func (o *outDir) removeMade() {
+	for _, p := range o.made {
+		_ = os.Remove(p) // fails, harmlessly, when not empty
+	}
+}
+
+// within joins name (slash-separated, relative) to dir and rejects names
+// that would leave dir.
+func within(dir, name string) (string, error) {
+	clean := filepath.Clean(filepath.FromSlash(name))
+	if name == "" || filepath.IsAbs(clean) || clean == "." || clean == ".." || strings.HasPrefix(clean, ".."+string(filepath.Separator)) {
+		return "", fmt.Errorf("bad output file name %q", name)
+	}
+	return filepath.Join(dir, clean), nil
+}
+
+// updateInPlace adds or replaces files in the existing folder dir (such as
+// a fit folder that split, chart or report add to). Names are
+// slash-separated paths relative to dir. Every file is first written in
+// full to a temporary file beside its target, then each is renamed into
+// place, so no target is ever half-written; if any write fails, every
+// temporary file is removed and no target changes. Folder problems found
+// up front (dir missing, a target that is a folder) change nothing either.
+func updateInPlace(dir string, files map[string][]byte) (err error) {
+	fi, err := os.Stat(dir)
+	if err != nil {
+		return fmt.Errorf("cannot update %s: %w", dir, err)
+	}
+	if !fi.IsDir() {
+		return fmt.Errorf("cannot update %s: not a folder", dir)
+	}
+	names := make([]string, 0, len(files))
+	for n := range files {
+		names = append(names, n)
+	}
+	slices.Sort(names)
+	targets := make([]string, len(names))
+	for i, n := range names {
+		p, err := within(dir, n)
+		if err != nil {
+			return err
+		}
+		if fi, err := os.Stat(p); err == nil && fi.IsDir() {
+			return fmt.Errorf("cannot write %s: a folder is in the way", p)
+		}
+		targets[i] = p
+	}
+	var temps []string
+	var made []string
+	defer func() {
+		if err != nil {
+			for _, t := range temps {
+				_ = os.Remove(t)
+			}
+			for i := len(made) - 1; i >= 0; i-- {
+				_ = os.Remove(made[i])
+			}
+		}
+	}()
+	for i, p := range targets {
+		sub := filepath.Dir(p)
+		if _, err := os.Stat(sub); errors.Is(err, fs.ErrNotExist) {
+			for q := sub; q != dir; q = filepath.Dir(q) {
+				if _, err := os.Stat(q); err == nil {
+					break
+				}
+				made = append([]string{q}, made...)
+			}
+			if err := os.MkdirAll(sub, 0o755); err != nil {
+				return err
+			}
+		}
+		f, err := os.CreateTemp(sub, "."+filepath.Base(p)+".tmp-")
+		if err != nil {
+			return err
+		}
+		temps = append(temps, f.Name())
+		_, werr := f.Write(files[names[i]])
+		if werr == nil {
+			werr = f.Sync()
+		}
+		cerr := f.Close()
+		if werr != nil {
+			return fmt.Errorf("cannot write %s: %w", p, werr)
+		}
+		if cerr != nil {
+			return fmt.Errorf("cannot write %s: %w", p, cerr)
+		}
+		if err := os.Chmod(f.Name(), 0o644); err != nil {
+			return err
+		}
+	}
+	for i, p := range targets {
+		if err := os.Rename(temps[i], p); err != nil {
+			return fmt.Errorf("cannot put %s in place: %w", p, err)
+		}
+	}
+	temps = nil
+	return nil
+}

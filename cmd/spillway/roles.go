@@ -1,0 +1,72 @@
+package main
+
+import (
+	"github.com/spf13/pflag"
+
+	"spillway/funnel/data"
+)
+
+// roleFlags are the flags that name the data file and the roles of its
+// columns, shared by every command that reads data.
+type roleFlags struct {
+	spec     data.Spec // from the flags; spec-file values fill what is empty
+	specFile string
+}
+
+// addFlags adds --data --date --region --population --upper --search
+// --queries --outcome --controls --spec to fs, bound to r.
+func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
+	fs.StringVar(&r.spec.Data, "data", "", "the data `FILE`: CSV, one row per week (and region)")
+	fs.StringVar(&r.spec.Date, "date", "", "the week start `COLUMN` (YYYY-MM-DD, consecutive weeks)")
+	fs.StringVar(&r.spec.Region, "region", "", "the region `COLUMN` (leave out for national data)")
+	fs.StringVar(&r.spec.Population, "population", "", "the region population `COLUMN` (optional)")
+	fs.StringSliceVar(&r.spec.Upper, "upper", nil, "upper-funnel spend `COLUMNS`, comma-separated (video, audio)")
+	fs.StringSliceVar(&r.spec.Search, "search", nil, "paid-search spend `COLUMNS`, comma-separated")
+	fs.StringVar(&r.spec.Queries, "queries", "", "the branded query volume `COLUMN` (the mediator)")
+	fs.StringVar(&r.spec.Outcome, "outcome", "", "the outcome `COLUMN` (conversions or revenue)")
+	fs.StringSliceVar(&r.spec.Controls, "controls", nil, "control `COLUMNS`, comma-separated (price, promotion, holidays)")
+	fs.StringVar(&r.specFile, "spec", "", "a JSON spec `FILE` naming the roles; the flags above override it")
+}
+
+// given reports whether any role flag or a spec file was given (cmd run uses
+// the demo scenario when none is).
+func (r *roleFlags) given() bool {
+	s := r.spec
+	return r.specFile != "" || s.Data != "" || s.Date != "" || s.Region != "" || s.Population != "" ||
+		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0
+}
+
+// resolve returns the spec to use: the spec file (if any) with the flags
+// put over it, checked. Errors are bad data (exit status 2).
+func (r *roleFlags) resolve() (data.Spec, error) {
+	var spec data.Spec
+	if r.specFile != "" {
+		s, err := data.LoadSpec(r.specFile)
+		if err != nil {
+			return data.Spec{}, badData(err)
+		}
+		spec = s
+	}
+	spec = spec.Override(r.spec)
+	if spec.Data == "" {
+		return data.Spec{}, usagef("no data file: name it with --data FILE (or \"data\" in the spec file)")
+	}
+	if err := spec.Validate(); err != nil {
+		return data.Spec{}, badData(err)
+	}
+	return spec, nil
+}
+
+// load resolves the spec and loads and checks the data file. Errors are bad
+// data (exit status 2) or usage errors.
+func (r *roleFlags) load() (*data.Dataset, error) {
+	spec, err := r.resolve()
+	if err != nil {
+		return nil, err
+	}
+	d, err := data.Load(spec.Data, spec)
+	if err != nil {
+		return nil, badData(err)
+	}
+	return d, nil
+}

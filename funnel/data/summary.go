@@ -1,0 +1,237 @@
+package data
+
+import (
+	"fmt"
+	"io"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+
+	"gonum.org/v1/gonum/stat"
+)
+
+// Summary is an overview of a Dataset, computed on the national series (see
+// Dataset.National).
+type Summary struct {
+	// File is the data file name.
+	File string
+	// Weeks is the number of weeks; First and Last are the first and last
+	// week-start dates.
+	Weeks       int
+	First, Last time.Time
+	// Regions are the regions in file order; empty for national data.
+	Regions []RegionSummary
+	// Columns summarises each column the spec uses except date, region and
+	// population, in the order of Spec.Columns.
+	Columns []ColumnSummary
+	// Media names the spend columns (upper, then search) in the order of the
+	// rows and columns of Correlation.
+	Media []string
+	// Correlation holds the Pearson correlations of the national weekly spend
+	// series; NaN where a series is constant.
+	Correlation [][]float64
+	// Warnings are the dataset's warnings.
+	Warnings []Warning
+}
+
+// RegionSummary is the name and population (0 when absent) of a region.
+type RegionSummary struct {
+	Name       string
+	Population float64
+}
+
+// ColumnSummary describes one column's national weekly series.
+type ColumnSummary struct {
+	// Name is the column name; Role is "upper", "search", "queries",
+	// "outcome" or "controls".
+	Name, Role string
+	// Min, Median and Max are taken over weeks, in the column's raw units.
+	Min, Median, Max float64
+	// ZeroWeeks counts the weeks whose value is zero.
+	ZeroWeeks int
+	// Total is the sum over weeks (and regions); for controls it is 0.
+	Total float64
+	// Share is the column's part of all spend (Total over the sum of the
+	// spend columns' totals); 0 for other columns.
+	Share float64
+}
+
+// Summarize describes d: weeks, regions, date range, each column's minimum,
+// median, maximum and zero weeks, spend totals and shares, the correlations
+// between spend columns and the warnings.
+func Summarize(d *Dataset) Summary {
+	nat := d.National()
+	s := Summary{File: d.File, Weeks: len(d.Weeks), First: d.Weeks[0], Last: d.Weeks[len(d.Weeks)-1], Warnings: d.Warnings}
+	if d.Spec.Region != "" {
+		for _, r := range d.Regions {
+			s.Regions = append(s.Regions, RegionSummary{r.Name, r.Population})
+		}
+	}
+	add := func(name, role string, x []float64) {
+		c := ColumnSummary{Name: name, Role: role, Min: math.Inf(1), Max: math.Inf(-1), Median: median(x)}
+		for _, v := range x {
+			c.Min = math.Min(c.Min, v)
+			c.Max = math.Max(c.Max, v)
+			if v == 0 {
+				c.ZeroWeeks++
+			}
+			if role != "controls" {
+				c.Total += v
+			}
+		}
+		s.Columns = append(s.Columns, c)
+	}
+	for i, n := range d.Spec.Upper {
+		add(n, "upper", nat.Upper[i])
+	}
+	for i, n := range d.Spec.Search {
+		add(n, "search", nat.Search[i])
+	}
+	add(d.Spec.Queries, "queries", nat.Queries)
+	add(d.Spec.Outcome, "outcome", nat.Outcome)
+	for i, n := range d.Spec.Controls {
+		add(n, "controls", nat.Controls[i])
+	}
+	spend := 0.0
+	nm := len(d.Spec.Upper) + len(d.Spec.Search)
+	for _, c := range s.Columns[:nm] {
+		spend += c.Total
+	}
+	for i := range s.Columns[:nm] {
+		s.Columns[i].Share = s.Columns[i].Total / spend
+	}
+	s.Media = d.Spec.Media()
+	media := append(append([][]float64(nil), nat.Upper...), nat.Search...)
+	s.Correlation = make([][]float64, nm)
+	for i := range media {
+		s.Correlation[i] = make([]float64, nm)
+		for j := range media {
+			if i == j {
+				s.Correlation[i][j] = 1
+				continue
+			}
+			s.Correlation[i][j] = stat.Correlation(media[i], media[j], nil)
+		}
+	}
+	return s
+}
+
+// WriteText writes s as aligned plain text, the report of `spillway inspect`.
+func (s Summary) WriteText(w io.Writer) error {
+	ew := &errWriter{w: w}
+	fmt.Fprintf(ew, "File:     %s\n", s.File)
+	fmt.Fprintf(ew, "Weeks:    %d (%s to %s)\n", s.Weeks, s.First.Format(DateLayout), s.Last.Format(DateLayout))
+	if len(s.Regions) == 0 {
+		fmt.Fprintf(ew, "Regions:  none (national data)\n")
+	} else {
+		names := make([]string, len(s.Regions))
+		for i, r := range s.Regions {
+			names[i] = r.Name
+			if r.Population > 0 {
+				names[i] += " (population " + human(r.Population) + ")"
+			}
+		}
+		fmt.Fprintf(ew, "Regions:  %d: %s\n", len(s.Regions), strings.Join(names, ", "))
+	}
+	fmt.Fprintln(ew)
+	rows := [][]string{{"column", "role", "min", "median", "max", "zero weeks", "total", "share of spend"}}
+	for _, c := range s.Columns {
+		total, share := "", ""
+		if c.Role != "controls" {
+			total = human(c.Total)
+		}
+		if c.Role == "upper" || c.Role == "search" {
+			share = fmt.Sprintf("%.1f%%", 100*c.Share)
+		}
+		rows = append(rows, []string{c.Name, c.Role, human(c.Min), human(c.Median), human(c.Max), strconv.Itoa(c.ZeroWeeks), total, share})
+	}
+	writeTable(ew, rows, 2)
+	if len(s.Media) > 1 {
+		fmt.Fprintf(ew, "\nCorrelation of weekly spend:\n")
+		rows = [][]string{append([]string{""}, s.Media...)}
+		for i, n := range s.Media {
+			row := []string{n}
+			for j := range s.Media {
+				switch r := s.Correlation[i][j]; {
+				case math.IsNaN(r):
+					row = append(row, "-")
+				case math.Abs(r) < 0.005:
+					row = append(row, "0.00")
+				default:
+					row = append(row, strconv.FormatFloat(r, 'f', 2, 64))
+				}
+			}
+			rows = append(rows, row)
+		}
+		writeTable(ew, rows, 1)
+	}
+	if len(s.Warnings) == 0 {
+		fmt.Fprintf(ew, "\nWarnings: none\n")
+	} else {
+		fmt.Fprintf(ew, "\nWarnings: %d\n", len(s.Warnings))
+		for _, wn := range s.Warnings {
+			fmt.Fprintf(ew, "  %s\n", wn)
+		}
+	}
+	return ew.err
+}
+
+// writeTable writes rows as columns two spaces apart, the first left
+// columns left-aligned and the others right-aligned.
+func writeTable(w io.Writer, rows [][]string, left int) {
+	var width []int
+	for _, r := range rows {
+		for j, c := range r {
+			if j == len(width) {
+				width = append(width, 0)
+			}
+			width[j] = max(width[j], utf8.RuneCountInString(c))
+		}
+	}
+	for _, r := range rows {
+		var b strings.Builder
+		for j, c := range r {
+			pad := strings.Repeat(" ", width[j]-utf8.RuneCountInString(c))
+			if j > 0 {
+				b.WriteString("  ")
+			}
+			if j < left {
+				b.WriteString(c + pad)
+			} else {
+				b.WriteString(pad + c)
+			}
+		}
+		fmt.Fprintln(w, strings.TrimRight(b.String(), " "))
+	}
+}
+
+// human formats a number for reading: integers in full, others with about
+// four significant digits.
+func human(v float64) string {
+	switch a := math.Abs(v); {
+	case v == math.Trunc(v) && a < 1e15:
+		return strconv.FormatFloat(v, 'f', 0, 64)
+	case a >= 1000:
+		return strconv.FormatFloat(v, 'f', 0, 64)
+	case a >= 1:
+		return strconv.FormatFloat(v, 'f', 2, 64)
+	}
+	return strconv.FormatFloat(v, 'g', 4, 64)
+}
+
+// errWriter keeps the first write error and drops later writes.
+type errWriter struct {
+	w   io.Writer
+	err error
+}
+
+func (e *errWriter) Write(p []byte) (int, error) {
+	if e.err != nil {
+		return len(p), nil
+	}
+	n, err := e.w.Write(p)
+	e.err = err
+	return n, nil
+}

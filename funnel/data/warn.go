@@ -1,0 +1,175 @@
+package data
+
+import (
+	"fmt"
+	"math"
+	"slices"
+	"strconv"
+	"strings"
+	"time"
+
+	"gonum.org/v1/gonum/stat"
+)
+
+// Kinds of Warning.
+const (
+	// KindCollinear marks two spend columns whose national weekly series have
+	// |Pearson correlation| > CollinearLimit.
+	KindCollinear = "collinear"
+	// KindSparse marks a spend column with spend in fewer than SparseShare of
+	// the weeks nationally, or with no spend at all in one region.
+	KindSparse = "sparse"
+	// KindOutlier marks weeks whose value lies more than OutlierMADs median
+	// absolute deviations from the column's median (per region).
+	KindOutlier = "outlier"
+)
+
+// Thresholds of the warnings (common practice, not estimated).
+const (
+	CollinearLimit = 0.9
+	SparseShare    = 0.10
+	OutlierMADs    = 5.0
+)
+
+// Warning is a problem in the data that does not stop a fit but that a
+// modeller should look at.
+type Warning struct {
+	// Kind is KindCollinear, KindSparse or KindOutlier.
+	Kind string
+	// Column is the column at fault; for KindCollinear the two columns
+	// joined by a comma.
+	Column string
+	// Message is a self-contained sentence for people.
+	Message string
+}
+
+// String returns "kind: message".
+func (w Warning) String() string { return w.Kind + ": " + w.Message }
+
+// warnings finds the warnings of d, in a fixed order: collinear pairs, sparse
+// columns, then outliers region by region and column by column.
+func warnings(d *Dataset) []Warning {
+	var ws []Warning
+	nat := d.National()
+	names := d.Spec.Media()
+	media := append(append([][]float64(nil), nat.Upper...), nat.Search...)
+	for i := range media {
+		for j := i + 1; j < len(media); j++ {
+			r := stat.Correlation(media[i], media[j], nil)
+			if math.Abs(r) > CollinearLimit {
+				ws = append(ws, Warning{KindCollinear, names[i] + "," + names[j],
+					fmt.Sprintf("spend on %q and %q is nearly collinear (correlation %.2f); the model can hardly tell their effects apart", names[i], names[j], r)})
+			}
+		}
+	}
+	n := len(d.Weeks)
+	for i, x := range media {
+		nz := nonZero(x)
+		if float64(nz) < SparseShare*float64(n) {
+			ws = append(ws, Warning{KindSparse, names[i],
+				fmt.Sprintf("%q has spend in only %d of %d weeks (under %.0f%%); its effect rests on few weeks", names[i], nz, n, 100*SparseShare)})
+		}
+	}
+	if len(d.Regions) > 1 {
+		for _, r := range d.Regions {
+			for i, x := range append(append([][]float64(nil), r.Upper...), r.Search...) {
+				if nonZero(x) == 0 {
+					ws = append(ws, Warning{KindSparse, names[i],
+						fmt.Sprintf("%q has no spend in region %q; that region says nothing about its effect", names[i], r.Name)})
+				}
+			}
+		}
+	}
+	for _, r := range d.Regions {
+		cols := append(append([][]float64(nil), r.Upper...), r.Search...)
+		cnames := append([]string(nil), names...)
+		nspend := len(cols)
+		cols = append(cols, r.Queries, r.Outcome)
+		cnames = append(cnames, d.Spec.Queries, d.Spec.Outcome)
+		for i, x := range cols {
+			if w, ok := outliers(cnames[i], r.Name, x, r.Weeks, i < nspend); ok {
+				ws = append(ws, w)
+			}
+		}
+	}
+	return ws
+}
+
+func nonZero(x []float64) int {
+	n := 0
+	for _, v := range x {
+		if v != 0 {
+			n++
+		}
+	}
+	return n
+}
+
+// outliers looks for values of x more than OutlierMADs median absolute
+// deviations from the median. For spend (spend true) the median and MAD are
+// those of the weeks with spend, and zero weeks are never outliers. Columns
+// with a zero MAD are skipped.
+func outliers(name, region string, x []float64, weeks []time.Time, spend bool) (Warning, bool) {
+	var vals []float64
+	for _, v := range x {
+		if !spend || v != 0 {
+			vals = append(vals, v)
+		}
+	}
+	if len(vals) < 3 {
+		return Warning{}, false
+	}
+	med := median(vals)
+	dev := make([]float64, len(vals))
+	for i, v := range vals {
+		dev[i] = math.Abs(v - med)
+	}
+	mad := median(dev)
+	if !(mad > 0) {
+		return Warning{}, false
+	}
+	var hits []string
+	for t, v := range x {
+		if spend && v == 0 {
+			continue
+		}
+		if math.Abs(v-med) > OutlierMADs*mad {
+			hits = append(hits, fmt.Sprintf("%s (%s)", weeks[t].Format(DateLayout), fmtNum(v)))
+		}
+	}
+	if len(hits) == 0 {
+		return Warning{}, false
+	}
+	const most = 5
+	list := hits
+	more := ""
+	if len(list) > most {
+		more = fmt.Sprintf(" and %d more", len(list)-most)
+		list = list[:most]
+	}
+	in := ""
+	if region != "" {
+		in = fmt.Sprintf(" in region %q", region)
+	}
+	weeksWord := "weeks"
+	if len(hits) == 1 {
+		weeksWord = "week"
+	}
+	return Warning{KindOutlier, name, fmt.Sprintf("%q%s has %d %s more than %g MADs from its median %s: %s%s",
+		name, in, len(hits), weeksWord, OutlierMADs, strconv.FormatFloat(med, 'g', 6, 64), strings.Join(list, ", "), more)}, true
+}
+
+// median returns the median of x (the mean of the two middle values for an
+// even count) without modifying x.
+func median(x []float64) float64 {
+	s := slices.Clone(x)
+	slices.Sort(s)
+	n := len(s)
+	if n == 0 {
+		return math.NaN()
+	}
+	if n%2 == 1 {
+		return s[n/2]
+	}
+	return (s[n/2-1] + s[n/2]) / 2
+}

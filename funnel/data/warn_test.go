@@ -1,0 +1,89 @@
+package data
+
+import (
+	"math"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+func TestWarnings(t *testing.T) {
+	tests := []struct {
+		name   string
+		frame  func() *frame
+		spec   Spec
+		kind   string
+		column string
+		want   string
+	}{
+		{"collinear", func() *frame {
+			f := baseFrame(60)
+			for i := range f.rows {
+				v, _ := strconv.ParseFloat(f.rows[i][1], 64)
+				f.set(i, "audio", num(0.5*v+float64(i%2)))
+			}
+			return f
+		}, baseSpec, KindCollinear, "video,audio", `spend on "video" and "audio" is nearly collinear (correlation 1.00)`},
+		{"sparse", func() *frame {
+			f := baseFrame(60)
+			for i := range f.rows {
+				if i%13 != 0 { // weeks 0, 13, 26, 39, 52: 5 of 60
+					f.set(i, "audio", "0")
+				}
+			}
+			return f
+		}, baseSpec, KindSparse, "audio", `"audio" has spend in only 5 of 60 weeks (under 10%)`},
+		{"outlier", func() *frame { return baseFrame(60).set(30, "sales", "100000") }, baseSpec, KindOutlier, "sales",
+			`"sales" has 1 week more than 5 MADs from its median`},
+		{"spend outlier", func() *frame { return baseFrame(60).set(40, "search", "90000") }, baseSpec, KindOutlier, "search",
+			wk(40) + " (90000)"},
+		{"regional outlier", func() *frame { return regionFrame(60).set(3*12+1, "queries", "1e6") }, regionSpec, KindOutlier, "queries",
+			`"queries" in region "south" has 1 week more than 5 MADs from its median`},
+		{"no spend in a region", func() *frame {
+			f := regionFrame(60)
+			for t := range 60 {
+				f.set(3*t+2, "audio", "0")
+			}
+			return f
+		}, regionSpec, KindSparse, "audio", `"audio" has no spend in region "west"`},
+	}
+	for _, test := range tests {
+		d := mustRead(t, test.frame().csv(), test.spec)
+		found := false
+		for _, w := range d.Warnings {
+			if w.Kind == test.kind && w.Column == test.column && strings.Contains(w.Message, test.want) {
+				found = true
+			}
+		}
+		if !found {
+			t.Errorf("%s: no %s warning on %s containing %q; got %v", test.name, test.kind, test.column, test.want, d.Warnings)
+		}
+	}
+}
+
+func TestMedian(t *testing.T) {
+	// Closed form.
+	if got := median([]float64{3, 1, 2}); got != 2 {
+		t.Errorf("odd: got %v, want 2", got)
+	}
+	if got := median([]float64{4, 1, 3, 2}); got != 2.5 {
+		t.Errorf("even: got %v, want 2.5", got)
+	}
+	if !math.IsNaN(median(nil)) {
+		t.Error("empty: want NaN")
+	}
+}
+
+func TestOutlierThreshold(t *testing.T) {
+	// Values 0..9 and one more value v > 9 have median 5 and MAD 3
+	// (deviations 0,1,1,2,2,3,3,4,4,5,v-5; by hand); 5 MADs is 15, so 20
+	// (deviation 15) is not an outlier and 20.5 (deviation 15.5) is.
+	x := []float64{0, 1, 2, 3, 4, 5, 6, 7, 8, 9}
+	weeks := baseFrameWeeks(len(x) + 1)
+	if _, ok := outliers("q", "", append(x, 20), weeks, false); ok {
+		t.Error("20 flagged; it lies exactly 5 MADs from the median")
+	}
+	if _, ok := outliers("q", "", append(x, 20.5), weeks, false); !ok {
+		t.Error("20.5 not flagged; it lies 5.17 MADs from the median")
+	}
+}

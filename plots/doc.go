@@ -1,0 +1,22 @@
+// Package plots draws spillway's review charts from a fit folder read by
+// package fitdir: one 1600×900 px PNG per chart (a 16:9 slide at 96 dpi),
+// with a title that states the finding in plain words, a legend row, large
+// type (titles 30 pt, ticks 19 pt) and a caption naming the data window and
+// the interval level.
+//
+// Build (or Chart for one) returns Figures that keep the numbers each panel
+// drew (Series), so tests and the report check numbers, not pixels; PNG
+// renders a Figure; Render and WriteCharts render every chart of Names.
+// WriteCharts and WriteFileAtomic write through a temporary file in the
+// target folder and a rename, so an error leaves no half-written file.
+//
+// The palette is this package's own: blue for direct effects, amber for
+// effects through branded search, near-black for totals and actuals, grey
+// for cross-checks, red for thresholds and failed checks. A test simulates
+// protanopia, deuteranopia and tritanopia (package cvd, Machado et al.
+// 2009) and requires CIEDE2000 differences of at least 20 between every
+// pair of these colours (40 between the two paths).
+//
+// Number, Percent, About and the other formatters are shared with the
+// report so that both round the same way.
+package plots // import "spillway/plots"

@@ -1,0 +1,267 @@
+package fitdir_test
+
+import (
+	"errors"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+	"time"
+
+	"spillway/plots/fitdir"
+	"spillway/plots/fitdir/fitdirtest"
+)
+
+func writeFixture(t *testing.T, o fitdirtest.Options) (*fitdirtest.Fixture, *fitdir.Fit) {
+	t.Helper()
+	dir := filepath.Join(t.TempDir(), "fit")
+	fx, err := fitdirtest.Write(dir, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	f, err := fitdir.Load(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return fx, f
+}
+
+func TestLoadRoundTrip(t *testing.T) {
+	fx, f := writeFixture(t, fitdirtest.Options{})
+	if got, want := len(f.Data.Weeks), 156; got != want {
+		t.Fatalf("weeks: got %d, want %d", got, want)
+	}
+	if !f.Data.Weeks[0].Equal(time.Date(2023, 1, 2, 0, 0, 0, 0, time.UTC)) {
+		t.Errorf("first week %v", f.Data.Weeks[0])
+	}
+	if f.Run.Command != fx.Command || f.Run.Chains != 4 || f.Run.Seed.String() != "11" {
+		t.Errorf("spec.json: got %+v", f.Run)
+	}
+	if len(f.Effects) != len(fx.Effects) {
+		t.Fatalf("effects: got %d rows, want %d", len(f.Effects), len(fx.Effects))
+	}
+	for i, e := range fx.Effects {
+		g := f.Effects[i]
+		if g.Channel != e.Channel || g.Path != e.Path || g.Window != e.Window || g.Mean != e.Mean ||
+			g.Q05 != e.Q05 || g.Q95 != e.Q95 || !sameOrBothNaN(g.PerUnitSpend, e.PerUnitSpend) {
+			t.Fatalf("effects row %d: got %+v, want %+v", i, g, e)
+		}
+	}
+	for k, v := range fx.Draws {
+		s, ok := f.EffectDraws[k]
+		if !ok || len(s.Value) != len(v) {
+			t.Fatalf("draws %v: got %d, want %d", k, len(s.Value), len(v))
+		}
+		for i := range v {
+			if s.Draw[i] != i+1 || s.Value[i] != v[i] {
+				t.Fatalf("draws %v[%d]: got (%d, %v), want (%d, %v)", k, i, s.Draw[i], s.Value[i], i+1, v[i])
+			}
+		}
+	}
+	if got := f.Data.Total("video_spend", f.Whole()); got != sum(fx.Columns["video_spend"]) {
+		t.Errorf("video spend total: got %v, want %v", got, sum(fx.Columns["video_spend"]))
+	}
+	if len(f.Weekly) != len(fx.Weekly) || len(f.Curves) != len(fx.Curves) || len(f.Fitted) != len(fx.Fitted) ||
+		len(f.Sensitivity) != 38 || len(f.Borrowed) != 4 {
+		t.Errorf("row counts: weekly %d curves %d fitted %d sensitivity %d borrowed %d",
+			len(f.Weekly), len(f.Curves), len(f.Fitted), len(f.Sensitivity), len(f.Borrowed))
+	}
+	if rho, ok := f.BreakevenRho("video_spend"); !ok || rho != 0.45 {
+		t.Errorf("video break-even: got %v %v, want 0.45", rho, ok)
+	}
+	if rho, ok := f.BreakevenRho("audio_spend"); !ok || !math.IsNaN(rho) {
+		t.Errorf("audio break-even: got %v %v, want NaN (empty cell)", rho, ok)
+	}
+	if !f.Verdict.Trustworthy || len(f.Verdict.Reasons) != 0 {
+		t.Errorf("verdict: %+v", f.Verdict)
+	}
+	out, _ := f.Stage("outcome")
+	if len(out.Params) != len(fx.Params["outcome"]) || out.Stats.WallSeconds != 12.5 {
+		t.Errorf("outcome stage: %d params, wall %v", len(out.Params), out.Stats.WallSeconds)
+	}
+}
+
+func TestVerdictReasons(t *testing.T) {
+	_, f := writeFixture(t, fitdirtest.Options{Untrustworthy: true, Draws: 50})
+	if f.Verdict.Trustworthy {
+		t.Fatal("verdict: got trustworthy")
+	}
+	want := fitdir.Reason{Stage: "outcome", Text: "R-hat 1.03 > 1.01 for K2[video_spend]"}
+	if len(f.Verdict.Reasons) != 3 || f.Verdict.Reasons[0] != want {
+		t.Errorf("reasons: got %+v, want first %+v", f.Verdict.Reasons, want)
+	}
+	out, _ := f.Stage("outcome")
+	if out.Stats.TotalDivergences() != 3 {
+		t.Errorf("divergences: got %d, want 3", out.Stats.TotalDivergences())
+	}
+}
+
+func TestDefaultWindow(t *testing.T) {
+	_, f := writeFixture(t, fitdirtest.Options{Draws: 20})
+	// The last week starts 2025-12-22, so the week starting 2025-12-29
+	// (still in Q4) is missing: 2025Q4 is not full and 2025Q3 is the last
+	// full quarter.
+	if got := f.DefaultWindow(); got != "2025Q3" {
+		t.Errorf("default window: got %s, want 2025Q3", got)
+	}
+	if !f.FullQuarter(fitdir.QuarterWindow(2023, 1)) {
+		t.Error("2023Q1 should be full: the week before 2023-01-02 starts in 2022")
+	}
+	w, err := f.Window("")
+	if err != nil || w.Name != "2025Q3" || w.Label() != "2025Q3 (Jul–Sep 2025)" {
+		t.Errorf("Window(\"\"): got %+v, %v", w, err)
+	}
+	all, err := f.Window("all")
+	if err != nil || !all.From.Equal(f.Data.Weeks[0]) || !all.To.Equal(f.Data.Weeks[155]) {
+		t.Errorf("Window(all): got %+v, %v", all, err)
+	}
+	_, err = f.Window("2019Q1")
+	var we *fitdir.WindowError
+	if !errors.As(err, &we) || !strings.Contains(err.Error(), "2025Q3") || !strings.Contains(err.Error(), fitdirtest.CustomWindow) {
+		t.Errorf("Window(2019Q1): got %v, want a WindowError listing the windows", err)
+	}
+	_, err = f.Window("last quarter")
+	if !errors.As(err, &we) || we.Err == nil {
+		t.Errorf("Window(last quarter): got %v, want a parse error", err)
+	}
+}
+
+func TestParseWindow(t *testing.T) {
+	for _, c := range []struct {
+		in       string
+		kind     fitdir.WindowKind
+		from, to string
+		ok       bool
+	}{
+		{"all", fitdir.WholePeriod, "", "", true},
+		{"2024Q1", fitdir.Quarter, "2024-01-01", "2024-03-31", true},
+		{"2024Q4", fitdir.Quarter, "2024-10-01", "2024-12-31", true},
+		{"2024-02-01:2024-02-29", fitdir.Custom, "2024-02-01", "2024-02-29", true},
+		{"2024Q5", 0, "", "", false},
+		{"2024-03-01:2024-02-01", 0, "", "", false},
+		{"2024-13-01:2024-12-01", 0, "", "", false},
+	} {
+		w, err := fitdir.ParseWindow(c.in)
+		if (err == nil) != c.ok {
+			t.Errorf("%s: error %v, want ok=%v", c.in, err, c.ok)
+			continue
+		}
+		if !c.ok {
+			continue
+		}
+		if w.Kind != c.kind || (c.from != "" && (w.From.Format(fitdir.DateLayout) != c.from || w.To.Format(fitdir.DateLayout) != c.to)) {
+			t.Errorf("%s: got %+v", c.in, w)
+		}
+	}
+	q := fitdir.QuarterWindow(2025, 1)
+	if p, _ := q.Previous(); p.Name != "2024Q4" {
+		t.Errorf("previous of 2025Q1: %s", p.Name)
+	}
+	if y, _ := q.YearEarlier(); y.Name != "2024Q1" {
+		t.Errorf("year before 2025Q1: %s", y.Name)
+	}
+}
+
+// TestLoadErrors checks that a broken file gives an error naming the file,
+// the line and the column.
+func TestLoadErrors(t *testing.T) {
+	for _, c := range []struct {
+		file, old, new string
+		want           []string
+	}{
+		{"effects.csv", "", "", []string{"effects.csv", ErrMissingText}},
+		{"effects.csv", "video_spend,direct,all,", "video_spend,direct,all,abc", []string{"effects.csv line 2, column mean", `"abc`}},
+		{"curves.csv", "weekly_spend", "spend", []string{"curves.csv line 1, column weekly_spend", "missing column"}},
+		{"verdict.txt", "trustworthy", "maybe", []string{"verdict.txt line 1", "maybe"}},
+		{"data.csv", "2023-01-09", "2023-01-9", []string{"data.csv line 3, column week", "2023-01-9"}},
+		{"weekly.csv", "video_spend,direct", "tv_spend,direct", []string{"weekly.csv line 2, column channel", "tv_spend"}},
+		{"outcome/summary.csv", "gamma,", "gamma,x", []string{"summary.csv line", "column mean"}},
+	} {
+		dir := filepath.Join(t.TempDir(), "fit")
+		if _, err := fitdirtest.Write(dir, fitdirtest.Options{Draws: 10}); err != nil {
+			t.Fatal(err)
+		}
+		path := filepath.Join(dir, c.file)
+		if c.old == "" {
+			os.Remove(path)
+		} else {
+			b, err := os.ReadFile(path)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !strings.Contains(string(b), c.old) {
+				t.Fatalf("%s has no %q", c.file, c.old)
+			}
+			os.WriteFile(path, []byte(strings.Replace(string(b), c.old, c.new, 1)), 0o644)
+		}
+		_, err := fitdir.Load(dir)
+		if err == nil {
+			t.Errorf("%s: no error", c.file)
+			continue
+		}
+		for _, w := range c.want {
+			if !strings.Contains(err.Error(), w) {
+				t.Errorf("%s: error %q does not contain %q", c.file, err, w)
+			}
+		}
+		if c.old == "" && !errors.Is(err, fitdir.ErrMissing) {
+			t.Errorf("%s: error %v does not wrap ErrMissing", c.file, err)
+		}
+	}
+}
+
+const ErrMissingText = "run it first"
+
+func sum(v []float64) float64 {
+	s := 0.0
+	for _, x := range v {
+		s += x
+	}
+	return s
+}
+
+func sameOrBothNaN(a, b float64) bool {
+	return a == b || (math.IsNaN(a) && math.IsNaN(b))
+}
+
+// TestUndefinedEffects checks that an effect split could not compute (a
+// share in a window without spend, written as NaN) loads as NaN, while a
+// NaN where a number is required is an error.
+func TestUndefinedEffects(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "fit")
+	fx, err := fitdirtest.Write(dir, fitdirtest.Options{Draws: 10})
+	if err != nil {
+		t.Fatal(err)
+	}
+	p := filepath.Join(dir, "effects.csv")
+	b, _ := os.ReadFile(p)
+	lines := strings.Split(string(b), "\n")
+	for i, ln := range lines {
+		if strings.HasPrefix(ln, "audio_spend,mediated_share,2024Q1,") {
+			lines[i] = "audio_spend,mediated_share,2024Q1,NaN,NaN,NaN,NaN,"
+		}
+	}
+	os.WriteFile(p, []byte(strings.Join(lines, "\n")), 0o644)
+	f, err := fitdir.Load(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	e, ok := f.Effect("audio_spend", "mediated_share", "2024Q1")
+	if !ok || !math.IsNaN(e.Mean) || !math.IsNaN(e.Q95) {
+		t.Errorf("NaN share: got %+v", e)
+	}
+	if len(f.Effects) != len(fx.Effects) {
+		t.Errorf("effects: %d rows, want %d", len(f.Effects), len(fx.Effects))
+	}
+	wp := filepath.Join(dir, "weekly.csv")
+	wb, _ := os.ReadFile(wp)
+	wl := strings.Split(string(wb), "\n")
+	cells := strings.Split(wl[1], ",")
+	cells[3] = "NaN"
+	wl[1] = strings.Join(cells, ",")
+	os.WriteFile(wp, []byte(strings.Join(wl, "\n")), 0o644)
+	if _, err := fitdir.Load(dir); err == nil || !strings.Contains(err.Error(), "weekly.csv line 2, column mean") {
+		t.Errorf("NaN weekly mean: got %v, want an error naming weekly.csv line 2, column mean", err)
+	}
+}

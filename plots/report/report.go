@@ -1,0 +1,610 @@
+package report
+
+import (
+	"bytes"
+	"encoding/base64"
+	"fmt"
+	"html/template"
+	"io"
+	"math"
+	"path/filepath"
+	"slices"
+	"strings"
+
+	"spillway/plots"
+	"spillway/plots/fitdir"
+)
+
+// Write writes the quarterly-review report for the window (see
+// fitdir.Fit.Window: empty means the last full quarter) to w as one
+// self-contained HTML page. charts maps chart names (plots.Names) to PNG
+// bytes, embedded as data URIs; a nil map renders them with plots.Render.
+// A chart missing from a non-nil map is left out. Nothing is written to w
+// when an error is returned. The error is a *fitdir.WindowError when the
+// window is not in effects.csv.
+func Write(w io.Writer, f *fitdir.Fit, window string, charts map[string][]byte) error {
+	win, err := f.Window(window)
+	if err != nil {
+		return err
+	}
+	if charts == nil {
+		if charts, err = plots.Render(f, win.Name); err != nil {
+			return err
+		}
+	}
+	v, err := build(f, win, charts)
+	if err != nil {
+		return err
+	}
+	var buf bytes.Buffer
+	if err := page.Execute(&buf, v); err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	_, err = w.Write(buf.Bytes())
+	return err
+}
+
+// view is what the template shows; every number in it is already
+// formatted.
+type view struct {
+	Title, Subtitle string
+	Trustworthy     bool
+	Reasons         []string
+	Checks          string
+	Job             string
+	Findings        []string
+	Quarter         bool
+	Window          string // window name, "all" or a range
+	WindowLabel     string
+	Compare         *compareView
+	CompareNote     string
+	Charts          []chartView
+	EffectTables    []effectTable
+	PerLabel        string
+	Borrowed        []borrowedRow
+	BorrowedNote    string
+	Assumptions     []string
+	Sensitivity     []string
+	Cautions        []string
+	Data            dataView
+	Stages          []stageRow
+	Command         string
+	Rerun           string
+}
+
+type chartView struct {
+	Name, Title, Alt string
+	Src              template.URL
+}
+
+type effectRow struct {
+	Channel, Path, PathLabel, Window string
+	Mean, Interval, Q05, Q95, Per    string
+}
+
+type effectTable struct {
+	ID, Heading, Weeks string
+	Rows               []effectRow
+}
+
+type borrowedRow struct {
+	Channel, Measure, Label, Mean, Interval string
+}
+
+type compareView struct {
+	Window, Prev, Year string
+	Rows               []compareRow
+}
+
+type compareRow struct {
+	Channel, PathLabel   string
+	Now, Prev, Year      string
+	PrevChange, PrevSig  string
+	YearChange, YearSig  string
+	PrevClear, YearClear bool
+}
+
+type dataView struct {
+	Weeks, Range, Regions string
+	WindowWeeks           string
+	Spend                 []spendRow
+	Outcome, Queries      string
+	OutcomeName, QName    string
+}
+
+type spendRow struct {
+	Channel, Role, Total, Share, Window string
+}
+
+type stageRow struct {
+	Stage, Params, MaxRhat, MinBulk, MinTail, Divergences, Seconds string
+	Fails                                                          bool
+}
+
+var pathLabels = map[string]string{
+	fitdir.PathDirect:        "direct",
+	fitdir.PathViaSearch:     "via branded search",
+	fitdir.PathTotal:         "total",
+	fitdir.PathMediatedShare: "share via search",
+}
+
+// chartTitles describes each chart for its heading and alt text.
+var chartTitles = map[string][2]string{
+	"split":       {"Direct and via-search effect of each upper-funnel channel", "Stacked bars of direct and via-search incremental outcome per upper-funnel channel, for the review window and the whole period, with 90% intervals."},
+	"borrowed":    {"Demand paid search borrows from the upper funnel", "Horizontal bars of paid search's apparent and controlled incremental outcome, the borrowed share, and the refit without queries as a cross-check."},
+	"curves":      {"Response curves", "Weekly incremental outcome against weekly spend for each upper-funnel channel, direct, via search and total, with 90% bands and the current spend marked."},
+	"weekly":      {"Weekly contributions", "Weekly direct and via-search contributions of each channel over time, with 90% bands and the review window shaded."},
+	"fit":         {"Fit against actuals", "Actual and fitted weekly branded queries and outcome with the 90% predictive band."},
+	"sensitivity": {"Sensitivity to an unmeasured common cause", "Via-search effect against the assumed error correlation rho, with its 90% band, the zero line and the rho at which it reaches zero."},
+	"diagnostics": {"Convergence checks", "R-hat and effective sample size of every parameter against the thresholds 1.01 and 400."},
+}
+
+// perScale chooses how per-unit-spend values are shown: per unit, or per
+// 1,000 of spend when values per unit are small (conversions per currency
+// unit). It returns the factor and the column heading.
+func perScale(f *fitdir.Fit) (float64, string) {
+	var vs []float64
+	for _, e := range f.Effects {
+		if e.Path == fitdir.PathTotal && !math.IsNaN(e.PerUnitSpend) && e.Window == "all" {
+			vs = append(vs, math.Abs(e.PerUnitSpend))
+		}
+	}
+	if len(vs) == 0 {
+		return 1, "per unit of spend"
+	}
+	slices.Sort(vs)
+	if vs[len(vs)/2] < 0.1 {
+		return 1000, "per 1,000 of spend"
+	}
+	return 1, "per unit of spend"
+}
+
+// interval formats a 90% interval as "lo to hi".
+func interval(lo, hi float64) string {
+	return plots.Number(lo) + " to " + plots.Number(hi)
+}
+
+func pctInterval(lo, hi float64) string {
+	return plots.Percent(lo) + " to " + plots.Percent(hi)
+}
+
+func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, error) {
+	spec := f.Run.Spec
+	outcome := plots.Plain(spec.Outcome)
+	whole := f.Whole()
+	uppers := channelNames(spec.Upper)
+	v := &view{
+		Trustworthy: f.Verdict.Trustworthy,
+		Window:      w.Name,
+		WindowLabel: w.Label(),
+		Quarter:     w.Kind == fitdir.Quarter,
+		Command:     f.Run.Command,
+	}
+	if w.Kind == fitdir.WholePeriod {
+		v.Title = "Review of the whole period"
+	} else if w.Kind == fitdir.Quarter {
+		v.Title = "Quarterly review: " + w.Label()
+	} else {
+		v.Title = "Review: " + w.Label()
+	}
+	v.Subtitle = fmt.Sprintf("%s on %s from %s and %s, %s (%d weeks). Fit folder %s.",
+		plots.Capital(outcome), plots.List(uppers), plots.Plain(spec.Queries),
+		plots.List(channelNames(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
+	for _, r := range f.Verdict.Reasons {
+		if r.Stage != "" {
+			v.Reasons = append(v.Reasons, r.Stage+" stage: "+r.Text)
+		} else {
+			v.Reasons = append(v.Reasons, r.Text)
+		}
+	}
+	v.Job = fmt.Sprintf("This report splits the effect of %s on %s into the part that runs through branded search "+
+		"(people who see the ads and then search for the brand) and the direct part, and shows how much of %s's "+
+		"apparent return is demand borrowed from them.", plots.List(uppers), outcome, paidSearchName(spec.Search))
+
+	// Stage checks.
+	allPass := true
+	for _, st := range f.Stages {
+		row := stageRow{Stage: st.Name, Params: fmt.Sprint(len(st.Params))}
+		maxR, minB, minT := math.Inf(-1), math.Inf(1), math.Inf(1)
+		for _, p := range st.Params {
+			if !math.IsNaN(p.Rhat) {
+				maxR = math.Max(maxR, p.Rhat)
+			}
+			if !math.IsNaN(p.ESSBulk) {
+				minB = math.Min(minB, p.ESSBulk)
+			}
+			if !math.IsNaN(p.ESSTail) {
+				minT = math.Min(minT, p.ESSTail)
+			}
+		}
+		row.MaxRhat = fmt.Sprintf("%.3f", maxR)
+		row.MinBulk = plots.Number(minB)
+		row.MinTail = plots.Number(minT)
+		d := st.Stats.TotalDivergences()
+		row.Divergences = fmt.Sprint(d)
+		row.Seconds = fmt.Sprintf("%.1f", st.Stats.WallSeconds)
+		row.Fails = maxR > plots.RhatMax || minB < plots.ESSMin || minT < plots.ESSMin || d > 0
+		allPass = allPass && !row.Fails
+		v.Stages = append(v.Stages, row)
+	}
+	if allPass {
+		v.Checks = fmt.Sprintf("Every stage passes the convergence checks: R-hat at most %.2f and effective sample size at least %d for every parameter, and no divergent transitions.", plots.RhatMax, plots.ESSMin)
+	} else {
+		v.Checks = fmt.Sprintf("Some checks fail (R-hat above %.2f, effective sample size below %d, or divergent transitions): see the table.", plots.RhatMax, plots.ESSMin)
+	}
+
+	k, perLabel := perScale(f)
+	v.PerLabel = perLabel
+
+	// Findings.
+	if !f.Verdict.Trustworthy {
+		v.Findings = append(v.Findings, "The fit failed its checks (see the top of this report): treat every number below as provisional.")
+	}
+	when := windowPhraseShort(w)
+	for _, ch := range spec.Upper {
+		s, ok1 := f.Effect(ch, fitdir.PathMediatedShare, w.Name)
+		t, ok2 := f.Effect(ch, fitdir.PathTotal, w.Name)
+		if !ok1 || !ok2 {
+			continue
+		}
+		v.Findings = append(v.Findings, fmt.Sprintf("%s of %s's effect on %s %s ran through branded search (90%% interval %s).",
+			plots.Percent(s.Mean), plots.Channel(ch), outcome, when, pctInterval(s.Q05, s.Q95)))
+		per := ""
+		if !math.IsNaN(t.PerUnitSpend) {
+			per = fmt.Sprintf(", or %s %s", plots.Number(t.PerUnitSpend*k), perLabel)
+		}
+		v.Findings = append(v.Findings, fmt.Sprintf("With the via-search part credited, %s brought %s incremental %s %s (90%% interval %s)%s.",
+			plots.Channel(ch), plots.Number(t.Mean), outcome, when, interval(t.Q05, t.Q95), per))
+	}
+	for _, ch := range spec.Search {
+		sh, ok1 := f.BorrowedMeasure(ch, "borrowed_share")
+		ap, ok2 := f.BorrowedMeasure(ch, "apparent")
+		co, ok3 := f.BorrowedMeasure(ch, "controlled")
+		if !ok1 || !ok2 || !ok3 {
+			continue
+		}
+		v.Findings = append(v.Findings, fmt.Sprintf("%s of %s's apparent return over the whole period is demand borrowed from %s "+
+			"(90%% interval %s): a model without branded queries would credit it with %s %s, but once they are accounted for its own incremental %s is %s.",
+			plots.Percent(sh.Mean), paidSearchName([]string{ch}), plots.List(uppers), pctInterval(sh.Q05, sh.Q95),
+			plots.Number(ap.Mean), outcome, outcome, plots.Number(co.Mean)))
+	}
+
+	// Quarter comparisons.
+	if w.Kind == fitdir.Quarter {
+		cv, notes, err := compareQuarters(f, w)
+		if err != nil {
+			return nil, err
+		}
+		v.Compare = cv
+		v.CompareNote = strings.Join(notes, " ")
+		for _, ch := range spec.Upper {
+			if c, err := Compare(f, ch, fitdir.PathTotal, w.Name, cv.Prev); err == nil {
+				v.Findings = append(v.Findings, changeSentence(c, outcome))
+			}
+		}
+	} else {
+		v.CompareNote = "Quarter-on-quarter comparisons are made when the review window is a quarter (for example --window 2025Q3)."
+	}
+
+	// Sensitivity and assumptions.
+	v.Assumptions = []string{
+		fmt.Sprintf("No unmeasured common cause of branded queries and %s (sequential ignorability): once spend, trend, "+
+			"seasonality and the controls are accounted for, nothing else moves both the searches and the %s. "+
+			"If something does (a competitor's campaign, news about the brand), part of what is credited to the path through branded search belongs to it.", outcome, outcome),
+		"No unmeasured confounder of spend and the outcome: budgets were not set in reaction to shocks that the controls do not capture.",
+		"The model's form: geometric adstock and Hill saturation for each channel, effects that are stable over the period, and normal errors.",
+	}
+	for _, ch := range spec.Upper {
+		be, ok := f.BreakevenRho(ch)
+		if !ok {
+			continue
+		}
+		if math.IsNaN(be) {
+			v.Sensitivity = append(v.Sensitivity, fmt.Sprintf("%s's via-search effect does not reach zero for any error correlation rho from -0.9 to 0.9.", plots.Capital(plots.Channel(ch))))
+		} else {
+			v.Sensitivity = append(v.Sensitivity, fmt.Sprintf("%s's via-search effect would reach zero if an unmeasured common cause made the errors of the two stages correlate at rho = %s.",
+				plots.Capital(plots.Channel(ch)), trimFloat(be)))
+		}
+	}
+	if len(v.Sensitivity) > 0 {
+		var fragile []string
+		for _, ch := range spec.Upper {
+			if be, ok := f.BreakevenRho(ch); ok && !math.IsNaN(be) && math.Abs(be) < 0.3 {
+				fragile = append(fragile, plots.Channel(ch))
+			}
+		}
+		switch len(fragile) {
+		case 0:
+		case 1:
+			v.Findings = append(v.Findings, fmt.Sprintf("Caution: %s's via-search effect would vanish under a weak unmeasured common cause (|rho| below 0.3); see the sensitivity section.", fragile[0]))
+		default:
+			v.Findings = append(v.Findings, fmt.Sprintf("Caution: the via-search effects of %s would vanish under a weak unmeasured common cause (|rho| below 0.3); see the sensitivity section.", plots.List(fragile)))
+		}
+	}
+	v.Cautions = []string{
+		"Estimates from observational data rest on assumptions that this report names (above); they are not measured lifts.",
+		"Before moving a large budget, confirm with a controlled experiment (a geographic or time-based lift test).",
+		"Intervals are model-based and can be too narrow if the model is misspecified.",
+		"Response curves extrapolate beyond the spend levels seen in the data; read them near the current level.",
+	}
+
+	// Charts.
+	for _, n := range plots.Names {
+		b, ok := charts[n]
+		if !ok {
+			continue
+		}
+		t := chartTitles[n]
+		v.Charts = append(v.Charts, chartView{Name: n, Title: t[0], Alt: t[1],
+			Src: template.URL("data:image/png;base64," + base64.StdEncoding.EncodeToString(b))})
+	}
+
+	// Effect tables: the window, then the whole period.
+	windows := []fitdir.Window{w}
+	if w.Kind != fitdir.WholePeriod {
+		windows = append(windows, whole)
+	}
+	for _, tw := range windows {
+		tab := effectTable{ID: "effects-" + tw.Name, Weeks: weeksText(f, tw)}
+		if tw.Kind == fitdir.WholePeriod {
+			tab.Heading = "Whole period"
+		} else {
+			tab.Heading = tw.Label()
+		}
+		for _, ch := range append(slices.Clone(spec.Upper), spec.Search...) {
+			for _, p := range []string{fitdir.PathViaSearch, fitdir.PathDirect, fitdir.PathTotal, fitdir.PathMediatedShare} {
+				e, ok := f.Effect(ch, p, tw.Name)
+				if !ok {
+					continue
+				}
+				row := effectRow{Channel: plots.Channel(ch), Path: p, PathLabel: pathLabels[p], Window: tw.Name}
+				if p == fitdir.PathMediatedShare {
+					row.Mean, row.Q05, row.Q95 = plots.Percent(e.Mean), plots.Percent(e.Q05), plots.Percent(e.Q95)
+					row.Per = ""
+				} else {
+					row.Mean, row.Q05, row.Q95 = plots.Number(e.Mean), plots.Number(e.Q05), plots.Number(e.Q95)
+					row.Per = plots.Number(e.PerUnitSpend * k)
+				}
+				row.Interval = row.Q05 + " to " + row.Q95
+				tab.Rows = append(tab.Rows, row)
+			}
+		}
+		v.EffectTables = append(v.EffectTables, tab)
+	}
+
+	// Borrowed demand.
+	labels := map[string]string{
+		"apparent":       "apparent: credited by a model without branded queries",
+		"controlled":     "controlled: its own incremental " + outcome,
+		"naive":          "refit without queries (cross-check of apparent)",
+		"borrowed_share": "share of apparent borrowed from the upper funnel",
+	}
+	for _, ch := range spec.Search {
+		for _, m := range []string{"apparent", "controlled", "borrowed_share", "naive"} {
+			b, ok := f.BorrowedMeasure(ch, m)
+			if !ok {
+				continue
+			}
+			row := borrowedRow{Channel: plots.Channel(ch), Measure: m, Label: labels[m]}
+			if m == "borrowed_share" {
+				row.Mean, row.Interval = plots.Percent(b.Mean), pctInterval(b.Q05, b.Q95)
+			} else {
+				row.Mean, row.Interval = plots.Number(b.Mean), interval(b.Q05, b.Q95)
+			}
+			v.Borrowed = append(v.Borrowed, row)
+		}
+	}
+	v.BorrowedNote = fmt.Sprintf("Incremental %s over the whole period (%s). The apparent figure is what paid search "+
+		"would be credited with if the model left branded queries out; the difference is demand that the upper funnel "+
+		"created and paid search captured. The separate refit without queries should agree with the apparent figure in the mean.",
+		outcome, weeksText(f, whole))
+
+	// Data summary.
+	v.Data = dataSummary(f, w)
+	v.Rerun = "To rerun the fit that produced these numbers (same data, same seed, byte-identical output):"
+	return v, nil
+}
+
+func channelNames(cols []string) []string {
+	out := make([]string, len(cols))
+	for i, c := range cols {
+		out[i] = plots.Channel(c)
+	}
+	return out
+}
+
+// paidSearchName names paid-search channels for sentences: "paid search"
+// for one channel called search, else "paid search (brand, generic)".
+func paidSearchName(cols []string) string {
+	names := channelNames(cols)
+	if len(names) == 1 && (names[0] == "search" || names[0] == "paid search") {
+		return "paid search"
+	}
+	return "paid search (" + strings.Join(names, ", ") + ")"
+}
+
+func windowPhraseShort(w fitdir.Window) string {
+	switch w.Kind {
+	case fitdir.Quarter:
+		return "in " + w.Name
+	case fitdir.Custom:
+		return fmt.Sprintf("from %s to %s", fitdir.Day(w.From), fitdir.Day(w.To))
+	}
+	return "over the whole period"
+}
+
+func dateRange(w fitdir.Window) string {
+	return fitdir.Day(w.From) + " – " + fitdir.Day(w.To)
+}
+
+func weeksText(f *fitdir.Fit, w fitdir.Window) string {
+	n := f.Data.WeeksIn(w)
+	if n == 0 {
+		return "no weeks of data"
+	}
+	var first, last string
+	for _, t := range f.Data.Weeks {
+		if w.Contains(t) {
+			if first == "" {
+				first = fitdir.Day(t)
+			}
+			last = fitdir.Day(t)
+		}
+	}
+	if n == 1 {
+		return "1 week starting " + first
+	}
+	return fmt.Sprintf("%d weeks starting %s – %s", n, first, last)
+}
+
+func trimFloat(v float64) string {
+	s := fmt.Sprintf("%.2f", v)
+	s = strings.TrimRight(strings.TrimRight(s, "0"), ".")
+	if s == "-0" {
+		return "0"
+	}
+	return s
+}
+
+func changeSentence(c Change, outcome string) string {
+	dir := "rose"
+	if c.Mean < 0 {
+		dir = "fell"
+	}
+	rel := ""
+	if r := c.Relative(); !math.IsNaN(r) {
+		rel = " (" + plots.Percent(math.Abs(r)) + ")"
+	}
+	verdict := "the 90% interval of the change excludes zero, so the change is clear"
+	if !c.ExcludesZero() {
+		verdict = "the 90% interval of the change includes zero, so it may be noise"
+	}
+	return fmt.Sprintf("%s's total effect %s by %s %s%s from %s to %s; %s (%s).",
+		plots.Capital(plots.Channel(c.Channel)), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,
+		verdict, signedInterval(c.Q05, c.Q95))
+}
+
+func signedInterval(lo, hi float64) string {
+	return plots.Signed(lo) + " to " + plots.Signed(hi)
+}
+
+func pointsInterval(lo, hi float64) string {
+	return strings.TrimSuffix(plots.Points(lo), " pts") + " to " + plots.Points(hi)
+}
+
+// compareQuarters builds the comparison of w with the previous quarter and
+// the same quarter a year earlier, for every channel and path with draws.
+func compareQuarters(f *fitdir.Fit, w fitdir.Window) (*compareView, []string, error) {
+	prev, _ := w.Previous()
+	year, _ := w.YearEarlier()
+	cv := &compareView{Window: w.Name, Prev: prev.Name, Year: year.Name}
+	var notes []string
+	hasPrev, hasYear := f.HasWindow(prev.Name), f.HasWindow(year.Name)
+	if !hasPrev {
+		notes = append(notes, fmt.Sprintf("%s is not in effects.csv, so there is no comparison with the previous quarter.", prev.Name))
+	}
+	if !hasYear {
+		notes = append(notes, fmt.Sprintf("%s is not in effects.csv, so there is no comparison with a year earlier.", year.Name))
+	}
+	spec := f.Run.Spec
+	for _, ch := range append(slices.Clone(spec.Upper), spec.Search...) {
+		for _, p := range []string{fitdir.PathViaSearch, fitdir.PathDirect, fitdir.PathTotal, fitdir.PathMediatedShare} {
+			now, ok := f.Effect(ch, p, w.Name)
+			if !ok {
+				continue
+			}
+			if p != fitdir.PathMediatedShare {
+				if _, ok := f.EffectDraws[fitdir.DrawKey{Channel: ch, Path: p, Window: w.Name}]; !ok {
+					continue
+				}
+			}
+			if p == fitdir.PathTotal && !slices.Contains(spec.Upper, ch) {
+				// Paid search has one path: its total repeats its direct row.
+				continue
+			}
+			format := plots.Number
+			change := func(c Change) string {
+				return plots.Signed(c.Mean) + " (" + signedInterval(c.Q05, c.Q95) + ")"
+			}
+			if p == fitdir.PathMediatedShare {
+				format = plots.Percent
+				change = func(c Change) string {
+					return plots.Points(c.Mean) + " (" + pointsInterval(c.Q05, c.Q95) + ")"
+				}
+			}
+			row := compareRow{Channel: plots.Channel(ch), PathLabel: pathLabels[p], Now: format(now.Mean),
+				Prev: "–", Year: "–", PrevChange: "–", YearChange: "–"}
+			for _, side := range []struct {
+				ok            bool
+				base          string
+				val, chg, sig *string
+				clear         *bool
+			}{
+				{hasPrev, prev.Name, &row.Prev, &row.PrevChange, &row.PrevSig, &row.PrevClear},
+				{hasYear, year.Name, &row.Year, &row.YearChange, &row.YearSig, &row.YearClear},
+			} {
+				if !side.ok {
+					continue
+				}
+				be, ok := f.Effect(ch, p, side.base)
+				if !ok {
+					continue
+				}
+				*side.val = format(be.Mean)
+				c, err := Compare(f, ch, p, w.Name, side.base)
+				if err != nil {
+					return nil, nil, err
+				}
+				*side.chg = change(c)
+				*side.clear = c.ExcludesZero()
+				if c.ExcludesZero() {
+					*side.sig = "yes"
+				} else {
+					*side.sig = "no"
+				}
+			}
+			cv.Rows = append(cv.Rows, row)
+		}
+	}
+	return cv, notes, nil
+}
+
+func dataSummary(f *fitdir.Fit, w fitdir.Window) dataView {
+	spec := f.Run.Spec
+	whole := f.Whole()
+	d := dataView{
+		Weeks:       fmt.Sprint(len(f.Data.Weeks)),
+		Range:       dateRange(whole),
+		OutcomeName: plots.Plain(spec.Outcome),
+		QName:       plots.Plain(spec.Queries),
+		Outcome:     plots.Number(f.Data.Total(spec.Outcome, whole)),
+		Queries:     plots.Number(f.Data.Total(spec.Queries, whole)),
+	}
+	if w.Kind != fitdir.WholePeriod {
+		d.WindowWeeks = w.Name + ": " + weeksText(f, w)
+	}
+	if spec.Region != "" {
+		seen := map[string]bool{}
+		for _, r := range f.Data.Region {
+			seen[r] = true
+		}
+		d.Regions = fmt.Sprintf("%d regions (column %s)", len(seen), spec.Region)
+	} else {
+		d.Regions = "one national series"
+	}
+	all := 0.0
+	for _, ch := range append(slices.Clone(spec.Upper), spec.Search...) {
+		all += f.Data.Total(ch, whole)
+	}
+	for _, ch := range spec.Upper {
+		t := f.Data.Total(ch, whole)
+		d.Spend = append(d.Spend, spendRow{Channel: plots.Channel(ch), Role: "upper funnel", Total: plots.Number(t),
+			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
+	}
+	for _, ch := range spec.Search {
+		t := f.Data.Total(ch, whole)
+		d.Spend = append(d.Spend, spendRow{Channel: plots.Channel(ch), Role: "paid search", Total: plots.Number(t),
+			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
+	}
+	return d
+}
