@@ -140,9 +140,9 @@ var cmdBadInputTests = []struct {
 	{"ragged row", func() string { f := cmdFrame(60); f.rows[15] = f.rows[15][:6]; return f.csv() }, nil, ":17:7: ", `line has 6 fields but the header has 7`},
 }
 
-// TestBadInput runs each bad input through inspect and through a writing
-// command: exit status 2, one message naming FILE:LINE:COLUMN, and no
-// output folder (nor temporary folder) left behind.
+// TestBadInput runs each bad input through inspect and through fit (a
+// writing command): exit status 2, one message naming FILE:LINE:COLUMN, and
+// no output folder (nor temporary folder) left behind.
 func TestBadInput(t *testing.T) {
 	for _, test := range cmdBadInputTests {
 		t.Run(test.name, func(t *testing.T) {
@@ -154,13 +154,13 @@ func TestBadInput(t *testing.T) {
 				t.Errorf("inspect: got %d, stdout %q, stderr %q; want 2 and one line starting %q", code, out, errs, want)
 			}
 			outDir := filepath.Join(dir, "results")
-			args := append([]string{"writetest", "--out", outDir}, inspectArgs(path, test.more...)[1:]...)
+			args := append([]string{"fit", "--quiet", "--out", outDir}, inspectArgs(path, test.more...)[1:]...)
 			code, _, errs = runCmd(t, args...)
-			if code != exitUsage || !strings.HasPrefix(errs, "spillway writetest: "+path+test.loc+test.want) {
-				t.Errorf("writetest: got %d, stderr %q", code, errs)
+			if code != exitUsage || !strings.HasPrefix(errs, "spillway fit: "+path+test.loc+test.want) {
+				t.Errorf("fit: got %d, stderr %q", code, errs)
 			}
 			if names := dirNames(t, dir); !slices.Equal(names, []string{"data.csv"}) {
-				t.Errorf("writetest left %v behind", names)
+				t.Errorf("fit left %v behind", names)
 			}
 		})
 	}
