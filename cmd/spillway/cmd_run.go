@@ -72,7 +72,7 @@ func runAll(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo, wi
 		tableWindow = "all"
 	}
 	fmt.Fprintln(stdout)
-	if err := runSplit(ctx, dir, tableWindow, stdout); err != nil {
+	if err := runSplit(ctx, dir, tableWindow, stdout, false); err != nil {
 		return err
 	}
 	f, err := fitdir.Load(dir)

@@ -51,14 +51,14 @@ EXAMPLE
 			if dir == "" {
 				return usagef("no fit folder: name it with --fit FOLDER")
 			}
-			return runSplit(ctx, dir, window, stdout)
+			return runSplit(ctx, dir, window, stdout, true)
 		},
 	})
 }
 
 // runSplit computes the effects of a fit folder and adds the split's files
-// to it atomically.
-func runSplit(ctx context.Context, dir, window string, stdout io.Writer) error {
+// to it atomically; say reports the folder on stdout.
+func runSplit(ctx context.Context, dir, window string, stdout io.Writer, say bool) error {
 	ff, err := readFitFolder(dir)
 	if err != nil {
 		return err
@@ -132,6 +132,8 @@ func runSplit(ctx context.Context, dir, window string, stdout io.Writer) error {
 		}
 		fmt.Fprintf(stdout, "%s: the via-search effect reaches zero if the errors of the demand and outcome stages correlate at rho = %.2f\n", s.Channel, s.Zero)
 	}
-	fmt.Fprintf(stdout, "split written to %s\n", dir)
+	if say {
+		fmt.Fprintf(stdout, "split written to %s\n", dir)
+	}
 	return nil
 }
