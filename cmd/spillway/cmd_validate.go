@@ -1,0 +1,428 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/schollz/progressbar/v3"
+	"github.com/spf13/pflag"
+	"golang.org/x/term"
+
+	"spillway/funnel/data"
+	"spillway/funnel/model"
+	"spillway/funnel/pipeline"
+	"spillway/funnel/scenario"
+	"spillway/funnel/validate"
+)
+
+// validateOptions are the flags of spillway validate.
+type validateOptions struct {
+	roles      roleFlags
+	sampling   samplingFlags
+	fitDir     string
+	truth      string
+	checks     []string
+	replicates int
+	origins    int
+	horizon    int
+	leaveOut   []string
+	seeds      int
+	shard      string
+	merge      bool
+}
+
+func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
+	o.roles.addFlags(fs)
+	fs.StringVar(&o.fitDir, "fit", "", "a fit `FOLDER` from 'spillway fit': validate its data, with its posterior as the reference")
+	fs.StringVar(&o.truth, "truth", "", "a truth.json `FILE` from 'spillway simulate': recovery simulates from these true parameters")
+	fs.StringSliceVar(&o.checks, "checks", []string{validate.Recovery, validate.Holdout, validate.Stability}, "the `CHECKS` to run: recovery, holdout, stability")
+	fs.IntVar(&o.replicates, "replicates", validate.DefaultReplicates, "simulated data sets refitted by the recovery check")
+	fs.IntVar(&o.origins, "origins", validate.DefaultOrigins, "forecast origins of the holdout check")
+	fs.IntVar(&o.horizon, "horizon", validate.DefaultHorizon, "weeks forecast from each origin (1 to 52)")
+	fs.StringSliceVar(&o.leaveOut, "leave-out", nil, "`QUARTERS` the stability check leaves out one at a time, e.g. 2024Q2,2024Q3 (default every quarter)")
+	fs.IntVar(&o.seeds, "seeds", validate.DefaultSeeds, "extra refits of the whole data with other seeds (stability); 0 for none")
+	fs.StringVar(&o.shard, "shard", "", "run only shard `I/N` of the sweep (jobs whose number is I-1 modulo N) into --out")
+	fs.BoolVar(&o.merge, "merge", false, "merge the shard folders given as arguments into --out")
+	s := &o.sampling
+	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
+	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
+	fs.Uint64Var(&s.seed, "seed", 1, "random seed of the sweep; every job's seed derives from it and the job's number")
+	fs.IntVar(&s.chains, "chains", validate.DefaultChains, "chains per refit, run in parallel")
+	fs.IntVar(&s.warmup, "warmup", validate.DefaultWarmup, "warm-up iterations per chain of each refit")
+	fs.IntVar(&s.draws, "draws", validate.DefaultDraws, "kept draws per chain of each refit")
+	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
+	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
+	fs.BoolVar(&s.quiet, "quiet", false, "no progress on standard error")
+}
+
+func init() {
+	var opts validateOptions
+	fs := pflag.NewFlagSet("validate", pflag.ContinueOnError)
+	opts.addFlags(fs)
+	register(&command{
+		name:  "validate",
+		usage: "validate [(roles) | --fit FOLDER] --out FOLDER [flags]",
+		short: "check recovery of known truth, holdout accuracy and stability",
+		long: `Validate checks whether the model deserves trust on a data set by refitting it
+many times. With no data it validates the built-in demo.
+
+  recovery   simulates --replicates data sets from the fitted posterior (or,
+             with --truth, from given true parameters) with the data's own
+             spend, controls and weeks, refits each and reports, per effect
+             (via search, direct, total, mediated share, by quarter, and
+             paid search's borrowed share), how often the 50% and 90%
+             intervals cover the truth, the bias and the interval width,
+             and simulation-based calibration ranks of gamma, alpha, delta
+             and beta with a chi-square uniformity p-value.
+  holdout    fits the weeks before each of --origins origins and forecasts
+             the next --horizon weeks given the actual spend (and, for the
+             outcome, the actual queries): MAPE, CRPS and 90% interval
+             coverage, against a seasonal baseline (the same week a year
+             earlier times the recent level).
+  stability  refits leaving out each quarter in turn and with --seeds other
+             seeds, and reports how far each effect moves in posterior sds
+             of the reference fit; moves above 1 sd (or above what leaving
+             out that many weeks explains by chance) are flagged.
+
+FOLDER gets validation.csv (check,effect,channel,metric,value),
+validation.png, verdict.txt (also printed), jobs.csv (every job's raw numbers
+at full precision) and manifest.json. The reference posterior is fitted with
+the refit settings, or taken from a fit folder with --fit.
+
+Each refit defaults to 2 chains x (500 warm-up + 500 draws), lighter than a
+fit. The default sweep on the demo (156 weeks) is 38 refits plus the
+reference: 20 replicates, 4 origins, 12 quarters, 2 seeds. A refit costs
+about 10 CPU seconds, so the sweep takes about 3.5 minutes on 2 free cores
+(about 7 on a busy machine); time grows with the weeks, the refits and the
+draws. Refits run in parallel over the cores; the result does not depend on
+their number.
+
+SHARDS
+A sweep is a fixed list of jobs, each with its own seed. --shard I/N runs the
+jobs numbered I-1 modulo N into its own folder; --merge combines the folders
+of all N shards into the same output, byte for byte, as one run:
+  parallel spillway validate --data d.csv ... --shard {}/8 --out shard{} ::: $(seq 8)
+  spillway validate --merge shard* --out validation
+
+EXAMPLE
+  spillway validate --data sales.csv --date week --upper video,audio --search search \
+    --queries brand_queries --outcome orders --controls price --out val1
+
+` + exitStatusHelp,
+		order: 80,
+		flags: fs,
+		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+			return runValidate(ctx, &opts, fs, args, stdout, stderr)
+		},
+	})
+}
+
+// runValidate runs a sweep, one shard of it, or a merge.
+func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, args []string, stdout, stderr io.Writer) error {
+	if o.merge {
+		return runMerge(o, fs, args, stdout)
+	}
+	if err := noArgs(args); err != nil {
+		return err
+	}
+	if err := o.sampling.validate(); err != nil {
+		return err
+	}
+	set := validate.Settings{Checks: o.checks, Replicates: o.replicates, Origins: o.origins, Horizon: o.horizon,
+		LeaveOut: o.leaveOut, Seeds: o.seeds, Chains: o.sampling.chains, Warmup: o.sampling.warmup,
+		Draws: o.sampling.draws, Seed: o.sampling.seed}
+	switch {
+	case o.replicates < 0 || o.origins < 0 || o.seeds < 0:
+		return usagef("--replicates, --origins and --seeds must not be negative")
+	case o.horizon < 1 || o.horizon > validate.BaselineLag:
+		return usagef("--horizon must be 1 to %d weeks", validate.BaselineLag)
+	}
+	if o.seeds == 0 {
+		set.Seeds = validate.NoSeeds
+	}
+	// zero replicates or origins: leave that check out
+	if o.replicates == 0 {
+		set.Checks, set.Replicates = without(set.Checks, validate.Recovery), 1
+	}
+	if o.origins == 0 {
+		set.Checks, set.Origins = without(set.Checks, validate.Holdout), 1
+	}
+	if len(set.Checks) == 0 {
+		return usagef("no check left to run (--checks, --replicates 0, --origins 0)")
+	}
+	var shard validate.Shard
+	if o.shard != "" {
+		var err error
+		if shard, err = validate.ParseShard(o.shard); err != nil {
+			return usagef("--shard: %v", err)
+		}
+	}
+	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0) {
+		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors and --linear")
+	}
+	od, err := newOutDir(o.sampling.out, o.sampling.force)
+	if err != nil {
+		return err
+	}
+	defer od.Abort()
+
+	in := validate.Input{Tool: "spillway " + spillwayVersion()}
+	var ds *data.Dataset
+	switch {
+	case o.fitDir != "":
+		ff, err := readFitFolder(o.fitDir)
+		if err != nil {
+			return err
+		}
+		ds = ff.data
+		if in.Options, err = ff.spec.options(o.fitDir, ff.stages); err != nil {
+			return badData(err)
+		}
+		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}
+	case o.roles.given():
+		if ds, err = o.roles.load(); err != nil {
+			return err
+		}
+	default:
+		if ds, err = demoData("demo"); err != nil {
+			return err
+		}
+	}
+	for _, w := range ds.Warnings {
+		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
+	}
+	if len(ds.Regions) > 1 {
+		fmt.Fprintf(stderr, "spillway: note: %d regions are validated as their national sum\n", len(ds.Regions))
+	}
+	in.Series, in.Spec = ds.National(), ds.Spec
+	if o.fitDir == "" {
+		if in.Options, err = modelOptions(ds, &o.sampling); err != nil {
+			return err
+		}
+	}
+	if o.truth != "" {
+		if in.Truth, err = readTruth(o.truth); err != nil {
+			return err
+		}
+	}
+	sw, err := validate.New(in, set)
+	if err != nil {
+		return usagef("%v", strings.TrimPrefix(err.Error(), "validate: "))
+	}
+	res, err := sw.Run(ctx, shard, jobProgress(o, stderr))
+	if err != nil {
+		return unprefixed{err}
+	}
+	if shard.N > 1 {
+		files, err := validate.ShardFiles(res)
+		if err != nil {
+			return err
+		}
+		if err := writeAll(od, files); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "shard %s: %d of %d jobs written to %s; when every shard is done, combine them with\n  spillway validate --merge FOLDER... --out FOLDER\n",
+			shard, len(res.Manifest.Ran), len(res.Manifest.Jobs), od.Final())
+		return nil
+	}
+	return writeReport(od, res, stdout)
+}
+
+// runMerge combines shard folders.
+func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout io.Writer) error {
+	if len(args) == 0 {
+		return usagef("--merge needs the shard folders as arguments")
+	}
+	var extra []string
+	fs.VisitAll(func(f *pflag.Flag) {
+		switch {
+		case !f.Changed:
+		case f.Name == "merge" || f.Name == "out" || f.Name == "force" || f.Name == "quiet":
+		default:
+			extra = append(extra, "--"+f.Name)
+		}
+	})
+	if len(extra) > 0 {
+		return usagef("--merge takes only shard folders, --out and --force; the shards already fix %s", strings.Join(extra, ", "))
+	}
+	od, err := newOutDir(o.sampling.out, o.sampling.force)
+	if err != nil {
+		return err
+	}
+	defer od.Abort()
+	var parts []*validate.Results
+	for _, dir := range args {
+		r, err := readShard(dir)
+		if err != nil {
+			return err
+		}
+		parts = append(parts, r)
+	}
+	res, err := validate.Merge(parts, args)
+	if err != nil {
+		return badData(fmt.Errorf("%s", strings.TrimPrefix(err.Error(), "validate: ")))
+	}
+	return writeReport(od, res, stdout)
+}
+
+// readShard reads a shard folder's manifest.json and jobs.csv.
+func readShard(dir string) (*validate.Results, error) {
+	m, err := os.Open(filepath.Join(dir, validate.ManifestFile))
+	if err != nil {
+		return nil, badData(fmt.Errorf("%s is not a folder written by spillway validate: %w", dir, err))
+	}
+	defer m.Close()
+	j, err := os.Open(filepath.Join(dir, validate.JobsFile))
+	if err != nil {
+		return nil, badData(fmt.Errorf("%s is incomplete: %w", dir, err))
+	}
+	defer j.Close()
+	r, err := validate.ReadResults(m, j, dir)
+	if err != nil {
+		return nil, badData(err)
+	}
+	return r, nil
+}
+
+// writeReport renders and writes a complete sweep's folder and prints the
+// verdict.
+func writeReport(od *outDir, res *validate.Results, stdout io.Writer) error {
+	files, rep, err := validate.Files(res)
+	if err != nil {
+		return err
+	}
+	if err := writeAll(od, files); err != nil {
+		return err
+	}
+	fmt.Fprint(stdout, rep.Text())
+	fmt.Fprintf(stdout, "validation written to %s\n", od.Final())
+	return nil
+}
+
+func writeAll(od *outDir, files map[string][]byte) error {
+	for name, b := range files {
+		if err := od.WriteFile(name, b); err != nil {
+			return err
+		}
+	}
+	return od.Commit()
+}
+
+// modelOptions turns --linear and --priors into model options, checking
+// them against the data before any sampling.
+func modelOptions(ds *data.Dataset, s *samplingFlags) (model.Options, error) {
+	o := model.Options{Linear: map[string]bool{}}
+	cols := map[string]bool{}
+	all := append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...)
+	for _, c := range all {
+		cols[c] = true
+	}
+	for _, c := range s.linear {
+		if !cols[c] {
+			return o, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(all, ", "))
+		}
+		o.Linear[c] = true
+	}
+	if s.priors != "" {
+		sc := model.Scale(ds.National(), ds.Spec)
+		st, err := pipeline.Stages(sc, o)
+		if err != nil {
+			return o, err
+		}
+		if o.Priors, err = model.LoadPriors(s.priors, pipeline.Known(st)); err != nil {
+			return o, badData(err)
+		}
+		if st, err = pipeline.Stages(sc, o); err != nil {
+			return o, err
+		}
+		for _, stage := range st {
+			if _, err := stage.Target(); err != nil {
+				return o, badData(fmt.Errorf("%s: %w", s.priors, err))
+			}
+		}
+	}
+	return o, nil
+}
+
+// readTruth reads the true parameters from a truth.json.
+func readTruth(path string) (*validate.Truth, error) {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, badData(err)
+	}
+	var t scenario.Truth
+	dec := json.NewDecoder(bytes.NewReader(b))
+	if err := dec.Decode(&t); err != nil {
+		return nil, badData(fmt.Errorf("%s: %w", path, err))
+	}
+	if len(t.Demand) == 0 || len(t.Outcome) == 0 {
+		if len(t.RegionTruth) > 0 {
+			return nil, badData(fmt.Errorf("%s holds per-region truth; the recovery check needs national true parameters (simulate a national scenario)", path))
+		}
+		return nil, badData(fmt.Errorf("%s has no demand and outcome parameters; expected a truth.json from 'spillway simulate'", path))
+	}
+	return &validate.Truth{Demand: t.Demand, Outcome: t.Outcome}, nil
+}
+
+// unprefixed drops the package's "validate: " from an error's message
+// (the command prints its own prefix) and keeps the error for errors.Is.
+type unprefixed struct{ err error }
+
+func (e unprefixed) Error() string { return strings.TrimPrefix(e.err.Error(), "validate: ") }
+func (e unprefixed) Unwrap() error { return e.err }
+
+func without(list []string, x string) []string {
+	var out []string
+	for _, v := range list {
+		if v != x {
+			out = append(out, v)
+		}
+	}
+	return out
+}
+
+// jobProgress reports finished jobs on stderr: a bar on a terminal, a line
+// per job otherwise, nothing with --quiet.
+func jobProgress(o *validateOptions, stderr io.Writer) func(validate.Progress) {
+	if o.sampling.quiet {
+		return nil
+	}
+	tty := false
+	if f, ok := stderr.(*os.File); ok {
+		tty = term.IsTerminal(int(f.Fd()))
+	}
+	start := time.Now()
+	var once sync.Once
+	var bar *progressbar.ProgressBar
+	return func(p validate.Progress) {
+		if p.Done == 0 {
+			fmt.Fprintf(stderr, "spillway validate: reference fit done in %.0f s; %d jobs to run\n", p.Seconds, p.Total)
+			return
+		}
+		if tty {
+			once.Do(func() {
+				bar = progressbar.NewOptions(p.Total, progressbar.OptionSetWriter(stderr),
+					progressbar.OptionSetDescription("validate"), progressbar.OptionSetWidth(30),
+					progressbar.OptionShowCount(), progressbar.OptionSetPredictTime(true))
+			})
+			_ = bar.Set(p.Done)
+			if p.Done == p.Total {
+				_ = bar.Finish()
+				fmt.Fprintln(stderr)
+			}
+			return
+		}
+		el := time.Since(start)
+		left := time.Duration(float64(el) / float64(p.Done) * float64(p.Total-p.Done))
+		fmt.Fprintf(stderr, "spillway validate: [%d/%d] %s %s done in %.0f s (elapsed %s, about %s left)\n",
+			p.Done, p.Total, p.Job.Check, p.Job.Label, p.Seconds, el.Round(time.Second), left.Round(time.Second))
+	}
+}

@@ -1,0 +1,378 @@
+package chart
+
+import (
+	"bytes"
+	"fmt"
+	"image/color"
+	"math"
+	"strings"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
+	"gonum.org/v1/plot/text"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/draw"
+	"gonum.org/v1/plot/vg/vgimg"
+
+	xfont "golang.org/x/image/font"
+
+	"spillway/plots"
+)
+
+// Coverage is one effect's interval coverage over the replicates
+// (fractions in [0, 1]).
+type Coverage struct {
+	Label, Path      string
+	Cover50, Cover90 float64
+	// Flagged marks implausibly low coverage; the bar is drawn in the
+	// alert colour.
+	Flagged bool
+}
+
+// Forecast is one stage's holdout forecasts in raw units, week by week.
+type Forecast struct {
+	Stage string
+	// Days are the weeks as days since 1970-01-01; Origins likewise.
+	Days                 []float64
+	Actual, Mean, Lo, Hi []float64
+	Baseline             []float64
+	Origins              []float64
+}
+
+// Shift is one effect's largest move over the stability refits, in
+// posterior sds; Threshold is the flag level of the refit that moved it
+// most, drawn as a red tick on the bar's row.
+type Shift struct {
+	Label, Path      string
+	Value, Threshold float64
+	Flagged          bool
+}
+
+// Figure is the whole page. Empty sections are left out.
+type Figure struct {
+	Title, Caption string
+	Replicates     int
+	Coverage       []Coverage
+	// Forecasts: the outcome stage is drawn (the first one when there is
+	// no stage named "outcome").
+	Forecasts []Forecast
+	Shifts    []Shift
+}
+
+// Page size: 1600×900 px at 96 dpi, a 16:9 slide.
+const (
+	widthPx, heightPx = 1600, 900
+	dpi               = 96
+	margin            = 34
+)
+
+var (
+	sans     = font.Font{Typeface: "Liberation", Variant: "Sans"}
+	sansBold = font.Font{Typeface: "Liberation", Variant: "Sans", Weight: xfont.WeightBold}
+)
+
+func style(size vg.Length, c color.Color, bold bool) text.Style {
+	f := sans
+	if bold {
+		f = sansBold
+	}
+	return text.Style{Color: c, Font: font.From(f, size), XAlign: text.XLeft, YAlign: text.YBottom, Handler: plot.DefaultTextHandler}
+}
+
+// pathColor is the palette colour of an effect path: amber through
+// search, blue direct, near-black total, grey for shares.
+func pathColor(path string) color.Color {
+	p := strings.TrimSuffix(path, "_quarterly")
+	switch p {
+	case "via_search", "borrowed_share":
+		return plots.ViaSearch
+	case "direct":
+		return plots.Direct
+	case "total":
+		return plots.Ink
+	}
+	return plots.Faint
+}
+
+// PNG renders the figure.
+func (f *Figure) PNG() ([]byte, error) {
+	w := vg.Length(widthPx) * vg.Inch / dpi
+	h := vg.Length(heightPx) * vg.Inch / dpi
+	img := vgimg.NewWith(vgimg.UseWH(w, h), vgimg.UseDPI(dpi))
+	dc := draw.New(img)
+	dc.SetColor(color.White)
+	dc.Fill(dc.Rectangle.Path())
+	if err := f.draw(dc); err != nil {
+		return nil, err
+	}
+	var buf bytes.Buffer
+	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
+		return nil, fmt.Errorf("chart: encode validation.png: %w", err)
+	}
+	return buf.Bytes(), nil
+}
+
+func (f *Figure) draw(dc draw.Canvas) error {
+	left, right := dc.Min.X+margin, dc.Max.X-margin
+	y := dc.Max.Y - 24
+	ts := style(28, plots.Ink, true)
+	ts.YAlign = text.YTop
+	for _, ln := range wrap(ts, f.Title, right-left) {
+		dc.FillText(ts, vg.Point{X: left, Y: y}, ln)
+		y -= ts.Height(ln) + 6
+	}
+	y -= 10
+	bottom := dc.Min.Y + 18
+	if f.Caption != "" {
+		cs := style(17, plots.Muted, false)
+		lines := wrap(cs, f.Caption, right-left)
+		for i := len(lines) - 1; i >= 0; i-- {
+			dc.FillText(cs, vg.Point{X: left, Y: bottom}, lines[i])
+			bottom += cs.Height(lines[i]) + 4
+		}
+		bottom += 10
+	}
+	var panels []*plot.Plot
+	cov, err := f.coveragePanel()
+	if err != nil {
+		return err
+	}
+	fc, err := f.forecastPanel()
+	if err != nil {
+		return err
+	}
+	sh, err := f.shiftPanel()
+	if err != nil {
+		return err
+	}
+	for _, p := range []*plot.Plot{cov, fc, sh} {
+		if p != nil {
+			panels = append(panels, p)
+		}
+	}
+	area := vg.Rectangle{Min: vg.Point{X: left, Y: bottom}, Max: vg.Point{X: right, Y: y}}
+	sub := func(x0, y0, x1, y1 float64) draw.Canvas {
+		r := vg.Rectangle{
+			Min: vg.Point{X: area.Min.X + vg.Length(x0)*(area.Max.X-area.Min.X), Y: area.Min.Y + vg.Length(y0)*(area.Max.Y-area.Min.Y)},
+			Max: vg.Point{X: area.Min.X + vg.Length(x1)*(area.Max.X-area.Min.X), Y: area.Min.Y + vg.Length(y1)*(area.Max.Y-area.Min.Y)}}
+		return draw.Canvas{Canvas: dc.Canvas, Rectangle: r}
+	}
+	switch len(panels) {
+	case 0:
+		s := style(24, plots.Muted, false)
+		dc.FillText(s, vg.Point{X: left, Y: (area.Min.Y + area.Max.Y) / 2}, "No check was run.")
+	case 1:
+		panels[0].Draw(sub(0, 0, 1, 1))
+	case 2:
+		panels[0].Draw(sub(0, 0, 0.48, 1))
+		panels[1].Draw(sub(0.52, 0, 1, 1))
+	default:
+		// coverage down the left; forecasts and shifts on the right
+		panels[0].Draw(sub(0, 0, 0.44, 1))
+		panels[1].Draw(sub(0.48, 0.52, 1, 1))
+		panels[2].Draw(sub(0.48, 0, 1, 0.46))
+	}
+	return nil
+}
+
+func newPanel(title string) *plot.Plot {
+	p := plot.New()
+	p.BackgroundColor = color.Transparent
+	p.Title.Text = title
+	p.Title.TextStyle = style(22, plots.Ink, true)
+	p.Title.TextStyle.XAlign = text.XCenter
+	p.Title.TextStyle.YAlign = text.YTop
+	p.Title.Padding = vg.Points(10)
+	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Label.TextStyle = style(19, plots.Ink, false)
+		a.Label.TextStyle.XAlign = text.XCenter
+		a.Label.Padding = vg.Points(6)
+		a.Tick.Label = style(18, plots.Muted, false)
+		a.Tick.LineStyle = draw.LineStyle{Color: plots.Muted, Width: vg.Points(1)}
+		a.Tick.Length = vg.Points(5)
+		a.LineStyle = draw.LineStyle{Color: plots.Muted, Width: vg.Points(1.2)}
+		a.Padding = vg.Points(4)
+	}
+	p.X.Tick.Label.XAlign = text.XCenter
+	p.X.Tick.Label.YAlign = text.YTop
+	p.Y.Tick.Label.XAlign = text.XRight
+	p.Y.Tick.Label.YAlign = text.YCenter
+	return p
+}
+
+// coveragePanel draws a horizontal bar per effect: the 90% interval's
+// coverage as the bar, the 50% interval's as a dot, the nominal levels as
+// dashed lines.
+func (f *Figure) coveragePanel() (*plot.Plot, error) {
+	if len(f.Coverage) == 0 {
+		return nil, nil
+	}
+	title := "Recovery: coverage of true effects"
+	if f.Replicates > 0 {
+		title = fmt.Sprintf("Recovery: coverage over %d data sets", f.Replicates)
+	}
+	p := newPanel(title)
+	n := len(f.Coverage)
+	names := make([]string, n)
+	for i, c := range f.Coverage {
+		yy := float64(n - 1 - i)
+		names[n-1-i] = c.Label
+		fill := pathColor(c.Path)
+		if c.Flagged {
+			fill = plots.Alert
+		}
+		if !finite(c.Cover90, c.Cover50) {
+			return nil, fmt.Errorf("chart: coverage of %s is not a number", c.Label)
+		}
+		p.Add(rect{x0: 0, x1: c.Cover90, y0: yy - 0.32, y1: yy + 0.32, fill: fill})
+		p.Add(dot{x: c.Cover50, y: yy, style: draw.GlyphStyle{Color: color.White, Radius: vg.Points(7.5), Shape: draw.CircleGlyph{}}},
+			dot{x: c.Cover50, y: yy, style: draw.GlyphStyle{Color: plots.Ink, Radius: vg.Points(5), Shape: draw.CircleGlyph{}}})
+	}
+	dash := draw.LineStyle{Color: plots.Alert, Width: vg.Points(2.5), Dashes: []vg.Length{vg.Points(7), vg.Points(5)}}
+	p.Add(rule{v: 0.9, style: dash}, rule{v: 0.5, style: dash})
+	p.Add(topLabel{x: 0.9, text: "90%", style: style(17, plots.Alert, true)}, topLabel{x: 0.5, text: "50%", style: style(17, plots.Alert, true)})
+	p.X.Min, p.X.Max = 0, 1
+	p.Y.Min, p.Y.Max = -0.6, float64(n)+0.2 // room for the level labels
+	p.X.Tick.Marker = percentTicks{}
+	p.Y.Tick.Marker = categoryTicks(names)
+	p.Y.Tick.Length = 0
+	p.Y.LineStyle.Width = 0
+	p.X.Label.Text = "bar: 90% intervals; dot: 50% intervals"
+	return p, nil
+}
+
+// forecastPanel draws the outcome's holdout forecasts: the 90% band and
+// mean against the actuals and the seasonal baseline.
+func (f *Figure) forecastPanel() (*plot.Plot, error) {
+	if len(f.Forecasts) == 0 {
+		return nil, nil
+	}
+	s := f.Forecasts[0]
+	for _, fc := range f.Forecasts {
+		if fc.Stage == "outcome" {
+			s = fc
+		}
+	}
+	if len(s.Days) == 0 {
+		return nil, nil
+	}
+	p := newPanel("Holdout: " + s.Stage + " forecasts vs actual")
+	// weeks of one origin follow each other; draw each block apart
+	blocks := splitBlocks(s.Days)
+	for _, b := range blocks {
+		x := s.Days[b[0]:b[1]]
+		p.Add(band{x: x, lo: s.Lo[b[0]:b[1]], hi: s.Hi[b[0]:b[1]], fill: tint(plots.Direct, 0.22)})
+	}
+	for _, o := range s.Origins {
+		p.Add(rule{v: o, style: draw.LineStyle{Color: plots.Grid, Width: vg.Points(2)}})
+	}
+	for _, b := range blocks {
+		x := s.Days[b[0]:b[1]]
+		p.Add(line{x: x, y: s.Baseline[b[0]:b[1]], style: draw.LineStyle{Color: plots.Faint, Width: vg.Points(3), Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}})
+		p.Add(line{x: x, y: s.Mean[b[0]:b[1]], style: draw.LineStyle{Color: plots.Direct, Width: vg.Points(3.5)}})
+		p.Add(line{x: x, y: s.Actual[b[0]:b[1]], style: draw.LineStyle{Color: plots.Ink, Width: vg.Points(3)}})
+	}
+	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline} {
+		if !finite(v...) {
+			return nil, fmt.Errorf("chart: a %s forecast is not a number", s.Stage)
+		}
+	}
+	p.X.Tick.Marker = monthTicks{}
+	p.Y.Tick.Marker = numberTicks{}
+	p.Y.Label.Text = s.Stage + " per week"
+	p.Legend.Add("actual", swatch{plots.Ink, false})
+	p.Legend.Add("model, 90% band", swatch{plots.Direct, false})
+	p.Legend.Add("seasonal baseline", swatch{plots.Faint, true})
+	p.Legend.TextStyle = style(17, plots.Ink, false)
+	p.Legend.Top = true
+	p.Legend.Left = true
+	p.Legend.Padding = vg.Points(3)
+	return p, nil
+}
+
+// splitBlocks returns [from, to) index ranges of consecutive weeks.
+func splitBlocks(days []float64) [][2]int {
+	var out [][2]int
+	start := 0
+	for i := 1; i <= len(days); i++ {
+		if i == len(days) || days[i]-days[i-1] > 7.5 || days[i] <= days[i-1] {
+			out = append(out, [2]int{start, i})
+			start = i
+		}
+	}
+	return out
+}
+
+// shiftPanel draws each effect's largest move over the refits.
+func (f *Figure) shiftPanel() (*plot.Plot, error) {
+	if len(f.Shifts) == 0 {
+		return nil, nil
+	}
+	p := newPanel("Stability: largest move over refits")
+	n := len(f.Shifts)
+	names := make([]string, n)
+	hi := 1.0
+	tick := draw.LineStyle{Color: plots.Alert, Width: vg.Points(3)}
+	for i, s := range f.Shifts {
+		yy := float64(n - 1 - i)
+		names[n-1-i] = s.Label
+		v := s.Value
+		if !finite(v) {
+			v = 0
+		}
+		fill := pathColor(s.Path)
+		if s.Flagged {
+			fill = plots.Alert
+		}
+		p.Add(rect{x0: 0, x1: v, y0: yy - 0.32, y1: yy + 0.32, fill: fill})
+		hi = math.Max(hi, v)
+		if s.Threshold > 0 {
+			p.Add(segment{x0: s.Threshold, x1: s.Threshold, y0: yy - 0.45, y1: yy + 0.45, style: tick})
+			hi = math.Max(hi, s.Threshold)
+		}
+	}
+	p.X.Min, p.X.Max = 0, 1.08*hi
+	p.Y.Min, p.Y.Max = -0.6, float64(n)-0.4
+	p.X.Tick.Marker = numberTicks{}
+	p.Y.Tick.Marker = categoryTicks(names)
+	p.Y.Tick.Length = 0
+	p.Y.LineStyle.Width = 0
+	p.X.Label.Text = "posterior sds of the reference fit (red tick: flag level)"
+	return p, nil
+}
+
+func finite(vs ...float64) bool {
+	for _, v := range vs {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return false
+		}
+	}
+	return true
+}
+
+func tint(c color.NRGBA, a float64) color.NRGBA {
+	c.A = uint8(a*255 + 0.5)
+	return c
+}
+
+// wrap breaks s into lines no wider than width.
+func wrap(sty text.Style, s string, width vg.Length) []string {
+	var lines []string
+	cur := ""
+	for _, w := range strings.Fields(s) {
+		try := w
+		if cur != "" {
+			try = cur + " " + w
+		}
+		if cur != "" && sty.Width(try) > width {
+			lines = append(lines, cur)
+			cur = w
+			continue
+		}
+		cur = try
+	}
+	if cur != "" {
+		lines = append(lines, cur)
+	}
+	return lines
+}

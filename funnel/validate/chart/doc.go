@@ -1,0 +1,7 @@
+// Package chart draws validation.png, the one-page picture of a
+// validation sweep: interval coverage of the true effects against the
+// nominal levels (recovery), holdout forecasts against the actuals and the
+// seasonal baseline (holdout), and how far each effect moved over the
+// refits (stability). It takes plain numbers and uses the project's palette
+// (spillway/plots) and large type for slides.
+package chart // import "spillway/funnel/validate/chart"

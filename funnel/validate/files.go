@@ -1,0 +1,129 @@
+package validate
+
+import (
+	"bytes"
+	"encoding/csv"
+	"math"
+	"strconv"
+	"strings"
+
+	"spillway/funnel/validate/chart"
+)
+
+// The files of a validation folder.
+const (
+	ManifestFile = "manifest.json"
+	JobsFile     = "jobs.csv"
+	TableFile    = "validation.csv"
+	ChartFile    = "validation.png"
+	VerdictFile  = "verdict.txt"
+)
+
+// ShardFiles renders the files of a shard's folder: the manifest and the
+// raw per-job records.
+func ShardFiles(res *Results) (map[string][]byte, error) {
+	var m, j bytes.Buffer
+	if err := res.WriteManifest(&m); err != nil {
+		return nil, err
+	}
+	if err := res.WriteJobs(&j); err != nil {
+		return nil, err
+	}
+	return map[string][]byte{ManifestFile: m.Bytes(), JobsFile: j.Bytes()}, nil
+}
+
+// Files renders the folder of a complete sweep: manifest.json, jobs.csv,
+// validation.csv, verdict.txt and validation.png. To make a whole run and
+// a merge of shards produce the same bytes, the records are first written
+// as jobs.csv and read back, and everything is aggregated from what was
+// read.
+func Files(res *Results) (map[string][]byte, *Report, error) {
+	files, err := ShardFiles(res)
+	if err != nil {
+		return nil, nil, err
+	}
+	back, err := ReadResults(bytes.NewReader(files[ManifestFile]), bytes.NewReader(files[JobsFile]), "sweep")
+	if err != nil {
+		return nil, nil, err
+	}
+	rep, err := Aggregate(back)
+	if err != nil {
+		return nil, nil, err
+	}
+	files[TableFile], err = rep.CSV()
+	if err != nil {
+		return nil, nil, err
+	}
+	files[VerdictFile] = []byte(rep.Text())
+	files[ChartFile], err = rep.Chart()
+	if err != nil {
+		return nil, nil, err
+	}
+	return files, rep, nil
+}
+
+// CSV renders validation.csv: the columns check,effect,channel,metric,value,
+// values with six significant digits and NA where there is none.
+func (rep *Report) CSV() ([]byte, error) {
+	var b bytes.Buffer
+	w := csv.NewWriter(&b)
+	if err := w.Write([]string{"check", "effect", "channel", "metric", "value"}); err != nil {
+		return nil, err
+	}
+	for _, r := range rep.Rows {
+		v := "NA"
+		if !math.IsNaN(r.Value) && !math.IsInf(r.Value, 0) {
+			v = strconv.FormatFloat(r.Value, 'g', 6, 64)
+		}
+		if err := w.Write([]string{r.Check, r.Effect, r.Channel, r.Metric, v}); err != nil {
+			return nil, err
+		}
+	}
+	w.Flush()
+	return b.Bytes(), w.Error()
+}
+
+// Text renders verdict.txt: one paragraph per check, the headline first.
+func (rep *Report) Text() string {
+	var b strings.Builder
+	for _, v := range rep.Verdicts {
+		b.WriteString(v.Check + ": " + v.Headline + "\n")
+		for _, d := range v.Details {
+			b.WriteString("  " + d + "\n")
+		}
+	}
+	return b.String()
+}
+
+// Title sums the verdicts up in one line, for the chart.
+func (rep *Report) Title() string {
+	var parts []string
+	for _, v := range rep.Verdicts {
+		h := v.Headline
+		if strings.HasPrefix(h, "not run") {
+			continue
+		}
+		parts = append(parts, h)
+	}
+	if len(parts) == 0 {
+		return "Validation"
+	}
+	s := strings.Join(parts, "; ")
+	return strings.ToUpper(s[:1]) + s[1:]
+}
+
+// Chart renders validation.png.
+func (rep *Report) Chart() ([]byte, error) {
+	f := chart.Figure{Title: rep.Title(), Caption: rep.Caption, Replicates: rep.Replicates}
+	for _, c := range rep.Coverage {
+		f.Coverage = append(f.Coverage, chart.Coverage{Label: c.Label, Path: c.Path, Cover50: c.Cover50, Cover90: c.Cover90, Flagged: c.Flagged})
+	}
+	for _, s := range rep.Forecasts {
+		f.Forecasts = append(f.Forecasts, chart.Forecast{Stage: s.Stage, Days: s.Days, Actual: s.Actual, Mean: s.Mean,
+			Lo: s.Lo, Hi: s.Hi, Baseline: s.Baseline, Origins: s.Origins})
+	}
+	for _, s := range rep.Shifts {
+		f.Shifts = append(f.Shifts, chart.Shift{Label: s.Label, Path: s.Path, Value: s.Shift, Threshold: s.Level, Flagged: s.Flagged})
+	}
+	return f.PNG()
+}

@@ -1,0 +1,579 @@
+package validate
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"runtime"
+	"slices"
+	"sort"
+	"strings"
+	"sync"
+	"time"
+
+	"spillway/funnel/data"
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/funnel/validate/score"
+	"spillway/mediation"
+)
+
+// Record is one raw number of one job, kept at full precision so that
+// aggregation gives the same result whether the jobs ran in one process or
+// in shards.
+type Record struct {
+	// Job is the job's index.
+	Job int
+	// Kind is "effect" (an effect's posterior summary, and its truth in
+	// recovery), "param" (a simulation-based calibration rank), "forecast"
+	// (one forecast week) or "fit" (a stage's convergence diagnostics).
+	Kind string
+	// Name is the channel (effect), parameter (param) or stage (forecast,
+	// fit).
+	Name string
+	// Path is the effect's path (via_search, direct, total,
+	// mediated_share, borrowed_share); empty otherwise.
+	Path string
+	// Window is the effect's window ("all", "2024Q3") or the forecast
+	// week (YYYY-MM-DD); empty otherwise.
+	Window string
+	// Stat names the number (mean, sd, q05, ..., truth, rank, width,
+	// actual, crps, ...).
+	Stat  string
+	Value float64
+}
+
+// effectStats are the summary numbers kept per effect and job.
+var effectStats = []string{"mean", "sd", "q05", "q25", "q50", "q75", "q90", "q95"}
+
+// Progress reports one finished job.
+type Progress struct {
+	// Done jobs of Total in this run (shard), Job the one just finished,
+	// Seconds its wall time. The reference fit, when a shard fits it,
+	// is reported first with Done 0; Total counts the other jobs.
+	Done, Total int
+	Job         Job
+	Seconds     float64
+}
+
+// Run executes the jobs of shard (the zero Shard: all of them) and returns
+// their records, sorted by job. Jobs run on a pool of GOMAXPROCS workers,
+// each fit running its chains in parallel; every job's numbers depend only
+// on its seed, so the records are the same whatever the number of cores or
+// shards. progress, if not nil, is called after each job (never
+// concurrently). Cancelling ctx stops the sweep and returns ctx.Err().
+func (sw *Sweep) Run(ctx context.Context, shard Shard, progress func(Progress)) (*Results, error) {
+	if shard.N > 1 && (shard.I < 1 || shard.I > shard.N) {
+		panic("validate: bad shard")
+	}
+	var mine []Job
+	for _, j := range sw.jobs {
+		if shard.owns(j.Index) {
+			mine = append(mine, j)
+		}
+	}
+	man := sw.manifest
+	man.Shard = shard.String()
+	man.Ran = []int{}
+	for _, j := range mine {
+		man.Ran = append(man.Ran, j.Index)
+	}
+	var ref *fitted
+	needRef := false
+	for _, j := range mine {
+		if j.Check == Reference || j.Check == Stability || (j.Check == Recovery && sw.gen.fromPosterior) {
+			needRef = true
+		}
+	}
+	var refRecs []Record
+	if needRef {
+		// every shard that needs the reference fits it (deterministically)
+		// before its jobs start; the shard owning job 0 also keeps its
+		// records
+		t0 := time.Now()
+		var err error
+		if ref, err = sw.reference(ctx); err != nil {
+			return nil, err
+		}
+		man.Reference = fitID(ref.fits[0], ref.fits[1])
+		if len(mine) > 0 && mine[0].Check == Reference {
+			if refRecs, err = sw.referenceJob(mine[0], ref); err != nil {
+				return nil, err
+			}
+			mine = mine[1:]
+		}
+		if progress != nil && sw.in.Reference == nil {
+			progress(Progress{Done: 0, Total: len(mine), Job: sw.jobs[0], Seconds: time.Since(t0).Seconds()})
+		}
+	}
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	out := make([][]Record, len(mine))
+	errs := make([]error, len(mine))
+	next := make(chan int)
+	var mu sync.Mutex
+	done := 0
+	var wg sync.WaitGroup
+	for range max(1, min(runtime.GOMAXPROCS(0), len(mine))) {
+		wg.Add(1)
+		go func() {
+			defer wg.Done()
+			for k := range next {
+				t0 := time.Now()
+				recs, err := sw.runJob(ctx, mine[k], ref)
+				if err != nil {
+					errs[k] = fmt.Errorf("validate: %s (job %d): %w", mine[k].Label, mine[k].Index, err)
+					cancel()
+					continue
+				}
+				out[k] = recs
+				if progress != nil {
+					mu.Lock()
+					done++
+					progress(Progress{Done: done, Total: len(mine), Job: mine[k], Seconds: time.Since(t0).Seconds()})
+					mu.Unlock()
+				}
+			}
+		}()
+	}
+	for k := range mine {
+		if ctx.Err() != nil {
+			break
+		}
+		next <- k
+	}
+	close(next)
+	wg.Wait()
+	var first error
+	for _, e := range errs {
+		if e != nil && !errors.Is(e, context.Canceled) {
+			return nil, e
+		}
+		if e != nil && first == nil {
+			first = e
+		}
+	}
+	if first == nil && ctx.Err() != nil {
+		first = ctx.Err()
+	}
+	if first != nil {
+		return nil, first
+	}
+	res := &Results{Manifest: man, Records: refRecs}
+	for _, r := range out {
+		res.Records = append(res.Records, r...)
+	}
+	return res, nil
+}
+
+// fitted is a fit of both stages.
+type fitted struct {
+	sc   *model.Scaled
+	st   [2]*model.Stage
+	fits [2]*mcmc.Fit
+}
+
+func (f *fitted) inputs() *mediation.Inputs {
+	return &mediation.Inputs{Data: f.sc, Demand: f.st[0], Outcome: f.st[1],
+		DemandDraws: mediation.FromFit(f.fits[0]), OutcomeDraws: mediation.FromFit(f.fits[1])}
+}
+
+// fit fits the demand and outcome stages with the sweep's settings, the
+// demand stage with seed and the outcome stage with seed+1.
+func (sw *Sweep) fit(ctx context.Context, sc *model.Scaled, seed uint64) (*fitted, error) {
+	f := &fitted{sc: sc}
+	var err error
+	if f.st[0], err = model.Demand(sc, sw.in.Options); err != nil {
+		return nil, err
+	}
+	if f.st[1], err = model.Outcome(sc, sw.in.Options); err != nil {
+		return nil, err
+	}
+	for k, st := range f.st {
+		tg, err := st.Target()
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", st.Name, err)
+		}
+		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k)}
+		if f.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
+			return nil, fmt.Errorf("%s stage: %w", st.Name, err)
+		}
+	}
+	return f, nil
+}
+
+// reference returns the given reference fit, or fits one to the whole
+// data with the sweep's seed.
+func (sw *Sweep) reference(ctx context.Context) (*fitted, error) {
+	if r := sw.in.Reference; r != nil {
+		return &fitted{sc: sw.base, st: sw.stages, fits: [2]*mcmc.Fit{r.Demand, r.Outcome}}, nil
+	}
+	f, err := sw.fit(ctx, sw.base, sw.set.Seed)
+	if err != nil {
+		return nil, fmt.Errorf("validate: reference fit: %w", err)
+	}
+	return f, nil
+}
+
+// runJob computes one job's records.
+func (sw *Sweep) runJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
+	switch j.Check {
+	case Reference:
+		return sw.referenceJob(j, ref)
+	case Recovery:
+		return sw.recoveryJob(ctx, j, ref)
+	case Holdout:
+		return sw.holdoutJob(ctx, j)
+	case Stability:
+		return sw.stabilityJob(ctx, j, ref)
+	}
+	panic("validate: unknown check " + j.Check)
+}
+
+func (sw *Sweep) referenceJob(j Job, ref *fitted) ([]Record, error) {
+	res, err := mediation.Split(ref.inputs(), sw.windows[:1])
+	if err != nil {
+		return nil, err
+	}
+	recs := fitRecords(j.Index, ref)
+	for _, e := range keyEffects(res, false) {
+		recs = append(recs, effectRecords(j.Index, e, nil)...)
+	}
+	return recs, nil
+}
+
+func (sw *Sweep) recoveryJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
+	rng := rand.New(rand.NewPCG(j.Seed, 1))
+	var in *mediation.Inputs
+	if ref != nil {
+		in = ref.inputs()
+	}
+	v1, v2, err := sw.gen.draw(j.Replicate, rng, in)
+	if err != nil {
+		return nil, err
+	}
+	rep, err := sw.simulate(sw.gen, v1, v2, rng)
+	if err != nil {
+		return nil, err
+	}
+	f, err := sw.fit(ctx, rep.sc, j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	res, err := mediation.Split(f.inputs(), sw.windows)
+	if err != nil {
+		return nil, err
+	}
+	truth := map[string]float64{}
+	for _, e := range append(append([]mediation.Effect(nil), rep.effects.Effects...), rep.effects.Borrowed...) {
+		truth[e.Channel+"\x00"+e.Path+"\x00"+e.Window] = e.Draws[0]
+	}
+	recs := fitRecords(j.Index, f)
+	for _, e := range keyEffects(res, true) {
+		tv, ok := truth[e.Channel+"\x00"+e.Path+"\x00"+e.Window]
+		if !ok {
+			return nil, fmt.Errorf("validate: no true value for %s %s %s", e.Channel, e.Path, e.Window)
+		}
+		recs = append(recs, effectRecords(j.Index, e, &tv)...)
+	}
+	// simulation-based calibration ranks of the key parameters
+	for k, st := range f.st {
+		u := rep.u1
+		if k == 1 {
+			u = rep.u2
+		}
+		for i, name := range st.Names() {
+			if !keyParam(st, name) {
+				continue
+			}
+			chains := f.fits[k].Column(name)
+			var pooled []float64
+			for _, c := range chains {
+				pooled = append(pooled, c...)
+			}
+			ess := mcmc.ESSBulk(chains)
+			if math.IsNaN(ess) {
+				ess = 1
+			}
+			rank, width := score.ThinnedRank(pooled, ess, u[i])
+			recs = append(recs,
+				Record{Job: j.Index, Kind: "param", Name: name, Stat: "truth", Value: u[i]},
+				Record{Job: j.Index, Kind: "param", Name: name, Stat: "rank", Value: float64(rank)},
+				Record{Job: j.Index, Kind: "param", Name: name, Stat: "width", Value: float64(width)})
+		}
+	}
+	return recs, nil
+}
+
+// keyParam reports whether name is one of the parameters whose calibration
+// ranks are kept: gamma and every channel coefficient (alpha, delta, beta).
+func keyParam(st *model.Stage, name string) bool {
+	if name == "gamma" {
+		return true
+	}
+	for _, c := range st.Channels {
+		if c.Coef == name {
+			return true
+		}
+	}
+	return false
+}
+
+// keyEffects returns the effects the checks compare: every path of each
+// upper channel over the whole data (and, with quarters, the via-search,
+// direct and total effects of every quarter), and each paid-search
+// channel's borrowed-demand share.
+func keyEffects(res *mediation.Result, quarters bool) []mediation.Effect {
+	var out []mediation.Effect
+	for _, e := range res.Effects {
+		if e.Window == "all" || (quarters && e.Path != "mediated_share") {
+			out = append(out, e)
+		}
+	}
+	for _, e := range res.Borrowed {
+		if e.Path == "borrowed_share" {
+			out = append(out, e)
+		}
+	}
+	return out
+}
+
+// effectRecords summarises one effect's draws, with its truth when given.
+func effectRecords(job int, e mediation.Effect, truth *float64) []Record {
+	s := append([]float64(nil), e.Draws...)
+	sort.Float64s(s)
+	mean, sd := meanSD(s)
+	vals := []float64{mean, sd, mcmc.Quantile(s, 0.05), mcmc.Quantile(s, 0.25), mcmc.Quantile(s, 0.5),
+		mcmc.Quantile(s, 0.75), mcmc.Quantile(s, 0.9), mcmc.Quantile(s, 0.95)}
+	recs := make([]Record, 0, len(vals)+1)
+	if truth != nil {
+		recs = append(recs, Record{Job: job, Kind: "effect", Name: e.Channel, Path: e.Path, Window: e.Window, Stat: "truth", Value: *truth})
+	}
+	for i, v := range vals {
+		recs = append(recs, Record{Job: job, Kind: "effect", Name: e.Channel, Path: e.Path, Window: e.Window, Stat: effectStats[i], Value: v})
+	}
+	return recs
+}
+
+// fitRecords keeps each stage's worst convergence numbers.
+func fitRecords(job int, f *fitted) []Record {
+	var recs []Record
+	for k, fit := range f.fits {
+		rh, eb, et := 0.0, math.Inf(1), math.Inf(1)
+		for _, s := range mcmc.Summarize(fit) {
+			if s.Constant() {
+				continue
+			}
+			rh = math.Max(rh, nanInf(s.Rhat))
+			eb = math.Min(eb, nanZero(s.ESSBulk))
+			et = math.Min(et, nanZero(s.ESSTail))
+		}
+		div := 0
+		for _, c := range fit.Chains {
+			div += c.Stats.Divergences
+		}
+		name := f.st[k].Name
+		recs = append(recs,
+			Record{Job: job, Kind: "fit", Name: name, Stat: "rhat_max", Value: rh},
+			Record{Job: job, Kind: "fit", Name: name, Stat: "ess_bulk_min", Value: eb},
+			Record{Job: job, Kind: "fit", Name: name, Stat: "ess_tail_min", Value: et},
+			Record{Job: job, Kind: "fit", Name: name, Stat: "divergences", Value: float64(div)})
+	}
+	return recs
+}
+
+func nanInf(v float64) float64 {
+	if math.IsNaN(v) {
+		return math.Inf(1)
+	}
+	return v
+}
+
+func nanZero(v float64) float64 {
+	if math.IsNaN(v) {
+		return 0
+	}
+	return v
+}
+
+func meanSD(x []float64) (m, sd float64) {
+	for _, v := range x {
+		m += v
+	}
+	m /= float64(len(x))
+	if len(x) < 2 {
+		return m, 0
+	}
+	ss := 0.0
+	for _, v := range x {
+		ss += (v - m) * (v - m)
+	}
+	return m, math.Sqrt(ss / float64(len(x)-1))
+}
+
+// holdoutJob fits the weeks before the origin (the series cut after the
+// forecast weeks, so the forecast weeks are masked out of the likelihood
+// but their spend still feeds the adstock) and forecasts the horizon from
+// the posterior predictive: demand m + sigma_q e, outcome n (with the
+// actual queries) + sigma_y e, in raw units.
+func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
+	h := sw.set.Horizon
+	cut := j.Origin + h
+	s := cutSeries(sw.in.Series, cut)
+	train := make([]bool, cut)
+	for t := range j.Origin {
+		train[t] = true
+	}
+	sc := model.ScaleTrain(s, sw.in.Spec, train)
+	f, err := sw.fit(ctx, sc, j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	recs := fitRecords(j.Index, f)
+	rng := rand.New(rand.NewPCG(j.Seed, 2))
+	d1, d2 := mediation.FromFit(f.fits[0]), mediation.FromFit(f.fits[1])
+	nd := len(d1.Rows)
+	pred := [2][][]float64{}
+	for k := range pred {
+		pred[k] = make([][]float64, h)
+		for i := range pred[k] {
+			pred[k][i] = make([]float64, nd)
+		}
+	}
+	m, n := make([]float64, cut), make([]float64, cut)
+	for d := 0; d < nd; d++ {
+		v1, v2 := d1.Rows[d], d2.Rows[d]
+		f.st[0].Predict(m, v1)
+		f.st[1].Predict(n, v2)
+		sq, sy := v1[len(v1)-1], v2[len(v2)-1]
+		for i := 0; i < h; i++ {
+			t := j.Origin + i
+			pred[0][i][d] = (m[t] + sq*rng.NormFloat64()) * sc.QueriesScale
+			pred[1][i][d] = (n[t] + sy*rng.NormFloat64()) * sc.OutcomeScale
+		}
+	}
+	for k, actual := range [][]float64{s.Queries, s.Outcome} {
+		name := f.st[k].Name
+		point, rel := seasonalBaseline(actual[:j.Origin], j.Origin, h)
+		for i := 0; i < h; i++ {
+			t := j.Origin + i
+			week := s.Weeks[t].Format(data.DateLayout)
+			y := actual[t]
+			p := pred[k][i]
+			sort.Float64s(p)
+			mean, _ := meanSD(p)
+			base := make([]float64, len(rel))
+			for e, r := range rel {
+				base[e] = point[i] * (1 + r)
+			}
+			if len(base) == 0 {
+				base = []float64{point[i]}
+			}
+			sort.Float64s(base)
+			add := func(stat string, v float64) {
+				recs = append(recs, Record{Job: j.Index, Kind: "forecast", Name: name, Window: week, Stat: stat, Value: v})
+			}
+			add("actual", y)
+			add("mean", mean)
+			add("q05", mcmc.Quantile(p, 0.05))
+			add("q50", mcmc.Quantile(p, 0.5))
+			add("q95", mcmc.Quantile(p, 0.95))
+			add("crps", score.CRPSSorted(p, y))
+			add("base", point[i])
+			add("base_q05", mcmc.Quantile(base, 0.05))
+			add("base_q95", mcmc.Quantile(base, 0.95))
+			add("base_crps", score.CRPSSorted(base, y))
+		}
+	}
+	return recs, nil
+}
+
+// seasonalBaseline forecasts weeks origin..origin+h-1 from the training
+// weeks x (len origin >= BaselineLag+LevelWeeks): the same week a year
+// earlier times the recent level, level(o) = mean(x[o-8:o]) /
+// mean(x[o-60:o-52]). Its predictive spread comes from the relative errors
+// y/forecast - 1 of the same rule backtested inside the training weeks
+// (every earlier origin o' with o'+h <= origin, at horizons 1..h); rel is
+// empty when the training weeks are too few for any backtest.
+func seasonalBaseline(x []float64, origin, h int) (point, rel []float64) {
+	level := func(o int) float64 {
+		var a, b float64
+		for t := o - LevelWeeks; t < o; t++ {
+			a += x[t]
+			b += x[t-BaselineLag]
+		}
+		if b == 0 {
+			return 1
+		}
+		return a / b
+	}
+	point = make([]float64, h)
+	L := level(origin)
+	for i := range point {
+		point[i] = x[origin+i-BaselineLag] * L
+	}
+	for o := BaselineLag + LevelWeeks; o+h <= origin; o++ {
+		L := level(o)
+		for i := 0; i < h; i++ {
+			t := o + i
+			if f := x[t-BaselineLag] * L; f != 0 {
+				rel = append(rel, x[t]/f-1)
+			}
+		}
+	}
+	return point, rel
+}
+
+// cutSeries returns the first n weeks of s (sharing the backing arrays).
+func cutSeries(s data.Series, n int) data.Series {
+	cut := func(cols [][]float64) [][]float64 {
+		if cols == nil {
+			return nil
+		}
+		out := make([][]float64, len(cols))
+		for i, c := range cols {
+			out[i] = c[:n]
+		}
+		return out
+	}
+	return data.Series{Weeks: s.Weeks[:n], Upper: cut(s.Upper), Search: cut(s.Search),
+		Queries: s.Queries[:n], Outcome: s.Outcome[:n], Controls: cut(s.Controls)}
+}
+
+// stabilityJob refits without one quarter (masked out of the likelihood)
+// or with another seed, and keeps the effects over the whole data.
+func (sw *Sweep) stabilityJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
+	sc := sw.base
+	if j.Quarter != "" {
+		i := slices.IndexFunc(sw.windows, func(w mediation.Window) bool { return w.Name == j.Quarter })
+		q := sw.windows[i]
+		train := make([]bool, sc.T)
+		for t := range train {
+			train[t] = t < q.From || t > q.To
+		}
+		sc = model.ScaleTrain(sw.in.Series, sw.in.Spec, train)
+	}
+	f, err := sw.fit(ctx, sc, j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	res, err := mediation.Split(f.inputs(), sw.windows[:1])
+	if err != nil {
+		return nil, err
+	}
+	recs := fitRecords(j.Index, f)
+	for _, e := range keyEffects(res, false) {
+		recs = append(recs, effectRecords(j.Index, e, nil)...)
+	}
+	return recs, nil
+}
+
+// paramBase splits "alpha[video_spend]" into "alpha" and "video_spend".
+func paramBase(name string) (base, channel string) {
+	if i := strings.IndexByte(name, '['); i > 0 && strings.HasSuffix(name, "]") {
+		return name[:i], name[i+1 : len(name)-1]
+	}
+	return name, ""
+}
