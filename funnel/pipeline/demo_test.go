@@ -25,7 +25,7 @@ var demoFit = sync.OnceValues(func() (*Fitted, error) {
 		return nil, err
 	}
 	sc := model.Scale(ds.National(), ds.Spec)
-	return Fit(context.Background(), sc, model.Options{}, mcmc.Settings{Seed: 1}, nil)
+	return Fit(context.Background(), sc, model.Options{}, mcmc.Settings{Seed: 1, Draws: 2500}, nil)
 })
 
 type refRow struct{ mean, sd, q05, q50, q95 float64 }

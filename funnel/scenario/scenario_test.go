@@ -121,3 +121,20 @@ func TestTruthIndependently(t *testing.T) {
 		t.Errorf("borrowed share %v: the demo should have paid search borrowing a clear share of demand", b)
 	}
 }
+
+// TestQuarterWithoutSpend: a short scenario can have a quarter in which a
+// flighted channel spends nothing; its truth then has effects of zero and no
+// mediated share, not an error.
+func TestQuarterWithoutSpend(t *testing.T) {
+	s, err := Named("demo", 3, 68, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := s.Simulate()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := s.Truth(r); err != nil {
+		t.Fatal(err)
+	}
+}

@@ -65,8 +65,13 @@ func (s *Scenario) Truth(r *Result) (*Truth, error) {
 			v += p.Effects[i].Draws[0]
 			spend += p.Effects[i].Spend
 		}
-		t.Effects = append(t.Effects, TrueEffect{Channel: e.Channel, Path: e.Path, Window: e.Window, Value: v, PerUnitSpend: v / spend})
-		if e.Path == "total" {
+		pu := 0.0 // a window without spend has no per-unit figure
+		if spend > 0 {
+			pu = v / spend
+		}
+		t.Effects = append(t.Effects, TrueEffect{Channel: e.Channel, Path: e.Path, Window: e.Window, Value: v, PerUnitSpend: pu})
+		if e.Path == "total" && v != 0 {
+			// a window in which the channel did nothing has no share
 			via := t.Effects[len(t.Effects)-2].Value
 			t.Effects = append(t.Effects, TrueEffect{Channel: e.Channel, Path: "mediated_share", Window: e.Window, Value: via / v})
 		}
