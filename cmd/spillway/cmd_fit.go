@@ -29,12 +29,25 @@ type samplingFlags struct {
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
+	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
+		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
+}
+
+// samplingDefaults are the defaults and help words that differ between the
+// commands that fit (fit, run) and the one that refits many times (validate).
+type samplingDefaults struct {
+	chains, warmup, draws int
+	seedHelp              string
+	chainsWhat, iterWhat  string // "chains" / "chains per refit"; "iterations per chain" / "... of each refit"
+}
+
+func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
 	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
-	fs.Uint64Var(&s.seed, "seed", 1, "random seed; the same data, flags and seed give the same draws")
-	fs.IntVar(&s.chains, "chains", mcmc.DefaultChains, "number of chains, run in parallel")
-	fs.IntVar(&s.warmup, "warmup", mcmc.DefaultWarmup, "warm-up iterations per chain")
-	fs.IntVar(&s.draws, "draws", mcmc.DefaultDraws, "kept draws per chain")
+	fs.Uint64Var(&s.seed, "seed", 1, d.seedHelp)
+	fs.IntVar(&s.chains, "chains", d.chains, "number of "+d.chainsWhat+", run in parallel")
+	fs.IntVar(&s.warmup, "warmup", d.warmup, "warm-up "+d.iterWhat)
+	fs.IntVar(&s.draws, "draws", d.draws, "kept draws per chain"+strings.TrimPrefix(d.iterWhat, "iterations per chain"))
 	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
 	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
 	fs.BoolVar(&s.quiet, "quiet", false, "no progress on standard error")

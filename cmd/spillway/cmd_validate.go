@@ -51,16 +51,8 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 	fs.IntVar(&o.seeds, "seeds", validate.DefaultSeeds, "extra refits of the whole data with other seeds (stability); 0 for none")
 	fs.StringVar(&o.shard, "shard", "", "run only shard `I/N` of the sweep (jobs whose number is I-1 modulo N) into --out")
 	fs.BoolVar(&o.merge, "merge", false, "merge the shard folders given as arguments into --out")
-	s := &o.sampling
-	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
-	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
-	fs.Uint64Var(&s.seed, "seed", 1, "random seed of the sweep; every job's seed derives from it and the job's number")
-	fs.IntVar(&s.chains, "chains", validate.DefaultChains, "chains per refit, run in parallel")
-	fs.IntVar(&s.warmup, "warmup", validate.DefaultWarmup, "warm-up iterations per chain of each refit")
-	fs.IntVar(&s.draws, "draws", validate.DefaultDraws, "kept draws per chain of each refit")
-	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
-	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
-	fs.BoolVar(&s.quiet, "quiet", false, "no progress on standard error")
+	o.sampling.addFlagsWith(fs, samplingDefaults{validate.DefaultChains, validate.DefaultWarmup, validate.DefaultDraws,
+		"random seed of the sweep; every job's seed derives from it and the job's number", "chains per refit", "iterations per chain of each refit"})
 }
 
 func init() {
