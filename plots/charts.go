@@ -6,6 +6,7 @@ import (
 	"time"
 
 	"spillway/plots/fitdir"
+	"spillway/plots/marks"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/text"
@@ -188,8 +189,8 @@ func (r *review) split() (*Figure, error) {
 	for _, w := range windows {
 		p := newPanel(r.panelTitle(w))
 		p.Y.Label.Text = "incremental " + r.outcome
-		p.X.Tick.Marker = categoryTicks(channelNames(r.uppers()))
-		p.X.Tick.Label = textStyle(sizeAxis, Ink, true)
+		p.X.Tick.Marker = marks.CategoryTicks(channelNames(r.uppers()))
+		p.X.Tick.Label = marks.TextStyle(sizeAxis, Ink, true)
 		p.X.Tick.Label.XAlign = text.XCenter
 		p.X.Tick.Label.YAlign = text.YTop
 		p.Add(gridLines{})
@@ -211,28 +212,28 @@ func (r *review) split() (*Figure, error) {
 				continue // undefined in this window (no spend): nothing to draw
 			}
 			const hw = 0.3
-			p.Add(rect{x0: x - hw, x1: x + hw, y0: 0, y1: d.Mean, fill: Direct})
-			p.Add(rect{x0: x - hw, x1: x + hw, y0: d.Mean, y1: d.Mean + v.Mean, fill: ViaSearch})
+			p.Add(marks.Rect{X0: x - hw, X1: x + hw, Y0: 0, Y1: d.Mean, Fill: Direct})
+			p.Add(marks.Rect{X0: x - hw, X1: x + hw, Y0: d.Mean, Y1: d.Mean + v.Mean, Fill: ViaSearch})
 			thin := draw.LineStyle{Color: Ink, Width: vg.Points(2.2)}
 			if finite(d.Q05, d.Q95) {
-				p.Add(whisker{at: x - 0.19, lo: d.Q05, hi: d.Q95, style: thin, cap: vg.Points(12)})
+				p.Add(marks.Whisker{At: x - 0.19, Lo: d.Q05, Hi: d.Q95, Style: thin, Cap: vg.Points(12)})
 			}
 			if finite(v.Q05, v.Q95) {
-				p.Add(whisker{at: x + 0.19, lo: d.Mean + v.Q05, hi: d.Mean + v.Q95, style: thin, cap: vg.Points(12)})
+				p.Add(marks.Whisker{At: x + 0.19, Lo: d.Mean + v.Q05, Hi: d.Mean + v.Q95, Style: thin, Cap: vg.Points(12)})
 			}
 			if finite(t.Q05, t.Q95) {
-				p.Add(whisker{at: x + hw + 0.1, lo: t.Q05, hi: t.Q95,
-					style: draw.LineStyle{Color: Ink, Width: vg.Points(3.5)}, cap: vg.Points(16)})
+				p.Add(marks.Whisker{At: x + hw + 0.1, Lo: t.Q05, Hi: t.Q95,
+					Style: draw.LineStyle{Color: Ink, Width: vg.Points(3.5)}, Cap: vg.Points(16)})
 			}
-			p.Add(rect{x0: x + hw + 0.06, x1: x + hw + 0.14, y0: t.Mean, y1: t.Mean, edge: draw.LineStyle{Color: Ink, Width: vg.Points(3.5)}})
+			p.Add(marks.Rect{X0: x + hw + 0.06, X1: x + hw + 0.14, Y0: t.Mean, Y1: t.Mean, Edge: draw.LineStyle{Color: Ink, Width: vg.Points(3.5)}})
 			// Share on the via-search segment, total above the bar.
-			ls := textStyle(sizeLabel+1, Ink, true)
+			ls := marks.TextStyle(sizeLabel+1, Ink, true)
 			ls.XAlign, ls.YAlign = text.XCenter, text.YCenter
-			p.Add(label{x: x, y: d.Mean + v.Mean/2, text: Percent(s.Mean), style: ls, halo: true})
-			ts := textStyle(sizeLabel, Ink, false)
+			p.Add(marks.Label{X: x, Y: d.Mean + v.Mean/2, Text: Percent(s.Mean), Style: ls, Halo: true})
+			ts := marks.TextStyle(sizeLabel, Ink, false)
 			ts.XAlign, ts.YAlign = text.XCenter, text.YBottom
 			hi := math.Max(nz(t.Q95), d.Mean+nz(v.Q95))
-			p.Add(label{x: x + 0.1, y: hi, dy: vg.Points(6), text: "total " + Number(t.Mean), style: ts})
+			p.Add(marks.Label{X: x + 0.1, Y: hi, DY: vg.Points(6), Text: "total " + Number(t.Mean), Style: ts})
 			top = math.Max(top, hi)
 		}
 		p.X.Min, p.X.Max = -0.6, float64(len(r.uppers()))-0.4

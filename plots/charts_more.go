@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"spillway/plots/fitdir"
+	"spillway/plots/marks"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/text"
@@ -62,32 +63,32 @@ func (r *review) borrowed() (*Figure, error) {
 		}
 		p := newPanel(title)
 		p.X.Label.Text = "incremental " + r.outcome + " over the whole period"
-		p.Y.Tick.Marker = categoryTicks(cats)
-		p.Y.Tick.Label = textStyle(sizeAxis, Ink, true)
+		p.Y.Tick.Marker = marks.CategoryTicks(cats)
+		p.Y.Tick.Label = marks.TextStyle(sizeAxis, Ink, true)
 		p.Y.Tick.Label.XAlign, p.Y.Tick.Label.YAlign = text.XRight, text.YCenter
 		p.Add(gridLines{vertical: true})
 		const hh = 0.3
 		// Naive refit: faint bar and whisker.
-		p.Add(rect{x0: 0, x1: naive.Mean, y0: -hh * 0.8, y1: hh * 0.8, fill: tint(Faint, 0.45)})
-		p.Add(whisker{at: 0, lo: naive.Q05, hi: naive.Q95, horizontal: true,
-			style: draw.LineStyle{Color: Faint, Width: vg.Points(2.5)}, cap: vg.Points(14)})
+		p.Add(marks.Rect{X0: 0, X1: naive.Mean, Y0: -hh * 0.8, Y1: hh * 0.8, Fill: marks.Tint(Faint, 0.45)})
+		p.Add(marks.Whisker{At: 0, Lo: naive.Q05, Hi: naive.Q95, Horizontal: true,
+			Style: draw.LineStyle{Color: Faint, Width: vg.Points(2.5)}, Cap: vg.Points(14)})
 		// Controlled.
-		p.Add(rect{x0: 0, x1: ctrl.Mean, y0: 1 - hh, y1: 1 + hh, fill: Direct})
-		p.Add(whisker{at: 1, lo: ctrl.Q05, hi: ctrl.Q95, horizontal: true,
-			style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, cap: vg.Points(16)})
+		p.Add(marks.Rect{X0: 0, X1: ctrl.Mean, Y0: 1 - hh, Y1: 1 + hh, Fill: Direct})
+		p.Add(marks.Whisker{At: 1, Lo: ctrl.Q05, Hi: ctrl.Q95, Horizontal: true,
+			Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
 		// Apparent = own effect + borrowed demand.
-		p.Add(rect{x0: 0, x1: ctrl.Mean, y0: 2 - hh, y1: 2 + hh, fill: Direct})
-		p.Add(rect{x0: ctrl.Mean, x1: app.Mean, y0: 2 - hh, y1: 2 + hh, fill: ViaSearch})
-		p.Add(whisker{at: 2, lo: app.Q05, hi: app.Q95, horizontal: true,
-			style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, cap: vg.Points(16)})
-		bl := textStyle(sizeLabel+1, Ink, true)
+		p.Add(marks.Rect{X0: 0, X1: ctrl.Mean, Y0: 2 - hh, Y1: 2 + hh, Fill: Direct})
+		p.Add(marks.Rect{X0: ctrl.Mean, X1: app.Mean, Y0: 2 - hh, Y1: 2 + hh, Fill: ViaSearch})
+		p.Add(marks.Whisker{At: 2, Lo: app.Q05, Hi: app.Q95, Horizontal: true,
+			Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
+		bl := marks.TextStyle(sizeLabel+1, Ink, true)
 		bl.XAlign, bl.YAlign = text.XCenter, text.YBottom
-		p.Add(label{x: (ctrl.Mean + app.Mean) / 2, y: 2 + hh, dy: vg.Points(5),
-			text: fmt.Sprintf("%s borrowed (90%%: %s–%s)", Percent(share.Mean), Percent(share.Q05), Percent(share.Q95)), style: bl})
-		vl := textStyle(sizeLabel, Ink, false)
+		p.Add(marks.Label{X: (ctrl.Mean + app.Mean) / 2, Y: 2 + hh, DY: vg.Points(5),
+			Text: fmt.Sprintf("%s borrowed (90%%: %s–%s)", Percent(share.Mean), Percent(share.Q05), Percent(share.Q95)), Style: bl})
+		vl := marks.TextStyle(sizeLabel, Ink, false)
 		vl.XAlign, vl.YAlign = text.XLeft, text.YCenter
 		for i, b := range []fitdir.Borrowed{naive, ctrl, app} {
-			p.Add(label{x: b.Q95, y: float64(i), dx: vg.Points(12), text: Number(b.Mean), style: vl})
+			p.Add(marks.Label{X: b.Q95, Y: float64(i), DX: vg.Points(12), Text: Number(b.Mean), Style: vl})
 		}
 		p.Y.Min, p.Y.Max = -0.6, 2.75
 		p.X.Min = 0
@@ -198,23 +199,23 @@ func (r *review) curves() (*Figure, error) {
 				s.Hi = append(s.Hi, c.Q95)
 			}
 			fig.add(s)
-			var bandColor = tint(Ink, ps.fill)
+			var bandColor = marks.Tint(Ink, ps.fill)
 			switch ps.path {
 			case fitdir.PathDirect:
-				bandColor = tint(Direct, ps.fill)
+				bandColor = marks.Tint(Direct, ps.fill)
 			case fitdir.PathViaSearch:
-				bandColor = tint(ViaSearch, ps.fill)
+				bandColor = marks.Tint(ViaSearch, ps.fill)
 			}
-			p.Add(band{x: s.X, lo: s.Lo, hi: s.Hi, fill: bandColor})
-			p.Add(line{x: s.X, y: s.Y, style: ps.style})
+			p.Add(marks.Band{X: s.X, Lo: s.Lo, Hi: s.Hi, Fill: bandColor})
+			p.Add(marks.Line{X: s.X, Y: s.Y, Style: ps.style})
 			cur = cs[0].CurrentWeeklySpend
 		}
 		fig.add(Series{Panel: ch, Name: "current", X: []float64{cur}})
-		p.Add(rule{v: cur, vertical: true, style: draw.LineStyle{Color: Ink, Width: vg.Points(2.5),
+		p.Add(marks.Rule{At: cur, Vertical: true, Style: draw.LineStyle{Color: Ink, Width: vg.Points(2.5),
 			Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}})
-		ls := textStyle(sizeLabel, Ink, false)
+		ls := marks.TextStyle(sizeLabel, Ink, false)
 		ls.XAlign, ls.YAlign = text.XLeft, text.YTop
-		p.Add(label{x: cur, top: true, dx: vg.Points(8), dy: -vg.Points(6), text: "now: " + Number(cur) + " a week", style: ls, halo: true})
+		p.Add(marks.Label{X: cur, Top: true, DX: vg.Points(8), DY: -vg.Points(6), Text: "now: " + Number(cur) + " a week", Style: ls, Halo: true})
 		p.X.Min, p.Y.Min = 0, 0
 		panels = append(panels, p)
 		if g, _, ok := MarginalGain(r.f, ch); ok {
@@ -252,18 +253,18 @@ func (r *review) shadeWindow(p *plot.Plot, labelIt bool) {
 	if r.w.Kind == fitdir.WholePeriod {
 		return
 	}
-	p.Add(span{from: day(r.w.From), to: day(r.w.To) + 1, fill: Shade})
+	p.Add(marks.Span{From: marks.Day(r.w.From), To: marks.Day(r.w.To) + 1, Fill: Shade})
 	if labelIt {
-		ls := textStyle(sizeLabel-1, Muted, true)
+		ls := marks.TextStyle(sizeLabel-1, Muted, true)
 		ls.XAlign, ls.YAlign = text.XCenter, text.YTop
-		p.Add(label{x: (day(r.w.From) + day(r.w.To)) / 2, top: true, dy: -vg.Points(4), text: r.w.Name, style: ls})
+		p.Add(marks.Label{X: (marks.Day(r.w.From) + marks.Day(r.w.To)) / 2, Top: true, DY: -vg.Points(4), Text: r.w.Name, Style: ls})
 	}
 }
 
 func (r *review) timeAxis(p *plot.Plot) {
-	p.X.Tick.Marker = quarterTicks{}
-	p.X.Min = day(r.whole.From) - 3
-	p.X.Max = day(r.whole.To) + 10
+	p.X.Tick.Marker = marks.QuarterTicks{}
+	p.X.Min = marks.Day(r.whole.From) - 3
+	p.X.Max = marks.Day(r.whole.To) + 10
 }
 
 // weekly: weekly direct and via-search contributions per channel.
@@ -305,14 +306,14 @@ func (r *review) weekly() (*Figure, error) {
 			}
 			s := Series{Panel: ch, Name: path}
 			for _, w := range ws {
-				s.X = append(s.X, day(w.Week))
+				s.X = append(s.X, marks.Day(w.Week))
 				s.Y = append(s.Y, w.Mean)
 				s.Lo = append(s.Lo, w.Q05)
 				s.Hi = append(s.Hi, w.Q95)
 			}
 			fig.add(s)
-			p.Add(band{x: s.X, lo: s.Lo, hi: s.Hi, fill: tint(col, 0.2)})
-			p.Add(line{x: s.X, y: s.Y, style: draw.LineStyle{Color: col, Width: vg.Points(2.6)}})
+			p.Add(marks.Band{X: s.X, Lo: s.Lo, Hi: s.Hi, Fill: marks.Tint(col, 0.2)})
+			p.Add(marks.Line{X: s.X, Y: s.Y, Style: draw.LineStyle{Color: col, Width: vg.Points(2.6)}})
 			if path == fitdir.PathViaSearch {
 				sum, n := 0.0, 0
 				for _, w := range ws {
@@ -327,13 +328,13 @@ func (r *review) weekly() (*Figure, error) {
 			}
 		}
 		// Channel name inside the panel, top left.
-		ns := textStyle(sizePanel-1, Ink, true)
+		ns := marks.TextStyle(sizePanel-1, Ink, true)
 		ns.XAlign, ns.YAlign = text.XLeft, text.YTop
-		p.Add(label{x: p.X.Min, top: true, dx: vg.Points(8), dy: -vg.Points(4), text: Capital(Channel(ch)) + ": " + r.outcome + " per week", style: ns, halo: true})
+		p.Add(marks.Label{X: p.X.Min, Top: true, DX: vg.Points(8), DY: -vg.Points(4), Text: Capital(Channel(ch)) + ": " + r.outcome + " per week", Style: ns, Halo: true})
 		p.Y.Min = 0
 		if k < len(chans)-1 {
 			p.X.Tick.Label.Color = nil
-			p.X.Tick.Marker = blankTicks{quarterTicks{}}
+			p.X.Tick.Marker = blankTicks{marks.QuarterTicks{}}
 		}
 		panels = append(panels, p)
 	}
@@ -373,7 +374,7 @@ func (r *review) fit() (*Figure, error) {
 		Legend: []LegendItem{
 			{"actual", Ink, SwatchLine, nil},
 			{"fitted (posterior mean)", Direct, SwatchLine, nil},
-			{"90% predictive band", tint(Direct, 0.25), SwatchBox, nil},
+			{"90% predictive band", marks.Tint(Direct, 0.25), SwatchBox, nil},
 		},
 		Caption: r.windowCaption() + " Band: 90% posterior predictive interval for each week.",
 	}
@@ -398,7 +399,7 @@ func (r *review) fit() (*Figure, error) {
 		fit := Series{Panel: st, Name: "fitted"}
 		inside := 0
 		for _, x := range rows {
-			d := day(x.Week)
+			d := marks.Day(x.Week)
 			act.X, act.Y = append(act.X, d), append(act.Y, x.Actual)
 			fit.X, fit.Y = append(fit.X, d), append(fit.Y, x.Mean)
 			fit.Lo, fit.Hi = append(fit.Lo, x.Q05), append(fit.Hi, x.Q95)
@@ -416,15 +417,15 @@ func (r *review) fit() (*Figure, error) {
 		r.timeAxis(p)
 		r.shadeWindow(p, k == 0)
 		p.Add(gridLines{})
-		p.Add(band{x: fit.X, lo: fit.Lo, hi: fit.Hi, fill: tint(Direct, 0.25)})
-		p.Add(line{x: fit.X, y: fit.Y, style: draw.LineStyle{Color: Direct, Width: vg.Points(3)}})
-		p.Add(line{x: act.X, y: act.Y, style: draw.LineStyle{Color: Ink, Width: vg.Points(1.8)}})
-		ns := textStyle(sizePanel-1, Ink, true)
+		p.Add(marks.Band{X: fit.X, Lo: fit.Lo, Hi: fit.Hi, Fill: marks.Tint(Direct, 0.25)})
+		p.Add(marks.Line{X: fit.X, Y: fit.Y, Style: draw.LineStyle{Color: Direct, Width: vg.Points(3)}})
+		p.Add(marks.Line{X: act.X, Y: act.Y, Style: draw.LineStyle{Color: Ink, Width: vg.Points(1.8)}})
+		ns := marks.TextStyle(sizePanel-1, Ink, true)
 		ns.XAlign, ns.YAlign = text.XLeft, text.YTop
 		stageName := map[string]string{"demand": "Demand stage: ", "outcome": "Outcome stage: "}[st]
-		p.Add(label{x: p.X.Min, top: true, dx: vg.Points(8), dy: -vg.Points(4), text: stageName + names[st] + " per week", style: ns, halo: true})
+		p.Add(marks.Label{X: p.X.Min, Top: true, DX: vg.Points(8), DY: -vg.Points(4), Text: stageName + names[st] + " per week", Style: ns, Halo: true})
 		if k == 0 {
-			p.X.Tick.Marker = blankTicks{quarterTicks{}}
+			p.X.Tick.Marker = blankTicks{marks.QuarterTicks{}}
 		}
 		lo, hi := math.Inf(1), math.Inf(-1)
 		for i := range fit.X {
@@ -481,25 +482,25 @@ func (r *review) sensitivity() (*Figure, error) {
 		p := newPanel(Capital(Channel(ch)))
 		p.X.Label.Text = "error correlation (rho)"
 		p.Y.Label.Text = "via-search " + r.outcome
-		p.X.Tick.Marker = numberTicks{}
+		p.X.Tick.Marker = marks.NumberTicks{}
 		p.Add(gridLines{})
-		p.Add(band{x: s.X, lo: s.Lo, hi: s.Hi, fill: tint(ViaSearch, 0.25)})
-		p.Add(rule{v: 0, style: draw.LineStyle{Color: Ink, Width: vg.Points(2)}})
-		p.Add(rule{v: 0, vertical: true, style: draw.LineStyle{Color: Faint, Width: vg.Points(1.5), Dashes: []vg.Length{vg.Points(3), vg.Points(3)}}})
-		p.Add(line{x: s.X, y: s.Y, style: draw.LineStyle{Color: ViaSearch, Width: vg.Points(4)}})
-		ls := textStyle(sizeLabel, Alert, true)
+		p.Add(marks.Band{X: s.X, Lo: s.Lo, Hi: s.Hi, Fill: marks.Tint(ViaSearch, 0.25)})
+		p.Add(marks.Rule{At: 0, Style: draw.LineStyle{Color: Ink, Width: vg.Points(2)}})
+		p.Add(marks.Rule{At: 0, Vertical: true, Style: draw.LineStyle{Color: Faint, Width: vg.Points(1.5), Dashes: []vg.Length{vg.Points(3), vg.Points(3)}}})
+		p.Add(marks.Line{X: s.X, Y: s.Y, Style: draw.LineStyle{Color: ViaSearch, Width: vg.Points(4)}})
+		ls := marks.TextStyle(sizeLabel, Alert, true)
 		ls.YAlign = text.YTop
 		be, _ := r.f.BreakevenRho(ch)
 		if !math.IsNaN(be) {
 			fig.add(Series{Panel: ch, Name: "breakeven", X: []float64{be}})
-			p.Add(rule{v: be, vertical: true, style: draw.LineStyle{Color: Alert, Width: vg.Points(3),
+			p.Add(marks.Rule{At: be, Vertical: true, Style: draw.LineStyle{Color: Alert, Width: vg.Points(3),
 				Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}})
 			ls.XAlign = text.XRight
 			dx := -vg.Points(8)
 			if be < 0 {
 				ls.XAlign, dx = text.XLeft, vg.Points(8)
 			}
-			p.Add(label{x: be, top: true, dx: dx, dy: -vg.Points(8), text: "zero at rho = " + trimRho(be), style: ls, halo: true})
+			p.Add(marks.Label{X: be, Top: true, DX: dx, DY: -vg.Points(8), Text: "zero at rho = " + trimRho(be), Style: ls, Halo: true})
 			crossing = append(crossing, [2]string{Channel(ch), trimRho(be)})
 		} else {
 			word := "changes sign"
@@ -586,15 +587,15 @@ func (r *review) diagnostics() (*Figure, error) {
 	pe.X.Label.Text = "ESS (log scale)"
 	pe.X.Scale = plot.LogScale{}
 	for _, p := range []*plot.Plot{pr, pe} {
-		p.Y.Tick.Marker = categoryTicks(rows)
-		p.Y.Tick.Label = textStyle(sizeAxis, Ink, true)
+		p.Y.Tick.Marker = marks.CategoryTicks(rows)
+		p.Y.Tick.Label = marks.TextStyle(sizeAxis, Ink, true)
 		p.Y.Tick.Label.XAlign, p.Y.Tick.Label.YAlign = text.XRight, text.YCenter
 		p.Y.Min, p.Y.Max = -0.6, float64(len(stages))-0.4
 		p.Add(gridLines{vertical: true})
 	}
 	thr := draw.LineStyle{Color: Alert, Width: vg.Points(3), Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}
-	pr.Add(rule{v: RhatMax, vertical: true, style: thr})
-	pe.Add(rule{v: ESSMin, vertical: true, style: thr})
+	pr.Add(marks.Rule{At: RhatMax, Vertical: true, Style: thr})
+	pe.Add(marks.Rule{At: ESSMin, Vertical: true, Style: thr})
 
 	var series []Series
 	badNames := map[string]bool{}
@@ -603,7 +604,7 @@ func (r *review) diagnostics() (*Figure, error) {
 	var bad []string
 	divs := 0
 	var divText []string
-	ls := textStyle(sizeLabel-1, Alert, true)
+	ls := marks.TextStyle(sizeLabel-1, Alert, true)
 	ls.XAlign, ls.YAlign = text.XLeft, text.YBottom
 	for i, st := range stages {
 		y0 := float64(len(stages) - 1 - i)
@@ -668,10 +669,10 @@ func (r *review) diagnostics() (*Figure, error) {
 		// (more labels would overlap on a slide; verdict.txt names the rest).
 		if worstR >= 0 {
 			prm := st.Params[worstR]
-			pr.Add(label{x: prm.Rhat, y: worstRy, dx: vg.Points(10), dy: vg.Points(4), text: prm.Name, style: ls, halo: true, inside: true})
+			pr.Add(marks.Label{X: prm.Rhat, Y: worstRy, DX: vg.Points(10), DY: vg.Points(4), Text: prm.Name, Style: ls, Halo: true, Inside: true})
 		}
 		if worstE >= 0 {
-			pe.Add(label{x: worstEv, y: worstEy, dx: vg.Points(10), dy: vg.Points(4), text: st.Params[worstE].Name, style: ls, halo: true, inside: true})
+			pe.Add(marks.Label{X: worstEv, Y: worstEy, DX: vg.Points(10), DY: vg.Points(4), Text: st.Params[worstE].Name, Style: ls, Halo: true, Inside: true})
 		}
 		series = append(series, rs, bs, ts)
 		d := st.Stats.TotalDivergences()
@@ -742,7 +743,7 @@ func (r *review) addDots(p *plot.Plot, d dotsXY, c color.Color, shape draw.Glyph
 	if len(d.x) == 0 {
 		return
 	}
-	p.Add(dots{x: d.x, y: d.y, style: draw.GlyphStyle{Color: c, Radius: vg.Points(radius), Shape: shape}})
+	p.Add(marks.Dots{X: d.x, Y: d.y, Style: draw.GlyphStyle{Color: c, Radius: vg.Points(radius), Shape: shape}})
 }
 
 // jitter spreads n dots of one row over ±0.28 deterministically.

@@ -18,5 +18,7 @@
 // pair of these colours (40 between the two paths).
 //
 // Number, Percent, About and the other formatters are shared with the
-// report so that both round the same way.
+// report so that both round the same way. The plotters and tick markers
+// the panels are drawn with live in package marks, which the validation
+// chart (spillway/funnel/validate/chart) uses too.
 package plots // import "spillway/plots"

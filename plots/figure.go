@@ -4,13 +4,14 @@ import (
 	"bytes"
 	"fmt"
 	"image/color"
-	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
+
+	"spillway/plots/marks"
 )
 
 // Page size: 1200×675 pt at 96 dpi is 1600×900 px, a 16:9 slide.
@@ -120,7 +121,7 @@ func (f *Figure) grid(rows, cols int, ps ...*plot.Plot) {
 func newPanel(title string) *plot.Plot {
 	p := plot.New()
 	p.BackgroundColor = color.Transparent
-	p.Title.TextStyle = textStyle(sizePanel, Ink, true)
+	p.Title.TextStyle = marks.TextStyle(sizePanel, Ink, true)
 	p.Title.TextStyle.XAlign = text.XCenter
 	p.Title.TextStyle.YAlign = text.YTop
 	p.Title.Padding = vg.Points(12)
@@ -132,16 +133,16 @@ func newPanel(title string) *plot.Plot {
 		p.Add(panelTitle{text: title, style: p.Title.TextStyle, pad: p.Title.Padding})
 	}
 	for _, a := range []*plot.Axis{&p.X, &p.Y} {
-		a.Label.TextStyle = textStyle(sizeAxis, Ink, false)
+		a.Label.TextStyle = marks.TextStyle(sizeAxis, Ink, false)
 		a.Label.TextStyle.XAlign = text.XCenter
 		a.Label.TextStyle.YAlign = text.YBottom
 		a.Label.Padding = vg.Points(6)
-		a.Tick.Label = textStyle(sizeTick, Muted, false)
+		a.Tick.Label = marks.TextStyle(sizeTick, Muted, false)
 		a.Tick.LineStyle = draw.LineStyle{Color: Muted, Width: vg.Points(1)}
 		a.Tick.Length = vg.Points(6)
 		a.LineStyle = draw.LineStyle{Color: Muted, Width: vg.Points(1.2)}
 		a.Padding = vg.Points(4)
-		a.Tick.Marker = numberTicks{}
+		a.Tick.Marker = marks.NumberTicks{}
 	}
 	p.X.Tick.Label.XAlign = text.XCenter
 	p.X.Tick.Label.YAlign = text.YTop
@@ -212,16 +213,16 @@ func (f *Figure) draw(dc draw.Canvas) error {
 	y := dc.Max.Y - 24
 
 	// Title, wrapped to the page width.
-	ts := textStyle(sizeTitle, Ink, true)
+	ts := marks.TextStyle(sizeTitle, Ink, true)
 	ts.YAlign = text.YTop
 	for _, ln := range wrapBalanced(ts, f.Title, width) {
 		dc.FillText(ts, vg.Point{X: left, Y: y}, ln)
 		y -= ts.Height(ln) + 6
 	}
 	if f.Warning != "" {
-		ws := textStyle(sizeBanner, Alert, true)
+		ws := marks.TextStyle(sizeBanner, Alert, true)
 		ws.YAlign = text.YTop
-		for _, ln := range wrap(ws, f.Warning, width) {
+		for _, ln := range marks.Wrap(ws, f.Warning, width) {
 			dc.FillText(ws, vg.Point{X: left, Y: y}, ln)
 			y -= ws.Height(ln) + 4
 		}
@@ -230,7 +231,7 @@ func (f *Figure) draw(dc draw.Canvas) error {
 
 	// Legend row.
 	if len(f.Legend) > 0 {
-		ls := textStyle(sizeLegend, Ink, false)
+		ls := marks.TextStyle(sizeLegend, Ink, false)
 		ls.YAlign = text.YCenter
 		h := ls.Height("Ag")
 		x := left
@@ -249,9 +250,9 @@ func (f *Figure) draw(dc draw.Canvas) error {
 	}
 
 	// Caption at the bottom.
-	cs := textStyle(sizeCaption, Muted, false)
+	cs := marks.TextStyle(sizeCaption, Muted, false)
 	cs.YAlign = text.YBottom
-	lines := wrap(cs, f.Caption, width)
+	lines := marks.Wrap(cs, f.Caption, width)
 	yb := dc.Min.Y + 18
 	for i := len(lines) - 1; i >= 0; i-- {
 		dc.FillText(cs, vg.Point{X: left, Y: yb}, lines[i])
@@ -305,46 +306,21 @@ func drawSwatch(dc draw.Canvas, it LegendItem, x, cy, h vg.Length) vg.Length {
 	return w
 }
 
-// wrap breaks s into lines no wider than width in style sty.
-func wrap(sty text.Style, s string, width vg.Length) []string {
-	var lines []string
-	for _, para := range strings.Split(s, "\n") {
-		words := strings.Fields(para)
-		cur := ""
-		for _, w := range words {
-			try := w
-			if cur != "" {
-				try = cur + " " + w
-			}
-			if cur != "" && sty.Width(try) > width {
-				lines = append(lines, cur)
-				cur = w
-				continue
-			}
-			cur = try
-		}
-		if cur != "" {
-			lines = append(lines, cur)
-		}
-	}
-	return lines
-}
-
 // wrapBalanced wraps s like wrap but evens out the line lengths: it uses
 // the narrowest width that needs no more lines than width does.
 func wrapBalanced(sty text.Style, s string, width vg.Length) []string {
-	lines := wrap(sty, s, width)
+	lines := marks.Wrap(sty, s, width)
 	if len(lines) < 2 {
 		return lines
 	}
 	lo, hi := width/4, width
 	for range 20 {
 		mid := (lo + hi) / 2
-		if len(wrap(sty, s, mid)) > len(lines) {
+		if len(marks.Wrap(sty, s, mid)) > len(lines) {
 			lo = mid
 		} else {
 			hi = mid
 		}
 	}
-	return wrap(sty, s, hi)
+	return marks.Wrap(sty, s, hi)
 }

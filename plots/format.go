@@ -4,6 +4,8 @@ import (
 	"math"
 	"strconv"
 	"strings"
+
+	"spillway/plots/marks"
 )
 
 // Number formats v for charts and the report: whole numbers with thousands
@@ -23,7 +25,7 @@ func Number(v float64) string {
 	var s string
 	switch {
 	case a >= 99.5:
-		s = thousands(strconv.FormatFloat(math.Round(v), 'f', 0, 64))
+		s = marks.Thousands(strconv.FormatFloat(math.Round(v), 'f', 0, 64))
 	case a >= 9.995:
 		s = strconv.FormatFloat(v, 'f', 1, 64)
 	case a >= 0.9995:
@@ -39,28 +41,6 @@ func Number(v float64) string {
 		return "0"
 	}
 	return s
-}
-
-// thousands inserts commas into the integer part of a formatted number.
-func thousands(s string) string {
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	intPart, frac, hasFrac := strings.Cut(s, ".")
-	var b strings.Builder
-	for i, r := range intPart {
-		if i > 0 && (len(intPart)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(r)
-	}
-	out := b.String()
-	if hasFrac {
-		out += "." + frac
-	}
-	if neg {
-		out = "-" + out
-	}
-	return out
 }
 
 // Percent formats the fraction v (0.42) as a percentage: whole percents

@@ -1,16 +1,6 @@
 package plots
 
-import (
-	"image/color"
-
-	"gonum.org/v1/plot/font"
-	"gonum.org/v1/plot/text"
-	"gonum.org/v1/plot/vg"
-
-	xfont "golang.org/x/image/font"
-
-	"gonum.org/v1/plot"
-)
+import "image/color"
 
 // The palette. Every chart uses the same meaning for each colour: blue is
 // a channel's own (direct) effect, amber is effect that runs through branded
@@ -49,12 +39,6 @@ var Categorical = []struct {
 	{"cross-check", Faint}, {"threshold", Alert},
 }
 
-// tint returns c with alpha a (0..1), for interval bands drawn over white.
-func tint(c color.NRGBA, a float64) color.NRGBA {
-	c.A = uint8(a*255 + 0.5)
-	return c
-}
-
 // Type sizes in points on the 1200×675 pt page (1600×900 px at 96 dpi).
 const (
 	sizeTitle   = 30
@@ -66,24 +50,3 @@ const (
 	sizeLabel   = 19
 	sizeCaption = 17
 )
-
-var (
-	sans     = font.Font{Typeface: "Liberation", Variant: "Sans"}
-	sansBold = font.Font{Typeface: "Liberation", Variant: "Sans", Weight: xfont.WeightBold}
-)
-
-// textStyle returns a plain-text style of the given size, colour and
-// weight, left-aligned on its baseline box.
-func textStyle(size vg.Length, c color.Color, bold bool) text.Style {
-	f := sans
-	if bold {
-		f = sansBold
-	}
-	return text.Style{
-		Color:   c,
-		Font:    font.From(f, size),
-		XAlign:  text.XLeft,
-		YAlign:  text.YBottom,
-		Handler: plot.DefaultTextHandler,
-	}
-}

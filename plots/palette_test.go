@@ -5,6 +5,7 @@ import (
 	"testing"
 
 	"spillway/plots/cvd"
+	"spillway/plots/marks"
 )
 
 // TestPaletteColourBlindSafe simulates protanopia, deuteranopia and
@@ -32,7 +33,7 @@ func TestPaletteColourBlindSafe(t *testing.T) {
 		}
 		// The band tints over white must stay apart too (bands of the two
 		// paths overlap on the curves chart).
-		if got := cvd.Difference(over(tint(Direct, 0.2)), over(tint(ViaSearch, 0.2)), d); got < 10 {
+		if got := cvd.Difference(over(marks.Tint(Direct, 0.2)), over(marks.Tint(ViaSearch, 0.2)), d); got < 10 {
 			t.Errorf("%v: direct vs via-search bands: ΔE00 %.1f < 10", d, got)
 		}
 	}
@@ -87,27 +88,5 @@ func TestNumberFormats(t *testing.T) {
 	}
 	if got := List([]string{"a", "b", "c"}); got != "a, b and c" {
 		t.Errorf("List: %q", got)
-	}
-}
-
-func TestNumberTicks(t *testing.T) {
-	ts := numberTicks{}.Ticks(0, 9000)
-	var labels []string
-	for _, tk := range ts {
-		labels = append(labels, tk.Label)
-	}
-	want := []string{"0", "2,000", "4,000", "6,000", "8,000"}
-	if len(labels) != len(want) {
-		t.Fatalf("got %v, want %v", labels, want)
-	}
-	for i := range want {
-		if labels[i] != want[i] {
-			t.Errorf("got %v, want %v", labels, want)
-			break
-		}
-	}
-	ts = numberTicks{}.Ticks(-0.9, 0.9)
-	if ts[0].Label != "-0.5" || ts[len(ts)-1].Label != "0.5" {
-		t.Errorf("rho ticks: %v", ts)
 	}
 }

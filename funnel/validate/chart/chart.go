@@ -8,15 +8,13 @@ import (
 	"strings"
 
 	"gonum.org/v1/plot"
-	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 	"gonum.org/v1/plot/vg/vgimg"
 
-	xfont "golang.org/x/image/font"
-
 	"spillway/plots"
+	"spillway/plots/marks"
 )
 
 // Coverage is one effect's interval coverage over the replicates
@@ -66,19 +64,6 @@ const (
 	margin            = 34
 )
 
-var (
-	sans     = font.Font{Typeface: "Liberation", Variant: "Sans"}
-	sansBold = font.Font{Typeface: "Liberation", Variant: "Sans", Weight: xfont.WeightBold}
-)
-
-func style(size vg.Length, c color.Color, bold bool) text.Style {
-	f := sans
-	if bold {
-		f = sansBold
-	}
-	return text.Style{Color: c, Font: font.From(f, size), XAlign: text.XLeft, YAlign: text.YBottom, Handler: plot.DefaultTextHandler}
-}
-
 // pathColor is the palette colour of an effect path: amber through
 // search, blue direct, near-black total, grey for shares.
 func pathColor(path string) color.Color {
@@ -115,17 +100,17 @@ func (f *Figure) PNG() ([]byte, error) {
 func (f *Figure) draw(dc draw.Canvas) error {
 	left, right := dc.Min.X+margin, dc.Max.X-margin
 	y := dc.Max.Y - 24
-	ts := style(28, plots.Ink, true)
+	ts := marks.TextStyle(28, plots.Ink, true)
 	ts.YAlign = text.YTop
-	for _, ln := range wrap(ts, f.Title, right-left) {
+	for _, ln := range marks.Wrap(ts, f.Title, right-left) {
 		dc.FillText(ts, vg.Point{X: left, Y: y}, ln)
 		y -= ts.Height(ln) + 6
 	}
 	y -= 10
 	bottom := dc.Min.Y + 18
 	if f.Caption != "" {
-		cs := style(17, plots.Muted, false)
-		lines := wrap(cs, f.Caption, right-left)
+		cs := marks.TextStyle(17, plots.Muted, false)
+		lines := marks.Wrap(cs, f.Caption, right-left)
 		for i := len(lines) - 1; i >= 0; i-- {
 			dc.FillText(cs, vg.Point{X: left, Y: bottom}, lines[i])
 			bottom += cs.Height(lines[i]) + 4
@@ -159,7 +144,7 @@ func (f *Figure) draw(dc draw.Canvas) error {
 	}
 	switch len(panels) {
 	case 0:
-		s := style(24, plots.Muted, false)
+		s := marks.TextStyle(24, plots.Muted, false)
 		dc.FillText(s, vg.Point{X: left, Y: (area.Min.Y + area.Max.Y) / 2}, "No check was run.")
 	case 1:
 		panels[0].Draw(sub(0, 0, 1, 1))
@@ -179,15 +164,15 @@ func newPanel(title string) *plot.Plot {
 	p := plot.New()
 	p.BackgroundColor = color.Transparent
 	p.Title.Text = title
-	p.Title.TextStyle = style(22, plots.Ink, true)
+	p.Title.TextStyle = marks.TextStyle(22, plots.Ink, true)
 	p.Title.TextStyle.XAlign = text.XCenter
 	p.Title.TextStyle.YAlign = text.YTop
 	p.Title.Padding = vg.Points(10)
 	for _, a := range []*plot.Axis{&p.X, &p.Y} {
-		a.Label.TextStyle = style(19, plots.Ink, false)
+		a.Label.TextStyle = marks.TextStyle(19, plots.Ink, false)
 		a.Label.TextStyle.XAlign = text.XCenter
 		a.Label.Padding = vg.Points(6)
-		a.Tick.Label = style(18, plots.Muted, false)
+		a.Tick.Label = marks.TextStyle(18, plots.Muted, false)
 		a.Tick.LineStyle = draw.LineStyle{Color: plots.Muted, Width: vg.Points(1)}
 		a.Tick.Length = vg.Points(5)
 		a.LineStyle = draw.LineStyle{Color: plots.Muted, Width: vg.Points(1.2)}
@@ -224,17 +209,23 @@ func (f *Figure) coveragePanel() (*plot.Plot, error) {
 		if !finite(c.Cover90, c.Cover50) {
 			return nil, fmt.Errorf("chart: coverage of %s is not a number", c.Label)
 		}
-		p.Add(rect{x0: 0, x1: c.Cover90, y0: yy - 0.32, y1: yy + 0.32, fill: fill})
-		p.Add(dot{x: c.Cover50, y: yy, style: draw.GlyphStyle{Color: color.White, Radius: vg.Points(7.5), Shape: draw.CircleGlyph{}}},
-			dot{x: c.Cover50, y: yy, style: draw.GlyphStyle{Color: plots.Ink, Radius: vg.Points(5), Shape: draw.CircleGlyph{}}})
+		p.Add(marks.Rect{X0: 0, X1: c.Cover90, Y0: yy - 0.32, Y1: yy + 0.32, Fill: fill})
+		at := marks.Dots{X: []float64{c.Cover50}, Y: []float64{yy}, Overflow: true}
+		halo, dot := at, at
+		halo.Style = draw.GlyphStyle{Color: color.White, Radius: vg.Points(7.5), Shape: draw.CircleGlyph{}}
+		dot.Style = draw.GlyphStyle{Color: plots.Ink, Radius: vg.Points(5), Shape: draw.CircleGlyph{}}
+		p.Add(halo, dot)
 	}
 	dash := draw.LineStyle{Color: plots.Alert, Width: vg.Points(2.5), Dashes: []vg.Length{vg.Points(7), vg.Points(5)}}
-	p.Add(rule{v: 0.9, style: dash}, rule{v: 0.5, style: dash})
-	p.Add(topLabel{x: 0.9, text: "90%", style: style(17, plots.Alert, true)}, topLabel{x: 0.5, text: "50%", style: style(17, plots.Alert, true)})
+	p.Add(marks.Rule{At: 0.9, Vertical: true, Style: dash}, marks.Rule{At: 0.5, Vertical: true, Style: dash})
+	level := marks.TextStyle(17, plots.Alert, true)
+	level.YAlign = text.YTop
+	p.Add(marks.Label{X: 0.9, Top: true, DX: vg.Points(5), DY: -vg.Points(2), Text: "90%", Style: level},
+		marks.Label{X: 0.5, Top: true, DX: vg.Points(5), DY: -vg.Points(2), Text: "50%", Style: level})
 	p.X.Min, p.X.Max = 0, 1
 	p.Y.Min, p.Y.Max = -0.6, float64(n)+0.2 // room for the level labels
-	p.X.Tick.Marker = percentTicks{}
-	p.Y.Tick.Marker = categoryTicks(names)
+	p.X.Tick.Marker = marks.PercentTicks{}
+	p.Y.Tick.Marker = marks.CategoryTicks(names)
 	p.Y.Tick.Length = 0
 	p.Y.LineStyle.Width = 0
 	p.X.Label.Text = "bar: 90% intervals; dot: 50% intervals"
@@ -261,29 +252,29 @@ func (f *Figure) forecastPanel() (*plot.Plot, error) {
 	blocks := splitBlocks(s.Days)
 	for _, b := range blocks {
 		x := s.Days[b[0]:b[1]]
-		p.Add(band{x: x, lo: s.Lo[b[0]:b[1]], hi: s.Hi[b[0]:b[1]], fill: tint(plots.Direct, 0.22)})
+		p.Add(marks.Band{X: x, Lo: s.Lo[b[0]:b[1]], Hi: s.Hi[b[0]:b[1]], Fill: marks.Tint(plots.Direct, 0.22)})
 	}
 	for _, o := range s.Origins {
-		p.Add(rule{v: o, style: draw.LineStyle{Color: plots.Grid, Width: vg.Points(2)}})
+		p.Add(marks.Rule{At: o, Vertical: true, Style: draw.LineStyle{Color: plots.Grid, Width: vg.Points(2)}})
 	}
 	for _, b := range blocks {
 		x := s.Days[b[0]:b[1]]
-		p.Add(line{x: x, y: s.Baseline[b[0]:b[1]], style: draw.LineStyle{Color: plots.Faint, Width: vg.Points(3), Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}})
-		p.Add(line{x: x, y: s.Mean[b[0]:b[1]], style: draw.LineStyle{Color: plots.Direct, Width: vg.Points(3.5)}})
-		p.Add(line{x: x, y: s.Actual[b[0]:b[1]], style: draw.LineStyle{Color: plots.Ink, Width: vg.Points(3)}})
+		p.Add(marks.Line{X: x, Y: s.Baseline[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Faint, Width: vg.Points(3), Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}, DotSingle: true})
+		p.Add(marks.Line{X: x, Y: s.Mean[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Direct, Width: vg.Points(3.5)}, DotSingle: true})
+		p.Add(marks.Line{X: x, Y: s.Actual[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Ink, Width: vg.Points(3)}, DotSingle: true})
 	}
 	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline} {
 		if !finite(v...) {
 			return nil, fmt.Errorf("chart: a %s forecast is not a number", s.Stage)
 		}
 	}
-	p.X.Tick.Marker = monthTicks{}
-	p.Y.Tick.Marker = numberTicks{}
+	p.X.Tick.Marker = marks.MonthTicks{}
+	p.Y.Tick.Marker = marks.NumberTicks{}
 	p.Y.Label.Text = s.Stage + " per week"
 	p.Legend.Add("actual", swatch{plots.Ink, false})
 	p.Legend.Add("model, 90% band", swatch{plots.Direct, false})
 	p.Legend.Add("seasonal baseline", swatch{plots.Faint, true})
-	p.Legend.TextStyle = style(17, plots.Ink, false)
+	p.Legend.TextStyle = marks.TextStyle(17, plots.Ink, false)
 	p.Legend.Top = true
 	p.Legend.Left = true
 	p.Legend.Padding = vg.Points(3)
@@ -324,17 +315,17 @@ func (f *Figure) shiftPanel() (*plot.Plot, error) {
 		if s.Flagged {
 			fill = plots.Alert
 		}
-		p.Add(rect{x0: 0, x1: v, y0: yy - 0.32, y1: yy + 0.32, fill: fill})
+		p.Add(marks.Rect{X0: 0, X1: v, Y0: yy - 0.32, Y1: yy + 0.32, Fill: fill})
 		hi = math.Max(hi, v)
 		if s.Threshold > 0 {
-			p.Add(segment{x0: s.Threshold, x1: s.Threshold, y0: yy - 0.45, y1: yy + 0.45, style: tick})
+			p.Add(marks.Segment{X0: s.Threshold, X1: s.Threshold, Y0: yy - 0.45, Y1: yy + 0.45, Style: tick})
 			hi = math.Max(hi, s.Threshold)
 		}
 	}
 	p.X.Min, p.X.Max = 0, 1.08*hi
 	p.Y.Min, p.Y.Max = -0.6, float64(n)-0.4
-	p.X.Tick.Marker = numberTicks{}
-	p.Y.Tick.Marker = categoryTicks(names)
+	p.X.Tick.Marker = marks.NumberTicks{}
+	p.Y.Tick.Marker = marks.CategoryTicks(names)
 	p.Y.Tick.Length = 0
 	p.Y.LineStyle.Width = 0
 	p.X.Label.Text = "posterior sds of the reference fit (red tick: flag level)"
@@ -350,29 +341,17 @@ func finite(vs ...float64) bool {
 	return true
 }
 
-func tint(c color.NRGBA, a float64) color.NRGBA {
-	c.A = uint8(a*255 + 0.5)
-	return c
+// swatch is a legend thumbnail: a thick line, dashed or solid.
+type swatch struct {
+	c      color.Color
+	dashed bool
 }
 
-// wrap breaks s into lines no wider than width.
-func wrap(sty text.Style, s string, width vg.Length) []string {
-	var lines []string
-	cur := ""
-	for _, w := range strings.Fields(s) {
-		try := w
-		if cur != "" {
-			try = cur + " " + w
-		}
-		if cur != "" && sty.Width(try) > width {
-			lines = append(lines, cur)
-			cur = w
-			continue
-		}
-		cur = try
+func (s swatch) Thumbnail(c *draw.Canvas) {
+	st := draw.LineStyle{Color: s.c, Width: vg.Points(4)}
+	if s.dashed {
+		st.Dashes = []vg.Length{vg.Points(6), vg.Points(4)}
 	}
-	if cur != "" {
-		lines = append(lines, cur)
-	}
-	return lines
+	y := (c.Min.Y + c.Max.Y) / 2
+	c.StrokeLine2(st, c.Min.X, y, c.Max.X, y)
 }
