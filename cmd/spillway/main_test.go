@@ -221,7 +221,7 @@ func TestInspect(t *testing.T) {
 			t.Errorf("stdout lacks %q:\n%s", want, out)
 		}
 	}
-	if want := "spillway inspect: warning: \"sales\" has 1 week more than 5 MADs from its median"; !strings.HasPrefix(errs, want) || strings.Count(errs, "\n") != 1 {
+	if want := "spillway inspect: warning: \"sales\" has 1 week more than 5 robust standard deviations from its median"; !strings.HasPrefix(errs, want) || strings.Count(errs, "\n") != 1 {
 		t.Errorf("stderr: got %q, want one line starting %q", errs, want)
 	}
 }

@@ -19,8 +19,9 @@ const (
 	// KindSparse marks a spend column with spend in fewer than SparseShare of
 	// the weeks nationally, or with no spend at all in one region.
 	KindSparse = "sparse"
-	// KindOutlier marks weeks whose value lies more than OutlierMADs median
-	// absolute deviations from the column's median (per region).
+	// KindOutlier marks weeks whose value lies more than OutlierSDs robust
+	// standard deviations (1.4826 median absolute deviations) from the
+	// column's median (per region); spend is judged on the log scale.
 	KindOutlier = "outlier"
 )
 
@@ -28,7 +29,10 @@ const (
 const (
 	CollinearLimit = 0.9
 	SparseShare    = 0.10
-	OutlierMADs    = 5.0
+	OutlierSDs     = 5.0
+	// madToSD turns a median absolute deviation into a standard deviation
+	// for normal data (1/Phi^-1(3/4); common practice).
+	madToSD = 1.4826
 )
 
 // Warning is a problem in the data that does not stop a fit but that a
@@ -105,15 +109,20 @@ func nonZero(x []float64) int {
 	return n
 }
 
-// outliers looks for values of x more than OutlierMADs median absolute
-// deviations from the median. For spend (spend true) the median and MAD are
-// those of the weeks with spend, and zero weeks are never outliers. Columns
-// with a zero MAD are skipped.
+// outliers looks for values of x more than OutlierSDs robust standard
+// deviations (madToSD times the median absolute deviation) from the median.
+// Spend (spend true) is right-skewed, so it is judged on the log scale over
+// the weeks with spend, and zero weeks are never outliers. Columns with a
+// zero MAD are skipped.
 func outliers(name, region string, x []float64, weeks []time.Time, spend bool) (Warning, bool) {
+	scale := func(v float64) float64 { return v }
+	if spend {
+		scale = math.Log
+	}
 	var vals []float64
 	for _, v := range x {
-		if !spend || v != 0 {
-			vals = append(vals, v)
+		if !spend || v > 0 {
+			vals = append(vals, scale(v))
 		}
 	}
 	if len(vals) < 3 {
@@ -130,10 +139,10 @@ func outliers(name, region string, x []float64, weeks []time.Time, spend bool) (
 	}
 	var hits []string
 	for t, v := range x {
-		if spend && v == 0 {
+		if spend && v <= 0 {
 			continue
 		}
-		if math.Abs(v-med) > OutlierMADs*mad {
+		if math.Abs(scale(v)-med) > OutlierSDs*madToSD*mad {
 			hits = append(hits, fmt.Sprintf("%s (%s)", weeks[t].Format(DateLayout), fmtNum(v)))
 		}
 	}
@@ -155,8 +164,12 @@ func outliers(name, region string, x []float64, weeks []time.Time, spend bool) (
 	if len(hits) == 1 {
 		weeksWord = "week"
 	}
-	return Warning{KindOutlier, name, fmt.Sprintf("%q%s has %d %s more than %g MADs from its median %s: %s%s",
-		name, in, len(hits), weeksWord, OutlierMADs, strconv.FormatFloat(med, 'g', 6, 64), strings.Join(list, ", "), more)}, true
+	center := med
+	if spend {
+		center = math.Exp(med)
+	}
+	return Warning{KindOutlier, name, fmt.Sprintf("%q%s has %d %s more than %g robust standard deviations from its median %s: %s%s",
+		name, in, len(hits), weeksWord, OutlierSDs, strconv.FormatFloat(center, 'g', 6, 64), strings.Join(list, ", "), more)}, true
 }
 
 // median returns the median of x (the mean of the two middle values for an

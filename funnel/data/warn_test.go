@@ -34,11 +34,11 @@ func TestWarnings(t *testing.T) {
 			return f
 		}, baseSpec, KindSparse, "audio", `"audio" has spend in only 5 of 60 weeks (under 10%)`},
 		{"outlier", func() *frame { return baseFrame(60).set(30, "sales", "100000") }, baseSpec, KindOutlier, "sales",
-			`"sales" has 1 week more than 5 MADs from its median`},
+			`"sales" has 1 week more than 5 robust standard deviations from its median`},
 		{"spend outlier", func() *frame { return baseFrame(60).set(40, "search", "90000") }, baseSpec, KindOutlier, "search",
 			wk(40) + " (90000)"},
 		{"regional outlier", func() *frame { return regionFrame(60).set(3*12+1, "queries", "1e6") }, regionSpec, KindOutlier, "queries",
-			`"queries" in region "south" has 1 week more than 5 MADs from its median`},
+			`"queries" in region "south" has 1 week more than 5 robust standard deviations from its median`},
 		{"no spend in a region", func() *frame {
 			f := regionFrame(60)
 			for t := range 60 {
@@ -76,14 +76,24 @@ func TestMedian(t *testing.T) {
 
 func TestOutlierThreshold(t *testing.T) {
 	// Values 0..9 and one more value v > 9 have median 5 and MAD 3
-	// (deviations 0,1,1,2,2,3,3,4,4,5,v-5; by hand); 5 MADs is 15, so 20
-	// (deviation 15) is not an outlier and 20.5 (deviation 15.5) is.
+	// (deviations 0,1,1,2,2,3,3,4,4,5,v-5; by hand); 5 robust sds are
+	// 5 * 1.4826 * 3 = 22.239, so 27.2 (deviation 22.2) is not an outlier and
+	// 27.3 (deviation 22.3) is.
 	x := []float64{0, 1, 2, 3, 4, 5, 6, 7, 8, 9}
 	weeks := baseFrameWeeks(len(x) + 1)
-	if _, ok := outliers("q", "", append(x, 20), weeks, false); ok {
-		t.Error("20 flagged; it lies exactly 5 MADs from the median")
+	if _, ok := outliers("q", "", append(x, 27.2), weeks, false); ok {
+		t.Error("27.2 flagged; it lies 4.99 robust sds from the median")
 	}
-	if _, ok := outliers("q", "", append(x, 20.5), weeks, false); !ok {
-		t.Error("20.5 not flagged; it lies 5.17 MADs from the median")
+	if _, ok := outliers("q", "", append(x, 27.3), weeks, false); !ok {
+		t.Error("27.3 not flagged; it lies 5.01 robust sds from the median")
+	}
+	// spend is judged on the log scale: spend 1..10 (log median 1.79, log MAD 0.41; by
+	// hand) is not flagged at 60 but is at 1e4
+	s := []float64{1, 2, 3, 4, 5, 6, 7, 8, 9, 10}
+	if _, ok := outliers("s", "", append(s, 60), weeks, true); ok {
+		t.Error("spend 60 flagged among 1..10 on the log scale")
+	}
+	if _, ok := outliers("s", "", append(s, 1e4), weeks, true); !ok {
+		t.Error("spend 1e4 not flagged among 1..10 on the log scale")
 	}
 }
