@@ -45,7 +45,7 @@ volume, as auction spend does, so a model without queries over-credits search.
   demo          156 weeks, national (the data 'spillway run' uses by default)
   demo-regions  the demo across 24 regions with populations
   slow-burn     long carryover, strong saturation, mostly mediated video
-  direct-audio  audio works with no mediation at all; video about 10% mediated
+  direct-audio  audio works with no mediation at all; video about 7% mediated
 
 EXAMPLE
   spillway simulate --scenario demo-regions --seed 7 --out sim7

@@ -31,7 +31,7 @@ func coverage(draws []float64, truth float64) (in90, in99 bool) {
 // parameters and counts how many true effects fall inside their credible
 // intervals. Scenarios differ in carryover, saturation and mediated share
 // (demo about 50% and 40%; slow-burn mostly mediated video; direct-audio
-// with no mediation for audio and about 10% for video).
+// with no mediation for audio and about 7% for video).
 func TestRecovery(t *testing.T) {
 	if testing.Short() {
 		t.Skip("fits three scenarios")

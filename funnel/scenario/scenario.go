@@ -71,7 +71,7 @@ var demoParams = Params{
 // Named returns a built-in scenario: "demo" (156 weeks, national),
 // "demo-regions" (the demo across 24 regions), and recovery-test variants
 // "slow-burn" (long carryover, strong saturation, mostly mediated video) and
-// "direct-audio" (audio works with no mediation at all, video 10% mediated).
+// "direct-audio" (audio works with no mediation at all, video about 7% mediated).
 // weeks and regions of 0 keep the scenario's own.
 func Named(name string, seed uint64, weeks, regions int) (*Scenario, error) {
 	s := &Scenario{Name: name, Weeks: 156, Seed: seed, Start: time.Date(2023, 1, 2, 0, 0, 0, 0, time.UTC),
