@@ -26,11 +26,13 @@ type samplingFlags struct {
 	priors                string
 	linear                []string
 	quiet                 bool
+	targetAccept          float64
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
+	fs.Float64Var(&s.targetAccept, "target-accept", pipeline.DefaultTargetAccept, "the acceptance rate the step size adapts to during warm-up; raise it (0.95) if the verdict reports divergent transitions")
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -63,6 +65,8 @@ func (s *samplingFlags) validate() error {
 		return usagef("--warmup must be at least 20 (the step size and mass matrix adapt during warm-up)")
 	case s.draws < 10:
 		return usagef("--draws must be at least 10")
+	case s.targetAccept != 0 && !(s.targetAccept >= 0.5 && s.targetAccept < 1):
+		return usagef("--target-accept %g: expected a rate from 0.5 to below 1", s.targetAccept)
 	}
 	return nil
 }
@@ -168,14 +172,14 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			return nil, badData(err)
 		}
 	}
-	fs := &fitSpec{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws,
+	fs := &fitSpec{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
 		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
 	verb := "fit"
 	if demo != "" {
 		verb = "run"
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
-	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed}
+	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
 	// a prior that does not fit its parameter is the user's input error:
 	// find it before any sampling
 	stages, err := pipeline.Stages(sc, o)

@@ -24,6 +24,7 @@ type fitSpec struct {
 	Chains   int       `json:"chains"`
 	Warmup   int       `json:"warmup"`
 	Draws    int       `json:"draws"`
+	Accept   float64   `json:"target_accept"`
 	Linear   []string  `json:"linear,omitempty"`
 	Priors   string    `json:"priors,omitempty"` // the priors file given; copied into the folder as priors.csv
 	Command  string    `json:"command"`
@@ -244,6 +245,7 @@ func rerunCommand(verb string, fs *fitSpec, out string) string {
 	add("chains", strconv.Itoa(fs.Chains))
 	add("warmup", strconv.Itoa(fs.Warmup))
 	add("draws", strconv.Itoa(fs.Draws))
+	add("target-accept", strconv.FormatFloat(fs.Accept, 'g', -1, 64))
 	add("out", out)
 	return strings.Join(parts, " ")
 }

@@ -10,6 +10,13 @@ import (
 	"spillway/mediation"
 )
 
+// DefaultTargetAccept is the acceptance rate the step size adapts to in
+// this model's fits unless Settings.TargetAccept says otherwise. It is
+// higher than the engine's 0.8 (Stan's default): stages in which a channel's
+// coefficient is near zero showed a few divergent transitions at 0.8 on
+// simulated data and none at 0.9, for 15-45% more leapfrog steps.
+const DefaultTargetAccept = 0.9
+
 // StageNames are the three fits in the order they run.
 var StageNames = [3]string{"demand", "outcome", "naive"}
 
@@ -54,7 +61,7 @@ type StageHook func(stage string) (mcmc.Recorder, func())
 
 // Fit runs the three stages with settings s (chains in parallel, stages one
 // after another). Stage k uses seed s.Seed + k so the fits draw independent
-// streams. hook may be nil.
+// streams; a zero s.TargetAccept means DefaultTargetAccept. hook may be nil.
 func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings, hook StageHook) (*Fitted, error) {
 	st, err := Stages(sc, o)
 	if err != nil {
@@ -68,6 +75,9 @@ func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings
 		}
 		set := s
 		set.Seed = s.Seed + uint64(k)
+		if set.TargetAccept == 0 {
+			set.TargetAccept = DefaultTargetAccept
+		}
 		var done func()
 		if hook != nil {
 			set.Recorder, done = hook(stage.Name)

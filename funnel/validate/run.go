@@ -16,6 +16,7 @@ import (
 	"spillway/funnel/data"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
+	"spillway/funnel/pipeline"
 	"spillway/funnel/validate/score"
 	"spillway/mediation"
 )
@@ -196,7 +197,8 @@ func (sw *Sweep) fit(ctx context.Context, sc *model.Scaled, seed uint64) (*fitte
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", st.Name, err)
 		}
-		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k)}
+		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k),
+			TargetAccept: pipeline.DefaultTargetAccept}
 		if f.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
 			return nil, fmt.Errorf("%s stage: %w", st.Name, err)
 		}
