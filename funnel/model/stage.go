@@ -326,14 +326,31 @@ func (t *Target) decode(x []float64, wantGrad bool) {
 			continue
 		}
 		transform.AdstockGrad(c.a, c.da, c.x, lam)
+		// transform.HillGrad inlined with the per-channel constants hoisted:
+		// one log, one exp and two divisions per week (the hot loop).
 		var sh, shl, shk, shs float64
+		logK, invK := math.Log(k), 1/k
 		for i, a := range c.a {
-			h, dA, dK, dS := transform.HillGrad(a, k, s)
-			c.h[i], c.hl[i], c.hk[i], c.hs[i] = h, dA*c.da[i], dK, dS
+			if a <= 0 {
+				c.h[i], c.hl[i], c.hk[i], c.hs[i] = 0, 0, 0, 0
+				continue
+			}
+			la := math.Log(a) - logK
+			r := math.Exp(s * la)
+			if r > 1e300 {
+				c.h[i], c.hl[i], c.hk[i], c.hs[i] = 1, 0, 0, 0
+				sh++
+				continue
+			}
+			inv := 1 / (1 + r)
+			h := r * inv
+			w := h * inv // H(1-H)
+			sw := s * w
+			c.h[i], c.hl[i], c.hk[i], c.hs[i] = h, sw/a*c.da[i], -sw*invK, w*la
 			sh += h
 			shl += c.hl[i]
-			shk += dK
-			shs += dS
+			shk += c.hk[i]
+			shs += c.hs[i]
 		}
 		T := float64(t.T)
 		c.hbar, c.hlbar, c.hkbar, c.hsbar = sh/T, shl/T, shk/T, shs/T
