@@ -18,7 +18,7 @@ fit <- function(prefix, file) {
 }
 lo <- fit("longley", "longley.txt")
 invisible(fit("norris", "norris.txt"))
-# Transcription check: the committed Longley data equal R's datasets::longley after NIST's units
+# Copy check: the committed Longley data equal R's datasets::longley after NIST's units
 # (GNP, Population, Employed x1000; Unemployed, Armed.Forces x10).
 L <- datasets::longley
 conv <- cbind(L$Employed * 1000, L$GNP.deflator, L$GNP * 1000, L$Unemployed * 10,

@@ -4,7 +4,7 @@
 d <- read.csv("tal_or.csv")
 p <- function(name, v) cat(sprintf("%s %.17g\n", name, v), sep = "")
 
-# Transcription check: the committed CSV equals psych's Tal_Or (if psych is installed).
+# Copy check: the committed CSV equals psych's Tal_Or (if psych is installed).
 if (requireNamespace("psych", quietly = TRUE)) {
   ref <- psych::Tal_Or[, c("cond", "pmi", "import", "reaction")]
   same <- nrow(ref) == nrow(d) && all(sapply(names(d), function(k) all(as.numeric(ref[[k]]) == d[[k]])))
