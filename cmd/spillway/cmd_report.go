@@ -31,8 +31,10 @@ intervals exclude zero, from paired posterior draws), the tables of effects
 and borrowed demand, the causal assumptions with the sensitivity result, the
 cautions, a summary of the data and the command that reruns the fit. The
 window is one of effects.csv's: all, a quarter or a FROM:TO range; by default
-the last quarter the data cover in full. An existing report is replaced only
-with --force. The path written is printed.
+the last quarter the data cover in full. If FIT/validation holds the output of
+'spillway validate --fit FIT --out FIT/validation', the report adds a
+validation section. An existing report is replaced only with --force. The
+path written is printed.
 
 EXAMPLE
   spillway report --fit fit1 --window 2025Q2

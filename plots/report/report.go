@@ -36,6 +36,9 @@ func Write(w io.Writer, f *fitdir.Fit, window string, charts map[string][]byte) 
 	if err != nil {
 		return err
 	}
+	if v.Validation, err = loadValidation(f.Dir); err != nil {
+		return fmt.Errorf("report: validation: %w", err)
+	}
 	var buf bytes.Buffer
 	if err := page.Execute(&buf, v); err != nil {
 		return fmt.Errorf("report: %w", err)
@@ -70,6 +73,7 @@ type view struct {
 	Stages          []stageRow
 	Command         string
 	Rerun           string
+	Validation      *validationView
 }
 
 type chartView struct {

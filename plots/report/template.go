@@ -18,6 +18,7 @@ var page = template.Must(template.New("report").Funcs(template.FuncMap{
 <style>
 :root { --ink: #1e1e1e; --muted: #555555; --direct: #1a5a96; --via: #ee9a22; --alert: #b3261e; --rule: #d9d9d9; --shade: #f6f2e8; }
 * { box-sizing: border-box; }
+#validation li.detail { list-style: none; margin-left: 1.2em; color: var(--muted); }
 body { font-family: "Liberation Sans", "Helvetica Neue", Arial, sans-serif; color: var(--ink); margin: 0; line-height: 1.45; font-size: 16px; background: #ffffff; }
 main { max-width: 1180px; margin: 0 auto; padding: 28px 32px 48px; }
 h1 { font-size: 30px; margin: 0 0 4px; }
@@ -132,6 +133,21 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <ul id="sensitivity">{{range .Sensitivity}}
 <li>{{.}}</li>{{end}}
 </ul>
+
+{{with .Validation}}
+<h2>Validation</h2>
+<p>From <code>spillway validate</code> on this fit: recovery of known truth on data simulated like these, forecasts of weeks the model did not see, and stability when a quarter is left out.</p>
+<ul id="validation">{{range .Verdict}}
+{{if .Head}}<li><strong>{{.Text}}</strong></li>{{else}}<li class="detail">{{.Text}}</li>{{end}}{{end}}
+</ul>
+{{if .Src}}<figure><img src="{{.Src}}" alt="Validation: interval coverage, holdout forecasts and stability shifts"/></figure>{{end}}
+<table id="validation-metrics">
+<thead><tr><th>Check</th><th>Effect or stage</th><th>Channel</th><th>Metric</th><th class="num">Value</th></tr></thead>
+<tbody>{{range .Rows}}
+<tr><td>{{.Check}}</td><td>{{.Effect}}</td><td>{{.Channel}}</td><td>{{.Metric}}</td><td class="num">{{.Value}}</td></tr>{{end}}
+</tbody>
+</table>
+{{end}}
 
 <h2>Cautions</h2>
 <ul id="cautions">{{range .Cautions}}
