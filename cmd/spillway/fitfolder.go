@@ -14,6 +14,7 @@ import (
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
+	"spillway/plots/fitdir"
 )
 
 // fitSpec is spec.json: everything needed to rerun a fit.
@@ -49,26 +50,15 @@ func (s *fitSpec) options(dir string, stages [3]*model.Stage) (model.Options, er
 	return o, nil
 }
 
-// stageStats is a stage's stats.json.
-type stageStats struct {
-	WallSeconds         float64   `json:"wall_seconds"`
-	WarmupSeconds       []float64 `json:"warmup_seconds"`
-	SamplingSeconds     []float64 `json:"sampling_seconds"`
-	GradientEvaluations []int     `json:"gradient_evaluations"`
-	Divergences         []int     `json:"divergences"`
-	TreedepthHits       []int     `json:"treedepth_hits"`
-	StepSize            []float64 `json:"step_size"`
-	MeanLeapfrogs       []float64 `json:"mean_leapfrogs"`
-	EBFMI               []float64 `json:"ebfmi"`
-}
-
-func statsOf(f *mcmc.Fit, wall float64) stageStats {
-	s := stageStats{WallSeconds: wall}
+// statsOf is a stage's stats.json (the schema the fit folder's reader,
+// plots/fitdir, defines).
+func statsOf(f *mcmc.Fit, wall float64) fitdir.Stats {
+	s := fitdir.Stats{WallSeconds: wall}
 	for _, c := range f.Chains {
 		st := c.Stats
 		s.WarmupSeconds = append(s.WarmupSeconds, st.WarmupSeconds)
 		s.SamplingSeconds = append(s.SamplingSeconds, st.SamplingSeconds)
-		s.GradientEvaluations = append(s.GradientEvaluations, st.GradientEvaluations)
+		s.GradientEvaluations = append(s.GradientEvaluations, int64(st.GradientEvaluations))
 		s.Divergences = append(s.Divergences, st.Divergences)
 		s.TreedepthHits = append(s.TreedepthHits, st.TreeDepthHits)
 		s.StepSize = append(s.StepSize, st.StepSize)

@@ -103,6 +103,8 @@ type Stats struct {
 	Divergences         []int     `json:"divergences"`
 	TreedepthHits       []int     `json:"treedepth_hits"`
 	StepSize            []float64 `json:"step_size"`
+	MeanLeapfrogs       []float64 `json:"mean_leapfrogs"`
+	EBFMI               []float64 `json:"ebfmi"`
 }
 
 // TotalDivergences returns the divergent transitions summed over chains.
