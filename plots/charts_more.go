@@ -616,33 +616,9 @@ func (r *review) diagnostics() (*Figure, error) {
 		var worstRy, worstEy, worstEv float64
 		for j, prm := range st.Params {
 			jit := y0 + jitter(j, len(st.Params))
-			if !math.IsNaN(prm.Rhat) {
-				rs.X, rs.Y, rs.Labels = append(rs.X, prm.Rhat), append(rs.Y, jit), append(rs.Labels, prm.Name)
-				rmin, rmax = math.Min(rmin, prm.Rhat), math.Max(rmax, prm.Rhat)
-				if prm.Rhat > RhatMax {
-					badR.add(prm.Rhat, jit)
-				} else {
-					okR.add(prm.Rhat, jit)
-				}
-			}
-			if !math.IsNaN(prm.ESSBulk) {
-				bs.X, bs.Y, bs.Labels = append(bs.X, prm.ESSBulk), append(bs.Y, jit), append(bs.Labels, prm.Name)
-				emin, emax = math.Min(emin, prm.ESSBulk), math.Max(emax, prm.ESSBulk)
-				if prm.ESSBulk < ESSMin {
-					badB.add(prm.ESSBulk, jit)
-				} else {
-					okB.add(prm.ESSBulk, jit)
-				}
-			}
-			if !math.IsNaN(prm.ESSTail) {
-				ts.X, ts.Y, ts.Labels = append(ts.X, prm.ESSTail), append(ts.Y, jit), append(ts.Labels, prm.Name)
-				emin, emax = math.Min(emin, prm.ESSTail), math.Max(emax, prm.ESSTail)
-				if prm.ESSTail < ESSMin {
-					badT.add(prm.ESSTail, jit)
-				} else {
-					okT.add(prm.ESSTail, jit)
-				}
-			}
+			placeDiag(&rs, &okR, &badR, &rmin, &rmax, prm.Rhat, jit, prm.Name, prm.Rhat > RhatMax)
+			placeDiag(&bs, &okB, &badB, &emin, &emax, prm.ESSBulk, jit, prm.Name, prm.ESSBulk < ESSMin)
+			placeDiag(&ts, &okT, &badT, &emin, &emax, prm.ESSTail, jit, prm.Name, prm.ESSTail < ESSMin)
 			failR := prm.Rhat > RhatMax
 			failE := prm.ESSBulk < ESSMin || prm.ESSTail < ESSMin
 			if failR || failE {
@@ -736,6 +712,22 @@ func minESS(p fitdir.Param) float64 {
 
 // dotsXY collects points for one glyph style.
 type dotsXY struct{ x, y []float64 }
+
+// placeDiag records one parameter's diagnostic v (skipped when NaN) at
+// height y: into the plotted series, the axis range [lo, hi], and the
+// passing or failing dots.
+func placeDiag(s *Series, ok, bad *dotsXY, lo, hi *float64, v, y float64, name string, fails bool) {
+	if math.IsNaN(v) {
+		return
+	}
+	s.X, s.Y, s.Labels = append(s.X, v), append(s.Y, y), append(s.Labels, name)
+	*lo, *hi = math.Min(*lo, v), math.Max(*hi, v)
+	if fails {
+		bad.add(v, y)
+	} else {
+		ok.add(v, y)
+	}
+}
 
 func (d *dotsXY) add(x, y float64) { d.x, d.y = append(d.x, x), append(d.y, y) }
 
