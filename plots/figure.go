@@ -1,7 +1,6 @@
 package plots
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
 
@@ -9,7 +8,6 @@ import (
 	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
 
 	"spillway/plots/marks"
 )
@@ -190,18 +188,11 @@ func (g gridLines) Plot(c draw.Canvas, p *plot.Plot) {
 
 // PNG renders the figure at WidthPx × HeightPx.
 func (f *Figure) PNG() ([]byte, error) {
-	img := vgimg.NewWith(vgimg.UseWH(pageW, pageH), vgimg.UseDPI(dpi))
-	dc := draw.New(img)
-	dc.SetColor(color.White)
-	dc.Fill(dc.Rectangle.Path())
-	if err := f.draw(dc); err != nil {
-		return nil, err
+	b, err := marks.PNG(pageW, pageH, dpi, f.draw)
+	if err != nil {
+		return nil, fmt.Errorf("plots: render %s.png: %w", f.Name, err)
 	}
-	var buf bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
-		return nil, fmt.Errorf("plots: encode %s.png: %w", f.Name, err)
-	}
-	return buf.Bytes(), nil
+	return b, nil
 }
 
 const margin = 34 // page margin in points

@@ -1,7 +1,6 @@
 package chart
 
 import (
-	"bytes"
 	"fmt"
 	"image/color"
 	"math"
@@ -11,7 +10,6 @@ import (
 	"gonum.org/v1/plot/text"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
-	"gonum.org/v1/plot/vg/vgimg"
 
 	"spillway/plots"
 	"spillway/plots/marks"
@@ -83,18 +81,11 @@ func pathColor(path string) color.Color {
 func (f *Figure) PNG() ([]byte, error) {
 	w := vg.Length(widthPx) * vg.Inch / dpi
 	h := vg.Length(heightPx) * vg.Inch / dpi
-	img := vgimg.NewWith(vgimg.UseWH(w, h), vgimg.UseDPI(dpi))
-	dc := draw.New(img)
-	dc.SetColor(color.White)
-	dc.Fill(dc.Rectangle.Path())
-	if err := f.draw(dc); err != nil {
-		return nil, err
+	b, err := marks.PNG(w, h, dpi, f.draw)
+	if err != nil {
+		return nil, fmt.Errorf("chart: render validation.png: %w", err)
 	}
-	var buf bytes.Buffer
-	if _, err := (vgimg.PngCanvas{Canvas: img}).WriteTo(&buf); err != nil {
-		return nil, fmt.Errorf("chart: encode validation.png: %w", err)
-	}
-	return buf.Bytes(), nil
+	return b, nil
 }
 
 func (f *Figure) draw(dc draw.Canvas) error {
