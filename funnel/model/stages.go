@@ -61,7 +61,7 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 // channel directly (delta, lam2, K2, S2).
 func Outcome(sc *Scaled, o Options) (*Stage, error) {
 	st := outcomeBase("outcome", sc)
-	st.Regressors = append(st.Regressors, Regressor{Name: "gamma", X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
+	st.Regressors = append(st.Regressors, Regressor{Name: QueryCoef, X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
 	return finish(withChannels(st, sc, o), o)
 }

@@ -1,0 +1,241 @@
+package model
+
+import (
+	"fmt"
+
+	"spillway/funnel/transform"
+)
+
+// Layout is where each parameter of a stage sits in one of its constrained
+// draws (the order of Stage.Names). Every package outside this one reads a
+// draw through a Layout, by meaning (a channel's coefficient, gamma, sigma),
+// never by position or by a parameter name typed again.
+type Layout struct {
+	names     []string
+	intercept int
+	sigma     int
+	gamma     int   // -1 when the stage has no query term
+	regs      []int // position of Stage.Regressors[i]
+	scaling   []int // regressors whose coefficient scales with the response (all but gamma)
+	channels  []ChannelSlots
+	blocks    []Block
+}
+
+// ChannelSlots are the positions of one media channel's parameters. Lam, K
+// and S are -1 for a linear channel.
+type ChannelSlots struct {
+	Column         string // the data column, e.g. "video_spend"
+	Coef, Lam, K, S int
+}
+
+// Linear reports whether the channel has no carryover and no saturation.
+func (c ChannelSlots) Linear() bool { return c.Lam < 0 }
+
+// Block is a run of parameters that belong together: today every parameter
+// is a block of length 1; a coefficient per region or a multiplier per week
+// will be one block of many.
+type Block struct {
+	Name  string
+	Start int
+	Len   int
+}
+
+// Layout returns the stage's parameter layout.
+func (s *Stage) Layout() *Layout {
+	l := &Layout{names: s.Names(), gamma: -1}
+	k := 0
+	add := func() int {
+		l.blocks = append(l.blocks, Block{Name: l.names[k], Start: k, Len: 1})
+		k++
+		return k - 1
+	}
+	l.intercept = add()
+	for _, r := range s.Regressors {
+		i := add()
+		l.regs = append(l.regs, i)
+		if r.Name == QueryCoef {
+			l.gamma = i
+		} else {
+			l.scaling = append(l.scaling, i)
+		}
+	}
+	for _, c := range s.Channels {
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1}
+		if !c.Linear {
+			cs.Lam, cs.K, cs.S = add(), add(), add()
+		}
+		l.channels = append(l.channels, cs)
+	}
+	l.sigma = add()
+	return l
+}
+
+// QueryCoef is the name of the outcome stage's coefficient on branded
+// queries (gamma in DESIGN.md); only this package spells it.
+const QueryCoef = "gamma"
+
+// Len returns the number of constrained parameters in a draw.
+func (l *Layout) Len() int { return len(l.names) }
+
+// Names returns the parameter names in draw order (do not modify).
+func (l *Layout) Names() []string { return l.names }
+
+// Blocks returns the parameter blocks in draw order (do not modify).
+func (l *Layout) Blocks() []Block { return l.blocks }
+
+// HasGamma reports whether the stage has the query term.
+func (l *Layout) HasGamma() bool { return l.gamma >= 0 }
+
+// GammaSlot returns the position of gamma, or -1.
+func (l *Layout) GammaSlot() int { return l.gamma }
+
+// SigmaSlot returns the position of the noise scale.
+func (l *Layout) SigmaSlot() int { return l.sigma }
+
+// InterceptSlot returns the position of the intercept.
+func (l *Layout) InterceptSlot() int { return l.intercept }
+
+// Channels returns the slots of every channel in the stage's order (do not
+// modify).
+func (l *Layout) Channels() []ChannelSlots { return l.channels }
+
+// Channel returns the slots of the channel of data column col.
+func (l *Layout) Channel(col string) (ChannelSlots, bool) {
+	for _, c := range l.channels {
+		if c.Column == col {
+			return c, true
+		}
+	}
+	return ChannelSlots{}, false
+}
+
+// IsCoefficient reports whether position i holds gamma or a channel's
+// coefficient (alpha, delta or beta): the parameters whose calibration the
+// validation checks.
+func (l *Layout) IsCoefficient(i int) bool {
+	if i == l.gamma {
+		return true
+	}
+	for _, c := range l.channels {
+		if c.Coef == i {
+			return true
+		}
+	}
+	return false
+}
+
+// Check returns an error unless v has the layout's length.
+func (l *Layout) Check(v []float64) error {
+	if len(v) != len(l.names) {
+		return fmt.Errorf("model: a draw has %d values, the stage has %d parameters", len(v), len(l.names))
+	}
+	return nil
+}
+
+// View returns the named view of the draw v (not copied).
+func (l *Layout) View(v []float64) Params {
+	if len(v) != len(l.names) {
+		panic("model: draw length does not match the layout")
+	}
+	return Params{l: l, v: v}
+}
+
+// Params is a named view of one constrained draw of a stage.
+type Params struct {
+	l *Layout
+	v []float64
+}
+
+// Values returns the draw itself.
+func (p Params) Values() []float64 { return p.v }
+
+// Intercept returns the stage's intercept (mu in DESIGN.md).
+func (p Params) Intercept() float64 { return p.v[p.l.intercept] }
+
+// Sigma returns the stage's noise scale.
+func (p Params) Sigma() float64 { return p.v[p.l.sigma] }
+
+// Gamma returns the outcome stage's query coefficient, 0 when the stage has
+// none.
+func (p Params) Gamma() float64 {
+	if p.l.gamma < 0 {
+		return 0
+	}
+	return p.v[p.l.gamma]
+}
+
+// Regressor returns the coefficient of Stage.Regressors[i].
+func (p Params) Regressor(i int) float64 { return p.v[p.l.regs[i]] }
+
+// ChannelAt returns the parameters of the stage's j-th channel.
+func (p Params) ChannelAt(j int) Media {
+	c := p.l.channels[j]
+	m := Media{Coef: p.v[c.Coef], Linear: c.Linear()}
+	if !m.Linear {
+		m.Lam, m.K, m.S = p.v[c.Lam], p.v[c.K], p.v[c.S]
+	}
+	return m
+}
+
+// Channel returns the parameters of the channel of data column col.
+func (p Params) Channel(col string) (Media, bool) {
+	for j, c := range p.l.channels {
+		if c.Column == col {
+			return p.ChannelAt(j), true
+		}
+	}
+	return Media{}, false
+}
+
+// Rescaled returns a copy of the draw with every parameter that scales with
+// the stage's response (intercept, regressors, channel coefficients, sigma)
+// multiplied by k, gamma multiplied by kGamma, and the transform parameters
+// (retention, half-saturation, shape) unchanged: the same model in a
+// response scaled by k (and, for gamma, queries scaled by k/kGamma).
+func (p Params) Rescaled(k, kGamma float64) []float64 {
+	out := append([]float64(nil), p.v...)
+	out[p.l.intercept] *= k
+	for _, i := range p.l.scaling {
+		out[i] *= k
+	}
+	if p.l.gamma >= 0 {
+		out[p.l.gamma] *= kGamma
+	}
+	for _, c := range p.l.channels {
+		out[c.Coef] *= k
+	}
+	out[p.l.sigma] *= k
+	return out
+}
+
+// Media is one channel's parameters: the term Coef * H(adstock(x; Lam); K, S),
+// or Coef * x when Linear.
+type Media struct {
+	Coef, Lam, K, S float64
+	Linear          bool
+}
+
+// Response writes the coefficient-free response H(adstock(x; Lam); K, S) of
+// the spend series x (scaled units) into dst and returns it (x itself for a
+// linear channel); a dst too short is replaced.
+func (m Media) Response(dst, x []float64) []float64 {
+	dst = resizeTo(dst, len(x))
+	if m.Linear {
+		copy(dst, x)
+		return dst
+	}
+	transform.Adstock(dst, x, m.Lam)
+	for i, a := range dst {
+		dst[i] = transform.Hill(a, m.K, m.S)
+	}
+	return dst
+}
+
+// Steady returns the response to a constant weekly spend x held for ever:
+// normalised adstock then equals x, so it is H(x; K, S) (x when linear).
+func (m Media) Steady(x float64) float64 {
+	if m.Linear {
+		return x
+	}
+	return transform.Hill(x, m.K, m.S)
+}
