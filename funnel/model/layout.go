@@ -24,7 +24,7 @@ type Layout struct {
 // ChannelSlots are the positions of one media channel's parameters. Lam, K
 // and S are -1 for a linear channel.
 type ChannelSlots struct {
-	Column         string // the data column, e.g. "video_spend"
+	Column          string // the data column, e.g. "video_spend"
 	Coef, Lam, K, S int
 }
 
