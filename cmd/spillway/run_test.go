@@ -38,6 +38,9 @@ func TestDemoIsCommitted(t *testing.T) {
 // TestRunDemo runs the whole job on the demo and checks every file of the
 // fit folder exists and the table is printed.
 func TestRunDemo(t *testing.T) {
+	if testing.Short() {
+		t.Skip("end-to-end run of the demo; skipped with -short")
+	}
 	dir := filepath.Join(t.TempDir(), "out")
 	code, stdout, stderr := runCmd(t, append([]string{"run", "--out", dir}, quick...)...)
 	if code != 0 {
@@ -78,6 +81,9 @@ func TestRunDemo(t *testing.T) {
 // TestSameSeedSameBytes fits twice with the same seed, once on one core and
 // once on two, and requires identical draws and effects.
 func TestSameSeedSameBytes(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two end-to-end runs of the demo; skipped with -short")
+	}
 	var outs [2]string
 	for i, procs := range []int{1, 2} {
 		old := runtime.GOMAXPROCS(procs)

@@ -85,6 +85,9 @@ func pooled(t *testing.T, rep *Report, metric string) float64 {
 // calibrated model falls below the 0.1% lower tail for 90% intervals, or
 // outside the 0.1% tails for 50% intervals, once in 1000 sweeps.
 func TestCoverageHonest(t *testing.T) {
+	if testing.Short() {
+		t.Skip("coverage over replicate refits; skipped with -short")
+	}
 	const R = 8
 	in, truth := testScenario(t, 21)
 	in.Truth = truth
