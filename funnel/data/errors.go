@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // DataError is a problem with the input data (or with the spec that names its
@@ -47,7 +48,7 @@ func (e *DataError) Error() string {
 		b.WriteString(": ")
 	}
 	if e.Header != "" {
-		fmt.Fprintf(&b, "column %q: ", e.Header)
+		fmt.Fprintf(&b, "column %q: ", Excerpt(e.Header))
 	}
 	if e.Err != nil {
 		b.WriteString(e.Err.Error())
@@ -63,4 +64,23 @@ func (e *DataError) Unwrap() error { return e.Err }
 // errAt builds a located *DataError with a formatted message.
 func errAt(file string, line, col int, header, format string, args ...any) *DataError {
 	return &DataError{File: file, Line: line, Column: col, Header: header, Err: fmt.Errorf(format, args...)}
+}
+
+// excerptRunes is the most of a cell or name an error message quotes whole.
+const excerptRunes = 40
+
+// Excerpt returns s, or for a long s its first runes followed by "..." and
+// its length, so that a message never quotes a huge cell or header whole.
+func Excerpt(s string) string {
+	if utf8.RuneCountInString(s) <= excerptRunes {
+		return s
+	}
+	n, i := 0, 0
+	for i = range s {
+		if n == excerptRunes-8 {
+			break
+		}
+		n++
+	}
+	return fmt.Sprintf("%s... (%d bytes)", s[:i], len(s))
 }

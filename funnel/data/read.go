@@ -80,6 +80,8 @@ type parser struct {
 	ord     []int // positions in cols sorted by file column
 	regions []*builder
 	byName  map[string]*builder
+	// caseTwins are header names that differ only in case, in file order.
+	caseTwins [][2]string
 }
 
 // builder collects the rows of one region.
@@ -256,6 +258,7 @@ func (p *parser) header(header []string, line int) error {
 		}
 		first[h] = j
 	}
+	p.caseTwins = caseTwins(names)
 	p.cols = p.spec.columns()
 	p.idx = make([]int, len(p.cols))
 	for i, c := range p.cols {
@@ -265,7 +268,7 @@ func (p *parser) header(header []string, line int) error {
 			hint := ""
 			for _, h := range names {
 				if strings.EqualFold(h, name) || strings.EqualFold(strings.ReplaceAll(h, " ", "_"), strings.ReplaceAll(name, " ", "_")) {
-					hint = fmt.Sprintf(" (did you mean %q?)", h)
+					hint = fmt.Sprintf(" (did you mean %q?)", Excerpt(h))
 					break
 				}
 			}
@@ -290,7 +293,7 @@ func listNames(names []string) string {
 			q = append(q, fmt.Sprintf("and %d more", len(names)-most))
 			break
 		}
-		q = append(q, strconv.Quote(n))
+		q = append(q, strconv.Quote(Excerpt(n)))
 	}
 	return strings.Join(q, ", ")
 }
@@ -328,7 +331,7 @@ func (p *parser) row(rec []string, line int) error {
 			}
 			d, err := time.Parse(DateLayout, cell)
 			if err != nil {
-				return at("%q is not a date; expected YYYY-MM-DD, like 2024-01-01", cell)
+				return at("%q is not a date; expected YYYY-MM-DD, like 2024-01-01", Excerpt(cell))
 			}
 			date = d
 		case roleRegion:
@@ -375,7 +378,7 @@ func (p *parser) row(rec []string, line int) error {
 	if p.spec.Population != "" && pop != b.pop {
 		j := p.idx[p.colOf(rolePopulation)]
 		return p.errAt(line, j+1, strings.TrimSpace(p.spec.Population), "population %s of region %q differs from %s on line %d; expected the same population in every row of a region",
-			fmtNum(pop), region, fmtNum(b.pop), b.popLine)
+			fmtNum(pop), Excerpt(region), fmtNum(b.pop), b.popLine)
 	}
 	b.weeks = append(b.weeks, date)
 	b.lines = append(b.lines, line)
@@ -401,7 +404,7 @@ func (p *parser) checkOrder(b *builder) *DataError {
 	name := strings.TrimSpace(p.spec.Date)
 	of := ""
 	if p.spec.Region != "" {
-		of = fmt.Sprintf(" of region %q", b.name)
+		of = fmt.Sprintf(" of region %q", Excerpt(b.name))
 	}
 	first := map[time.Time]int{}
 	for t, date := range b.weeks {
@@ -443,7 +446,7 @@ func (p *parser) checkGaps(b *builder) *DataError {
 	name := strings.TrimSpace(p.spec.Date)
 	of := ""
 	if p.spec.Region != "" {
-		of = fmt.Sprintf(" of region %q", b.name)
+		of = fmt.Sprintf(" of region %q", Excerpt(b.name))
 	}
 	for t := 1; t < len(b.weeks); t++ {
 		last, date := b.weeks[t-1], b.weeks[t]
@@ -489,12 +492,12 @@ func (p *parser) finish() (*Dataset, error) {
 	for _, b := range p.regions[1:] {
 		if !b.weeks[0].Equal(ref.weeks[0]) {
 			return nil, p.errAt(b.firstLine, dateCol, dateName, "region %q starts on %s but region %q starts on %s; expected every region to cover the same weeks",
-				b.name, b.weeks[0].Format(DateLayout), ref.name, ref.weeks[0].Format(DateLayout))
+				Excerpt(b.name), b.weeks[0].Format(DateLayout), Excerpt(ref.name), ref.weeks[0].Format(DateLayout))
 		}
 		if len(b.weeks) != len(ref.weeks) {
 			n := len(b.weeks)
 			return nil, p.errAt(b.lines[n-1], dateCol, dateName, "region %q ends on %s but region %q ends on %s; expected every region to cover the same weeks",
-				b.name, b.weeks[n-1].Format(DateLayout), ref.name, ref.weeks[len(ref.weeks)-1].Format(DateLayout))
+				Excerpt(b.name), b.weeks[n-1].Format(DateLayout), Excerpt(ref.name), ref.weeks[len(ref.weeks)-1].Format(DateLayout))
 		}
 	}
 	n := len(ref.weeks)
@@ -523,6 +526,25 @@ func (p *parser) finish() (*Dataset, error) {
 			if zero {
 				return nil, p.errAt(1, col, name, "spend is zero in every week; a channel without spend cannot be estimated; drop it from %s", roleInfo[c.role].flag)
 			}
+		case roleQueries, roleOutcome:
+			// A fit divides each series by its mean and explains its
+			// movements: a series that never moves (zero included) has
+			// nothing to explain, and would only make the sampler wander.
+			for _, b := range p.regions {
+				v := b.vals[k]
+				if slices.Min(v) != slices.Max(v) {
+					continue
+				}
+				in := ""
+				if p.spec.Region != "" {
+					in = fmt.Sprintf(" of region %q", Excerpt(b.name))
+				}
+				what := roleInfo[c.role].what
+				if v[0] == 0 {
+					return nil, p.errAt(1, col, name, "the %s is zero in every week%s; expected the series the model explains (%s), which must vary", what, in, roleInfo[c.role].flag)
+				}
+				return nil, p.errAt(1, col, name, "the %s has the same value (%s) in every week%s; a series that never moves says nothing about media effects; expected the real weekly %s", what, fmtNum(v[0]), in, what)
+			}
 		case roleControl:
 			for _, b := range p.regions {
 				v := b.vals[k]
@@ -536,7 +558,7 @@ func (p *parser) finish() (*Dataset, error) {
 				if constant {
 					in := ""
 					if p.spec.Region != "" {
-						in = fmt.Sprintf(" of region %q", b.name)
+						in = fmt.Sprintf(" of region %q", Excerpt(b.name))
 					}
 					return nil, p.errAt(1, col, name, "the control has the same value (%s) in every week%s; a constant control cannot be told apart from the baseline; drop it from --controls", fmtNum(v[0]), in)
 				}
@@ -584,6 +606,18 @@ func (p *parser) finish() (*Dataset, error) {
 		}
 	}
 	d.Warnings = warnings(d)
+	for _, tw := range p.caseTwins {
+		d.Warnings = append(d.Warnings, Warning{KindNames, tw[0] + "," + tw[1],
+			fmt.Sprintf("columns %q and %q differ only in case; check that the flags name the one you mean", Excerpt(tw[0]), Excerpt(tw[1]))})
+	}
+	regions := make([]string, len(d.Regions))
+	for i, r := range d.Regions {
+		regions[i] = r.Name
+	}
+	for _, tw := range caseTwins(regions) {
+		d.Warnings = append(d.Warnings, Warning{KindNames, p.spec.Region,
+			fmt.Sprintf("regions %q and %q differ only in case; they are fitted as two regions; if they are one, spell them alike", Excerpt(tw[0]), Excerpt(tw[1]))})
+	}
 	return d, nil
 }
 
@@ -596,16 +630,16 @@ func parseNumber(cell string) (float64, string) {
 	case "":
 		return 0, "empty cell; expected a number"
 	case "nan", "+nan", "-nan", "inf", "+inf", "-inf", "infinity", "+infinity", "-infinity":
-		return 0, fmt.Sprintf("%q is not a finite number; %s", cell, want)
+		return 0, fmt.Sprintf("%q is not a finite number; %s", Excerpt(cell), want)
 	case "na", "n/a", "null", "none", "nil", "missing", "-":
-		return 0, fmt.Sprintf("%q marks a missing value; expected a number in every week", cell)
+		return 0, fmt.Sprintf("%q marks a missing value; expected a number in every week", Excerpt(cell))
 	}
 	if !plainDecimal(cell) {
-		return 0, fmt.Sprintf("%q is not a number; %s", cell, want)
+		return 0, fmt.Sprintf("%q is not a number; %s", Excerpt(cell), want)
 	}
 	v, err := strconv.ParseFloat(cell, 64)
 	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
-		return 0, fmt.Sprintf("%q is out of range; %s", cell, want)
+		return 0, fmt.Sprintf("%q is out of range; %s", Excerpt(cell), want)
 	}
 	return v, ""
 }

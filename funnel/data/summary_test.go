@@ -51,7 +51,9 @@ func TestSummarize(t *testing.T) {
 	if r := s.Correlation[0][2]; math.Abs(r-1) > 1e-12 || s.Correlation[2][0] != r || s.Correlation[1][1] != 1 {
 		t.Errorf("correlation video/search: got %v", r)
 	}
-	if len(s.Warnings) != 1 || s.Warnings[0].Kind != KindCollinear || s.Warnings[0].Column != "video,search" {
+	// audio spends 100 in 54 of 60 weeks: flat (90% of weeks at one value)
+	if len(s.Warnings) != 2 || s.Warnings[0].Kind != KindCollinear || s.Warnings[0].Column != "video,search" ||
+		s.Warnings[1].Kind != KindFlat || s.Warnings[1].Column != "audio" {
 		t.Errorf("warnings: got %v", s.Warnings)
 	}
 
@@ -67,7 +69,8 @@ func TestSummarize(t *testing.T) {
 		"zero weeks",
 		"16.5%", // 1830 / 11070
 		"Correlation of weekly spend:",
-		"Warnings: 1\n  collinear: spend on \"video\" and \"search\" is nearly collinear (correlation 1.00)",
+		"Warnings: 2\n  collinear: spend on \"video\" and \"search\" is nearly collinear (correlation 1.00)",
+		"flat: \"audio\" hardly moves (90% of weeks at 100)",
 	} {
 		if !strings.Contains(text, want) {
 			t.Errorf("text lacks %q:\n%s", want, text)

@@ -23,6 +23,11 @@ const (
 	// standard deviations (1.4826 median absolute deviations) from the
 	// column's median (per region); spend is judged on the log scale.
 	KindOutlier = "outlier"
+	// KindFlat marks a spend column that hardly moves: at least FlatShare of
+	// the weeks at one value, or a coefficient of variation below FlatCV.
+	KindFlat = "flat"
+	// KindNames marks column or region names that differ only in case.
+	KindNames = "names"
 )
 
 // Thresholds of the warnings (common practice, not estimated).
@@ -30,6 +35,8 @@ const (
 	CollinearLimit = 0.9
 	SparseShare    = 0.10
 	OutlierSDs     = 5.0
+	FlatShare      = 0.9
+	FlatCV         = 0.05
 	// madToSD turns a median absolute deviation into a standard deviation
 	// for normal data (1/Phi^-1(3/4); common practice).
 	madToSD = 1.4826
@@ -72,6 +79,12 @@ func warnings(d *Dataset) []Warning {
 		if float64(nz) < SparseShare*float64(n) {
 			ws = append(ws, Warning{KindSparse, names[i],
 				fmt.Sprintf("%q has spend in only %d of %d weeks (under %.0f%%); its effect rests on few weeks", names[i], nz, n, 100*SparseShare)})
+		}
+	}
+	for i, x := range media {
+		if at, share, flat := flatSeries(x); flat {
+			ws = append(ws, Warning{KindFlat, names[i],
+				fmt.Sprintf("%q hardly moves (%.0f%% of weeks at %s); the data can hardly tell its effect from the baseline, so its estimate will mostly repeat the prior", names[i], 100*share, strconv.FormatFloat(at, 'g', 6, 64))})
 		}
 	}
 	if len(d.Regions) > 1 {
@@ -185,4 +198,41 @@ func median(x []float64) float64 {
 		return s[n/2]
 	}
 	return (s[n/2-1] + s[n/2]) / 2
+}
+
+// flatSeries reports whether x hardly moves: at least FlatShare of its
+// values equal to one non-zero value (the most common value at, with its
+// share), or a coefficient of variation below FlatCV.
+func flatSeries(x []float64) (at, share float64, flat bool) {
+	count := map[float64]int{}
+	best := 0
+	for _, v := range x {
+		count[v]++
+		if c := count[v]; c > best || c == best && v < at {
+			best, at = c, v
+		}
+	}
+	share = float64(best) / float64(len(x))
+	m, sd := stat.MeanStdDev(x, nil)
+	// mostly zero is sparse spend, warned about as such
+	return at, share, at != 0 && share >= FlatShare || m > 0 && sd/m < FlatCV
+}
+
+// caseTwins returns the pairs of distinct names that are equal apart from
+// case, in order of first appearance.
+func caseTwins(names []string) [][2]string {
+	seen := map[string]string{}
+	var out [][2]string
+	for _, n := range names {
+		if n == "" {
+			continue
+		}
+		k := strings.ToLower(n)
+		if first, ok := seen[k]; ok && first != n {
+			out = append(out, [2]string{first, n})
+			continue
+		}
+		seen[k] = n
+	}
+	return out
 }

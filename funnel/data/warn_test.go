@@ -1,10 +1,13 @@
 package data
 
 import (
+	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
+	"time"
 )
 
 func TestWarnings(t *testing.T) {
@@ -95,5 +98,48 @@ func TestOutlierThreshold(t *testing.T) {
 	}
 	if _, ok := outliers("s", "", append(s, 1e4), weeks, true); !ok {
 		t.Error("spend 1e4 not flagged among 1..10 on the log scale")
+	}
+}
+
+// TestFlatAndCaseWarnings: a spend column at one value in all weeks but one
+// is flat (its effect would repeat the prior); column and region names that
+// differ only in case are named; a flighted column (on/off) is not flat.
+// Flatness is judged on the national series (two regions: 2 x 30000).
+func TestFlatAndCaseWarnings(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("week,region,Video,video,audio,search,queries,sales\n")
+	for i := range 60 {
+		wk := time.Date(2023, 1, 2, 0, 0, 0, 0, time.UTC).AddDate(0, 0, 7*i).Format(DateLayout)
+		for g, r := range []string{"North", "north"} {
+			x := float64(i)
+			video := 30000.0
+			if i == 17 {
+				video = 12000
+			}
+			audio := 0.0
+			if (i/4)%2 == 0 {
+				audio = 5000 // flighted: on four weeks, off four
+			}
+			fmt.Fprintf(&b, "%s,%s,%g,%g,%g,%g,%g,%g\n", wk, r, 1+x, video, audio, 800+100*math.Sin(x/3)+float64(g), 5000+300*math.Cos(x/5), 2000+100*math.Sin(x/7))
+		}
+	}
+	spec := Spec{Date: "week", Region: "region", Upper: []string{"video", "audio"}, Search: []string{"search"}, Queries: "queries", Outcome: "sales"}
+	d, err := Read(strings.NewReader(b.String()), "data.csv", spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, w := range d.Warnings {
+		if w.Kind == KindFlat || w.Kind == KindNames {
+			got = append(got, w.String())
+		}
+	}
+	want := []string{
+		`flat: "video" hardly moves (98% of weeks at 60000); the data can hardly tell its effect from the baseline, so its estimate will mostly repeat the prior`,
+		`names: columns "Video" and "video" differ only in case; check that the flags name the one you mean`,
+		`names: regions "North" and "north" differ only in case; they are fitted as two regions; if they are one, spell them alike`,
+	}
+	if !slices.Equal(got, want) {
+		t.Errorf("warnings:\n got %q\nwant %q", got, want)
 	}
 }
