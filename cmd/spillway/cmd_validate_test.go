@@ -69,7 +69,7 @@ func TestValidateShardsMergeToTheSameBytes(t *testing.T) {
 			t.Errorf("%s: the merged shards differ from the whole run (%v)", e.Name(), err)
 		}
 	}
-	if got := strings.Join(names, " "); got != "jobs.csv manifest.json validation.csv validation.png verdict.txt" {
+	if got := strings.Join(names, " "); got != ".spillway.json jobs.csv manifest.json validation.csv validation.png verdict.txt" {
 		t.Errorf("files %s", got)
 	}
 	table, _ := os.ReadFile(filepath.Join(whole, "validation.csv"))

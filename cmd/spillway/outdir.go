@@ -1,13 +1,16 @@
 package main
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"io/fs"
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
+	"syscall"
 )
 
 // outDir is an output folder written atomically: everything goes into a
@@ -26,8 +29,13 @@ type outDir struct {
 	tmp     string   // the temporary sibling being written
 	force   bool     // replace an existing final folder on Commit
 	made    []string // parent folders created by newOutDir, deepest first
+	dropped []string // spillway output folders inside final that Commit removes with it
 	settled bool     // Commit or Abort has run
 }
+
+// Dropped returns the output folders of earlier spillway commands inside
+// the folder being replaced (such as its validation), which go with it.
+func (o *outDir) Dropped() []string { return o.dropped }
 
 // newOutDir prepares an atomic output folder at path. Without force an
 // existing path is a usage error, reported here, before any work starts;
@@ -35,11 +43,18 @@ type outDir struct {
 // an error either way). Missing parent folders are created (and removed
 // again by Abort). The temporary folder is ".NAME.tmp-XXXX" in the same
 // parent, so that Commit is a rename within one file system.
-func newOutDir(path string, force bool) (*outDir, error) {
+//
+// With force, only a folder that spillway wrote is replaced: it must carry
+// spillway's marker, hold no file that spillway did not write, and not hold
+// any of inputs (the files the command reads); otherwise newOutDir refuses
+// with a usage error that says why. Output folders that spillway wrote
+// inside it (a validation folder, say) go with it; Dropped names them.
+func newOutDir(path string, force bool, inputs ...string) (*outDir, error) {
 	if path == "" {
 		return nil, usagef("no output folder given; name one with --out")
 	}
 	final := filepath.Clean(path)
+	var dropped []string
 	if fi, err := os.Stat(final); err == nil {
 		switch {
 		case !fi.IsDir():
@@ -47,10 +62,13 @@ func newOutDir(path string, force bool) (*outDir, error) {
 		case !force:
 			return nil, usagef("output folder %s already exists; use --force to replace it", final)
 		}
+		if dropped, err = replaceable(final, inputs); err != nil {
+			return nil, err
+		}
 	} else if !errors.Is(err, fs.ErrNotExist) {
 		return nil, err
 	}
-	o := &outDir{final: final, force: force}
+	o := &outDir{final: final, force: force, dropped: dropped}
 	parent := filepath.Dir(final)
 	for p := parent; ; p = filepath.Dir(p) {
 		if _, err := os.Stat(p); err == nil {
@@ -65,7 +83,8 @@ func newOutDir(path string, force bool) (*outDir, error) {
 		o.removeMade()
 		return nil, fmt.Errorf("cannot create the output folder's parent: %w", err)
 	}
-	tmp, err := os.MkdirTemp(parent, "."+filepath.Base(final)+".tmp-")
+	removeStale(parent, filepath.Base(final))
+	tmp, err := os.MkdirTemp(parent, tmpPrefix(filepath.Base(final))+strconv.Itoa(os.Getpid())+"-")
 	if err != nil {
 		o.removeMade()
 		return nil, fmt.Errorf("cannot create a temporary output folder: %w", err)
@@ -100,6 +119,10 @@ func (o *outDir) WriteFile(name string, data []byte) error {
 func (o *outDir) Commit() error {
 	if o.settled {
 		panic("spillway: outDir committed or aborted twice")
+	}
+	if err := writeMarker(o.tmp); err != nil {
+		o.Abort()
+		return err
 	}
 	if err := os.Chmod(o.tmp, 0o755); err != nil {
 		o.Abort()
@@ -188,6 +211,21 @@ func updateInPlace(dir string, files map[string][]byte) (err error) {
 		names = append(names, n)
 	}
 	slices.Sort(names)
+	if m, err := readMarker(dir); err == nil {
+		// the folder is spillway's: record the new files in its marker
+		for _, n := range names {
+			if !slices.Contains(m.Files, n) {
+				m.Files = append(m.Files, n)
+			}
+		}
+		slices.Sort(m.Files)
+		b, err := json.MarshalIndent(m, "", "  ")
+		if err != nil {
+			return err
+		}
+		files[markerName] = append(b, '\n')
+		names = append(names, markerName)
+	}
 	targets := make([]string, len(names))
 	for i, n := range names {
 		p, err := within(dir, n)
@@ -251,4 +289,166 @@ func updateInPlace(dir string, files map[string][]byte) (err error) {
 	}
 	temps = nil
 	return nil
+}
+
+// markerName is the file by which spillway recognises a folder it wrote.
+// It lists every file written there, so that --force can tell spillway's
+// output from anything a user put beside it.
+const markerName = ".spillway.json"
+
+type marker struct {
+	WrittenBy string   `json:"written_by"`
+	Files     []string `json:"files"` // slash-separated, relative, sorted
+}
+
+// writeMarker lists the files under dir (except nested output folders,
+// which carry their own marker) into dir's marker.
+func writeMarker(dir string) error {
+	m := marker{WrittenBy: "spillway", Files: []string{}}
+	err := filepath.WalkDir(dir, func(p string, d fs.DirEntry, err error) error {
+		if err != nil {
+			return err
+		}
+		if d.IsDir() {
+			if p != dir && hasMarker(p) {
+				return filepath.SkipDir
+			}
+			return nil
+		}
+		rel, err := filepath.Rel(dir, p)
+		if err != nil {
+			return err
+		}
+		m.Files = append(m.Files, filepath.ToSlash(rel))
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	slices.Sort(m.Files)
+	b, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return err
+	}
+	return os.WriteFile(filepath.Join(dir, markerName), append(b, '\n'), 0o644)
+}
+
+func readMarker(dir string) (*marker, error) {
+	b, err := os.ReadFile(filepath.Join(dir, markerName))
+	if err != nil {
+		return nil, err
+	}
+	var m marker
+	if err := json.Unmarshal(b, &m); err != nil || m.WrittenBy != "spillway" {
+		return nil, fmt.Errorf("%s is not spillway's marker", filepath.Join(dir, markerName))
+	}
+	return &m, nil
+}
+
+func hasMarker(dir string) bool {
+	_, err := readMarker(dir)
+	return err == nil
+}
+
+// replaceable checks that --force may replace the existing folder dir: it
+// carries spillway's marker, every file in it is one spillway wrote (in
+// dir or in a nested output folder with its own marker), and none of
+// inputs lies inside it. It returns the nested output folders.
+func replaceable(dir string, inputs []string) ([]string, error) {
+	absDir, err := filepath.Abs(dir)
+	if err != nil {
+		return nil, err
+	}
+	for _, in := range inputs {
+		if in == "" {
+			continue
+		}
+		abs, err := filepath.Abs(in)
+		if err != nil {
+			return nil, err
+		}
+		if rel, err := filepath.Rel(absDir, abs); err == nil && rel != ".." && !strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+			return nil, usagef("--force would delete %s, an input of this command, which lies inside the output folder %s; choose another --out", in, dir)
+		}
+	}
+	var foreign, nested []string
+	var walk func(d string) error
+	walk = func(d string) error {
+		m, err := readMarker(d)
+		if err != nil {
+			if d == dir {
+				return usagef("--force replaces only a folder that spillway wrote, and %s has no spillway marker (%s); remove it yourself or choose another --out", dir, markerName)
+			}
+			return nil
+		}
+		if d != dir {
+			nested = append(nested, d)
+		}
+		return filepath.WalkDir(d, func(p string, e fs.DirEntry, err error) error {
+			if err != nil {
+				return err
+			}
+			if e.IsDir() {
+				if p != d && hasMarker(p) {
+					if err := walk(p); err != nil {
+						return err
+					}
+					return filepath.SkipDir
+				}
+				return nil
+			}
+			rel, _ := filepath.Rel(d, p)
+			rel = filepath.ToSlash(rel)
+			if rel != markerName && !slices.Contains(m.Files, rel) {
+				foreign = append(foreign, p)
+			}
+			return nil
+		})
+	}
+	if err := walk(dir); err != nil {
+		return nil, err
+	}
+	if len(foreign) > 0 {
+		shown := foreign
+		more := ""
+		if len(shown) > 5 {
+			shown, more = shown[:5], fmt.Sprintf(" and %d more", len(foreign)-5)
+		}
+		return nil, usagef("--force would delete files that spillway did not write in %s: %s%s; move them out or choose another --out", dir, strings.Join(shown, ", "), more)
+	}
+	return nested, nil
+}
+
+// tmpPrefix is the name prefix of the temporary folders of output name; the
+// creating process's id follows it, so that a later run can remove the
+// folders of runs that were killed.
+func tmpPrefix(name string) string { return "." + name + ".tmp-" }
+
+// removeStale removes temporary output folders of name in parent whose
+// process is gone (killed before it could clean up).
+func removeStale(parent, name string) {
+	es, err := os.ReadDir(parent)
+	if err != nil {
+		return
+	}
+	prefix := tmpPrefix(name)
+	for _, e := range es {
+		rest, ok := strings.CutPrefix(e.Name(), prefix)
+		if !ok || !e.IsDir() {
+			continue
+		}
+		pid, _, ok := strings.Cut(rest, "-")
+		n, err := strconv.Atoi(pid)
+		if !ok || err != nil || n <= 0 || alive(n) {
+			continue
+		}
+		_ = os.RemoveAll(filepath.Join(parent, e.Name()))
+	}
+}
+
+// alive reports whether process pid exists (signal 0 checks without
+// sending); when unsure it says yes, so nothing live is removed.
+func alive(pid int) bool {
+	err := syscall.Kill(pid, 0)
+	return err == nil || !errors.Is(err, syscall.ESRCH)
 }

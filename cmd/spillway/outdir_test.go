@@ -3,9 +3,11 @@ package main
 import (
 	"context"
 	"errors"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -45,10 +47,7 @@ func TestOutDirExisting(t *testing.T) {
 	parent := t.TempDir()
 	final := filepath.Join(parent, "out")
 	writeFileIn(t, parent, "file", "x")
-	if err := os.Mkdir(final, 0o755); err != nil {
-		t.Fatal(err)
-	}
-	writeFileIn(t, final, "old.csv", "old")
+	writeOutput(t, final, "old.csv")
 
 	// Without force: refused up front, as a usage error.
 	_, err := newOutDir(final, false)
@@ -73,8 +72,8 @@ func TestOutDirExisting(t *testing.T) {
 	if err := od.Commit(); err != nil {
 		t.Fatal(err)
 	}
-	if names := dirNames(t, final); !slices.Equal(names, []string{"new.csv"}) {
-		t.Errorf("replaced folder holds %v, want [new.csv]", names)
+	if names := dirNames(t, final); !slices.Equal(names, []string{markerName, "new.csv"}) {
+		t.Errorf("replaced folder holds %v, want [%s new.csv]", names, markerName)
 	}
 	if names := dirNames(t, parent); !slices.Equal(names, []string{"file", "out"}) {
 		t.Errorf("parent holds %v", names)
@@ -192,5 +191,92 @@ func TestUpdateInPlace(t *testing.T) {
 	}
 	if err := updateInPlace(filepath.Join(dir, "none"), map[string][]byte{"a": nil}); err == nil {
 		t.Error("a missing folder was accepted")
+	}
+}
+
+// writeOutput writes an output folder at dir holding files, as a spillway
+// command would (with its marker).
+func writeOutput(t *testing.T, dir string, files ...string) {
+	t.Helper()
+	od, err := newOutDir(dir, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, f := range files {
+		if err := od.WriteFile(f, []byte(f)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if err := od.Commit(); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestForceOnlyReplacesOwnOutput: --force refuses (exit 2, nothing
+// changed) a folder without spillway's marker, one holding a file spillway
+// did not write, and one holding an input of the command; it replaces a
+// folder of its own, nested output folders (a validation) included, which
+// Dropped names; files added in place by later steps count as its own.
+func TestForceOnlyReplacesOwnOutput(t *testing.T) {
+	parent := t.TempDir()
+	plain := filepath.Join(parent, "plain")
+	writeFileIn(t, plain, "sales.csv", "x")
+	writeFileIn(t, plain, "notes.txt", "y")
+	if _, err := newOutDir(plain, true); err == nil || exitCode(context.Background(), err) != exitUsage || !strings.Contains(err.Error(), "has no spillway marker") {
+		t.Errorf("folder without marker: got %v", err)
+	}
+	if names := dirNames(t, plain); !slices.Equal(names, []string{"notes.txt", "sales.csv"}) {
+		t.Errorf("refused folder now holds %v", names)
+	}
+
+	run := filepath.Join(parent, "run")
+	writeOutput(t, run, "effects.csv", "charts/split.png")
+	if err := updateInPlace(run, map[string][]byte{"report.html": []byte("r")}); err != nil {
+		t.Fatal(err)
+	}
+	writeOutput(t, filepath.Join(run, "validation"), "verdict.txt")
+	od, err := newOutDir(run, true)
+	if err != nil {
+		t.Fatalf("own folder with a step's file and a nested validation: %v", err)
+	}
+	if got := od.Dropped(); len(got) != 1 || got[0] != filepath.Join(run, "validation") {
+		t.Errorf("Dropped = %v", got)
+	}
+	od.Abort()
+
+	writeFileIn(t, filepath.Join(run, "charts"), "mine.png", "z")
+	_, err = newOutDir(run, true)
+	if err == nil || exitCode(context.Background(), err) != exitUsage || !strings.Contains(err.Error(), "files that spillway did not write") || !strings.Contains(err.Error(), "mine.png") {
+		t.Errorf("own folder with a foreign file: got %v", err)
+	}
+	if err := os.Remove(filepath.Join(run, "charts", "mine.png")); err != nil {
+		t.Fatal(err)
+	}
+	_, err = newOutDir(run, true, filepath.Join(run, "effects.csv"))
+	if err == nil || !strings.Contains(err.Error(), "an input of this command, which lies inside the output folder") {
+		t.Errorf("input inside: got %v", err)
+	}
+}
+
+// TestStaleTempRemoved: a temporary folder left by a killed run (its
+// process gone) is removed by the next run into the same parent; one of a
+// live process is kept.
+func TestStaleTempRemoved(t *testing.T) {
+	parent := t.TempDir()
+	dead := filepath.Join(parent, tmpPrefix("out")+"999999999-123")
+	live := filepath.Join(parent, tmpPrefix("out")+strconv.Itoa(os.Getpid())+"-456")
+	for _, d := range []string{dead, live} {
+		writeFileIn(t, d, "draws.csv", "partial")
+	}
+	od, err := newOutDir(filepath.Join(parent, "out"), false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer od.Abort()
+	if _, err := os.Stat(dead); !errors.Is(err, fs.ErrNotExist) {
+		t.Errorf("stale temporary folder still there (%v)", err)
+	}
+	if _, err := os.Stat(live); err != nil {
+		t.Errorf("a live run's temporary folder was removed: %v", err)
 	}
 }
