@@ -11,8 +11,8 @@ type normalLik struct {
 	sigma int    // position of sigma
 }
 
-func newNormalLik(y []float64, mask []bool, sigma int) normalLik {
-	o := normalLik{y: y, mask: mask, nObs: len(y), sigma: sigma}
+func newNormalLik(y []float64, mask []bool, sigma int) *normalLik {
+	o := &normalLik{y: y, mask: mask, nObs: len(y), sigma: sigma}
 	for _, m := range mask {
 		if m {
 			o.nObs--

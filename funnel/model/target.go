@@ -16,7 +16,7 @@ type Target struct {
 	mu      int
 	sigma   int
 	terms   []predictor // the linear predictor's terms: regressors, then channels
-	lik     normalLik   // the observation term
+	lik     observation // the weekly likelihood
 	centred bool
 	plain   bool
 

@@ -39,7 +39,19 @@ type predictor interface {
 	clone() predictor
 }
 
+// observation is a likelihood term of the linear predictor: the weekly
+// normal likelihood (normalLik). A lift test is not one: it observes a
+// channel's summed effect, a function of parameters of both stages, so it is
+// a CrossTerm of a Joint target.
+type observation interface {
+	// logLik returns the log likelihood at the linear predictor n, writes
+	// w[t] = d lp/d n[t] and returns sum_t w[t]; with grad it adds its
+	// gradient with respect to its own parameters (sigma) to g.
+	logLik(w, n, nat, g []float64, grad bool) (lp, sw float64)
+}
+
 var (
-	_ predictor = (*regressorTerm)(nil)
-	_ predictor = (*channelTerm)(nil)
+	_ predictor   = (*regressorTerm)(nil)
+	_ predictor   = (*channelTerm)(nil)
+	_ observation = (*normalLik)(nil)
 )
