@@ -17,8 +17,9 @@ type channelTerm struct {
 	x                      []float64
 	linear, plain          bool
 	centred                bool
-	abar                   float64 // mean scaled spend: the reference level of the coefficient
-	xbar                   float64 // mean(x), the centring constant of a linear channel
+	// mean scaled spend: the reference level of the coefficient, and the
+	// centring constant of a linear channel
+	abar float64
 	// scratch, len(x): adstock and its derivative in lam; the response and
 	// its derivatives in lam, K and S
 	a, da, h, hl, hk, hs      []float64
@@ -28,7 +29,7 @@ type channelTerm struct {
 
 func newChannelTerm(c *Channel, k []int, par []param, plain, centred bool) *channelTerm {
 	ch := &channelTerm{k: k, x: c.X, linear: c.Linear, plain: plain, centred: centred,
-		abar: mean(c.X), xbar: mean(c.X), coefFree: par[k[0]].free, coefReal: par[k[0]].sup == Real, kFree: -1, sFree: -1}
+		abar: mean(c.X), coefFree: par[k[0]].free, coefReal: par[k[0]].sup == Real, kFree: -1, sFree: -1}
 	if !c.Linear {
 		ch.kFree, ch.sFree = par[k[2]].free, par[k[3]].free
 		ch.alloc()
@@ -58,7 +59,7 @@ func (c *channelTerm) prepare(nat []float64, grad bool) bool {
 			c.href = c.abar
 		}
 		c.hrefK, c.hrefS = 0, 0
-		c.hbar = c.xbar
+		c.hbar = c.abar
 	case grad:
 		c.series(nat[c.k[1]], nat[c.k[2]], nat[c.k[3]])
 	default:
@@ -222,7 +223,7 @@ func (c *channelTerm) pullback(grad, g, nat []float64, lp float64) float64 {
 // natural values v into dst and returns coef * hbar, what the centred
 // intercept adds back (0 when not centred).
 func (c *channelTerm) unconstrain(dst, v []float64, par []param) float64 {
-	href, hbar := c.abar, c.xbar
+	href, hbar := c.abar, c.abar
 	if !c.linear {
 		a := transform.Adstock(nil, c.x, v[c.k[1]])
 		s := 0.0

@@ -1,12 +1,14 @@
 package model
 
 import (
+	"context"
 	"math"
 	"math/rand/v2"
 	"slices"
 	"strings"
 	"testing"
 
+	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/mcmctest"
 )
 
@@ -172,5 +174,25 @@ func TestLiftTestTerm(t *testing.T) {
 		}}
 		mcmctest.CheckGradient(t, f, 1e-7, termGrad)
 		mcmctest.CheckNoAlloc(t, f, make([]float64, len(slots)))
+	}
+}
+
+// TestJointRuns checks that the sampler runs a joint target with a lift test
+// and writes one column per name of both stages.
+func TestJointRuns(t *testing.T) {
+	if testing.Short() {
+		t.Skip("a short sampler run")
+	}
+	st, lift := liftStages(testScaled(70, 9), Options{})
+	j, err := NewJoint(st, lift)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fit, err := mcmc.Run(context.Background(), j, &mcmc.Settings{Chains: 2, Warmup: 150, Draws: 50, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r, c := fit.Chains[1].Draws.Dims(); r != 50 || c != len(j.Names()) || !slices.Equal(fit.Names, j.Names()) {
+		t.Errorf("draws %d x %d, names %v", r, c, fit.Names)
 	}
 }
