@@ -54,3 +54,33 @@ func (b Bounded) LogJacGrad(u float64) float64 { return Unit{}.LogJacGrad(u) }
 func (b Bounded) Unconstrain(x float64) float64 {
 	return Unit{}.Unconstrain((x - b.Lo) / (b.Hi - b.Lo))
 }
+
+// The methods below take the constrained value x = Value(u) instead of u,
+// for a density that works with x and has it at hand. Their arithmetic is
+// fixed: the model's draws depend on it to the last bit.
+
+// LogJacAt returns log |dx/du| = log x at x = Value(u).
+func (Positive) LogJacAt(x float64) float64 { return math.Log(x) }
+
+// ChainGrad returns d/du [f(x) + log |dx/du|] at x = Value(u), given
+// dfdx = f'(x): dfdx x + 1.
+func (Positive) ChainGrad(dfdx, x float64) float64 { return dfdx*x + 1 }
+
+// LogJacAt returns log |dx/du| = log x + log(1-x) at x = Value(u).
+func (Unit) LogJacAt(x float64) float64 { return math.Log(x) + math.Log1p(-x) }
+
+// ChainGrad returns d/du [f(x) + log |dx/du|] at x = Value(u), given
+// dfdx = f'(x): dfdx x(1-x) + 1 - 2x.
+func (Unit) ChainGrad(dfdx, x float64) float64 { return dfdx*x*(1-x) + 1 - 2*x }
+
+// LogJacAt returns log |dx/du| = log(Hi-Lo) + log s + log(1-s) at
+// x = Value(u), with s = (x-Lo)/(Hi-Lo).
+func (b Bounded) LogJacAt(x float64) float64 {
+	return math.Log(b.Hi-b.Lo) + Unit{}.LogJacAt((x-b.Lo)/(b.Hi-b.Lo))
+}
+
+// ChainGrad returns d/du [f(x) + log |dx/du|] at x = Value(u), given
+// dfdx = f'(x): dfdx (Hi-Lo) s(1-s) + 1 - 2s with s = (x-Lo)/(Hi-Lo).
+func (b Bounded) ChainGrad(dfdx, x float64) float64 {
+	return Unit{}.ChainGrad(dfdx*(b.Hi-b.Lo), (x-b.Lo)/(b.Hi-b.Lo))
+}

@@ -57,3 +57,37 @@ func TestTransforms(t *testing.T) {
 		t.Errorf("Unit.LogJac(-800) = %v", j)
 	}
 }
+
+type transformAt interface {
+	transform
+	LogJacAt(x float64) float64
+	ChainGrad(dfdx, x float64) float64
+}
+
+// TestTransformsAt checks the methods that take the constrained value:
+// LogJacAt(Value(u)) against LogJac(u), and ChainGrad against a central
+// finite difference of u -> f(Value(u)) + LogJac(u) for f(x) = sin x + x².
+func TestTransformsAt(t *testing.T) {
+	f := func(x float64) float64 { return math.Sin(x) + x*x }
+	df := func(x float64) float64 { return math.Cos(x) + 2*x }
+	for _, c := range []struct {
+		name string
+		tr   transformAt
+	}{
+		{"Positive", mcmc.Positive{}},
+		{"Unit", mcmc.Unit{}},
+		{"Bounded", mcmc.Bounded{Lo: -1, Hi: 3}},
+	} {
+		for _, u := range []float64{-6, -1.5, -0.2, 0, 0.7, 2, 5} {
+			x := c.tr.Value(u)
+			if got, want := c.tr.LogJacAt(x), c.tr.LogJac(u); !scalar.EqualWithinAbsOrRel(got, want, 1e-10, 1e-10) {
+				t.Errorf("%s.LogJacAt(Value(%v)): got %v, want LogJac %v", c.name, u, got, want)
+			}
+			num := fd.Derivative(func(u float64) float64 { return f(c.tr.Value(u)) + c.tr.LogJac(u) }, u,
+				&fd.Settings{Formula: fd.Central, Step: 1e-5})
+			if got := c.tr.ChainGrad(df(x), x); !scalar.EqualWithinAbsOrRel(got, num, 1e-6, 1e-6) {
+				t.Errorf("%s.ChainGrad at u=%v: got %v, want %v (finite difference)", c.name, u, got, num)
+			}
+		}
+	}
+}

@@ -20,4 +20,26 @@
 //     when the coefficient is positive. K and S then mostly shape the curve
 //     instead of trading off against the coefficient. With retention and K, S
 //     on logit/log scales, log|J| = log coef + log lam(1-lam) + log K + log S.
+//
+// Terms. A stage's log density is a sum of terms, each with its own forward
+// pass, gradient pass and finite-difference test (terms_test.go):
+//   - linear-predictor terms (the predictor interface): a regressor
+//     coef * x[t] (trend, seasons, controls, gamma q~) and a media channel
+//     (saturating or linear), which owns its list of parameters. Each adds
+//     f(t) - fbar to n[t] and its fbar to the centring of the intercept; a
+//     coefficient per region or per week will be a term of the same shape.
+//   - the observation term: y[t] ~ Normal(n[t], sigma) over the weeks not
+//     masked. It returns d lp/d n[t], which the predictor terms pull back.
+//   - a prior term per parameter, with its transform from the sampling
+//     coordinate (funnel/mcmc's Positive and Unit) and log-Jacobian; the
+//     intercept's prior acts on mu, so its derivative reaches every term.
+//
+// One evaluation runs them in that order: natural values, linear predictor,
+// likelihood, gradients back through the terms and priors (with respect to
+// the natural values), then the chain rule to the sampling coordinates
+// (each transform, then each channel's rescaled coefficient). Joint puts
+// several stages into one target when a CrossTerm ties them, such as a
+// LiftTest on the outcome (Normal(estimate | summed lift, se), via search
+// and direct): cross terms add to the natural-value gradients between the
+// two halves. Stages nothing ties are fitted separately, which is exact.
 package model

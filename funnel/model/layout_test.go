@@ -27,10 +27,10 @@ func TestLayout(t *testing.T) {
 		for j, c := range st.Channels {
 			m := p.ChannelAt(j)
 			cs := l.Channels()[j]
-			if names[cs.Coef] != c.Coef || m.Coef != v[cs.Coef] || m.Linear != c.Linear {
+			if names[cs.Coef] != c.Params[0].Name || m.Coef != v[cs.Coef] || m.Linear != c.Linear {
 				t.Errorf("channel %s coef at %d (%s)", c.Column, cs.Coef, names[cs.Coef])
 			}
-			if !c.Linear && (names[cs.Lam] != c.Lam || names[cs.K] != c.K || names[cs.S] != c.S || m.S != v[cs.S]) {
+			if !c.Linear && (names[cs.Lam] != c.Params[1].Name || names[cs.K] != c.Params[2].Name || names[cs.S] != c.Params[3].Name || m.S != v[cs.S]) {
 				t.Errorf("channel %s transforms at %d %d %d", c.Column, cs.Lam, cs.K, cs.S)
 			}
 			h, coef := st.Response(nil, j, v, c.X)

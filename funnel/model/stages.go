@@ -4,16 +4,15 @@ import "fmt"
 
 // The default priors of DESIGN.md.
 var (
-	PriorMu       = Prior{Normal, 0.5, 0.5}
-	PriorTrend    = Prior{Normal, 0, 0.5}
-	PriorSeason   = Prior{Normal, 0, 0.25}
-	PriorControl  = Prior{Normal, 0, 0.5}
-	PriorCoef     = Prior{HalfNormal, 0.5, 0}
-	PriorRetain   = Prior{Beta, 3, 3}
-	PriorHalfSat  = Prior{Gamma, 3, 3}
-	PriorShape    = Prior{Gamma, 4, 2}
-	PriorSigma    = Prior{HalfNormal, 0.5, 0}
-	defaultMedias = [4]Prior{PriorCoef, PriorRetain, PriorHalfSat, PriorShape}
+	PriorMu      = Prior{Normal, 0.5, 0.5}
+	PriorTrend   = Prior{Normal, 0, 0.5}
+	PriorSeason  = Prior{Normal, 0, 0.25}
+	PriorControl = Prior{Normal, 0, 0.5}
+	PriorCoef    = Prior{HalfNormal, 0.5, 0}
+	PriorRetain  = Prior{Beta, 3, 3}
+	PriorHalfSat = Prior{Gamma, 3, 3}
+	PriorShape   = Prior{Gamma, 4, 2}
+	PriorSigma   = Prior{HalfNormal, 0.5, 0}
 )
 
 // Options change how stages are built.
@@ -41,9 +40,7 @@ func baseStage(name, suffix string, y []float64, sc *Scaled) *Stage {
 }
 
 func channel(col string, x []float64, coef, lam, k, s string, o Options) Channel {
-	return Channel{Column: col, X: x,
-		Coef: coef + "[" + col + "]", Lam: lam + "[" + col + "]", K: k + "[" + col + "]", S: s + "[" + col + "]",
-		Priors: defaultMedias, Linear: o.Linear[col]}
+	return Channel{Column: col, X: x, Linear: o.Linear[col], Params: mediaParams(col, coef, lam, k, s, o.Linear[col])}
 }
 
 // Demand returns stage 1: q~[t] on trend, seasonality, controls and each

@@ -316,7 +316,7 @@ func keyParam(st *model.Stage, name string) bool {
 		return true
 	}
 	for _, c := range st.Channels {
-		if c.Coef == name {
+		if c.Params[0].Name == name {
 			return true
 		}
 	}

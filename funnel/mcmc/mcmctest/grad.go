@@ -163,3 +163,20 @@ func CheckNoAlloc(t testing.TB, m mcmc.Model, x []float64) {
 		t.Errorf("LogProbGrad allocates %v times per call, want 0", n)
 	}
 }
+
+// Func adapts a log density with its gradient, written as one function, to
+// mcmc.Model: a way to check one piece of a model (a term of a sum) on its
+// own with Gradient, CheckGradient and CheckNoAlloc.
+type Func struct {
+	N int // dimension
+	// F returns the log density at x and writes its gradient into grad.
+	F func(grad, x []float64) float64
+}
+
+var _ mcmc.Model = Func{}
+
+// Dim returns f.N.
+func (f Func) Dim() int { return f.N }
+
+// LogProbGrad returns f.F(grad, x).
+func (f Func) LogProbGrad(grad, x []float64) float64 { return f.F(grad, x) }

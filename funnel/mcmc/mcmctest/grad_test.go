@@ -56,3 +56,20 @@ func TestGradient(t *testing.T) {
 	}
 	mcmctest.CheckNoAlloc(t, rosenbrock{}, []float64{0.3, 0.2})
 }
+
+// TestFunc checks the adapter on log x(1-x), whose derivative is
+// 1/x - 1/(1-x) (closed form), with Gradient finding a wrong one.
+func TestFunc(t *testing.T) {
+	f := func(wrong float64) mcmctest.Func {
+		return mcmctest.Func{N: 1, F: func(grad, x []float64) float64 {
+			v := 0.5 + 0.4*x[0] // (0.1, 0.9) for |x| < 1
+			grad[0] = 0.4 * (1/v - 1/(1-v) + wrong)
+			return math.Log(v) + math.Log1p(-v)
+		}}
+	}
+	mcmctest.CheckGradient(t, f(0), 1e-8, &mcmctest.GradSettings{Seed: 4, Radius: 1})
+	mcmctest.CheckNoAlloc(t, f(0), []float64{0.3})
+	if r := mcmctest.Gradient(f(1e-2), &mcmctest.GradSettings{Seed: 4, Radius: 1}); r.MaxScaled < 1e-4 {
+		t.Errorf("a wrong derivative went unnoticed: %v", r)
+	}
+}
