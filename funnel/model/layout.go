@@ -2,6 +2,8 @@ package model
 
 import (
 	"fmt"
+	"math"
+	"strings"
 
 	"spillway/funnel/transform"
 )
@@ -19,6 +21,7 @@ type Layout struct {
 	scaling   []int // regressors whose coefficient scales with the response (all but gamma)
 	channels  []ChannelSlots
 	blocks    []Block
+	baseline  SmoothSlots
 }
 
 // ChannelSlots are the positions of one media channel's parameters. Lam, K
@@ -26,7 +29,20 @@ type Layout struct {
 type ChannelSlots struct {
 	Column          string // the data column, e.g. "video_spend"
 	Coef, Lam, K, S int
+	// Drift holds the positions of the smooth function the coefficient
+	// drifts by (Drift.Basis is nil when it does not drift).
+	Drift SmoothSlots
 }
+
+// SmoothSlots are the positions of a smooth function's parameters (model
+// smooth.go): its sd, its length-scale and its Basis.M weights from Z.
+type SmoothSlots struct {
+	Basis      *Basis // nil: no such function
+	SD, Len, Z int
+}
+
+// Has reports whether the function exists.
+func (s SmoothSlots) Has() bool { return s.Basis != nil }
 
 // Linear reports whether the channel has no carryover and no saturation.
 func (c ChannelSlots) Linear() bool { return c.Lam < 0 }
@@ -60,15 +76,38 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for _, c := range s.Channels {
-		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1}
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}}
 		if !c.Linear {
 			cs.Lam, cs.K, cs.S = add(), add(), add()
 		}
 		l.channels = append(l.channels, cs)
 	}
 	l.sigma = add()
+	smooth := func(sm *Smooth) SmoothSlots {
+		ss := SmoothSlots{Basis: sm.Basis, SD: add(), Len: add(), Z: k}
+		name, _, _ := strings.Cut(l.names[k], "[")
+		if i := strings.LastIndexByte(l.names[k], ','); i > 0 {
+			name = l.names[k][:i] + "]" // "drift_z_alpha[video_spend,1]" gives "drift_z_alpha[video_spend]"
+		}
+		l.blocks = append(l.blocks, Block{Name: name, Start: k, Len: sm.Basis.M})
+		k += sm.Basis.M
+		return ss
+	}
+	l.baseline = SmoothSlots{SD: -1, Len: -1, Z: -1}
+	if s.Baseline != nil {
+		l.baseline = smooth(s.Baseline)
+	}
+	for j, c := range s.Channels {
+		if c.Drift != nil {
+			l.channels[j].Drift = smooth(c.Drift)
+		}
+	}
 	return l
 }
+
+// Baseline returns the slots of the moving baseline (Has false when the
+// stage has a trend line instead).
+func (l *Layout) Baseline() SmoothSlots { return l.baseline }
 
 // QueryCoef is the name of the outcome stage's coefficient on branded
 // queries (gamma in DESIGN.md); only this package spells it.
@@ -164,6 +203,39 @@ func (p Params) Gamma() float64 {
 	return p.v[p.l.gamma]
 }
 
+// Multiplier writes the drift multiplier exp(f(t)) of the stage's j-th
+// channel in weeks 0..len(dst)-1 into dst and returns it: 1 in every week
+// when the channel does not drift. Past the data's last week it holds the
+// last week's value (the latest effectiveness: the approximation has no
+// meaning far beyond the data, and a plan should not assume a trend
+// continues).
+func (p Params) Multiplier(dst []float64, j int) []float64 {
+	d := p.l.channels[j].Drift
+	if !d.Has() {
+		for i := range dst {
+			dst[i] = 1
+		}
+		return dst
+	}
+	T := d.Basis.T
+	f := d.Basis.Eval(nil, p.v[d.SD], p.v[d.Len], p.v[d.Z:d.Z+d.Basis.M])
+	for i := range dst {
+		dst[i] = math.Exp(f[min(i, T-1)])
+	}
+	return dst
+}
+
+// Baseline writes the moving baseline's f(t) (scaled units, averaging zero
+// over the fitted weeks) in the data's weeks into dst and returns it; nil
+// when the stage has a trend line instead.
+func (p Params) Baseline(dst []float64) []float64 {
+	b := p.l.baseline
+	if !b.Has() {
+		return nil
+	}
+	return b.Basis.Eval(dst, p.v[b.SD], p.v[b.Len], p.v[b.Z:b.Z+b.Basis.M])
+}
+
 // Regressor returns the coefficient of Stage.Regressors[i].
 func (p Params) Regressor(i int) float64 { return p.v[p.l.regs[i]] }
 
@@ -190,7 +262,8 @@ func (p Params) Channel(col string) (Media, bool) {
 // Rescaled returns a copy of the draw with every parameter that scales with
 // the stage's response (intercept, regressors, channel coefficients, sigma)
 // multiplied by k, gamma multiplied by kGamma, and the transform parameters
-// (retention, half-saturation, shape) unchanged: the same model in a
+// (retention, half-saturation, shape) and drifts unchanged, and a moving
+// baseline's sd multiplied by k: the same model in a
 // response scaled by k (and, for gamma, queries scaled by k/kGamma).
 func (p Params) Rescaled(k, kGamma float64) []float64 {
 	out := append([]float64(nil), p.v...)
@@ -205,6 +278,9 @@ func (p Params) Rescaled(k, kGamma float64) []float64 {
 		out[c.Coef] *= k
 	}
 	out[p.l.sigma] *= k
+	if b := p.l.baseline; b.Has() {
+		out[b.SD] *= k // the weights and the length-scale are unitless
+	}
 	return out
 }
 

@@ -3,6 +3,7 @@ package model
 import (
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 	"time"
 
@@ -142,21 +143,30 @@ func TestGradient(t *testing.T) {
 }
 
 // TestSamePosterior checks that the sampling coordinates change nothing about
-// the posterior on the DESIGN.md parameters: at any natural point v,
+// the posterior on the DESIGN.md parameters (with and without drifting
+// coefficients and a moving baseline): at any natural point v,
 // lp_reparam(U(v)) - log|det dC/dx| must equal lp_plain(U_plain(v)) -
 // log|det dC_plain/dx| up to one constant, where C is Constrain (the change
 // of variables formula).
 func TestSamePosterior(t *testing.T) {
 	sc := testScaled(80, 4)
 	rng := rand.New(rand.NewPCG(8, 8))
-	for _, name := range []string{"demand", "outcome"} {
+	drift := map[string]bool{"video": true, "search": true}
+	for _, name := range []string{"demand", "outcome", "demand drift", "outcome drift and baseline"} {
 		var base float64
+		opts := []Options{{}, {Plain: true}}
+		switch name {
+		case "demand drift":
+			opts = []Options{{Drift: drift}, {Drift: drift, Plain: true}}
+		case "outcome drift and baseline":
+			opts = []Options{{Drift: drift, Baseline: BaselineSmooth}, {Drift: drift, Baseline: BaselineSmooth, Plain: true}}
+		}
 		for rep := 0; rep < 6; rep++ {
 			var vals [2]float64
 			var v []float64
-			for k, o := range []Options{{}, {Plain: true}} {
+			for k, o := range opts {
 				var st *Stage
-				if name == "demand" {
+				if strings.HasPrefix(name, "demand") {
 					st, _ = Demand(sc, o)
 				} else {
 					st, _ = Outcome(sc, o)

@@ -14,6 +14,7 @@ const (
 	HalfNormal Family = "halfnormal" // HalfNormal(sd P1) on x > 0: 2/(P1 sqrt(2 pi)) exp(-x^2/(2 P1^2))
 	Gamma      Family = "gamma"      // Gamma(shape P1, rate P2) on x > 0
 	Beta       Family = "beta"       // Beta(P1, P2) on (0, 1)
+	InvGamma   Family = "invgamma"   // InvGamma(shape P1, scale P2) on x > 0: P2^P1/Gamma(P1) x^(-P1-1) exp(-P2/x)
 	Flat       Family = "flat"       // improper uniform: on the real line for a coefficient, else on the parameter's support
 	Jeffreys   Family = "jeffreys"   // improper 1/x on x > 0 (flat on log x; for a scale)
 	Fixed      Family = "fixed"      // the parameter is held at P1 and not sampled
@@ -62,6 +63,12 @@ func (p Prior) LogPdf(x float64) (lp, d float64) {
 		lb, _ := math.Lgamma(p.P2)
 		lab, _ := math.Lgamma(p.P1 + p.P2)
 		return lab - la - lb + (p.P1-1)*math.Log(x) + (p.P2-1)*math.Log1p(-x), (p.P1-1)/x - (p.P2-1)/(1-x)
+	case InvGamma:
+		if x <= 0 {
+			return math.Inf(-1), 0
+		}
+		lg, _ := math.Lgamma(p.P1)
+		return p.P1*math.Log(p.P2) - lg - (p.P1+1)*math.Log(x) - p.P2/x, (p.P2/x - (p.P1 + 1)) / x
 	case Flat, Fixed:
 		return 0, 0
 	case Jeffreys:
@@ -79,7 +86,7 @@ func (p Prior) Support(def Support) Support {
 	switch p.Family {
 	case Normal:
 		return Real
-	case HalfNormal, Gamma, Jeffreys:
+	case HalfNormal, Gamma, InvGamma, Jeffreys:
 		return PositiveReal
 	case Beta:
 		return UnitInterval
@@ -111,16 +118,20 @@ func (p Prior) Check() error {
 		if p.P1 <= 0 || p.P2 <= 0 {
 			return bad("beta needs p1 > 0 and p2 > 0")
 		}
+	case InvGamma:
+		if p.P1 <= 0 || p.P2 <= 0 {
+			return bad("invgamma needs p1 = shape > 0 and p2 = scale > 0")
+		}
 	case Flat, Jeffreys, Fixed:
 	default:
-		return bad("unknown family %q; expected normal, halfnormal, gamma, beta, flat, jeffreys or fixed", p.Family)
+		return bad("unknown family %q; expected normal, halfnormal, gamma, invgamma, beta, flat, jeffreys or fixed", p.Family)
 	}
 	return nil
 }
 
 func (p Prior) String() string {
 	switch p.Family {
-	case Normal, Gamma, Beta:
+	case Normal, Gamma, InvGamma, Beta:
 		return fmt.Sprintf("%s(%g, %g)", p.Family, p.P1, p.P2)
 	case HalfNormal, Fixed:
 		return fmt.Sprintf("%s(%g)", p.Family, p.P1)

@@ -1,6 +1,9 @@
 package model
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+)
 
 // Param is one named parameter of a stage with its prior.
 type Param struct {
@@ -30,6 +33,10 @@ type Channel struct {
 	// Params are the channel's parameters in draw order: the coefficient,
 	// then, unless Linear, retention, half-saturation and shape.
 	Params []Param
+	// Drift, if not nil, makes the coefficient drift by week: coef
+	// exp(f(t)), f this smooth function (drift.go). Its parameters come
+	// after sigma in the stage's draws.
+	Drift *Smooth
 }
 
 // mediaParams returns a channel's parameters named coef[col], lam[col],
@@ -60,11 +67,16 @@ type Stage struct {
 	Plain      bool // sample in the direct coordinates (no centring, no coefficient rescaling)
 	// Mask, if not nil, marks weeks left out of the likelihood.
 	Mask []bool
+	// Baseline, if not nil, is a baseline that moves: a smooth function of
+	// the week added to the linear predictor (drift.go). Its parameters come
+	// after sigma, before the channels' drifts.
+	Baseline *Smooth
 }
 
 // Names returns the stage's constrained parameter names in draw order:
 // intercept, regressors, each channel's parameters (coef, lam, K, S; coef
-// only when linear), sigma.
+// only when linear), sigma, then the moving baseline's parameters and each
+// drifting channel's (sd, length-scale, weights), if any.
 func (s *Stage) Names() []string {
 	names := []string{s.Intercept}
 	for _, r := range s.Regressors {
@@ -75,7 +87,28 @@ func (s *Stage) Names() []string {
 			names = append(names, p.Name)
 		}
 	}
-	return append(names, s.Sigma)
+	names = append(names, s.Sigma)
+	for _, sm := range s.smooths() {
+		for _, p := range sm.Params {
+			names = append(names, p.Name)
+		}
+	}
+	return names
+}
+
+// smooths returns the stage's smooth functions in draw order: the
+// baseline, then each drifting channel's.
+func (s *Stage) smooths() []*Smooth {
+	var out []*Smooth
+	if s.Baseline != nil {
+		out = append(out, s.Baseline)
+	}
+	for _, c := range s.Channels {
+		if c.Drift != nil {
+			out = append(out, c.Drift)
+		}
+	}
+	return out
 }
 
 // SetPrior replaces the prior of the named parameter and reports whether the
@@ -103,6 +136,14 @@ func (s *Stage) SetPrior(name string, p Prior) bool {
 			}
 		}
 	}
+	for _, sm := range s.smooths() {
+		for k := range sm.Params {
+			if q := &sm.Params[k]; q.Name == name {
+				q.Prior = p
+				return true
+			}
+		}
+	}
 	return false
 }
 
@@ -124,13 +165,32 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 			dst[i] += b * x
 		}
 	}
-	var h []float64
+	var h, mult []float64
+	sk := k + 1 // past the channels and sigma: the smooths' parameters
+	for _, c := range s.Channels {
+		sk += len(c.Params)
+	}
+	if b := s.Baseline; b != nil {
+		f := b.Eval(nil, v[sk:])
+		sk += len(b.Params)
+		for i, fi := range f {
+			dst[i] += fi
+		}
+	}
 	for _, c := range s.Channels {
 		m := media(c, v[k:])
 		k += len(c.Params)
 		h = m.Response(h, c.X)
+		if c.Drift == nil {
+			for i, hi := range h {
+				dst[i] += m.Coef * hi
+			}
+			continue
+		}
+		mult = c.Drift.Eval(mult, v[sk:])
+		sk += len(c.Drift.Params)
 		for i, hi := range h {
-			dst[i] += m.Coef * hi
+			dst[i] += m.Coef * math.Exp(mult[i]) * hi
 		}
 	}
 	return dst
@@ -241,6 +301,41 @@ func (s *Stage) Target() (*Target, error) {
 	}
 	if t.par[t.sigma].prior.Family == Fixed && t.par[t.sigma].prior.P1 <= 0 {
 		return nil, fmt.Errorf("prior for %s: fixed value must be > 0", s.Sigma)
+	}
+	// the smooth functions' parameters come after sigma (Names)
+	smooth := func(sm *Smooth) (*smoothEval, error) {
+		if len(sm.Params) != 2+sm.Basis.M || sm.Basis.T != t.T {
+			panic("model: a smooth function has an sd, a length-scale and one weight per basis function over the stage's weeks")
+		}
+		k := make([]int, len(sm.Params))
+		for q, p := range sm.Params {
+			if k[q], err = add(p.Name, p.Prior, p.Default); err != nil {
+				return nil, err
+			}
+		}
+		return newSmoothEval(sm.Basis, k[0], k[1], k[2]), nil
+	}
+	var base predictor
+	if s.Baseline != nil {
+		e, err := smooth(s.Baseline)
+		if err != nil {
+			return nil, err
+		}
+		base = newBaselineTerm(e, t.centred)
+	}
+	first := len(s.Regressors) // the channels' terms
+	for i := range s.Channels {
+		if s.Channels[i].Drift == nil {
+			continue
+		}
+		e, err := smooth(s.Channels[i].Drift)
+		if err != nil {
+			return nil, err
+		}
+		t.terms[first+i] = newDriftTerm(t.terms[first+i].(*channelTerm), e)
+	}
+	if base != nil {
+		t.terms = append(t.terms, base)
 	}
 	t.alloc()
 	return t, nil

@@ -24,12 +24,28 @@ type Options struct {
 	Priors map[string]Prior
 	// Plain samples in the direct coordinates (for comparison only).
 	Plain bool
+	// Drift lists data columns whose coefficient drifts by week on every
+	// path the channel has (alpha and delta for an upper-funnel channel,
+	// beta for paid search): coef exp(f(t)), f smooth with mean zero over
+	// the fitted weeks (smooth.go, drift.go). Empty: no drift.
+	Drift map[string]bool
+	// Baseline is "" for the default trend line, or BaselineSmooth for a
+	// baseline that moves: a smooth function of the week in its place.
+	Baseline string
 }
 
-func baseStage(name, suffix string, y []float64, sc *Scaled) *Stage {
+// BaselineSmooth is the Options.Baseline of a baseline that moves.
+const BaselineSmooth = "smooth"
+
+func baseStage(name, suffix string, y []float64, sc *Scaled, o Options) *Stage {
 	st := &Stage{Name: name, Y: y, Mask: sc.Mask, Intercept: "mu_" + suffix, MuPrior: PriorMu,
 		Sigma: "sigma_" + suffix, SigmaPrior: PriorSigma}
-	st.Regressors = append(st.Regressors, Regressor{Name: "b_" + suffix, X: sc.Tau, Prior: PriorTrend, Default: Real})
+	if o.Baseline == BaselineSmooth {
+		b := NewBasis(sc.T, sc.Mask)
+		st.Baseline = &Smooth{Basis: b, Params: smoothParams("base_sd_"+suffix, "base_len_"+suffix, "base_z_"+suffix, PriorBaseSD, b.M)}
+	} else {
+		st.Regressors = append(st.Regressors, Regressor{Name: "b_" + suffix, X: sc.Tau, Prior: PriorTrend, Default: Real})
+	}
 	for k, nm := range []string{"c%s[1]", "c%s[2]", "d%s[1]", "d%s[2]"} {
 		st.Regressors = append(st.Regressors, Regressor{Name: fmt.Sprintf(nm, suffix), X: sc.Season[k], Prior: PriorSeason, Default: Real})
 	}
@@ -39,16 +55,21 @@ func baseStage(name, suffix string, y []float64, sc *Scaled) *Stage {
 	return st
 }
 
-func channel(col string, x []float64, coef, lam, k, s string, o Options) Channel {
-	return Channel{Column: col, X: x, Linear: o.Linear[col], Params: mediaParams(col, coef, lam, k, s, o.Linear[col])}
+func channel(col string, x []float64, coef, lam, k, s string, o Options, mask []bool) Channel {
+	c := Channel{Column: col, X: x, Linear: o.Linear[col], Params: mediaParams(col, coef, lam, k, s, o.Linear[col])}
+	if o.Drift[col] {
+		b := NewBasis(len(x), mask)
+		c.Drift = &Smooth{Basis: b, Params: smoothParams("drift_sd_"+coef+"["+col+"]", "drift_len_"+coef+"["+col+"]", "drift_z_"+coef+"["+col+"]", PriorDriftSD, b.M)}
+	}
+	return c
 }
 
 // Demand returns stage 1: q~[t] on trend, seasonality, controls and each
 // upper-funnel channel (alpha, lam, K, S).
 func Demand(sc *Scaled, o Options) (*Stage, error) {
-	st := baseStage("demand", "q", sc.Queries, sc)
+	st := baseStage("demand", "q", sc.Queries, sc, o)
 	for c, col := range sc.UpperNames {
-		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o))
+		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o, sc.Mask))
 	}
 	return finish(st, o)
 }
@@ -57,7 +78,7 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 // each paid-search channel (beta, lam_s, K_s, S_s) and each upper-funnel
 // channel directly (delta, lam2, K2, S2).
 func Outcome(sc *Scaled, o Options) (*Stage, error) {
-	st := outcomeBase("outcome", sc)
+	st := outcomeBase("outcome", sc, o)
 	st.Regressors = append(st.Regressors, Regressor{Name: QueryCoef, X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
 	return finish(withChannels(st, sc, o), o)
@@ -66,19 +87,19 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 // Naive returns stage 2 without the query term: what a model that ignores
 // branded search demand would credit to paid search.
 func Naive(sc *Scaled, o Options) (*Stage, error) {
-	return finish(withChannels(outcomeBase("naive", sc), sc, o), o)
+	return finish(withChannels(outcomeBase("naive", sc, o), sc, o), o)
 }
 
-func outcomeBase(name string, sc *Scaled) *Stage {
-	return baseStage(name, "y", sc.Outcome, sc)
+func outcomeBase(name string, sc *Scaled, o Options) *Stage {
+	return baseStage(name, "y", sc.Outcome, sc, o)
 }
 
 func withChannels(st *Stage, sc *Scaled, o Options) *Stage {
 	for s, col := range sc.SearchNames {
-		st.Channels = append(st.Channels, channel(col, sc.Search[s], "beta", "lam_s", "K_s", "S_s", o))
+		st.Channels = append(st.Channels, channel(col, sc.Search[s], "beta", "lam_s", "K_s", "S_s", o, sc.Mask))
 	}
 	for c, col := range sc.UpperNames {
-		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "delta", "lam2", "K2", "S2", o))
+		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "delta", "lam2", "K2", "S2", o, sc.Mask))
 	}
 	return st
 }

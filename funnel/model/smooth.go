@@ -1,0 +1,259 @@
+package model
+
+import (
+	"fmt"
+	"math"
+)
+
+// A smooth function of the week, for a coefficient that drifts (its
+// multiplier exp(f(t))) and for a baseline that moves (f(t) added to the
+// linear predictor). It is the Hilbert-space approximate Gaussian process of
+// Riutort-Mayol, Bürkner, Andersen, Solin and Vehtari (2023), "Practical
+// Hilbert space approximate Bayesian Gaussian processes for probabilistic
+// programming", Statistics and Computing 33:17, with a squared-exponential
+// kernel of marginal sd and length-scale ell (weeks):
+//
+//	f(t) = sum_{j=1..M} s_j z_j phi~_j(t),  z_j ~ Normal(0, 1),
+//	s_j  = sqrt(S(sqrt(lambda_j))) = sd (2 pi)^(1/4) sqrt(ell) exp(-ell^2 lambda_j / 4),
+//	phi_j(x) = L^(-1/2) sin(pi j (x + L) / (2 L)),  lambda_j = (pi j / (2 L))^2,
+//
+// x the week index minus the middle week, L = BoundaryFactor times the
+// data's half-range, and phi~_j = phi_j minus its mean over the fitted weeks,
+// so that f averages exactly zero there: a drifting coefficient keeps its
+// meaning as the average effectiveness, and a moving baseline leaves the
+// intercept the average level.
+//
+// Why this representation (how it samples): the weights z_j are a priori
+// independent standard normals and enter f linearly, so the sampler moves in
+// coordinates of unit scale (the non-centred form, which avoids the funnel
+// between the amplitude and the function when the data say little); the
+// basis does not depend on the hyperparameters, so one evaluation costs
+// O(T M) multiply-adds with no matrix factorisation; and the length-scale
+// only rescales the weights (s_j), so the weights of high frequencies that
+// a long length-scale switches off are left to their prior instead of
+// tangling with the rest. A random walk on knots has a fixed smoothness set
+// by the knot spacing and correlates every knot with its neighbours; a
+// full Gaussian process needs a T x T Cholesky factor per evaluation.
+//
+// M follows the paper's rule for the squared-exponential kernel,
+// M >= 1.75 L / ell_min, with ell_min = MinLength weeks, the 1% quantile of
+// the length-scale prior [the rule confirmed against PyMC's HSGP helper,
+// required_num_eigenvectors; the boundary guidance c >= 3.2 ell / S, c >=
+// 1.2, from memory]: with c = 1.5 the approximation of the covariance is
+// close for length-scales up to about 0.47 times the half-range (36 weeks on
+// three years of data); a longer length-scale still gives a smooth
+// function, close to a straight line over the data once its mean is
+// removed, with a covariance a little different from the kernel's.
+const (
+	// BoundaryFactor is c, the domain's half-width L over the data's
+	// half-range.
+	BoundaryFactor = 1.5
+	// MinLength is the shortest length-scale, in weeks, the basis is sized
+	// to represent: the default prior puts 1% of its mass below it.
+	MinLength = 13
+)
+
+// The default priors of a smooth function's hyperparameters and weights.
+var (
+	// PriorDriftSD is the marginal sd of log-effectiveness: a multiplier
+	// within exp(+-2 sd).
+	PriorDriftSD = Prior{HalfNormal, 0.5, 0}
+	// PriorBaseSD is the marginal sd of a moving baseline, in the scaled
+	// response's units (mean 1).
+	PriorBaseSD = Prior{HalfNormal, 0.3, 0}
+	// PriorLength is the length-scale in weeks: InvGamma(5.5, 160) has 1%
+	// of its mass below 13 weeks, 1% above 104 weeks and its median at 31
+	// weeks (computed with gonum's Gamma quantile of 1/ell).
+	PriorLength = Prior{InvGamma, 5.5, 160}
+	// PriorWeight is the prior of each basis weight.
+	PriorWeight = Prior{Normal, 0, 1}
+)
+
+// Basis is the basis of a smooth function over a stage's weeks. It does not
+// change after NewBasis; stages and terms share it.
+type Basis struct {
+	T, M    int
+	L       float64   // half-width of the domain, weeks
+	sqrtLam []float64 // sqrt(lambda_j) = pi j / (2 L)
+	phi     []float64 // T x M, row t: phi~_j(t)
+}
+
+// NewBasis returns the basis over T weeks; the means are taken over the
+// weeks not masked (mask may be nil: every week).
+func NewBasis(T int, mask []bool) *Basis {
+	half := float64(T-1) / 2
+	if half < 1 {
+		half = 1
+	}
+	L := BoundaryFactor * half
+	M := int(math.Ceil(1.75 * L / MinLength))
+	b := &Basis{T: T, M: M, L: L, sqrtLam: make([]float64, M), phi: make([]float64, T*M)}
+	for j := range b.sqrtLam {
+		b.sqrtLam[j] = math.Pi * float64(j+1) / (2 * L)
+	}
+	norm := 1 / math.Sqrt(L)
+	means := make([]float64, M)
+	n := 0
+	for t := 0; t < T; t++ {
+		x := float64(t) - half
+		for j := 0; j < M; j++ {
+			b.phi[t*M+j] = norm * math.Sin(b.sqrtLam[j]*(x+L))
+		}
+		if mask != nil && mask[t] {
+			continue
+		}
+		n++
+		for j := 0; j < M; j++ {
+			means[j] += b.phi[t*M+j]
+		}
+	}
+	for j := range means {
+		means[j] /= float64(n)
+	}
+	for t := 0; t < T; t++ {
+		for j := 0; j < M; j++ {
+			b.phi[t*M+j] -= means[j]
+		}
+	}
+	return b
+}
+
+// scales writes s_j and d s_j / d ell into s and ds.
+func (b *Basis) scales(s, ds []float64, sd, ell float64) {
+	c := sd * math.Pow(2*math.Pi, 0.25) * math.Sqrt(ell)
+	for j, w := range b.sqrtLam {
+		lam := w * w
+		s[j] = c * math.Exp(-ell*ell*lam/4)
+		if ds != nil {
+			ds[j] = s[j] * (0.5/ell - ell*lam/2)
+		}
+	}
+}
+
+// Eval writes f(t) for the weeks t of the basis at the hyperparameters sd
+// and ell and the weights z (len M) into dst and returns it; a dst too
+// short is replaced.
+func (b *Basis) Eval(dst []float64, sd, ell float64, z []float64) []float64 {
+	dst = resizeTo(dst, b.T)
+	s := make([]float64, b.M)
+	b.scales(s, nil, sd, ell)
+	for j := range s {
+		s[j] *= z[j]
+	}
+	b.apply(dst, s, 0, b.T)
+	return dst
+}
+
+// apply writes sum_j c_j phi~_j(t) into f[t] for t in [lo, hi).
+func (b *Basis) apply(f, c []float64, lo, hi int) {
+	M := b.M
+	for t := lo; t < hi; t++ {
+		row := b.phi[t*M : t*M+M]
+		v := 0.0
+		for j, p := range row {
+			v += p * c[j]
+		}
+		f[t] = v
+	}
+}
+
+// smoothParams returns the parameters of a smooth function: its sd, its
+// length-scale and the M weights, named sd, ell and z[1..M] (z with index
+// inside the brackets of a name that already has them: "x[col]" gives
+// "x[col,1]").
+func smoothParams(sd, ell, z string, sdPrior Prior, M int) []Param {
+	p := []Param{{Name: sd, Prior: sdPrior, Default: PositiveReal}, {Name: ell, Prior: PriorLength, Default: PositiveReal}}
+	for j := 1; j <= M; j++ {
+		var name string
+		if n := len(z); n > 0 && z[n-1] == ']' {
+			name = fmt.Sprintf("%s,%d]", z[:n-1], j)
+		} else {
+			name = fmt.Sprintf("%s[%d]", z, j)
+		}
+		p = append(p, Param{Name: name, Prior: PriorWeight, Default: Real})
+	}
+	return p
+}
+
+// Smooth is a smooth function of the week in a stage: a drifting channel's
+// log-multiplier or a moving baseline. Its parameters are, in draw order,
+// the sd, the length-scale and the M basis weights.
+type Smooth struct {
+	Basis  *Basis
+	Params []Param
+}
+
+// Eval writes f(t) over the data's weeks at the smooth's constrained
+// values v (sd, length-scale, weights, as in Params) into dst.
+func (s *Smooth) Eval(dst, v []float64) []float64 {
+	return s.Basis.Eval(dst, v[0], v[1], v[2:2+s.Basis.M])
+}
+
+// smoothEval evaluates a smooth function inside a target: its slots in the
+// natural values (sd, ell, then the M weights from z) and scratch.
+type smoothEval struct {
+	b         *Basis
+	sd, ell   int // positions in the natural values
+	z         int // position of the first weight
+	s, ds, c  []float64
+	f, p      []float64
+	sdv, ellv float64
+}
+
+func newSmoothEval(b *Basis, sd, ell, z int) *smoothEval {
+	e := &smoothEval{b: b, sd: sd, ell: ell, z: z}
+	e.alloc()
+	return e
+}
+
+func (e *smoothEval) alloc() {
+	M := e.b.M
+	e.s, e.ds, e.c, e.p = make([]float64, M), make([]float64, M), make([]float64, M), make([]float64, M)
+	e.f = make([]float64, e.b.T)
+}
+
+func (e *smoothEval) clone() *smoothEval {
+	c := *e
+	c.alloc()
+	return &c
+}
+
+// eval computes f(t) for t in [lo, hi) at the natural values nat into e.f.
+func (e *smoothEval) eval(nat []float64, lo, hi int) {
+	e.sdv, e.ellv = nat[e.sd], nat[e.ell]
+	e.b.scales(e.s, e.ds, e.sdv, e.ellv)
+	z := nat[e.z : e.z+e.b.M]
+	for j, s := range e.s {
+		e.c[j] = s * z[j]
+	}
+	e.b.apply(e.f, e.c, lo, hi)
+}
+
+// backward adds to g the gradient of the log density with respect to the
+// smooth's natural values given r[t] = d lp / d f(t) for t in [lo, hi), at
+// the values of the last eval.
+func (e *smoothEval) backward(g, nat, r []float64, lo, hi int) {
+	M := e.b.M
+	p := e.p
+	clear(p)
+	for t := lo; t < hi; t++ {
+		rt := r[t]
+		if rt == 0 {
+			continue
+		}
+		row := e.b.phi[t*M : t*M+M]
+		for j, v := range row {
+			p[j] += v * rt
+		}
+	}
+	z := nat[e.z : e.z+M]
+	gz := g[e.z : e.z+M]
+	var gsd, gell float64
+	for j, pj := range p {
+		gz[j] += e.s[j] * pj
+		gsd += e.c[j] * pj
+		gell += z[j] * e.ds[j] * pj
+	}
+	g[e.sd] += gsd / e.sdv
+	g[e.ell] += gell
+}
