@@ -24,10 +24,14 @@
 // Terms. A stage's log density is a sum of terms, each with its own forward
 // pass, gradient pass and finite-difference test (terms_test.go):
 //   - linear-predictor terms (the predictor interface): a regressor
-//     coef * x[t] (trend, seasons, controls, gamma q~) and a media channel
-//     (saturating or linear), which owns its list of parameters. Each adds
-//     f(t) - fbar to n[t] and its fbar to the centring of the intercept; a
-//     coefficient per region or per week will be a term of the same shape.
+//     coef * x[t] (trend, seasons, controls, gamma q~), a media channel
+//     (saturating or linear), which owns its list of parameters, a channel
+//     whose coefficient drifts by week, coef exp(f(t)) (drift.go), and a
+//     baseline that moves, f(t) in place of the trend line; f is a smooth
+//     function of the week with mean zero over the fitted weeks
+//     (smooth.go). Each adds its part minus its mean to n[t] and its mean
+//     to the centring of the intercept; a coefficient per region will be a
+//     term of the same shape.
 //   - the observation term: y[t] ~ Normal(n[t], sigma) over the weeks not
 //     masked. It returns d lp/d n[t], which the predictor terms pull back.
 //   - a prior term per parameter, with its transform from the sampling
@@ -40,6 +44,8 @@
 // (each transform, then each channel's rescaled coefficient). Joint puts
 // several stages into one target when a CrossTerm ties them, such as a
 // LiftTest on the outcome (Normal(estimate | summed lift, se), via search
-// and direct): cross terms add to the natural-value gradients between the
-// two halves. Stages nothing ties are fitted separately, which is exact.
+// and direct, with the drifting coefficients of the test's weeks): cross
+// terms add to the natural-value gradients between the two halves. A lift
+// test on the queries is a cross term of a joint target of the demand stage
+// alone. Stages nothing ties are fitted separately, which is exact.
 package model

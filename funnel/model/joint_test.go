@@ -64,40 +64,84 @@ func TestJointIndependent(t *testing.T) {
 	}
 }
 
-// liftStages returns the demand and outcome stages and a lift test of video
-// that went dark for weeks 20-29, measured over weeks 20-39.
-func liftStages(sc *Scaled, o Options) ([]*Stage, *LiftTest) {
+// liftStages returns the demand and outcome stages and a lift test of
+// video on metric m that went dark for weeks 20-29.
+func liftStages(sc *Scaled, o Options, m LiftMetric) ([]*Stage, *LiftTest) {
 	d, _ := Demand(sc, o)
 	y, _ := Outcome(sc, o)
-	j := d.ChannelIndex("video")
-	cf := slices.Clone(d.Channels[j].X)
-	for t := 20; t < 30; t++ {
-		cf[t] = 0
-	}
-	return []*Stage{d, y}, &LiftTest{Column: "video", Counterfactual: cf, From: 20, To: 40,
+	return []*Stage{d, y}, &LiftTest{Column: "video", Metric: m, Start: 20, End: 29,
 		Estimate: 0.8, SE: 0.3, Demand: 0, Outcome: 1}
 }
 
-// TestLiftTest checks the lift test term: its gradient through the joint
-// target (both stages' coefficients and transforms, in the sampling
-// coordinates), no allocation, clones that agree, and its log density
-// against the lift computed from the constrained draw with Stage.Response.
+var liftCases = []Options{{}, {Plain: true}, {Linear: map[string]bool{"video": true}},
+	{Priors: map[string]Prior{"alpha[video]": {Normal, 0, 1}, "K2[video]": {Fixed, 0.8, 0}}},
+	{Drift: map[string]bool{"video": true, "search": true}},
+	{Drift: map[string]bool{"video": true}, Linear: map[string]bool{"video": true}, Baseline: BaselineSmooth}}
+
+// wantLift is the model's lift of column col over weeks from..to at the
+// constrained draws v (per stage; nil for a stage the test leaves out),
+// from Stage.Response, the drift's Params.Multiplier and gamma read by
+// meaning: what LiftTest computes by its own passes.
+func wantLift(st []*Stage, v [][]float64, col string, from, to int, viaGamma bool) float64 {
+	L := make([]float64, 2)
+	for k, s := range st {
+		if v[k] == nil {
+			continue
+		}
+		j := s.ChannelIndex(col)
+		x := s.Channels[j].X
+		cf := slices.Clone(x)
+		for w := from; w <= to; w++ {
+			cf[w] = 0
+		}
+		h, coef := s.Response(nil, j, v[k], x)
+		hcf, _ := s.Response(nil, j, v[k], cf)
+		m := s.Layout().View(v[k]).Multiplier(make([]float64, len(x)), j)
+		for w := from; w <= to; w++ {
+			L[k] += coef * m[w] * (h[w] - hcf[w])
+		}
+	}
+	if viaGamma {
+		L[0] *= st[1].Layout().View(v[1]).Gamma()
+	}
+	return L[0] + L[1]
+}
+
+// TestLiftTest checks the lift test term on queries and on the outcome, an
+// upper-funnel and a paid-search channel, with and without drift: its
+// gradient through the joint target (both stages' coefficients, transforms
+// and drifts, in the sampling coordinates), no allocation, clones that
+// agree, and its log density and Lift against the lift computed from the
+// constrained draw by wantLift.
 func TestLiftTest(t *testing.T) {
 	sc := testScaled(70, 7)
 	rng := rand.New(rand.NewPCG(10, 10))
-	for _, o := range []Options{{}, {Plain: true}, {Linear: map[string]bool{"video": true}}, {Priors: map[string]Prior{"alpha[video]": {Normal, 0, 1}, "K2[video]": {Fixed, 0.8, 0}}}} {
-		st, lift := liftStages(sc, o)
+	type tc struct {
+		o      Options
+		m      LiftMetric
+		search bool
+	}
+	var cases []tc
+	for _, o := range liftCases {
+		cases = append(cases, tc{o, LiftOutcome, false}, tc{o, LiftQueries, false})
+	}
+	cases = append(cases, tc{Options{}, LiftOutcome, true}, tc{Options{Drift: map[string]bool{"search": true}}, LiftOutcome, true})
+	for _, c := range cases {
+		st, lift := liftStages(sc, c.o, c.m)
+		if c.search {
+			lift.Column = "search"
+		}
 		j, err := NewJoint(st, lift)
 		if err != nil {
 			t.Fatal(err)
 		}
-		mcmctest.CheckGradient(t, j, 1e-6, &mcmctest.GradSettings{Seed: 12, Points: 6, Radius: 1})
+		mcmctest.CheckGradient(t, j, 1e-6, &mcmctest.GradSettings{Seed: 12, Points: 4, Radius: 1})
 		mcmctest.CheckNoAlloc(t, j, make([]float64, j.Dim()))
 		plain, err := NewJoint(st)
 		if err != nil {
 			t.Fatal(err)
 		}
-		c := j.Clone()
+		cl := j.Clone()
 		for rep := 0; rep < 3; rep++ {
 			x := make([]float64, j.Dim())
 			for i := range x {
@@ -105,43 +149,60 @@ func TestLiftTest(t *testing.T) {
 			}
 			g := make([]float64, j.Dim())
 			lp := j.LogProbGrad(g, x)
-			if lc := c.LogProbGrad(g, x); lc != lp {
+			if lc := cl.LogProbGrad(g, x); lc != lp {
 				t.Errorf("clone: %v, want %v", lc, lp)
 			}
-			// the lift from DESIGN.md's formulas on the constrained values
 			v := j.Constrain(nil, x)
-			vd, vy := v[:len(st[0].Names())], v[len(st[0].Names()):]
-			jd, jy := st[0].ChannelIndex("video"), st[1].ChannelIndex("video")
-			x0 := st[0].Channels[jd].X
-			hq, alpha := st[0].Response(nil, jd, vd, x0)
-			hqcf, _ := st[0].Response(nil, jd, vd, lift.Counterfactual)
-			hy, delta := st[1].Response(nil, jy, vy, x0)
-			hycf, _ := st[1].Response(nil, jy, vy, lift.Counterfactual)
-			gamma := st[1].Layout().View(vy).Gamma()
-			L := 0.0
-			for w := lift.From; w < lift.To; w++ {
-				L += gamma*alpha*(hq[w]-hqcf[w]) + delta*(hy[w]-hycf[w])
+			n0 := len(st[0].Names())
+			vv := [][]float64{v[:n0], v[n0:]}
+			if c.m == LiftQueries {
+				vv[1] = nil
 			}
+			if c.search {
+				vv[0] = nil
+			}
+			L := wantLift(st, vv, lift.Column, lift.Start, lift.End, c.m == LiftOutcome && !c.search)
 			z := (lift.Estimate - L) / lift.SE
 			if got := lp - plain.LogProbGrad(g, x); math.Abs(got-(-0.5*z*z)) > 1e-9 {
-				t.Errorf("lift term %v, want %v (lift %v)", got, -0.5*z*z, L)
+				t.Errorf("%v %s %v: lift term %v, want %v (lift %v)", c.o, lift.Column, c.m, got, -0.5*z*z, L)
+			}
+			if got := lift.Lift(v[:n0], v[n0:]); math.Abs(got-L) > 1e-12 {
+				t.Errorf("%v %s %v: Lift %v, want %v", c.o, lift.Column, c.m, got, L)
 			}
 		}
 	}
-	st, lift := liftStages(sc, Options{})
-	lift.To = 500
-	if _, err := NewJoint(st, lift); err == nil {
-		t.Error("a lift test past the data's end was accepted")
+	st, lift := liftStages(sc, Options{}, LiftOutcome)
+	for _, bad := range []func(*LiftTest){
+		func(l *LiftTest) { l.End = 500 },
+		func(l *LiftTest) { l.Start, l.End = 30, 29 },
+		func(l *LiftTest) { l.SE = 0 },
+		func(l *LiftTest) { l.Column = "radio" },
+		func(l *LiftTest) { l.Metric = LiftQueries; l.Column = "search" },
+	} {
+		l := *lift
+		bad(&l)
+		if _, err := NewJoint(st, &l); err == nil {
+			t.Errorf("lift test %+v was accepted", l)
+		}
+	}
+	// a window with no spend
+	zero := testScaled(70, 7)
+	for w := 20; w <= 29; w++ {
+		zero.Upper[0][w] = 0
+	}
+	st, lift = liftStages(zero, Options{}, LiftOutcome)
+	if _, err := NewJoint(st, lift); err == nil || !strings.Contains(err.Error(), "no spend") {
+		t.Errorf("a window with no spend: error %v", err)
 	}
 }
 
 // TestLiftTestTerm checks the lift test term on its own, in the natural
-// values of the parameters it reads (the coefficients, gamma and both
-// stages' transforms of the channel), saturating and linear.
+// values of the parameters it reads (the coefficients, gamma, both stages'
+// transforms of the channel and their drifts), saturating and linear.
 func TestLiftTestTerm(t *testing.T) {
 	sc := testScaled(70, 8)
-	for _, o := range []Options{{}, {Linear: map[string]bool{"video": true}}} {
-		st, lift := liftStages(sc, o)
+	for _, o := range []Options{{}, {Linear: map[string]bool{"video": true}}, {Drift: map[string]bool{"video": true}}} {
+		st, lift := liftStages(sc, o, LiftOutcome)
 		j, err := NewJoint(st, lift)
 		if err != nil {
 			t.Fatal(err)
@@ -157,6 +218,12 @@ func TestLiftTestTerm(t *testing.T) {
 			slots = append(slots, slot{k, c.Coef, 0.4, 0.3})
 			if !c.Linear() {
 				slots = append(slots, slot{k, c.Lam, 0.5, 0.4}, slot{k, c.K, 1, 0.5}, slot{k, c.S, 2, 1})
+			}
+			if d := c.Drift; d.Has() {
+				slots = append(slots, slot{k, d.SD, 0.4, 0.2}, slot{k, d.Len, 25, 10})
+				for i := 0; i < d.Basis.M; i++ {
+					slots = append(slots, slot{k, d.Z + i, 0, 1})
+				}
 			}
 		}
 		f := mcmctest.Func{N: len(slots), F: func(grad, x []float64) float64 {
@@ -183,7 +250,7 @@ func TestJointRuns(t *testing.T) {
 	if testing.Short() {
 		t.Skip("a short sampler run")
 	}
-	st, lift := liftStages(testScaled(70, 9), Options{})
+	st, lift := liftStages(testScaled(70, 9), Options{}, LiftOutcome)
 	j, err := NewJoint(st, lift)
 	if err != nil {
 		t.Fatal(err)

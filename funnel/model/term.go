@@ -1,12 +1,13 @@
 package model
 
 // predictor is a term of a stage's linear predictor n[t]: a regressor
-// (regressorTerm) or a media channel (channelTerm). A coefficient per region,
-// theta[c,g] = theta[c] exp(tau[c] eta[c,g]), or a coefficient that drifts
-// by week, coef exp(f[t]), will be predictors too: each owns its parameters
-// (a block of the Layout for eta or f), adds its part to n (over region-weeks
-// for a panel) and returns the gradient of its own parameters, and the
-// target around them does not change.
+// (regressorTerm), a media channel (channelTerm), a channel whose
+// coefficient drifts by week, coef exp(f[t]) (driftTerm), or a baseline that
+// moves (baselineTerm). A coefficient per region,
+// theta[c,g] = theta[c] exp(tau[c] eta[c,g]), will be a predictor too: each
+// owns its parameters (a block of the Layout for eta or f's weights), adds
+// its part to n (over region-weeks for a panel) and returns the gradient of
+// its own parameters, and the target around them does not change.
 //
 // A term enters n as f(t) - fbar, where fbar is its mean over the weeks when
 // the stage samples a centred intercept (doc.go) and 0 otherwise; fbar comes
