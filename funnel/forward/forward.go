@@ -126,11 +126,13 @@ type Plan struct {
 // in length.
 func (p Plan) Weeks() int {
 	n := -1
-	for _, x := range append(append([][]float64(nil), p.Upper...), p.Search...) {
-		if n >= 0 && len(x) != n {
-			panic("forward: the plan's series differ in length")
+	for _, group := range [2][][]float64{p.Upper, p.Search} {
+		for _, x := range group {
+			if n >= 0 && len(x) != n {
+				panic("forward: the plan's series differ in length")
+			}
+			n = len(x)
 		}
-		n = len(x)
 	}
 	return max(n, 0)
 }
