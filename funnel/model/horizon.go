@@ -14,6 +14,53 @@ func SeasonAt(i int) [4]float64 {
 	return [4]float64{math.Cos(w), math.Cos(2 * w), math.Sin(w), math.Sin(2 * w)}
 }
 
+// RegressorKind says what a stage's regressor is.
+type RegressorKind int
+
+const (
+	RoleTrend   RegressorKind = iota // tau
+	RoleSeason                       // Scaled.Season[Index]
+	RoleControl                      // Scaled.Controls[Index]
+	RoleQueries                      // q~, the outcome stage's query term
+)
+
+// Role is what one regressor of a stage is.
+type Role struct {
+	Kind  RegressorKind
+	Index int // which season or control
+}
+
+// Roles returns the role of each of st's regressors, st built from sc: the
+// stages hold the scaled data's own series as their regressors.
+func (sc *Scaled) Roles(st *Stage) ([]Role, error) {
+	out := make([]Role, len(st.Regressors))
+	for i, r := range st.Regressors {
+		found := true
+		switch {
+		case same(r.X, sc.Tau):
+			out[i] = Role{Kind: RoleTrend}
+		case same(r.X, sc.Queries):
+			out[i] = Role{Kind: RoleQueries}
+		default:
+			found = false
+			for k := range sc.Season {
+				if same(r.X, sc.Season[k]) {
+					out[i], found = Role{Kind: RoleSeason, Index: k}, true
+				}
+			}
+			for k := range sc.Controls {
+				if same(r.X, sc.Controls[k]) {
+					out[i], found = Role{Kind: RoleControl, Index: k}, true
+				}
+			}
+		}
+		if !found {
+			return nil, fmt.Errorf("model: regressor %s of the %s stage is not a series of the data", r.Name, st.Name)
+		}
+	}
+	return out, nil
+}
+
 // Continue returns the series of st's regressors over weeks 0..weeks-1
 // (weeks >= sc.T), st built from sc. In the data's weeks each is the data's
 // own series (not copied when weeks == sc.T). Past the data's last week
@@ -24,6 +71,10 @@ func SeasonAt(i int) [4]float64 {
 func (sc *Scaled) Continue(st *Stage, weeks int) ([][]float64, error) {
 	if weeks < sc.T {
 		return nil, fmt.Errorf("model: cannot continue %d weeks of data to %d", sc.T, weeks)
+	}
+	roles, err := sc.Roles(st)
+	if err != nil {
+		return nil, err
 	}
 	last := sc.T - 1 // the last training week: tau is 1 there
 	if sc.Mask != nil {
@@ -41,42 +92,26 @@ func (sc *Scaled) Continue(st *Stage, weeks int) ([][]float64, error) {
 		}
 		x := make([]float64, weeks)
 		copy(x, r.X)
-		var at func(t int) float64
-		switch {
-		case same(r.X, sc.Tau):
-			at = func(t int) float64 {
-				if last > 0 {
-					return float64(t) / float64(last)
-				}
-				return 0
-			}
-		case same(r.X, sc.Queries):
-			at = func(int) float64 { return math.NaN() }
-		default:
-			for k := range sc.Season {
-				if same(r.X, sc.Season[k]) {
-					at = func(t int) float64 { return SeasonAt(t)[k] }
-				}
-			}
-			for k := range sc.Controls {
-				if same(r.X, sc.Controls[k]) {
-					at = func(int) float64 { return 0 }
-				}
-			}
-		}
-		if at == nil {
-			return nil, fmt.Errorf("model: regressor %s of the %s stage is not a series of the data; it cannot be continued", r.Name, st.Name)
-		}
 		for t := sc.T; t < weeks; t++ {
-			x[t] = at(t)
+			switch roles[i].Kind {
+			case RoleTrend:
+				if last > 0 {
+					x[t] = float64(t) / float64(last)
+				}
+			case RoleSeason:
+				x[t] = SeasonAt(t)[roles[i].Index]
+			case RoleControl:
+				x[t] = 0
+			case RoleQueries:
+				x[t] = math.NaN()
+			}
 		}
 		out[i] = x
 	}
 	return out, nil
 }
 
-// same reports whether a and b are the same series (one backing array):
-// the stages hold the scaled data's own series as regressors.
+// same reports whether a and b are the same series (one backing array).
 func same(a, b []float64) bool {
 	return len(a) > 0 && len(a) == len(b) && &a[0] == &b[0]
 }

@@ -96,6 +96,9 @@ func (l *Layout) GammaSlot() int { return l.gamma }
 // (gamma q~), or -1.
 func (l *Layout) QueryRegressor() int { return l.queryReg }
 
+// RegressorSlot returns the position of Stage.Regressors[i]'s coefficient.
+func (l *Layout) RegressorSlot(i int) int { return l.regs[i] }
+
 // SigmaSlot returns the position of the noise scale.
 func (l *Layout) SigmaSlot() int { return l.sigma }
 
