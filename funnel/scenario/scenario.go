@@ -9,7 +9,6 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/model"
-	"spillway/funnel/transform"
 )
 
 // Channel holds the true transform of one channel in one stage.
@@ -393,12 +392,9 @@ func (s *Scenario) price(rng *rand.Rand) []float64 {
 	return x
 }
 
+// hillSeries is channel c's coefficient-free response to spend x.
 func hillSeries(x []float64, c Channel) []float64 {
-	a := transform.Adstock(nil, x, c.Lam)
-	for i, v := range a {
-		a[i] = transform.Hill(v, c.K, c.S)
-	}
-	return a
+	return model.Media{Lam: c.Lam, K: c.K, S: c.S}.Response(nil, x)
 }
 
 func divide(x []float64, d float64) []float64 {
