@@ -2,6 +2,7 @@ package forward
 
 import (
 	"fmt"
+	"math"
 	"math/rand/v2"
 
 	"spillway/funnel/model"
@@ -37,13 +38,14 @@ func New(sc *model.Scaled, demand, outcome *model.Stage) (*Simulator, error) {
 		}
 		return -1
 	}
+	const unset = math.MinInt
 	s.demFrom = make([]int, len(s.l1.Channels()))
 	s.outFrom = make([]int, len(s.l2.Channels()))
 	for j := range s.demFrom {
-		s.demFrom[j] = -1
+		s.demFrom[j] = unset
 	}
 	for j := range s.outFrom {
-		s.outFrom[j] = len(sc.UpperNames) // none yet
+		s.outFrom[j] = unset
 	}
 	for c, col := range sc.UpperNames {
 		j1, j2 := find(s.l1, col), find(s.l2, col)
@@ -62,12 +64,12 @@ func New(sc *model.Scaled, demand, outcome *model.Stage) (*Simulator, error) {
 		s.outFrom[j] = -1 - k
 	}
 	for j, c := range s.demFrom {
-		if c < 0 {
+		if c == unset {
 			return nil, fmt.Errorf("forward: the %s stage's channel %s is not an upper-funnel channel of the data", demand.Name, s.l1.Channels()[j].Column)
 		}
 	}
 	for j, c := range s.outFrom {
-		if c == len(sc.UpperNames) {
+		if c == unset {
 			return nil, fmt.Errorf("forward: the %s stage's channel %s is not a channel of the data", outcome.Name, s.l2.Channels()[j].Column)
 		}
 	}
