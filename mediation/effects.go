@@ -10,6 +10,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"spillway/funnel/forward"
 	"spillway/funnel/model"
 	"spillway/mediation/linear"
 	"spillway/mediation/ols"
@@ -130,9 +131,18 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 	}
 	sc := in.Data
 	nu, ns := len(sc.UpperNames), len(sc.SearchNames)
-	gi := indexOf(in.Outcome.Names(), "gamma")
-	if gi < 0 {
+	if !in.Outcome.Layout().HasGamma() {
 		return nil, fmt.Errorf("mediation: the outcome stage has no gamma")
+	}
+	sim, err := forward.New(sc, in.Demand, in.Outcome)
+	if err != nil {
+		return nil, err
+	}
+	var naive *forward.Simulator
+	if hasNaive {
+		if naive, err = forward.New(sc, in.Demand, in.Naive); err != nil {
+			return nil, err
+		}
 	}
 	// per channel x window x path slots
 	res := &Result{}
@@ -155,7 +165,6 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		}
 	}
 	T := sc.T
-	my := sc.OutcomeScale
 	// The omitted-variable identity regresses q~ on stage 2's other
 	// sampled regressors: the intercept, trend, seasons and controls that
 	// are not held fixed, then every channel's response.
@@ -167,21 +176,14 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		}
 		baseCols = append(baseCols, ones)
 	}
-	for _, r := range in.Outcome.Regressors {
-		if r.Name != "gamma" && !isFixed(r.Prior) {
+	qi := in.Outcome.Layout().QueryRegressor()
+	for i, r := range in.Outcome.Regressors {
+		if i != qi && !isFixed(r.Prior) {
 			baseCols = append(baseCols, r.X)
 		}
 	}
 	base := len(baseCols)
 	p := base + ns + nu
-	upperIdx := make([]int, nu)
-	searchIdx := make([]int, ns)
-	for c, col := range sc.UpperNames {
-		upperIdx[c] = in.Outcome.ChannelIndex(col)
-	}
-	for s, col := range sc.SearchNames {
-		searchIdx[s] = in.Outcome.ChannelIndex(col)
-	}
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
 	errs := make([]error, workers)
@@ -189,45 +191,30 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		wg.Add(1)
 		go func(wkr int) {
 			defer wg.Done()
-			h1, h2, cf := make([]float64, T), make([]float64, T), make([]float64, T)
-			hcf := make([]float64, T)
+			up := make([]forward.Upper, nu)
+			var cf forward.Upper
+			var cfx []float64
 			X := mat.NewDense(T, p, nil)
 			solver := ols.NewSolver(T, p)
 			coef := make([]float64, p)
-			hs := make([][]float64, ns)
-			for s := range hs {
-				hs[s] = make([]float64, T)
-			}
+			hs := make([]forward.Path, ns)
+			var hn forward.Path
 			for d := wkr; d < nd; d += workers {
-				v1, v2 := in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d]
-				gamma := v2[gi]
+				dr := sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
 				for c := 0; c < nu; c++ {
 					x := sc.Upper[c]
-					var alpha, delta float64
-					h1, alpha = in.Demand.Response(h1, c, v1, x)
-					h2, delta = in.Outcome.Response(h2, upperIdx[c], v2, x)
+					sim.Upper(&up[c], dr, c, x)
 					wv, wd := make([]float64, T), make([]float64, T)
 					for t := 0; t < T; t++ {
-						wv[t] = my * gamma * alpha * h1[t]
-						wd[t] = my * delta * h2[t]
+						wv[t] = up[c].Via.At(t)
+						wd[t] = up[c].Direct.At(t)
 					}
 					res.Weekly[c][0][d], res.Weekly[c][1][d] = wv, wd
 					for w, win := range windows {
-						copy(cf, x)
-						for t := win.From; t <= win.To; t++ {
-							cf[t] = 0
-						}
-						var s1, s2 float64
-						hcf, _ = in.Demand.Response(hcf, c, v1, cf)
-						for t := win.From; t < T; t++ {
-							s1 += h1[t] - hcf[t]
-						}
-						hcf, _ = in.Outcome.Response(hcf, upperIdx[c], v2, cf)
-						for t := win.From; t < T; t++ {
-							s2 += h2[t] - hcf[t]
-						}
-						eff[c][w].via[d] = my * gamma * alpha * s1
-						eff[c][w].dir[d] = my * delta * s2
+						cfx = forward.Without(cfx, x, win.From, win.To)
+						sim.Upper(&cf, dr, c, cfx)
+						eff[c][w].via[d] = forward.Effect(up[c].Via, cf.Via, win.From)
+						eff[c][w].dir[d] = forward.Effect(up[c].Direct, cf.Direct, win.From)
 					}
 				}
 				// paid search: controlled, and apparent by the omitted-variable identity
@@ -240,41 +227,33 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 					}
 				}
 				for s := 0; s < ns; s++ {
-					hs[s], _ = in.Outcome.Response(hs[s], searchIdx[s], v2, sc.Search[s])
+					sim.Search(&hs[s], dr, s, sc.Search[s])
 					for i := 0; i < T; i++ {
-						X.Set(i, base+s, hs[s][i])
+						X.Set(i, base+s, hs[s].Response[i])
 					}
 				}
 				for c := 0; c < nu; c++ {
-					h2, _ = in.Outcome.Response(h2, upperIdx[c], v2, sc.Upper[c])
 					for i := 0; i < T; i++ {
-						X.Set(i, base+ns+c, h2[i])
+						X.Set(i, base+ns+c, up[c].Direct.Response[i])
 					}
 				}
 				if _, err := solver.Coef(coef, X, sc.Queries); err != nil {
 					errs[wkr] = fmt.Errorf("mediation: draw %d: regressing queries on the outcome stage's regressors: %w", d+1, err)
 					return
 				}
+				gamma := dr.Outcome.Gamma()
 				for s := 0; s < ns; s++ {
-					beta := v2[coefIndex(in.Outcome, searchIdx[s])]
-					sum := 0.0
-					for _, v := range hs[s] {
-						sum += v
-					}
+					m, _ := dr.Outcome.Channel(sc.SearchNames[s])
+					beta := m.Coef
+					sum := hs[s].Sum()
 					dd := coef[base+s]
 					bApp := beta + gamma*dd
-					ctl[s][d] = my * beta * sum
-					app[s][d] = my * bApp * sum
+					ctl[s][d] = hs[s].Gain * sum
+					app[s][d] = sc.OutcomeScale * bApp * sum
 					shr[s][d] = gamma * dd / bApp
 					if hasNaive {
-						vn := in.NaiveDraws.Rows[d]
-						j := in.Naive.ChannelIndex(sc.SearchNames[s])
-						hn, bn := in.Naive.Response(nil, j, vn, sc.Search[s])
-						sn := 0.0
-						for _, v := range hn {
-							sn += v
-						}
-						nai[s][d] = my * bn * sn
+						naive.Search(&hn, naive.Draw(in.DemandDraws.Rows[d], in.NaiveDraws.Rows[d]), s, sc.Search[s])
+						nai[s][d] = hn.Gain * hn.Sum()
 					}
 				}
 			}
@@ -320,29 +299,6 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		res.Borrowed = append(res.Borrowed, Effect{Channel: col, Path: "borrowed_share", Window: "all", Draws: shr[s], Spend: spend})
 	}
 	return res, nil
-}
-
-// coefIndex returns the position of channel j's coefficient in the stage's
-// parameter vector.
-func coefIndex(st *model.Stage, j int) int {
-	k := 1 + len(st.Regressors)
-	for _, c := range st.Channels[:j] {
-		if c.Linear {
-			k++
-		} else {
-			k += 4
-		}
-	}
-	return k
-}
-
-func indexOf(names []string, n string) int {
-	for i, v := range names {
-		if v == n {
-			return i
-		}
-	}
-	return -1
 }
 
 // Summary is a posterior summary of one effect.
@@ -404,9 +360,12 @@ type Sensitivity struct {
 func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 	sc := in.Data
 	nd := len(in.DemandDraws.Rows)
-	gi := indexOf(in.Outcome.Names(), "gamma")
-	if gi < 0 || nd != len(in.OutcomeDraws.Rows) {
+	if !in.Outcome.Layout().HasGamma() || nd != len(in.OutcomeDraws.Rows) {
 		return nil, fmt.Errorf("mediation: sensitivity needs paired demand and outcome draws and a gamma")
+	}
+	sim, err := forward.New(sc, in.Demand, in.Outcome)
+	if err != nil {
+		return nil, err
 	}
 	nu := len(sc.UpperNames)
 	type perDraw struct{ gamma, k, r float64 }
@@ -422,14 +381,13 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 		wg.Add(1)
 		go func(wkr int) {
 			defer wg.Done()
-			m, n := make([]float64, T), make([]float64, T)
+			var run forward.Run
 			e1, e2 := make([]float64, T), make([]float64, T)
-			h := make([]float64, T)
 			for d := wkr; d < nd; d += workers {
-				v1, v2 := in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d]
-				gamma := v2[gi]
-				in.Demand.Predict(m, v1)
-				in.Outcome.Predict(n, v2)
+				dr := sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
+				gamma := dr.Outcome.Gamma()
+				sim.Fit(&run, dr)
+				m, n := run.Queries, run.Outcome
 				for t := 0; t < T; t++ {
 					e2[t] = sc.Queries[t] - m[t]
 					e1[t] = sc.Outcome[t] - n[t] + gamma*e2[t]
@@ -437,13 +395,8 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 				s1, s2, r := linear.Moments(e1, e2)
 				pd[d] = perDraw{gamma: gamma, k: s1 / s2, r: r}
 				for c := 0; c < nu; c++ {
-					var alpha float64
-					h, alpha = in.Demand.Response(h, c, v1, sc.Upper[c])
-					sum := 0.0
-					for _, v := range h {
-						sum += v
-					}
-					amp[c][d] = sc.OutcomeScale * alpha * sum
+					lift := run.Upper[c].Lift
+					amp[c][d] = sc.OutcomeScale * lift.Gain * lift.Sum()
 				}
 			}
 		}(wkr)
