@@ -184,6 +184,25 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 	}
 	base := len(baseCols)
 	p := base + ns + nu
+	// The naive stage's priors on the same columns, as normal means and
+	// precisions: the apparent coefficient is what that stage, with those
+	// priors, would find (see naiveProjection).
+	pm, prec := make([]float64, 0, p), make([]float64, 0, p)
+	addPrior := func(pr model.Prior) {
+		m, k := pr.NormalApprox()
+		pm, prec = append(pm, m), append(prec, k)
+	}
+	if !isFixed(in.Outcome.MuPrior) {
+		addPrior(in.Outcome.MuPrior)
+	}
+	for i, r := range in.Outcome.Regressors {
+		if i != qi && !isFixed(r.Prior) {
+			addPrior(r.Prior)
+		}
+	}
+	for _, col := range append(append([]string(nil), sc.SearchNames...), sc.UpperNames...) {
+		addPrior(in.Outcome.Channels[in.Outcome.ChannelIndex(col)].Params[0].Prior)
+	}
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
 	errs := make([]error, workers)
@@ -194,8 +213,10 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 			up := make([]forward.Upper, nu)
 			var cf forward.Upper
 			var cfx []float64
-			X := mat.NewDense(T, p, nil)
-			solver := ols.NewSolver(T, p)
+			X := mat.NewDense(T+p, p, nil)
+			yaug := make([]float64, T+p)
+			theta := make([]float64, p)
+			solver := ols.NewSolver(T+p, p)
 			coef := make([]float64, p)
 			hs := make([]forward.Path, ns)
 			var hn forward.Path
@@ -237,20 +258,41 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 						X.Set(i, base+ns+c, up[c].Direct.Response[i])
 					}
 				}
-				if _, err := solver.Coef(coef, X, sc.Queries); err != nil {
-					errs[wkr] = fmt.Errorf("mediation: draw %d: regressing queries on the outcome stage's regressors: %w", d+1, err)
+				gamma := dr.Outcome.Gamma()
+				k := 0
+				if !isFixed(in.Outcome.MuPrior) {
+					theta[k] = dr.Outcome.Intercept()
+					k++
+				}
+				for i, r := range in.Outcome.Regressors {
+					if i != qi && !isFixed(r.Prior) {
+						theta[k] = dr.Outcome.Regressor(i)
+						k++
+					}
+				}
+				for _, col := range sc.SearchNames {
+					m, _ := dr.Outcome.Channel(col)
+					theta[k] = m.Coef
+					k++
+				}
+				for _, col := range sc.UpperNames {
+					m, _ := dr.Outcome.Channel(col)
+					theta[k] = m.Coef
+					k++
+				}
+				sy, sq := dr.Outcome.Sigma(), dr.Demand.Sigma()
+				if err := naiveProjection(coef, solver, X, yaug, theta, sc.Queries, gamma, sy*sy+gamma*gamma*sq*sq, pm, prec); err != nil {
+					errs[wkr] = fmt.Errorf("mediation: draw %d: projecting the outcome on the stage's regressors without queries: %w", d+1, err)
 					return
 				}
-				gamma := dr.Outcome.Gamma()
 				for s := 0; s < ns; s++ {
 					m, _ := dr.Outcome.Channel(sc.SearchNames[s])
 					beta := m.Coef
 					sum := hs[s].Sum()
-					dd := coef[base+s]
-					bApp := beta + gamma*dd
+					bApp := coef[base+s]
 					ctl[s][d] = hs[s].Gain * sum
 					app[s][d] = sc.OutcomeScale * bApp * sum
-					shr[s][d] = gamma * dd / bApp
+					shr[s][d] = (bApp - beta) / bApp
 					if hasNaive {
 						naive.Search(&hn, naive.Draw(in.DemandDraws.Rows[d], in.NaiveDraws.Rows[d]), s, sc.Search[s])
 						nai[s][d] = hn.Gain * hn.Sum()
@@ -428,3 +470,45 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 }
 
 func isFixed(p model.Prior) bool { return p.Family == model.Fixed }
+
+// naiveProjection writes into coef the coefficients that the outcome stage
+// without its query term would find, at its posterior mean, if the outcome
+// were this draw's expected outcome Xθ + γq:
+//
+//	b = argmin ||Xθ + γq - Xb||² + s2 Σ_k prec_k (b_k - pm_k)²
+//	  = θ + (XᵀX + s2 P)⁻¹ (γ Xᵀq + s2 P (pm - θ)),
+//
+// with X the first T rows of x (the stage's regressors at this draw's
+// transforms), pm and prec the normal approximations of that stage's priors
+// and s2 = σ_y² + γ²σ_q², the noise such a stage would see. With prec = 0 it
+// is the omitted-variable identity b = θ + γd, d the least-squares
+// coefficients of q on X (Wooldridge, Introductory Econometrics, ch. 3). The
+// priors matter only where the data cannot place a column: when paid
+// search's response barely moves (a saturated draw, nearly collinear with
+// the intercept), d alone is unbounded (572 against a typical 0.5 in one
+// draw of a short demo fit, crediting paid search with 71 million
+// conversions) while the stage without queries would fall back on its
+// priors, as this does. x (T+p rows) and yaug are
+// scratch; the solve is least squares on the data stacked over the prior
+// rows, by QR.
+func naiveProjection(coef []float64, solver *ols.Solver, x *mat.Dense, yaug, theta, q []float64, gamma, s2 float64, pm, prec []float64) error {
+	T := len(q)
+	p := len(theta)
+	for i := 0; i < T; i++ {
+		v := gamma * q[i]
+		for k := 0; k < p; k++ {
+			v += x.At(i, k) * theta[k]
+		}
+		yaug[i] = v
+	}
+	for k := 0; k < p; k++ {
+		w := math.Sqrt(s2 * prec[k])
+		for j := 0; j < p; j++ {
+			x.Set(T+k, j, 0)
+		}
+		x.Set(T+k, k, w)
+		yaug[T+k] = w * pm[k]
+	}
+	_, err := solver.Coef(coef, x, yaug)
+	return err
+}
