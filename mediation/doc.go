@@ -9,5 +9,6 @@
 //
 // Every effect is in outcome units summed over a window of weeks; the
 // counterfactual sets one channel's spend to zero in the window, carryover
-// into later weeks included.
+// into later weeks included. The model's arithmetic on spend plans, and so
+// every counterfactual here, is funnel/forward's.
 package mediation

@@ -10,6 +10,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"spillway/funnel/forward"
 	"spillway/funnel/model"
 	"spillway/mediation/linear"
 	"spillway/mediation/ols"
@@ -130,9 +131,18 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 	}
 	sc := in.Data
 	nu, ns := len(sc.UpperNames), len(sc.SearchNames)
-	gi := indexOf(in.Outcome.Names(), "gamma")
-	if gi < 0 {
+	if !in.Outcome.Layout().HasGamma() {
 		return nil, fmt.Errorf("mediation: the outcome stage has no gamma")
+	}
+	sim, err := forward.New(sc, in.Demand, in.Outcome)
+	if err != nil {
+		return nil, err
+	}
+	var naive *forward.Simulator
+	if hasNaive {
+		if naive, err = forward.New(sc, in.Demand, in.Naive); err != nil {
+			return nil, err
+		}
 	}
 	// per channel x window x path slots
 	res := &Result{}
@@ -155,7 +165,6 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		}
 	}
 	T := sc.T
-	my := sc.OutcomeScale
 	// The omitted-variable identity regresses q~ on stage 2's other
 	// sampled regressors: the intercept, trend, seasons and controls that
 	// are not held fixed, then every channel's response.
@@ -167,20 +176,32 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		}
 		baseCols = append(baseCols, ones)
 	}
-	for _, r := range in.Outcome.Regressors {
-		if r.Name != "gamma" && !isFixed(r.Prior) {
+	qi := in.Outcome.Layout().QueryRegressor()
+	for i, r := range in.Outcome.Regressors {
+		if i != qi && !isFixed(r.Prior) {
 			baseCols = append(baseCols, r.X)
 		}
 	}
 	base := len(baseCols)
 	p := base + ns + nu
-	upperIdx := make([]int, nu)
-	searchIdx := make([]int, ns)
-	for c, col := range sc.UpperNames {
-		upperIdx[c] = in.Outcome.ChannelIndex(col)
+	// The naive stage's priors on the same columns, as normal means and
+	// precisions: the apparent coefficient is what that stage, with those
+	// priors, would find (see naiveProjection).
+	pm, prec := make([]float64, 0, p), make([]float64, 0, p)
+	addPrior := func(pr model.Prior) {
+		m, k := pr.NormalApprox()
+		pm, prec = append(pm, m), append(prec, k)
 	}
-	for s, col := range sc.SearchNames {
-		searchIdx[s] = in.Outcome.ChannelIndex(col)
+	if !isFixed(in.Outcome.MuPrior) {
+		addPrior(in.Outcome.MuPrior)
+	}
+	for i, r := range in.Outcome.Regressors {
+		if i != qi && !isFixed(r.Prior) {
+			addPrior(r.Prior)
+		}
+	}
+	for _, col := range append(append([]string(nil), sc.SearchNames...), sc.UpperNames...) {
+		addPrior(in.Outcome.Channels[in.Outcome.ChannelIndex(col)].Params[0].Prior)
 	}
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
@@ -189,45 +210,32 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		wg.Add(1)
 		go func(wkr int) {
 			defer wg.Done()
-			h1, h2, cf := make([]float64, T), make([]float64, T), make([]float64, T)
-			hcf := make([]float64, T)
-			X := mat.NewDense(T, p, nil)
-			solver := ols.NewSolver(T, p)
+			up := make([]forward.Upper, nu)
+			var cf forward.Upper
+			var cfx []float64
+			X := mat.NewDense(T+p, p, nil)
+			yaug := make([]float64, T+p)
+			theta := make([]float64, p)
+			solver := ols.NewSolver(T+p, p)
 			coef := make([]float64, p)
-			hs := make([][]float64, ns)
-			for s := range hs {
-				hs[s] = make([]float64, T)
-			}
+			hs := make([]forward.Path, ns)
+			var hn forward.Path
 			for d := wkr; d < nd; d += workers {
-				v1, v2 := in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d]
-				gamma := v2[gi]
+				dr := sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
 				for c := 0; c < nu; c++ {
 					x := sc.Upper[c]
-					var alpha, delta float64
-					h1, alpha = in.Demand.Response(h1, c, v1, x)
-					h2, delta = in.Outcome.Response(h2, upperIdx[c], v2, x)
+					sim.Upper(&up[c], dr, c, x)
 					wv, wd := make([]float64, T), make([]float64, T)
 					for t := 0; t < T; t++ {
-						wv[t] = my * gamma * alpha * h1[t]
-						wd[t] = my * delta * h2[t]
+						wv[t] = up[c].Via.At(t)
+						wd[t] = up[c].Direct.At(t)
 					}
 					res.Weekly[c][0][d], res.Weekly[c][1][d] = wv, wd
 					for w, win := range windows {
-						copy(cf, x)
-						for t := win.From; t <= win.To; t++ {
-							cf[t] = 0
-						}
-						var s1, s2 float64
-						hcf, _ = in.Demand.Response(hcf, c, v1, cf)
-						for t := win.From; t < T; t++ {
-							s1 += h1[t] - hcf[t]
-						}
-						hcf, _ = in.Outcome.Response(hcf, upperIdx[c], v2, cf)
-						for t := win.From; t < T; t++ {
-							s2 += h2[t] - hcf[t]
-						}
-						eff[c][w].via[d] = my * gamma * alpha * s1
-						eff[c][w].dir[d] = my * delta * s2
+						cfx = forward.Without(cfx, x, win.From, win.To)
+						sim.Upper(&cf, dr, c, cfx)
+						eff[c][w].via[d] = forward.Effect(up[c].Via, cf.Via, win.From)
+						eff[c][w].dir[d] = forward.Effect(up[c].Direct, cf.Direct, win.From)
 					}
 				}
 				// paid search: controlled, and apparent by the omitted-variable identity
@@ -240,41 +248,54 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 					}
 				}
 				for s := 0; s < ns; s++ {
-					hs[s], _ = in.Outcome.Response(hs[s], searchIdx[s], v2, sc.Search[s])
+					sim.Search(&hs[s], dr, s, sc.Search[s])
 					for i := 0; i < T; i++ {
-						X.Set(i, base+s, hs[s][i])
+						X.Set(i, base+s, hs[s].Response[i])
 					}
 				}
 				for c := 0; c < nu; c++ {
-					h2, _ = in.Outcome.Response(h2, upperIdx[c], v2, sc.Upper[c])
 					for i := 0; i < T; i++ {
-						X.Set(i, base+ns+c, h2[i])
+						X.Set(i, base+ns+c, up[c].Direct.Response[i])
 					}
 				}
-				if _, err := solver.Coef(coef, X, sc.Queries); err != nil {
-					errs[wkr] = fmt.Errorf("mediation: draw %d: regressing queries on the outcome stage's regressors: %w", d+1, err)
+				gamma := dr.Outcome.Gamma()
+				k := 0
+				if !isFixed(in.Outcome.MuPrior) {
+					theta[k] = dr.Outcome.Intercept()
+					k++
+				}
+				for i, r := range in.Outcome.Regressors {
+					if i != qi && !isFixed(r.Prior) {
+						theta[k] = dr.Outcome.Regressor(i)
+						k++
+					}
+				}
+				for _, col := range sc.SearchNames {
+					m, _ := dr.Outcome.Channel(col)
+					theta[k] = m.Coef
+					k++
+				}
+				for _, col := range sc.UpperNames {
+					m, _ := dr.Outcome.Channel(col)
+					theta[k] = m.Coef
+					k++
+				}
+				sy, sq := dr.Outcome.Sigma(), dr.Demand.Sigma()
+				if err := naiveProjection(coef, solver, X, yaug, theta, sc.Queries, gamma, sy*sy+gamma*gamma*sq*sq, pm, prec); err != nil {
+					errs[wkr] = fmt.Errorf("mediation: draw %d: projecting the outcome on the stage's regressors without queries: %w", d+1, err)
 					return
 				}
 				for s := 0; s < ns; s++ {
-					beta := v2[coefIndex(in.Outcome, searchIdx[s])]
-					sum := 0.0
-					for _, v := range hs[s] {
-						sum += v
-					}
-					dd := coef[base+s]
-					bApp := beta + gamma*dd
-					ctl[s][d] = my * beta * sum
-					app[s][d] = my * bApp * sum
-					shr[s][d] = gamma * dd / bApp
+					m, _ := dr.Outcome.Channel(sc.SearchNames[s])
+					beta := m.Coef
+					sum := hs[s].Sum()
+					bApp := coef[base+s]
+					ctl[s][d] = hs[s].Gain * sum
+					app[s][d] = sc.OutcomeScale * bApp * sum
+					shr[s][d] = (bApp - beta) / bApp
 					if hasNaive {
-						vn := in.NaiveDraws.Rows[d]
-						j := in.Naive.ChannelIndex(sc.SearchNames[s])
-						hn, bn := in.Naive.Response(nil, j, vn, sc.Search[s])
-						sn := 0.0
-						for _, v := range hn {
-							sn += v
-						}
-						nai[s][d] = my * bn * sn
+						naive.Search(&hn, naive.Draw(in.DemandDraws.Rows[d], in.NaiveDraws.Rows[d]), s, sc.Search[s])
+						nai[s][d] = hn.Gain * hn.Sum()
 					}
 				}
 			}
@@ -320,29 +341,6 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 		res.Borrowed = append(res.Borrowed, Effect{Channel: col, Path: "borrowed_share", Window: "all", Draws: shr[s], Spend: spend})
 	}
 	return res, nil
-}
-
-// coefIndex returns the position of channel j's coefficient in the stage's
-// parameter vector.
-func coefIndex(st *model.Stage, j int) int {
-	k := 1 + len(st.Regressors)
-	for _, c := range st.Channels[:j] {
-		if c.Linear {
-			k++
-		} else {
-			k += 4
-		}
-	}
-	return k
-}
-
-func indexOf(names []string, n string) int {
-	for i, v := range names {
-		if v == n {
-			return i
-		}
-	}
-	return -1
 }
 
 // Summary is a posterior summary of one effect.
@@ -404,9 +402,12 @@ type Sensitivity struct {
 func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 	sc := in.Data
 	nd := len(in.DemandDraws.Rows)
-	gi := indexOf(in.Outcome.Names(), "gamma")
-	if gi < 0 || nd != len(in.OutcomeDraws.Rows) {
+	if !in.Outcome.Layout().HasGamma() || nd != len(in.OutcomeDraws.Rows) {
 		return nil, fmt.Errorf("mediation: sensitivity needs paired demand and outcome draws and a gamma")
+	}
+	sim, err := forward.New(sc, in.Demand, in.Outcome)
+	if err != nil {
+		return nil, err
 	}
 	nu := len(sc.UpperNames)
 	type perDraw struct{ gamma, k, r float64 }
@@ -422,14 +423,13 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 		wg.Add(1)
 		go func(wkr int) {
 			defer wg.Done()
-			m, n := make([]float64, T), make([]float64, T)
+			var run forward.Run
 			e1, e2 := make([]float64, T), make([]float64, T)
-			h := make([]float64, T)
 			for d := wkr; d < nd; d += workers {
-				v1, v2 := in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d]
-				gamma := v2[gi]
-				in.Demand.Predict(m, v1)
-				in.Outcome.Predict(n, v2)
+				dr := sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
+				gamma := dr.Outcome.Gamma()
+				sim.Fit(&run, dr)
+				m, n := run.Queries, run.Outcome
 				for t := 0; t < T; t++ {
 					e2[t] = sc.Queries[t] - m[t]
 					e1[t] = sc.Outcome[t] - n[t] + gamma*e2[t]
@@ -437,13 +437,8 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 				s1, s2, r := linear.Moments(e1, e2)
 				pd[d] = perDraw{gamma: gamma, k: s1 / s2, r: r}
 				for c := 0; c < nu; c++ {
-					var alpha float64
-					h, alpha = in.Demand.Response(h, c, v1, sc.Upper[c])
-					sum := 0.0
-					for _, v := range h {
-						sum += v
-					}
-					amp[c][d] = sc.OutcomeScale * alpha * sum
+					lift := run.Upper[c].Lift
+					amp[c][d] = sc.OutcomeScale * lift.Gain * lift.Sum()
 				}
 			}
 		}(wkr)
@@ -475,3 +470,45 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 }
 
 func isFixed(p model.Prior) bool { return p.Family == model.Fixed }
+
+// naiveProjection writes into coef the coefficients that the outcome stage
+// without its query term would find, at its posterior mean, if the outcome
+// were this draw's expected outcome Xθ + γq:
+//
+//	b = argmin ||Xθ + γq - Xb||² + s2 Σ_k prec_k (b_k - pm_k)²
+//	  = θ + (XᵀX + s2 P)⁻¹ (γ Xᵀq + s2 P (pm - θ)),
+//
+// with X the first T rows of x (the stage's regressors at this draw's
+// transforms), pm and prec the normal approximations of that stage's priors
+// and s2 = σ_y² + γ²σ_q², the noise such a stage would see. With prec = 0 it
+// is the omitted-variable identity b = θ + γd, d the least-squares
+// coefficients of q on X (Wooldridge, Introductory Econometrics, ch. 3). The
+// priors matter only where the data cannot place a column: when paid
+// search's response barely moves (a saturated draw, nearly collinear with
+// the intercept), d alone is unbounded (572 against a typical 0.5 in one
+// draw of a short demo fit, crediting paid search with 71 million
+// conversions) while the stage without queries would fall back on its
+// priors, as this does. x (T+p rows) and yaug are
+// scratch; the solve is least squares on the data stacked over the prior
+// rows, by QR.
+func naiveProjection(coef []float64, solver *ols.Solver, x *mat.Dense, yaug, theta, q []float64, gamma, s2 float64, pm, prec []float64) error {
+	T := len(q)
+	p := len(theta)
+	for i := 0; i < T; i++ {
+		v := gamma * q[i]
+		for k := 0; k < p; k++ {
+			v += x.At(i, k) * theta[k]
+		}
+		yaug[i] = v
+	}
+	for k := 0; k < p; k++ {
+		w := math.Sqrt(s2 * prec[k])
+		for j := 0; j < p; j++ {
+			x.Set(T+k, j, 0)
+		}
+		x.Set(T+k, k, w)
+		yaug[T+k] = w * pm[k]
+	}
+	_, err := solver.Coef(coef, x, yaug)
+	return err
+}

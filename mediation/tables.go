@@ -5,11 +5,8 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"math/rand/v2"
 	"strconv"
 	"time"
-
-	"spillway/funnel/model"
 )
 
 func ff(v float64) string {
@@ -132,35 +129,13 @@ func RhoGrid() []float64 {
 // noise is drawn from a PCG stream seeded by seed, so output is
 // reproducible.
 func WriteFitted(w io.Writer, in *Inputs, seed uint64) error {
-	sc := in.Data
+	weeks, err := Fitted(in, seed)
+	if err != nil {
+		return err
+	}
 	rows := [][]string{{"stage", "week", "actual", "mean", "q05", "q95"}}
-	for si, st := range []struct {
-		stage *model.Stage
-		draws Draws
-		scale float64
-		y     []float64
-		name  string
-	}{{in.Demand, in.DemandDraws, sc.QueriesScale, sc.Queries, "demand"}, {in.Outcome, in.OutcomeDraws, sc.OutcomeScale, sc.Outcome, "outcome"}} {
-		rng := rand.New(rand.NewPCG(seed, uint64(si)))
-		nd := len(st.draws.Rows)
-		pred := make([][]float64, sc.T)
-		for t := range pred {
-			pred[t] = make([]float64, nd)
-		}
-		sig := len(st.draws.Names) - 1
-		n := make([]float64, sc.T)
-		var mean []float64 = make([]float64, sc.T)
-		for d, v := range st.draws.Rows {
-			st.stage.Predict(n, v)
-			for t := range n {
-				mean[t] += n[t] / float64(nd)
-				pred[t][d] = (n[t] + v[sig]*rng.NormFloat64()) * st.scale
-			}
-		}
-		for t, wk := range sc.Weeks {
-			s := Summarise(pred[t])
-			rows = append(rows, []string{st.name, wk.Format("2006-01-02"), ff(st.y[t] * st.scale), ff(mean[t] * st.scale), ff(s.Q05), ff(s.Q95)})
-		}
+	for _, f := range weeks {
+		rows = append(rows, []string{f.Stage, f.Week.Format("2006-01-02"), ff(f.Actual), ff(f.Mean), ff(f.Q05), ff(f.Q95)})
 	}
 	return writeAll(w, rows)
 }
@@ -171,56 +146,15 @@ func WriteFitted(w io.Writer, in *Inputs, seed uint64) error {
 // weekly_spend every week (normalised adstock then equals the spend), through
 // each path, on a grid from zero to twice the channel's largest weekly spend.
 func WriteCurves(w io.Writer, in *Inputs, points int) error {
-	sc := in.Data
+	curves, err := Curves(in, points)
+	if err != nil {
+		return err
+	}
 	rows := [][]string{{"channel", "path", "weekly_spend", "mean", "q05", "q95", "current_weekly_spend"}}
-	gi := indexOf(in.Outcome.Names(), "gamma")
-	nd := len(in.DemandDraws.Rows)
-	one := []float64{0}
-	for c, col := range sc.UpperNames {
-		maxSpend, total := 0.0, 0.0
-		for _, v := range sc.RawUpper[c] {
-			maxSpend = math.Max(maxSpend, v)
-			total += v
-		}
-		current := total / float64(sc.T)
-		j2 := in.Outcome.ChannelIndex(col)
-		via, dir, tot := make([]float64, nd), make([]float64, nd), make([]float64, nd)
-		for i := 0; i < points; i++ {
-			spend := 2 * maxSpend * float64(i) / float64(points-1)
-			x := spend / sc.UpperScale[c]
-			for d := 0; d < nd; d++ {
-				v1, v2 := in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d]
-				// a constant input x gives normalised adstock x in steady state;
-				// evaluate H there with lam = 0 (identity adstock) via Response
-				h1, alpha := steadyResponse(in.Demand, c, v1, x, one)
-				h2, delta := steadyResponse(in.Outcome, j2, v2, x, one)
-				via[d] = sc.OutcomeScale * v2[gi] * alpha * h1
-				dir[d] = sc.OutcomeScale * delta * h2
-				tot[d] = via[d] + dir[d]
-			}
-			for _, p := range []struct {
-				name string
-				x    []float64
-			}{{"direct", dir}, {"via_search", via}, {"total", tot}} {
-				s := Summarise(p.x)
-				rows = append(rows, []string{col, p.name, ff(spend), ff(s.Mean), ff(s.Q05), ff(s.Q95), ff(current)})
-			}
-		}
+	for _, p := range curves {
+		rows = append(rows, []string{p.Channel, p.Path, ff(p.WeeklySpend), ff(p.Mean), ff(p.Q05), ff(p.Q95), ff(p.CurrentWeeklySpend)})
 	}
 	return writeAll(w, rows)
-}
-
-// steadyResponse returns H(x; K, S) of channel j at v (x itself when linear)
-// and the channel's coefficient.
-func steadyResponse(st *model.Stage, j int, v []float64, x float64, buf []float64) (float64, float64) {
-	vv := append([]float64(nil), v...)
-	k := coefIndex(st, j)
-	if !st.Channels[j].Linear {
-		vv[k+1] = 0 // retention 0: adstock is the input itself
-	}
-	buf[0] = x
-	h, coef := st.Response(buf, j, vv, buf[:1])
-	return h[0], coef
 }
 
 // Table writes the human-readable split for one window: per upper channel

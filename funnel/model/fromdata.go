@@ -1,8 +1,6 @@
 package model
 
 import (
-	"math"
-
 	"spillway/funnel/data"
 )
 
@@ -46,12 +44,9 @@ func ScaleTrain(s data.Series, spec data.Spec, train []bool) *Scaled {
 		sc.Season[k] = make([]float64, T)
 	}
 	for i := 0; i < T; i++ {
-		t := float64(i + 1)
-		w := 2 * math.Pi * t / SeasonPeriod
-		sc.Season[0][i] = math.Cos(w)
-		sc.Season[1][i] = math.Cos(2 * w)
-		sc.Season[2][i] = math.Sin(w)
-		sc.Season[3][i] = math.Sin(2 * w)
+		for k, v := range SeasonAt(i) {
+			sc.Season[k][i] = v
+		}
 	}
 	pick := func(x []float64) []float64 {
 		if train == nil {

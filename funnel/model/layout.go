@@ -18,6 +18,7 @@ type Layout struct {
 	sigma     int
 	gamma     int   // -1 when the stage has no query term
 	regs      []int // position of Stage.Regressors[i]
+	queryReg  int   // index in Stage.Regressors of the query term, -1
 	scaling   []int // regressors whose coefficient scales with the response (all but gamma)
 	channels  []ChannelSlots
 	blocks    []Block
@@ -58,7 +59,7 @@ type Block struct {
 
 // Layout returns the stage's parameter layout.
 func (s *Stage) Layout() *Layout {
-	l := &Layout{names: s.Names(), gamma: -1}
+	l := &Layout{names: s.Names(), gamma: -1, queryReg: -1}
 	k := 0
 	add := func() int {
 		l.blocks = append(l.blocks, Block{Name: l.names[k], Start: k, Len: 1})
@@ -71,6 +72,7 @@ func (s *Stage) Layout() *Layout {
 		l.regs = append(l.regs, i)
 		if r.Name == QueryCoef {
 			l.gamma = i
+			l.queryReg = len(l.regs) - 1
 		} else {
 			l.scaling = append(l.scaling, i)
 		}
@@ -128,6 +130,13 @@ func (l *Layout) HasGamma() bool { return l.gamma >= 0 }
 // GammaSlot returns the position of gamma, or -1.
 func (l *Layout) GammaSlot() int { return l.gamma }
 
+// QueryRegressor returns the index in Stage.Regressors of the query term
+// (gamma q~), or -1.
+func (l *Layout) QueryRegressor() int { return l.queryReg }
+
+// RegressorSlot returns the position of Stage.Regressors[i]'s coefficient.
+func (l *Layout) RegressorSlot(i int) int { return l.regs[i] }
+
 // SigmaSlot returns the position of the noise scale.
 func (l *Layout) SigmaSlot() int { return l.sigma }
 
@@ -161,6 +170,16 @@ func (l *Layout) IsCoefficient(i int) bool {
 		}
 	}
 	return false
+}
+
+// SplitName splits a parameter name into its family and the data column it
+// belongs to: "alpha[video_spend]" gives "alpha" and "video_spend", "gamma"
+// gives "gamma" and "".
+func SplitName(name string) (family, column string) {
+	if i := strings.IndexByte(name, '['); i > 0 && strings.HasSuffix(name, "]") {
+		return name[:i], name[i+1 : len(name)-1]
+	}
+	return name, ""
 }
 
 // Check returns an error unless v has the layout's length.

@@ -9,7 +9,6 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/model"
-	"spillway/funnel/transform"
 )
 
 // Channel holds the true transform of one channel in one stage.
@@ -141,7 +140,10 @@ func (s *Scenario) Simulate() (*Result, error) {
 	ds := &data.Dataset{Spec: spec, Weeks: weeks}
 	res := &Result{Data: ds}
 	if s.Regions == 0 {
-		reg, dem, out := s.region(rng, "", 0, weeks, video, audio, price, s.P)
+		reg, dem, out, err := s.region(rng, "", 0, weeks, video, audio, price, s.P)
+		if err != nil {
+			return nil, err
+		}
 		ds.Regions = []data.Region{reg}
 		res.Demand, res.Outcome = dem, out
 		return res, nil
@@ -171,7 +173,10 @@ func (s *Scenario) Simulate() (*Result, error) {
 		r2 := *s
 		r2.QueryBase, r2.OutcomeBase, r2.SearchLevel = s.QueryBase*share, s.OutcomeBase*share, s.SearchLevel*share
 		name := fmt.Sprintf("R%02d", g+1)
-		reg, dem, out := r2.region(rng, name, pops[g], weeks, rv, ra, price, p)
+		reg, dem, out, err := r2.region(rng, name, pops[g], weeks, rv, ra, price, p)
+		if err != nil {
+			return nil, err
+		}
 		ds.Regions = append(ds.Regions, reg)
 		res.Regions = append(res.Regions, Region{Name: name, Population: pops[g], Demand: dem, Outcome: out})
 	}
@@ -188,7 +193,7 @@ func scaleCoefs(cs []Channel, rng *rand.Rand, sd float64) []Channel {
 
 // region simulates one series from p and returns it with the true
 // parameters rescaled to the units the model fits in.
-func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time.Time, video, audio, price []float64, p Params) (data.Region, map[string]float64, map[string]float64) {
+func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time.Time, video, audio, price []float64, p Params) (data.Region, map[string]float64, map[string]float64, error) {
 	T := len(weeks)
 	upperRaw := [][]float64{video, audio}
 	upper := make([][]float64, 2)
@@ -203,8 +208,9 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	}
 	for i := 0; i < T; i++ {
 		tau[i] = float64(i) / float64(T-1)
-		w := 2 * math.Pi * float64(i+1) / model.SeasonPeriod
-		season[0][i], season[1][i], season[2][i], season[3][i] = math.Cos(w), math.Cos(2*w), math.Sin(w), math.Sin(2*w)
+		for k, v := range model.SeasonAt(i) {
+			season[k][i] = v
+		}
 	}
 	// stage 1 in generating units
 	q := make([]float64, T)
@@ -255,25 +261,92 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	// rounding changes the means slightly; use the means the model will see
 	mqs = mean(queries) / s.QueryBase
 	mys = mean(outcome) / s.OutcomeBase
-	dem := map[string]float64{"mu_q": p.MuQ / mqs, "b_q": p.BQ / mqs, "phi_q[price]": p.PhiQ / mqs, "sigma_q": p.SigmaQ / mqs}
-	out := map[string]float64{"mu_y": p.MuY / mys, "b_y": p.BY / mys, "phi_y[price]": p.PhiY / mys, "sigma_y": p.SigmaY / mys,
-		"gamma": p.Gamma * mqs / mys}
-	for k, nm := range []string{"[1]", "[2]"} {
-		dem["cq"+nm], dem["dq"+nm] = p.SeasonQ[k]/mqs, p.SeasonQ[k+2]/mqs
-		out["cy"+nm], out["dy"+nm] = p.SeasonY[k]/mys, p.SeasonY[k+2]/mys
-	}
-	for c, col := range Spec.Upper {
-		ch := p.Demand[c]
-		dem["alpha["+col+"]"], dem["lam["+col+"]"], dem["K["+col+"]"], dem["S["+col+"]"] = ch.Coef/mqs, ch.Lam, ch.K, ch.S
-		d := p.Direct[c]
-		out["delta["+col+"]"], out["lam2["+col+"]"], out["K2["+col+"]"], out["S2["+col+"]"] = d.Coef/mys, d.Lam, d.K, d.S
-	}
-	sc := Spec.Search[0]
-	out["beta["+sc+"]"], out["lam_s["+sc+"]"], out["K_s["+sc+"]"], out["S_s["+sc+"]"] = p.Search.Coef/mys, p.Search.Lam, p.Search.K, p.Search.S
 	reg := data.Region{Name: name, Population: pop, Series: data.Series{
 		Weeks: weeks, Upper: upperRaw, Search: [][]float64{search}, Queries: queries, Outcome: outcome,
 		Controls: [][]float64{price}}}
-	return reg, dem, out
+	dem, out, err := p.inModelUnits(reg.Series, mqs, mys)
+	if err != nil {
+		return data.Region{}, nil, nil, err
+	}
+	return reg, dem, out, nil
+}
+
+// inModelUnits returns p as the true parameters of the model's demand and
+// outcome stages on series s, named as the model names them: the
+// generating units divided by mqs and mys, the means of q and y that the
+// model's scaling divides by (gamma by mys/mqs).
+func (p Params) inModelUnits(s data.Series, mqs, mys float64) (dem, out map[string]float64, err error) {
+	sc := model.Scale(s, Spec)
+	st1, err := model.Demand(sc, model.Options{})
+	if err != nil {
+		return nil, nil, err
+	}
+	st2, err := model.Outcome(sc, model.Options{})
+	if err != nil {
+		return nil, nil, err
+	}
+	upper := map[string]Channel{}
+	direct := map[string]Channel{Spec.Search[0]: p.Search}
+	for c, col := range Spec.Upper {
+		upper[col], direct[col] = p.Demand[c], p.Direct[c]
+	}
+	stage := stageTruth{mu: p.MuQ, trend: p.BQ, season: p.SeasonQ, control: p.PhiQ, sigma: p.SigmaQ, channels: upper}
+	if dem, err = stage.named(sc, st1, mqs, 0); err != nil {
+		return nil, nil, err
+	}
+	stage = stageTruth{mu: p.MuY, trend: p.BY, season: p.SeasonY, control: p.PhiY, sigma: p.SigmaY, channels: direct}
+	if out, err = stage.named(sc, st2, mys, p.Gamma*mqs/mys); err != nil {
+		return nil, nil, err
+	}
+	return dem, out, nil
+}
+
+// stageTruth is one stage's true parameters in generating units.
+type stageTruth struct {
+	mu, trend, control, sigma float64
+	season                    [4]float64
+	channels                  map[string]Channel // by data column
+}
+
+// named writes t as a draw of st (built on sc) through its layout, the
+// coefficients divided by m and gamma given in model units, and returns
+// it by parameter name.
+func (t stageTruth) named(sc *model.Scaled, st *model.Stage, m, gamma float64) (map[string]float64, error) {
+	roles, err := sc.Roles(st)
+	if err != nil {
+		return nil, err
+	}
+	l := st.Layout()
+	v := make([]float64, l.Len())
+	v[l.InterceptSlot()] = t.mu / m
+	v[l.SigmaSlot()] = t.sigma / m
+	for i, r := range roles {
+		switch r.Kind {
+		case model.RoleTrend:
+			v[l.RegressorSlot(i)] = t.trend / m
+		case model.RoleSeason:
+			v[l.RegressorSlot(i)] = t.season[r.Index] / m
+		case model.RoleControl:
+			v[l.RegressorSlot(i)] = t.control / m
+		case model.RoleQueries:
+			v[l.RegressorSlot(i)] = gamma
+		}
+	}
+	for _, cs := range l.Channels() {
+		ch, ok := t.channels[cs.Column]
+		if !ok {
+			return nil, fmt.Errorf("scenario: no true parameters for channel %s", cs.Column)
+		}
+		v[cs.Coef] = ch.Coef / m
+		if !cs.Linear() {
+			v[cs.Lam], v[cs.K], v[cs.S] = ch.Lam, ch.K, ch.S
+		}
+	}
+	named := map[string]float64{}
+	for i, n := range l.Names() {
+		named[n] = v[i]
+	}
+	return named, nil
 }
 
 // videoSpend draws flighted video spend: bursts of 3 to 8 weeks on, gaps of
@@ -319,12 +392,9 @@ func (s *Scenario) price(rng *rand.Rand) []float64 {
 	return x
 }
 
+// hillSeries is channel c's coefficient-free response to spend x.
 func hillSeries(x []float64, c Channel) []float64 {
-	a := transform.Adstock(nil, x, c.Lam)
-	for i, v := range a {
-		a[i] = transform.Hill(v, c.K, c.S)
-	}
-	return a
+	return model.Media{Lam: c.Lam, K: c.K, S: c.S}.Response(nil, x)
 }
 
 func divide(x []float64, d float64) []float64 {

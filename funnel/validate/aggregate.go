@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"spillway/funnel/data"
+	"spillway/funnel/model"
 	"spillway/funnel/validate/score"
 )
 
@@ -376,7 +377,7 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 			counts[min(b, score.SBCBins-1)]++
 		}
 		_, p := score.RankUniformity(counts)
-		base, ch := paramBase(name)
+		base, ch := model.SplitName(name)
 		rep.Rows = append(rep.Rows, Row{Recovery, base, ch, "sbc_rank_p", p})
 		if p < minP {
 			minP, minName = p, name

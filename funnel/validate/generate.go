@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 
 	"spillway/funnel/data"
+	"spillway/funnel/forward"
 	"spillway/funnel/model"
 	"spillway/mediation"
 )
@@ -85,27 +86,32 @@ type replicate struct {
 // works in.
 func (sw *Sweep) simulate(g *generator, v1, v2 []float64, rng *rand.Rand) (*replicate, error) {
 	base, st := sw.base, sw.stages
-	T := base.T
-	m := st[0].Predict(nil, v1)
+	sim, err := forward.New(base, st[0], st[1])
+	if err != nil {
+		return nil, err
+	}
+	dr := sim.Draw(v1, v2)
+	var run forward.Run
+	sim.Fit(&run, dr)
+	m, n := run.Queries, run.Outcome // n with the observed queries
 	for c, r := range g.ramp {
 		if r == nil {
 			continue
 		}
-		h, alpha := st[0].Response(nil, c, v1, base.Upper[c])
+		lift := run.Upper[c].Lift
 		for t := range m {
-			m[t] += (r[t] - 1) * alpha * h[t]
+			m[t] += (r[t] - 1) * lift.Gain * lift.Response[t]
 		}
 	}
-	sigmaQ, sigmaY := v1[len(v1)-1], v2[len(v2)-1]
-	gi := indexOf(st[1].Names(), "gamma")
-	gamma := v2[gi]
-	n := st[1].Predict(nil, v2)
+	T := base.T
+	gamma := dr.Outcome.Gamma()
 	q, y := make([]float64, T), make([]float64, T)
 	for t := range q {
-		q[t] = m[t] + sigmaQ*rng.NormFloat64()
+		q[t] = forward.Predictive(m[t], dr.Demand.Sigma(), rng)
 	}
 	for t := range y {
-		y[t] = n[t] + gamma*(q[t]-base.Queries[t]) + sigmaY*rng.NormFloat64()
+		// the outcome stage's expected value at the simulated queries
+		y[t] = forward.Predictive(n[t]+gamma*(q[t]-base.Queries[t]), dr.Outcome.Sigma(), rng)
 	}
 	s := sw.in.Series
 	rep := &replicate{series: data.Series{Weeks: s.Weeks, Upper: s.Upper, Search: s.Search, Controls: s.Controls,
@@ -118,7 +124,6 @@ func (sw *Sweep) simulate(g *generator, v1, v2 []float64, rng *rand.Rand) (*repl
 	if !(rep.sc.QueriesScale > 0 && rep.sc.OutcomeScale > 0) {
 		return nil, fmt.Errorf("validate: a simulated data set has mean queries %g and mean outcome %g; the parameters give no positive series", rep.sc.QueriesScale, rep.sc.OutcomeScale)
 	}
-	var err error
 	if rep.st[0], err = model.Demand(rep.sc, sw.in.Options); err != nil {
 		return nil, err
 	}
@@ -128,8 +133,8 @@ func (sw *Sweep) simulate(g *generator, v1, v2 []float64, rng *rand.Rand) (*repl
 	// q~' = kq q~ and y~' = ky y~ in the replicate's own scaling.
 	kq := base.QueriesScale / rep.sc.QueriesScale
 	ky := base.OutcomeScale / rep.sc.OutcomeScale
-	rep.u1 = rescale(rep.st[0], v1, kq, 0)
-	rep.u2 = rescale(rep.st[1], v2, ky, ky/kq)
+	rep.u1 = rep.st[0].Layout().View(v1).Rescaled(kq, 0)
+	rep.u2 = rep.st[1].Layout().View(v2).Rescaled(ky, ky/kq)
 	in := &mediation.Inputs{Data: rep.sc, Demand: rep.st[0], Outcome: rep.st[1],
 		DemandDraws:  mediation.Draws{Names: rep.st[0].Names(), Rows: [][]float64{rep.u1}},
 		OutcomeDraws: mediation.Draws{Names: rep.st[1].Names(), Rows: [][]float64{rep.u2}}}
@@ -137,65 +142,34 @@ func (sw *Sweep) simulate(g *generator, v1, v2 []float64, rng *rand.Rand) (*repl
 		return nil, err
 	}
 	if g.ramp != nil {
-		sw.rampEffects(rep, g.ramp)
+		if err := sw.rampEffects(rep, g.ramp); err != nil {
+			return nil, err
+		}
 	}
 	return rep, nil
-}
-
-// rescale returns the parameter values v of stage st multiplied by k where
-// they scale with the stage's response (intercept, regressors, channel
-// coefficients, sigma), by kGamma for the query coefficient gamma, and
-// unchanged where they do not (retention, half-saturation, shape).
-func rescale(st *model.Stage, v []float64, k, kGamma float64) []float64 {
-	out := append([]float64(nil), v...)
-	i := 0
-	out[i] *= k
-	i++
-	for _, r := range st.Regressors {
-		if r.Name == "gamma" {
-			out[i] *= kGamma
-		} else {
-			out[i] *= k
-		}
-		i++
-	}
-	for _, c := range st.Channels {
-		out[i] *= k
-		if c.Linear {
-			i++
-		} else {
-			i += 4
-		}
-	}
-	out[i] *= k
-	return out
 }
 
 // rampEffects replaces the via-search (and so the total and mediated
 // share) effects of ramped channels with their drifting truth: week t's
 // response counts ramp[c][t] times.
-func (sw *Sweep) rampEffects(rep *replicate, ramp [][]float64) {
-	sc, st := rep.sc, rep.st
-	gamma := rep.u2[indexOf(st[1].Names(), "gamma")]
-	T := sc.T
-	cf := make([]float64, T)
+func (sw *Sweep) rampEffects(rep *replicate, ramp [][]float64) error {
+	sc := rep.sc
+	sim, err := forward.New(sc, rep.st[0], rep.st[1])
+	if err != nil {
+		return err
+	}
+	dr := sim.Draw(rep.u1, rep.u2)
+	var up, cf forward.Upper
+	var cfx []float64
 	for c, col := range sc.UpperNames {
 		if c >= len(ramp) || ramp[c] == nil {
 			continue
 		}
-		r := ramp[c]
-		h, alpha := st[0].Response(nil, c, rep.u1, sc.Upper[c])
+		sim.Upper(&up, dr, c, sc.Upper[c])
 		for _, win := range sw.windows {
-			copy(cf, sc.Upper[c])
-			for t := win.From; t <= win.To; t++ {
-				cf[t] = 0
-			}
-			hcf, _ := st[0].Response(nil, c, rep.u1, cf)
-			s := 0.0
-			for t := win.From; t < T; t++ {
-				s += r[t] * (h[t] - hcf[t])
-			}
-			via := sc.OutcomeScale * gamma * alpha * s
+			cfx = forward.Without(cfx, sc.Upper[c], win.From, win.To)
+			sim.Upper(&cf, dr, c, cfx)
+			via := forward.EffectWeighted(up.Via, cf.Via, win.From, ramp[c])
 			var dir float64
 			for i := range rep.effects.Effects {
 				e := &rep.effects.Effects[i]
@@ -219,13 +193,5 @@ func (sw *Sweep) rampEffects(rep *replicate, ramp [][]float64) {
 			}
 		}
 	}
-}
-
-func indexOf(names []string, n string) int {
-	for i, v := range names {
-		if v == n {
-			return i
-		}
-	}
-	return -1
+	return nil
 }

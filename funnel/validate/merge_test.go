@@ -206,7 +206,7 @@ func TestSimulateTruth(t *testing.T) {
 	}
 	v1, v2, _ := sw.gen.draw(1, nil, nil)
 	z1, z2 := append([]float64(nil), v1...), append([]float64(nil), v2...)
-	z1[len(z1)-1], z2[len(z2)-1] = 1e-300, 1e-300 // no noise
+	z1[sw.stages[0].Layout().SigmaSlot()], z2[sw.stages[1].Layout().SigmaSlot()] = 1e-300, 1e-300 // no noise
 	rep, err := sw.simulate(sw.gen, z1, z2, newRand(1))
 	if err != nil {
 		t.Fatal(err)

@@ -9,11 +9,11 @@ import (
 	"runtime"
 	"slices"
 	"sort"
-	"strings"
 	"sync"
 	"time"
 
 	"spillway/funnel/data"
+	"spillway/funnel/forward"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
@@ -286,8 +286,9 @@ func (sw *Sweep) recoveryJob(ctx context.Context, j Job, ref *fitted) ([]Record,
 		if k == 1 {
 			u = rep.u2
 		}
+		l := st.Layout()
 		for i, name := range st.Names() {
-			if !keyParam(st, name) {
+			if !l.IsCoefficient(i) {
 				continue
 			}
 			chains := f.fits[k].Column(name)
@@ -307,20 +308,6 @@ func (sw *Sweep) recoveryJob(ctx context.Context, j Job, ref *fitted) ([]Record,
 		}
 	}
 	return recs, nil
-}
-
-// keyParam reports whether name is one of the parameters whose calibration
-// ranks are kept: gamma and every channel coefficient (alpha, delta, beta).
-func keyParam(st *model.Stage, name string) bool {
-	if name == "gamma" {
-		return true
-	}
-	for _, c := range st.Channels {
-		if c.Params[0].Name == name {
-			return true
-		}
-	}
-	return false
 }
 
 // keyEffects returns the effects the checks compare: every path of each
@@ -444,16 +431,18 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			pred[k][i] = make([]float64, nd)
 		}
 	}
-	m, n := make([]float64, cut), make([]float64, cut)
+	sim, err := forward.New(sc, f.st[0], f.st[1])
+	if err != nil {
+		return nil, err
+	}
+	var run forward.Run
 	for d := 0; d < nd; d++ {
-		v1, v2 := d1.Rows[d], d2.Rows[d]
-		f.st[0].Predict(m, v1)
-		f.st[1].Predict(n, v2)
-		sq, sy := v1[len(v1)-1], v2[len(v2)-1]
+		dr := sim.Draw(d1.Rows[d], d2.Rows[d])
+		sim.Fit(&run, dr) // the forecast weeks' spend and queries are data
 		for i := 0; i < h; i++ {
 			t := j.Origin + i
-			pred[0][i][d] = (m[t] + sq*rng.NormFloat64()) * sc.QueriesScale
-			pred[1][i][d] = (n[t] + sy*rng.NormFloat64()) * sc.OutcomeScale
+			pred[0][i][d] = forward.Predictive(run.Queries[t], dr.Demand.Sigma(), rng) * sc.QueriesScale
+			pred[1][i][d] = forward.Predictive(run.Outcome[t], dr.Outcome.Sigma(), rng) * sc.OutcomeScale
 		}
 	}
 	for k, actual := range [][]float64{s.Queries, s.Outcome} {
@@ -570,12 +559,4 @@ func (sw *Sweep) stabilityJob(ctx context.Context, j Job, ref *fitted) ([]Record
 		recs = append(recs, effectRecords(j.Index, e, nil)...)
 	}
 	return recs, nil
-}
-
-// paramBase splits "alpha[video_spend]" into "alpha" and "video_spend".
-func paramBase(name string) (base, channel string) {
-	if i := strings.IndexByte(name, '['); i > 0 && strings.HasSuffix(name, "]") {
-		return name[:i], name[i+1 : len(name)-1]
-	}
-	return name, ""
 }
