@@ -158,7 +158,9 @@ type Path struct {
 	// mean(y) gamma alpha for via search.
 	Gain float64
 	// Response is the coefficient-free response H(a(x; lam); K, S) per week
-	// (the scaled spend itself for a linear channel).
+	// (the scaled spend itself for a linear channel), times the drift
+	// multiplier exp(f(t)) of week t when the coefficient drifts (model
+	// Params.ApplyDrift; held at the last week's value past the data).
 	Response []float64
 }
 
@@ -209,10 +211,13 @@ type Upper struct {
 func (s *Simulator) Upper(dst *Upper, d Draw, c int, x []float64) {
 	m1 := d.Demand.ChannelAt(s.dem[c])
 	h1 := m1.Response(dst.Lift.Response, x)
+	d.Demand.ApplyDrift(h1, s.dem[c])
 	dst.Lift = Path{Gain: m1.Coef, Response: h1}
 	dst.Via = Path{Gain: s.sc.OutcomeScale * d.Outcome.Gamma() * m1.Coef, Response: h1}
 	m2 := d.Outcome.ChannelAt(s.dir[c])
-	dst.Direct = Path{Gain: s.sc.OutcomeScale * m2.Coef, Response: m2.Response(dst.Direct.Response, x)}
+	h2 := m2.Response(dst.Direct.Response, x)
+	d.Outcome.ApplyDrift(h2, s.dir[c])
+	dst.Direct = Path{Gain: s.sc.OutcomeScale * m2.Coef, Response: h2}
 }
 
 // Search writes paid-search channel k's controlled path (outcome units: gain
@@ -221,11 +226,13 @@ func (s *Simulator) Search(dst *Path, d Draw, k int, x []float64) {
 	m := d.Outcome.ChannelAt(s.srch[k])
 	dst.Gain = s.sc.OutcomeScale * m.Coef
 	dst.Response = m.Response(dst.Response, x)
+	d.Outcome.ApplyDrift(dst.Response, s.srch[k])
 }
 
 // Steady returns upper channel c's weekly via-search and direct outcome
 // when it spends x (scaled units) every week for ever: normalised adstock
-// then equals x, so each response is H(x; K, S).
+// then equals x, so each response is H(x; K, S). A drifting coefficient
+// counts at its average effectiveness (multiplier 1).
 func (s *Simulator) Steady(d Draw, c int, x float64) (via, direct float64) {
 	m1 := d.Demand.ChannelAt(s.dem[c])
 	m2 := d.Outcome.ChannelAt(s.dir[c])
@@ -305,6 +312,7 @@ func predict(dst []float64, p model.Params, regs [][]float64, q int, queries []f
 	for t := range dst {
 		dst[t] = mu
 	}
+	p.AddBaseline(dst) // a baseline that moves, if the stage has one
 	for i, x := range regs {
 		if i == q {
 			x = queries

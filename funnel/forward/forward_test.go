@@ -283,3 +283,67 @@ func TestPlanTooLong(t *testing.T) {
 	plan := forward.Plan{Upper: [][]float64{extend(k.video, 1), extend(k.audio, 1)}, Search: [][]float64{extend(k.paid, 1)}}
 	sim.Run(&run, sim.Draw(k.v1, k.v2), plan, nil)
 }
+
+// TestDrift checks the simulator on stages whose coefficients drift and
+// whose baseline moves: the fitted values equal each stage's own Predict,
+// and a path's effect counts week t's response difference exp(f(t)) times,
+// by the stage's multiplier (model Params.Multiplier).
+func TestDrift(t *testing.T) {
+	k := newTiny(t)
+	o := model.Options{Linear: map[string]bool{"audio": true}, Drift: map[string]bool{"video": true, "paid": true}, Baseline: model.BaselineSmooth}
+	dem, err := model.Demand(k.sc, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	out, err := model.Outcome(k.sc, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(5, 6))
+	draw := func(st *model.Stage) []float64 {
+		tg, err := st.Target()
+		if err != nil {
+			t.Fatal(err)
+		}
+		x := make([]float64, tg.Dim())
+		for i := range x {
+			x[i] = rng.Float64() - 0.5
+		}
+		return tg.Constrain(nil, x)
+	}
+	v1, v2 := draw(dem), draw(out)
+	sim, err := forward.New(k.sc, dem, out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	d := sim.Draw(v1, v2)
+	var run forward.Run
+	sim.Fit(&run, d)
+	want1, want2 := dem.Predict(nil, v1), out.Predict(nil, v2)
+	for i := range want1 {
+		near(t, "fitted queries", run.Queries[i], want1[i])
+		near(t, "fitted outcome", run.Outcome[i], want2[i])
+	}
+	const from = 3
+	var up, cf forward.Upper
+	sim.Upper(&up, d, 0, k.video)
+	cfx := forward.Without(nil, k.video, from, 5)
+	sim.Upper(&cf, d, 0, cfx)
+	j1, j2 := dem.ChannelIndex("video"), out.ChannelIndex("video")
+	h1, alpha := dem.Response(nil, j1, v1, k.video)
+	c1, _ := dem.Response(nil, j1, v1, cfx)
+	h2, delta := out.Response(nil, j2, v2, k.video)
+	c2, _ := out.Response(nil, j2, v2, cfx)
+	m1 := d.Demand.Multiplier(make([]float64, k.weeks), j1)
+	m2 := d.Outcome.Multiplier(make([]float64, k.weeks), j2)
+	var via, dir float64
+	for w := from; w < k.weeks; w++ {
+		via += m1[w] * (h1[w] - c1[w])
+		dir += m2[w] * (h2[w] - c2[w])
+	}
+	near(t, "via search, drifting", forward.Effect(up.Via, cf.Via, from), k.sc.OutcomeScale*d.Outcome.Gamma()*alpha*via)
+	near(t, "direct, drifting", forward.Effect(up.Direct, cf.Direct, from), k.sc.OutcomeScale*delta*dir)
+	if m1[0] == m1[1] || m2[0] == m2[1] {
+		t.Errorf("the multipliers do not move: %v %v", m1, m2)
+	}
+}

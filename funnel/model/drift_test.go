@@ -231,13 +231,20 @@ func checkSmoothLayout(t *testing.T, st *Stage, v []float64) {
 	}
 	if st.Baseline != nil {
 		seen++
-		if !l.Baseline().Has() || names[l.Baseline().SD] != "base_sd_"+strings.TrimPrefix(st.Sigma, "sigma_") || p.Baseline(nil) == nil {
+		if !l.Baseline().Has() || names[l.Baseline().SD] != "base_sd_"+strings.TrimPrefix(st.Sigma, "sigma_") {
 			t.Errorf("%s: baseline slots %+v", st.Name, l.Baseline())
+		}
+		T := len(st.Y)
+		got, want := p.Baseline(make([]float64, T+2)), st.Baseline.Eval(nil, v[l.Baseline().SD:])
+		for i := range got {
+			if w := want[min(i, T-1)]; math.Abs(got[i]-w) > 1e-12 {
+				t.Fatalf("%s week %d: baseline %v, want %v", st.Name, i, got[i], w)
+			}
 		}
 		if slices.Contains(names, "b_q") || slices.Contains(names, "b_y") {
 			t.Errorf("%s: a moving baseline replaces the trend line; names %v", st.Name, names)
 		}
-	} else if p.Baseline(nil) != nil {
+	} else if p.Baseline(make([]float64, 3)) != nil {
 		t.Errorf("%s: no baseline, but Params.Baseline is not nil", st.Name)
 	}
 	if bl != seen {

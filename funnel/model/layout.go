@@ -222,37 +222,75 @@ func (p Params) Gamma() float64 {
 	return p.v[p.l.gamma]
 }
 
+// Drifts reports whether the coefficient of the stage's j-th channel
+// drifts by week.
+func (p Params) Drifts(j int) bool { return p.l.channels[j].Drift.Has() }
+
 // Multiplier writes the drift multiplier exp(f(t)) of the stage's j-th
 // channel in weeks 0..len(dst)-1 into dst and returns it: 1 in every week
 // when the channel does not drift. Past the data's last week it holds the
-// last week's value (the latest effectiveness: the approximation has no
-// meaning far beyond the data, and a plan should not assume a trend
-// continues).
+// last week's value (ApplyDrift).
 func (p Params) Multiplier(dst []float64, j int) []float64 {
-	d := p.l.channels[j].Drift
-	if !d.Has() {
-		for i := range dst {
-			dst[i] = 1
-		}
-		return dst
-	}
-	T := d.Basis.T
-	f := d.Basis.Eval(nil, p.v[d.SD], p.v[d.Len], p.v[d.Z:d.Z+d.Basis.M])
 	for i := range dst {
-		dst[i] = math.Exp(f[min(i, T-1)])
+		dst[i] = 1
 	}
+	p.ApplyDrift(dst, j)
 	return dst
 }
 
+// ApplyDrift multiplies h[t], weeks from the data's first, by the drift
+// multiplier exp(f(t)) of the stage's j-th channel, and leaves h alone
+// when the channel does not drift. Past the data's last week the
+// multiplier holds the last week's value: the latest effectiveness (the
+// approximation means nothing far beyond the data, and a plan should not
+// assume that a drift goes on).
+func (p Params) ApplyDrift(h []float64, j int) {
+	d := p.l.channels[j].Drift
+	if !d.Has() {
+		return
+	}
+	var buf [64]float64
+	c := d.Basis.coefs(buf[:0], p.v[d.SD], p.v[d.Len], p.v[d.Z:d.Z+d.Basis.M])
+	T := d.Basis.T
+	for t := range h {
+		if t >= T {
+			last := math.Exp(d.Basis.at(T-1, c))
+			for u := t; u < len(h); u++ {
+				h[u] *= last
+			}
+			return
+		}
+		h[t] *= math.Exp(d.Basis.at(t, c))
+	}
+}
+
 // Baseline writes the moving baseline's f(t) (scaled units, averaging zero
-// over the fitted weeks) in the data's weeks into dst and returns it; nil
-// when the stage has a trend line instead.
+// over the fitted weeks) into dst, weeks from the data's first (held at the
+// last week's value past it), and returns it; nil when the stage has a
+// trend line instead.
 func (p Params) Baseline(dst []float64) []float64 {
-	b := p.l.baseline
-	if !b.Has() {
+	if !p.l.baseline.Has() {
 		return nil
 	}
-	return b.Basis.Eval(dst, p.v[b.SD], p.v[b.Len], p.v[b.Z:b.Z+b.Basis.M])
+	clear(dst)
+	p.AddBaseline(dst)
+	return dst
+}
+
+// AddBaseline adds the moving baseline's f(t) to n[t], weeks from the
+// data's first (held at the last week's value past it), and leaves n alone
+// when the stage has a trend line instead.
+func (p Params) AddBaseline(n []float64) {
+	b := p.l.baseline
+	if !b.Has() {
+		return
+	}
+	var buf [64]float64
+	c := b.Basis.coefs(buf[:0], p.v[b.SD], p.v[b.Len], p.v[b.Z:b.Z+b.Basis.M])
+	T := b.Basis.T
+	for t := range n {
+		n[t] += b.Basis.at(min(t, T-1), c)
+	}
 }
 
 // Regressor returns the coefficient of Stage.Regressors[i].

@@ -135,13 +135,34 @@ func (b *Basis) scales(s, ds []float64, sd, ell float64) {
 // short is replaced.
 func (b *Basis) Eval(dst []float64, sd, ell float64, z []float64) []float64 {
 	dst = resizeTo(dst, b.T)
-	s := make([]float64, b.M)
-	b.scales(s, nil, sd, ell)
-	for j := range s {
-		s[j] *= z[j]
-	}
-	b.apply(dst, s, 0, b.T)
+	var buf [64]float64
+	b.apply(dst, b.coefs(buf[:0], sd, ell, z), 0, b.T)
 	return dst
+}
+
+// coefs appends s_j z_j, the weights of the basis functions in f, to dst
+// and returns them (no allocation when dst has the capacity).
+func (b *Basis) coefs(dst []float64, sd, ell float64, z []float64) []float64 {
+	n := len(dst)
+	for range b.M {
+		dst = append(dst, 0)
+	}
+	c := dst[n:]
+	b.scales(c, nil, sd, ell)
+	for j := range c {
+		c[j] *= z[j]
+	}
+	return c
+}
+
+// at returns sum_j c_j phi~_j(t).
+func (b *Basis) at(t int, c []float64) float64 {
+	row := b.phi[t*b.M : t*b.M+b.M]
+	v := 0.0
+	for j, p := range row {
+		v += p * c[j]
+	}
+	return v
 }
 
 // apply writes sum_j c_j phi~_j(t) into f[t] for t in [lo, hi).
