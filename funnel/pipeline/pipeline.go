@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"time"
 
+	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/mediation"
@@ -52,6 +53,10 @@ type Fitted struct {
 	// Wall is each stage's wall time in seconds, warm-up and sampling of all
 	// chains as the user waits for it.
 	Wall [3]float64
+	// Tests are the lift tests fitted as data (FitLifts), and Lifts their
+	// terms in the likelihood, bound to the stages; nil without tests.
+	Tests []lifts.Test
+	Lifts []*model.LiftTest
 }
 
 // StageHook is called before each stage starts; it may return a progress

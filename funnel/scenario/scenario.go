@@ -28,6 +28,26 @@ type Params struct {
 	Search           Channel    // paid search (beta, lam_s, K_s, S_s)
 	Gamma            float64
 	SigmaQ, SigmaY   float64
+	// Drift, if not nil, multiplies coefficients by week (effects that
+	// change over time); nil: fixed effects.
+	Drift *Drift
+}
+
+// Drift holds weekly multipliers of the true coefficients, each series as
+// long as the data (a nil series: no drift): Demand[c] of upper channel c's
+// lift of queries, Direct[c] of its direct effect, Search of paid search's
+// effect. The multiplier of week t scales the response observed in week t.
+type Drift struct {
+	Demand, Direct [][]float64
+	Search         []float64
+}
+
+// at returns the multiplier of series c of m in week t (1 when none).
+func at(m [][]float64, c, t int) float64 {
+	if c >= len(m) || m[c] == nil {
+		return 1
+	}
+	return m[c][t]
 }
 
 // Scenario describes a simulated data set.
@@ -220,10 +240,14 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 			q[i] += p.SeasonQ[k] * season[k][i]
 		}
 	}
+	var drift Drift
+	if p.Drift != nil {
+		drift = *p.Drift
+	}
 	for c, ch := range p.Demand {
 		h := hillSeries(upper[c], ch)
 		for i := range q {
-			q[i] += ch.Coef * h[i]
+			q[i] += ch.Coef * at(drift.Demand, c, i) * h[i]
 		}
 	}
 	// paid search spend partly follows query volume
@@ -243,12 +267,12 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	}
 	hs := hillSeries(xs, p.Search)
 	for i := range y {
-		y[i] += p.Search.Coef * hs[i]
+		y[i] += p.Search.Coef * at([][]float64{drift.Search}, 0, i) * hs[i]
 	}
 	for c, ch := range p.Direct {
 		h := hillSeries(upper[c], ch)
 		for i := range y {
-			y[i] += ch.Coef * h[i]
+			y[i] += ch.Coef * at(drift.Direct, c, i) * h[i]
 		}
 	}
 	// raw units; the model divides by the means, so the truth is rescaled by them
