@@ -10,6 +10,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"spillway/funnel/pipeline"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -58,13 +59,13 @@ EXAMPLE
 
 // runSplit computes the effects of a fit folder and adds the split's files
 // to it atomically; say reports the folder on stdout.
-func runSplit(ctx context.Context, dir, window string, stdout io.Writer, say bool) error {
+func runSplit(ctx context.Context, dir, windowName string, stdout io.Writer, say bool) error {
 	ff, err := readFitFolder(dir)
 	if err != nil {
 		return err
 	}
-	wins := mediation.Quarters(ff.scaled.Weeks)
-	asked, err := mediation.ParseWindow(window, ff.scaled.Weeks)
+	wins := window.Quarters(ff.scaled.Weeks)
+	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
 	if err != nil {
 		return usagef("--window %v", err)
 	}
