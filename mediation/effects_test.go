@@ -206,4 +206,3 @@ func TestBorrowedIdentity(t *testing.T) {
 		t.Errorf("borrowed share: got %v, want %v", share, (app-ctl)/app)
 	}
 }
-
