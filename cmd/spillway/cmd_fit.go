@@ -11,6 +11,7 @@ import (
 	"golang.org/x/term"
 
 	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/progress"
 	"spillway/funnel/model"
@@ -102,7 +103,7 @@ EXAMPLE
 			if err := noArgs(args); err != nil {
 				return err
 			}
-			od, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
+			od, _, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
 			if err != nil {
 				return err
 			}
@@ -117,15 +118,16 @@ EXAMPLE
 }
 
 // runFit fits and writes the fit folder into a temporary output folder,
-// which the caller commits (after adding more, as run does) or aborts. With
-// demo set, the data are that built-in scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (od *outDir, err error) {
+// which the caller commits (after adding more, as run does) or aborts; it
+// also returns the fit in memory. With demo set, the data are that built-in
+// scenario and roles are ignored.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (od *outDir, ff *fitFolder, err error) {
 	if err := opts.validate(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	out, err := newOutDir(opts.out, opts.force)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	defer func() {
 		if err != nil {
@@ -136,10 +138,10 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	var ds *data.Dataset
 	if demo != "" {
 		if ds, err = demoData(demo); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	} else if ds, err = roles.load(); err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
@@ -154,7 +156,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	o := model.Options{Linear: map[string]bool{}}
 	for _, c := range opts.linear {
 		if !cols[c] {
-			return nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
+			return nil, nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
 		}
 		o.Linear[c] = true
 	}
@@ -163,16 +165,16 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if opts.priors != "" {
 		st, err := pipeline.Stages(sc, o)
 		if err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 		if o.Priors, err = model.LoadPriors(opts.priors, pipeline.Known(st)); err != nil {
-			return nil, badData(err)
+			return nil, nil, badData(err)
 		}
 		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
-			return nil, badData(err)
+			return nil, nil, badData(err)
 		}
 	}
-	fs := &fitSpec{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
+	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
 		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
 	verb := "fit"
 	if demo != "" {
@@ -184,31 +186,32 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	// find it before any sampling
 	stages, err := pipeline.Stages(sc, o)
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	for _, st := range stages {
 		if _, err := st.Target(); err != nil {
-			return nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
+			return nil, nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
 		}
 	}
 	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
-	files, reps, err := fitFiles(fs, ds, priorBytes, fitted)
+	f, reps := newFit(*fs, ds, priorBytes, fitted)
+	files, err := f.FitFiles()
 	if err != nil {
-		return nil, err
+		return nil, nil, err
 	}
 	for name, b := range files {
 		if err := od.WriteFile(name, b); err != nil {
-			return nil, err
+			return nil, nil, err
 		}
 	}
 	printFitSummary(stdout, reps, fitted)
-	if v := string(files["verdict.txt"]); !strings.HasPrefix(v, "trustworthy") {
+	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
-	return od, nil
+	return od, &fitFolder{Fit: f, scaled: sc, stages: stages, fits: fitted.Fits}, nil
 }
 
 // progressHook returns the per-stage progress display: a bar when stderr
