@@ -2,6 +2,7 @@ package fitfolder_test
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -228,5 +229,39 @@ func TestUndefinedEffects(t *testing.T) {
 	os.WriteFile(wp, []byte(strings.Join(wl, "\n")), 0o644)
 	if _, err := fitfolder.Load(dir); err == nil || !strings.Contains(err.Error(), "weekly.csv line 2, column mean") {
 		t.Errorf("NaN weekly mean: got %v, want an error naming weekly.csv line 2, column mean", err)
+	}
+}
+
+// TestWriteLoadLossless checks that what the writer is given comes back
+// from Load unchanged: spillway run draws its charts from the values in
+// memory, chart and report from the files, and both must agree.
+func TestWriteLoadLossless(t *testing.T) {
+	fx, f := writeFixture(t, fitfoldertest.Options{Untrustworthy: true, Draws: 30})
+	in := fx.Fit
+	for _, c := range []struct {
+		name      string
+		got, want any
+	}{
+		{"spec.json", f.Run, in.Run},
+		{"verdict.txt", f.Verdict, in.Verdict},
+		{"effects.csv", f.Effects, in.Effects},
+		{"effect_draws.csv", f.EffectDraws, in.EffectDraws},
+		{"borrowed.csv", f.Borrowed, in.Borrowed},
+		{"weekly.csv", f.Weekly, in.Weekly},
+		{"sensitivity.csv", f.Sensitivity, in.Sensitivity},
+		{"breakeven.csv", f.Breakeven, in.Breakeven},
+		{"fitted.csv", f.Fitted, in.Fitted},
+		{"curves.csv", f.Curves, in.Curves},
+		{"data.csv", f.Data.Regions, in.Data.Regions},
+	} {
+		// %v spells every float64 exactly (and NaN as NaN).
+		if g, w := fmt.Sprintf("%v", c.got), fmt.Sprintf("%v", c.want); g != w {
+			t.Errorf("%s: read back differs from what was written", c.name)
+		}
+	}
+	for k, s := range in.Stages {
+		if g, w := fmt.Sprintf("%v %v", f.Stages[k].Params, f.Stages[k].Stats), fmt.Sprintf("%v %v", s.Params, s.Stats); g != w {
+			t.Errorf("%s: summary.csv or stats.json read back differs", s.Name)
+		}
 	}
 }

@@ -53,6 +53,8 @@ type Fixture struct {
 	Params      map[string][]fitfolder.Param
 	Stats       map[string]fitfolder.Stats
 	Verdict     []string
+	// Fit is the folder as values, as the fit folder's writer was given it.
+	Fit *fitfolder.Fit
 }
 
 // Upper, Search and the other names are the fixture's column names.
@@ -445,6 +447,7 @@ func (fx *Fixture) write() error {
 		}
 		f.EffectDraws[k] = fitfolder.DrawSeries{Draw: d, Value: v}
 	}
+	fx.Fit = f
 	return f.Write(fx.Dir)
 }
 
