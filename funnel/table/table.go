@@ -158,10 +158,11 @@ func syntaxError(file string, err error) error {
 	return &Error{File: file, Err: err}
 }
 
-// recordReader hands records already read (and located) to gocsv.
+// recordReader hands records already read (and located) to gocsv, which
+// takes them whole (ReadAll).
 type recordReader [][]string
 
-func (r recordReader) Read() ([]string, error) { panic("table: gocsv reads the whole table") }
+func (r recordReader) Read() ([]string, error) { return nil, errors.New("table: records are handed over whole") }
 
 func (r recordReader) ReadAll() ([][]string, error) { return r, nil }
 
