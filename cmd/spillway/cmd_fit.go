@@ -103,7 +103,7 @@ EXAMPLE
 			if err := noArgs(args); err != nil {
 				return err
 			}
-			od, _, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
+			od, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
 			if err != nil {
 				return err
 			}
@@ -117,31 +117,36 @@ EXAMPLE
 	})
 }
 
-// runFit fits and writes the fit folder into a temporary output folder,
-// which the caller commits (after adding more, as run does) or aborts; it
-// also returns the fit in memory. With demo set, the data are that built-in
-// scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (od *outDir, ff *fitFolder, err error) {
+// fitRun is a fit written into a temporary output folder, which the caller
+// commits (after adding more, as run does) or aborts, and the fit in memory.
+type fitRun struct {
+	*outDir
+	fit *fitFolder
+}
+
+// runFit fits and writes the fit folder into a temporary output folder.
+// With demo set, the data are that built-in scenario and roles are ignored.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	out, err := newOutDir(opts.out, opts.force)
 	if err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	defer func() {
 		if err != nil {
 			out.Abort()
 		}
 	}()
-	od = out
+	od := out
 	var ds *data.Dataset
 	if demo != "" {
 		if ds, err = demoData(demo); err != nil {
-			return nil, nil, err
+			return nil, err
 		}
 	} else if ds, err = roles.load(); err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
@@ -156,7 +161,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	o := model.Options{Linear: map[string]bool{}}
 	for _, c := range opts.linear {
 		if !cols[c] {
-			return nil, nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
+			return nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
 		}
 		o.Linear[c] = true
 	}
@@ -165,13 +170,13 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if opts.priors != "" {
 		st, err := pipeline.Stages(sc, o)
 		if err != nil {
-			return nil, nil, err
+			return nil, err
 		}
 		if o.Priors, err = model.LoadPriors(opts.priors, pipeline.Known(st)); err != nil {
-			return nil, nil, badData(err)
+			return nil, badData(err)
 		}
 		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
-			return nil, nil, badData(err)
+			return nil, badData(err)
 		}
 	}
 	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
@@ -186,32 +191,32 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	// find it before any sampling
 	stages, err := pipeline.Stages(sc, o)
 	if err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	for _, st := range stages {
 		if _, err := st.Target(); err != nil {
-			return nil, nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
+			return nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
 		}
 	}
 	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
 	if err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	f, reps := newFit(*fs, ds, priorBytes, fitted)
 	files, err := f.FitFiles()
 	if err != nil {
-		return nil, nil, err
+		return nil, err
 	}
 	for name, b := range files {
 		if err := od.WriteFile(name, b); err != nil {
-			return nil, nil, err
+			return nil, err
 		}
 	}
 	printFitSummary(stdout, reps, fitted)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
-	return od, &fitFolder{Fit: f, scaled: sc, stages: stages, fits: fitted.Fits}, nil
+	return &fitRun{od, &fitFolder{Fit: f, scaled: sc, stages: stages, fits: fitted.Fits}}, nil
 }
 
 // progressHook returns the per-stage progress display: a bar when stderr

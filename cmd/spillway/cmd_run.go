@@ -59,19 +59,19 @@ EXAMPLE
 // runAll fits, splits, draws and reports into one temporary folder and
 // commits it at the end. The charts and the report are drawn from the fit
 // and split in memory; the files are written for the user.
-func runAll(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo, windowName string, stdout, stderr io.Writer) error {
-	od, ff, err := runFit(ctx, roles, opts, demo, stdout, stderr)
+func runAll(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo, window string, stdout, stderr io.Writer) error {
+	od, err := runFit(ctx, roles, opts, demo, stdout, stderr)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
 	// the review window: checked against the data before the split runs
-	tableWindow := windowName
+	tableWindow := window
 	if tableWindow == "" {
 		tableWindow = "all"
 	}
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, ff, tableWindow)
+	s, err := splitFit(ctx, od.fit, tableWindow)
 	if err != nil {
 		return err
 	}
@@ -90,10 +90,10 @@ func runAll(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo, wi
 	if err := s.print(stdout); err != nil {
 		return err
 	}
-	f := ff.Fit
+	f := od.fit.Fit
 	f.Split = s.Split
 	f.Dir = od.Final()
-	w, err := f.Window(windowName)
+	w, err := f.Window(window)
 	if err != nil {
 		return usagef("--window: %v", err)
 	}
