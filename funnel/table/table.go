@@ -162,7 +162,9 @@ func syntaxError(file string, err error) error {
 // takes them whole (ReadAll).
 type recordReader [][]string
 
-func (r recordReader) Read() ([]string, error) { return nil, errors.New("table: records are handed over whole") }
+func (r recordReader) Read() ([]string, error) {
+	return nil, errors.New("table: records are handed over whole")
+}
 
 func (r recordReader) ReadAll() ([][]string, error) { return r, nil }
 
