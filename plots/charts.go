@@ -5,7 +5,8 @@ import (
 	"math"
 	"time"
 
-	"spillway/plots/fitdir"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/window"
 	"spillway/plots/marks"
 
 	"gonum.org/v1/plot"
@@ -32,13 +33,13 @@ var builders = map[string]func(*review) (*Figure, error){
 // review is what every chart needs: the fit, the window under review and
 // the whole period.
 type review struct {
-	f       *fitdir.Fit
-	w       fitdir.Window
-	whole   fitdir.Window
+	f       *fitfolder.Fit
+	w       window.Window
+	whole   window.Window
 	outcome string // plain name of the outcome ("conversions")
 }
 
-func newReview(f *fitdir.Fit, window string) (*review, error) {
+func newReview(f *fitfolder.Fit, window string) (*review, error) {
 	w, err := f.Window(window)
 	if err != nil {
 		return nil, err
@@ -46,10 +47,10 @@ func newReview(f *fitdir.Fit, window string) (*review, error) {
 	return &review{f: f, w: w, whole: f.Whole(), outcome: Plain(f.Run.Spec.Outcome)}, nil
 }
 
-// Build returns every chart of Names for the window (see fitdir.Fit.Window:
-// empty means the last full quarter). The error is a *fitdir.WindowError
+// Build returns every chart of Names for the window (see fitfolder.Fit.Window:
+// empty means the last full quarter). The error is a *fitfolder.WindowError
 // when the window is not in effects.csv.
-func Build(f *fitdir.Fit, window string) ([]*Figure, error) {
+func Build(f *fitfolder.Fit, window string) ([]*Figure, error) {
 	r, err := newReview(f, window)
 	if err != nil {
 		return nil, err
@@ -68,7 +69,7 @@ func Build(f *fitdir.Fit, window string) ([]*Figure, error) {
 }
 
 // Chart returns the one chart called name (one of Names) for the window.
-func Chart(f *fitdir.Fit, window, name string) (*Figure, error) {
+func Chart(f *fitfolder.Fit, window, name string) (*Figure, error) {
 	b, ok := builders[name]
 	if !ok {
 		return nil, fmt.Errorf("plots: no chart called %q", name)
@@ -88,7 +89,7 @@ func Chart(f *fitdir.Fit, window, name string) (*Figure, error) {
 
 // warning is the red line under the title of every chart of a fit that is
 // not trustworthy.
-func warning(f *fitdir.Fit, name string) string {
+func warning(f *fitfolder.Fit, name string) string {
 	switch {
 	case f.Verdict.Trustworthy:
 		return ""
@@ -100,7 +101,7 @@ func warning(f *fitdir.Fit, name string) string {
 
 // weeksText describes the weeks of the data in w: "13 weeks starting
 // 7 Jul – 29 Sep 2025".
-func (r *review) weeksText(w fitdir.Window) string {
+func (r *review) weeksText(w window.Window) string {
 	var first, last time.Time
 	n := 0
 	for _, t := range r.f.Data.Weeks {
@@ -116,14 +117,14 @@ func (r *review) weeksText(w fitdir.Window) string {
 		return "no weeks of data"
 	}
 	if n == 1 {
-		return "1 week starting " + fitdir.Day(first)
+		return "1 week starting " + window.Day(first)
 	}
-	return fmt.Sprintf("%d weeks starting %s – %s", n, fitdir.Day(first), fitdir.Day(last))
+	return fmt.Sprintf("%d weeks starting %s – %s", n, window.Day(first), window.Day(last))
 }
 
 // windowCaption names the window under review and the whole period.
 func (r *review) windowCaption() string {
-	if r.w.Kind == fitdir.WholePeriod {
+	if r.w.Kind == window.WholePeriod {
 		return "Whole period: " + r.weeksText(r.whole) + "."
 	}
 	return fmt.Sprintf("%s: %s. Whole period: %s.", r.w.Name, r.weeksText(r.w), r.weeksText(r.whole))
@@ -131,21 +132,21 @@ func (r *review) windowCaption() string {
 
 // windowPhrase opens a sentence about the window: "In 2025Q3",
 // "Over the whole period", "From 1 Jul 2024 to 31 Dec 2024".
-func windowPhrase(w fitdir.Window) string {
+func windowPhrase(w window.Window) string {
 	switch w.Kind {
-	case fitdir.Quarter:
+	case window.Quarter:
 		return "In " + w.Name
-	case fitdir.Custom:
-		return fmt.Sprintf("From %s to %s", fitdir.Day(w.From), fitdir.Day(w.To))
+	case window.Custom:
+		return fmt.Sprintf("From %s to %s", window.Day(w.Start), window.Day(w.End))
 	}
 	return "Over the whole period"
 }
 
 // panelTitle names a window for a panel: "2025Q3 (Jul–Sep 2025)" or
 // "Whole period (Jan 2023 – Dec 2025)".
-func (r *review) panelTitle(w fitdir.Window) string {
-	if w.Kind == fitdir.WholePeriod {
-		return fmt.Sprintf("Whole period (%s – %s)", r.whole.From.Format("Jan 2006"), r.whole.To.Format("Jan 2006"))
+func (r *review) panelTitle(w window.Window) string {
+	if w.Kind == window.WholePeriod {
+		return fmt.Sprintf("Whole period (%s – %s)", r.whole.Start.Format("Jan 2006"), r.whole.End.Format("Jan 2006"))
 	}
 	return w.Label()
 }
@@ -160,7 +161,7 @@ func channelNames(cols []string) []string {
 	return out
 }
 
-func (r *review) effect(ch, path string, w fitdir.Window) (fitdir.Effect, error) {
+func (r *review) effect(ch, path string, w window.Window) (fitfolder.Effect, error) {
 	e, ok := r.f.Effect(ch, path, w.Name)
 	if !ok {
 		return e, fmt.Errorf("effects.csv has no %s row for %s in window %s", path, ch, w.Name)
@@ -181,8 +182,8 @@ func (r *review) split() (*Figure, error) {
 		},
 		Caption: r.windowCaption() + " " + intervalCaption + " Percentages: share of the total that runs through branded search.",
 	}
-	windows := []fitdir.Window{r.w}
-	if r.w.Kind != fitdir.WholePeriod {
+	windows := []window.Window{r.w}
+	if r.w.Kind != window.WholePeriod {
 		windows = append(windows, r.whole)
 	}
 	var panels []*plot.Plot
@@ -196,8 +197,8 @@ func (r *review) split() (*Figure, error) {
 		p.Add(gridLines{})
 		top := 0.0
 		for i, ch := range r.uppers() {
-			var es [4]fitdir.Effect
-			for j, path := range []string{fitdir.PathDirect, fitdir.PathViaSearch, fitdir.PathTotal, fitdir.PathMediatedShare} {
+			var es [4]fitfolder.Effect
+			for j, path := range []string{fitfolder.PathDirect, fitfolder.PathViaSearch, fitfolder.PathTotal, fitfolder.PathMediatedShare} {
 				e, err := r.effect(ch, path, w)
 				if err != nil {
 					return nil, err
@@ -246,7 +247,7 @@ func (r *review) split() (*Figure, error) {
 	// Title: the mediated share of each channel in the window.
 	var parts []string
 	for i, ch := range r.uppers() {
-		s, _ := r.f.Effect(ch, fitdir.PathMediatedShare, r.w.Name)
+		s, _ := r.f.Effect(ch, fitfolder.PathMediatedShare, r.w.Name)
 		if i == 0 {
 			parts = append(parts, fmt.Sprintf("%s of %s's effect", Percent(s.Mean), Channel(ch)))
 		} else {

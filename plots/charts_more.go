@@ -7,7 +7,8 @@ import (
 	"sort"
 	"strings"
 
-	"spillway/plots/fitdir"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/window"
 	"spillway/plots/marks"
 
 	"gonum.org/v1/plot"
@@ -36,14 +37,14 @@ func (r *review) borrowed() (*Figure, error) {
 	var panels []*plot.Plot
 	var titleParts []string
 	for _, ch := range search {
-		get := func(m string) (fitdir.Borrowed, error) {
+		get := func(m string) (fitfolder.Borrowed, error) {
 			b, ok := r.f.BorrowedMeasure(ch, m)
 			if !ok {
 				return b, fmt.Errorf("borrowed.csv has no %s row for %s", m, ch)
 			}
 			return b, nil
 		}
-		var bs [4]fitdir.Borrowed
+		var bs [4]fitfolder.Borrowed
 		for i, m := range []string{"naive", "controlled", "apparent", "borrowed_share"} {
 			b, err := get(m)
 			if err != nil {
@@ -87,7 +88,7 @@ func (r *review) borrowed() (*Figure, error) {
 			Text: fmt.Sprintf("%s borrowed (90%%: %s–%s)", Percent(share.Mean), Percent(share.Q05), Percent(share.Q95)), Style: bl})
 		vl := marks.TextStyle(sizeLabel, Ink, false)
 		vl.XAlign, vl.YAlign = text.XLeft, text.YCenter
-		for i, b := range []fitdir.Borrowed{naive, ctrl, app} {
+		for i, b := range []fitfolder.Borrowed{naive, ctrl, app} {
 			p.Add(marks.Label{X: b.Q95, Y: float64(i), DX: vg.Points(12), Text: Number(b.Mean), Style: vl})
 		}
 		p.Y.Min, p.Y.Max = -0.6, 2.75
@@ -111,8 +112,8 @@ func (r *review) borrowed() (*Figure, error) {
 }
 
 // curveOf returns the curve rows of channel and path sorted by spend.
-func (r *review) curveOf(ch, path string) []fitdir.Curve {
-	var cs []fitdir.Curve
+func (r *review) curveOf(ch, path string) []fitfolder.Curve {
+	var cs []fitfolder.Curve
 	for _, c := range r.f.Curves {
 		if c.Channel == ch && c.Path == path {
 			cs = append(cs, c)
@@ -124,7 +125,7 @@ func (r *review) curveOf(ch, path string) []fitdir.Curve {
 
 // interp returns the mean of cs at weekly spend s by linear interpolation
 // (linear extrapolation from the last two points beyond the grid).
-func interp(cs []fitdir.Curve, s float64) float64 {
+func interp(cs []fitfolder.Curve, s float64) float64 {
 	n := len(cs)
 	if n == 1 {
 		return cs[0].Mean
@@ -146,9 +147,9 @@ func interp(cs []fitdir.Curve, s float64) float64 {
 // MarginalGain returns the extra weekly outcome (total of both paths) that
 // 10% more weekly spend would bring at the current level, read from the
 // mean response curve of channel; ok is false without a curve.
-func MarginalGain(f *fitdir.Fit, channel string) (gain, current float64, ok bool) {
+func MarginalGain(f *fitfolder.Fit, channel string) (gain, current float64, ok bool) {
 	r := &review{f: f}
-	cs := r.curveOf(channel, fitdir.PathTotal)
+	cs := r.curveOf(channel, fitfolder.PathTotal)
 	if len(cs) == 0 {
 		return 0, 0, false
 	}
@@ -183,9 +184,9 @@ func (r *review) curves() (*Figure, error) {
 			fill  float64
 		}
 		for _, ps := range []pathStyle{
-			{fitdir.PathDirect, draw.LineStyle{Color: Direct, Width: vg.Points(3)}, 0.16},
-			{fitdir.PathViaSearch, draw.LineStyle{Color: ViaSearch, Width: vg.Points(3)}, 0.2},
-			{fitdir.PathTotal, draw.LineStyle{Color: Ink, Width: vg.Points(4)}, 0.09},
+			{fitfolder.PathDirect, draw.LineStyle{Color: Direct, Width: vg.Points(3)}, 0.16},
+			{fitfolder.PathViaSearch, draw.LineStyle{Color: ViaSearch, Width: vg.Points(3)}, 0.2},
+			{fitfolder.PathTotal, draw.LineStyle{Color: Ink, Width: vg.Points(4)}, 0.09},
 		} {
 			cs := r.curveOf(ch, ps.path)
 			if len(cs) < 2 {
@@ -201,9 +202,9 @@ func (r *review) curves() (*Figure, error) {
 			fig.add(s)
 			var bandColor = marks.Tint(Ink, ps.fill)
 			switch ps.path {
-			case fitdir.PathDirect:
+			case fitfolder.PathDirect:
 				bandColor = marks.Tint(Direct, ps.fill)
-			case fitdir.PathViaSearch:
+			case fitfolder.PathViaSearch:
 				bandColor = marks.Tint(ViaSearch, ps.fill)
 			}
 			p.Add(marks.Band{X: s.X, Lo: s.Lo, Hi: s.Hi, Fill: bandColor})
@@ -237,8 +238,8 @@ func (r *review) curves() (*Figure, error) {
 }
 
 // weeklyOf returns weekly.csv rows of channel and path in file order.
-func (r *review) weeklyOf(ch, path string) []fitdir.Weekly {
-	var ws []fitdir.Weekly
+func (r *review) weeklyOf(ch, path string) []fitfolder.Weekly {
+	var ws []fitfolder.Weekly
 	for _, w := range r.f.Weekly {
 		if w.Channel == ch && w.Path == path {
 			ws = append(ws, w)
@@ -250,28 +251,28 @@ func (r *review) weeklyOf(ch, path string) []fitdir.Weekly {
 
 // shadeWindow shades the review window on a time panel and labels it.
 func (r *review) shadeWindow(p *plot.Plot, labelIt bool) {
-	if r.w.Kind == fitdir.WholePeriod {
+	if r.w.Kind == window.WholePeriod {
 		return
 	}
-	p.Add(marks.Span{From: marks.Day(r.w.From), To: marks.Day(r.w.To) + 1, Fill: Shade})
+	p.Add(marks.Span{From: marks.Day(r.w.Start), To: marks.Day(r.w.End) + 1, Fill: Shade})
 	if labelIt {
 		ls := marks.TextStyle(sizeLabel-1, Muted, true)
 		ls.XAlign, ls.YAlign = text.XCenter, text.YTop
-		p.Add(marks.Label{X: (marks.Day(r.w.From) + marks.Day(r.w.To)) / 2, Top: true, DY: -vg.Points(4), Text: r.w.Name, Style: ls})
+		p.Add(marks.Label{X: (marks.Day(r.w.Start) + marks.Day(r.w.End)) / 2, Top: true, DY: -vg.Points(4), Text: r.w.Name, Style: ls})
 	}
 }
 
 func (r *review) timeAxis(p *plot.Plot) {
 	p.X.Tick.Marker = marks.QuarterTicks{}
-	p.X.Min = marks.Day(r.whole.From) - 3
-	p.X.Max = marks.Day(r.whole.To) + 10
+	p.X.Min = marks.Day(r.whole.Start) - 3
+	p.X.Max = marks.Day(r.whole.End) + 10
 }
 
 // weekly: weekly direct and via-search contributions per channel.
 func (r *review) weekly() (*Figure, error) {
 	var chans []string
 	for _, ch := range append(append([]string{}, r.uppers()...), r.f.Run.Spec.Search...) {
-		if len(r.weeklyOf(ch, fitdir.PathDirect))+len(r.weeklyOf(ch, fitdir.PathViaSearch)) > 0 {
+		if len(r.weeklyOf(ch, fitfolder.PathDirect))+len(r.weeklyOf(ch, fitfolder.PathViaSearch)) > 0 {
 			chans = append(chans, ch)
 		}
 	}
@@ -285,7 +286,7 @@ func (r *review) weekly() (*Figure, error) {
 		},
 		Caption: "Weekly contributions in " + r.outcome + ". " + r.windowCaption() + " Lines are posterior means, bands 90% credible intervals.",
 	}
-	if r.w.Kind != fitdir.WholePeriod {
+	if r.w.Kind != window.WholePeriod {
 		fig.Legend = append(fig.Legend, LegendItem{"review window " + r.w.Name, Shade, SwatchBox, nil})
 	}
 	var panels []*plot.Plot
@@ -295,13 +296,13 @@ func (r *review) weekly() (*Figure, error) {
 		r.timeAxis(p)
 		r.shadeWindow(p, k == 0)
 		p.Add(gridLines{})
-		for _, path := range []string{fitdir.PathDirect, fitdir.PathViaSearch} {
+		for _, path := range []string{fitfolder.PathDirect, fitfolder.PathViaSearch} {
 			ws := r.weeklyOf(ch, path)
 			if len(ws) == 0 {
 				continue
 			}
 			col := Direct
-			if path == fitdir.PathViaSearch {
+			if path == fitfolder.PathViaSearch {
 				col = ViaSearch
 			}
 			s := Series{Panel: ch, Name: path}
@@ -314,7 +315,7 @@ func (r *review) weekly() (*Figure, error) {
 			fig.add(s)
 			p.Add(marks.Band{X: s.X, Lo: s.Lo, Hi: s.Hi, Fill: marks.Tint(col, 0.2)})
 			p.Add(marks.Line{X: s.X, Y: s.Y, Style: draw.LineStyle{Color: col, Width: vg.Points(2.6)}})
-			if path == fitdir.PathViaSearch {
+			if path == fitfolder.PathViaSearch {
 				sum, n := 0.0, 0
 				for _, w := range ws {
 					if r.w.Contains(w.Week) {
@@ -378,14 +379,14 @@ func (r *review) fit() (*Figure, error) {
 		},
 		Caption: r.windowCaption() + " Band: 90% posterior predictive interval for each week.",
 	}
-	if r.w.Kind != fitdir.WholePeriod {
+	if r.w.Kind != window.WholePeriod {
 		fig.Legend = append(fig.Legend, LegendItem{"review window " + r.w.Name, Shade, SwatchBox, nil})
 	}
 	names := map[string]string{"demand": Plain(r.f.Run.Spec.Queries), "outcome": r.outcome}
 	var panels []*plot.Plot
 	var covers []float64
 	for k, st := range []string{"demand", "outcome"} {
-		var rows []fitdir.Fitted
+		var rows []fitfolder.Fitted
 		for _, x := range r.f.Fitted {
 			if x.Stage == st {
 				rows = append(rows, x)
@@ -460,7 +461,7 @@ func (r *review) sensitivity() (*Figure, error) {
 	var panels []*plot.Plot
 	var crossing, steady [][2]string // channel and rho, channel and behaviour
 	for _, ch := range r.uppers() {
-		var rows []fitdir.Sensitivity
+		var rows []fitfolder.Sensitivity
 		for _, s := range r.f.Sensitivity {
 			if s.Channel == ch {
 				rows = append(rows, s)
@@ -700,7 +701,7 @@ func (r *review) diagnostics() (*Figure, error) {
 
 // minESS returns the smaller of a parameter's bulk and tail ESS, ignoring
 // a missing (NaN) one.
-func minESS(p fitdir.Param) float64 {
+func minESS(p fitfolder.Param) float64 {
 	switch {
 	case math.IsNaN(p.ESSBulk):
 		return p.ESSTail

@@ -1,5 +1,5 @@
 // Package plots draws spillway's review charts from a fit folder read by
-// package fitdir: one 1600×900 px PNG per chart (a 16:9 slide at 96 dpi),
+// package fitfolder: one 1600×900 px PNG per chart (a 16:9 slide at 96 dpi),
 // with a title that states the finding in plain words, a legend row, large
 // type (titles 30 pt, ticks 19 pt) and a caption naming the data window and
 // the interval level.

@@ -11,6 +11,7 @@ import (
 	"golang.org/x/term"
 
 	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/progress"
 	"spillway/funnel/model"
@@ -116,10 +117,16 @@ EXAMPLE
 	})
 }
 
-// runFit fits and writes the fit folder into a temporary output folder,
-// which the caller commits (after adding more, as run does) or aborts. With
-// demo set, the data are that built-in scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (od *outDir, err error) {
+// fitRun is a fit written into a temporary output folder, which the caller
+// commits (after adding more, as run does) or aborts, and the fit in memory.
+type fitRun struct {
+	*outDir
+	fit *fitFolder
+}
+
+// runFit fits and writes the fit folder into a temporary output folder.
+// With demo set, the data are that built-in scenario and roles are ignored.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
 		return nil, err
 	}
@@ -132,7 +139,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			out.Abort()
 		}
 	}()
-	od = out
+	od := out
 	var ds *data.Dataset
 	if demo != "" {
 		if ds, err = demoData(demo); err != nil {
@@ -172,7 +179,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			return nil, badData(err)
 		}
 	}
-	fs := &fitSpec{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
+	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
 		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
 	verb := "fit"
 	if demo != "" {
@@ -195,7 +202,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if err != nil {
 		return nil, err
 	}
-	files, reps, err := fitFiles(fs, ds, priorBytes, fitted)
+	f, reps := newFit(*fs, ds, priorBytes, fitted)
+	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
 	}
@@ -205,10 +213,10 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	printFitSummary(stdout, reps, fitted)
-	if v := string(files["verdict.txt"]); !strings.HasPrefix(v, "trustworthy") {
+	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
-	return od, nil
+	return &fitRun{od, &fitFolder{Fit: f, scaled: sc, stages: stages, fits: fitted.Fits}}, nil
 }
 
 // progressHook returns the per-stage progress display: a bar when stderr

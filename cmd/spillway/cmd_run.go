@@ -10,7 +10,6 @@ import (
 	"github.com/spf13/pflag"
 
 	"spillway/plots"
-	"spillway/plots/fitdir"
 	htmlreport "spillway/plots/report"
 )
 
@@ -58,27 +57,41 @@ EXAMPLE
 }
 
 // runAll fits, splits, draws and reports into one temporary folder and
-// commits it at the end.
+// commits it at the end. The charts and the report are drawn from the fit
+// and split in memory; the files are written for the user.
 func runAll(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo, window string, stdout, stderr io.Writer) error {
 	od, err := runFit(ctx, roles, opts, demo, stdout, stderr)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
-	dir := od.Path()
 	// the review window: checked against the data before the split runs
 	tableWindow := window
 	if tableWindow == "" {
 		tableWindow = "all"
 	}
 	fmt.Fprintln(stdout)
-	if err := runSplit(ctx, dir, tableWindow, stdout, false); err != nil {
-		return err
-	}
-	f, err := fitdir.Load(dir)
+	s, err := splitFit(ctx, od.fit, tableWindow)
 	if err != nil {
 		return err
 	}
+	files, err := s.Files()
+	if err != nil {
+		return err
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	for name, b := range files {
+		if err := od.WriteFile(name, b); err != nil {
+			return err
+		}
+	}
+	if err := s.print(stdout); err != nil {
+		return err
+	}
+	f := od.fit.Fit
+	f.Split = s.Split
 	f.Dir = od.Final()
 	w, err := f.Window(window)
 	if err != nil {

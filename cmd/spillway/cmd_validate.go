@@ -174,8 +174,8 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		if err != nil {
 			return err
 		}
-		ds = ff.data
-		if in.Options, err = ff.spec.options(o.fitDir, ff.stages); err != nil {
+		ds = ff.Data.Dataset
+		if in.Options, err = fitOptions(ff.Fit, ff.stages); err != nil {
 			return badData(err)
 		}
 		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}

@@ -9,8 +9,8 @@
 // unconstrained scale, names, the map to constrained values, Clone). Run
 // samples it with Settings (nil means 4 chains, 1000 warm-up and 1000 kept
 // iterations, target acceptance 0.8, tree depth 10), Summarize computes the
-// per-parameter table, Judge gives the verdict, and WriteDraws, ReadDraws,
-// WriteSummary and ReadSummary move fits through tidy CSV files. Package
+// per-parameter table, Judge gives the verdict, and WriteDraws and ReadDraws
+// move fits through tidy CSV files. Package
 // mcmctest checks a model's gradient against finite differences; package
 // progress prints progress for a Recorder.
 //

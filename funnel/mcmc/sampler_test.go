@@ -335,29 +335,6 @@ func TestReadDrawsErrors(t *testing.T) {
 	}
 }
 
-func TestSummaryCSV(t *testing.T) {
-	fit := readFit(t, "testdata/tiny_draws.csv")
-	sums := mcmc.Summarize(fit)
-	var b bytes.Buffer
-	if err := mcmc.WriteSummary(&b, sums); err != nil {
-		t.Fatal(err)
-	}
-	if first := strings.SplitN(b.String(), "\n", 2)[0]; first != "parameter,mean,sd,q05,q50,q95,rhat,ess_bulk,ess_tail,mcse_mean" {
-		t.Errorf("header %q", first)
-	}
-	back, err := mcmc.ReadSummary(&b)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for i := range sums {
-		g, w := back[i], sums[i]
-		// ess_tail of x is NaN (all draws at or below q95; R gives NA).
-		if g.Parameter != w.Parameter || g.Mean != w.Mean || g.Rhat != w.Rhat || !(g.ESSTail == w.ESSTail || math.IsNaN(w.ESSTail) && math.IsNaN(g.ESSTail)) {
-			t.Errorf("row %d: got %+v, want %+v", i, g, w)
-		}
-	}
-}
-
 // TestJudge checks each verdict rule on constructed inputs.
 func TestJudge(t *testing.T) {
 	fit := readFit(t, "testdata/own_draws.csv")

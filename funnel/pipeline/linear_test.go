@@ -13,6 +13,7 @@ import (
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -233,7 +234,7 @@ func TestLinearTalOr(t *testing.T) {
 		t.Errorf("sensitivity crosses zero at rho = %.4f, want 0.4301", sens[0].Zero)
 	}
 	// at rho = 0 the sensitivity reproduces the main via-search effect
-	res, err := mediation.Split(in, mediation.Quarters(sc.Weeks)[:1])
+	res, err := mediation.Split(in, window.Quarters(sc.Weeks)[:1])
 	if err != nil {
 		t.Fatal(err)
 	}

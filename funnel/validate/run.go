@@ -18,6 +18,7 @@ import (
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
 	"spillway/funnel/validate/score"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -538,7 +539,7 @@ func cutSeries(s data.Series, n int) data.Series {
 func (sw *Sweep) stabilityJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
 	sc := sw.base
 	if j.Quarter != "" {
-		i := slices.IndexFunc(sw.windows, func(w mediation.Window) bool { return w.Name == j.Quarter })
+		i := slices.IndexFunc(sw.windows, func(w window.Window) bool { return w.Name == j.Quarter })
 		q := sw.windows[i]
 		train := make([]bool, sc.T)
 		for t := range train {
