@@ -5,6 +5,7 @@ import (
 	"math"
 
 	"spillway/funnel/mcmc"
+	"spillway/funnel/stat"
 	"spillway/funnel/transform"
 )
 
@@ -143,12 +144,12 @@ func (s *Stage) Target() (*Target, error) {
 		}
 		bar := 0.0
 		if t.centred {
-			bar = mean(r.X)
+			bar = stat.Mean(r.X)
 		}
 		t.reg = append(t.reg, regTerm{k: k, x: r.X, bar: bar})
 	}
 	for _, c := range s.Channels {
-		ch := chanTerm{x: c.X, linear: c.Linear, abar: mean(c.X)}
+		ch := chanTerm{x: c.X, linear: c.Linear, abar: stat.Mean(c.X)}
 		if ch.k[0], err = add(c.Coef, c.Priors[0], PositiveReal); err != nil {
 			return nil, err
 		}
@@ -307,7 +308,7 @@ func (t *Target) decode(x []float64, wantGrad bool) {
 				c.href = c.abar
 			}
 			c.hrefK, c.hrefS = 0, 0
-			c.hbar = mean(c.x)
+			c.hbar = stat.Mean(c.x)
 			continue
 		}
 		lam, k, s := t.nat[c.k[1]], t.nat[c.k[2]], t.nat[c.k[3]]
@@ -632,7 +633,7 @@ func (t *Target) Unconstrain(dst, v []float64) []float64 {
 	}
 	for j := range t.ch {
 		c := &t.ch[j]
-		href, hbar := c.abar, mean(c.x)
+		href, hbar := c.abar, stat.Mean(c.x)
 		if !c.linear {
 			a := transform.Adstock(nil, c.x, v[c.k[1]])
 			s := 0.0

@@ -15,6 +15,7 @@ import (
 	"sync"
 	"testing"
 
+	"spillway/funnel/stat"
 	"spillway/plots"
 	"spillway/plots/fitdir"
 	"spillway/plots/fitdir/fitdirtest"
@@ -343,7 +344,8 @@ func paired(x *fixture, ch, path, a, b string) (mean, q05, q95 float64) {
 		mean += d[i]
 	}
 	mean /= float64(len(d))
-	return mean, fitdirtest.Quantile(d, 0.05), fitdirtest.Quantile(d, 0.95)
+	slices.Sort(d)
+	return mean, stat.Quantile(d, 0.05), stat.Quantile(d, 0.95)
 }
 
 func TestCompareUsesPairedDraws(t *testing.T) {
