@@ -25,5 +25,5 @@
 // Number, Percent, About and the other formatters are shared with the
 // report so that both round the same way. The plotters and tick markers
 // the panels are drawn with live in package marks, which the validation
-// chart (spillway/funnel/validate/chart) uses too.
+// chart (spillway/plots/validation) uses too.
 package plots // import "spillway/plots"

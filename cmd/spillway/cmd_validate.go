@@ -21,6 +21,7 @@ import (
 	"spillway/funnel/pipeline"
 	"spillway/funnel/scenario"
 	"spillway/funnel/validate"
+	"spillway/plots/validation"
 )
 
 // validateOptions are the flags of spillway validate.
@@ -289,6 +290,9 @@ func readShard(dir string) (*validate.Results, error) {
 func writeReport(od *outDir, res *validate.Results, stdout io.Writer) error {
 	files, rep, err := validate.Files(res)
 	if err != nil {
+		return err
+	}
+	if files[validate.ChartFile], err = validation.PNG(rep); err != nil {
 		return err
 	}
 	if err := writeAll(od, files); err != nil {
