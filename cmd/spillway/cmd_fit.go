@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -69,6 +70,21 @@ func (s *samplingFlags) validate() error {
 		return usagef("--target-accept %g: expected a rate from 0.5 to below 1", s.targetAccept)
 	}
 	return nil
+}
+
+// modelOptions turns --linear and --priors into model options, checked
+// against the data before any sampling: an unknown --linear column is a
+// usage error, a bad priors file bad data.
+func modelOptions(sc *model.Scaled, s *samplingFlags) (model.Options, error) {
+	o, err := pipeline.Choices{Linear: s.linear, Priors: s.priors}.Options(sc)
+	var le *pipeline.LinearError
+	switch {
+	case errors.As(err, &le):
+		return o, usagef("--linear %v", err)
+	case err != nil:
+		return o, badData(err)
+	}
+	return o, nil
 }
 
 func init() {
@@ -147,27 +163,13 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if len(ds.Regions) > 1 {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
 	}
-	cols := map[string]bool{}
-	for _, c := range append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...) {
-		cols[c] = true
-	}
-	o := model.Options{Linear: map[string]bool{}}
-	for _, c := range opts.linear {
-		if !cols[c] {
-			return nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
-		}
-		o.Linear[c] = true
-	}
 	sc := model.Scale(ds.National(), ds.Spec)
+	o, err := modelOptions(sc, opts)
+	if err != nil {
+		return nil, err
+	}
 	var priorBytes []byte
 	if opts.priors != "" {
-		st, err := pipeline.Stages(sc, o)
-		if err != nil {
-			return nil, err
-		}
-		if o.Priors, err = model.LoadPriors(opts.priors, pipeline.Known(st)); err != nil {
-			return nil, badData(err)
-		}
 		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
 			return nil, badData(err)
 		}
@@ -180,17 +182,6 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	// a prior that does not fit its parameter is the user's input error:
-	// find it before any sampling
-	stages, err := pipeline.Stages(sc, o)
-	if err != nil {
-		return nil, err
-	}
-	for _, st := range stages {
-		if _, err := st.Target(); err != nil {
-			return nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
-		}
-	}
 	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
 	if err != nil {
 		return nil, err

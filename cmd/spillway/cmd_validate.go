@@ -18,7 +18,6 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/model"
-	"spillway/funnel/pipeline"
 	"spillway/funnel/scenario"
 	"spillway/funnel/validate"
 	"spillway/plots/validation"
@@ -176,9 +175,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 			return err
 		}
 		ds = ff.data
-		if in.Options, err = ff.spec.options(o.fitDir, ff.stages); err != nil {
-			return badData(err)
-		}
+		in.Options = ff.options
 		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}
 	case o.roles.given():
 		if ds, err = o.roles.load(); err != nil {
@@ -197,7 +194,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	}
 	in.Series, in.Spec = ds.National(), ds.Spec
 	if o.fitDir == "" {
-		if in.Options, err = modelOptions(ds, &o.sampling); err != nil {
+		if in.Options, err = modelOptions(model.Scale(ds.National(), ds.Spec), &o.sampling); err != nil {
 			return err
 		}
 	}
@@ -310,42 +307,6 @@ func writeAll(od *outDir, files map[string][]byte) error {
 		}
 	}
 	return od.Commit()
-}
-
-// modelOptions turns --linear and --priors into model options, checking
-// them against the data before any sampling.
-func modelOptions(ds *data.Dataset, s *samplingFlags) (model.Options, error) {
-	o := model.Options{Linear: map[string]bool{}}
-	cols := map[string]bool{}
-	all := append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...)
-	for _, c := range all {
-		cols[c] = true
-	}
-	for _, c := range s.linear {
-		if !cols[c] {
-			return o, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(all, ", "))
-		}
-		o.Linear[c] = true
-	}
-	if s.priors != "" {
-		sc := model.Scale(ds.National(), ds.Spec)
-		st, err := pipeline.Stages(sc, o)
-		if err != nil {
-			return o, err
-		}
-		if o.Priors, err = model.LoadPriors(s.priors, pipeline.Known(st)); err != nil {
-			return o, badData(err)
-		}
-		if st, err = pipeline.Stages(sc, o); err != nil {
-			return o, err
-		}
-		for _, stage := range st {
-			if _, err := stage.Target(); err != nil {
-				return o, badData(fmt.Errorf("%s: %w", s.priors, err))
-			}
-		}
-	}
-	return o, nil
 }
 
 // readTruth reads the true parameters from a truth.json.

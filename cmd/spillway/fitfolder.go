@@ -33,21 +33,14 @@ type fitSpec struct {
 	Version  string    `json:"version"`
 }
 
-// options returns the model options the spec describes, reading the priors
-// copy from the fit folder dir.
-func (s *fitSpec) options(dir string, stages [3]*model.Stage) (model.Options, error) {
-	o := model.Options{Linear: map[string]bool{}}
-	for _, c := range s.Linear {
-		o.Linear[c] = true
-	}
+// choices are the model choices the spec records; the priors file is the
+// copy in the fit folder dir.
+func (s *fitSpec) choices(dir string) pipeline.Choices {
+	c := pipeline.Choices{Linear: s.Linear}
 	if s.Priors != "" {
-		p, err := model.LoadPriors(filepath.Join(dir, "priors.csv"), pipeline.Known(stages))
-		if err != nil {
-			return o, err
-		}
-		o.Priors = p
+		c.Priors = filepath.Join(dir, "priors.csv")
 	}
-	return o, nil
+	return c
 }
 
 // statsOf is a stage's stats.json (the schema the fit folder's reader,
@@ -152,6 +145,9 @@ type fitFolder struct {
 	scaled *model.Scaled
 	stages [3]*model.Stage
 	fits   [3]*mcmc.Fit
+
+	// options are the model options of the spec's choices.
+	options model.Options
 }
 
 // readFitFolder loads a fit folder written by fit. Problems are bad data
@@ -173,15 +169,10 @@ func readFitFolder(dir string) (*fitFolder, error) {
 	}
 	ff.data = ds
 	ff.scaled = model.Scale(ds.National(), ds.Spec)
-	st, err := pipeline.Stages(ff.scaled, model.Options{})
-	if err != nil {
-		return nil, err
-	}
-	o, err := ff.spec.options(dir, st)
-	if err != nil {
+	if ff.options, err = ff.spec.choices(dir).Options(ff.scaled); err != nil {
 		return nil, badData(err)
 	}
-	if ff.stages, err = pipeline.Stages(ff.scaled, o); err != nil {
+	if ff.stages, err = pipeline.Stages(ff.scaled, ff.options); err != nil {
 		return nil, err
 	}
 	for k, name := range pipeline.StageNames {
