@@ -87,13 +87,23 @@ func modelOptions(sc *model.Scaled, s *samplingFlags) (model.Options, error) {
 	return o, nil
 }
 
-func init() {
-	var roles roleFlags
-	var opts samplingFlags
-	fs := pflag.NewFlagSet("fit", pflag.ContinueOnError)
-	roles.addFlags(fs)
+// fitOptions are the flags of spillway fit.
+type fitOptions struct {
+	roles    roleFlags
+	sampling samplingFlags
+}
+
+func (o *fitOptions) addFlags(fs *pflag.FlagSet) {
+	o.roles.addFlags(fs)
+	o.sampling.addFlags(fs)
+}
+
+// newFitCommand builds spillway fit.
+func newFitCommand() *command {
+	var opts fitOptions
+	fs := newFlagSet("fit")
 	opts.addFlags(fs)
-	register(&command{
+	return &command{
 		name:  "fit",
 		usage: "fit --data FILE (roles) --out FOLDER [flags]",
 		short: "fit the demand, outcome and naive stages",
@@ -112,24 +122,28 @@ EXAMPLE
     --queries brand_queries --outcome orders --controls price --out fit1
 
 ` + exitStatusHelp,
-		order: 40,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			if err := noArgs(args); err != nil {
-				return err
-			}
-			od, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
-			if err != nil {
-				return err
-			}
-			defer od.Abort()
-			if err := od.Commit(); err != nil {
-				return err
-			}
-			fmt.Fprintf(stdout, "fit written to %s\n", od.Final())
-			return nil
+			return runFitCommand(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
+}
+
+// runFitCommand fits the data and commits the fit folder.
+func runFitCommand(ctx context.Context, o *fitOptions, args []string, stdout, stderr io.Writer) error {
+	if err := noArgs(args); err != nil {
+		return err
+	}
+	od, err := runFit(ctx, &o.roles, &o.sampling, "", stdout, stderr)
+	if err != nil {
+		return err
+	}
+	defer od.Abort()
+	if err := od.Commit(); err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "fit written to %s\n", od.Final())
+	return nil
 }
 
 // runFit fits and writes the fit folder into a temporary output folder,

@@ -55,11 +55,12 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 		"random seed of the sweep; every job's seed derives from it and the job's number", "chains per refit", "iterations per chain of each refit"})
 }
 
-func init() {
+// newValidateCommand builds spillway validate.
+func newValidateCommand() *command {
 	var opts validateOptions
-	fs := pflag.NewFlagSet("validate", pflag.ContinueOnError)
+	fs := newFlagSet("validate")
 	opts.addFlags(fs)
-	register(&command{
+	return &command{
 		name:  "validate",
 		usage: "validate [(roles) | --fit FOLDER] --out FOLDER [flags]",
 		short: "check recovery of known truth, holdout accuracy and stability",
@@ -109,12 +110,11 @@ EXAMPLE
     --queries brand_queries --outcome orders --controls price --out val1
 
 ` + exitStatusHelp,
-		order: 80,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			return runValidate(ctx, &opts, fs, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runValidate runs a sweep, one shard of it, or a merge.
