@@ -16,11 +16,8 @@ import (
 	"spillway/plots/marks"
 )
 
-// page is the whole picture: the report and the texts drawn on it.
-type page struct {
-	rep            *validate.Report
-	title, caption string
-}
+// page draws one report.
+type page struct{ rep *validate.Report }
 
 // Page size: 1600×900 px at 96 dpi, a 16:9 slide.
 const (
@@ -47,7 +44,7 @@ func pathColor(path string) color.Color {
 // PNG renders validation.png for rep: its title is rep.Title(), its
 // caption rep.Caption, and sections rep has no data for are left out.
 func PNG(rep *validate.Report) ([]byte, error) {
-	f := &page{rep: rep, title: rep.Title(), caption: rep.Caption}
+	f := &page{rep: rep}
 	w := vg.Length(widthPx) * vg.Inch / dpi
 	h := vg.Length(heightPx) * vg.Inch / dpi
 	b, err := marks.PNG(w, h, dpi, f.draw)
@@ -62,15 +59,15 @@ func (f *page) draw(dc draw.Canvas) error {
 	y := dc.Max.Y - 24
 	ts := marks.TextStyle(28, plots.Ink, true)
 	ts.YAlign = text.YTop
-	for _, ln := range marks.Wrap(ts, f.title, right-left) {
+	for _, ln := range marks.Wrap(ts, f.rep.Title(), right-left) {
 		dc.FillText(ts, vg.Point{X: left, Y: y}, ln)
 		y -= ts.Height(ln) + 6
 	}
 	y -= 10
 	bottom := dc.Min.Y + 18
-	if f.caption != "" {
+	if f.rep.Caption != "" {
 		cs := marks.TextStyle(17, plots.Muted, false)
-		lines := marks.Wrap(cs, f.caption, right-left)
+		lines := marks.Wrap(cs, f.rep.Caption, right-left)
 		for i := len(lines) - 1; i >= 0; i-- {
 			dc.FillText(cs, vg.Point{X: left, Y: bottom}, lines[i])
 			bottom += cs.Height(lines[i]) + 4
