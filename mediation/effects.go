@@ -12,6 +12,7 @@ import (
 	"spillway/funnel/forward"
 	"spillway/funnel/model"
 	"spillway/funnel/window"
+	"spillway/funnel/stat"
 	"spillway/mediation/linear"
 	"spillway/mediation/ols"
 )
@@ -289,25 +290,7 @@ type Summary struct {
 func Summarise(x []float64) Summary {
 	s := append([]float64(nil), x...)
 	sort.Float64s(s)
-	m := 0.0
-	for _, v := range s {
-		m += v
-	}
-	return Summary{Mean: m / float64(len(s)), Q05: quantile(s, 0.05), Q50: quantile(s, 0.5), Q95: quantile(s, 0.95)}
-}
-
-func quantile(sorted []float64, p float64) float64 {
-	n := len(sorted)
-	if n == 0 {
-		return math.NaN()
-	}
-	h := float64(n-1) * p
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= n {
-		return sorted[n-1]
-	}
-	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
+	return Summary{Mean: stat.Mean(s), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)}
 }
 
 // Sensitivity holds the via-search effect of one upper channel (window all)

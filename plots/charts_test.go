@@ -15,6 +15,7 @@ import (
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/fitfolder/fitfoldertest"
+	"spillway/funnel/stat"
 	"spillway/funnel/window"
 	"spillway/plots"
 )
@@ -269,7 +270,7 @@ func TestCurveNumbers(t *testing.T) {
 			}
 		}
 		cur := find(t, fig, ch, "current").X[0]
-		if want := mean(fx.Columns[ch]); math.Abs(cur-want) > 1e-9*want {
+		if want := stat.Mean(fx.Columns[ch]); math.Abs(cur-want) > 1e-9*want {
 			t.Errorf("%s current spend: got %v, want mean weekly spend %v", ch, cur, want)
 		}
 		// The fixture's curves are closed-form saturating curves on a grid
@@ -431,14 +432,6 @@ func TestWriteFileAtomic(t *testing.T) {
 	if err := plots.WriteFileAtomic(filepath.Join(dir, "missing", "a.png"), []byte("x")); err == nil {
 		t.Error("writing into a missing folder: no error")
 	}
-}
-
-func mean(v []float64) float64 {
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
 }
 
 func BenchmarkRenderAll(b *testing.B) {

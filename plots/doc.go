@@ -10,6 +10,11 @@
 // WriteCharts and WriteFileAtomic write through a temporary file in the
 // target folder and a rename, so an error leaves no half-written file.
 //
+// Each chart is one file named after it (split.go, borrowed.go, curves.go,
+// weekly.go, fit.go, sensitivity.go, diagnostics.go); review.go holds what
+// they share: the list of charts, the window under review and its wording.
+// figure.go lays a Figure out on the page.
+//
 // The palette is this package's own: blue for direct effects, amber for
 // effects through branded search, near-black for totals and actuals, grey
 // for cross-checks, red for thresholds and failed checks. A test simulates
@@ -20,5 +25,5 @@
 // Number, Percent, About and the other formatters are shared with the
 // report so that both round the same way. The plotters and tick markers
 // the panels are drawn with live in package marks, which the validation
-// chart (spillway/funnel/validate/chart) uses too.
+// chart (spillway/plots/validation) uses too.
 package plots // import "spillway/plots"

@@ -69,11 +69,12 @@ func reviewOutputExists(path string) bool {
 	return !errors.Is(err, fs.ErrNotExist)
 }
 
-func init() {
+// newChartCommand builds spillway chart.
+func newChartCommand() *command {
 	var opts reviewOptions
-	fs := pflag.NewFlagSet("chart", pflag.ContinueOnError)
+	fs := newFlagSet("chart")
 	opts.addFlags(fs, "the `FOLDER` for the PNGs (default FIT/charts)")
-	register(&command{
+	return &command{
 		name:  "chart",
 		usage: "chart --fit FOLDER [--window WINDOW] [flags]",
 		short: "draw the review charts as PNGs",
@@ -101,12 +102,11 @@ EXAMPLE
   spillway chart --fit fit1 --window 2025Q2
 
 ` + exitStatusHelp,
-		order: 60,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			return runChart(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runChart renders every chart and writes them at once.

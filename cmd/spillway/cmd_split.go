@@ -14,12 +14,22 @@ import (
 	"spillway/mediation"
 )
 
-func init() {
-	var dir, window string
-	fs := pflag.NewFlagSet("split", pflag.ContinueOnError)
-	fs.StringVar(&dir, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
-	fs.StringVar(&window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
-	register(&command{
+// splitOptions are the flags of spillway split.
+type splitOptions struct {
+	fit, window string
+}
+
+func (o *splitOptions) addFlags(fs *pflag.FlagSet) {
+	fs.StringVar(&o.fit, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
+	fs.StringVar(&o.window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
+}
+
+// newSplitCommand builds spillway split.
+func newSplitCommand() *command {
+	var opts splitOptions
+	fs := newFlagSet("split")
+	opts.addFlags(fs)
+	return &command{
 		name:  "split",
 		usage: "split --fit FOLDER [--window WINDOW]",
 		short: "split each channel's effect into direct and via search",
@@ -43,18 +53,17 @@ EXAMPLE
   spillway split --fit fit1 --window 2025Q2
 
 ` + exitStatusHelp,
-		order: 50,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			if err := noArgs(args); err != nil {
 				return err
 			}
-			if dir == "" {
+			if opts.fit == "" {
 				return usagef("no fit folder: name it with --fit FOLDER")
 			}
-			return runSplit(ctx, dir, window, stdout, true)
+			return runSplit(ctx, opts.fit, opts.window, stdout, true)
 		},
-	})
+	}
 }
 
 // runSplit computes the effects of a fit folder and adds the split's files

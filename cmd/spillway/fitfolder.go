@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"fmt"
 	"path/filepath"
 	"sort"
@@ -15,21 +14,14 @@ import (
 	"spillway/funnel/pipeline"
 )
 
-// fitOptions returns the model options the fit folder's spec describes,
-// with the priors from its copy of the priors file.
-func fitOptions(f *fitfolder.Fit, stages [3]*model.Stage) (model.Options, error) {
-	o := model.Options{Linear: map[string]bool{}}
-	for _, c := range f.Run.Linear {
-		o.Linear[c] = true
-	}
+// choices are the model choices the fit folder's spec records; the priors
+// file is its copy in the folder.
+func choices(f *fitfolder.Fit) pipeline.Choices {
+	c := pipeline.Choices{Linear: f.Run.Linear}
 	if f.Priors != nil {
-		p, err := model.ReadPriors(bytes.NewReader(f.Priors), f.PriorsPath(), pipeline.Known(stages))
-		if err != nil {
-			return o, err
-		}
-		o.Priors = p
+		c.Priors = f.PriorsPath()
 	}
-	return o, nil
+	return c
 }
 
 // stageReport is one stage's summaries and verdict.
@@ -63,6 +55,9 @@ type fitFolder struct {
 	scaled *model.Scaled
 	stages [3]*model.Stage
 	fits   [3]*mcmc.Fit
+
+	// options are the model options of the spec's choices.
+	options model.Options
 }
 
 // readFitFolder loads a fit folder written by fit with its draws. Problems
@@ -77,15 +72,10 @@ func readFitFolder(dir string) (*fitFolder, error) {
 		return nil, badData(err)
 	}
 	ff := &fitFolder{Fit: f, scaled: model.Scale(f.Data.National(), f.Data.Spec)}
-	st, err := pipeline.Stages(ff.scaled, model.Options{})
-	if err != nil {
-		return nil, err
-	}
-	o, err := fitOptions(f, st)
-	if err != nil {
+	if ff.options, err = choices(f).Options(ff.scaled); err != nil {
 		return nil, badData(err)
 	}
-	if ff.stages, err = pipeline.Stages(ff.scaled, o); err != nil {
+	if ff.stages, err = pipeline.Stages(ff.scaled, ff.options); err != nil {
 		return nil, err
 	}
 	for k, s := range f.Stages {

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"math"
 	"runtime"
+	"slices"
 	"strings"
 	"sync/atomic"
 	"testing"
@@ -14,6 +15,7 @@ import (
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/mcmctest"
+	"spillway/funnel/stat"
 )
 
 // transformed returns per-chain draws of f(name's draws).
@@ -28,21 +30,10 @@ func transformed(x [][]float64, f func(float64) float64) [][]float64 {
 	return out
 }
 
-func pooledMean(x [][]float64) float64 {
-	s, n := 0.0, 0
-	for _, c := range x {
-		for _, v := range c {
-			s += v
-			n++
-		}
-	}
-	return s / float64(n)
-}
-
 // checkMoment reports whether the draws' mean is within k MCSE of want.
 func checkMoment(t *testing.T, label string, x [][]float64, want, k float64) {
 	t.Helper()
-	got, se := pooledMean(x), mcmc.MCSEMean(x)
+	got, se := stat.Mean(slices.Concat(x...)), mcmc.MCSEMean(x)
 	if math.Abs(got-want) > k*se {
 		t.Errorf("%s: mean %.6g, want %.6g within %g MCSE (MCSE %.3g, off by %.2f MCSE)", label, got, want, k, se, (got-want)/se)
 	}

@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -14,6 +15,7 @@ import (
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/window"
+	"spillway/funnel/stat"
 	"spillway/mediation"
 )
 
@@ -115,28 +117,11 @@ func draws(fit *mcmc.Fit, name string, f func(float64) float64) [][]float64 {
 	return out
 }
 
-func meanSD(x [][]float64) (m, sd float64) {
-	n := 0
-	for _, c := range x {
-		for _, v := range c {
-			m += v
-			n++
-		}
-	}
-	m /= float64(n)
-	for _, c := range x {
-		for _, v := range c {
-			sd += (v - m) * (v - m)
-		}
-	}
-	return m, math.Sqrt(sd / float64(n-1))
-}
-
 // checkMoments requires a posterior mean within 4 MCSE of want and, when
 // wantSD > 0, the posterior sd within 10% of wantSD.
 func checkMoments(t *testing.T, name string, x [][]float64, want, wantSD float64) {
 	t.Helper()
-	m, sd := meanSD(x)
+	m, sd := stat.MeanSD(slices.Concat(x...))
 	mcse := mcmc.MCSEMean(x)
 	t.Logf("%s: mean %.10g (want %.10g, %.2f MCSE), sd %.6g (want %.6g)", name, m, want, (m-want)/mcse, sd, wantSD)
 	if math.Abs(m-want) > 4*mcse {

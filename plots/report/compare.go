@@ -6,6 +6,7 @@ import (
 	"slices"
 
 	"spillway/funnel/fitfolder"
+	"spillway/funnel/stat"
 )
 
 // Change is the difference of one effect between two windows, computed
@@ -106,36 +107,13 @@ func Compare(f *fitfolder.Fit, channel, path, window, base string) (Change, erro
 		}
 	}
 	d := make([]float64, len(va))
-	sb := 0.0
 	for i := range va {
 		d[i] = va[i] - vb[i]
-		sb += vb[i]
 	}
 	c.Draws = len(d)
-	c.Mean = mean(d)
-	c.BaseMean = sb / float64(len(vb))
+	c.Mean = stat.Mean(d)
+	c.BaseMean = stat.Mean(vb)
 	slices.Sort(d)
-	c.Q05, c.Q95 = quantileSorted(d, 0.05), quantileSorted(d, 0.95)
+	c.Q05, c.Q95 = stat.Quantile(d, 0.05), stat.Quantile(d, 0.95)
 	return c, nil
-}
-
-func mean(v []float64) float64 {
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
-}
-
-// quantileSorted returns the p-quantile of the sorted slice s by linear
-// interpolation between order statistics (Hyndman and Fan 1996, type 7,
-// the default of R's quantile).
-func quantileSorted(s []float64, p float64) float64 {
-	h := p * float64(len(s)-1)
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[i] + (h-lo)*(s[i+1]-s[i])
 }

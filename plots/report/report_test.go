@@ -17,6 +17,7 @@ import (
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/fitfolder/fitfoldertest"
+	"spillway/funnel/stat"
 	"spillway/plots"
 	"spillway/plots/report"
 )
@@ -343,7 +344,8 @@ func paired(x *fixture, ch, path, a, b string) (mean, q05, q95 float64) {
 		mean += d[i]
 	}
 	mean /= float64(len(d))
-	return mean, fitfoldertest.Quantile(d, 0.05), fitfoldertest.Quantile(d, 0.95)
+	slices.Sort(d)
+	return mean, stat.Quantile(d, 0.05), stat.Quantile(d, 0.95)
 }
 
 func TestCompareUsesPairedDraws(t *testing.T) {

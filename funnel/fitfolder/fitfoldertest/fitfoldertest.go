@@ -13,6 +13,7 @@ import (
 	"spillway/funnel/data"
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/mcmc"
+	"spillway/funnel/stat"
 	"spillway/funnel/window"
 )
 
@@ -229,8 +230,9 @@ func Write(dir string, o Options) (*Fixture, error) {
 				} else {
 					v = fx.Draws[fitfolder.DrawKey{Channel: ch, Path: p, Window: wn}]
 				}
-				e := fitfolder.Effect{Channel: ch, Path: p, Window: wn, Mean: mean(v),
-					Q05: Quantile(v, 0.05), Q50: Quantile(v, 0.5), Q95: Quantile(v, 0.95), PerUnitSpend: per}
+				s := slices.Sorted(slices.Values(v))
+				e := fitfolder.Effect{Channel: ch, Path: p, Window: wn, Mean: stat.Mean(v),
+					Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95), PerUnitSpend: per}
 				if p != fitfolder.PathMediatedShare {
 					e.PerUnitSpend = e.Mean / spend
 				}
@@ -252,8 +254,9 @@ func Write(dir string, o Options) (*Fixture, error) {
 		name string
 		v    []float64
 	}{{"controlled", ctrl}, {"apparent", app}, {"naive", naive}, {"borrowed_share", share}} {
+		s := slices.Sorted(slices.Values(m.v))
 		fx.Borrowed = append(fx.Borrowed, fitfolder.Borrowed{Channel: "search_spend", Measure: m.name,
-			Mean: mean(m.v), Q05: Quantile(m.v, 0.05), Q50: Quantile(m.v, 0.5), Q95: Quantile(m.v, 0.95)})
+			Mean: stat.Mean(m.v), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)})
 	}
 
 	// weekly.csv.
@@ -305,7 +308,7 @@ func Write(dir string, o Options) (*Fixture, error) {
 
 	// curves.csv: saturating steady-state response per path.
 	for _, ch := range Upper {
-		cur := mean(fx.Columns[ch])
+		cur := stat.Mean(fx.Columns[ch])
 		dmax := map[string]float64{"video_spend": 90, "audio_spend": 110}[ch]
 		vmax := map[string]float64{"video_spend": 140, "audio_spend": 70}[ch]
 		for i := 0; i <= 30; i++ {
@@ -338,7 +341,7 @@ func (fx *Fixture) effect(ch, p, w string) (fitfolder.Effect, bool) {
 // response returns the weekly contribution scale*H(a(x/mean(x))) with a
 // geometric adstock of retention lam and a Hill curve K=1, S=1.5.
 func response(x []float64, lam, scale float64) []float64 {
-	m := mean(x)
+	m := stat.Mean(x)
 	out := make([]float64, len(x))
 	a := 0.0
 	for t, v := range x {
@@ -469,27 +472,4 @@ func sumIn(weeks []time.Time, v []float64, w window.Window) float64 {
 		}
 	}
 	return s
-}
-
-func mean(v []float64) float64 {
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
-}
-
-// Quantile returns the p-quantile of v by linear interpolation between
-// order statistics (Hyndman and Fan 1996, type 7, R's default). v is not
-// modified.
-func Quantile(v []float64, p float64) float64 {
-	s := slices.Clone(v)
-	slices.Sort(s)
-	h := p * float64(len(s)-1)
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[i] + (h-lo)*(s[i+1]-s[i])
 }
