@@ -6,79 +6,16 @@ import (
 	"runtime"
 	"sort"
 	"sync"
-	"time"
 
 	"gonum.org/v1/gonum/mat"
 
 	"spillway/funnel/forward"
 	"spillway/funnel/model"
+	"spillway/funnel/window"
+	"spillway/funnel/stat"
 	"spillway/mediation/linear"
 	"spillway/mediation/ols"
 )
-
-// Window is a set of weeks [From, To] (indices into the data, inclusive).
-type Window struct {
-	Name     string // "all", "2024Q3" or "2024-01-01:2024-03-31"
-	From, To int
-}
-
-// Quarters returns "all" followed by every calendar quarter that has at
-// least one week (by week start date) in weeks.
-func Quarters(weeks []time.Time) []Window {
-	out := []Window{{Name: "all", From: 0, To: len(weeks) - 1}}
-	for i, w := range weeks {
-		q := fmt.Sprintf("%dQ%d", w.Year(), (int(w.Month())-1)/3+1)
-		if last := &out[len(out)-1]; last.Name == q {
-			last.To = i
-		} else {
-			out = append(out, Window{Name: q, From: i, To: i})
-		}
-	}
-	return out
-}
-
-// ParseWindow resolves a window name ("all", "YYYYQn" or
-// "YYYY-MM-DD:YYYY-MM-DD") against the data's weeks.
-func ParseWindow(name string, weeks []time.Time) (Window, error) {
-	for _, w := range Quarters(weeks) {
-		if w.Name == name {
-			return w, nil
-		}
-	}
-	var a, b string
-	if i := indexByte(name, ':'); i > 0 {
-		a, b = name[:i], name[i+1:]
-	} else {
-		return Window{}, fmt.Errorf("window %q: expected all, a quarter in the data such as %s, or FROM:TO dates YYYY-MM-DD:YYYY-MM-DD", name, Quarters(weeks)[1].Name)
-	}
-	from, err1 := time.Parse("2006-01-02", a)
-	to, err2 := time.Parse("2006-01-02", b)
-	if err1 != nil || err2 != nil || to.Before(from) {
-		return Window{}, fmt.Errorf("window %q: expected FROM:TO dates YYYY-MM-DD:YYYY-MM-DD with FROM <= TO", name)
-	}
-	w := Window{Name: name, From: -1, To: -1}
-	for i, wk := range weeks {
-		if !wk.Before(from) && !wk.After(to) {
-			if w.From < 0 {
-				w.From = i
-			}
-			w.To = i
-		}
-	}
-	if w.From < 0 {
-		return Window{}, fmt.Errorf("window %q holds no week of the data (%s to %s)", name, weeks[0].Format("2006-01-02"), weeks[len(weeks)-1].Format("2006-01-02"))
-	}
-	return w, nil
-}
-
-func indexByte(s string, c byte) int {
-	for i := 0; i < len(s); i++ {
-		if s[i] == c {
-			return i
-		}
-	}
-	return -1
-}
 
 // Inputs are what the split needs: the scaled data, the compiled stages, and
 // paired posterior draws (row d of Demand pairs with row d of Outcome).
@@ -109,7 +46,7 @@ type Result struct {
 // Split computes the effects for each window by counterfactual simulation.
 // Work is spread over the draws in parallel; the result does not depend on
 // the number of cores.
-func Split(in *Inputs, windows []Window) (*Result, error) {
+func Split(in *Inputs, windows []window.Window) (*Result, error) {
 	if err := in.DemandDraws.check(in.Demand.Names(), "demand"); err != nil {
 		return nil, err
 	}
@@ -353,25 +290,7 @@ type Summary struct {
 func Summarise(x []float64) Summary {
 	s := append([]float64(nil), x...)
 	sort.Float64s(s)
-	m := 0.0
-	for _, v := range s {
-		m += v
-	}
-	return Summary{Mean: m / float64(len(s)), Q05: quantile(s, 0.05), Q50: quantile(s, 0.5), Q95: quantile(s, 0.95)}
-}
-
-func quantile(sorted []float64, p float64) float64 {
-	n := len(sorted)
-	if n == 0 {
-		return math.NaN()
-	}
-	h := float64(n-1) * p
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= n {
-		return sorted[n-1]
-	}
-	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
+	return Summary{Mean: stat.Mean(s), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)}
 }
 
 // Sensitivity holds the via-search effect of one upper channel (window all)

@@ -11,6 +11,7 @@ import (
 
 	"spillway/funnel/model"
 	"spillway/funnel/transform"
+	"spillway/funnel/window"
 	"spillway/mediation/ols"
 )
 
@@ -97,7 +98,7 @@ func TestSplitClosedForm(t *testing.T) {
 	sc, st1, st2, v1, v2 := synth(t, 104, 1, model.Options{})
 	in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
 		DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
-	wins := Quarters(sc.Weeks)
+	wins := window.Quarters(sc.Weeks)
 	res, err := Split(in, wins)
 	if err != nil {
 		t.Fatal(err)
@@ -173,7 +174,7 @@ func TestBorrowedIdentity(t *testing.T) {
 		sc.Outcome = st2.Predict(nil, v2)
 		in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
 			DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
-		res, err := Split(in, Quarters(sc.Weeks)[:1])
+		res, err := Split(in, window.Quarters(sc.Weeks)[:1])
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -241,31 +242,5 @@ func TestBorrowedIdentity(t *testing.T) {
 		if !scalar.EqualWithinAbsOrRel(share, (app-ctl)/app, 1e-9, 1e-9) {
 			t.Errorf("borrowed share: got %v, want %v", share, (app-ctl)/app)
 		}
-	}
-}
-
-// TestQuarters checks calendar quarter windows by week start date.
-func TestQuarters(t *testing.T) {
-	var weeks []time.Time
-	start := time.Date(2023, 12, 25, 0, 0, 0, 0, time.UTC) // a Monday in 2023Q4
-	for i := 0; i < 20; i++ {
-		weeks = append(weeks, start.AddDate(0, 0, 7*i))
-	}
-	w := Quarters(weeks)
-	want := []Window{{"all", 0, 19}, {"2023Q4", 0, 0}, {"2024Q1", 1, 13}, {"2024Q2", 14, 19}}
-	if len(w) != len(want) {
-		t.Fatalf("got %v, want %v", w, want)
-	}
-	for i := range w {
-		if w[i] != want[i] {
-			t.Errorf("window %d: got %v, want %v", i, w[i], want[i])
-		}
-	}
-	r, err := ParseWindow("2024-02-01:2024-02-29", weeks)
-	if err != nil || r.From != 6 || r.To != 9 {
-		t.Errorf("custom window: got %v %v, want weeks 6..9", r, err)
-	}
-	if _, err := ParseWindow("2025Q1", weeks); err == nil {
-		t.Error("a window outside the data must be an error")
 	}
 }

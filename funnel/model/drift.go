@@ -3,6 +3,7 @@ package model
 import (
 	"math"
 
+	"spillway/funnel/stat"
 	"spillway/funnel/transform"
 )
 
@@ -158,7 +159,7 @@ func (b *baselineTerm) prepare(nat []float64, _ bool) bool {
 	b.sm.eval(nat, 0, T)
 	b.fbar = 0
 	if b.centred {
-		b.fbar = mean(b.sm.f)
+		b.fbar = stat.Mean(b.sm.f)
 	}
 	return !notFinite(b.fbar)
 }
@@ -190,7 +191,7 @@ func (b *baselineTerm) unconstrain(_, v []float64, _ []param) float64 {
 		return 0
 	}
 	e := b.sm
-	return mean(e.b.Eval(nil, v[e.sd], v[e.ell], v[e.z:e.z+e.b.M]))
+	return stat.Mean(e.b.Eval(nil, v[e.sd], v[e.ell], v[e.z:e.z+e.b.M]))
 }
 
 var (

@@ -9,6 +9,7 @@ import (
 	"time"
 
 	"spillway/funnel/mcmc"
+	"spillway/funnel/stat"
 )
 
 // Normal-normal conjugate update (Gelman et al., Bayesian Data Analysis,
@@ -45,7 +46,7 @@ func conjugateData(T int, coef, sd [2]float64, gamma0 float64) (*Scaled, [2]floa
 		}
 	}
 	sc.Upper = [][]float64{x}
-	xbar := mean(x)
+	xbar := stat.Mean(x)
 	sxx := 0.0
 	for _, v := range x {
 		sxx += (v - xbar) * (v - xbar)
@@ -58,7 +59,7 @@ func conjugateData(T int, coef, sd [2]float64, gamma0 float64) (*Scaled, [2]floa
 			e[i] = rng.NormFloat64()
 		}
 		// project the noise off the intercept and the spend
-		em := mean(e)
+		em := stat.Mean(e)
 		exy := 0.0
 		for i := range e {
 			exy += (e[i] - em) * (x[i] - xbar)

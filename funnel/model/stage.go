@@ -3,6 +3,8 @@ package model
 import (
 	"fmt"
 	"math"
+
+	"spillway/funnel/stat"
 )
 
 // Param is one named parameter of a stage with its prior.
@@ -279,7 +281,7 @@ func (s *Stage) Target() (*Target, error) {
 		}
 		bar := 0.0
 		if t.centred {
-			bar = mean(r.X)
+			bar = stat.Mean(r.X)
 		}
 		t.terms = append(t.terms, &regressorTerm{k: k, x: r.X, bar: bar})
 	}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"os"
+	"spillway/funnel/window"
 	"strings"
 	"testing"
 
@@ -73,7 +74,7 @@ func TestApparentReturnHoldsUp(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		res, err := mediation.Split(f.Inputs(), mediation.Quarters(sc.Weeks)[:1])
+		res, err := mediation.Split(f.Inputs(), window.Quarters(sc.Weeks)[:1])
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -13,6 +13,7 @@ import (
 	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
+	"spillway/funnel/stat"
 )
 
 // FitLifts is Fit with lift tests as data. A test of the outcome ties the
@@ -191,19 +192,10 @@ func (f *Fitted) LiftChecks() []LiftCheck {
 
 func check(t lifts.Test, draws []float64) LiftCheck {
 	c := LiftCheck{Test: t}
-	n := float64(len(draws))
-	m, ss := 0.0, 0.0
-	for _, v := range draws {
-		m += v
-	}
-	m /= n
-	for _, v := range draws {
-		ss += (v - m) * (v - m)
-	}
-	v1 := ss / (n - 1)
+	m, v1 := stat.Mean(draws), stat.Variance(draws)
 	sorted := append([]float64(nil), draws...)
 	sort.Float64s(sorted)
-	c.Mean, c.Q05, c.Q95 = m, mcmc.Quantile(sorted, 0.05), mcmc.Quantile(sorted, 0.95)
+	c.Mean, c.Q05, c.Q95 = m, stat.Quantile(sorted, 0.05), stat.Quantile(sorted, 0.95)
 	// normal posterior = rest N(m0, v0) times the test N(est | L, se^2)
 	se2 := t.SE * t.SE
 	p0 := 1/v1 - 1/se2
