@@ -13,6 +13,7 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/fitfolder"
+	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/progress"
 	"spillway/funnel/model"
@@ -27,6 +28,9 @@ type samplingFlags struct {
 	chains, warmup, draws int
 	priors                string
 	linear                []string
+	drift                 []string
+	baseline              string
+	lifts                 string
 	quiet                 bool
 	targetAccept          float64
 }
@@ -35,6 +39,7 @@ func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
 	fs.Float64Var(&s.targetAccept, "target-accept", pipeline.DefaultTargetAccept, "the acceptance rate the step size adapts to during warm-up; raise it (0.95) if the verdict reports divergent transitions")
+	fs.StringVar(&s.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data: channel,start,end,estimate,se[,metric,region]")
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -54,6 +59,8 @@ func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.IntVar(&s.draws, "draws", d.draws, "kept draws per chain"+strings.TrimPrefix(d.iterWhat, "iterations per chain"))
 	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
 	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
+	fs.StringSliceVar(&s.drift, "drift", nil, "spend `COLUMNS` (or all) whose effectiveness drifts smoothly over time, on every path they have")
+	fs.StringVar(&s.baseline, "baseline", "", "the baseline: line (a trend line plus seasons, the default) or smooth (a smooth function of time in place of the line)")
 	fs.BoolVar(&s.quiet, "quiet", false, "no progress on standard error")
 }
 
@@ -77,11 +84,14 @@ func (s *samplingFlags) validate() error {
 // against the data before any sampling: an unknown --linear column is a
 // usage error, a bad priors file bad data.
 func modelOptions(sc *model.Scaled, s *samplingFlags) (model.Options, error) {
-	o, err := pipeline.Choices{Linear: s.linear, Priors: s.priors}.Options(sc)
+	o, err := pipeline.Choices{Linear: s.linear, Priors: s.priors, Drift: s.drift, Baseline: s.baseline}.Options(sc)
 	var le *pipeline.LinearError
+	var ce *pipeline.ChoiceError
 	switch {
 	case errors.As(err, &le):
 		return o, usagef("--linear %v", err)
+	case errors.As(err, &ce):
+		return o, usagef("--%s %v", ce.Flag, err)
 	case err != nil:
 		return o, badData(err)
 	}
@@ -117,6 +127,18 @@ for each stage FOLDER/STAGE/draws.csv, summary.csv and stats.json, and
 FOLDER/verdict.txt: whether the fit deserves trust (R-hat <= 1.01, bulk and
 tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not.
 Regional data are fitted as their national sum.
+
+With --drift, the named channels' effectiveness may change over time: each
+coefficient is multiplied by a smooth function of the week that averages 1
+over the data, its smoothness learned; FOLDER/drift.csv holds each weekly
+multiplier with its 90% interval. --baseline smooth puts a smooth function
+of time in place of the trend line. --lifts FILE adds lift tests as data
+(channel,start,end,estimate,se and optionally metric, outcome or queries):
+removing the channel's spend from start to end (week start dates) lowered
+the metric summed over those weeks by estimate; an outcome test ties the
+two stages, which are then fitted as one. FOLDER/lifts.csv puts each test
+beside the model's posterior, and a line on standard output names any test
+the rest of the data contradict.
 
 EXAMPLE
   spillway fit --data sales.csv --date week --upper video,audio --search search \
@@ -189,26 +211,39 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if err != nil {
 		return nil, err
 	}
-	var priorBytes []byte
+	var priorBytes, liftBytes []byte
 	if opts.priors != "" {
 		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
 			return nil, badData(err)
 		}
 	}
+	var tests []lifts.Test
+	if opts.lifts != "" {
+		if tests, err = lifts.Load(opts.lifts, ds); err != nil {
+			return nil, badData(err)
+		}
+		if liftBytes, err = os.ReadFile(opts.lifts); err != nil {
+			return nil, badData(err)
+		}
+	}
 	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
+		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion()}
 	verb := "fit"
 	if demo != "" {
 		verb = "run"
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
+	fitted, err := pipeline.FitLifts(ctx, sc, o, tests, set, progressHook(opts, stderr))
 	if err != nil {
 		return nil, err
 	}
 	f, reps := newFit(*fs, ds, priorBytes, fitted)
 	files, err := f.FitFiles()
+	if err != nil {
+		return nil, err
+	}
+	checks, err := driftFiles(files, fitted, liftBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -218,6 +253,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	printFitSummary(stdout, reps, fitted)
+	printLiftChecks(stdout, checks)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}

@@ -157,8 +157,8 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 			return usagef("--shard: %v", err)
 		}
 	}
-	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0) {
-		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors and --linear")
+	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0 || len(o.sampling.drift) > 0 || o.sampling.baseline != "") {
+		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors, --linear, --drift and --baseline")
 	}
 	od, err := newOutDir(o.sampling.out, o.sampling.force)
 	if err != nil {

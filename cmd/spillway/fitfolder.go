@@ -17,7 +17,7 @@ import (
 // choices are the model choices the fit folder's spec records; the priors
 // file is its copy in the folder.
 func choices(f *fitfolder.Fit) pipeline.Choices {
-	c := pipeline.Choices{Linear: f.Run.Linear}
+	c := pipeline.Choices{Linear: f.Run.Linear, Drift: f.Run.Drift, Baseline: f.Run.Baseline}
 	if f.Priors != nil {
 		c.Priors = f.PriorsPath()
 	}
@@ -116,6 +116,11 @@ func rerunCommand(verb string, fs *fitfolder.Run, out string) string {
 		add("linear", strings.Join(l, ","))
 	}
 	add("priors", fs.Priors)
+	if len(fs.Drift) > 0 {
+		add("drift", strings.Join(fs.Drift, ","))
+	}
+	add("baseline", fs.Baseline)
+	add("lifts", fs.Lifts)
 	add("seed", strconv.FormatUint(fs.Seed, 10))
 	add("chains", strconv.Itoa(fs.Chains))
 	add("warmup", strconv.Itoa(fs.Warmup))

@@ -19,11 +19,18 @@ type Run struct {
 	Draws    int       `json:"draws"`
 	Accept   float64   `json:"target_accept"`
 	Linear   []string  `json:"linear,omitempty"`
-	Priors   string    `json:"priors,omitempty"` // the priors file given; copied into the folder as priors.csv
+	Priors   string    `json:"priors,omitempty"`   // the priors file given; copied into the folder as priors.csv
+	Drift    []string  `json:"drift,omitempty"`    // spend columns (or all) whose effectiveness drifts
+	Baseline string    `json:"baseline,omitempty"` // "smooth" for a baseline that moves
+	Lifts    string    `json:"lifts,omitempty"`    // the lift-test file given; copied into the folder as LiftTestsFile
 	Command  string    `json:"command"`
 	DataFile string    `json:"data_file"`
 	Version  string    `json:"version"`
 }
+
+// LiftTestsFile is the fit folder's copy of the lift-test file a fit was
+// given (lifts.csv is the tests beside the model's posterior).
+const LiftTestsFile = "lift_tests.csv"
 
 // jsonFile renders v as an indented JSON file.
 func jsonFile(v any) ([]byte, error) {

@@ -11,17 +11,28 @@ import (
 // Riutort-Mayol, Bürkner, Andersen, Solin and Vehtari (2023), "Practical
 // Hilbert space approximate Bayesian Gaussian processes for probabilistic
 // programming", Statistics and Computing 33:17, with a squared-exponential
-// kernel of marginal sd and length-scale ell (weeks):
+// kernel of length-scale ell (weeks):
 //
 //	f(t) = sum_{j=1..M} s_j z_j phi~_j(t),  z_j ~ Normal(0, 1),
-//	s_j  = sqrt(S(sqrt(lambda_j))) = sd (2 pi)^(1/4) sqrt(ell) exp(-ell^2 lambda_j / 4),
 //	phi_j(x) = L^(-1/2) sin(pi j (x + L) / (2 L)),  lambda_j = (pi j / (2 L))^2,
 //
 // x the week index minus the middle week, L = BoundaryFactor times the
-// data's half-range, and phi~_j = phi_j minus its mean over the fitted weeks,
-// so that f averages exactly zero there: a drifting coefficient keeps its
-// meaning as the average effectiveness, and a moving baseline leaves the
-// intercept the average level.
+// data's half-range, and phi~_j = phi_j minus its mean over the fitted
+// weeks, so that f averages exactly zero there: a drifting coefficient
+// keeps its meaning as the average effectiveness, and a moving baseline
+// leaves the intercept the average level. The weights are the square
+// roots of the kernel's spectral density S(w) = sd^2 sqrt(2 pi) ell
+// exp(-ell^2 w^2 / 2) at sqrt(lambda_j):
+//
+//	s_j = sd (2 pi)^(1/4) sqrt(ell) exp(-ell^2 lambda_j / 4),
+//
+// so sd is the marginal sd of f before its mean is removed. (Normalising
+// the weights so that sd is f's root mean square over the weeks whatever
+// the length-scale reads better but sampled worse: with fixed true effects
+// the data pin f near zero, only sd -> 0 can then do it, and the weights
+// formed a funnel with sd, 17 to 21 divergent transitions in 4000 draws of
+// the demo's demand stage against 3; here a long length-scale, whose level
+// the centring removes, is a second way to a flat f.)
 //
 // Why this representation (how it samples): the weights z_j are a priori
 // independent standard normals and enter f linearly, so the sampler moves in
@@ -39,9 +50,10 @@ import (
 // M >= 1.75 L / ell_min, with ell_min = MinLength weeks, the 1% quantile of
 // the length-scale prior [the rule confirmed against PyMC's HSGP helper,
 // required_num_eigenvectors; the boundary guidance c >= 3.2 ell / S, c >=
-// 1.2, from memory]: with c = 1.5 the approximation of the covariance is
-// close for length-scales up to about 0.47 times the half-range (36 weeks on
-// three years of data); a longer length-scale still gives a smooth
+// 1.2, from memory]: with c = 1.5 the covariance is within 4% of the
+// kernel's (TestBasis) for length-scales up to about 0.4 times the
+// half-range (30 weeks on three years of data, where M = 11), 10% at 36
+// weeks; a longer length-scale still gives a smooth
 // function, close to a straight line over the data once its mean is
 // removed, with a covariance a little different from the kernel's.
 const (
@@ -49,22 +61,28 @@ const (
 	// half-range.
 	BoundaryFactor = 1.5
 	// MinLength is the shortest length-scale, in weeks, the basis is sized
-	// to represent: the default prior puts 1% of its mass below it.
-	MinLength = 13
+	// to represent: the default prior puts 1% of its mass below it. It is
+	// longer than the half-period of the yearly season (26 weeks) would
+	// need to be copied, less than two quarters: a drift may move from
+	// quarter to quarter, but cannot easily stand in for the seasons, with
+	// which the drift of an always-on channel would otherwise trade off
+	// (the multiplier of a steady response is a seasonal term of its own).
+	MinLength = 20
 )
 
 // The default priors of a smooth function's hyperparameters and weights.
 var (
-	// PriorDriftSD is the marginal sd of log-effectiveness: a multiplier
-	// within exp(+-2 sd).
+	// PriorDriftSD is the marginal sd of the log multiplier: HalfNormal(0.5)
+	// has its median at 0.34 (effectiveness typically within -29% and +40%
+	// of its average) and 5% of its mass above 0.98.
 	PriorDriftSD = Prior{HalfNormal, 0.5, 0}
 	// PriorBaseSD is the marginal sd of a moving baseline, in the scaled
 	// response's units (mean 1).
 	PriorBaseSD = Prior{HalfNormal, 0.3, 0}
-	// PriorLength is the length-scale in weeks: InvGamma(5.5, 160) has 1%
-	// of its mass below 13 weeks, 1% above 104 weeks and its median at 31
-	// weeks (computed with gonum's Gamma quantile of 1/ell).
-	PriorLength = Prior{InvGamma, 5.5, 160}
+	// PriorLength is the length-scale in weeks: InvGamma(6, 260) has 1%
+	// of its mass below 19.8 weeks, 1% above 146 weeks and its median at
+	// 46 weeks (computed with gonum's Gamma quantile of 1/ell).
+	PriorLength = Prior{InvGamma, 6, 260}
 	// PriorWeight is the prior of each basis weight.
 	PriorWeight = Prior{Normal, 0, 1}
 )
@@ -118,7 +136,8 @@ func NewBasis(T int, mask []bool) *Basis {
 	return b
 }
 
-// scales writes s_j and d s_j / d ell into s and ds.
+// scales writes s_j and, unless ds is nil, d s_j / d ell = s_j (1/(2 ell)
+// - ell lambda_j / 2) into s and ds.
 func (b *Basis) scales(s, ds []float64, sd, ell float64) {
 	c := sd * math.Pow(2*math.Pi, 0.25) * math.Sqrt(ell)
 	for j, w := range b.sqrtLam {

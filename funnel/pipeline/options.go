@@ -18,7 +18,26 @@ type Choices struct {
 	// Priors is a priors file (see model.LoadPriors); empty keeps the
 	// default priors.
 	Priors string
+	// Drift names spend columns whose coefficients drift by week (model
+	// Options.Drift); DriftAll among them means every spend column.
+	Drift []string
+	// Baseline is "" (a trend line) or model.BaselineSmooth.
+	Baseline string
 }
+
+// DriftAll as a Drift column means every spend column.
+const DriftAll = "all"
+
+// ChoiceError is a choice that does not fit the data: the flag it came from
+// and what is wrong.
+type ChoiceError struct {
+	Flag string
+	Err  error
+}
+
+func (e *ChoiceError) Error() string { return e.Err.Error() }
+
+func (e *ChoiceError) Unwrap() error { return e.Err }
 
 // LinearError is a Linear column that is not a spend column of the data.
 type LinearError struct {
@@ -47,6 +66,25 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 		}
 		o.Linear[col] = true
 	}
+	for _, col := range c.Drift {
+		switch {
+		case col == DriftAll:
+			for _, sp := range spend {
+				o.Drift = setTrue(o.Drift, sp)
+			}
+		case slices.Contains(spend, col):
+			o.Drift = setTrue(o.Drift, col)
+		default:
+			return o, &ChoiceError{Flag: "drift", Err: fmt.Errorf("%s: not an upper-funnel or paid-search column (%s), nor %s", col, strings.Join(spend, ", "), DriftAll)}
+		}
+	}
+	switch c.Baseline {
+	case "", "line":
+	case model.BaselineSmooth:
+		o.Baseline = model.BaselineSmooth
+	default:
+		return o, &ChoiceError{Flag: "baseline", Err: fmt.Errorf("%q: expected line (the default: a trend line plus seasons) or %s (a smooth function of time in place of the line)", c.Baseline, model.BaselineSmooth)}
+	}
 	if c.Priors == "" {
 		return o, nil
 	}
@@ -66,4 +104,12 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 		}
 	}
 	return o, nil
+}
+
+func setTrue(m map[string]bool, k string) map[string]bool {
+	if m == nil {
+		m = map[string]bool{}
+	}
+	m[k] = true
+	return m
 }

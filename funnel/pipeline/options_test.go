@@ -72,3 +72,39 @@ func TestChoicesOptions(t *testing.T) {
 		t.Errorf("missing priors file: got %v", err)
 	}
 }
+
+// TestChoicesDrift checks --drift and --baseline: columns, all, a prior on
+// a drift's length-scale, and the errors.
+func TestChoicesDrift(t *testing.T) {
+	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := model.Scale(ds.National(), ds.Spec)
+	o, err := Choices{Drift: []string{"video_spend"}, Baseline: "smooth"}.Options(sc)
+	if err != nil || !o.Drift["video_spend"] || len(o.Drift) != 1 || o.Baseline != model.BaselineSmooth {
+		t.Errorf("drift video, smooth baseline: %+v, %v", o, err)
+	}
+	o, err = Choices{Drift: []string{"all"}}.Options(sc)
+	if err != nil || len(o.Drift) != 3 || o.Baseline != "" {
+		t.Errorf("drift all: %+v, %v", o, err)
+	}
+	p := filepath.Join(t.TempDir(), "p.csv")
+	if err := os.WriteFile(p, []byte("parameter,family,p1,p2\ndrift_len_alpha[video_spend],invgamma,3,80\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	o, err = Choices{Drift: []string{"video_spend"}, Priors: p}.Options(sc)
+	if err != nil || o.Priors["drift_len_alpha[video_spend]"] != (model.Prior{Family: model.InvGamma, P1: 3, P2: 80}) {
+		t.Errorf("a prior on a drift's length-scale: %+v, %v", o.Priors, err)
+	}
+	for _, c := range []struct {
+		ch   Choices
+		flag string
+	}{{Choices{Drift: []string{"price"}}, "drift"}, {Choices{Baseline: "wiggly"}, "baseline"}} {
+		_, err := c.ch.Options(sc)
+		var ce *ChoiceError
+		if !errors.As(err, &ce) || ce.Flag != c.flag {
+			t.Errorf("%+v: error %v, want a --%s error", c.ch, err, c.flag)
+		}
+	}
+}

@@ -1,0 +1,64 @@
+package main
+
+import (
+	"fmt"
+	"io"
+	"time"
+
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/pipeline"
+)
+
+// driftFiles adds to files what a fit with drifting effectiveness or lift
+// tests writes besides the fit folder: drift.csv (each drifting
+// coefficient's weekly multiplier), lifts.csv (each lift test beside the
+// model's posterior of the same quantity) and the copy of the lift-test
+// file. It returns the lift tests' checks.
+func driftFiles(files map[string][]byte, f *pipeline.Fitted, liftFile []byte) ([]pipeline.LiftCheck, error) {
+	if d := f.Drifts(); len(d) > 0 {
+		rows := make([]fitfolder.Drift, len(d))
+		for i, w := range d {
+			rows[i] = fitfolder.Drift{Channel: w.Channel, Path: w.Path, Week: w.Week, Mean: w.Mean, Q05: w.Q05, Q95: w.Q95}
+		}
+		b, err := fitfolder.DriftFile(rows)
+		if err != nil {
+			return nil, fmt.Errorf("drift.csv: %w", err)
+		}
+		files["drift.csv"] = b
+	}
+	if len(f.Tests) == 0 {
+		return nil, nil
+	}
+	checks := f.LiftChecks()
+	rows := make([]fitfolder.Lift, len(checks))
+	for i, c := range checks {
+		t := c.Test
+		rows[i] = fitfolder.Lift{Channel: t.Channel, Metric: t.Metric.String(), Start: t.Start, End: t.End, Estimate: t.Estimate, SE: t.SE,
+			Mean: c.Mean, Q05: c.Q05, Q95: c.Q95, RestMean: c.Without, RestSD: c.WithoutSD, Z: c.Z, P: c.P, Reconciled: c.Reconciled()}
+	}
+	b, err := fitfolder.LiftsFile(rows)
+	if err != nil {
+		return nil, fmt.Errorf("lifts.csv: %w", err)
+	}
+	files["lifts.csv"] = b
+	files[fitfolder.LiftTestsFile] = liftFile
+	return checks, nil
+}
+
+// printLiftChecks prints a line for every lift test the model cannot
+// reconcile with the rest of the data.
+func printLiftChecks(w io.Writer, checks []pipeline.LiftCheck) {
+	bad := 0
+	for _, c := range checks {
+		if c.Reconciled() {
+			continue
+		}
+		bad++
+		t := c.Test
+		fmt.Fprintf(w, "lift test (line %d) of %s on %s, %s to %s: %.4g (se %.3g), but the rest of the data say %.4g (sd %.3g): p = %.2g; the model cannot reconcile them\n",
+			t.Line, t.Channel, t.Metric, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly), t.Estimate, t.SE, c.Without, c.WithoutSD, c.P)
+	}
+	if len(checks) > 0 && bad == 0 {
+		fmt.Fprintf(w, "lift tests: all %d agree with the rest of the data (lifts.csv)\n", len(checks))
+	}
+}

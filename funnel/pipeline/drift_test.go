@@ -1,0 +1,465 @@
+package pipeline
+
+import (
+	"context"
+	"math"
+	"math/rand/v2"
+	"sort"
+	"testing"
+
+	"gonum.org/v1/gonum/stat/distuv"
+
+	"spillway/funnel/data"
+	"spillway/funnel/lifts"
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/funnel/scenario"
+	"spillway/funnel/stat"
+	"spillway/funnel/window"
+	"spillway/mediation"
+)
+
+// allDrift is the drift option for every spend column of sc.
+func allDrift(sc *model.Scaled) map[string]bool {
+	m := map[string]bool{}
+	for _, c := range append(append([]string(nil), sc.UpperNames...), sc.SearchNames...) {
+		m[c] = true
+	}
+	return m
+}
+
+// truthModel holds a simulated data set's true parameters (model units,
+// scenario.Result) and its true weekly multipliers.
+type truthModel struct {
+	sc       *model.Scaled
+	dem, out map[string]float64
+	drift    *scenario.Drift
+}
+
+func (tm truthModel) media(st map[string]float64, coef, lam, k, s, col string) model.Media {
+	return model.Media{Coef: st[coef+"["+col+"]"], Lam: st[lam+"["+col+"]"], K: st[k+"["+col+"]"], S: st[s+"["+col+"]"]}
+}
+
+func mult(m [][]float64, c int) []float64 {
+	if c < len(m) {
+		return m[c]
+	}
+	return nil
+}
+
+// paths returns, for spend column col, its true paths: each a coefficient
+// times a response with its multiplier (nil: 1) and the factor that turns
+// it into outcome units (queries units for the demand path when queries is
+// set).
+func (tm truthModel) paths(col string, queries bool) []truePath {
+	var d scenario.Drift
+	if tm.drift != nil {
+		d = *tm.drift
+	}
+	for c, name := range tm.sc.UpperNames {
+		if name != col {
+			continue
+		}
+		q := truePath{m: tm.media(tm.dem, "alpha", "lam", "K", "S", col), x: tm.sc.Upper[c], mult: mult(d.Demand, c), scale: tm.sc.OutcomeScale * tm.out["gamma"]}
+		if queries {
+			q.scale = tm.sc.QueriesScale
+			return []truePath{q}
+		}
+		y := truePath{m: tm.media(tm.out, "delta", "lam2", "K2", "S2", col), x: tm.sc.Upper[c], mult: mult(d.Direct, c), scale: tm.sc.OutcomeScale}
+		return []truePath{q, y}
+	}
+	for s, name := range tm.sc.SearchNames {
+		if name == col {
+			return []truePath{{m: tm.media(tm.out, "beta", "lam_s", "K_s", "S_s", col), x: tm.sc.Search[s], mult: d.Search, scale: tm.sc.OutcomeScale}}
+		}
+	}
+	panic("no channel " + col)
+}
+
+type truePath struct {
+	m     model.Media
+	x     []float64
+	mult  []float64
+	scale float64
+}
+
+// effect returns the path's true effect of removing spend in weeks
+// from..to, summed over weeks from..last (raw units).
+func (p truePath) effect(from, to, last int) float64 {
+	cf := append([]float64(nil), p.x...)
+	for t := from; t <= to; t++ {
+		cf[t] = 0
+	}
+	h, hc := p.m.Response(nil, p.x), p.m.Response(nil, cf)
+	s := 0.0
+	for t := from; t <= last; t++ {
+		m := 1.0
+		if p.mult != nil {
+			m = p.mult[t]
+		}
+		s += m * (h[t] - hc[t])
+	}
+	return p.scale * p.m.Coef * s
+}
+
+// liftSpec asks for a lift test of a column on a metric in the first run of
+// four weeks with spend from week near on.
+type liftSpec struct {
+	col    string
+	metric model.LiftMetric
+	near   int
+}
+
+// simulatedLifts returns lift tests of the true model: the true lift over
+// each window plus normal noise of sd rel times it.
+func simulatedLifts(ds *data.Dataset, tm truthModel, specs []liftSpec, rel float64, seed uint64) []lifts.Test {
+	rng := rand.New(rand.NewPCG(seed, 7))
+	var out []lifts.Test
+	for _, s := range specs {
+		x := spendOf(tm.sc, s.col)
+		from := s.near
+		for ; from+3 < len(x); from++ {
+			if x[from] > 0 && x[from+1] > 0 && x[from+2] > 0 && x[from+3] > 0 {
+				break
+			}
+		}
+		to := from + 3
+		L := 0.0
+		for _, p := range tm.paths(s.col, s.metric == model.LiftQueries) {
+			L += p.effect(from, to, to)
+		}
+		se := rel * math.Abs(L)
+		out = append(out, lifts.Test{Channel: s.col, Metric: s.metric, Start: ds.Weeks[from], End: ds.Weeks[to], From: from, To: to,
+			Estimate: L + se*rng.NormFloat64(), SE: se})
+	}
+	return out
+}
+
+func spendOf(sc *model.Scaled, col string) []float64 {
+	for c, n := range sc.UpperNames {
+		if n == col {
+			return sc.Upper[c]
+		}
+	}
+	for s, n := range sc.SearchNames {
+		if n == col {
+			return sc.Search[s]
+		}
+	}
+	return nil
+}
+
+// driftScenario returns the demo scenario (seed 11) with the named drift:
+// "fixed" (none), "smooth" (video's lift of queries rising and falling
+// between 0.6x and 1.5x over the three years, its direct effect sinking
+// from 1.3x to 0.75x, paid search's rising by a third) or "step" (a creative
+// refresh in week 78: video's lift of queries from 0.65x to 1.35x and its
+// direct effect from 0.8x to 1.2x).
+func driftScenario(t *testing.T, name string) (*scenario.Result, truthModel) {
+	t.Helper()
+	s, err := scenario.Named("demo", 11, 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	T := s.Weeks
+	series := func(f func(w float64) float64) []float64 {
+		x := make([]float64, T)
+		for i := range x {
+			x[i] = f(float64(i) / float64(T-1))
+		}
+		return x
+	}
+	switch name {
+	case "fixed":
+	case "smooth":
+		s.P.Drift = &scenario.Drift{
+			Demand: [][]float64{series(func(w float64) float64 { return math.Exp(0.45 * math.Sin(2*math.Pi*(w-0.15))) })},
+			Direct: [][]float64{series(func(w float64) float64 { return math.Exp(0.27 - 0.55*w) })},
+			Search: series(func(w float64) float64 { return math.Exp(0.29 * w) }),
+		}
+	case "step":
+		step := func(a, b float64) []float64 {
+			return series(func(w float64) float64 {
+				if w < 0.5 {
+					return a
+				}
+				return b
+			})
+		}
+		s.P.Drift = &scenario.Drift{Demand: [][]float64{step(0.65, 1.35)}, Direct: [][]float64{step(0.8, 1.2)}}
+	default:
+		t.Fatalf("no drift scenario %q", name)
+	}
+	res, err := s.Simulate()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := model.Scale(res.Data.National(), res.Data.Spec)
+	return res, truthModel{sc: sc, dem: res.Demand, out: res.Outcome, drift: s.P.Drift}
+}
+
+// quarterly compares the fitted quarterly effects (via search and direct of
+// each upper-funnel channel) with the truth and returns how many true
+// values fall inside their 90% intervals, of how many, and the mean width
+// of the intervals per quarter.
+func quarterly(t *testing.T, label string, f *Fitted, tm truthModel) (in, n int, width map[string]float64) {
+	t.Helper()
+	windows := window.Quarters(tm.sc.Weeks)[1:]
+	split, err := mediation.Split(f.Inputs(), windows)
+	if err != nil {
+		t.Fatal(err)
+	}
+	truth := map[string]float64{}
+	last := tm.sc.T - 1
+	for _, col := range tm.sc.UpperNames {
+		p := tm.paths(col, false)
+		for _, w := range windows {
+			truth[col+"/via_search/"+w.Name] = p[0].effect(w.From, w.To, last)
+			truth[col+"/direct/"+w.Name] = p[1].effect(w.From, w.To, last)
+		}
+	}
+	width = map[string]float64{}
+	for _, e := range split.Effects {
+		tv, ok := truth[e.Channel+"/"+e.Path+"/"+e.Window]
+		if !ok {
+			continue
+		}
+		s := append([]float64(nil), e.Draws...)
+		sort.Float64s(s)
+		q05, q95 := stat.Quantile(s, 0.05), stat.Quantile(s, 0.95)
+		n++
+		if q05 <= tv && tv <= q95 {
+			in++
+		} else {
+			t.Logf("%s: %s %s %s truth %.4g outside [%.4g, %.4g]", label, e.Channel, e.Path, e.Window, tv, q05, q95)
+		}
+		width[e.Channel+"/"+e.Path+"/"+e.Window] = q95 - q05
+	}
+	return in, n, width
+}
+
+// converged reports the largest R-hat, the smallest bulk and tail ESS and
+// the divergences over the fits.
+func converged(f *Fitted) (rhat, ess float64, div int) {
+	ess = math.Inf(1)
+	for _, fit := range f.Fits {
+		if fit == nil {
+			continue
+		}
+		for _, s := range mcmc.Summarize(fit) {
+			if s.Constant() {
+				continue
+			}
+			rhat = math.Max(rhat, s.Rhat)
+			ess = math.Min(ess, math.Min(s.ESSBulk, s.ESSTail))
+		}
+		for _, c := range fit.Chains {
+			div += c.Stats.Divergences
+		}
+	}
+	return rhat, ess, div
+}
+
+// binomialRange returns the central 95% range of Binomial(n, p) (shared
+// REFERENCES.md section 9: a count outside it is evidence of
+// miscalibration).
+func binomialRange(n int, p float64) (lo, hi int) {
+	b := distuv.Binomial{N: float64(n), P: p}
+	lo, hi = -1, n
+	for k := 0; k <= n; k++ {
+		c := b.CDF(float64(k))
+		if lo < 0 && c > 0.025 {
+			lo = k
+		}
+		if c >= 0.975 {
+			return lo, k
+		}
+	}
+	return lo, hi
+}
+
+// TestDriftRecovery fits the drift model (every channel drifting) to data
+// simulated with fixed effects, a smooth drift and a step change, the last
+// with and without four lift tests at different times, and checks:
+//   - quarterly via-search and direct effects covered by their 90%
+//     intervals within the binomial range of each scenario's count;
+//   - with fixed effects, every multiplier's posterior mean within 0.8x to
+//     1.25x and the whole-period effects within the default model's 90%
+//     intervals;
+//   - lift tests narrow the intervals of the quarters they fall in.
+func TestDriftRecovery(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits the drift model five times")
+	}
+	set := mcmc.Settings{Seed: 5}
+	ctx := context.Background()
+	fitDrift := func(tm truthModel, tests []lifts.Test) *Fitted {
+		f, err := fitLifts(ctx, tm.sc, model.Options{Drift: allDrift(tm.sc)}, tests, set, nil, false)
+		if err != nil {
+			t.Fatal(err)
+		}
+		r, e, d := converged(f)
+		t.Logf("max R-hat %.4f, min ESS %.0f, %d divergences; wall %.0f + %.0f s", r, e, d, f.Wall[0], f.Wall[1])
+		return f
+	}
+	total, totalIn := 0, 0
+	check := func(label string, f *Fitted, tm truthModel) map[string]float64 {
+		in, n, w := quarterly(t, label, f, tm)
+		lo, hi := binomialRange(n, 0.9)
+		t.Logf("%s: %d of %d quarterly effects inside their 90%% intervals (binomial 95%% range %d-%d)", label, in, n, lo, hi)
+		if in < lo {
+			t.Errorf("%s: %d of %d quarterly effects covered; below the binomial range %d-%d", label, in, n, lo, hi)
+		}
+		total += n
+		totalIn += in
+		return w
+	}
+
+	// fixed effects: the drift model against the default model
+	_, tm := driftScenario(t, "fixed")
+	fd := fitDrift(tm, nil)
+	check("fixed", fd, tm)
+	f0, err := fitLifts(ctx, tm.sc, model.Options{}, nil, set, nil, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k, st := range fd.Stages[:2] {
+		l := st.Layout()
+		m := make([]float64, tm.sc.T)
+		for j := range st.Channels {
+			sum := make([]float64, tm.sc.T)
+			n := 0
+			for _, c := range fd.Fits[k].Chains {
+				r, _ := c.Draws.Dims()
+				for i := 0; i < r; i++ {
+					l.View(c.Draws.RawRowView(i)).Multiplier(m, j)
+					for w := range sum {
+						sum[w] += m[w]
+					}
+					n++
+				}
+			}
+			lo, hi := math.Inf(1), math.Inf(-1)
+			for _, s := range sum {
+				lo, hi = math.Min(lo, s/float64(n)), math.Max(hi, s/float64(n))
+			}
+			t.Logf("fixed: %s %s multiplier's posterior mean from %.3f to %.3f", st.Name, st.Channels[j].Column, lo, hi)
+			if lo < 0.8 || hi > 1.25 {
+				t.Errorf("fixed effects: %s %s multiplier moves from %.3f to %.3f", st.Name, st.Channels[j].Column, lo, hi)
+			}
+		}
+	}
+	all := window.Quarters(tm.sc.Weeks)[:1]
+	sd, err := mediation.Split(fd.Inputs(), all)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s0, err := mediation.Split(f0.Inputs(), all)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, e := range sd.Effects {
+		if e.Path == "mediated_share" {
+			continue
+		}
+		a, b := mediation.Summarise(e.Draws), mediation.Summarise(s0.Effects[i].Draws)
+		t.Logf("fixed, whole period: %s %s drift model %.0f [%.0f, %.0f], default %.0f [%.0f, %.0f]", e.Channel, e.Path, a.Mean, a.Q05, a.Q95, b.Mean, b.Q05, b.Q95)
+		if a.Mean < b.Q05 || a.Mean > b.Q95 || b.Mean < a.Q05 || b.Mean > a.Q95 {
+			t.Errorf("fixed effects: %s %s: drift model %.0f [%.0f, %.0f], default %.0f [%.0f, %.0f]", e.Channel, e.Path, a.Mean, a.Q05, a.Q95, b.Mean, b.Q05, b.Q95)
+		}
+	}
+
+	_, tm = driftScenario(t, "smooth")
+	check("smooth drift", fitDrift(tm, nil), tm)
+
+	res, tm := driftScenario(t, "step")
+	wNo := check("step", fitDrift(tm, nil), tm)
+	tests := simulatedLifts(res.Data, tm, []liftSpec{
+		{"video_spend", model.LiftOutcome, 14}, {"video_spend", model.LiftOutcome, 66},
+		{"video_spend", model.LiftOutcome, 92}, {"video_spend", model.LiftQueries, 130},
+	}, 0.15, 3)
+	fl := fitDrift(tm, tests)
+	wLift := check("step with four lift tests", fl, tm)
+	for _, c := range fl.LiftChecks() {
+		t.Logf("lift test %s %v %s..%s: estimate %.0f (se %.0f), model %.0f [%.0f, %.0f], rest of the data %.0f (sd %.0f), p %.3f",
+			c.Test.Channel, c.Test.Metric, c.Test.Start.Format("2006-01-02"), c.Test.End.Format("2006-01-02"), c.Test.Estimate, c.Test.SE,
+			c.Mean, c.Q05, c.Q95, c.Without, c.WithoutSD, c.P)
+		if !c.Reconciled() {
+			t.Errorf("a lift test of the true model is reported unreconciled: %+v", c)
+		}
+	}
+	narrower, tested := 0, 0
+	for _, w := range window.Quarters(tm.sc.Weeks)[1:] {
+		for _, tt := range tests {
+			if tt.From > w.To || tt.To < w.From {
+				continue
+			}
+			key := "video_spend/via_search/" + w.Name
+			t.Logf("quarter %s (lift test %s..%s): video via-search 90%% interval width %.0f without tests, %.0f with",
+				w.Name, tt.Start.Format("2006-01-02"), tt.End.Format("2006-01-02"), wNo[key], wLift[key])
+			tested++
+			if wLift[key] < wNo[key] {
+				narrower++
+			}
+		}
+	}
+	if narrower < tested-1 {
+		t.Errorf("lift tests narrowed %d of the %d intervals of the quarters they fall in", narrower, tested)
+	}
+	lo, hi := binomialRange(total, 0.9)
+	t.Logf("all drift scenarios: %d of %d quarterly effects covered (binomial 95%% range %d-%d)", totalIn, total, lo, hi)
+	if totalIn < lo {
+		t.Errorf("%d of %d quarterly effects covered, below the binomial range %d-%d", totalIn, total, lo, hi)
+	}
+}
+
+// BenchmarkDriftFit is the benchmark: the demo fitted with every
+// channel drifting and four lift tests (4 chains x (1000 + 1000), joint
+// demand and outcome stages, then the naive stage), against the default
+// fit of the same data in the same run. It reports both wall times, their
+// ratio (goal: at most 3) and the drift fit's convergence (goal: R-hat <=
+// 1.01, ESS >= 400, no divergences).
+func BenchmarkDriftFit(b *testing.B) {
+	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
+	if err != nil {
+		b.Fatal(err)
+	}
+	sc := model.Scale(ds.National(), ds.Spec)
+	s, err := scenario.Named("demo", 1, 0, 0)
+	if err != nil {
+		b.Fatal(err)
+	}
+	res, err := s.Simulate()
+	if err != nil {
+		b.Fatal(err)
+	}
+	tm := truthModel{sc: sc, dem: res.Demand, out: res.Outcome}
+	tests := simulatedLifts(ds, tm, []liftSpec{
+		{"video_spend", model.LiftOutcome, 14}, {"audio_spend", model.LiftOutcome, 53},
+		{"video_spend", model.LiftQueries, 80}, {"search_spend", model.LiftOutcome, 120},
+	}, 0.2, 1)
+	for b.Loop() {
+		f0, err := Fit(context.Background(), sc, model.Options{}, mcmc.Settings{Seed: 1}, nil)
+		if err != nil {
+			b.Fatal(err)
+		}
+		f1, err := FitLifts(context.Background(), sc, model.Options{Drift: allDrift(sc)}, tests, mcmc.Settings{Seed: 1}, nil)
+		if err != nil {
+			b.Fatal(err)
+		}
+		w0 := f0.Wall[0] + f0.Wall[1] + f0.Wall[2]
+		w1 := f1.Wall[0] + f1.Wall[1] + f1.Wall[2]
+		r, e, d := converged(f1)
+		b.ReportMetric(w0, "default_s")
+		b.ReportMetric(w1, "drift_s")
+		b.ReportMetric(w1/w0, "ratio")
+		b.ReportMetric(r, "max_rhat")
+		b.ReportMetric(e, "min_ess")
+		b.ReportMetric(float64(d), "divergences")
+		for _, c := range f1.LiftChecks() {
+			b.Logf("lift test %s %v: estimate %.0f (se %.0f), model %.0f [%.0f, %.0f], p %.3f", c.Test.Channel, c.Test.Metric, c.Test.Estimate, c.Test.SE, c.Mean, c.Q05, c.Q95, c.P)
+		}
+		b.Logf("walls: default %v, drift %v", f0.Wall, f1.Wall)
+	}
+
+}
