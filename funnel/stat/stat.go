@@ -40,18 +40,24 @@ func meanVariance(x []float64) (mean, variance float64) {
 
 // Quantile returns the p-quantile (p in [0, 1]) of the ascending values
 // sorted by linear interpolation between order statistics: Hyndman and Fan
-// (1996) type 7, R's default. With h = (n − 1)p and i = ⌊h⌋ (0-based) it is
-// x[i] + (h − i)(x[i+1] − x[i]); no values give NaN.
+// (1996) type 7, R's default, with R's own arithmetic (stats:::quantile.default):
+// index = 1 + (n − 1)p, lo = ⌊index⌋, hi = ⌈index⌉, h = index − lo, and
+// (1 − h)x[lo] + h·x[hi] (1-based) unless x[hi] equals x[lo]. Following R to
+// the bit keeps the summaries equal to those of the reference library; no
+// values give NaN.
 func Quantile(sorted []float64, p float64) float64 {
 	n := len(sorted)
 	if n == 0 {
 		return math.NaN()
 	}
-	h := float64(n-1) * p
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= n {
-		return sorted[n-1]
+	index := 1 + float64(n-1)*p
+	lo := math.Floor(index)
+	hi := math.Ceil(index)
+	q := sorted[int(lo)-1]
+	xhi := sorted[int(hi)-1]
+	if index > lo && xhi != q {
+		h := index - lo
+		q = (1-h)*q + h*xhi
 	}
-	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
+	return q
 }
