@@ -34,7 +34,7 @@ func driftFiles(files map[string][]byte, f *pipeline.Fitted, liftFile []byte) ([
 	for i, c := range checks {
 		t := c.Test
 		rows[i] = fitfolder.Lift{Channel: t.Channel, Metric: t.Metric.String(), Start: t.Start, End: t.End, Estimate: t.Estimate, SE: t.SE,
-			Mean: c.Mean, Q05: c.Q05, Q95: c.Q95, RestMean: c.Without, RestSD: c.WithoutSD, Z: c.Z, P: c.P, Reconciled: c.Reconciled()}
+			Mean: c.Mean, Q05: c.Q05, Q95: c.Q95, RestMean: c.Without, RestSD: c.WithoutSD, Z: c.Z, P: c.P, Verdict: c.Verdict()}
 	}
 	b, err := fitfolder.LiftsFile(rows)
 	if err != nil {
@@ -46,17 +46,23 @@ func driftFiles(files map[string][]byte, f *pipeline.Fitted, liftFile []byte) ([
 }
 
 // printLiftChecks prints a line for every lift test the model cannot
-// reconcile with the rest of the data.
+// reconcile with the rest of the data, and for every test the rest of the
+// data cannot check.
 func printLiftChecks(w io.Writer, checks []pipeline.LiftCheck) {
 	bad := 0
 	for _, c := range checks {
-		if c.Reconciled() {
+		t := c.Test
+		what := fmt.Sprintf("lift test (line %d) of %s on %s, %s to %s: %.4g (se %.3g)",
+			t.Line, t.Channel, t.Metric, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly), t.Estimate, t.SE)
+		switch c.Verdict() {
+		case pipeline.LiftContradicts:
+			fmt.Fprintf(w, "%s, but the rest of the data say %.4g (sd %.3g): p = %.2g; the model cannot reconcile them\n", what, c.Without, c.WithoutSD, c.P)
+		case pipeline.LiftUnchecked:
+			fmt.Fprintf(w, "%s: the model follows the test (%.4g [%.4g, %.4g]); the rest of the data say too little about it to check it\n", what, c.Mean, c.Q05, c.Q95)
+		default:
 			continue
 		}
 		bad++
-		t := c.Test
-		fmt.Fprintf(w, "lift test (line %d) of %s on %s, %s to %s: %.4g (se %.3g), but the rest of the data say %.4g (sd %.3g): p = %.2g; the model cannot reconcile them\n",
-			t.Line, t.Channel, t.Metric, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly), t.Estimate, t.SE, c.Without, c.WithoutSD, c.P)
 	}
 	if len(checks) > 0 && bad == 0 {
 		fmt.Fprintf(w, "lift tests: all %d agree with the rest of the data (lifts.csv)\n", len(checks))

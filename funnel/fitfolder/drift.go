@@ -50,25 +50,26 @@ type Lift struct {
 	// Z and P: the test's standardised distance from RestMean and its
 	// two-sided tail probability.
 	Z, P float64
-	// Reconciled is false when P is below 0.01.
-	Reconciled bool
+	// Verdict is agrees, contradicts (P below 0.01) or unchecked (the rest
+	// of the data say too little about the quantity to check the test).
+	Verdict string
 }
 
 type liftRow struct {
-	Channel    string        `csv:"channel"`
-	Metric     string        `csv:"metric"`
-	Start      table.Date    `csv:"start"`
-	End        table.Date    `csv:"end"`
-	Estimate   table.Float   `csv:"estimate"`
-	SE         table.Float   `csv:"se"`
-	Mean       table.Float   `csv:"model_mean"`
-	Q05        table.Float   `csv:"model_q05"`
-	Q95        table.Float   `csv:"model_q95"`
-	RestMean   table.OptStat `csv:"rest_mean"`
-	RestSD     table.OptStat `csv:"rest_sd"`
-	Z          table.Float   `csv:"z"`
-	P          table.Float   `csv:"p"`
-	Reconciled bool          `csv:"reconciled"`
+	Channel  string        `csv:"channel"`
+	Metric   string        `csv:"metric"`
+	Start    table.Date    `csv:"start"`
+	End      table.Date    `csv:"end"`
+	Estimate table.Float   `csv:"estimate"`
+	SE       table.Float   `csv:"se"`
+	Mean     table.Float   `csv:"model_mean"`
+	Q05      table.Float   `csv:"model_q05"`
+	Q95      table.Float   `csv:"model_q95"`
+	RestMean table.OptStat `csv:"rest_mean"`
+	RestSD   table.OptStat `csv:"rest_sd"`
+	Z        table.Float   `csv:"z"`
+	P        table.Float   `csv:"p"`
+	Verdict  string        `csv:"verdict"`
 }
 
 // LiftsFile renders lifts.csv.
@@ -77,7 +78,7 @@ func LiftsFile(rows []Lift) ([]byte, error) {
 	for i, r := range rows {
 		out[i] = liftRow{r.Channel, r.Metric, table.Date(r.Start), table.Date(r.End), table.Float(r.Estimate), table.Float(r.SE),
 			table.Float(r.Mean), table.Float(r.Q05), table.Float(r.Q95), table.OptStat(r.RestMean), table.OptStat(r.RestSD),
-			table.Float(r.Z), table.Float(r.P), r.Reconciled}
+			table.Float(r.Z), table.Float(r.P), r.Verdict}
 	}
 	return tableFile(out)
 }

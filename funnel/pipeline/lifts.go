@@ -145,7 +145,7 @@ type LiftCheck struct {
 	// Z is (estimate - Without) / sqrt(WithoutSD^2 + se^2), the test's
 	// standardised distance from what the rest of the data predict, and P
 	// its two-sided tail probability: how surprising the test is under the
-	// model. Z is 0 and P 1 when Without is NaN.
+	// model. Z is 0 and P 1 when Without is NaN (Verdict says unchecked).
 	Z, P float64
 }
 
@@ -153,9 +153,34 @@ type LiftCheck struct {
 // model cannot reconcile with the rest of the data.
 const Unreconciled = 0.01
 
-// Reconciled reports whether the test agrees with the rest of the data
-// (P >= Unreconciled).
-func (c LiftCheck) Reconciled() bool { return c.P >= Unreconciled }
+// Verdicts of a lift test.
+const (
+	// LiftAgrees: the rest of the data predict the test (P >= Unreconciled).
+	LiftAgrees = "agrees"
+	// LiftContradicts: the rest of the data contradict it (P < Unreconciled).
+	LiftContradicts = "contradicts"
+	// LiftUnchecked: the posterior of the tested quantity is the test's own
+	// (the rest of the data hold under 1% of its precision): the model has
+	// taken the test in and nothing checks it. With drifting coefficients
+	// and a moving baseline, a test far from the truth can end here rather
+	// than as contradicted, so it is reported too.
+	LiftUnchecked = "unchecked"
+)
+
+// Verdict says whether the test agrees with the rest of the data,
+// contradicts them, or could not be checked against them.
+func (c LiftCheck) Verdict() string {
+	switch {
+	case math.IsNaN(c.Without):
+		return LiftUnchecked
+	case c.P < Unreconciled:
+		return LiftContradicts
+	}
+	return LiftAgrees
+}
+
+// Reconciled reports whether the test agrees with the rest of the data.
+func (c LiftCheck) Reconciled() bool { return c.Verdict() == LiftAgrees }
 
 // LiftChecks returns, for each lift test of a FitLifts fit, the model's
 // posterior of the tested quantity and how surprising the test is under
