@@ -262,7 +262,8 @@ func splitCoef(name string) (string, string) {
 
 // BenchmarkDriftLogProbGrad times the outcome stage's gradient (156 weeks,
 // three saturating channels) with every channel drifting, against
-// BenchmarkLogProbGrad, the same stage without drift.
+// BenchmarkLogProbGrad, the same stage without drift: run both in one go
+// (-bench LogProbGrad) and compare.
 func BenchmarkDriftLogProbGrad(b *testing.B) {
 	sc := testScaled(156, 3)
 	st, _ := Outcome(sc, Options{Drift: map[string]bool{"video": true, "audio": true, "search": true}})

@@ -473,6 +473,22 @@ func BenchmarkDriftFit(b *testing.B) {
 		}
 		w0 := f0.Wall[0] + f0.Wall[1] + f0.Wall[2]
 		w1 := f1.Wall[0] + f1.Wall[1] + f1.Wall[2]
+		// gradient evaluations do not depend on the machine's load: the
+		// work ratio is their ratio times that of one gradient's cost
+		// (BenchmarkDriftLogProbGrad against model's BenchmarkLogProbGrad)
+		grads := func(f *Fitted) float64 {
+			n := 0
+			for k, fit := range f.Fits {
+				if k == 1 && f.Wall[1] == 0 {
+					continue // the joint fit's second stage: same chains
+				}
+				for _, c := range fit.Chains {
+					n += c.Stats.GradientEvaluations
+				}
+			}
+			return float64(n)
+		}
+		b.ReportMetric(grads(f1)/grads(f0), "grad_ratio")
 		r, e, d := converged(f1)
 		b.ReportMetric(w0, "default_s")
 		b.ReportMetric(w1, "drift_s")
