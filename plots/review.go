@@ -126,6 +126,10 @@ func (r *review) windowCaption() string {
 	if r.w.Kind == window.WholePeriod {
 		return "Whole period: " + r.weeksText(r.whole) + "."
 	}
+	if p := Partial(r.f, r.w); p != "" {
+		return fmt.Sprintf("%s: %s (%s; the data's last week starts %s, so carryover past it is not counted). Whole period: %s.",
+			r.w.Name, r.weeksText(r.w), p, window.Day(r.whole.End), r.weeksText(r.whole))
+	}
 	return fmt.Sprintf("%s: %s. Whole period: %s.", r.w.Name, r.weeksText(r.w), r.weeksText(r.whole))
 }
 
@@ -141,13 +145,42 @@ func windowPhrase(w window.Window) string {
 	return "Over the whole period"
 }
 
-// panelTitle names a window for a panel: "2025Q3 (Jul–Sep 2025)" or
-// "Whole period (Jan 2023 – Dec 2025)".
+// panelTitle names a window for a panel: "2025Q3 (Jul–Sep 2025)",
+// "2025Q4 (Oct–Dec 2025), partial: 12 of 13 weeks" or "Whole period
+// (Jan 2023 – Dec 2025)".
 func (r *review) panelTitle(w window.Window) string {
 	if w.Kind == window.WholePeriod {
 		return fmt.Sprintf("Whole period (%s – %s)", r.whole.Start.Format("Jan 2006"), r.whole.End.Format("Jan 2006"))
 	}
+	if p := Partial(r.f, w); p != "" {
+		return w.Label() + ", " + p
+	}
 	return w.Label()
+}
+
+// Partial describes a quarter the data cover only in part, "partial: 12 of
+// 13 weeks", and is empty for a quarter covered in full and for any other
+// window. Effects of such a quarter sum fewer weeks than a full one, and
+// the carryover of its spend is cut where the data end, so titles and text
+// name it.
+func Partial(f *fitfolder.Fit, w window.Window) string {
+	if w.Kind != window.Quarter {
+		return ""
+	}
+	have, full := w.Coverage(f.Data.Weeks)
+	if have == full {
+		return ""
+	}
+	return fmt.Sprintf("partial: %d of %d weeks", have, full)
+}
+
+// reviewPhrase opens a sentence about the window under review, naming a
+// partial quarter: "In 2025Q4 (partial: 12 of 13 weeks)".
+func (r *review) reviewPhrase() string {
+	if p := Partial(r.f, r.w); p != "" {
+		return windowPhrase(r.w) + " (" + p + ")"
+	}
+	return windowPhrase(r.w)
 }
 
 func (r *review) uppers() []string { return r.f.Run.Spec.Upper }

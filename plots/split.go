@@ -99,6 +99,6 @@ func (r *review) split() (*Figure, error) {
 			parts = append(parts, fmt.Sprintf("%s of %s's", Percent(s.Mean), Channel(ch)))
 		}
 	}
-	fig.Title = fmt.Sprintf("%s, %s ran through branded search", windowPhrase(r.w), List(parts))
+	fig.Title = fmt.Sprintf("%s, %s ran through branded search", r.reviewPhrase(), List(parts))
 	return fig, nil
 }

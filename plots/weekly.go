@@ -108,7 +108,7 @@ func (r *review) weekly() (*Figure, error) {
 			tail = " and " + List(parts[1:])
 		}
 		fig.Title = fmt.Sprintf("%s, branded search carried about %s %s a week from %s%s",
-			windowPhrase(r.w), first, r.outcome, rest, tail)
+			r.reviewPhrase(), first, r.outcome, rest, tail)
 	}
 	if len(parts) == 0 {
 		fig.Title = "Weekly contributions of each channel"

@@ -75,13 +75,10 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 		return err
 	}
 	defer od.Abort()
-	// the review window: checked against the data before the split runs
-	tableWindow := o.window
-	if tableWindow == "" {
-		tableWindow = "all"
-	}
+	// the review window of the table, the charts and the report: checked
+	// against the data before the split runs
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, od.fit, tableWindow)
+	s, err := splitFit(ctx, od.fit, o.window)
 	if err != nil {
 		return err
 	}
@@ -103,7 +100,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	f := od.fit.Fit
 	f.Split = s.Split
 	f.Dir = od.Final()
-	w, err := f.Window(o.window)
+	w, err := f.Window(s.asked.Name)
 	if err != nil {
 		return usagef("--window: %v", err)
 	}

@@ -21,7 +21,8 @@ type splitOptions struct {
 
 func (o *splitOptions) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&o.fit, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
-	fs.StringVar(&o.window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
+	fs.StringVar(&o.window, "window", "", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31); "+
+		"default: the last full quarter, as for chart and report")
 }
 
 // newSplitCommand builds spillway split.
@@ -107,12 +108,20 @@ type splitResult struct {
 }
 
 // splitFit computes the effects of ff for every quarter, the whole period
-// and the window named.
+// and the window named; an empty name means the review's default window,
+// the last quarter the data cover in full (all when there is none), the
+// one chart and report choose by default.
 func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResult, error) {
 	wins := window.Quarters(ff.scaled.Weeks)
+	if windowName == "" {
+		windowName = "all"
+		if q, ok := window.LastFullQuarter(ff.scaled.Weeks); ok {
+			windowName = q.Name
+		}
+	}
 	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
 	if err != nil {
-		return nil, usagef("--window %v", err)
+		return nil, usagef("--window: %v", err)
 	}
 	found := false
 	for _, w := range wins {

@@ -58,6 +58,17 @@ func TestRunDemo(t *testing.T) {
 			t.Errorf("stdout lacks %q:\n%s", want, stdout)
 		}
 	}
+	// one window for the table, the charts and the report: the demo's last
+	// full quarter (its data end in 2025Q4 with 12 of 13 weeks)
+	for _, want := range []string{"window 2025Q3 (", "review window 2025Q3;"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("stdout lacks %q:\n%s", want, stdout)
+		}
+	}
+	page, _ := os.ReadFile(filepath.Join(dir, "report.html"))
+	if !strings.Contains(string(page), "Quarterly review: 2025Q3") {
+		t.Error("report.html is not the review of 2025Q3, the window of the table")
+	}
 	head, _ := os.ReadFile(filepath.Join(dir, "effects.csv"))
 	if !strings.HasPrefix(string(head), "channel,path,window,mean,q05,q50,q95,per_unit_spend\n") {
 		t.Errorf("effects.csv header: %q", strings.SplitN(string(head), "\n", 2)[0])

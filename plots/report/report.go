@@ -13,6 +13,7 @@ import (
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/window"
+	"spillway/mediation"
 	"spillway/plots"
 )
 
@@ -72,8 +73,8 @@ type view struct {
 	Cautions        []string
 	Data            dataView
 	Stages          []stageRow
-	Command         string
-	Rerun           string
+	Command         string // redoes the whole job into a new folder
+	Rebuild         string // rebuilds this page from the fit folder
 	Validation      *validationView
 }
 
@@ -189,6 +190,14 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.Title = "Review of the whole period"
 	} else if w.Kind == window.Quarter {
 		v.Title = "Quarterly review: " + w.Label()
+		if p := plots.Partial(f, w); p != "" {
+			v.Title += ", " + p
+			have, full := w.Coverage(f.Data.Weeks)
+			v.Findings = append(v.Findings, fmt.Sprintf("%s is a partial quarter: the data hold %d of its %d weeks and end "+
+				"with the week starting %s, so its effects sum fewer weeks than a full quarter and leave out the carryover "+
+				"of its spend past the data's end. Compare it with full quarters with care.",
+				w.Name, have, full, window.Day(whole.End)))
+		}
 	} else {
 		v.Title = "Review: " + w.Label()
 	}
@@ -246,6 +255,9 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.Findings = append(v.Findings, "The fit failed its checks (see the top of this report): treat every number below as provisional.")
 	}
 	when := windowPhraseShort(w)
+	if p := plots.Partial(f, w); p != "" {
+		when += " (" + p + ")"
+	}
 	for _, ch := range spec.Upper {
 		s, ok1 := f.Effect(ch, fitfolder.PathMediatedShare, w.Name)
 		t, ok2 := f.Effect(ch, fitfolder.PathTotal, w.Name)
@@ -284,7 +296,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.CompareNote = strings.Join(notes, " ")
 		for _, ch := range spec.Upper {
 			if c, err := Compare(f, ch, fitfolder.PathTotal, w.Name, cv.Prev); err == nil {
-				v.Findings = append(v.Findings, changeSentence(c, outcome))
+				v.Findings = append(v.Findings, changeSentence(c, outcome, partialOf(f, w.Name, cv.Prev)))
 			}
 		}
 	} else {
@@ -299,32 +311,10 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		"No unmeasured confounder of spend and the outcome: budgets were not set in reaction to shocks that the controls do not capture.",
 		"The model's form: geometric adstock and Hill saturation for each channel, effects that are stable over the period, and normal errors.",
 	}
-	for _, ch := range spec.Upper {
-		be, ok := f.BreakevenRho(ch)
-		if !ok {
-			continue
-		}
-		if math.IsNaN(be) {
-			v.Sensitivity = append(v.Sensitivity, fmt.Sprintf("%s's via-search effect does not reach zero for any error correlation rho from -0.9 to 0.9.", plots.Capital(plots.Channel(ch))))
-		} else {
-			v.Sensitivity = append(v.Sensitivity, fmt.Sprintf("%s's via-search effect would reach zero if an unmeasured common cause made the errors of the two stages correlate at rho = %s.",
-				plots.Capital(plots.Channel(ch)), trimFloat(be)))
-		}
-	}
-	if len(v.Sensitivity) > 0 {
-		var fragile []string
-		for _, ch := range spec.Upper {
-			if be, ok := f.BreakevenRho(ch); ok && !math.IsNaN(be) && math.Abs(be) < 0.3 {
-				fragile = append(fragile, plots.Channel(ch))
-			}
-		}
-		switch len(fragile) {
-		case 0:
-		case 1:
-			v.Findings = append(v.Findings, fmt.Sprintf("Caution: %s's via-search effect would vanish under a weak unmeasured common cause (|rho| below 0.3); see the sensitivity section.", fragile[0]))
-		default:
-			v.Findings = append(v.Findings, fmt.Sprintf("Caution: the via-search effects of %s would vanish under a weak unmeasured common cause (|rho| below 0.3); see the sensitivity section.", plots.List(fragile)))
-		}
+	sens, fragile := sensitivityText(f, outcome)
+	v.Sensitivity = sens
+	if fragile != "" {
+		v.Findings = append(v.Findings, fragile)
 	}
 	v.Cautions = []string{
 		"Estimates from observational data rest on assumptions that this report names (above); they are not measured lifts.",
@@ -406,8 +396,166 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 
 	// Data summary.
 	v.Data = dataSummary(f, w)
-	v.Rerun = "To rerun the fit that produced these numbers (same data, same seed, byte-identical output):"
+	v.Command, v.Rebuild = rerunCommands(f, w)
 	return v, nil
+}
+
+// rerunCommands returns the command that redoes the whole job behind this
+// page (fit, split, charts and report, with the same data, seed and
+// window) into a new folder, and the one that rebuilds the page alone from
+// the fit folder. The fit's command ends with --out FOLDER; fit becomes
+// run, which also splits, draws and reports, and the folder gets the
+// suffix -rerun, because an existing folder is never overwritten without
+// --force.
+func rerunCommands(f *fitfolder.Fit, w window.Window) (rerun, rebuild string) {
+	cmd := f.Run.Command
+	if rest, ok := strings.CutPrefix(cmd, "spillway fit "); ok {
+		cmd = "spillway run " + rest
+	}
+	folder := filepath.Clean(f.Dir)
+	if i := strings.LastIndex(cmd, " --out "); i >= 0 {
+		out := cmd[i+len(" --out "):]
+		cmd = cmd[:i]
+		next := out + "-rerun"
+		if strings.ContainsAny(out, "'\"\\ ") {
+			next = "spillway-rerun"
+		}
+		cmd += " --window " + w.Name + " --out " + next
+	}
+	return cmd, "spillway report --fit " + shellWord(folder) + " --window " + w.Name + " --force"
+}
+
+// shellWord quotes s for a POSIX shell when it holds anything but plain
+// path characters.
+func shellWord(s string) string {
+	if s != "" && strings.IndexFunc(s, func(r rune) bool {
+		return !(r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r >= '0' && r <= '9' || strings.ContainsRune("-_./,=:+", r))
+	}) < 0 {
+		return s
+	}
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
+}
+
+// sensitivityText states where the via-search effects reach zero as the
+// errors of the two stages correlate (once, when it is the same rho for
+// every channel, as it is in the default model: rho enters through gamma,
+// the link every channel's path through branded search shares), and
+// benchmarks that rho by the correlation that leaving out each observed
+// control would induce (mediation.OmittedControlRho at the posterior
+// means of the control's coefficients and the stages' error sds). fragile
+// is a caution for the findings when the effects reach zero at |rho| below
+// 0.3 or below a control's benchmark of the same sign.
+func sensitivityText(f *fitfolder.Fit, outcome string) (lines []string, fragile string) {
+	spec := f.Run.Spec
+	type be struct {
+		ch  string
+		rho float64
+	}
+	var crossing []be
+	var steady []string
+	for _, ch := range spec.Upper {
+		rho, ok := f.BreakevenRho(ch)
+		switch {
+		case !ok:
+		case math.IsNaN(rho):
+			steady = append(steady, plots.Channel(ch))
+		default:
+			crossing = append(crossing, be{plots.Channel(ch), rho})
+		}
+	}
+	same := len(crossing) > 1
+	for _, c := range crossing {
+		same = same && math.Abs(c.rho-crossing[0].rho) < 0.005
+	}
+	var names []string
+	for _, c := range crossing {
+		names = append(names, c.ch)
+	}
+	switch {
+	case same && len(steady) == 0:
+		lines = append(lines, fmt.Sprintf("The via-search effect of every upper-funnel channel reaches zero at the same error correlation, rho = %s: "+
+			"an unmeasured common cause of branded queries and %s strong enough to make the errors of the two stages correlate that much "+
+			"would explain away the whole path through branded search. It is one rho for all channels because the correlation acts on the "+
+			"link from branded queries to %s, which every channel's path through search shares.", trimFloat(crossing[0].rho), outcome, outcome))
+	case same:
+		lines = append(lines, fmt.Sprintf("The via-search effects of %s reach zero at the same error correlation, rho = %s, "+
+			"the rho at which an unmeasured common cause of branded queries and %s would explain them away.", plots.List(names), trimFloat(crossing[0].rho), outcome))
+	default:
+		for _, c := range crossing {
+			lines = append(lines, fmt.Sprintf("%s's via-search effect would reach zero if an unmeasured common cause made the errors of the two stages correlate at rho = %s.",
+				plots.Capital(c.ch), trimFloat(c.rho)))
+		}
+	}
+	for _, ch := range steady {
+		lines = append(lines, fmt.Sprintf("%s's via-search effect does not reach zero for any error correlation rho from -0.9 to 0.9.", plots.Capital(ch)))
+	}
+	if len(crossing) == 0 {
+		return lines, ""
+	}
+
+	// Benchmarks: how much would leaving out an observed control correlate
+	// the errors?
+	mean := func(name string) (float64, bool) {
+		for _, st := range f.Stages {
+			for _, p := range st.Params {
+				if p.Name == name {
+					return p.Mean, true
+				}
+			}
+		}
+		return math.NaN(), false
+	}
+	sq, ok1 := mean("sigma_q")
+	sy, ok2 := mean("sigma_y")
+	type bench struct {
+		name string
+		rho  float64
+	}
+	var benches []bench
+	for _, c := range spec.Controls {
+		pq, ok3 := mean("phi_q[" + c + "]")
+		py, ok4 := mean("phi_y[" + c + "]")
+		if ok1 && ok2 && ok3 && ok4 {
+			// controls are standardised, so their variance is 1
+			benches = append(benches, bench{plots.Plain(c), mediation.OmittedControlRho(pq, py, sq, sy, 1)})
+		}
+	}
+	var parts []string
+	var strong []string
+	for _, b := range benches {
+		parts = append(parts, fmt.Sprintf("%s, rho = %s", b.name, trimFloat(b.rho)))
+	}
+	for _, b := range benches {
+		if c := crossing[0].rho; b.rho*c > 0 && math.Abs(b.rho) >= math.Abs(c) {
+			strong = append(strong, b.name)
+		}
+	}
+	if len(benches) == 0 {
+		lines = append(lines, "How large a correlation is plausible: the fit has no observed control to compare with; "+
+			"correlations of 0.1 to 0.3 are what a modest common cause would produce.")
+	} else {
+		g := fmt.Sprintf("How large a correlation is plausible: leaving an observed control out of both stages would make their errors "+
+			"correlate at (%s), at the posterior means of its coefficients and the error sds. An unmeasured common cause as strong as ", strings.Join(parts, "; "))
+		if len(strong) > 0 {
+			g += fmt.Sprintf("%s would be enough to reach the break-even correlation.", plots.List(strong))
+		} else {
+			g += "any of them would not reach the break-even correlation."
+		}
+		lines = append(lines, g)
+	}
+	if min := math.Abs(crossing[0].rho); len(strong) > 0 || min < 0.3 {
+		subject := "the via-search effect of " + names[0]
+		if len(names) > 1 {
+			subject = "the via-search effects of " + plots.List(names)
+		}
+		why := "a modest correlation"
+		if len(strong) > 0 {
+			why = "no stronger than leaving out " + plots.List(strong) + " would cause"
+		}
+		fragile = fmt.Sprintf("Caution: %s would vanish if an unmeasured common cause of branded queries and %s made the errors of the two stages "+
+			"correlate at rho = %s, %s; see the sensitivity section.", subject, outcome, trimFloat(crossing[0].rho), why)
+	}
+	return lines, fragile
 }
 
 func channelNames(cols []string) []string {
@@ -471,7 +619,26 @@ func trimFloat(v float64) string {
 	return s
 }
 
-func changeSentence(c Change, outcome string) string {
+// partialOf names the quarters among ws that the data cover only in part,
+// with how much of each they hold: "2025Q4 (partial: 12 of 13 weeks)".
+func partialOf(f *fitfolder.Fit, names ...string) []string {
+	var out []string
+	for _, n := range names {
+		w, err := window.Parse(n)
+		if err != nil {
+			continue
+		}
+		if p := plots.Partial(f, w); p != "" {
+			out = append(out, w.Name+" ("+p+")")
+		}
+	}
+	return out
+}
+
+// changeSentence says how a total effect moved between two quarters and
+// whether the move is clear; partial names the quarters of the two that
+// the data cover only in part, for which a change is not called clear.
+func changeSentence(c Change, outcome string, partial []string) string {
 	dir := "rose"
 	if c.Mean < 0 {
 		dir = "fell"
@@ -481,8 +648,12 @@ func changeSentence(c Change, outcome string) string {
 		rel = " (" + plots.Percent(math.Abs(r)) + ")"
 	}
 	verdict := "the 90% interval of the change excludes zero, so the change is clear"
-	if !c.ExcludesZero() {
+	switch {
+	case !c.ExcludesZero():
 		verdict = "the 90% interval of the change includes zero, so it may be noise"
+	case len(partial) > 0:
+		verdict = "the 90% interval of the change excludes zero, but " + plots.List(partial) +
+			" is only partly in the data, so part of the change is the shorter window and the carryover cut at the data's end"
 	}
 	return fmt.Sprintf("%s's total effect %s by %s %s%s from %s to %s; %s (%s).",
 		plots.Capital(plots.Channel(c.Channel)), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,

@@ -5,6 +5,7 @@ import (
 	"encoding/base64"
 	"encoding/xml"
 	"errors"
+	"fmt"
 	"image/png"
 	"io"
 	"math"
@@ -495,8 +496,14 @@ func TestReportContent(t *testing.T) {
 			t.Errorf("report lacks %q", want)
 		}
 	}
-	if cmd := root.byID("command"); cmd == nil || cmd.fullText() != x.fx.Command {
-		t.Errorf("rerun command: got %v, want %q", cmd, x.fx.Command)
+	// The rerun does the whole job (run, not fit then report) with the
+	// window of this page, into a folder that does not exist yet.
+	wantCmd := strings.TrimSuffix(x.fx.Command, " --out "+x.fx.Dir) + " --window 2025Q3 --out " + x.fx.Dir + "-rerun"
+	if cmd := root.byID("command"); cmd == nil || cmd.fullText() != wantCmd {
+		t.Errorf("rerun command: got %v, want %q", cmd, wantCmd)
+	}
+	if cmd := root.byID("rebuild"); cmd == nil || cmd.fullText() != "spillway report --fit "+x.fx.Dir+" --window 2025Q3 --force" {
+		t.Errorf("rebuild command: got %v", cmd)
 	}
 	// Spend totals per channel from data.csv.
 	spend := root.byID("spend")
@@ -549,5 +556,56 @@ func TestReportRendersCharts(t *testing.T) {
 	}
 	if n := strings.Count(buf.String(), "data:image/png;base64,"); n != len(plots.Names) {
 		t.Errorf("%d charts embedded, want %d", n, len(plots.Names))
+	}
+}
+
+// TestReportPartialQuarter reviews 2025Q4, of which the fixture holds 12
+// of 13 weeks: the title and the text name it partial and no change from
+// 2025Q3 is called clear without saying so.
+func TestReportPartialQuarter(t *testing.T) {
+	x := load(t, false)
+	text := parse(t, write(t, x, "2025Q4")).fullText()
+	for _, want := range []string{
+		"Quarterly review: 2025Q4 (Oct–Dec 2025), partial: 12 of 13 weeks",
+		"2025Q4 is a partial quarter: the data hold 12 of its 13 weeks",
+		"in 2025Q4 (partial: 12 of 13 weeks) ran through branded search",
+	} {
+		if !strings.Contains(text, want) {
+			t.Errorf("report of 2025Q4 lacks %q", want)
+		}
+	}
+	if strings.Contains(text, "so the change is clear") {
+		t.Error("a change into a partial quarter is called clear")
+	}
+	full := parse(t, write(t, x, "2025Q3")).fullText()
+	if strings.Contains(full, "partial") {
+		t.Error("the report of 2025Q3, a full quarter, says partial")
+	}
+}
+
+// TestReportSensitivityBenchmark checks the rho that leaving out the
+// control would induce, from the fixture's posterior means.
+func TestReportSensitivityBenchmark(t *testing.T) {
+	x := load(t, false)
+	text := parse(t, write(t, x, "")).fullText()
+	mean := func(name string) float64 {
+		for _, st := range x.f.Stages {
+			for _, p := range st.Params {
+				if p.Name == name {
+					return p.Mean
+				}
+			}
+		}
+		t.Fatalf("no parameter %s", name)
+		return 0
+	}
+	pq, py, sq, sy := mean("phi_q[price]"), mean("phi_y[price]"), mean("sigma_q"), mean("sigma_y")
+	rho := pq * py / math.Sqrt((sq*sq+pq*pq)*(sy*sy+py*py))
+	want := fmt.Sprintf("price, rho = %s", strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.2f", rho), "0"), "."))
+	if !strings.Contains(text, want) {
+		t.Errorf("report lacks the benchmark %q", want)
+	}
+	if strings.Contains(text, "below 0.3") || strings.Contains(text, "weak unmeasured") {
+		t.Error("the old caution wording is back")
 	}
 }

@@ -173,9 +173,9 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 
 <h2>How to rerun</h2>
-<p>{{.Rerun}}</p>
+<p>To redo the whole job behind this page (check the data, fit, split, charts and this report, with the same data, seed and window) into a new folder, run this from the folder the original run was started in (the data file's path is as it was given then); the same inputs give byte-identical draws and tables:</p>
 <pre id="command">{{.Command}}</pre>
-<p class="note">Then <code>spillway report --fit FOLDER --window {{.Window}}</code> rebuilds this page.</p>
+<p class="note">To rebuild only this page from the fit folder (after changing the window, for example): <code id="rebuild">{{.Rebuild}}</code></p>
 <footer>Made by spillway. This page is self-contained: it needs no network and prints on A4.</footer>
 </main>
 </body>
