@@ -76,7 +76,7 @@ func (r *review) curves() (*Figure, error) {
 	var panels []*plot.Plot
 	var parts []string
 	for _, ch := range r.uppers() {
-		p := newPanel(Capital(Channel(ch)))
+		p := newPanel(Capital(r.lab.Channel(ch)))
 		p.X.Label.Text = "weekly spend"
 		p.Y.Label.Text = "incremental " + r.outcome + " per week"
 		p.Add(gridLines{})
@@ -123,7 +123,7 @@ func (r *review) curves() (*Figure, error) {
 		p.X.Min, p.Y.Min = 0, 0
 		panels = append(panels, p)
 		if g, _, ok := MarginalGain(r.f, ch); ok {
-			parts = append(parts, fmt.Sprintf("%s through %s", About(g), Channel(ch)))
+			parts = append(parts, fmt.Sprintf("%s through %s", About(g), r.lab.Channel(ch)))
 		}
 	}
 	fig.grid(1, len(panels), panels...)

@@ -35,7 +35,8 @@ type review struct {
 	f       *fitfolder.Fit
 	w       window.Window
 	whole   window.Window
-	outcome string // plain name of the outcome ("conversions")
+	outcome string // display name of the outcome ("conversions")
+	lab     Labels
 }
 
 func newReview(f *fitfolder.Fit, window string) (*review, error) {
@@ -43,7 +44,8 @@ func newReview(f *fitfolder.Fit, window string) (*review, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &review{f: f, w: w, whole: f.Whole(), outcome: Plain(f.Run.Spec.Outcome)}, nil
+	lab := LabelsOf(f)
+	return &review{f: f, w: w, whole: f.Whole(), outcome: lab.Outcome(), lab: lab}, nil
 }
 
 // Build returns every chart of Names for the window (see fitfolder.Fit.Window:
@@ -185,14 +187,6 @@ func (r *review) reviewPhrase() string {
 
 func (r *review) uppers() []string { return r.f.Run.Spec.Upper }
 
-func channelNames(cols []string) []string {
-	out := make([]string, len(cols))
-	for i, c := range cols {
-		out[i] = Channel(c)
-	}
-	return out
-}
-
 func (r *review) effect(ch, path string, w window.Window) (fitfolder.Effect, error) {
 	e, ok := r.f.Effect(ch, path, w.Name)
 	if !ok {
@@ -248,4 +242,14 @@ func (b blankTicks) Ticks(lo, hi float64) []plot.Tick {
 		ts[i].Label = ""
 	}
 	return ts
+}
+
+// channelNames returns the plain names of cols made from the column names
+// alone (see Labels.Channels for the display names).
+func channelNames(cols []string) []string {
+	out := make([]string, len(cols))
+	for i, c := range cols {
+		out[i] = Channel(c)
+	}
+	return out
 }

@@ -49,7 +49,7 @@ func (r *review) sensitivity() (*Figure, error) {
 			allNeg = allNeg && x.Mean < 0
 		}
 		fig.add(s)
-		p := newPanel(Capital(Channel(ch)))
+		p := newPanel(Capital(r.lab.Channel(ch)))
 		p.X.Label.Text = "error correlation (rho)"
 		p.Y.Label.Text = "via-search " + r.outcome
 		p.X.Tick.Marker = marks.NumberTicks{}
@@ -71,7 +71,7 @@ func (r *review) sensitivity() (*Figure, error) {
 				ls.XAlign, dx = text.XLeft, vg.Points(8)
 			}
 			p.Add(marks.Label{X: be, Top: true, DX: dx, DY: -vg.Points(8), Text: "zero at rho = " + trimRho(be), Style: ls, Halo: true})
-			crossing = append(crossing, [2]string{Channel(ch), trimRho(be)})
+			crossing = append(crossing, [2]string{r.lab.Channel(ch), trimRho(be)})
 		} else {
 			word := "changes sign"
 			switch {
@@ -80,7 +80,7 @@ func (r *review) sensitivity() (*Figure, error) {
 			case allNeg:
 				word = "stays below zero"
 			}
-			steady = append(steady, [2]string{Channel(ch), word})
+			steady = append(steady, [2]string{r.lab.Channel(ch), word})
 		}
 		p.X.Min, p.X.Max = -0.95, 0.95
 		lo, hi := 0.0, 0.0

@@ -35,7 +35,7 @@ func (r *review) split() (*Figure, error) {
 	for _, w := range windows {
 		p := newPanel(r.panelTitle(w))
 		p.Y.Label.Text = "incremental " + r.outcome
-		p.X.Tick.Marker = marks.CategoryTicks(channelNames(r.uppers()))
+		p.X.Tick.Marker = marks.CategoryTicks(r.lab.Channels(r.uppers()))
 		p.X.Tick.Label = marks.TextStyle(sizeAxis, Ink, true)
 		p.X.Tick.Label.XAlign = text.XCenter
 		p.X.Tick.Label.YAlign = text.YTop
@@ -94,9 +94,9 @@ func (r *review) split() (*Figure, error) {
 	for i, ch := range r.uppers() {
 		s, _ := r.f.Effect(ch, fitfolder.PathMediatedShare, r.w.Name)
 		if i == 0 {
-			parts = append(parts, fmt.Sprintf("%s of %s's effect", Percent(s.Mean), Channel(ch)))
+			parts = append(parts, fmt.Sprintf("%s of %s's effect", Percent(s.Mean), r.lab.Channel(ch)))
 		} else {
-			parts = append(parts, fmt.Sprintf("%s of %s's", Percent(s.Mean), Channel(ch)))
+			parts = append(parts, fmt.Sprintf("%s of %s's", Percent(s.Mean), r.lab.Channel(ch)))
 		}
 	}
 	fig.Title = fmt.Sprintf("%s, %s ran through branded search", r.reviewPhrase(), List(parts))

@@ -83,14 +83,14 @@ func (r *review) weekly() (*Figure, error) {
 					}
 				}
 				if n > 0 {
-					parts = append(parts, fmt.Sprintf("%s from %s", About(sum/float64(n)), Channel(ch)))
+					parts = append(parts, fmt.Sprintf("%s from %s", About(sum/float64(n)), r.lab.Channel(ch)))
 				}
 			}
 		}
 		// Channel name inside the panel, top left.
 		ns := marks.TextStyle(sizePanel-1, Ink, true)
 		ns.XAlign, ns.YAlign = text.XLeft, text.YTop
-		p.Add(marks.Label{X: p.X.Min, Top: true, DX: vg.Points(8), DY: -vg.Points(4), Text: Capital(Channel(ch)) + ": " + r.outcome + " per week", Style: ns, Halo: true})
+		p.Add(marks.Label{X: p.X.Min, Top: true, DX: vg.Points(8), DY: -vg.Points(4), Text: Capital(r.lab.Channel(ch)) + ": " + r.outcome + " per week", Style: ns, Halo: true})
 		p.Y.Min = 0
 		if k < len(chans)-1 {
 			p.X.Tick.Label.Color = nil

@@ -116,6 +116,7 @@ type dataView struct {
 	Spend                 []spendRow
 	Outcome, Queries      string
 	OutcomeName, QName    string
+	Currency              string // " (EUR)" after spend headings, or empty
 }
 
 type spendRow struct {
@@ -176,9 +177,10 @@ func pctInterval(lo, hi float64) string {
 
 func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, error) {
 	spec := f.Run.Spec
-	outcome := plots.Plain(spec.Outcome)
+	lab := plots.LabelsOf(f)
+	outcome := lab.Outcome()
 	whole := f.Whole()
-	uppers := channelNames(spec.Upper)
+	uppers := lab.Channels(spec.Upper)
 	v := &view{
 		Trustworthy: f.Verdict.Trustworthy,
 		Window:      w.Name,
@@ -203,7 +205,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	}
 	v.Subtitle = fmt.Sprintf("%s on %s from %s and %s, %s (%d weeks). Fit folder %s.",
 		plots.Capital(outcome), plots.List(uppers), plots.Plain(spec.Queries),
-		plots.List(channelNames(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
+		plots.List(lab.Channels(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
 	for _, r := range f.Verdict.Reasons {
 		if r.Stage != "" {
 			v.Reasons = append(v.Reasons, r.Stage+" stage: "+r.Text)
@@ -213,7 +215,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	}
 	v.Job = fmt.Sprintf("This report splits the effect of %s on %s into the part that runs through branded search "+
 		"(people who see the ads and then search for the brand) and the direct part, and shows how much of %s's "+
-		"apparent return is demand borrowed from them.", plots.List(uppers), outcome, paidSearchName(spec.Search))
+		"apparent return is demand borrowed from them.", plots.List(uppers), outcome, lab.PaidSearch(spec.Search))
 
 	// Stage checks.
 	allPass := true
@@ -248,6 +250,9 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	}
 
 	k, perLabel := perScale(f)
+	if c := lab.Currency(); c != "" {
+		perLabel = strings.Replace(strings.Replace(perLabel, "per unit of spend", "per "+c+" of spend", 1), "per 1,000 of spend", "per "+c+" 1,000 of spend", 1)
+	}
 	v.PerLabel = perLabel
 
 	// Findings.
@@ -265,13 +270,13 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 			continue
 		}
 		v.Findings = append(v.Findings, fmt.Sprintf("%s of %s's effect on %s %s ran through branded search (90%% interval %s).",
-			plots.Percent(s.Mean), plots.Channel(ch), outcome, when, pctInterval(s.Q05, s.Q95)))
+			plots.Percent(s.Mean), lab.Channel(ch), outcome, when, pctInterval(s.Q05, s.Q95)))
 		per := ""
 		if !math.IsNaN(t.PerUnitSpend) {
 			per = fmt.Sprintf(", or %s %s", plots.Number(t.PerUnitSpend*k), perLabel)
 		}
 		v.Findings = append(v.Findings, fmt.Sprintf("With the via-search part credited, %s brought %s incremental %s %s (90%% interval %s)%s.",
-			plots.Channel(ch), plots.Number(t.Mean), outcome, when, interval(t.Q05, t.Q95), per))
+			lab.Channel(ch), plots.Number(t.Mean), outcome, when, interval(t.Q05, t.Q95), per))
 	}
 	for _, ch := range spec.Search {
 		sh, ok1 := f.BorrowedMeasure(ch, "borrowed_share")
@@ -282,7 +287,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		}
 		v.Findings = append(v.Findings, fmt.Sprintf("%s of %s's apparent return over the whole period is demand borrowed from %s "+
 			"(90%% interval %s): a model without branded queries would credit it with %s %s, but once they are accounted for its own incremental %s is %s.",
-			plots.Percent(sh.Mean), paidSearchName([]string{ch}), plots.List(uppers), pctInterval(sh.Q05, sh.Q95),
+			plots.Percent(sh.Mean), lab.PaidSearch([]string{ch}), plots.List(uppers), pctInterval(sh.Q05, sh.Q95),
 			plots.Number(ap.Mean), outcome, outcome, plots.Number(co.Mean)))
 	}
 
@@ -296,7 +301,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.CompareNote = strings.Join(notes, " ")
 		for _, ch := range spec.Upper {
 			if c, err := Compare(f, ch, fitfolder.PathTotal, w.Name, cv.Prev); err == nil {
-				v.Findings = append(v.Findings, changeSentence(c, outcome, partialOf(f, w.Name, cv.Prev)))
+				v.Findings = append(v.Findings, changeSentence(c, lab.Channel(c.Channel), outcome, partialOf(f, w.Name, cv.Prev)))
 			}
 		}
 	} else {
@@ -352,7 +357,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 				if !ok {
 					continue
 				}
-				row := effectRow{Channel: plots.Channel(ch), Path: p, PathLabel: pathLabels[p], Window: tw.Name}
+				row := effectRow{Channel: lab.Channel(ch), Path: p, PathLabel: pathLabels[p], Window: tw.Name}
 				if p == fitfolder.PathMediatedShare {
 					row.Mean, row.Q05, row.Q95 = plots.Percent(e.Mean), plots.Percent(e.Q05), plots.Percent(e.Q95)
 					row.Per = ""
@@ -380,7 +385,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 			if !ok {
 				continue
 			}
-			row := borrowedRow{Channel: plots.Channel(ch), Measure: m, Label: labels[m]}
+			row := borrowedRow{Channel: lab.Channel(ch), Measure: m, Label: labels[m]}
 			if m == "borrowed_share" {
 				row.Mean, row.Interval = plots.Percent(b.Mean), pctInterval(b.Q05, b.Q95)
 			} else {
@@ -436,6 +441,15 @@ func shellWord(s string) string {
 	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
 }
 
+// currencySuffix is " (EUR)" for headings of spend, or empty without a
+// currency.
+func currencySuffix(lab plots.Labels) string {
+	if c := lab.Currency(); c != "" {
+		return " (" + c + ")"
+	}
+	return ""
+}
+
 // sensitivityText states where the via-search effects reach zero as the
 // errors of the two stages correlate (once, when it is the same rho for
 // every channel, as it is in the default model: rho enters through gamma,
@@ -447,6 +461,7 @@ func shellWord(s string) string {
 // 0.3 or below a control's benchmark of the same sign.
 func sensitivityText(f *fitfolder.Fit, outcome string) (lines []string, fragile string) {
 	spec := f.Run.Spec
+	lab := plots.LabelsOf(f)
 	type be struct {
 		ch  string
 		rho float64
@@ -458,9 +473,9 @@ func sensitivityText(f *fitfolder.Fit, outcome string) (lines []string, fragile 
 		switch {
 		case !ok:
 		case math.IsNaN(rho):
-			steady = append(steady, plots.Channel(ch))
+			steady = append(steady, lab.Channel(ch))
 		default:
-			crossing = append(crossing, be{plots.Channel(ch), rho})
+			crossing = append(crossing, be{lab.Channel(ch), rho})
 		}
 	}
 	same := len(crossing) > 1
@@ -558,24 +573,6 @@ func sensitivityText(f *fitfolder.Fit, outcome string) (lines []string, fragile 
 	return lines, fragile
 }
 
-func channelNames(cols []string) []string {
-	out := make([]string, len(cols))
-	for i, c := range cols {
-		out[i] = plots.Channel(c)
-	}
-	return out
-}
-
-// paidSearchName names paid-search channels for sentences: "paid search"
-// for one channel called search, else "paid search (brand, generic)".
-func paidSearchName(cols []string) string {
-	names := channelNames(cols)
-	if len(names) == 1 && (names[0] == "search" || names[0] == "paid search") {
-		return "paid search"
-	}
-	return "paid search (" + strings.Join(names, ", ") + ")"
-}
-
 func windowPhraseShort(w window.Window) string {
 	switch w.Kind {
 	case window.Quarter:
@@ -638,7 +635,7 @@ func partialOf(f *fitfolder.Fit, names ...string) []string {
 // changeSentence says how a total effect moved between two quarters and
 // whether the move is clear; partial names the quarters of the two that
 // the data cover only in part, for which a change is not called clear.
-func changeSentence(c Change, outcome string, partial []string) string {
+func changeSentence(c Change, name, outcome string, partial []string) string {
 	dir := "rose"
 	if c.Mean < 0 {
 		dir = "fell"
@@ -656,7 +653,7 @@ func changeSentence(c Change, outcome string, partial []string) string {
 			" is only partly in the data, so part of the change is the shorter window and the carryover cut at the data's end"
 	}
 	return fmt.Sprintf("%s's total effect %s by %s %s%s from %s to %s; %s (%s).",
-		plots.Capital(plots.Channel(c.Channel)), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,
+		plots.Capital(name), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,
 		verdict, signedInterval(c.Q05, c.Q95))
 }
 
@@ -674,6 +671,7 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 	prev, _ := w.Previous()
 	year, _ := w.YearEarlier()
 	cv := &compareView{Window: w.Name, Prev: prev.Name, Year: year.Name}
+	lab := plots.LabelsOf(f)
 	var notes []string
 	hasPrev, hasYear := f.HasWindow(prev.Name), f.HasWindow(year.Name)
 	if !hasPrev {
@@ -708,7 +706,7 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 					return plots.Points(c.Mean) + " (" + pointsInterval(c.Q05, c.Q95) + ")"
 				}
 			}
-			row := compareRow{Channel: plots.Channel(ch), PathLabel: pathLabels[p], Now: format(now.Mean),
+			row := compareRow{Channel: lab.Channel(ch), PathLabel: pathLabels[p], Now: format(now.Mean),
 				Prev: "–", Year: "–", PrevChange: "–", YearChange: "–"}
 			for _, side := range []struct {
 				ok            bool
@@ -747,11 +745,13 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 
 func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 	spec := f.Run.Spec
+	lab := plots.LabelsOf(f)
 	whole := f.Whole()
 	d := dataView{
 		Weeks:       fmt.Sprint(len(f.Data.Weeks)),
 		Range:       dateRange(whole),
-		OutcomeName: plots.Plain(spec.Outcome),
+		OutcomeName: lab.Outcome(),
+		Currency:    currencySuffix(lab),
 		QName:       plots.Plain(spec.Queries),
 		Outcome:     plots.Number(f.Data.Total(spec.Outcome, whole)),
 		Queries:     plots.Number(f.Data.Total(spec.Queries, whole)),
@@ -770,12 +770,12 @@ func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 	}
 	for _, ch := range spec.Upper {
 		t := f.Data.Total(ch, whole)
-		d.Spend = append(d.Spend, spendRow{Channel: plots.Channel(ch), Role: "upper funnel", Total: plots.Number(t),
+		d.Spend = append(d.Spend, spendRow{Channel: lab.Channel(ch), Role: "upper funnel", Total: plots.Number(t),
 			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
 	}
 	for _, ch := range spec.Search {
 		t := f.Data.Total(ch, whole)
-		d.Spend = append(d.Spend, spendRow{Channel: plots.Channel(ch), Role: "paid search", Total: plots.Number(t),
+		d.Spend = append(d.Spend, spendRow{Channel: lab.Channel(ch), Role: "paid search", Total: plots.Number(t),
 			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
 	}
 	return d

@@ -166,7 +166,7 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <h2>Data</h2>
 <p id="data">{{.Data.Weeks}} weeks, {{.Data.Range}}; {{.Data.Regions}}.{{if .Data.WindowWeeks}} Review window {{.Data.WindowWeeks}}.{{end}} Total {{.Data.OutcomeName}}: {{.Data.Outcome}}; total {{.Data.QName}}: {{.Data.Queries}}.</p>
 <table id="spend">
-<thead><tr><th>Channel</th><th>Role</th><th class="num">Total spend</th><th class="num">Share of spend</th><th class="num">Spend in {{.Window}}</th></tr></thead>
+<thead><tr><th>Channel</th><th>Role</th><th class="num">Total spend{{.Data.Currency}}</th><th class="num">Share of spend</th><th class="num">Spend in {{.Window}}{{.Data.Currency}}</th></tr></thead>
 <tbody>{{range .Data.Spend}}
 <tr><td>{{.Channel}}</td><td>{{.Role}}</td><td class="num">{{.Total}}</td><td class="num">{{.Share}}</td><td class="num">{{.Window}}</td></tr>{{end}}
 </tbody>
