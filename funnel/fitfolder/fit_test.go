@@ -265,3 +265,22 @@ func TestWriteLoadLossless(t *testing.T) {
 		}
 	}
 }
+
+// TestWeeklyRange checks the range of weekly spend against the fixture's
+// columns, weeks without spend left out.
+func TestWeeklyRange(t *testing.T) {
+	fx, f := writeFixture(t, fitfoldertest.Options{})
+	for _, col := range []string{"video_spend", "audio_spend"} {
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for _, v := range fx.Columns[col] {
+			if v > 0 {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		gl, gh := f.Data.WeeklyRange(col)
+		// data.csv stores the numbers as written, so allow rounding
+		if math.Abs(gl-lo) > 1e-6*hi || math.Abs(gh-hi) > 1e-6*hi {
+			t.Errorf("%s: range %g..%g, want %g..%g", col, gl, gh, lo, hi)
+		}
+	}
+}

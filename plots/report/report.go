@@ -13,7 +13,6 @@ import (
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/window"
-	"spillway/mediation"
 	"spillway/plots"
 )
 
@@ -510,30 +509,13 @@ func sensitivityText(f *fitfolder.Fit, outcome string) (lines []string, fragile 
 
 	// Benchmarks: how much would leaving out an observed control correlate
 	// the errors?
-	mean := func(name string) (float64, bool) {
-		for _, st := range f.Stages {
-			for _, p := range st.Params {
-				if p.Name == name {
-					return p.Mean, true
-				}
-			}
-		}
-		return math.NaN(), false
-	}
-	sq, ok1 := mean("sigma_q")
-	sy, ok2 := mean("sigma_y")
 	type bench struct {
 		name string
 		rho  float64
 	}
 	var benches []bench
-	for _, c := range spec.Controls {
-		pq, ok3 := mean("phi_q[" + c + "]")
-		py, ok4 := mean("phi_y[" + c + "]")
-		if ok1 && ok2 && ok3 && ok4 {
-			// controls are standardised, so their variance is 1
-			benches = append(benches, bench{plots.Plain(c), mediation.OmittedControlRho(pq, py, sq, sy, 1)})
-		}
+	for _, b := range plots.ControlBenchmarks(f) {
+		benches = append(benches, bench{plots.Plain(b.Control), b.Rho})
 	}
 	var parts []string
 	var strong []string
