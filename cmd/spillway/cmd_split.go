@@ -48,6 +48,9 @@ It writes into the fit folder:
                     at which it reaches zero
   fitted.csv        actual against fitted, both stages, 90% predictive band
   curves.csv        response curves per upper channel
+  returns.csv       return on spend and cost per incremental outcome per
+                    channel and window, and the marginal return at the
+                    current weekly spend, with 90% intervals
 and prints the table for WINDOW.
 
 EXAMPLE
@@ -150,6 +153,10 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResu
 	if err != nil {
 		return nil, err
 	}
+	returns, err := mediation.Returns(in, res)
+	if err != nil {
+		return nil, err
+	}
 	return &splitResult{
 		Split: fitfolder.Split{
 			Effects:     mediation.EffectsTable(res),
@@ -160,6 +167,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResu
 			Breakeven:   mediation.BreakevenTable(sens),
 			Fitted:      fitted,
 			Curves:      curves,
+			Returns:     returns,
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome,
 	}, nil

@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -68,6 +69,13 @@ func TestLoadRoundTrip(t *testing.T) {
 		len(f.Sensitivity) != 38 || len(f.Borrowed) != 4 {
 		t.Errorf("row counts: weekly %d curves %d fitted %d sensitivity %d borrowed %d",
 			len(f.Weekly), len(f.Curves), len(f.Fitted), len(f.Sensitivity), len(f.Borrowed))
+	}
+	// returns.csv reads back as written (float text round-trips exactly)
+	if !slices.Equal(f.Returns, fx.Returns) || len(fx.Returns) == 0 {
+		t.Errorf("returns.csv: %d rows read, %d written, or they differ", len(f.Returns), len(fx.Returns))
+	}
+	if r, ok := f.ReturnMeasure("video_spend", "all", "marginal_return"); !ok || r.Mean <= 0 {
+		t.Errorf("marginal return of video: %v %v", r, ok)
 	}
 	if rho, ok := f.BreakevenRho("video_spend"); !ok || rho != 0.45 {
 		t.Errorf("video break-even: got %v %v, want 0.45", rho, ok)

@@ -67,6 +67,8 @@ type view struct {
 	PerLabel        string
 	Borrowed        []borrowedRow
 	BorrowedNote    string
+	Returns         []returnRow
+	ReturnsNote     string
 	Assumptions     []string
 	Sensitivity     []string
 	Cautions        []string
@@ -101,8 +103,14 @@ type compareView struct {
 	Rows               []compareRow
 }
 
+type returnRow struct {
+	Column, Channel             string
+	ROS, Cost, ROSAll, Marginal string
+}
+
 type compareRow struct {
 	Channel, PathLabel   string
+	PrevSpend, YearSpend string // relative change of the channel's spend
 	Now, Prev, Year      string
 	PrevChange, PrevSig  string
 	YearChange, YearSig  string
@@ -398,6 +406,33 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		"created and paid search captured. The separate refit without queries should agree with the apparent figure in the mean.",
 		outcome, weeksText(f, whole))
 
+	// Returns.
+	if f.Returns != nil {
+		withIv := func(r fitfolder.Return, ok bool, scale float64, format func(float64) string) string {
+			if !ok {
+				return "–"
+			}
+			return format(r.Mean*scale) + " (" + format(r.Q05*scale) + " to " + format(r.Q95*scale) + ")"
+		}
+		for _, ch := range spec.Upper {
+			ros, ok1 := f.ReturnMeasure(ch, w.Name, "return_on_spend")
+			cost, ok2 := f.ReturnMeasure(ch, w.Name, "cost_per_incremental")
+			all, ok3 := f.ReturnMeasure(ch, "all", "return_on_spend")
+			marg, ok4 := f.ReturnMeasure(ch, "all", "marginal_return")
+			if !ok1 && !ok2 && !ok3 && !ok4 {
+				continue
+			}
+			v.Returns = append(v.Returns, returnRow{Column: ch, Channel: lab.Channel(ch),
+				ROS: withIv(ros, ok1, k, plots.Number), Cost: withIv(cost, ok2, 1, lab.Spend),
+				ROSAll: withIv(all, ok3, k, plots.Number), Marginal: withIv(marg, ok4, k, plots.Number)})
+		}
+		v.ReturnsNote = fmt.Sprintf("Posterior mean and 90%% interval. Return on spend: the channel's total incremental %s "+
+			"(both paths, carryover after the window included) %s in the window. Cost per incremental %s: its spend divided by that total "+
+			"(the interval is the return's, turned over). Marginal return: the extra weekly %s that one more unit of weekly spend would bring "+
+			"at the channel's current weekly spend (its mean over the data), in the steady state of the response curve, %s; "+
+			"below the average return, extra spend buys less than the spend so far did.", outcome, perLabel, outcome, outcome, perLabel)
+	}
+
 	// Data summary.
 	v.Data = dataSummary(f, w)
 	v.Command, v.Rebuild = rerunCommands(f, w)
@@ -689,7 +724,9 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 				}
 			}
 			row := compareRow{Channel: lab.Channel(ch), PathLabel: pathLabels[p], Now: format(now.Mean),
-				Prev: "–", Year: "–", PrevChange: "–", YearChange: "–"}
+				Prev: "–", Year: "–", PrevChange: "–", YearChange: "–", PrevSpend: "–", YearSpend: "–"}
+			row.PrevSpend = spendChange(f, ch, w, prev, hasPrev)
+			row.YearSpend = spendChange(f, ch, w, year, hasYear)
 			for _, side := range []struct {
 				ok            bool
 				base          string
@@ -723,6 +760,24 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 		}
 	}
 	return cv, notes, nil
+}
+
+// spendChange is the relative change of channel ch's spend from quarter
+// base to quarter w ("+12%", "-30%"), "–" when base is not in the data or
+// had no spend.
+func spendChange(f *fitfolder.Fit, ch string, w, base window.Window, ok bool) string {
+	if !ok {
+		return "–"
+	}
+	b := f.Data.Total(ch, base)
+	if !(b > 0) {
+		return "–"
+	}
+	c := f.Data.Total(ch, w)/b - 1
+	if c > 0 {
+		return "+" + plots.Percent(c)
+	}
+	return plots.Percent(c)
 }
 
 func dataSummary(f *fitfolder.Fit, w window.Window) dataView {

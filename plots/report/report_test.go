@@ -19,6 +19,7 @@ import (
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/fitfolder/fitfoldertest"
 	"spillway/funnel/stat"
+	"spillway/funnel/window"
 	"spillway/plots"
 	"spillway/plots/report"
 )
@@ -406,7 +407,7 @@ func TestReportCompareTable(t *testing.T) {
 	checked := 0
 	for _, tr := range tab.all("tr") {
 		tds := tr.all("td")
-		if len(tds) != 9 {
+		if len(tds) != 11 {
 			continue
 		}
 		ch := tds[0].fullText() + "_spend"
@@ -414,7 +415,7 @@ func TestReportCompareTable(t *testing.T) {
 		for _, side := range []struct {
 			base       string
 			chg, clear int
-		}{{"2025Q2", 4, 5}, {"2024Q3", 7, 8}} {
+		}{{"2025Q2", 4, 6}, {"2024Q3", 8, 10}} {
 			m, lo, hi := paired(x, ch, path, "2025Q3", side.base)
 			want := plots.Signed(m) + " (" + plots.Signed(lo) + " to " + plots.Signed(hi) + ")"
 			if path == fitfolder.PathMediatedShare {
@@ -607,5 +608,72 @@ func TestReportSensitivityBenchmark(t *testing.T) {
 	}
 	if strings.Contains(text, "below 0.3") || strings.Contains(text, "weak unmeasured") {
 		t.Error("the old caution wording is back")
+	}
+}
+
+// TestReportReturns checks the returns table against returns.csv and the
+// spend change beside the effect change in the quarter comparison; a fit
+// folder written before returns.csv existed still gives a report, without
+// the table.
+func TestReportReturns(t *testing.T) {
+	x := load(t, false)
+	root := parse(t, write(t, x, "2025Q3"))
+	tab := root.byID("returns")
+	if tab == nil {
+		t.Fatal("no returns table")
+	}
+	k := 1.0
+	if strings.Contains(parse(t, write(t, x, "2025Q3")).fullText(), "per 1,000 of spend") {
+		k = 1000
+	}
+	for _, ch := range []string{"video_spend", "audio_spend"} {
+		ros, _ := x.f.ReturnMeasure(ch, "2025Q3", "return_on_spend")
+		marg, _ := x.f.ReturnMeasure(ch, "all", "marginal_return")
+		text := ""
+		for _, tr := range tab.all("tr") {
+			if tr.fullText() != "" && strings.Contains(tr.fullText(), plots.Channel(ch)) {
+				text = tr.fullText()
+			}
+		}
+		for _, want := range []string{plots.Number(ros.Mean * k), plots.Number(marg.Mean * k)} {
+			if !strings.Contains(text, want) {
+				t.Errorf("%s returns row %q lacks %s", ch, text, want)
+			}
+		}
+	}
+	// spend change of video from 2025Q2 to 2025Q3, from data.csv
+	w3, _ := window.Parse("2025Q3")
+	w2, _ := window.Parse("2025Q2")
+	c := x.f.Data.Total("video_spend", w3)/x.f.Data.Total("video_spend", w2) - 1
+	want := plots.Percent(c)
+	if c > 0 {
+		want = "+" + want
+	}
+	if cmp := root.byID("compare"); cmp == nil || !strings.Contains(cmp.fullText(), want) {
+		t.Errorf("compare table lacks video's spend change %s", want)
+	}
+
+	// an older fit folder: no returns.csv
+	dir := t.TempDir()
+	fx, err := fitfoldertest.Write(filepath.Join(dir, "fit"), fitfoldertest.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Remove(filepath.Join(fx.Dir, "returns.csv")); err != nil {
+		t.Fatal(err)
+	}
+	f, err := fitfolder.Load(fx.Dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f.Returns != nil {
+		t.Error("a folder without returns.csv read rows")
+	}
+	var buf bytes.Buffer
+	if err := report.Write(&buf, f, "2025Q3", x.charts); err != nil {
+		t.Fatal(err)
+	}
+	if parse(t, buf.Bytes()).byID("returns") != nil {
+		t.Error("a returns table without returns.csv")
 	}
 }

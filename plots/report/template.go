@@ -85,11 +85,11 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 
 {{if .Compare}}
 <h2>{{.Compare.Window}} against the previous quarter and a year earlier</h2>
-<p class="note">Changes are computed draw by draw from the posterior (the same draw in both quarters), so their 90% intervals account for what the quarters share. "Clear" means the interval excludes zero. Outcome units, or percentage points for the share via search.</p>
+<p class="note">Changes are computed draw by draw from the posterior (the same draw in both quarters), so their 90% intervals account for what the quarters share. "Clear" means the interval excludes zero. Outcome units, or percentage points for the share via search. "Spend change" is the change in the channel's spend between the two quarters: an effect that moves with its spend is spend-driven, not a change in how well the channel works.</p>
 <table id="compare">
-<thead><tr><th>Channel</th><th>Path</th><th class="num">{{.Compare.Window}}</th><th class="num">{{.Compare.Prev}}</th><th class="num">Change (90% interval)</th><th>Clear?</th><th class="num">{{.Compare.Year}}</th><th class="num">Change (90% interval)</th><th>Clear?</th></tr></thead>
+<thead><tr><th>Channel</th><th>Path</th><th class="num">{{.Compare.Window}}</th><th class="num">{{.Compare.Prev}}</th><th class="num">Change (90% interval)</th><th class="num">Spend change</th><th>Clear?</th><th class="num">{{.Compare.Year}}</th><th class="num">Change (90% interval)</th><th class="num">Spend change</th><th>Clear?</th></tr></thead>
 <tbody>{{range .Compare.Rows}}
-<tr><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Now}}</td><td class="num">{{.Prev}}</td><td class="num">{{.PrevChange}}</td><td{{if .PrevClear}} class="clear"{{end}}>{{.PrevSig}}</td><td class="num">{{.Year}}</td><td class="num">{{.YearChange}}</td><td{{if .YearClear}} class="clear"{{end}}>{{.YearSig}}</td></tr>{{end}}
+<tr><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Now}}</td><td class="num">{{.Prev}}</td><td class="num">{{.PrevChange}}</td><td class="num">{{.PrevSpend}}</td><td{{if .PrevClear}} class="clear"{{end}}>{{.PrevSig}}</td><td class="num">{{.Year}}</td><td class="num">{{.YearChange}}</td><td class="num">{{.YearSpend}}</td><td{{if .YearClear}} class="clear"{{end}}>{{.YearSig}}</td></tr>{{end}}
 </tbody>
 </table>
 {{end}}
@@ -111,6 +111,17 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <thead><tr><th>Channel</th><th>Path</th><th class="num">Mean</th><th class="num">90% interval</th><th class="num">{{$.PerLabel}}</th></tr></thead>
 <tbody>{{range .Rows}}
 <tr data-channel="{{.Channel}}" data-path="{{.Path}}" data-window="{{.Window}}"><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Mean}}</td><td class="num">{{.Interval}}</td><td class="num">{{.Per}}</td></tr>{{end}}
+</tbody>
+</table>
+{{end}}
+
+{{if .Returns}}
+<h2>Returns</h2>
+<p class="note">{{.ReturnsNote}}</p>
+<table id="returns">
+<thead><tr><th>Channel</th><th class="num">Return on spend, {{.Window}} ({{.PerLabel}})</th><th class="num">Cost per incremental {{.Data.OutcomeName}}, {{.Window}}</th><th class="num">Return on spend, whole period</th><th class="num">Marginal return at current spend ({{.PerLabel}})</th></tr></thead>
+<tbody>{{range .Returns}}
+<tr data-channel="{{.Column}}"><td>{{.Channel}}</td><td class="num">{{.ROS}}</td><td class="num">{{.Cost}}</td><td class="num">{{.ROSAll}}</td><td class="num">{{.Marginal}}</td></tr>{{end}}
 </tbody>
 </table>
 {{end}}
