@@ -142,6 +142,8 @@ func TestFitBadInputs(t *testing.T) {
 		{"prior that does not fit", append([]string{"fit", "--data", good, "--priors", betaOnCoef}, roles...), "gamma"},
 		{"linear column not a channel", append([]string{"fit", "--data", good, "--linear", "price"}, roles...), "--linear price"},
 		{"bad chains", append([]string{"fit", "--data", good, "--chains", "0"}, roles...), "--chains"},
+		{"label of a column that is not spend", append([]string{"fit", "--data", good, "--label", "price=Price"}, roles...), "--label price=Price: price is not a spend column"},
+		{"label without a name", append([]string{"fit", "--data", good, "--label", "video_spend"}, roles...), "expected COLUMN=NAME"},
 	} {
 		out := filepath.Join(tmp, "out-"+strings.ReplaceAll(c.name, " ", "-"))
 		args := append(append([]string{c.args[0]}, quick...), c.args[1:]...)
