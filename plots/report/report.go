@@ -434,9 +434,9 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		}
 		v.ReturnsNote = fmt.Sprintf("Posterior mean and 90%% interval. Return on spend: the channel's total incremental %s "+
 			"(both paths, carryover after the window included) %s in the window. Cost per incremental %s: its spend divided by that total "+
-			"(the interval is the return's, turned over). Marginal return: the extra weekly %s that one more unit of weekly spend would bring "+
-			"at the channel's current weekly spend (its mean over the data), in the steady state of the response curve, %s; "+
-			"below the average return, extra spend buys less than the spend so far did.", outcome, perLabel, outcome, outcome, perLabel)
+			"(the interval is the return's, turned over). Marginal return: the extra weekly %s per extra unit of weekly spend "+
+			"at the channel's current weekly spend (its mean over the data), the slope of the steady-state response curve there, shown %s; "+
+			"below the return on spend, extra spend buys less than the spend so far did.", outcome, perLabel, outcome, outcome, perLabel)
 	}
 
 	// Data summary.
