@@ -77,3 +77,22 @@ func drawPrior(p Prior, rng *rand.Rand) (float64, error) {
 func Baseline(sc *Scaled, o Options) (*Stage, error) {
 	return finish(outcomeBase("baseline", sc), o)
 }
+
+// LogLik writes the log likelihood of each week in the likelihood (the
+// weeks not masked, in order), log Normal(Y[t] | n[t], sigma), at the
+// constrained draw v into dst and returns it; pred is scratch for the
+// linear predictor (either may be nil).
+func (s *Stage) LogLik(dst, pred, v []float64) ([]float64, []float64) {
+	pred = s.Predict(resizeTo(pred, len(s.Y)), v)
+	sigma := v[len(v)-1]
+	c := -math.Log(sigma) - 0.5*math.Log(2*math.Pi)
+	dst = dst[:0]
+	for t, y := range s.Y {
+		if s.Mask != nil && s.Mask[t] {
+			continue
+		}
+		z := (y - pred[t]) / sigma
+		dst = append(dst, c-0.5*z*z)
+	}
+	return dst, pred
+}
