@@ -22,7 +22,7 @@ func EffectsTable(r *Result, sup map[Key]Support) []fitfolder.Effect {
 	for _, e := range r.Effects {
 		su, ok := sup[Key{e.Channel, e.Path, e.Window}]
 		if !ok {
-			su = Support{math.NaN(), math.NaN(), math.NaN(), math.NaN()}
+			su = Support{math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()}
 		}
 		s := Summarise(e.Draws)
 		pu := math.NaN()

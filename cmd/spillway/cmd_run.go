@@ -15,8 +15,8 @@ import (
 
 // runOptions are the flags of spillway run.
 type runOptions struct {
-	roles    roleFlags
-	sampling samplingFlags
+	roles      roleFlags
+	sampling   samplingFlags
 	window     string
 	negligible float64
 }
