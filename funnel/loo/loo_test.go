@@ -69,4 +69,3 @@ func TestGPDFit(t *testing.T) {
 		}
 	}
 }
-
