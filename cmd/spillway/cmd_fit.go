@@ -115,7 +115,11 @@ upper funnel directly) and naive (the outcome stage without queries, a
 cross-check for paid search). It writes FOLDER/spec.json, FOLDER/data.csv, and
 for each stage FOLDER/STAGE/draws.csv, summary.csv and stats.json, and
 FOLDER/verdict.txt: whether the fit deserves trust (R-hat <= 1.01, bulk and
-tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not.
+tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not, and
+whether the data support the media effects at all: the outcome stage must
+predict left-out weeks better than the same stage without any media term
+(PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
+adds which effects the data cannot tell from zero or from the prior.
 Regional data are fitted as their national sum.
 
 EXAMPLE
