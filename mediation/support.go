@@ -250,7 +250,9 @@ func SupportNotes(r *Result, sup map[Key]Support, win string, f float64) []strin
 		}
 	}
 	for _, e := range r.Borrowed {
-		note(e)
+		if e.Window == win {
+			note(e)
+		}
 	}
 	return out
 }

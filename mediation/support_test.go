@@ -34,7 +34,8 @@ func TestSupports(t *testing.T) {
 			{Channel: "v", Path: "via_search", Window: "all", Draws: via},
 			{Channel: "v", Path: "direct", Window: "all", Draws: dir},
 			{Channel: "v", Path: "total", Window: "all", Draws: add(via, dir)},
-		}, Borrowed: []Effect{{Channel: "s", Path: "controlled", Window: "all", Draws: ctl}}}
+		}, Borrowed: []Effect{{Channel: "s", Path: "controlled", Window: "all", Draws: ctl},
+			{Channel: "s", Path: "controlled", Window: "2024Q1", Draws: ctl}}}
 	}
 	// posterior: via 0..10 against a direct of 1000 (negligible), direct
 	// 900..1100 (well measured), controlled 0..100000 (as wide as its prior)
@@ -67,6 +68,9 @@ func TestSupports(t *testing.T) {
 		if !strings.Contains(notes, want) {
 			t.Errorf("notes lack %q:\n%s", want, notes)
 		}
+	}
+	if strings.Contains(notes, "2024Q1") {
+		t.Errorf("notes for window all name another window:\n%s", notes)
 	}
 	if strings.Contains(notes, "direct path") {
 		t.Errorf("a well-measured direct path got a note:\n%s", notes)
