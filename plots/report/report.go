@@ -55,29 +55,32 @@ type view struct {
 	Title, Subtitle string
 	Trustworthy     bool
 	Reasons         []string
-	Checks          string
-	Job             string
-	Findings        []string
-	Quarter         bool
-	Window          string // window name, "all" or a range
-	WindowLabel     string
-	Compare         *compareView
-	CompareNote     string
-	Charts          []chartView
-	EffectTables    []effectTable
-	PerLabel        string
-	Borrowed        []borrowedRow
-	BorrowedNote    string
-	Returns         []returnRow
-	ReturnsNote     string
-	Assumptions     []string
-	Sensitivity     []string
-	Cautions        []string
-	Data            dataView
-	Stages          []stageRow
-	Command         string // redoes the whole job into a new folder
-	Rebuild         string // rebuilds this page from the fit folder
-	Validation      *validationView
+	// Notes are the support check's result and what the data cannot tell,
+	// shown under the verdict.
+	Notes        []string
+	Checks       string
+	Job          string
+	Findings     []string
+	Quarter      bool
+	Window       string // window name, "all" or a range
+	WindowLabel  string
+	Compare      *compareView
+	CompareNote  string
+	Charts       []chartView
+	EffectTables []effectTable
+	PerLabel     string
+	Borrowed     []borrowedRow
+	BorrowedNote string
+	Returns      []returnRow
+	ReturnsNote  string
+	Assumptions  []string
+	Sensitivity  []string
+	Cautions     []string
+	Data         dataView
+	Stages       []stageRow
+	Command      string // redoes the whole job into a new folder
+	Rebuild      string // rebuilds this page from the fit folder
+	Validation   *validationView
 }
 
 type chartView struct {
@@ -214,10 +217,20 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	v.Subtitle = fmt.Sprintf("%s on %s from %s and %s, %s (%d weeks). Fit folder %s.",
 		plots.Capital(outcome), plots.List(uppers), plots.Plain(spec.Queries),
 		plots.List(lab.Channels(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
+	supported := mediaSupported(f.Verdict)
 	for _, r := range f.Verdict.Reasons {
-		if r.Stage != "" {
+		switch {
+		case r.Stage == "support" || r.Stage == "effect":
+			// the support check and what the data cannot tell: shown at the
+			// top whether or not the sampler's checks passed
+			if text, ok := strings.CutPrefix(r.Text, "note: "); ok {
+				v.Notes = append(v.Notes, text)
+			} else {
+				v.Reasons = append(v.Reasons, r.Text)
+			}
+		case r.Stage != "":
 			v.Reasons = append(v.Reasons, r.Stage+" stage: "+r.Text)
-		} else {
+		default:
 			v.Reasons = append(v.Reasons, r.Text)
 		}
 	}
@@ -301,7 +314,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 
 	// Quarter comparisons.
 	if w.Kind == window.Quarter {
-		cv, notes, err := compareQuarters(f, w)
+		cv, notes, err := compareQuarters(f, w, supported)
 		if err != nil {
 			return nil, err
 		}
@@ -309,7 +322,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.CompareNote = strings.Join(notes, " ")
 		for _, ch := range spec.Upper {
 			if c, err := Compare(f, ch, fitfolder.PathTotal, w.Name, cv.Prev); err == nil {
-				v.Findings = append(v.Findings, changeSentence(c, lab.Channel(c.Channel), outcome, partialOf(f, w.Name, cv.Prev)))
+				v.Findings = append(v.Findings, changeSentence(c, lab.Channel(c.Channel), outcome, supported, partialOf(f, w.Name, cv.Prev)))
 			}
 		}
 	} else {
@@ -656,9 +669,10 @@ func partialOf(f *fitfolder.Fit, names ...string) []string {
 }
 
 // changeSentence says how a total effect moved between two quarters and
-// whether the move is clear; partial names the quarters of the two that
-// the data cover only in part, for which a change is not called clear.
-func changeSentence(c Change, name, outcome string, partial []string) string {
+// whether the move is clear: not when the media effects are not
+// supported by the data, nor when partial names quarters of the two that
+// the data cover only in part.
+func changeSentence(c Change, name, outcome string, supported bool, partial []string) string {
 	dir := "rose"
 	if c.Mean < 0 {
 		dir = "fell"
@@ -671,6 +685,8 @@ func changeSentence(c Change, name, outcome string, partial []string) string {
 	switch {
 	case !c.ExcludesZero():
 		verdict = "the 90% interval of the change includes zero, so it may be noise"
+	case !supported:
+		verdict = "the media effects themselves are not supported by the data (see the top of this report), so no change between quarters is clear"
 	case len(partial) > 0:
 		verdict = "the 90% interval of the change excludes zero, but " + plots.List(partial) +
 			" is only partly in the data, so part of the change is the shorter window and the carryover cut at the data's end"
@@ -690,7 +706,9 @@ func pointsInterval(lo, hi float64) string {
 
 // compareQuarters builds the comparison of w with the previous quarter and
 // the same quarter a year earlier, for every channel and path with draws.
-func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string, error) {
+// Without support for the media effects (supported false) no change is
+// called clear.
+func compareQuarters(f *fitfolder.Fit, w window.Window, supported bool) (*compareView, []string, error) {
 	prev, _ := w.Previous()
 	year, _ := w.YearEarlier()
 	cv := &compareView{Window: w.Name, Prev: prev.Name, Year: year.Name}
@@ -755,8 +773,8 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 					return nil, nil, err
 				}
 				*side.chg = change(c)
-				*side.clear = c.ExcludesZero()
-				if c.ExcludesZero() {
+				*side.clear = c.ExcludesZero() && supported
+				if *side.clear {
 					*side.sig = "yes"
 				} else {
 					*side.sig = "no"
@@ -822,4 +840,17 @@ func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
 	}
 	return d
+}
+
+// mediaSupported reports whether the verdict's support check passed: a
+// "support" line that is not a note says the media effects are not
+// supported. A verdict without the check (an older fit) counts as
+// supported.
+func mediaSupported(v fitfolder.Verdict) bool {
+	for _, r := range v.Reasons {
+		if r.Stage == "support" && !strings.HasPrefix(r.Text, "note: ") {
+			return false
+		}
+	}
+	return true
 }
