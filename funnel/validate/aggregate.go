@@ -68,6 +68,8 @@ type Report struct {
 	Replicates int
 	// Caption says how the sweep was run, for the chart.
 	Caption string
+	// fits are the jobs' convergence numbers ("demand/rhat_max", ...).
+	fits jobStats
 }
 
 // CoverageBar is one effect's interval coverage over the replicates.
@@ -121,6 +123,15 @@ func swingAt(weeks, T int) float64 {
 	f := float64(weeks) / float64(T)
 	return math.Max(Swing, LeaveOutZ*math.Sqrt(f/(1-f)))
 }
+
+// MinReplicates is the fewest recovery replicates over which "recovers
+// truth" can be claimed. The central 95% range of Binomial(n, 0.9) over n
+// is 75%-100% at n = 20 (REFERENCES.md section 9: [15, 20]) and 70%-100%
+// at n = 10: below 20 replicates, intervals that truly cover 75% would
+// pass as often as not, so the sweep could not tell calibrated intervals
+// from clearly over-confident ones. Fewer replicates can still show a
+// problem (a count far outside its range), never its absence.
+const MinReplicates = 20
 
 // Alpha is the family-wise false-alarm rate of the recovery flags: each
 // of E tests flags at Alpha/E (Bonferroni).
@@ -186,7 +197,7 @@ func Aggregate(res *Results) (*Report, error) {
 			return nil, fmt.Errorf("validate: unknown record kind %q", r.Kind)
 		}
 	}
-	rep := &Report{}
+	rep := &Report{fits: fits}
 	set := m.Settings
 	if set.has(Recovery) {
 		rep.recovery(m, eff, effOrder, params, paramOrder)
@@ -338,6 +349,7 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 	worstP := 1.0
 	var biased []string
 	var pooledN, pooledIn90, pooledIn50 float64
+	var miscal []string
 	for _, a := range accs {
 		c50, c90 := a.in50/a.n, a.in90/a.n
 		rep.Rows = append(rep.Rows,
@@ -357,6 +369,23 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 		rep.Coverage = append(rep.Coverage, CoverageBar{Label: a.label, Path: a.path, Cover50: c50, Cover90: c90, Flagged: flag})
 		if flag && p < worstP {
 			worst, worstP = a, p
+		}
+		// the other three ways out of the binomial range: 50% intervals
+		// covering too few or too many true values, 90% intervals too
+		// many (too wide); each side tested at Alpha/(4E)
+		if !flag {
+			for _, t := range []struct {
+				k       float64
+				p       float64
+				what    string
+				low, hi bool
+			}{{c50 * float64(R), 0.5, "50%", true, true}, {c90 * float64(R), 0.9, "90%", false, true}} {
+				if t.low && score.BinomialLowerTail(t.k, R, t.p) < Alpha/(4*E) {
+					miscal = append(miscal, fmt.Sprintf("%s %s intervals cover %s (too narrow)", a.label, t.what, pct(t.k/float64(R))))
+				} else if t.hi && score.BinomialUpperTail(t.k, R, t.p) < Alpha/(4*E) {
+					miscal = append(miscal, fmt.Sprintf("%s %s intervals cover %s (too wide)", a.label, t.what, pct(t.k/float64(R))))
+				}
+			}
 		}
 		if a.nz > 0 && math.Abs(a.z/a.nz) > 3/math.Sqrt(float64(R)) {
 			biased = append(biased, fmt.Sprintf("%s (%+.1f sd on average)", a.label, a.z/a.nz))
@@ -387,6 +416,7 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 		}
 	}
 	pc90, pc50 := pooledIn90/pooledN, pooledIn50/pooledN
+	unconverged, refits := rep.unconverged(m, Recovery)
 	switch {
 	case worst != nil:
 		v.OK = false
@@ -397,10 +427,30 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 	case len(sbcBad) > 0:
 		v.OK = false
 		v.Headline = "calibration ranks not uniform for " + strings.Join(sbcBad, ", ")
+	case len(miscal) > 0:
+		v.OK = false
+		v.Headline = "miscalibrated: " + strings.Join(miscal, ", ")
+	// A problem found is reported whatever the number of replicates; a
+	// clean bill of health needs enough of them, all converged.
+	case R < MinReplicates:
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %s are too few to judge coverage (at least %d needed)", plural(R, "simulated data set"), MinReplicates)
+	case unconverged > 0:
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %d of %s did not converge", unconverged, plural(refits, "refit"))
 	default:
 		v.Headline = "recovers truth"
 	}
 	v.Details = append(v.Details, fmt.Sprintf("Over %s, 90%% intervals cover %s and 50%% intervals %s of the true whole-period effects.", plural(R, "simulated data set"), pct(pc90), pct(pc50)))
+	if R > 0 {
+		lo50, hi50 := score.BinomialRange(R, 0.5, 0.95)
+		lo90, hi90 := score.BinomialRange(R, 0.9, 0.95)
+		v.Details = append(v.Details, fmt.Sprintf("With %d replicates a calibrated effect's coverage falls by chance in %s-%s (50%% intervals) and %s-%s (90%%) in 95%% of sweeps (binomial); a claim needs at least %d replicates, where the 90%% range is 75%%-100%%.",
+			R, pct(float64(lo50)/float64(R)), pct(float64(hi50)/float64(R)), pct(float64(lo90)/float64(R)), pct(float64(hi90)/float64(R)), MinReplicates))
+	}
+	if len(miscal) > 0 && (worst != nil || len(biased) > 0 || len(sbcBad) > 0) {
+		v.Details = append(v.Details, "Miscalibrated: "+strings.Join(miscal, ", ")+".")
+	}
 	if worst != nil {
 		var low []string
 		for _, b := range rep.Coverage {
@@ -619,6 +669,33 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 	rep.Verdicts = append(rep.Verdicts, v)
 }
 
+// converged reports whether a job's fits converged by the usual
+// standards: R-hat <= 1.01 and computable, no divergent transitions.
+func converged(s map[string]float64) bool {
+	r := math.Max(s["demand/rhat_max"], s["outcome/rhat_max"])
+	d := s["demand/divergences"] + s["outcome/divergences"]
+	return !math.IsNaN(s["demand/rhat_max"]) && !math.IsNaN(s["outcome/rhat_max"]) && r <= 1.01 && d == 0
+}
+
+// unconverged counts the refits of a check that did not converge, of all
+// its refits with fit records.
+func (rep *Report) unconverged(m Manifest, check string) (bad, n int) {
+	for _, j := range m.Jobs {
+		if j.Check != check {
+			continue
+		}
+		s, ok := rep.fits[j.Index]
+		if !ok {
+			continue
+		}
+		n++
+		if !converged(s) {
+			bad++
+		}
+	}
+	return bad, n
+}
+
 // convergence adds a note to each verdict whose refits did not converge
 // by the usual standards (R-hat <= 1.01, no divergences); refits are short,
 // so this is a caution rather than a failure.
@@ -638,14 +715,22 @@ func (rep *Report) convergence(m Manifest, fits jobStats) {
 			n++
 			r := math.Max(s["demand/rhat_max"], s["outcome/rhat_max"])
 			d := s["demand/divergences"] + s["outcome/divergences"]
-			if r > 1.01 || d > 0 {
+			if !converged(s) {
 				bad++
 			}
 			div += int(d)
-			worst = math.Max(worst, r)
+			if math.IsNaN(r) || math.IsNaN(worst) {
+				worst = math.NaN()
+			} else {
+				worst = math.Max(worst, r)
+			}
 		}
 		if bad > 0 {
-			v.Details = append(v.Details, fmt.Sprintf("Caution: %d of %s did not fully converge (worst R-hat %.3f, %s in all); longer chains (--warmup, --draws) make the check sharper.", bad, plural(n, "refit"), worst, plural(div, "divergent transition")))
+			w := "not computable"
+			if !math.IsNaN(worst) {
+				w = fmt.Sprintf("%.3f", worst)
+			}
+			v.Details = append(v.Details, fmt.Sprintf("Caution: %d of %s did not fully converge (worst R-hat %s, %s in all); longer chains (--warmup, --draws) make the check sharper.", bad, plural(n, "refit"), w, plural(div, "divergent transition")))
 		}
 	}
 }

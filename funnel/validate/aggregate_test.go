@@ -199,3 +199,100 @@ func TestSeasonalBaseline(t *testing.T) {
 		}
 	}
 }
+
+// recoveryResults builds a recovery-only sweep of len(z) replicates of one
+// effect whose truth lies z posterior sds from the mean (normal quantiles,
+// as in handResults); unconverged lists replicates whose demand fit has
+// R-hat 1.05. The truth falls on alternate sides of the mean.
+func recoveryResults(z []float64, unconverged ...int) *Results {
+	var jobs []Job
+	for r := range z {
+		jobs = append(jobs, Job{Index: r, Check: Recovery, Replicate: r + 1})
+	}
+	m := Manifest{Format: Format, Weeks: 104, First: "2023-01-02", Jobs: jobs,
+		Settings: Settings{Checks: []string{Recovery}, Replicates: len(z), Chains: 2, Warmup: 10, Draws: 10}}
+	res := &Results{Manifest: m}
+	for r, zr := range z {
+		res.Manifest.Ran = append(res.Manifest.Ran, r)
+		add := func(kind, name, path, window, stat string, v float64) {
+			res.Records = append(res.Records, Record{r, kind, name, path, window, stat, v})
+		}
+		rhat := 1.002
+		for _, u := range unconverged {
+			if u == r {
+				rhat = 1.05
+			}
+		}
+		for _, st := range []string{"demand", "outcome"} {
+			add("fit", st, "", "", "rhat_max", rhat)
+			add("fit", st, "", "", "divergences", 0)
+		}
+		if r%2 == 1 {
+			zr = -zr // alternate sides, so that no test case is biased
+		}
+		mean, sd := 100+zr*10, 10.0
+		add("effect", "video_spend", "via_search", "all", "truth", 100)
+		add("effect", "video_spend", "via_search", "all", "mean", mean)
+		add("effect", "video_spend", "via_search", "all", "sd", sd)
+		for _, q := range []struct {
+			stat string
+			z    float64
+		}{{"q05", -1.6449}, {"q25", -0.6745}, {"q50", 0}, {"q75", 0.6745}, {"q90", 1.2816}, {"q95", 1.6449}} {
+			add("effect", "video_spend", "via_search", "all", q.stat, mean+q.z*sd)
+		}
+	}
+	return res
+}
+
+// zs returns n1 copies of z1 followed by n2 of z2 and n3 of z3.
+func zs(n1 int, z1 float64, n2 int, z2 float64, n3 int, z3 float64) []float64 {
+	var out []float64
+	for range n1 {
+		out = append(out, z1)
+	}
+	for range n2 {
+		out = append(out, z2)
+	}
+	for range n3 {
+		out = append(out, z3)
+	}
+	return out
+}
+
+// TestRecoveryClaims: "recovers truth" only over enough replicates
+// (MinReplicates), with both coverages inside their binomial ranges and
+// every refit converged. A user's 'validate --replicates 2' said "recovers
+// truth" with a 50% coverage of 28% and 2 of 2 refits unconverged.
+func TestRecoveryClaims(t *testing.T) {
+	// calibrated over 20: 10 truths inside the 50% interval (z 0.3), 8
+	// between it and the 90% (z 1), 2 outside (z 2): 50% and 90% coverage
+	// 10/20 and 18/20, inside [6, 14] and [15, 20]
+	calibrated := zs(10, 0.3, 8, 1, 2, 2)
+	for _, c := range []struct {
+		name  string
+		res   *Results
+		ok    bool
+		want  string
+		never string
+	}{
+		{"2 replicates, unconverged", recoveryResults([]float64{0.3, 1}, 0, 1), false, "no claim: 2 simulated data sets are too few", "recovers"},
+		{"2 replicates, converged", recoveryResults([]float64{0.3, 1}), false, "no claim: 2 simulated data sets are too few", "recovers"},
+		{"20 calibrated", recoveryResults(calibrated), true, "recovers truth", ""},
+		{"20 calibrated, one unconverged", recoveryResults(calibrated, 7), false, "no claim: 1 of 20 refits did not converge", "recovers"},
+		// 50% coverage 3/20: P(X <= 3 | Bin(20, 0.5)) = 0.0013 < 0.01/4
+		{"50% too narrow", recoveryResults(zs(3, 0.3, 15, 1, 2, 2)), false, "miscalibrated: video via search 50% intervals cover 15% (too narrow)", "recovers"},
+		// 50% coverage 19/20: P(X >= 19) = 2e-5
+		{"50% too wide", recoveryResults(zs(19, 0.3, 0, 1, 1, 2)), false, "miscalibrated: video via search 50% intervals cover 95% (too wide)", "recovers"},
+		// 90% coverage 4/10: a problem shows even below MinReplicates
+		{"10 over-confident", recoveryResults(zs(2, 0.3, 2, 1, 6, 3)), false, "over-confident", "recovers"},
+	} {
+		rep, err := Aggregate(c.res)
+		if err != nil {
+			t.Fatal(err)
+		}
+		v := rep.Verdicts[0]
+		if v.OK != c.ok || !strings.HasPrefix(v.Headline, c.want) || (c.never != "" && strings.Contains(v.String(), c.never)) {
+			t.Errorf("%s: verdict %v %q, want %v %q", c.name, v.OK, v.String(), c.ok, c.want)
+		}
+	}
+}

@@ -348,19 +348,12 @@ func effectRecords(job int, e mediation.Effect, truth *float64) []Record {
 	return recs
 }
 
-// fitRecords keeps each stage's worst convergence numbers.
+// fitRecords keeps each stage's worst convergence numbers; NaN where they
+// cannot be computed (mcmc.Worst).
 func fitRecords(job int, f *fitted) []Record {
 	var recs []Record
 	for k, fit := range f.fits {
-		rh, eb, et := 0.0, math.Inf(1), math.Inf(1)
-		for _, s := range mcmc.Summarize(fit) {
-			if s.Constant() {
-				continue
-			}
-			rh = math.Max(rh, nanInf(s.Rhat))
-			eb = math.Min(eb, nanZero(s.ESSBulk))
-			et = math.Min(et, nanZero(s.ESSTail))
-		}
+		rh, eb, et := mcmc.Worst(mcmc.Summarize(fit))
 		div := 0
 		for _, c := range fit.Chains {
 			div += c.Stats.Divergences
@@ -373,20 +366,6 @@ func fitRecords(job int, f *fitted) []Record {
 			Record{Job: job, Kind: "fit", Name: name, Stat: "divergences", Value: float64(div)})
 	}
 	return recs
-}
-
-func nanInf(v float64) float64 {
-	if math.IsNaN(v) {
-		return math.Inf(1)
-	}
-	return v
-}
-
-func nanZero(v float64) float64 {
-	if math.IsNaN(v) {
-		return 0
-	}
-	return v
 }
 
 // holdoutJob fits the weeks before the origin (the series cut after the
