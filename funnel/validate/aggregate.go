@@ -492,7 +492,15 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 		return
 	}
 	// mape counts weeks with a non-zero actual only (nm of them)
-	type tally struct{ mape, crps, cov, n, nm, baseMape, baseCRPS, baseCov, baseN float64 }
+	type tally struct {
+		mape, crps, cov, n, nm, baseMape, baseCRPS, baseCov, baseN float64
+		bareMape, bareCRPS, bareCov, bareN                         float64
+		// per forecast week, in job then week order: the job, whether
+		// the 90% interval missed, and the CRPS differences model -
+		// baseline and model - no media
+		job                []int
+		miss, dBase, dBare []float64
+	}
 	var stages []string
 	res := map[string]*tally{}
 	series := map[string]*ForecastSeries{}
@@ -516,10 +524,13 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 				s.nm++
 				s.mape += math.Abs(x["mean"]-y) / math.Abs(y)
 				s.baseMape += math.Abs(x["base"]-y) / math.Abs(y)
+				s.bareMape += math.Abs(x["bare_mean"]-y) / math.Abs(y)
 			}
 			s.crps += x["crps"]
+			miss := 1.0
 			if x["q05"] <= y && y <= x["q95"] {
 				s.cov++
+				miss = 0
 			}
 			s.baseCRPS += x["base_crps"]
 			if x["base_q05"] < x["base_q95"] {
@@ -528,6 +539,18 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 					s.baseCov++
 				}
 			}
+			_, hasBare := x["bare_crps"]
+			if hasBare {
+				s.bareN++
+				s.bareCRPS += x["bare_crps"]
+				if x["bare_q05"] <= y && y <= x["bare_q95"] {
+					s.bareCov++
+				}
+			}
+			s.job = append(s.job, j)
+			s.miss = append(s.miss, miss)
+			s.dBase = append(s.dBase, x["crps"]-x["base_crps"])
+			s.dBare = append(s.dBare, x["crps"]-x["bare_crps"])
 			fs := series[stage]
 			fs.Days = append(fs.Days, dayOf(k[1]))
 			fs.Actual = append(fs.Actual, y)
@@ -537,12 +560,42 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			fs.Baseline = append(fs.Baseline, x["base"])
 		}
 	}
-	var beat, lose, narrow []string
+	// the records come stage by stage and week by week, each week over
+	// the origins; sort each stage's weeks by job (origin) then week so
+	// that neighbours in the lag-1 autocorrelation are neighbouring weeks
+	// of one origin
 	for _, stage := range stages {
 		s := res[stage]
-		baseCov := math.NaN()
+		idx := make([]int, len(s.job))
+		for i := range idx {
+			idx[i] = i
+		}
+		slices.SortStableFunc(idx, func(a, b int) int { return s.job[a] - s.job[b] })
+		perm := func(x []float64) []float64 {
+			out := make([]float64, len(x))
+			for i, k := range idx {
+				out[i] = x[k]
+			}
+			return out
+		}
+		job := make([]int, len(idx))
+		for i, k := range idx {
+			job[i] = s.job[k]
+		}
+		s.job, s.miss, s.dBase, s.dBare = job, perm(s.miss), perm(s.dBase), perm(s.dBare)
+	}
+	var problems, good []string
+	var lines, covs []string
+	for _, stage := range stages {
+		s := res[stage]
+		baseCov, bareCov := math.NaN(), math.NaN()
 		if s.baseN > 0 {
 			baseCov = s.baseCov / s.baseN
+		}
+		bareMape, bareCRPS := math.NaN(), math.NaN()
+		if s.bareN > 0 {
+			bareCov, bareCRPS = s.bareCov/s.bareN, s.bareCRPS/s.bareN
+			bareMape = 100 * s.bareMape / s.nm
 		}
 		rep.Rows = append(rep.Rows,
 			Row{Holdout, stage, "", "mape", 100 * s.mape / s.nm},
@@ -551,14 +604,45 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			Row{Holdout, stage + "_baseline", "", "mape", 100 * s.baseMape / s.nm},
 			Row{Holdout, stage + "_baseline", "", "crps", s.baseCRPS / s.n},
 			Row{Holdout, stage + "_baseline", "", "coverage_90_forecast", baseCov})
-		line := fmt.Sprintf("%s: CRPS %s vs %s a week, MAPE %.1f%% vs %.1f%%", stage, num(s.crps/s.n), num(s.baseCRPS/s.n), 100*s.mape/s.nm, 100*s.baseMape/s.nm)
-		if s.crps < s.baseCRPS {
-			beat = append(beat, line)
-		} else {
-			lose = append(lose, line)
+		if s.bareN > 0 {
+			rep.Rows = append(rep.Rows,
+				Row{Holdout, stage + "_no_media", "", "mape", bareMape},
+				Row{Holdout, stage + "_no_media", "", "crps", bareCRPS},
+				Row{Holdout, stage + "_no_media", "", "coverage_90_forecast", bareCov})
 		}
-		if score.BinomialLowerTail(s.cov, int(s.n), 0.9) < Alpha {
-			narrow = append(narrow, fmt.Sprintf("%s %s", stage, pct(s.cov/s.n)))
+		// the seasonal rule
+		cmp := Compare(s.dBase, s.job)
+		line := fmt.Sprintf("%s: CRPS %s a week vs %s for the seasonal rule", stage, num(s.crps/s.n), num(s.baseCRPS/s.n))
+		switch cmp.Verdict() {
+		case Better:
+			good = append(good, stage+" forecasts beat the seasonal baseline")
+		case Worse:
+			problems = append(problems, stage+" forecasts are worse than the seasonal baseline")
+		default:
+			problems = append(problems, stage+" forecasts do not beat the seasonal baseline")
+		}
+		line += " (" + cmp.String() + ")"
+		if s.bareN > 0 {
+			cmp := Compare(s.dBare, s.job)
+			line += fmt.Sprintf(" and %s without media (%s)", num(bareCRPS), cmp.String())
+			switch cmp.Verdict() {
+			case Better:
+				good = append(good, "media improve the "+stage+" forecast")
+			default:
+				problems = append(problems, "media do not improve the "+stage+" forecast")
+			}
+		}
+		lines = append(lines, line)
+		cov := CoverageOf(s.miss, s.job, 0.9)
+		rep.Rows = append(rep.Rows, Row{Holdout, stage, "", "effective_weeks", cov.NEff})
+		covs = append(covs, stage+" "+cov.String())
+		switch cov.Verdict() {
+		case Worse:
+			problems = append(problems, fmt.Sprintf("%s forecast intervals too narrow (%s of weeks inside 90%% intervals)", stage, pct(cov.Rate)))
+		case Better:
+			problems = append(problems, fmt.Sprintf("%s forecast intervals too wide (%s of weeks inside 90%% intervals)", stage, pct(cov.Rate)))
+		case Undecided:
+			problems = append(problems, fmt.Sprintf("%s forecast coverage not judged (%.0f effective weeks, %d needed)", stage, cov.NEff, MinReplicates))
 		}
 		fs := series[stage]
 		for _, o := range origins {
@@ -567,27 +651,18 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 		rep.Forecasts = append(rep.Forecasts, *fs)
 	}
 	n := int(res[stages[0]].n)
-	switch {
-	case len(lose) == 0:
-		v.Headline = "forecasts beat the seasonal baseline"
-	case len(beat) == 0:
+	if len(problems) == 0 {
+		v.Headline = "forecasts beat the seasonal baseline and the model without media"
+	} else {
 		v.OK = false
-		v.Headline = "forecasts do not beat the seasonal baseline"
-	default:
-		v.OK = false
-		v.Headline = fmt.Sprintf("%s forecasts do not beat the seasonal baseline", strings.SplitN(lose[0], ":", 2)[0])
+		v.Headline = strings.Join(problems, "; ")
 	}
-	if len(narrow) > 0 {
-		v.OK = false
-		v.Headline += "; forecast intervals too narrow (" + strings.Join(narrow, ", ") + " of weeks inside 90% intervals)"
+	v.Details = append(v.Details, fmt.Sprintf("Over %s from %s (lower CRPS is better): %s.", plural(n, "forecast week"), plural(len(hjobs), "origin"), strings.Join(lines, "; ")))
+	if len(good) > 0 && len(problems) > 0 {
+		v.Details = append(v.Details, "Found: "+strings.Join(good, "; ")+".")
 	}
-	v.Details = append(v.Details, fmt.Sprintf("Model vs baseline over %s from %s (lower is better): %s.", plural(n, "forecast week"), plural(len(hjobs), "origin"), strings.Join(append(beat, lose...), "; ")))
-	var covs []string
-	for _, stage := range stages {
-		covs = append(covs, fmt.Sprintf("%s %s", stage, pct(res[stage].cov/res[stage].n)))
-	}
-	v.Details = append(v.Details, fmt.Sprintf("90%% forecast intervals cover %s of weeks.", strings.Join(covs, ", ")))
-	v.Details = append(v.Details, fmt.Sprintf("The baseline is the same week a year earlier times the recent level (last %d training weeks over the same weeks a year before).", LevelWeeks))
+	v.Details = append(v.Details, "90% forecast intervals cover "+strings.Join(covs, "; ")+".")
+	v.Details = append(v.Details, fmt.Sprintf("Neighbouring forecast weeks are not independent: each comparison and coverage is judged on an effective number of weeks, n (1 - r) / (1 + r) with r the lag-1 autocorrelation within origins; a difference counts when its 95%% interval (Student t) excludes zero (a Diebold-Mariano comparison), a coverage when it leaves the central 95%% binomial range. The baseline is the same week a year earlier times the recent level (last %d training weeks over the same weeks a year before); the model without media is this model with every spend term removed (the outcome stage keeps the queries).", LevelWeeks))
 	rep.Verdicts = append(rep.Verdicts, v)
 }
 

@@ -411,6 +411,12 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			pred[1][i][d] = forward.Predictive(run.Outcome[t], dr.Outcome.Sigma(), rng) * sc.OutcomeScale
 		}
 	}
+	bare, err := sw.fitBare(ctx, f, j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	recs = append(recs, fitRecords(j.Index, bare)...)
+	bpred := bare.forecast(j.Origin, h, rand.New(rand.NewPCG(j.Seed, 3)))
 	for k, actual := range [][]float64{s.Queries, s.Outcome} {
 		name := f.st[k].Name
 		point, rel := seasonalBaseline(actual[:j.Origin], j.Origin, h)
@@ -442,9 +448,68 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			add("base_q05", stat.Quantile(base, 0.05))
 			add("base_q95", stat.Quantile(base, 0.95))
 			add("base_crps", score.CRPSSorted(base, y))
+			b := bpred[k][i]
+			sort.Float64s(b)
+			bmean, _ := stat.MeanSD(b)
+			add("bare_mean", bmean)
+			add("bare_q05", stat.Quantile(b, 0.05))
+			add("bare_q95", stat.Quantile(b, 0.95))
+			add("bare_crps", score.CRPSSorted(b, y))
 		}
 	}
 	return recs, nil
+}
+
+// fitBare fits f's stages again without any media term (no upper-funnel
+// or paid-search channel; the outcome stage keeps its query term, so it
+// asks whether the media terms add anything once the queries are known,
+// and the demand stage whether spend explains the queries at all), on the
+// same weeks, seeds seed+2 and seed+3. The stages' names get the suffix
+// "_no_media".
+func (sw *Sweep) fitBare(ctx context.Context, f *fitted, seed uint64) (*fitted, error) {
+	b := &fitted{sc: f.sc}
+	for k, st := range f.st {
+		bs := *st
+		bs.Name = st.Name + "_no_media"
+		bs.Channels = nil
+		b.st[k] = &bs
+		tg, err := bs.Target()
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", bs.Name, err)
+		}
+		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + 2 + uint64(k),
+			TargetAccept: pipeline.DefaultTargetAccept}
+		if b.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
+			return nil, fmt.Errorf("%s stage: %w", bs.Name, err)
+		}
+	}
+	return b, nil
+}
+
+// forecast returns each stage's posterior predictive draws, in raw units,
+// of the h weeks from origin, stage by stage ([stage][week][draw]): the
+// linear predictor at each draw (the outcome stage with the actual
+// queries) plus sigma times a standard normal from rng.
+func (f *fitted) forecast(origin, h int, rng *rand.Rand) [2][][]float64 {
+	var out [2][][]float64
+	scale := [2]float64{f.sc.QueriesScale, f.sc.OutcomeScale}
+	for k, st := range f.st {
+		l := st.Layout()
+		out[k] = make([][]float64, h)
+		rows := mediation.FromFit(f.fits[k]).Rows
+		for i := range out[k] {
+			out[k][i] = make([]float64, len(rows))
+		}
+		var m []float64
+		for d, v := range rows {
+			m = st.Predict(m, v)
+			sigma := l.View(v).Sigma()
+			for i := 0; i < h; i++ {
+				out[k][i][d] = forward.Predictive(m[origin+i], sigma, rng) * scale[k]
+			}
+		}
+	}
+	return out
 }
 
 // seasonalBaseline forecasts weeks origin..origin+h-1 from the training
