@@ -83,11 +83,16 @@ type CoverageBar struct {
 // ForecastSeries is one stage's holdout forecasts, week by week over all
 // origins, in raw units.
 type ForecastSeries struct {
-	Stage string
+	// Stage is "demand" or "outcome"; Column the data column it
+	// forecasts (the queries or the outcome).
+	Stage, Column string
 	// Days are the forecast weeks as days since 1970-01-01.
 	Days                 []float64
 	Actual, Mean, Lo, Hi []float64
 	Baseline             []float64
+	// NoMedia is the mean forecast of the model without media terms
+	// (nil for sweeps run before it existed).
+	NoMedia []float64
 	// Origins are the origin weeks (days since 1970-01-01).
 	Origins []float64
 }
@@ -511,7 +516,11 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			s = &tally{}
 			res[stage] = s
 			stages = append(stages, stage)
-			series[stage] = &ForecastSeries{Stage: stage}
+			col := m.Spec.Outcome
+			if stage == "demand" {
+				col = m.Spec.Queries
+			}
+			series[stage] = &ForecastSeries{Stage: stage, Column: col}
 		}
 		for _, j := range hjobs {
 			x, ok := fc[k][j]
@@ -558,6 +567,9 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			fs.Lo = append(fs.Lo, x["q05"])
 			fs.Hi = append(fs.Hi, x["q95"])
 			fs.Baseline = append(fs.Baseline, x["base"])
+			if hasBare {
+				fs.NoMedia = append(fs.NoMedia, x["bare_mean"])
+			}
 		}
 	}
 	// the records come stage by stage and week by week, each week over

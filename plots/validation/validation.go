@@ -79,7 +79,7 @@ func (f *page) draw(dc draw.Canvas) error {
 	if err != nil {
 		return err
 	}
-	fc, err := f.forecastPanel()
+	fcs, err := f.forecastPanels()
 	if err != nil {
 		return err
 	}
@@ -87,7 +87,7 @@ func (f *page) draw(dc draw.Canvas) error {
 	if err != nil {
 		return err
 	}
-	for _, p := range []*plot.Plot{cov, fc, sh} {
+	for _, p := range append(append([]*plot.Plot{cov}, fcs...), sh) {
 		if p != nil {
 			panels = append(panels, p)
 		}
@@ -109,10 +109,15 @@ func (f *page) draw(dc draw.Canvas) error {
 		panels[0].Draw(sub(0, 0, 0.48, 1))
 		panels[1].Draw(sub(0.52, 0, 1, 1))
 	default:
-		// coverage down the left; forecasts and shifts on the right
+		// the first panel (coverage, or the demand forecasts) down the
+		// left; the others stacked on the right
 		panels[0].Draw(sub(0, 0, 0.44, 1))
-		panels[1].Draw(sub(0.48, 0.52, 1, 1))
-		panels[2].Draw(sub(0.48, 0, 1, 0.46))
+		rest := panels[1:]
+		h := 1 / float64(len(rest))
+		for i, p := range rest {
+			top := 1 - float64(i)*h
+			p.Draw(sub(0.48, top-h+0.03, 1, top))
+		}
 	}
 	return nil
 }
@@ -189,22 +194,30 @@ func (f *page) coveragePanel() (*plot.Plot, error) {
 	return p, nil
 }
 
-// forecastPanel draws the outcome's holdout forecasts: the 90% band and
-// mean against the actuals and the seasonal baseline.
-func (f *page) forecastPanel() (*plot.Plot, error) {
-	if len(f.rep.Forecasts) == 0 {
-		return nil, nil
-	}
-	s := f.rep.Forecasts[0]
-	for _, fc := range f.rep.Forecasts {
-		if fc.Stage == "outcome" {
-			s = fc
+// forecastPanels draws each stage's holdout forecasts (demand, then
+// outcome): the 90% band and mean against the actuals, the seasonal
+// baseline and, when the sweep has it, the model without media.
+func (f *page) forecastPanels() ([]*plot.Plot, error) {
+	var out []*plot.Plot
+	for _, s := range f.rep.Forecasts {
+		if len(s.Days) == 0 {
+			continue
 		}
+		p, err := forecastPanel(s)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, p)
 	}
-	if len(s.Days) == 0 {
-		return nil, nil
+	return out, nil
+}
+
+func forecastPanel(s validate.ForecastSeries) (*plot.Plot, error) {
+	what := s.Stage
+	if s.Column != "" {
+		what = strings.ReplaceAll(s.Column, "_", " ")
 	}
-	p := newPanel("Holdout: " + s.Stage + " forecasts vs actual")
+	p := newPanel("Holdout: " + what + " (" + s.Stage + " stage), forecast vs actual")
 	// weeks of one origin follow each other; draw each block apart
 	blocks := splitBlocks(s.Days)
 	for _, b := range blocks {
@@ -214,23 +227,30 @@ func (f *page) forecastPanel() (*plot.Plot, error) {
 	for _, o := range s.Origins {
 		p.Add(marks.Rule{At: o, Vertical: true, Style: draw.LineStyle{Color: plots.Grid, Width: vg.Points(2)}})
 	}
+	noMedia := len(s.NoMedia) == len(s.Days)
 	for _, b := range blocks {
 		x := s.Days[b[0]:b[1]]
 		p.Add(marks.Line{X: x, Y: s.Baseline[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Faint, Width: vg.Points(3), Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}, DotSingle: true})
+		if noMedia {
+			p.Add(marks.Line{X: x, Y: s.NoMedia[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Muted, Width: vg.Points(2.5), Dashes: []vg.Length{vg.Points(2), vg.Points(4)}}, DotSingle: true})
+		}
 		p.Add(marks.Line{X: x, Y: s.Mean[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Direct, Width: vg.Points(3.5)}, DotSingle: true})
 		p.Add(marks.Line{X: x, Y: s.Actual[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Ink, Width: vg.Points(3)}, DotSingle: true})
 	}
-	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline} {
+	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline, s.NoMedia} {
 		if !finite(v...) {
 			return nil, fmt.Errorf("validation: a %s forecast is not a number", s.Stage)
 		}
 	}
 	p.X.Tick.Marker = marks.MonthTicks{}
 	p.Y.Tick.Marker = marks.NumberTicks{}
-	p.Y.Label.Text = s.Stage + " per week"
+	p.Y.Label.Text = what + " per week"
 	p.Legend.Add("actual", swatch{plots.Ink, false})
 	p.Legend.Add("model, 90% band", swatch{plots.Direct, false})
 	p.Legend.Add("seasonal baseline", swatch{plots.Faint, true})
+	if noMedia {
+		p.Legend.Add("model without media", swatch{plots.Muted, true})
+	}
 	p.Legend.TextStyle = marks.TextStyle(17, plots.Ink, false)
 	p.Legend.Top = true
 	p.Legend.Left = true
