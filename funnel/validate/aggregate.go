@@ -639,9 +639,11 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			line += fmt.Sprintf(" and %s without media (%s)", num(bareCRPS), cmp.String())
 			switch cmp.Verdict() {
 			case Better:
-				good = append(good, "media improve the "+stage+" forecast")
+				good = append(good, "media improve the "+stage+" forecast"+beyond(stage))
+			case Worse:
+				problems = append(problems, "media make the "+stage+" forecast worse"+beyond(stage))
 			default:
-				problems = append(problems, "media do not improve the "+stage+" forecast")
+				problems = append(problems, "media do not measurably improve the "+stage+" forecast"+beyond(stage))
 			}
 		}
 		lines = append(lines, line)
@@ -754,6 +756,16 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 		v.Details = append(v.Details, "Note: "+s+".")
 	}
 	rep.Verdicts = append(rep.Verdicts, v)
+}
+
+// beyond qualifies the outcome stage's comparison without media: its
+// forecasts use the actual queries, so the comparison asks what the media
+// terms add once the queries are known.
+func beyond(stage string) string {
+	if stage == "outcome" {
+		return " beyond the queries"
+	}
+	return ""
 }
 
 // converged reports whether a job's fits converged by the usual

@@ -361,7 +361,7 @@ func TestHoldoutClaims(t *testing.T) {
 		// scores differing by scatter only
 		{"pure noise", 4, 8, func(o, i int) float64 { return 10 + wiggle(o, i) }, func(o, i int) float64 { return 10 - wiggle(o, i) },
 			func(o, i int) float64 { return 10 + 0.5*wiggle(o, i+1) }, everyWeek,
-			[]string{"demand forecasts do not beat the seasonal baseline", "media do not improve the demand forecast"}, []string{"forecasts beat"}},
+			[]string{"demand forecasts do not beat the seasonal baseline", "media do not measurably improve the demand forecast"}, []string{"forecasts beat"}},
 		// 78% of 108 weeks against [84%, 95%]-ish: too narrow
 		{"78% over 108 weeks", 12, 9, func(o, i int) float64 { return 10 + wiggle(o, i) }, func(o, i int) float64 { return 20 + wiggle(o, i) },
 			func(o, i int) float64 { return 20 - wiggle(o, i) }, cover78,
