@@ -7,7 +7,7 @@ import (
 )
 
 // TestBothStagesHaveAHoldoutPanel: the holdout section draws the demand
-// stage and the outcome stage, each labelled with its column and stage
+// stage and the outcome stage, each titled with its stage and its axis with its column
 // (it used to draw the outcome only).
 func TestBothStagesHaveAHoldoutPanel(t *testing.T) {
 	days := []float64{19700, 19707, 19714}
@@ -20,16 +20,14 @@ func TestBothStagesHaveAHoldoutPanel(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want := []string{"Holdout: branded queries (demand stage), forecast vs actual", "Holdout: conversions (outcome stage), forecast vs actual"}
+	want := []string{"Holdout: demand", "Holdout: outcome"}
 	if len(ps) != 2 {
 		t.Fatalf("%d holdout panels, want 2", len(ps))
 	}
+	axis := []string{"branded queries per week", "conversions per week"}
 	for i, p := range ps {
-		if p.Title.Text != want[i] {
-			t.Errorf("panel %d: title %q, want %q", i, p.Title.Text, want[i])
+		if p.Title.Text != want[i] || p.Y.Label.Text != axis[i] {
+			t.Errorf("panel %d: title %q, axis %q; want %q, %q", i, p.Title.Text, p.Y.Label.Text, want[i], axis[i])
 		}
-	}
-	if got := ps[0].Y.Label.Text; got != "branded queries per week" {
-		t.Errorf("demand panel's axis %q", got)
 	}
 }

@@ -108,16 +108,19 @@ func (f *page) draw(dc draw.Canvas) error {
 	case 2:
 		panels[0].Draw(sub(0, 0, 0.48, 1))
 		panels[1].Draw(sub(0.52, 0, 1, 1))
-	default:
+	case 3:
 		// the first panel (coverage, or the demand forecasts) down the
-		// left; the others stacked on the right
+		// left; the other two on the right
 		panels[0].Draw(sub(0, 0, 0.44, 1))
-		rest := panels[1:]
-		h := 1 / float64(len(rest))
-		for i, p := range rest {
-			top := 1 - float64(i)*h
-			p.Draw(sub(0.48, top-h+0.03, 1, top))
-		}
+		panels[1].Draw(sub(0.48, 0.52, 1, 1))
+		panels[2].Draw(sub(0.48, 0, 1, 0.46))
+	default:
+		// coverage down the left; the two stages' forecasts side by side
+		// at the top right, stability below them
+		panels[0].Draw(sub(0, 0, 0.42, 1))
+		panels[1].Draw(sub(0.46, 0.52, 0.72, 1))
+		panels[2].Draw(sub(0.74, 0.52, 1, 1))
+		panels[3].Draw(sub(0.46, 0, 1, 0.46))
 	}
 	return nil
 }
@@ -217,7 +220,7 @@ func forecastPanel(s validate.ForecastSeries) (*plot.Plot, error) {
 	if s.Column != "" {
 		what = strings.ReplaceAll(s.Column, "_", " ")
 	}
-	p := newPanel("Holdout: " + what + " (" + s.Stage + " stage), forecast vs actual")
+	p := newPanel("Holdout: " + s.Stage)
 	// weeks of one origin follow each other; draw each block apart
 	blocks := splitBlocks(s.Days)
 	for _, b := range blocks {
@@ -245,16 +248,26 @@ func forecastPanel(s validate.ForecastSeries) (*plot.Plot, error) {
 	p.X.Tick.Marker = marks.MonthTicks{}
 	p.Y.Tick.Marker = marks.NumberTicks{}
 	p.Y.Label.Text = what + " per week"
+	// room above the lines for the legend
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, v := range [][]float64{s.Actual, s.Lo, s.Hi, s.Baseline, s.NoMedia} {
+		for _, x := range v {
+			lo, hi = math.Min(lo, x), math.Max(hi, x)
+		}
+	}
+	if hi > lo {
+		p.Y.Min, p.Y.Max = lo-0.05*(hi-lo), hi+0.9*(hi-lo)
+	}
 	p.Legend.Add("actual", swatch{plots.Ink, false})
 	p.Legend.Add("model, 90% band", swatch{plots.Direct, false})
 	p.Legend.Add("seasonal baseline", swatch{plots.Faint, true})
 	if noMedia {
 		p.Legend.Add("model without media", swatch{plots.Muted, true})
 	}
-	p.Legend.TextStyle = marks.TextStyle(17, plots.Ink, false)
+	p.Legend.TextStyle = marks.TextStyle(15, plots.Ink, false)
 	p.Legend.Top = true
 	p.Legend.Left = true
-	p.Legend.Padding = vg.Points(3)
+	p.Legend.Padding = vg.Points(2)
 	return p, nil
 }
 
