@@ -743,10 +743,21 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 			ns++
 		}
 	}
-	if len(swing) == 0 {
+	unconv, refits := rep.unconverged(m, Stability)
+	if r, ok := rep.fits[refJob]; ok && !converged(r) {
+		unconv++
+		refits++
+	}
+	switch {
+	case len(swing) == 0 && unconv > 0:
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %d of %s (with the reference) did not converge", unconv, plural(refits, "fit"))
+		v.Details = append(v.Details, fmt.Sprintf("No effect moved more than %.1f sd (largest: %s, %s), but moves between unconverged fits say little.", math.Ceil(best.Shift*10)/10, best.Label, best.Worst))
+	case len(swing) == 0:
 		v.Headline = fmt.Sprintf("stable: no effect moved more than %.1f sd", math.Ceil(best.Shift*10)/10)
 		v.Details = append(v.Details, fmt.Sprintf("The largest move was %s, %s.", best.Label, best.Worst))
-	} else {
+		v.Details = append(v.Details, "Stable is not the same as supported: an effect the data say little about stays near its prior in every refit; the holdout against the model without media and the placebo check ask whether the data support it.")
+	default:
 		v.OK = false
 		v.Headline = fmt.Sprintf("unstable: %s moved %.1f sd (%s)", best.Label, best.Shift, best.Worst)
 		v.Details = append(v.Details, fmt.Sprintf("Effects that moved more than %.0f posterior sd: %s.", Swing, strings.Join(swing, "; ")))

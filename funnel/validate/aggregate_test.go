@@ -408,3 +408,42 @@ func TestEffectiveCount(t *testing.T) {
 		t.Errorf("two groups: %v, want 4/3", got)
 	}
 }
+
+// TestStabilityClaims: "stable" needs converged refits; a move is reported
+// whatever their state.
+func TestStabilityClaims(t *testing.T) {
+	for _, c := range []struct {
+		mean62 float64
+		rhat   float64
+		want   string
+	}{
+		{51, 1.002, "stable: no effect moved more than 0.6 sd"},
+		{51, 1.05, "no claim: 2 of 3 fits (with the reference) did not converge"},
+		{62, 1.05, "unstable: video via search moved 2.4 sd (without 2023Q2)"},
+	} {
+		res := handResults()
+		for i, r := range res.Records {
+			if r.Job == 12 && r.Stat == "mean" {
+				res.Records[i].Value = c.mean62
+			}
+		}
+		for _, job := range []int{0, 12, 13} {
+			rhat := c.rhat
+			if job == 13 {
+				rhat = 1.001
+			}
+			for _, st := range []string{"demand", "outcome"} {
+				res.Records = append(res.Records, Record{job, "fit", st, "", "", "rhat_max", rhat}, Record{job, "fit", st, "", "", "divergences", 0})
+			}
+		}
+		rep, err := Aggregate(res)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, v := range rep.Verdicts {
+			if v.Check == Stability && v.Headline != c.want {
+				t.Errorf("mean %v, R-hat %v: %q, want %q", c.mean62, c.rhat, v.Headline, c.want)
+			}
+		}
+	}
+}
