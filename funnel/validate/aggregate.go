@@ -172,6 +172,7 @@ func Aggregate(res *Results) (*Report, error) {
 	fc := map[[2]string]jobStats{} // stage, week
 	var fcOrder [][2]string
 	fits := jobStats{}
+	plac := placeboStats{}
 	for _, r := range res.Records {
 		switch r.Kind {
 		case "effect":
@@ -194,6 +195,8 @@ func Aggregate(res *Results) (*Report, error) {
 				fcOrder = append(fcOrder, k)
 			}
 			fc[k].add(r)
+		case "placebo":
+			plac.add(r)
 		case "fit":
 			rr := r
 			rr.Stat = r.Name + "/" + r.Stat
@@ -213,6 +216,9 @@ func Aggregate(res *Results) (*Report, error) {
 	if set.has(Stability) {
 		rep.stability(m, eff, effOrder, check)
 	}
+	if set.has(Placebo) {
+		rep.placebo(m, plac)
+	}
 	rep.convergence(m, fits)
 	rep.Caption = caption(m)
 	return rep, nil
@@ -227,6 +233,9 @@ func caption(m Manifest) string {
 	}
 	if s.has(Holdout) {
 		parts = append(parts, fmt.Sprintf("holdout: %d origins × %d weeks", s.Origins, s.Horizon))
+	}
+	if s.has(Placebo) {
+		parts = append(parts, fmt.Sprintf("placebo: %d refits per channel", s.Placebos))
 	}
 	if m.ReferenceSource == "given" {
 		parts = append(parts, "reference: the given fit")

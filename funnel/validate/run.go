@@ -232,6 +232,8 @@ func (sw *Sweep) runJob(ctx context.Context, j Job, ref *fitted) ([]Record, erro
 		return sw.holdoutJob(ctx, j)
 	case Stability:
 		return sw.stabilityJob(ctx, j, ref)
+	case Placebo:
+		return sw.placeboJob(ctx, j)
 	}
 	panic("validate: unknown check " + j.Check)
 }
@@ -245,7 +247,49 @@ func (sw *Sweep) referenceJob(j Job, ref *fitted) ([]Record, error) {
 	for _, e := range keyEffects(res, false) {
 		recs = append(recs, effectRecords(j.Index, e, nil)...)
 	}
+	if sw.set.has(Placebo) {
+		for _, col := range append(append([]string(nil), sw.in.Spec.Upper...), sw.in.Spec.Search...) {
+			recs = append(recs, placeboRecord(j.Index, res, col))
+		}
+	}
 	return recs, nil
+}
+
+// placeboRecord is the posterior mean of the effect the placebo check
+// compares for channel col: an upper-funnel channel's total effect, paid
+// search's controlled effect, over the whole data.
+func placeboRecord(job int, res *mediation.Result, col string) Record {
+	v := math.NaN()
+	for _, e := range append(append([]mediation.Effect(nil), res.Effects...), res.Borrowed...) {
+		if e.Channel == col && e.Window == "all" && (e.Path == "total" || e.Path == "controlled") {
+			v, _ = stat.MeanSD(e.Draws)
+		}
+	}
+	return Record{Job: job, Kind: "placebo", Name: col, Stat: "estimate", Value: v}
+}
+
+// placeboJob refits the data with channel j.Channel's spend moved
+// circularly by j.Shift weeks and keeps that channel's effect.
+func (sw *Sweep) placeboJob(ctx context.Context, j Job) ([]Record, error) {
+	s := sw.in.Series
+	moved := data.Series{Weeks: s.Weeks, Upper: append([][]float64(nil), s.Upper...), Search: append([][]float64(nil), s.Search...),
+		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls}
+	if c := slices.Index(sw.in.Spec.Upper, j.Channel); c >= 0 {
+		moved.Upper[c] = ShiftSpend(nil, s.Upper[c], j.Shift)
+	} else if c := slices.Index(sw.in.Spec.Search, j.Channel); c >= 0 {
+		moved.Search[c] = ShiftSpend(nil, s.Search[c], j.Shift)
+	} else {
+		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
+	}
+	f, err := sw.fit(ctx, model.Scale(moved, sw.in.Spec), j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	res, err := mediation.Split(f.inputs(), sw.windows[:1])
+	if err != nil {
+		return nil, err
+	}
+	return append(fitRecords(j.Index, f), placeboRecord(j.Index, res, j.Channel)), nil
 }
 
 func (sw *Sweep) recoveryJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
