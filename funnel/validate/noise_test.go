@@ -1,7 +1,6 @@
 package validate
 
 import (
-	"context"
 	"math/rand/v2"
 	"strings"
 	"testing"
