@@ -44,7 +44,7 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 	o.roles.addFlags(fs)
 	fs.StringVar(&o.fitDir, "fit", "", "a fit `FOLDER` from 'spillway fit': validate its data, with its posterior as the reference")
 	fs.StringVar(&o.truth, "truth", "", "a truth.json `FILE` from 'spillway simulate': recovery simulates from these true parameters")
-	fs.StringSliceVar(&o.checks, "checks", []string{validate.Recovery, validate.Holdout, validate.Stability}, "the `CHECKS` to run: recovery, holdout, stability, placebo")
+	fs.StringSliceVar(&o.checks, "checks", []string{validate.Recovery, validate.Holdout, validate.Stability}, "`CHECKS` to run; placebo only on request")
 	fs.IntVar(&o.replicates, "replicates", validate.DefaultReplicates, "simulated data sets refitted by the recovery check")
 	fs.IntVar(&o.origins, "origins", validate.DefaultOrigins, "forecast origins of the holdout check")
 	fs.IntVar(&o.horizon, "horizon", validate.DefaultHorizon, "weeks forecast from each origin (1 to 52)")
