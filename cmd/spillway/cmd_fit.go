@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"strings"
 
@@ -258,22 +259,14 @@ func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 // printFitSummary prints one line per stage and the verdict.
 func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted, sup *pipeline.Support) {
 	for k, r := range reps {
-		maxR, minB, minT := 0.0, 1e300, 1e300
-		for _, s := range r.summary {
-			if s.Constant() {
-				continue
-			}
-			maxR = max(maxR, s.Rhat)
-			minB = min(minB, s.ESSBulk)
-			minT = min(minT, s.ESSTail)
-		}
+		maxR, minB, minT := mcmc.Worst(r.summary)
 		div, leap := 0, 0.0
 		for _, c := range f.Fits[k].Chains {
 			div += c.Stats.Divergences
 			leap += c.Stats.MeanLeapfrogs / float64(len(f.Fits[k].Chains))
 		}
-		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %.3f, min bulk ESS %.0f, min tail ESS %.0f, %d divergences, %.0f leapfrog steps per draw\n",
-			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], maxR, minB, minT, div, leap)
+		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %s, min bulk ESS %s, min tail ESS %s, %d divergences, %.0f leapfrog steps per draw\n",
+			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], diagText(maxR, "%.3f"), diagText(minB, "%.0f"), diagText(minT, "%.0f"), div, leap)
 	}
 	ok := true
 	for _, r := range reps {
@@ -316,4 +309,12 @@ func addSupport(v *fitfolder.Verdict, sup *pipeline.Support) {
 	if n := sup.Note(); n != "" {
 		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + n})
 	}
+}
+
+// diagText formats a convergence diagnostic, or "not computable" for NaN.
+func diagText(v float64, format string) string {
+	if math.IsNaN(v) {
+		return "not computable"
+	}
+	return fmt.Sprintf(format, v)
 }

@@ -150,11 +150,11 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 
 {{with .Validation}}
 <h2>Validation</h2>
-<p>From <code>spillway validate</code> on this fit: recovery of known truth on data simulated like these, forecasts of weeks the model did not see, and stability when a quarter is left out.</p>
+<p>From <code>spillway validate</code> on this fit: {{.Intro}}.</p>
 <ul id="validation">{{range .Verdict}}
 {{if .Head}}<li><strong>{{.Text}}</strong></li>{{else}}<li class="detail">{{.Text}}</li>{{end}}{{end}}
 </ul>
-{{if .Src}}<figure><img src="{{.Src}}" alt="Validation: interval coverage, holdout forecasts and stability shifts"/></figure>{{end}}
+{{if .Src}}<figure><img src="{{.Src}}" alt="Validation: {{.Intro}}"/></figure>{{end}}
 <table id="validation-metrics">
 <thead><tr><th>Check</th><th>Effect or stage</th><th>Channel</th><th>Metric</th><th class="num">Value</th></tr></thead>
 <tbody>{{range .Rows}}
