@@ -97,18 +97,18 @@ func (e *LimitError) Unwrap() error { return e.Err }
 // patterns, current amounts, limits and budget, and the simulator with
 // each draw's carryover from the data.
 type Problem struct {
-	names    []string // upper-funnel channels, then paid search
-	search   []bool
-	weeks    []time.Time // start of each plan week
-	pattern  [][]float64 // [channel][week] weights summing to 1
-	current  []float64   // the pattern's own amount, currency over the plan's weeks
+	names   []string // upper-funnel channels, then paid search
+	search  []bool
+	weeks   []time.Time // start of each plan week
+	pattern [][]float64 // [channel][week] weights summing to 1
+	current []float64   // the pattern's own amount, currency over the plan's weeks
 	// amounts in cents: current (rounded), limits (noMax for none), budget
 	curC, minC, maxC []int64
 	budgetC          int64
 	locked           []bool
-	quantile float64
-	dataMax  []float64 // largest weekly spend in the data, currency
-	eng      *engine
+	quantile         float64
+	dataMax          []float64 // largest weekly spend in the data, currency
+	eng              *engine
 }
 
 // New builds the problem of planning the weeks after in's data under s.
