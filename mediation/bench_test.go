@@ -1,8 +1,8 @@
 package mediation
 
 import (
-	"io"
 	"math/rand/v2"
+	"spillway/funnel/window"
 	"testing"
 
 	"spillway/funnel/model"
@@ -38,7 +38,7 @@ func BenchmarkSplit(b *testing.B) {
 		in.DemandDraws.Rows = append(in.DemandDraws.Rows, draw(st1))
 		in.OutcomeDraws.Rows = append(in.OutcomeDraws.Rows, draw(st2))
 	}
-	wins := Quarters(sc.Weeks)
+	wins := window.Quarters(sc.Weeks)
 	b.Run("effects", func(b *testing.B) {
 		for b.Loop() {
 			if _, err := Split(in, wins); err != nil {
@@ -55,14 +55,14 @@ func BenchmarkSplit(b *testing.B) {
 	})
 	b.Run("fitted", func(b *testing.B) {
 		for b.Loop() {
-			if err := WriteFitted(io.Discard, in, 1); err != nil {
+			if _, err := Fitted(in, 1); err != nil {
 				b.Fatal(err)
 			}
 		}
 	})
 	b.Run("curves", func(b *testing.B) {
 		for b.Loop() {
-			if err := WriteCurves(io.Discard, in, 41); err != nil {
+			if _, err := Curves(in, 41); err != nil {
 				b.Fatal(err)
 			}
 		}

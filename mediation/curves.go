@@ -2,25 +2,16 @@ package mediation
 
 import (
 	"math"
+	"spillway/funnel/fitfolder"
 
 	"spillway/funnel/forward"
 )
-
-// CurvePoint is one point of an upper-funnel channel's response curve on
-// one path: the steady-state weekly incremental outcome (posterior mean and
-// 90% interval) when the channel spends WeeklySpend (raw units) every week.
-type CurvePoint struct {
-	Channel, Path      string // path: direct, via_search or total
-	WeeklySpend        float64
-	Mean, Q05, Q95     float64
-	CurrentWeeklySpend float64 // the channel's mean weekly spend in the data
-}
 
 // Curves returns the response curves of every upper-funnel channel through
 // each path, on a grid of points from zero to twice the channel's largest
 // weekly spend; with constant spend normalised adstock equals the spend, so
 // the curve is each path's gain times H(spend; K, S).
-func Curves(in *Inputs, points int) ([]CurvePoint, error) {
+func Curves(in *Inputs, points int) ([]fitfolder.Curve, error) {
 	sc := in.Data
 	sim, err := forward.New(sc, in.Demand, in.Outcome)
 	if err != nil {
@@ -31,7 +22,7 @@ func Curves(in *Inputs, points int) ([]CurvePoint, error) {
 	for d := range draws {
 		draws[d] = sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
 	}
-	var out []CurvePoint
+	var out []fitfolder.Curve
 	for c, col := range sc.UpperNames {
 		maxSpend, total := 0.0, 0.0
 		for _, v := range sc.RawUpper[c] {
@@ -52,7 +43,7 @@ func Curves(in *Inputs, points int) ([]CurvePoint, error) {
 				x    []float64
 			}{{"direct", dir}, {"via_search", via}, {"total", tot}} {
 				s := Summarise(p.x)
-				out = append(out, CurvePoint{Channel: col, Path: p.name, WeeklySpend: spend, Mean: s.Mean, Q05: s.Q05, Q95: s.Q95, CurrentWeeklySpend: current})
+				out = append(out, fitfolder.Curve{Channel: col, Path: p.name, WeeklySpend: spend, Mean: s.Mean, Q05: s.Q05, Q95: s.Q95, CurrentWeeklySpend: current})
 			}
 		}
 	}

@@ -6,79 +6,16 @@ import (
 	"runtime"
 	"sort"
 	"sync"
-	"time"
 
 	"gonum.org/v1/gonum/mat"
 
 	"spillway/funnel/forward"
 	"spillway/funnel/model"
+	"spillway/funnel/window"
+	"spillway/funnel/stat"
 	"spillway/mediation/linear"
 	"spillway/mediation/ols"
 )
-
-// Window is a set of weeks [From, To] (indices into the data, inclusive).
-type Window struct {
-	Name     string // "all", "2024Q3" or "2024-01-01:2024-03-31"
-	From, To int
-}
-
-// Quarters returns "all" followed by every calendar quarter that has at
-// least one week (by week start date) in weeks.
-func Quarters(weeks []time.Time) []Window {
-	out := []Window{{Name: "all", From: 0, To: len(weeks) - 1}}
-	for i, w := range weeks {
-		q := fmt.Sprintf("%dQ%d", w.Year(), (int(w.Month())-1)/3+1)
-		if last := &out[len(out)-1]; last.Name == q {
-			last.To = i
-		} else {
-			out = append(out, Window{Name: q, From: i, To: i})
-		}
-	}
-	return out
-}
-
-// ParseWindow resolves a window name ("all", "YYYYQn" or
-// "YYYY-MM-DD:YYYY-MM-DD") against the data's weeks.
-func ParseWindow(name string, weeks []time.Time) (Window, error) {
-	for _, w := range Quarters(weeks) {
-		if w.Name == name {
-			return w, nil
-		}
-	}
-	var a, b string
-	if i := indexByte(name, ':'); i > 0 {
-		a, b = name[:i], name[i+1:]
-	} else {
-		return Window{}, fmt.Errorf("window %q: expected all, a quarter in the data such as %s, or FROM:TO dates YYYY-MM-DD:YYYY-MM-DD", name, Quarters(weeks)[1].Name)
-	}
-	from, err1 := time.Parse("2006-01-02", a)
-	to, err2 := time.Parse("2006-01-02", b)
-	if err1 != nil || err2 != nil || to.Before(from) {
-		return Window{}, fmt.Errorf("window %q: expected FROM:TO dates YYYY-MM-DD:YYYY-MM-DD with FROM <= TO", name)
-	}
-	w := Window{Name: name, From: -1, To: -1}
-	for i, wk := range weeks {
-		if !wk.Before(from) && !wk.After(to) {
-			if w.From < 0 {
-				w.From = i
-			}
-			w.To = i
-		}
-	}
-	if w.From < 0 {
-		return Window{}, fmt.Errorf("window %q holds no week of the data (%s to %s)", name, weeks[0].Format("2006-01-02"), weeks[len(weeks)-1].Format("2006-01-02"))
-	}
-	return w, nil
-}
-
-func indexByte(s string, c byte) int {
-	for i := 0; i < len(s); i++ {
-		if s[i] == c {
-			return i
-		}
-	}
-	return -1
-}
 
 // Inputs are what the split needs: the scaled data, the compiled stages, and
 // paired posterior draws (row d of Demand pairs with row d of Outcome).
@@ -109,7 +46,7 @@ type Result struct {
 // Split computes the effects for each window by counterfactual simulation.
 // Work is spread over the draws in parallel; the result does not depend on
 // the number of cores.
-func Split(in *Inputs, windows []Window) (*Result, error) {
+func Split(in *Inputs, windows []window.Window) (*Result, error) {
 	if err := in.DemandDraws.check(in.Demand.Names(), "demand"); err != nil {
 		return nil, err
 	}
@@ -184,6 +121,25 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 	}
 	base := len(baseCols)
 	p := base + ns + nu
+	// The naive stage's priors on the same columns, as normal means and
+	// precisions: the apparent coefficient is what that stage, with those
+	// priors, would find (see naiveProjection).
+	pm, prec := make([]float64, 0, p), make([]float64, 0, p)
+	addPrior := func(pr model.Prior) {
+		m, k := pr.NormalApprox()
+		pm, prec = append(pm, m), append(prec, k)
+	}
+	if !isFixed(in.Outcome.MuPrior) {
+		addPrior(in.Outcome.MuPrior)
+	}
+	for i, r := range in.Outcome.Regressors {
+		if i != qi && !isFixed(r.Prior) {
+			addPrior(r.Prior)
+		}
+	}
+	for _, col := range append(append([]string(nil), sc.SearchNames...), sc.UpperNames...) {
+		addPrior(in.Outcome.Channels[in.Outcome.ChannelIndex(col)].Params[0].Prior)
+	}
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
 	errs := make([]error, workers)
@@ -194,8 +150,10 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 			up := make([]forward.Upper, nu)
 			var cf forward.Upper
 			var cfx []float64
-			X := mat.NewDense(T, p, nil)
-			solver := ols.NewSolver(T, p)
+			X := mat.NewDense(T+p, p, nil)
+			yaug := make([]float64, T+p)
+			theta := make([]float64, p)
+			solver := ols.NewSolver(T+p, p)
 			coef := make([]float64, p)
 			hs := make([]forward.Path, ns)
 			var hn forward.Path
@@ -237,20 +195,41 @@ func Split(in *Inputs, windows []Window) (*Result, error) {
 						X.Set(i, base+ns+c, up[c].Direct.Response[i])
 					}
 				}
-				if _, err := solver.Coef(coef, X, sc.Queries); err != nil {
-					errs[wkr] = fmt.Errorf("mediation: draw %d: regressing queries on the outcome stage's regressors: %w", d+1, err)
+				gamma := dr.Outcome.Gamma()
+				k := 0
+				if !isFixed(in.Outcome.MuPrior) {
+					theta[k] = dr.Outcome.Intercept()
+					k++
+				}
+				for i, r := range in.Outcome.Regressors {
+					if i != qi && !isFixed(r.Prior) {
+						theta[k] = dr.Outcome.Regressor(i)
+						k++
+					}
+				}
+				for _, col := range sc.SearchNames {
+					m, _ := dr.Outcome.Channel(col)
+					theta[k] = m.Coef
+					k++
+				}
+				for _, col := range sc.UpperNames {
+					m, _ := dr.Outcome.Channel(col)
+					theta[k] = m.Coef
+					k++
+				}
+				sy, sq := dr.Outcome.Sigma(), dr.Demand.Sigma()
+				if err := naiveProjection(coef, solver, X, yaug, theta, sc.Queries, gamma, sy*sy+gamma*gamma*sq*sq, pm, prec); err != nil {
+					errs[wkr] = fmt.Errorf("mediation: draw %d: projecting the outcome on the stage's regressors without queries: %w", d+1, err)
 					return
 				}
-				gamma := dr.Outcome.Gamma()
 				for s := 0; s < ns; s++ {
 					m, _ := dr.Outcome.Channel(sc.SearchNames[s])
 					beta := m.Coef
 					sum := hs[s].Sum()
-					dd := coef[base+s]
-					bApp := beta + gamma*dd
+					bApp := coef[base+s]
 					ctl[s][d] = hs[s].Gain * sum
 					app[s][d] = sc.OutcomeScale * bApp * sum
-					shr[s][d] = gamma * dd / bApp
+					shr[s][d] = (bApp - beta) / bApp
 					if hasNaive {
 						naive.Search(&hn, naive.Draw(in.DemandDraws.Rows[d], in.NaiveDraws.Rows[d]), s, sc.Search[s])
 						nai[s][d] = hn.Gain * hn.Sum()
@@ -311,25 +290,7 @@ type Summary struct {
 func Summarise(x []float64) Summary {
 	s := append([]float64(nil), x...)
 	sort.Float64s(s)
-	m := 0.0
-	for _, v := range s {
-		m += v
-	}
-	return Summary{Mean: m / float64(len(s)), Q05: quantile(s, 0.05), Q50: quantile(s, 0.5), Q95: quantile(s, 0.95)}
-}
-
-func quantile(sorted []float64, p float64) float64 {
-	n := len(sorted)
-	if n == 0 {
-		return math.NaN()
-	}
-	h := float64(n-1) * p
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= n {
-		return sorted[n-1]
-	}
-	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
+	return Summary{Mean: stat.Mean(s), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)}
 }
 
 // Sensitivity holds the via-search effect of one upper channel (window all)
@@ -428,3 +389,45 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 }
 
 func isFixed(p model.Prior) bool { return p.Family == model.Fixed }
+
+// naiveProjection writes into coef the coefficients that the outcome stage
+// without its query term would find, at its posterior mean, if the outcome
+// were this draw's expected outcome Xθ + γq:
+//
+//	b = argmin ||Xθ + γq - Xb||² + s2 Σ_k prec_k (b_k - pm_k)²
+//	  = θ + (XᵀX + s2 P)⁻¹ (γ Xᵀq + s2 P (pm - θ)),
+//
+// with X the first T rows of x (the stage's regressors at this draw's
+// transforms), pm and prec the normal approximations of that stage's priors
+// and s2 = σ_y² + γ²σ_q², the noise such a stage would see. With prec = 0 it
+// is the omitted-variable identity b = θ + γd, d the least-squares
+// coefficients of q on X (Wooldridge, Introductory Econometrics, ch. 3). The
+// priors matter only where the data cannot place a column: when paid
+// search's response barely moves (a saturated draw, nearly collinear with
+// the intercept), d alone is unbounded (572 against a typical 0.5 in one
+// draw of a short demo fit, crediting paid search with 71 million
+// conversions) while the stage without queries would fall back on its
+// priors, as this does. x (T+p rows) and yaug are
+// scratch; the solve is least squares on the data stacked over the prior
+// rows, by QR.
+func naiveProjection(coef []float64, solver *ols.Solver, x *mat.Dense, yaug, theta, q []float64, gamma, s2 float64, pm, prec []float64) error {
+	T := len(q)
+	p := len(theta)
+	for i := 0; i < T; i++ {
+		v := gamma * q[i]
+		for k := 0; k < p; k++ {
+			v += x.At(i, k) * theta[k]
+		}
+		yaug[i] = v
+	}
+	for k := 0; k < p; k++ {
+		w := math.Sqrt(s2 * prec[k])
+		for j := 0; j < p; j++ {
+			x.Set(T+k, j, 0)
+		}
+		x.Set(T+k, k, w)
+		yaug[T+k] = w * pm[k]
+	}
+	_, err := solver.Coef(coef, x, yaug)
+	return err
+}

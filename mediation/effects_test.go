@@ -11,6 +11,7 @@ import (
 
 	"spillway/funnel/model"
 	"spillway/funnel/transform"
+	"spillway/funnel/window"
 	"spillway/mediation/ols"
 )
 
@@ -97,7 +98,7 @@ func TestSplitClosedForm(t *testing.T) {
 	sc, st1, st2, v1, v2 := synth(t, 104, 1, model.Options{})
 	in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
 		DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
-	wins := Quarters(sc.Weeks)
+	wins := window.Quarters(sc.Weeks)
 	res, err := Split(in, wins)
 	if err != nil {
 		t.Fatal(err)
@@ -155,79 +156,91 @@ func TestSplitClosedForm(t *testing.T) {
 // predictor, least squares of y~ on stage 2's regressors without q~ would
 // give paid search the coefficient beta + gamma d. The split's apparent
 // effect must equal mean(y) times that refitted coefficient times sum H.
+// TestBorrowedIdentity checks the apparent return of paid search. With
+// flat priors on the outcome stage's coefficients it is the omitted-variable
+// identity: exactly what a least-squares refit without the query term
+// finds (Wooldridge, Introductory Econometrics, ch. 3). With the default
+// priors it is the closed-form posterior mean of that refit under their
+// normal approximations, b = (XᵀX + s2 P)⁻¹(Xᵀŷ + s2 P m), s2 = σ_y² + γ²σ_q²
+// (normal equations here, QR in the code).
 func TestBorrowedIdentity(t *testing.T) {
-	sc, st1, st2, v1, v2 := synth(t, 120, 2, model.Options{})
-	// make the outcome exactly the stage-2 predictor at v2
-	sc.Outcome = st2.Predict(nil, v2)
-	in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
-		DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
-	res, err := Split(in, Quarters(sc.Weeks)[:1])
-	if err != nil {
-		t.Fatal(err)
+	flat := model.Options{Priors: map[string]model.Prior{}}
+	for _, n := range []string{"mu_y", "b_y", "cy[1]", "cy[2]", "dy[1]", "dy[2]", "phi_y[price]", "beta[search]", "delta[video]", "delta[audio]"} {
+		flat.Priors[n] = model.Prior{Family: model.Flat}
 	}
-	T := sc.T
-	X := mat.NewDense(T, 10, nil)
-	hs, _ := st2.Response(nil, st2.ChannelIndex("search"), v2, sc.Search[0])
-	hv, _ := st2.Response(nil, st2.ChannelIndex("video"), v2, sc.Upper[0])
-	ha, _ := st2.Response(nil, st2.ChannelIndex("audio"), v2, sc.Upper[1])
-	y := make([]float64, T)
-	for i := 0; i < T; i++ {
-		X.SetRow(i, []float64{1, sc.Tau[i], sc.Season[0][i], sc.Season[1][i], sc.Season[2][i], sc.Season[3][i], sc.Controls[0][i], hs[i], hv[i], ha[i]})
-		y[i] = sc.Outcome[i] - param(st2, v2, "gamma")*0 // y~ itself, q~ omitted from X
-	}
-	fit, err := ols.Solve(X, y)
-	if err != nil {
-		t.Fatal(err)
-	}
-	sum := 0.0
-	for _, v := range hs {
-		sum += v
-	}
-	want := sc.OutcomeScale * fit.Coef[7] * sum
-	var app, ctl, share float64
-	for _, e := range res.Borrowed {
-		switch e.Path {
-		case "apparent":
-			app = e.Draws[0]
-		case "controlled":
-			ctl = e.Draws[0]
-		case "borrowed_share":
-			share = e.Draws[0]
+	for _, o := range []model.Options{flat, {}} {
+		sc, st1, st2, v1, v2 := synth(t, 120, 2, o)
+		// make the outcome exactly the stage-2 predictor at v2
+		sc.Outcome = st2.Predict(nil, v2)
+		in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
+			DemandDraws: Draws{Names: st1.Names(), Rows: [][]float64{v1}}, OutcomeDraws: Draws{Names: st2.Names(), Rows: [][]float64{v2}}}
+		res, err := Split(in, window.Quarters(sc.Weeks)[:1])
+		if err != nil {
+			t.Fatal(err)
 		}
-	}
-	if !scalar.EqualWithinAbsOrRel(app, want, 1e-9, 1e-9) {
-		t.Errorf("apparent: got %v, want %v (refit without the query term)", app, want)
-	}
-	if wantCtl := sc.OutcomeScale * param(st2, v2, "beta[search]") * sum; !scalar.EqualWithinAbsOrRel(ctl, wantCtl, 1e-12, 1e-12) {
-		t.Errorf("controlled: got %v, want %v", ctl, wantCtl)
-	}
-	if !scalar.EqualWithinAbsOrRel(share, (app-ctl)/app, 1e-9, 1e-9) {
-		t.Errorf("borrowed share: got %v, want %v", share, (app-ctl)/app)
-	}
-}
-
-// TestQuarters checks calendar quarter windows by week start date.
-func TestQuarters(t *testing.T) {
-	var weeks []time.Time
-	start := time.Date(2023, 12, 25, 0, 0, 0, 0, time.UTC) // a Monday in 2023Q4
-	for i := 0; i < 20; i++ {
-		weeks = append(weeks, start.AddDate(0, 0, 7*i))
-	}
-	w := Quarters(weeks)
-	want := []Window{{"all", 0, 19}, {"2023Q4", 0, 0}, {"2024Q1", 1, 13}, {"2024Q2", 14, 19}}
-	if len(w) != len(want) {
-		t.Fatalf("got %v, want %v", w, want)
-	}
-	for i := range w {
-		if w[i] != want[i] {
-			t.Errorf("window %d: got %v, want %v", i, w[i], want[i])
+		T := sc.T
+		X := mat.NewDense(T, 10, nil)
+		hs, _ := st2.Response(nil, st2.ChannelIndex("search"), v2, sc.Search[0])
+		hv, _ := st2.Response(nil, st2.ChannelIndex("video"), v2, sc.Upper[0])
+		ha, _ := st2.Response(nil, st2.ChannelIndex("audio"), v2, sc.Upper[1])
+		y := make([]float64, T)
+		for i := 0; i < T; i++ {
+			X.SetRow(i, []float64{1, sc.Tau[i], sc.Season[0][i], sc.Season[1][i], sc.Season[2][i], sc.Season[3][i], sc.Controls[0][i], hs[i], hv[i], ha[i]})
+			y[i] = sc.Outcome[i] // y~ itself, q~ omitted from X
 		}
-	}
-	r, err := ParseWindow("2024-02-01:2024-02-29", weeks)
-	if err != nil || r.From != 6 || r.To != 9 {
-		t.Errorf("custom window: got %v %v, want weeks 6..9", r, err)
-	}
-	if _, err := ParseWindow("2025Q1", weeks); err == nil {
-		t.Error("a window outside the data must be an error")
+		var bs float64
+		if o.Priors != nil {
+			fit, err := ols.Solve(X, y)
+			if err != nil {
+				t.Fatal(err)
+			}
+			bs = fit.Coef[7]
+		} else {
+			// default priors: N(0.5, 0.5) intercept, N(0, 0.5) trend,
+			// N(0, 0.25) seasons, N(0, 0.5) control, HalfNormal(0.5) -> N(0, 0.5)
+			// on the channel coefficients
+			m := []float64{0.5, 0, 0, 0, 0, 0, 0, 0, 0, 0}
+			sd := []float64{0.5, 0.5, 0.25, 0.25, 0.25, 0.25, 0.5, 0.5, 0.5, 0.5}
+			sy, sq, g := param(st2, v2, "sigma_y"), param(st1, v1, "sigma_q"), param(st2, v2, "gamma")
+			s2 := sy*sy + g*g*sq*sq
+			var a mat.Dense
+			a.Mul(X.T(), X)
+			rhs := mat.NewVecDense(10, nil)
+			rhs.MulVec(X.T(), mat.NewVecDense(T, y))
+			for k := range m {
+				a.Set(k, k, a.At(k, k)+s2/(sd[k]*sd[k]))
+				rhs.SetVec(k, rhs.AtVec(k)+s2/(sd[k]*sd[k])*m[k])
+			}
+			var b mat.VecDense
+			if err := b.SolveVec(&a, rhs); err != nil {
+				t.Fatal(err)
+			}
+			bs = b.AtVec(7)
+		}
+		sum := 0.0
+		for _, v := range hs {
+			sum += v
+		}
+		want := sc.OutcomeScale * bs * sum
+		var app, ctl, share float64
+		for _, e := range res.Borrowed {
+			switch e.Path {
+			case "apparent":
+				app = e.Draws[0]
+			case "controlled":
+				ctl = e.Draws[0]
+			case "borrowed_share":
+				share = e.Draws[0]
+			}
+		}
+		if !scalar.EqualWithinAbsOrRel(app, want, 1e-9, 1e-9) {
+			t.Errorf("flat priors %v: apparent: got %v, want %v (refit without the query term)", o.Priors != nil, app, want)
+		}
+		if wantCtl := sc.OutcomeScale * param(st2, v2, "beta[search]") * sum; !scalar.EqualWithinAbsOrRel(ctl, wantCtl, 1e-12, 1e-12) {
+			t.Errorf("controlled: got %v, want %v", ctl, wantCtl)
+		}
+		if !scalar.EqualWithinAbsOrRel(share, (app-ctl)/app, 1e-9, 1e-9) {
+			t.Errorf("borrowed share: got %v, want %v", share, (app-ctl)/app)
+		}
 	}
 }

@@ -3,19 +3,10 @@ package mediation
 import (
 	"fmt"
 	"math/rand/v2"
-	"time"
+	"spillway/funnel/fitfolder"
 
 	"spillway/funnel/forward"
 )
-
-// FittedWeek is one week of one stage's fit against the data, raw units.
-type FittedWeek struct {
-	Stage    string // "demand" (queries) or "outcome"
-	Week     time.Time
-	Actual   float64
-	Mean     float64 // posterior mean of the expected value
-	Q05, Q95 float64 // 90% posterior predictive band
-}
 
 // Fitted returns each stage's fit week by week, the demand stage's weeks
 // first: the data's spend and observed queries run through every paired
@@ -23,7 +14,7 @@ type FittedWeek struct {
 // posterior predictive (each draw's expected value plus its own noise). The
 // noise of stage k comes from the PCG stream (seed, k), so the result is
 // reproducible.
-func Fitted(in *Inputs, seed uint64) ([]FittedWeek, error) {
+func Fitted(in *Inputs, seed uint64) ([]fitfolder.Fitted, error) {
 	sc := in.Data
 	sim, err := forward.New(sc, in.Demand, in.Outcome)
 	if err != nil {
@@ -65,11 +56,11 @@ func Fitted(in *Inputs, seed uint64) ([]FittedWeek, error) {
 			}
 		}
 	}
-	var out []FittedWeek
+	var out []fitfolder.Fitted
 	for _, st := range stages {
 		for t, wk := range sc.Weeks {
 			s := Summarise(st.pred[t])
-			out = append(out, FittedWeek{Stage: st.name, Week: wk, Actual: st.y[t] * st.scale, Mean: st.mean[t] * st.scale, Q05: s.Q05, Q95: s.Q95})
+			out = append(out, fitfolder.Fitted{Stage: st.name, Week: wk, Actual: st.y[t] * st.scale, Mean: st.mean[t] * st.scale, Q05: s.Q05, Q95: s.Q95})
 		}
 	}
 	return out, nil

@@ -1,81 +1,64 @@
 package mediation
 
 import (
-	"encoding/csv"
 	"fmt"
 	"io"
 	"math"
-	"strconv"
 	"time"
+
+	"spillway/funnel/fitfolder"
 )
 
-func ff(v float64) string {
-	if math.IsNaN(v) {
-		return ""
-	}
-	return strconv.FormatFloat(v, 'g', -1, 64)
-}
-
-func writeAll(w io.Writer, rows [][]string) error {
-	cw := csv.NewWriter(w)
-	if err := cw.WriteAll(rows); err != nil {
-		return err
-	}
-	return cw.Error()
-}
-
-// WriteEffects writes effects.csv: channel,path,window,mean,q05,q50,q95,per_unit_spend.
-// per_unit_spend is the path's mean effect per unit of the channel's raw
-// spend in the window (empty for mediated_share, a fraction).
-func WriteEffects(w io.Writer, r *Result) error {
-	rows := [][]string{{"channel", "path", "window", "mean", "q05", "q50", "q95", "per_unit_spend"}}
+// EffectsTable returns effects.csv: per effect its mean, 5%, 50% and 95%
+// quantiles, and the mean per unit of the channel's raw spend in the
+// window (NaN for mediated_share, a fraction, and for a window without
+// spend).
+func EffectsTable(r *Result) []fitfolder.Effect {
+	var rows []fitfolder.Effect
 	for _, e := range r.Effects {
 		s := Summarise(e.Draws)
 		pu := math.NaN()
 		if e.Path != "mediated_share" && e.Spend > 0 {
 			pu = s.Mean / e.Spend
 		}
-		rows = append(rows, []string{e.Channel, e.Path, e.Window, ff(s.Mean), ff(s.Q05), ff(s.Q50), ff(s.Q95), ff(pu)})
+		rows = append(rows, fitfolder.Effect{Channel: e.Channel, Path: e.Path, Window: e.Window,
+			Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95, PerUnitSpend: pu})
 	}
-	return writeAll(w, rows)
+	return rows
 }
 
-// WriteEffectDraws writes effect_draws.csv: channel,path,window,.draw,value
-// for the direct, via_search and total paths, for paired-draw comparisons.
-func WriteEffectDraws(w io.Writer, r *Result) error {
-	cw := csv.NewWriter(w)
-	if err := cw.Write([]string{"channel", "path", "window", ".draw", "value"}); err != nil {
-		return err
-	}
+// EffectDrawsTable returns effect_draws.csv: the draws of the direct,
+// via_search and total effects, for paired-draw comparisons.
+func EffectDrawsTable(r *Result) map[fitfolder.DrawKey]fitfolder.DrawSeries {
+	out := map[fitfolder.DrawKey]fitfolder.DrawSeries{}
 	for _, e := range r.Effects {
 		if e.Path == "mediated_share" {
 			continue
 		}
-		for d, v := range e.Draws {
-			if err := cw.Write([]string{e.Channel, e.Path, e.Window, strconv.Itoa(d + 1), ff(v)}); err != nil {
-				return err
-			}
+		s := fitfolder.DrawSeries{Draw: make([]int, len(e.Draws)), Value: e.Draws}
+		for d := range e.Draws {
+			s.Draw[d] = d + 1
 		}
+		out[fitfolder.DrawKey{Channel: e.Channel, Path: e.Path, Window: e.Window}] = s
 	}
-	cw.Flush()
-	return cw.Error()
+	return out
 }
 
-// WriteBorrowed writes borrowed.csv: channel,measure,mean,q05,q50,q95.
-func WriteBorrowed(w io.Writer, r *Result) error {
-	rows := [][]string{{"channel", "measure", "mean", "q05", "q50", "q95"}}
+// BorrowedTable returns borrowed.csv.
+func BorrowedTable(r *Result) []fitfolder.Borrowed {
+	var rows []fitfolder.Borrowed
 	for _, e := range r.Borrowed {
 		s := Summarise(e.Draws)
-		rows = append(rows, []string{e.Channel, e.Path, ff(s.Mean), ff(s.Q05), ff(s.Q50), ff(s.Q95)})
+		rows = append(rows, fitfolder.Borrowed{Channel: e.Channel, Measure: e.Path, Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95})
 	}
-	return writeAll(w, rows)
+	return rows
 }
 
-// WriteWeekly writes weekly.csv: week,channel,path,mean,q05,q95, the weekly
-// via-search and direct contributions of each upper channel (outcome units,
-// against zero spend in every week).
-func WriteWeekly(w io.Writer, r *Result, weeks []time.Time, channels []string) error {
-	rows := [][]string{{"week", "channel", "path", "mean", "q05", "q95"}}
+// WeeklyTable returns weekly.csv: the weekly via-search and direct
+// contributions of each upper channel (outcome units, against zero spend in
+// every week).
+func WeeklyTable(r *Result, weeks []time.Time, channels []string) []fitfolder.Weekly {
+	var rows []fitfolder.Weekly
 	col := make([]float64, 0, 4096)
 	for t, wk := range weeks {
 		for c, ch := range channels {
@@ -85,33 +68,33 @@ func WriteWeekly(w io.Writer, r *Result, weeks []time.Time, channels []string) e
 					col = append(col, d[t])
 				}
 				s := Summarise(col)
-				rows = append(rows, []string{wk.Format("2006-01-02"), ch, path, ff(s.Mean), ff(s.Q05), ff(s.Q95)})
+				rows = append(rows, fitfolder.Weekly{Week: wk, Channel: ch, Path: path, Mean: s.Mean, Q05: s.Q05, Q95: s.Q95})
 			}
 		}
 	}
-	return writeAll(w, rows)
+	return rows
 }
 
-// WriteSensitivity writes sensitivity.csv:
-// channel,rho,via_search_mean,via_search_q05,via_search_q95.
-func WriteSensitivity(w io.Writer, ss []Sensitivity) error {
-	rows := [][]string{{"channel", "rho", "via_search_mean", "via_search_q05", "via_search_q95"}}
+// SensitivityTable returns sensitivity.csv: the via-search effect at each
+// rho.
+func SensitivityTable(ss []Sensitivity) []fitfolder.Sensitivity {
+	var rows []fitfolder.Sensitivity
 	for _, s := range ss {
 		for i, rho := range s.Rho {
 			m := Summarise(s.Draws[i])
-			rows = append(rows, []string{s.Channel, strconv.FormatFloat(rho, 'f', 1, 64), ff(m.Mean), ff(m.Q05), ff(m.Q95)})
+			rows = append(rows, fitfolder.Sensitivity{Channel: s.Channel, Rho: rho, Mean: m.Mean, Q05: m.Q05, Q95: m.Q95})
 		}
 	}
-	return writeAll(w, rows)
+	return rows
 }
 
-// WriteBreakeven writes breakeven.csv: channel,rho_zero.
-func WriteBreakeven(w io.Writer, ss []Sensitivity) error {
-	rows := [][]string{{"channel", "rho_zero"}}
+// BreakevenTable returns breakeven.csv.
+func BreakevenTable(ss []Sensitivity) []fitfolder.Breakeven {
+	var rows []fitfolder.Breakeven
 	for _, s := range ss {
-		rows = append(rows, []string{s.Channel, ff(s.Zero)})
+		rows = append(rows, fitfolder.Breakeven{Channel: s.Channel, RhoZero: s.Zero})
 	}
-	return writeAll(w, rows)
+	return rows
 }
 
 // RhoGrid returns -0.9, -0.8, ..., 0.9.
@@ -121,40 +104,6 @@ func RhoGrid() []float64 {
 		out[i] = float64(i-9) / 10
 	}
 	return out
-}
-
-// WriteFitted writes fitted.csv: stage,week,actual,mean,q05,q95 for the
-// demand (queries) and outcome stages in raw units, with the 90% posterior
-// predictive band (each draw's linear predictor plus its own noise). The
-// noise is drawn from a PCG stream seeded by seed, so output is
-// reproducible.
-func WriteFitted(w io.Writer, in *Inputs, seed uint64) error {
-	weeks, err := Fitted(in, seed)
-	if err != nil {
-		return err
-	}
-	rows := [][]string{{"stage", "week", "actual", "mean", "q05", "q95"}}
-	for _, f := range weeks {
-		rows = append(rows, []string{f.Stage, f.Week.Format("2006-01-02"), ff(f.Actual), ff(f.Mean), ff(f.Q05), ff(f.Q95)})
-	}
-	return writeAll(w, rows)
-}
-
-// WriteCurves writes curves.csv:
-// channel,path,weekly_spend,mean,q05,q95,current_weekly_spend. A curve is the
-// steady-state weekly incremental outcome when the channel spends
-// weekly_spend every week (normalised adstock then equals the spend), through
-// each path, on a grid from zero to twice the channel's largest weekly spend.
-func WriteCurves(w io.Writer, in *Inputs, points int) error {
-	curves, err := Curves(in, points)
-	if err != nil {
-		return err
-	}
-	rows := [][]string{{"channel", "path", "weekly_spend", "mean", "q05", "q95", "current_weekly_spend"}}
-	for _, p := range curves {
-		rows = append(rows, []string{p.Channel, p.Path, ff(p.WeeklySpend), ff(p.Mean), ff(p.Q05), ff(p.Q95), ff(p.CurrentWeeklySpend)})
-	}
-	return writeAll(w, rows)
 }
 
 // Table writes the human-readable split for one window: per upper channel

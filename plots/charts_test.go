@@ -13,14 +13,16 @@ import (
 	"sync"
 	"testing"
 
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/fitfolder/fitfoldertest"
+	"spillway/funnel/stat"
+	"spillway/funnel/window"
 	"spillway/plots"
-	"spillway/plots/fitdir"
-	"spillway/plots/fitdir/fitdirtest"
 )
 
 type fixture struct {
-	fx *fitdirtest.Fixture
-	f  *fitdir.Fit
+	fx *fitfoldertest.Fixture
+	f  *fitfolder.Fit
 }
 
 var (
@@ -30,7 +32,7 @@ var (
 
 // load returns the trustworthy (bad=false) or untrustworthy fixture, built
 // once per test binary.
-func load(t *testing.T, bad bool) (*fitdirtest.Fixture, *fitdir.Fit) {
+func load(t *testing.T, bad bool) (*fitfoldertest.Fixture, *fitfolder.Fit) {
 	t.Helper()
 	fixturesMu.Lock()
 	defer fixturesMu.Unlock()
@@ -42,11 +44,11 @@ func load(t *testing.T, bad bool) (*fitdirtest.Fixture, *fitdir.Fit) {
 		t.Fatal(err)
 	}
 	tmpDirs = append(tmpDirs, dir)
-	fx, err := fitdirtest.Write(filepath.Join(dir, "fit"), fitdirtest.Options{Untrustworthy: bad})
+	fx, err := fitfoldertest.Write(filepath.Join(dir, "fit"), fitfoldertest.Options{Untrustworthy: bad})
 	if err != nil {
 		t.Fatal(err)
 	}
-	f, err := fitdir.Load(fx.Dir)
+	f, err := fitfolder.Load(fx.Dir)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -153,7 +155,7 @@ func pixelSpread(img image.Image) (sd, inked float64) {
 	return math.Sqrt(s2/n - m*m), dark / n
 }
 
-func build(t *testing.T, f *fitdir.Fit, window, name string) *plots.Figure {
+func build(t *testing.T, f *fitfolder.Fit, window, name string) *plots.Figure {
 	t.Helper()
 	fig, err := plots.Chart(f, window, name)
 	if err != nil {
@@ -171,7 +173,7 @@ func find(t *testing.T, fig *plots.Figure, panel, name string) plots.Series {
 	return s
 }
 
-func fxEffect(t *testing.T, fx *fitdirtest.Fixture, ch, path, w string) fitdir.Effect {
+func fxEffect(t *testing.T, fx *fitfoldertest.Fixture, ch, path, w string) fitfolder.Effect {
 	t.Helper()
 	for _, e := range fx.Effects {
 		if e.Channel == ch && e.Path == path && e.Window == w {
@@ -179,7 +181,7 @@ func fxEffect(t *testing.T, fx *fitdirtest.Fixture, ch, path, w string) fitdir.E
 		}
 	}
 	t.Fatalf("fixture has no effect %s %s %s", ch, path, w)
-	return fitdir.Effect{}
+	return fitfolder.Effect{}
 }
 
 // TestSplitNumbers checks that the split chart draws the window's and the
@@ -188,7 +190,7 @@ func TestSplitNumbers(t *testing.T) {
 	fx, f := load(t, false)
 	fig := build(t, f, "", "split")
 	for _, w := range []string{"2025Q3", "all"} {
-		for _, ch := range fitdirtest.Upper {
+		for _, ch := range fitfoldertest.Upper {
 			for _, path := range []string{"direct", "via_search", "total", "mediated_share"} {
 				s := find(t, fig, w, ch+"/"+path)
 				e := fxEffect(t, fx, ch, path, w)
@@ -198,7 +200,7 @@ func TestSplitNumbers(t *testing.T) {
 			}
 		}
 	}
-	for _, ch := range fitdirtest.Upper {
+	for _, ch := range fitfoldertest.Upper {
 		share := fxEffect(t, fx, ch, "mediated_share", "2025Q3").Mean
 		want := plots.Percent(share) + " of " + plots.Channel(ch) + "'s"
 		if !strings.Contains(fig.Title, want) || !strings.HasPrefix(fig.Title, "In 2025Q3") {
@@ -213,9 +215,9 @@ func TestSplitNumbers(t *testing.T) {
 		}
 	}
 	// A custom window from effects.csv works too.
-	cust := build(t, f, fitdirtest.CustomWindow, "split")
-	s := find(t, cust, fitdirtest.CustomWindow, "video_spend/total")
-	if e := fxEffect(t, fx, "video_spend", "total", fitdirtest.CustomWindow); s.Y[0] != e.Mean {
+	cust := build(t, f, fitfoldertest.CustomWindow, "split")
+	s := find(t, cust, fitfoldertest.CustomWindow, "video_spend/total")
+	if e := fxEffect(t, fx, "video_spend", "total", fitfoldertest.CustomWindow); s.Y[0] != e.Mean {
 		t.Errorf("custom window total: got %v, want %v", s.Y[0], e.Mean)
 	}
 }
@@ -223,7 +225,7 @@ func TestSplitNumbers(t *testing.T) {
 func TestUnknownWindow(t *testing.T) {
 	_, f := load(t, false)
 	_, err := plots.Build(f, "2019Q1")
-	var we *fitdir.WindowError
+	var we *fitfolder.WindowError
 	if !errors.As(err, &we) || !slices.Contains(we.Available, "2025Q3") {
 		t.Fatalf("got %v, want a WindowError listing the windows", err)
 	}
@@ -249,10 +251,10 @@ func TestBorrowedNumbers(t *testing.T) {
 func TestCurveNumbers(t *testing.T) {
 	fx, f := load(t, false)
 	fig := build(t, f, "", "curves")
-	for _, ch := range fitdirtest.Upper {
+	for _, ch := range fitfoldertest.Upper {
 		for _, path := range []string{"direct", "via_search", "total"} {
 			s := find(t, fig, ch, path)
-			var want []fitdir.Curve
+			var want []fitfolder.Curve
 			for _, c := range fx.Curves {
 				if c.Channel == ch && c.Path == path {
 					want = append(want, c)
@@ -268,7 +270,7 @@ func TestCurveNumbers(t *testing.T) {
 			}
 		}
 		cur := find(t, fig, ch, "current").X[0]
-		if want := mean(fx.Columns[ch]); math.Abs(cur-want) > 1e-9*want {
+		if want := stat.Mean(fx.Columns[ch]); math.Abs(cur-want) > 1e-9*want {
 			t.Errorf("%s current spend: got %v, want mean weekly spend %v", ch, cur, want)
 		}
 		// The fixture's curves are closed-form saturating curves on a grid
@@ -290,10 +292,10 @@ func TestCurveNumbers(t *testing.T) {
 func TestWeeklyNumbers(t *testing.T) {
 	fx, f := load(t, false)
 	fig := build(t, f, "", "weekly")
-	w, _ := fitdir.ParseWindow("2025Q3")
-	for _, ch := range fitdirtest.Upper {
+	w, _ := window.Parse("2025Q3")
+	for _, ch := range fitfoldertest.Upper {
 		s := find(t, fig, ch, "via_search")
-		var rows []fitdir.Weekly
+		var rows []fitfolder.Weekly
 		for _, r := range fx.Weekly {
 			if r.Channel == ch && r.Path == "via_search" {
 				rows = append(rows, r)
@@ -432,20 +434,12 @@ func TestWriteFileAtomic(t *testing.T) {
 	}
 }
 
-func mean(v []float64) float64 {
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
-}
-
 func BenchmarkRenderAll(b *testing.B) {
 	dir := b.TempDir()
-	if _, err := fitdirtest.Write(filepath.Join(dir, "fit"), fitdirtest.Options{}); err != nil {
+	if _, err := fitfoldertest.Write(filepath.Join(dir, "fit"), fitfoldertest.Options{}); err != nil {
 		b.Fatal(err)
 	}
-	f, err := fitdir.Load(filepath.Join(dir, "fit"))
+	f, err := fitfolder.Load(filepath.Join(dir, "fit"))
 	if err != nil {
 		b.Fatal(err)
 	}

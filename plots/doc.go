@@ -1,5 +1,5 @@
 // Package plots draws spillway's review charts from a fit folder read by
-// package fitdir: one 1600×900 px PNG per chart (a 16:9 slide at 96 dpi),
+// package fitfolder: one 1600×900 px PNG per chart (a 16:9 slide at 96 dpi),
 // with a title that states the finding in plain words, a legend row, large
 // type (titles 30 pt, ticks 19 pt) and a caption naming the data window and
 // the interval level.
@@ -9,6 +9,11 @@
 // renders a Figure; Render and WriteCharts render every chart of Names.
 // WriteCharts and WriteFileAtomic write through a temporary file in the
 // target folder and a rename, so an error leaves no half-written file.
+//
+// Each chart is one file named after it (split.go, borrowed.go, curves.go,
+// weekly.go, fit.go, sensitivity.go, diagnostics.go); review.go holds what
+// they share: the list of charts, the window under review and its wording.
+// figure.go lays a Figure out on the page.
 //
 // The palette is this package's own: blue for direct effects, amber for
 // effects through branded search, near-black for totals and actuals, grey
@@ -20,5 +25,5 @@
 // Number, Percent, About and the other formatters are shared with the
 // report so that both round the same way. The plotters and tick markers
 // the panels are drawn with live in package marks, which the validation
-// chart (spillway/funnel/validate/chart) uses too.
+// chart (spillway/plots/validation) uses too.
 package plots // import "spillway/plots"

@@ -5,12 +5,12 @@ import (
 	"os"
 	"path/filepath"
 
-	"spillway/plots/fitdir"
+	"spillway/funnel/fitfolder"
 )
 
 // Render builds every chart for the window and encodes each as PNG. It
 // returns the PNGs by chart name (the keys are Names). Nothing is written.
-func Render(f *fitdir.Fit, window string) (map[string][]byte, error) {
+func Render(f *fitfolder.Fit, window string) (map[string][]byte, error) {
 	figs, err := Build(f, window)
 	if err != nil {
 		return nil, err
@@ -32,7 +32,7 @@ func Render(f *fitdir.Fit, window string) (map[string][]byte, error) {
 // in outDir and renamed into place, so a failure leaves no partial PNG: a
 // chart file is either the old one or the new one. It returns the paths
 // written, in the order of Names.
-func WriteCharts(f *fitdir.Fit, window string, outDir string) ([]string, error) {
+func WriteCharts(f *fitfolder.Fit, window string, outDir string) ([]string, error) {
 	pngs, err := Render(f, window)
 	if err != nil {
 		return nil, err

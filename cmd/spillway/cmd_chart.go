@@ -11,8 +11,9 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/window"
 	"spillway/plots"
-	"spillway/plots/fitdir"
 )
 
 // reviewOptions are the flags chart and report share.
@@ -34,29 +35,29 @@ func (o *reviewOptions) addFlags(fs *pflag.FlagSet, outHelp string) {
 // loadReview checks the options and reads the fit folder and the window.
 // A missing or unreadable folder or an unknown window is a usage error; a
 // broken file in the folder is bad data (both exit 2).
-func (o *reviewOptions) loadReview(args []string) (*fitdir.Fit, fitdir.Window, error) {
+func (o *reviewOptions) loadReview(args []string) (*fitfolder.Fit, window.Window, error) {
 	if err := noArgs(args); err != nil {
-		return nil, fitdir.Window{}, err
+		return nil, window.Window{}, err
 	}
 	if o.fit == "" {
-		return nil, fitdir.Window{}, usagef("no fit folder: name it with --fit FOLDER")
+		return nil, window.Window{}, usagef("no fit folder: name it with --fit FOLDER")
 	}
 	if st, err := os.Stat(o.fit); err != nil || !st.IsDir() {
-		return nil, fitdir.Window{}, usagef("fit folder %s does not exist or is not a folder", o.fit)
+		return nil, window.Window{}, usagef("fit folder %s does not exist or is not a folder", o.fit)
 	}
-	f, err := fitdir.Load(o.fit)
+	f, err := fitfolder.Load(o.fit)
 	if err != nil {
-		return nil, fitdir.Window{}, badData(err)
+		return nil, window.Window{}, badData(err)
 	}
 	w, err := f.Window(o.window)
 	if err != nil {
-		return nil, fitdir.Window{}, usagef("--window: %v", err)
+		return nil, window.Window{}, usagef("--window: %v", err)
 	}
 	return f, w, nil
 }
 
 // windowNote tells on stderr which window a review uses when none was asked.
-func (o *reviewOptions) windowNote(stderr io.Writer, cmd string, w fitdir.Window) {
+func (o *reviewOptions) windowNote(stderr io.Writer, cmd string, w window.Window) {
 	if o.window == "" {
 		fmt.Fprintf(stderr, "spillway %s: window %s (the last full quarter; choose another with --window)\n", cmd, w.Name)
 	}
@@ -68,11 +69,12 @@ func reviewOutputExists(path string) bool {
 	return !errors.Is(err, fs.ErrNotExist)
 }
 
-func init() {
+// newChartCommand builds spillway chart.
+func newChartCommand() *command {
 	var opts reviewOptions
-	fs := pflag.NewFlagSet("chart", pflag.ContinueOnError)
+	fs := newFlagSet("chart")
 	opts.addFlags(fs, "the `FOLDER` for the PNGs (default FIT/charts)")
-	register(&command{
+	return &command{
 		name:  "chart",
 		usage: "chart --fit FOLDER [--window WINDOW] [flags]",
 		short: "draw the review charts as PNGs",
@@ -100,12 +102,11 @@ EXAMPLE
   spillway chart --fit fit1 --window 2025Q2
 
 ` + exitStatusHelp,
-		order: 60,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			return runChart(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runChart renders every chart and writes them at once.

@@ -10,8 +10,8 @@ import (
 	"strings"
 	"testing"
 
+	"spillway/funnel/fitfolder/fitfoldertest"
 	"spillway/plots"
-	"spillway/plots/fitdir/fitdirtest"
 )
 
 // reviewRun runs spillway with args and returns the exit status and outputs.
@@ -22,13 +22,13 @@ func reviewRun(ctx context.Context, args ...string) (code int, stdout, stderr st
 }
 
 // reviewFit writes a fixture fit folder (as fit and split leave it).
-func reviewFit(t *testing.T, o fitdirtest.Options) string {
+func reviewFit(t *testing.T, o fitfoldertest.Options) string {
 	t.Helper()
 	if o.Draws == 0 {
 		o.Draws = 100
 	}
 	dir := filepath.Join(t.TempDir(), "fit1")
-	if _, err := fitdirtest.Write(dir, o); err != nil {
+	if _, err := fitfoldertest.Write(dir, o); err != nil {
 		t.Fatal(err)
 	}
 	return dir
@@ -50,7 +50,7 @@ func listDir(t *testing.T, dir string) []string {
 }
 
 func TestChartCommand(t *testing.T) {
-	dir := reviewFit(t, fitdirtest.Options{})
+	dir := reviewFit(t, fitfoldertest.Options{})
 	before := listDir(t, dir)
 	code, out, errs := reviewRun(context.Background(), "chart", "--fit", dir)
 	if code != 0 {
@@ -117,8 +117,8 @@ func TestChartCommand(t *testing.T) {
 }
 
 func TestChartErrors(t *testing.T) {
-	dir := reviewFit(t, fitdirtest.Options{Draws: 20})
-	broken := reviewFit(t, fitdirtest.Options{Draws: 20})
+	dir := reviewFit(t, fitfoldertest.Options{Draws: 20})
+	broken := reviewFit(t, fitfoldertest.Options{Draws: 20})
 	os.Remove(filepath.Join(broken, "curves.csv"))
 	for _, c := range []struct {
 		args []string
@@ -126,7 +126,7 @@ func TestChartErrors(t *testing.T) {
 	}{
 		{[]string{"chart"}, []string{"no fit folder", "--fit"}},
 		{[]string{"chart", "--fit", filepath.Join(dir, "nope")}, []string{"does not exist"}},
-		{[]string{"chart", "--fit", dir, "--window", "2019Q1"}, []string{`window "2019Q1" is not in effects.csv`, "available windows: all, 2023Q1", "2025Q4", fitdirtest.CustomWindow}},
+		{[]string{"chart", "--fit", dir, "--window", "2019Q1"}, []string{`window "2019Q1" is not in effects.csv`, "available windows: all, 2023Q1", "2025Q4", fitfoldertest.CustomWindow}},
 		{[]string{"chart", "--fit", dir, "--window", "last"}, []string{"not all, a quarter", "available windows"}},
 		{[]string{"chart", "--fit", broken}, []string{"curves.csv", "missing", "spillway split"}},
 		{[]string{"chart", "--fit", dir, "extra"}, []string{"unexpected argument"}},

@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -11,6 +12,7 @@ import (
 	"golang.org/x/term"
 
 	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/progress"
 	"spillway/funnel/model"
@@ -71,13 +73,38 @@ func (s *samplingFlags) validate() error {
 	return nil
 }
 
-func init() {
-	var roles roleFlags
-	var opts samplingFlags
-	fs := pflag.NewFlagSet("fit", pflag.ContinueOnError)
-	roles.addFlags(fs)
+// modelOptions turns --linear and --priors into model options, checked
+// against the data before any sampling: an unknown --linear column is a
+// usage error, a bad priors file bad data.
+func modelOptions(sc *model.Scaled, s *samplingFlags) (model.Options, error) {
+	o, err := pipeline.Choices{Linear: s.linear, Priors: s.priors}.Options(sc)
+	var le *pipeline.LinearError
+	switch {
+	case errors.As(err, &le):
+		return o, usagef("--linear %v", err)
+	case err != nil:
+		return o, badData(err)
+	}
+	return o, nil
+}
+
+// fitOptions are the flags of spillway fit.
+type fitOptions struct {
+	roles    roleFlags
+	sampling samplingFlags
+}
+
+func (o *fitOptions) addFlags(fs *pflag.FlagSet) {
+	o.roles.addFlags(fs)
+	o.sampling.addFlags(fs)
+}
+
+// newFitCommand builds spillway fit.
+func newFitCommand() *command {
+	var opts fitOptions
+	fs := newFlagSet("fit")
 	opts.addFlags(fs)
-	register(&command{
+	return &command{
 		name:  "fit",
 		usage: "fit --data FILE (roles) --out FOLDER [flags]",
 		short: "fit the demand, outcome and naive stages",
@@ -96,30 +123,40 @@ EXAMPLE
     --queries brand_queries --outcome orders --controls price --out fit1
 
 ` + exitStatusHelp,
-		order: 40,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			if err := noArgs(args); err != nil {
-				return err
-			}
-			od, err := runFit(ctx, &roles, &opts, "", stdout, stderr)
-			if err != nil {
-				return err
-			}
-			defer od.Abort()
-			if err := od.Commit(); err != nil {
-				return err
-			}
-			fmt.Fprintf(stdout, "fit written to %s\n", od.Final())
-			return nil
+			return runFitCommand(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
 }
 
-// runFit fits and writes the fit folder into a temporary output folder,
-// which the caller commits (after adding more, as run does) or aborts. With
-// demo set, the data are that built-in scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (od *outDir, err error) {
+// runFitCommand fits the data and commits the fit folder.
+func runFitCommand(ctx context.Context, o *fitOptions, args []string, stdout, stderr io.Writer) error {
+	if err := noArgs(args); err != nil {
+		return err
+	}
+	od, err := runFit(ctx, &o.roles, &o.sampling, "", stdout, stderr)
+	if err != nil {
+		return err
+	}
+	defer od.Abort()
+	if err := od.Commit(); err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "fit written to %s\n", od.Final())
+	return nil
+}
+
+// fitRun is a fit written into a temporary output folder, which the caller
+// commits (after adding more, as run does) or aborts, and the fit in memory.
+type fitRun struct {
+	*outDir
+	fit *fitFolder
+}
+
+// runFit fits and writes the fit folder into a temporary output folder.
+// With demo set, the data are that built-in scenario and roles are ignored.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
 		return nil, err
 	}
@@ -132,7 +169,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			out.Abort()
 		}
 	}()
-	od = out
+	od := out
 	var ds *data.Dataset
 	if demo != "" {
 		if ds, err = demoData(demo); err != nil {
@@ -147,32 +184,18 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if len(ds.Regions) > 1 {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
 	}
-	cols := map[string]bool{}
-	for _, c := range append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...) {
-		cols[c] = true
-	}
-	o := model.Options{Linear: map[string]bool{}}
-	for _, c := range opts.linear {
-		if !cols[c] {
-			return nil, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(append(ds.Spec.Upper, ds.Spec.Search...), ", "))
-		}
-		o.Linear[c] = true
-	}
 	sc := model.Scale(ds.National(), ds.Spec)
+	o, err := modelOptions(sc, opts)
+	if err != nil {
+		return nil, err
+	}
 	var priorBytes []byte
 	if opts.priors != "" {
-		st, err := pipeline.Stages(sc, o)
-		if err != nil {
-			return nil, err
-		}
-		if o.Priors, err = model.LoadPriors(opts.priors, pipeline.Known(st)); err != nil {
-			return nil, badData(err)
-		}
 		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
 			return nil, badData(err)
 		}
 	}
-	fs := &fitSpec{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
+	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
 		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
 	verb := "fit"
 	if demo != "" {
@@ -180,22 +203,12 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	// a prior that does not fit its parameter is the user's input error:
-	// find it before any sampling
-	stages, err := pipeline.Stages(sc, o)
-	if err != nil {
-		return nil, err
-	}
-	for _, st := range stages {
-		if _, err := st.Target(); err != nil {
-			return nil, badData(fmt.Errorf("%s: %w", opts.priors, err))
-		}
-	}
 	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
 	if err != nil {
 		return nil, err
 	}
-	files, reps, err := fitFiles(fs, ds, priorBytes, fitted)
+	f, reps := newFit(*fs, ds, priorBytes, fitted)
+	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
 	}
@@ -205,10 +218,10 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	printFitSummary(stdout, reps, fitted)
-	if v := string(files["verdict.txt"]); !strings.HasPrefix(v, "trustworthy") {
+	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
-	return od, nil
+	return &fitRun{od, &fitFolder{Fit: f, scaled: sc, stages: fitted.Stages, fits: fitted.Fits, options: o}}, nil
 }
 
 // progressHook returns the per-stage progress display: a bar when stderr

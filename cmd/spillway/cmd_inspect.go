@@ -5,16 +5,15 @@ import (
 	"fmt"
 	"io"
 
-	"github.com/spf13/pflag"
-
 	"spillway/funnel/data"
 )
 
-func init() {
+// newInspectCommand builds spillway inspect.
+func newInspectCommand() *command {
 	var opts roleFlags
-	fs := pflag.NewFlagSet("inspect", pflag.ContinueOnError)
+	fs := newFlagSet("inspect")
 	opts.addFlags(fs)
-	register(&command{
+	return &command{
 		name:  "inspect",
 		usage: "inspect --data FILE --date COLUMN --upper COLUMNS --search COLUMNS --queries COLUMN --outcome COLUMN [flags]",
 		short: "check and summarise a data file",
@@ -33,12 +32,11 @@ EXAMPLE
     --search search --queries brand_queries --outcome orders --controls price
 
 ` + exitStatusHelp,
-		order: 30,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			return runInspect(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runInspect prints the summary of the data to stdout and its warnings to

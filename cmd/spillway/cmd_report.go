@@ -8,16 +8,15 @@ import (
 	"os"
 	"path/filepath"
 
-	"github.com/spf13/pflag"
-
 	htmlreport "spillway/plots/report"
 )
 
-func init() {
+// newReportCommand builds spillway report.
+func newReportCommand() *command {
 	var opts reviewOptions
-	fs := pflag.NewFlagSet("report", pflag.ContinueOnError)
+	fs := newFlagSet("report")
 	opts.addFlags(fs, "the HTML `FILE` to write (default FIT/report.html)")
-	register(&command{
+	return &command{
 		name:  "report",
 		usage: "report --fit FOLDER [--window WINDOW] [flags]",
 		short: "write the quarterly-review HTML report",
@@ -40,12 +39,11 @@ EXAMPLE
   spillway report --fit fit1 --window 2025Q2
 
 ` + exitStatusHelp,
-		order: 70,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			return runReport(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runReport renders the report in memory and writes it at once.

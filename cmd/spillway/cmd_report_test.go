@@ -8,11 +8,11 @@ import (
 	"strings"
 	"testing"
 
-	"spillway/plots/fitdir/fitdirtest"
+	"spillway/funnel/fitfolder/fitfoldertest"
 )
 
 func TestReportCommand(t *testing.T) {
-	dir := reviewFit(t, fitdirtest.Options{Untrustworthy: true})
+	dir := reviewFit(t, fitfoldertest.Options{Untrustworthy: true})
 	before := listDir(t, dir)
 	code, out, errs := reviewRun(context.Background(), "report", "--fit", dir)
 	if code != 0 {
@@ -62,7 +62,7 @@ func TestReportCommand(t *testing.T) {
 }
 
 func TestReportErrors(t *testing.T) {
-	dir := reviewFit(t, fitdirtest.Options{Draws: 20})
+	dir := reviewFit(t, fitfoldertest.Options{Draws: 20})
 	for _, c := range []struct {
 		args []string
 		want string

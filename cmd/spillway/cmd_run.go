@@ -10,19 +10,28 @@ import (
 	"github.com/spf13/pflag"
 
 	"spillway/plots"
-	"spillway/plots/fitdir"
 	htmlreport "spillway/plots/report"
 )
 
-func init() {
-	var roles roleFlags
-	var opts samplingFlags
-	var window string
-	fs := pflag.NewFlagSet("run", pflag.ContinueOnError)
-	roles.addFlags(fs)
+// runOptions are the flags of spillway run.
+type runOptions struct {
+	roles    roleFlags
+	sampling samplingFlags
+	window   string
+}
+
+func (o *runOptions) addFlags(fs *pflag.FlagSet) {
+	o.roles.addFlags(fs)
+	o.sampling.addFlags(fs)
+	fs.StringVar(&o.window, "window", "", "the review `WINDOW` for the table, charts and report: all, a quarter (2025Q2) or FROM:TO; default: the last full quarter")
+}
+
+// newRunCommand builds spillway run.
+func newRunCommand() *command {
+	var opts runOptions
+	fs := newFlagSet("run")
 	opts.addFlags(fs)
-	fs.StringVar(&window, "window", "", "the review `WINDOW` for the table, charts and report: all, a quarter (2025Q2) or FROM:TO; default: the last full quarter")
-	register(&command{
+	return &command{
 		name:  "run",
 		usage: "run [--data FILE (roles)] --out FOLDER [flags]",
 		short: "the whole job: check, fit, split, charts, report (the demo without --data)",
@@ -41,46 +50,60 @@ EXAMPLE
     --queries brand_queries --outcome orders --controls price --out q3-review
 
 ` + exitStatusHelp,
-		order: 10,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			if err := noArgs(args); err != nil {
-				return err
-			}
-			demo := ""
-			if !roles.given() {
-				demo = "demo"
-				fmt.Fprintln(stderr, "spillway run: no --data given: running the built-in demo (Quillmere Bikes, 156 weeks)")
-			}
-			return runAll(ctx, &roles, &opts, demo, window, stdout, stderr)
+			return runAll(ctx, &opts, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runAll fits, splits, draws and reports into one temporary folder and
-// commits it at the end.
-func runAll(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo, window string, stdout, stderr io.Writer) error {
-	od, err := runFit(ctx, roles, opts, demo, stdout, stderr)
+// commits it at the end; without data roles it runs the demo. The charts
+// and the report are drawn from the fit and split in memory; the files are
+// written for the user.
+func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io.Writer) error {
+	if err := noArgs(args); err != nil {
+		return err
+	}
+	demo := ""
+	if !o.roles.given() {
+		demo = "demo"
+		fmt.Fprintln(stderr, "spillway run: no --data given: running the built-in demo (Quillmere Bikes, 156 weeks)")
+	}
+	od, err := runFit(ctx, &o.roles, &o.sampling, demo, stdout, stderr)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
-	dir := od.Path()
 	// the review window: checked against the data before the split runs
-	tableWindow := window
+	tableWindow := o.window
 	if tableWindow == "" {
 		tableWindow = "all"
 	}
 	fmt.Fprintln(stdout)
-	if err := runSplit(ctx, dir, tableWindow, stdout, false); err != nil {
-		return err
-	}
-	f, err := fitdir.Load(dir)
+	s, err := splitFit(ctx, od.fit, tableWindow)
 	if err != nil {
 		return err
 	}
+	files, err := s.Files()
+	if err != nil {
+		return err
+	}
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	for name, b := range files {
+		if err := od.WriteFile(name, b); err != nil {
+			return err
+		}
+	}
+	if err := s.print(stdout); err != nil {
+		return err
+	}
+	f := od.fit.Fit
+	f.Split = s.Split
 	f.Dir = od.Final()
-	w, err := f.Window(window)
+	w, err := f.Window(o.window)
 	if err != nil {
 		return usagef("--window: %v", err)
 	}

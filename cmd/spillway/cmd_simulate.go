@@ -15,21 +15,29 @@ import (
 // DemoSeed is the seed of the built-in demo data.
 const DemoSeed = 1
 
-func init() {
-	var (
-		name, out      string
-		seed           uint64
-		weeks, regions int
-		force          bool
-	)
-	fs := pflag.NewFlagSet("simulate", pflag.ContinueOnError)
-	fs.StringVar(&name, "scenario", "demo", "the `SCENARIO`: demo, demo-regions, slow-burn or direct-audio")
-	fs.Uint64Var(&seed, "seed", DemoSeed, "random seed")
-	fs.IntVar(&weeks, "weeks", 0, "number of weeks (0: the scenario's own, 156)")
-	fs.IntVar(&regions, "regions", 0, "number of regions (0: the scenario's own; demo-regions has 24)")
-	fs.StringVar(&out, "out", "", "the output `FOLDER` for data.csv and truth.json")
-	fs.BoolVar(&force, "force", false, "replace the output folder if it exists")
-	register(&command{
+// simulateOptions are the flags of spillway simulate.
+type simulateOptions struct {
+	scenario, out  string
+	seed           uint64
+	weeks, regions int
+	force          bool
+}
+
+func (o *simulateOptions) addFlags(fs *pflag.FlagSet) {
+	fs.StringVar(&o.scenario, "scenario", "demo", "the `SCENARIO`: demo, demo-regions, slow-burn or direct-audio")
+	fs.Uint64Var(&o.seed, "seed", DemoSeed, "random seed")
+	fs.IntVar(&o.weeks, "weeks", 0, "number of weeks (0: the scenario's own, 156)")
+	fs.IntVar(&o.regions, "regions", 0, "number of regions (0: the scenario's own; demo-regions has 24)")
+	fs.StringVar(&o.out, "out", "", "the output `FOLDER` for data.csv and truth.json")
+	fs.BoolVar(&o.force, "force", false, "replace the output folder if it exists")
+}
+
+// newSimulateCommand builds spillway simulate.
+func newSimulateCommand() *command {
+	var opts simulateOptions
+	fs := newFlagSet("simulate")
+	opts.addFlags(fs)
+	return &command{
 		name:  "simulate",
 		usage: "simulate --scenario NAME --out FOLDER [flags]",
 		short: "write a synthetic scenario and its ground truth",
@@ -51,44 +59,48 @@ EXAMPLE
   spillway simulate --scenario demo-regions --seed 7 --out sim7
 
 ` + exitStatusHelp,
-		order: 20,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			if err := noArgs(args); err != nil {
-				return err
-			}
-			if regions < 0 || weeks < 0 {
-				return usagef("--weeks and --regions must not be negative")
-			}
-			if name == "demo" && regions > 0 {
-				return usagef("--regions needs a regional scenario (demo-regions)")
-			}
-			od, err := newOutDir(out, force)
-			if err != nil {
-				return err
-			}
-			defer od.Abort()
-			sc, err := scenario.Named(name, seed, weeks, regions)
-			if err != nil {
-				return usagef("%v", err)
-			}
-			csv, truth, err := simulateFiles(sc)
-			if err != nil {
-				return err
-			}
-			if err := od.WriteFile("data.csv", csv); err != nil {
-				return err
-			}
-			if err := od.WriteFile("truth.json", truth); err != nil {
-				return err
-			}
-			if err := od.Commit(); err != nil {
-				return err
-			}
-			fmt.Fprintf(stdout, "wrote %s/data.csv and %s/truth.json (scenario %s, seed %d, %d weeks)\n", od.Final(), od.Final(), name, seed, sc.Weeks)
-			return nil
+			return runSimulate(ctx, &opts, args, stdout)
 		},
-	})
+	}
+}
+
+// runSimulate writes a scenario's data.csv and truth.json.
+func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout io.Writer) error {
+	if err := noArgs(args); err != nil {
+		return err
+	}
+	if o.regions < 0 || o.weeks < 0 {
+		return usagef("--weeks and --regions must not be negative")
+	}
+	if o.scenario == "demo" && o.regions > 0 {
+		return usagef("--regions needs a regional scenario (demo-regions)")
+	}
+	od, err := newOutDir(o.out, o.force)
+	if err != nil {
+		return err
+	}
+	defer od.Abort()
+	sc, err := scenario.Named(o.scenario, o.seed, o.weeks, o.regions)
+	if err != nil {
+		return usagef("%v", err)
+	}
+	csv, truth, err := simulateFiles(sc)
+	if err != nil {
+		return err
+	}
+	if err := od.WriteFile("data.csv", csv); err != nil {
+		return err
+	}
+	if err := od.WriteFile("truth.json", truth); err != nil {
+		return err
+	}
+	if err := od.Commit(); err != nil {
+		return err
+	}
+	fmt.Fprintf(stdout, "wrote %s/data.csv and %s/truth.json (scenario %s, seed %d, %d weeks)\n", od.Final(), od.Final(), o.scenario, o.seed, sc.Weeks)
+	return nil
 }
 
 // simulateFiles renders a scenario's data.csv and truth.json.

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bytes"
 	"context"
 	"fmt"
 	"io"
@@ -9,16 +8,28 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/pipeline"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
-func init() {
-	var dir, window string
-	fs := pflag.NewFlagSet("split", pflag.ContinueOnError)
-	fs.StringVar(&dir, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
-	fs.StringVar(&window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
-	register(&command{
+// splitOptions are the flags of spillway split.
+type splitOptions struct {
+	fit, window string
+}
+
+func (o *splitOptions) addFlags(fs *pflag.FlagSet) {
+	fs.StringVar(&o.fit, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
+	fs.StringVar(&o.window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
+}
+
+// newSplitCommand builds spillway split.
+func newSplitCommand() *command {
+	var opts splitOptions
+	fs := newFlagSet("split")
+	opts.addFlags(fs)
+	return &command{
 		name:  "split",
 		usage: "split --fit FOLDER [--window WINDOW]",
 		short: "split each channel's effect into direct and via search",
@@ -42,31 +53,66 @@ EXAMPLE
   spillway split --fit fit1 --window 2025Q2
 
 ` + exitStatusHelp,
-		order: 50,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			if err := noArgs(args); err != nil {
 				return err
 			}
-			if dir == "" {
+			if opts.fit == "" {
 				return usagef("no fit folder: name it with --fit FOLDER")
 			}
-			return runSplit(ctx, dir, window, stdout, true)
+			return runSplit(ctx, opts.fit, opts.window, stdout, true)
 		},
-	})
+	}
 }
 
 // runSplit computes the effects of a fit folder and adds the split's files
 // to it atomically; say reports the folder on stdout.
-func runSplit(ctx context.Context, dir, window string, stdout io.Writer, say bool) error {
+func runSplit(ctx context.Context, dir, windowName string, stdout io.Writer, say bool) error {
 	ff, err := readFitFolder(dir)
 	if err != nil {
 		return err
 	}
-	wins := mediation.Quarters(ff.scaled.Weeks)
-	asked, err := mediation.ParseWindow(window, ff.scaled.Weeks)
+	s, err := splitFit(ctx, ff, windowName)
 	if err != nil {
-		return usagef("--window %v", err)
+		return err
+	}
+	files, err := s.Files()
+	if err != nil {
+		return err
+	}
+	if ctx.Err() != nil {
+		return ctx.Err()
+	}
+	if err := updateInPlace(dir, files); err != nil {
+		return err
+	}
+	if err := s.print(stdout); err != nil {
+		return err
+	}
+	if say {
+		fmt.Fprintf(stdout, "split written to %s\n", dir)
+	}
+	return nil
+}
+
+// splitResult is the effect split of a fit: the fit folder's tables, and
+// what the table printed for the window asked needs.
+type splitResult struct {
+	fitfolder.Split
+	res   *mediation.Result
+	sens  []mediation.Sensitivity
+	asked window.Window
+	unit  string
+}
+
+// splitFit computes the effects of ff for every quarter, the whole period
+// and the window named.
+func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResult, error) {
+	wins := window.Quarters(ff.scaled.Weeks)
+	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
+	if err != nil {
+		return nil, usagef("--window %v", err)
 	}
 	found := false
 	for _, w := range wins {
@@ -78,62 +124,51 @@ func runSplit(ctx context.Context, dir, window string, stdout io.Writer, say boo
 	in := pipeline.Pair(ff.scaled, ff.stages, ff.fits)
 	res, err := mediation.Split(in, wins)
 	if err != nil {
-		return err
+		return nil, err
 	}
 	if ctx.Err() != nil {
-		return ctx.Err()
+		return nil, ctx.Err()
 	}
 	sens, err := mediation.Sensitivities(in, mediation.RhoGrid())
 	if err != nil {
-		return err
+		return nil, err
 	}
-	files := map[string][]byte{}
-	render := func(name string, f func(w io.Writer) error) error {
-		var b bytes.Buffer
-		if err := f(&b); err != nil {
-			return fmt.Errorf("%s: %w", name, err)
-		}
-		files[name] = b.Bytes()
-		return nil
+	fitted, err := mediation.Fitted(in, ff.Run.Seed)
+	if err != nil {
+		return nil, err
 	}
-	for _, r := range []struct {
-		name string
-		f    func(io.Writer) error
-	}{
-		{"effects.csv", func(w io.Writer) error { return mediation.WriteEffects(w, res) }},
-		{"effect_draws.csv", func(w io.Writer) error { return mediation.WriteEffectDraws(w, res) }},
-		{"borrowed.csv", func(w io.Writer) error { return mediation.WriteBorrowed(w, res) }},
-		{"weekly.csv", func(w io.Writer) error {
-			return mediation.WriteWeekly(w, res, ff.scaled.Weeks, ff.scaled.UpperNames)
-		}},
-		{"sensitivity.csv", func(w io.Writer) error { return mediation.WriteSensitivity(w, sens) }},
-		{"breakeven.csv", func(w io.Writer) error { return mediation.WriteBreakeven(w, sens) }},
-		{"fitted.csv", func(w io.Writer) error { return mediation.WriteFitted(w, in, ff.spec.Seed) }},
-		{"curves.csv", func(w io.Writer) error { return mediation.WriteCurves(w, in, 41) }},
-	} {
-		if err := render(r.name, r.f); err != nil {
-			return err
-		}
+	curves, err := mediation.Curves(in, 41)
+	if err != nil {
+		return nil, err
 	}
-	if ctx.Err() != nil {
-		return ctx.Err()
-	}
-	if err := updateInPlace(dir, files); err != nil {
-		return err
-	}
-	if err := mediation.Table(stdout, res, asked.Name, ff.spec.Spec.Outcome); err != nil {
+	return &splitResult{
+		Split: fitfolder.Split{
+			Effects:     mediation.EffectsTable(res),
+			EffectDraws: mediation.EffectDrawsTable(res),
+			Borrowed:    mediation.BorrowedTable(res),
+			Weekly:      mediation.WeeklyTable(res, ff.scaled.Weeks, ff.scaled.UpperNames),
+			Sensitivity: mediation.SensitivityTable(sens),
+			Breakeven:   mediation.BreakevenTable(sens),
+			Fitted:      fitted,
+			Curves:      curves,
+		},
+		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome,
+	}, nil
+}
+
+// print prints the split table for the window asked and where the
+// via-search effects would reach zero.
+func (s *splitResult) print(stdout io.Writer) error {
+	if err := mediation.Table(stdout, s.res, s.asked.Name, s.unit); err != nil {
 		return err
 	}
 	fmt.Fprintln(stdout)
-	for _, s := range sens {
+	for _, s := range s.sens {
 		if math.IsNaN(s.Zero) {
 			fmt.Fprintf(stdout, "%s: the via-search effect stays on one side of zero for every error correlation rho in (-1, 1)\n", s.Channel)
 			continue
 		}
 		fmt.Fprintf(stdout, "%s: the via-search effect reaches zero if the errors of the demand and outcome stages correlate at rho = %.2f\n", s.Channel, s.Zero)
-	}
-	if say {
-		fmt.Fprintf(stdout, "split written to %s\n", dir)
 	}
 	return nil
 }

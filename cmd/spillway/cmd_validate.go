@@ -18,9 +18,9 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/model"
-	"spillway/funnel/pipeline"
 	"spillway/funnel/scenario"
 	"spillway/funnel/validate"
+	"spillway/plots/validation"
 )
 
 // validateOptions are the flags of spillway validate.
@@ -55,11 +55,12 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 		"random seed of the sweep; every job's seed derives from it and the job's number", "chains per refit", "iterations per chain of each refit"})
 }
 
-func init() {
+// newValidateCommand builds spillway validate.
+func newValidateCommand() *command {
 	var opts validateOptions
-	fs := pflag.NewFlagSet("validate", pflag.ContinueOnError)
+	fs := newFlagSet("validate")
 	opts.addFlags(fs)
-	register(&command{
+	return &command{
 		name:  "validate",
 		usage: "validate [(roles) | --fit FOLDER] --out FOLDER [flags]",
 		short: "check recovery of known truth, holdout accuracy and stability",
@@ -109,12 +110,11 @@ EXAMPLE
     --queries brand_queries --outcome orders --controls price --out val1
 
 ` + exitStatusHelp,
-		order: 80,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
 			return runValidate(ctx, &opts, fs, args, stdout, stderr)
 		},
-	})
+	}
 }
 
 // runValidate runs a sweep, one shard of it, or a merge.
@@ -174,10 +174,8 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		if err != nil {
 			return err
 		}
-		ds = ff.data
-		if in.Options, err = ff.spec.options(o.fitDir, ff.stages); err != nil {
-			return badData(err)
-		}
+		ds = ff.Data.Dataset
+		in.Options = ff.options
 		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}
 	case o.roles.given():
 		if ds, err = o.roles.load(); err != nil {
@@ -196,7 +194,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	}
 	in.Series, in.Spec = ds.National(), ds.Spec
 	if o.fitDir == "" {
-		if in.Options, err = modelOptions(ds, &o.sampling); err != nil {
+		if in.Options, err = modelOptions(model.Scale(ds.National(), ds.Spec), &o.sampling); err != nil {
 			return err
 		}
 	}
@@ -291,6 +289,9 @@ func writeReport(od *outDir, res *validate.Results, stdout io.Writer) error {
 	if err != nil {
 		return err
 	}
+	if files[validate.ChartFile], err = validation.PNG(rep); err != nil {
+		return err
+	}
 	if err := writeAll(od, files); err != nil {
 		return err
 	}
@@ -306,42 +307,6 @@ func writeAll(od *outDir, files map[string][]byte) error {
 		}
 	}
 	return od.Commit()
-}
-
-// modelOptions turns --linear and --priors into model options, checking
-// them against the data before any sampling.
-func modelOptions(ds *data.Dataset, s *samplingFlags) (model.Options, error) {
-	o := model.Options{Linear: map[string]bool{}}
-	cols := map[string]bool{}
-	all := append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...)
-	for _, c := range all {
-		cols[c] = true
-	}
-	for _, c := range s.linear {
-		if !cols[c] {
-			return o, usagef("--linear %s: not an upper-funnel or paid-search column (%s)", c, strings.Join(all, ", "))
-		}
-		o.Linear[c] = true
-	}
-	if s.priors != "" {
-		sc := model.Scale(ds.National(), ds.Spec)
-		st, err := pipeline.Stages(sc, o)
-		if err != nil {
-			return o, err
-		}
-		if o.Priors, err = model.LoadPriors(s.priors, pipeline.Known(st)); err != nil {
-			return o, badData(err)
-		}
-		if st, err = pipeline.Stages(sc, o); err != nil {
-			return o, err
-		}
-		for _, stage := range st {
-			if _, err := stage.Target(); err != nil {
-				return o, badData(fmt.Errorf("%s: %w", s.priors, err))
-			}
-		}
-	}
-	return o, nil
 }
 
 // readTruth reads the true parameters from a truth.json.

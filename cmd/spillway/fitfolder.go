@@ -1,76 +1,27 @@
 package main
 
 import (
-	"bytes"
-	"encoding/json"
 	"fmt"
-	"os"
 	"path/filepath"
 	"sort"
 	"strconv"
 	"strings"
 
 	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
-	"spillway/plots/fitdir"
 )
 
-// fitSpec is spec.json: everything needed to rerun a fit.
-type fitSpec struct {
-	Spec     data.Spec `json:"spec"`
-	Demo     string    `json:"demo,omitempty"` // the scenario name when the data are the built-in demo
-	Seed     uint64    `json:"seed"`
-	Chains   int       `json:"chains"`
-	Warmup   int       `json:"warmup"`
-	Draws    int       `json:"draws"`
-	Accept   float64   `json:"target_accept"`
-	Linear   []string  `json:"linear,omitempty"`
-	Priors   string    `json:"priors,omitempty"` // the priors file given; copied into the folder as priors.csv
-	Command  string    `json:"command"`
-	DataFile string    `json:"data_file"`
-	Version  string    `json:"version"`
-}
-
-// options returns the model options the spec describes, reading the priors
-// copy from the fit folder dir.
-func (s *fitSpec) options(dir string, stages [3]*model.Stage) (model.Options, error) {
-	o := model.Options{Linear: map[string]bool{}}
-	for _, c := range s.Linear {
-		o.Linear[c] = true
+// choices are the model choices the fit folder's spec records; the priors
+// file is its copy in the folder.
+func choices(f *fitfolder.Fit) pipeline.Choices {
+	c := pipeline.Choices{Linear: f.Run.Linear}
+	if f.Priors != nil {
+		c.Priors = f.PriorsPath()
 	}
-	if s.Priors != "" {
-		p, err := model.LoadPriors(filepath.Join(dir, "priors.csv"), pipeline.Known(stages))
-		if err != nil {
-			return o, err
-		}
-		o.Priors = p
-	}
-	return o, nil
-}
-
-// statsOf is a stage's stats.json (the schema the fit folder's reader,
-// plots/fitdir, defines).
-func statsOf(f *mcmc.Fit, wall float64) fitdir.Stats {
-	s := fitdir.Stats{WallSeconds: wall}
-	for _, c := range f.Chains {
-		st := c.Stats
-		s.WarmupSeconds = append(s.WarmupSeconds, st.WarmupSeconds)
-		s.SamplingSeconds = append(s.SamplingSeconds, st.SamplingSeconds)
-		s.GradientEvaluations = append(s.GradientEvaluations, int64(st.GradientEvaluations))
-		s.Divergences = append(s.Divergences, st.Divergences)
-		s.TreedepthHits = append(s.TreedepthHits, st.TreeDepthHits)
-		s.StepSize = append(s.StepSize, st.StepSize)
-		s.MeanLeapfrogs = append(s.MeanLeapfrogs, st.MeanLeapfrogs)
-		s.EBFMI = append(s.EBFMI, st.EBFMI)
-	}
-	return s
-}
-
-func jsonBytes(v any) ([]byte, error) {
-	b, err := json.MarshalIndent(v, "", "  ")
-	return append(b, '\n'), err
+	return c
 }
 
 // stageReport is one stage's summaries and verdict.
@@ -80,132 +31,66 @@ type stageReport struct {
 	verdict mcmc.Verdict
 }
 
-// fitFiles renders the fit folder's files: spec.json, data.csv, priors.csv,
-// per stage draws.csv, summary.csv and stats.json, and verdict.txt.
-func fitFiles(fs *fitSpec, ds *data.Dataset, priors []byte, f *pipeline.Fitted) (map[string][]byte, []stageReport, error) {
-	files := map[string][]byte{}
-	var buf bytes.Buffer
-	if err := data.WriteCSV(&buf, ds); err != nil {
-		return nil, nil, err
-	}
-	files["data.csv"] = append([]byte(nil), buf.Bytes()...)
-	if priors != nil {
-		files["priors.csv"] = priors
-	}
-	b, err := jsonBytes(fs)
-	if err != nil {
-		return nil, nil, err
-	}
-	files["spec.json"] = b
+// newFit assembles the fit folder of a finished fit: spec, data, priors
+// copy, per stage draws, summary and stats, and the verdict.
+func newFit(run fitfolder.Run, ds *data.Dataset, priors []byte, f *pipeline.Fitted) (*fitfolder.Fit, []stageReport) {
+	ff := &fitfolder.Fit{Run: run, Data: &fitfolder.Data{Dataset: ds}, Priors: priors}
 	var reps []stageReport
-	for k, name := range pipeline.StageNames {
+	var verdicts []mcmc.Verdict
+	for k, name := range fitfolder.StageNames {
 		fit := f.Fits[k]
-		buf.Reset()
-		if err := mcmc.WriteDraws(&buf, fit); err != nil {
-			return nil, nil, err
-		}
-		files[name+"/draws.csv"] = append([]byte(nil), buf.Bytes()...)
 		sum := mcmc.Summarize(fit)
-		buf.Reset()
-		if err := mcmc.WriteSummary(&buf, sum); err != nil {
-			return nil, nil, err
-		}
-		files[name+"/summary.csv"] = append([]byte(nil), buf.Bytes()...)
-		if files[name+"/stats.json"], err = jsonBytes(statsOf(fit, f.Wall[k])); err != nil {
-			return nil, nil, err
-		}
+		ff.Stages = append(ff.Stages, &fitfolder.Stage{Name: name, Params: fitfolder.ParamsOf(sum),
+			Stats: fitfolder.StatsOf(fit, f.Wall[k]), Draws: fit})
 		reps = append(reps, stageReport{name: name, summary: sum, verdict: mcmc.Judge(fit, sum)})
+		verdicts = append(verdicts, reps[k].verdict)
 	}
-	files["verdict.txt"] = []byte(verdictText(reps))
-	return files, reps, nil
+	ff.Verdict = fitfolder.VerdictOf(fitfolder.StageNames, verdicts)
+	return ff, reps
 }
 
-// verdictText is verdict.txt: "trustworthy" or "not trustworthy", then one
-// reason per line prefixed with its stage.
-func verdictText(reps []stageReport) string {
-	var sb strings.Builder
-	ok := true
-	for _, r := range reps {
-		ok = ok && r.verdict.Trustworthy
-	}
-	if ok {
-		sb.WriteString("trustworthy\n")
-	} else {
-		sb.WriteString("not trustworthy\n")
-	}
-	for _, r := range reps {
-		for _, why := range r.verdict.Reasons {
-			fmt.Fprintf(&sb, "%s: %s\n", r.name, why)
-		}
-		for _, w := range r.verdict.Warnings {
-			fmt.Fprintf(&sb, "%s: note: %s\n", r.name, w)
-		}
-	}
-	return sb.String()
-}
-
-// fitFolder is a fit folder read back.
+// fitFolder is a fit folder with the model it was fitted with.
 type fitFolder struct {
-	dir    string
-	spec   fitSpec
-	data   *data.Dataset
+	*fitfolder.Fit
 	scaled *model.Scaled
 	stages [3]*model.Stage
 	fits   [3]*mcmc.Fit
+
+	// options are the model options of the spec's choices.
+	options model.Options
 }
 
-// readFitFolder loads a fit folder written by fit. Problems are bad data
-// (exit status 2): the folder is the user's input to split, chart and report.
+// readFitFolder loads a fit folder written by fit with its draws. Problems
+// are bad data (exit status 2): the folder is the user's input to split
+// and validate.
 func readFitFolder(dir string) (*fitFolder, error) {
-	ff := &fitFolder{dir: dir}
-	b, err := os.ReadFile(filepath.Join(dir, "spec.json"))
-	if err != nil {
-		return nil, badData(fmt.Errorf("%s is not a fit folder (no spec.json): run 'spillway fit' first: %w", dir, err))
-	}
-	if err := json.Unmarshal(b, &ff.spec); err != nil {
-		return nil, badData(fmt.Errorf("%s: %w", filepath.Join(dir, "spec.json"), err))
-	}
-	spec := ff.spec.Spec
-	spec.Data = filepath.Join(dir, ff.spec.DataFile)
-	ds, err := data.Load(spec.Data, spec)
+	f, err := fitfolder.Open(dir)
 	if err != nil {
 		return nil, badData(err)
 	}
-	ff.data = ds
-	ff.scaled = model.Scale(ds.National(), ds.Spec)
-	st, err := pipeline.Stages(ff.scaled, model.Options{})
-	if err != nil {
-		return nil, err
-	}
-	o, err := ff.spec.options(dir, st)
-	if err != nil {
+	if err := f.ReadDraws(); err != nil {
 		return nil, badData(err)
 	}
-	if ff.stages, err = pipeline.Stages(ff.scaled, o); err != nil {
+	ff := &fitFolder{Fit: f, scaled: model.Scale(f.Data.National(), f.Data.Spec)}
+	if ff.options, err = choices(f).Options(ff.scaled); err != nil {
+		return nil, badData(err)
+	}
+	if ff.stages, err = pipeline.Stages(ff.scaled, ff.options); err != nil {
 		return nil, err
 	}
-	for k, name := range pipeline.StageNames {
-		p := filepath.Join(dir, name, "draws.csv")
-		f, err := os.Open(p)
-		if err != nil {
-			return nil, badData(fmt.Errorf("fit folder %s is incomplete: %w", dir, err))
-		}
-		fit, err := mcmc.ReadDraws(f)
-		f.Close()
-		if err != nil {
-			return nil, badData(fmt.Errorf("%s: %w", p, err))
-		}
+	for k, s := range f.Stages {
 		want := ff.stages[k].Names()
-		if strings.Join(fit.Names, ",") != strings.Join(want, ",") {
-			return nil, badData(fmt.Errorf("%s: parameters %v do not match the model's %v", p, fit.Names, want))
+		if strings.Join(s.Draws.Names, ",") != strings.Join(want, ",") {
+			return nil, badData(fmt.Errorf("%s: parameters %v do not match the model's %v",
+				filepath.Join(dir, s.Name, "draws.csv"), s.Draws.Names, want))
 		}
-		ff.fits[k] = fit
+		ff.fits[k] = s.Draws
 	}
 	return ff, nil
 }
 
 // rerunCommand spells out the command that reproduces a fit.
-func rerunCommand(verb string, fs *fitSpec, out string) string {
+func rerunCommand(verb string, fs *fitfolder.Run, out string) string {
 	var parts []string
 	add := func(flag, v string) {
 		if v != "" {

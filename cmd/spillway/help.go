@@ -4,12 +4,10 @@ import (
 	"fmt"
 	"io"
 	"strings"
-
-	"github.com/spf13/pflag"
 )
 
 // writeTopHelp writes the list of commands.
-func writeTopHelp(w io.Writer) {
+func writeTopHelp(w io.Writer, cmds []*command) {
 	fmt.Fprint(w, `spillway splits the effect of upper-funnel media (video, audio) on an outcome
 into the part that runs through branded search demand and the direct part, and
 shows how much of paid search's apparent return is demand borrowed from the
@@ -21,10 +19,10 @@ Usage:
 Commands:
 `)
 	width := 0
-	for _, c := range sortedCommands() {
+	for _, c := range cmds {
 		width = max(width, len(c.name))
 	}
-	for _, c := range sortedCommands() {
+	for _, c := range cmds {
 		fmt.Fprintf(w, "  %-*s  %s\n", width, c.name, c.short)
 	}
 	fmt.Fprint(w, `
@@ -45,7 +43,7 @@ func writeCommandHelp(w io.Writer, c *command) {
 	if long != "" {
 		fmt.Fprintf(w, "%s\n\n", long)
 	}
-	if usages := flagUsages(c.flags); usages != "" {
+	if usages := c.flags.FlagUsagesWrapped(80); usages != "" {
 		fmt.Fprintf(w, "FLAGS\n%s\n", usages)
 	}
 	if rest != "" {
@@ -54,13 +52,13 @@ func writeCommandHelp(w io.Writer, c *command) {
 }
 
 // runHelp handles 'spillway help [COMMAND]'.
-func runHelp(args []string, stdout, stderr io.Writer) int {
+func runHelp(cmds []*command, args []string, stdout, stderr io.Writer) int {
 	switch len(args) {
 	case 0:
-		writeTopHelp(stdout)
+		writeTopHelp(stdout, cmds)
 		return exitOK
 	case 1:
-		if c := commands[args[0]]; c != nil {
+		if c := find(cmds, args[0]); c != nil {
 			writeCommandHelp(stdout, c)
 			return exitOK
 		}
@@ -70,22 +68,4 @@ func runHelp(args []string, stdout, stderr io.Writer) int {
 	}
 	fmt.Fprintf(stderr, "Run 'spillway help' for usage.\n")
 	return exitUsage
-}
-
-// flagUsages formats the flags of fs as pflag does, with the reset
-// wrappers of slice flags taken off while it runs so that pflag recognises
-// their types (and leaves out empty defaults).
-func flagUsages(fs *pflag.FlagSet) string {
-	wrapped := map[*pflag.Flag]*resettableSlice{}
-	fs.VisitAll(func(f *pflag.Flag) {
-		if r, ok := f.Value.(*resettableSlice); ok {
-			wrapped[f] = r
-			f.Value = r.Value
-		}
-	})
-	s := fs.FlagUsagesWrapped(80)
-	for f, r := range wrapped {
-		f.Value = r
-	}
-	return s
 }

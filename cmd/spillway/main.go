@@ -3,9 +3,9 @@
 // demand, and the outcome depends on queries, paid search and the upper
 // funnel directly. Run 'spillway help' for the commands.
 //
-// Each command lives in its own cmd_NAME.go file and registers itself from
-// init() with register; main.go holds the dispatch, the help and the one
-// table of exit codes (exitCode).
+// Each command lives in its own cmd_NAME.go file, built by a newNAMECommand
+// constructor; main.go holds the list of commands, the dispatch, the help
+// and the one table of exit codes (exitCode).
 package main
 
 import (
@@ -57,20 +57,24 @@ func main() {
 	os.Exit(code)
 }
 
-// command is one subcommand. Files cmd_NAME.go build one in init() and pass
-// it to register, for example:
+// command is one subcommand. Files cmd_NAME.go build one with a
+// constructor that binds a fresh options struct to a fresh flag set, for
+// example:
 //
-//	func init() {
-//		var opts fitOptions // roles roleFlags; out string; force bool; ...
-//		fs := pflag.NewFlagSet("fit", pflag.ContinueOnError)
+//	func newFitCommand() *command {
+//		var opts fitOptions // roles roleFlags; sampling samplingFlags
+//		fs := newFlagSet("fit")
 //		opts.addFlags(fs) // calls opts.roles.addFlags(fs), adds --out, --force, ...
-//		register(&command{name: "fit", usage: "fit --out FOLDER (role flags) [flags]",
+//		return &command{name: "fit", usage: "fit --out FOLDER (role flags) [flags]",
 //			short: "fit both stages", long: "...\n\nEXAMPLE\n  spillway fit ...\n\n" + exitStatusHelp,
-//			order: 40, flags: fs,
+//			flags: fs,
 //			run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-//				return runFit(ctx, &opts, args, stdout, stderr)
-//			}})
+//				return runFitCommand(ctx, &opts, args, stdout, stderr)
+//			}}
 //	}
+//
+// No flag value lives in a package variable: every run of spillway (and
+// every test) builds its commands anew and parses into flags of its own.
 //
 // A writing command checks its output folder with newOutDir before any
 // work, defers Abort, and calls Commit at the end; it returns ctx.Err()
@@ -83,15 +87,7 @@ type command struct {
 	// long is the full help: description paragraphs, then an "EXAMPLE"
 	// section, then exitStatusHelp. The flags are listed before EXAMPLE.
 	long string
-	// order is the position in 'spillway help' (run 10, simulate 20,
-	// inspect 30, fit 40, split 50, chart 60, report 70, validate 80,
-	// allocate 90).
-	order int
-	// flags is made with pflag.NewFlagSet(name, pflag.ContinueOnError).
-	// register discards its output (run reports parse errors itself) and
-	// keeps the flags in the order they were added for the help. Before
-	// every parse run resets each flag to its default, so that run can
-	// be called many times (as tests do).
+	// flags is made with newFlagSet(name) and parsed once.
 	flags *pflag.FlagSet
 	// run does the work with the arguments left after the flags. Its
 	// error is printed once as "spillway NAME: message"; wrap errors with
@@ -99,58 +95,54 @@ type command struct {
 	run func(ctx context.Context, args []string, stdout, stderr io.Writer) error
 }
 
-// commands holds the registered commands by name.
-var commands = map[string]*command{}
-
-// register adds c to the commands. It panics on a programmer error: an
-// empty or repeated name, or a missing flag set or run function.
-func register(c *command) {
-	switch {
-	case c.name == "" || strings.HasPrefix(c.name, "-"):
-		panic("spillway: command without a name")
-	case commands[c.name] != nil:
-		panic("spillway: command " + c.name + " registered twice")
-	case c.flags == nil || c.run == nil:
-		panic("spillway: command " + c.name + " lacks flags or run")
-	}
-	c.flags.SetOutput(io.Discard)
-	c.flags.Usage = func() {}
-	c.flags.SortFlags = false // help lists flags in the order they were added
-	commands[c.name] = c
+// newCommands builds every command afresh, in the order 'spillway help'
+// lists them.
+func newCommands() []*command {
+	return []*command{newRunCommand(), newSimulateCommand(), newInspectCommand(), newFitCommand(),
+		newSplitCommand(), newChartCommand(), newReportCommand(), newValidateCommand()}
 }
 
-// sortedCommands returns the commands in help order.
-func sortedCommands() []*command {
-	cs := make([]*command, 0, len(commands))
-	for _, c := range commands {
-		cs = append(cs, c)
-	}
-	slices.SortFunc(cs, func(a, b *command) int {
-		if a.order != b.order {
-			return a.order - b.order
-		}
-		return strings.Compare(a.name, b.name)
-	})
-	return cs
+// newFlagSet returns an empty flag set for the command name. It prints
+// nothing itself (run reports parse errors) and keeps the flags in the
+// order they were added, for the help.
+func newFlagSet(name string) *pflag.FlagSet {
+	fs := pflag.NewFlagSet(name, pflag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() {}
+	fs.SortFlags = false
+	return fs
 }
 
-// run is the testable entry point: it runs the command named by args[0]
-// and returns the exit status. It is not safe for concurrent use (flag
-// values are package state).
+// find returns the command of cmds called name, or nil.
+func find(cmds []*command, name string) *command {
+	if i := slices.IndexFunc(cmds, func(c *command) bool { return c.name == name }); i >= 0 {
+		return cmds[i]
+	}
+	return nil
+}
+
+// run is the testable entry point: it builds the commands, runs the one
+// named by args[0] and returns the exit status.
 func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	return runCommands(ctx, newCommands(), args, stdout, stderr)
+}
+
+// runCommands runs the command of cmds named by args[0] and returns the
+// exit status.
+func runCommands(ctx context.Context, cmds []*command, args []string, stdout, stderr io.Writer) int {
 	if len(args) == 0 {
-		writeTopHelp(stderr)
+		writeTopHelp(stderr, cmds)
 		return exitUsage
 	}
 	name := args[0]
 	switch name {
 	case "help", "-h", "--help", "-help":
-		return runHelp(args[1:], stdout, stderr)
+		return runHelp(cmds, args[1:], stdout, stderr)
 	case "version", "--version":
 		fmt.Fprintf(stdout, "spillway %s\n", spillwayVersion())
 		return exitOK
 	}
-	c := commands[name]
+	c := find(cmds, name)
 	if c == nil {
 		if strings.HasPrefix(name, "-") {
 			fmt.Fprintf(stderr, "spillway: unknown flag %s\n", name)
@@ -160,7 +152,6 @@ func run(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "Run 'spillway help' for usage.\n")
 		return exitUsage
 	}
-	resetFlags(c.flags)
 	if err := c.flags.Parse(args[1:]); err != nil {
 		if errors.Is(err, pflag.ErrHelp) {
 			writeCommandHelp(stdout, c)
@@ -275,62 +266,6 @@ func flagError(err error) error {
 		return fmt.Errorf("bad flag syntax %q", is.GetSpecifiedFlag())
 	}
 	return err
-}
-
-// resetFlags sets every flag of fs back to its default and marks it
-// unchanged, so that a command can be parsed again. Slice flags are wrapped
-// on first sight in a resettableSlice, because pflag's own slice values
-// append rather than replace once they have been set. Function flags are
-// left alone (setting them would run the function).
-func resetFlags(fs *pflag.FlagSet) {
-	fs.VisitAll(func(f *pflag.Flag) {
-		switch v := f.Value.(type) {
-		case *resettableSlice:
-			v.reset()
-		case pflag.SliceValue:
-			f.Value = &resettableSlice{Value: f.Value, slice: v, def: slices.Clone(v.GetSlice())}
-		default:
-			if t := f.Value.Type(); t != "func" && t != "boolfunc" {
-				_ = f.Value.Set(f.DefValue)
-			}
-		}
-		f.Changed = false
-	})
-}
-
-// resettableSlice wraps a pflag slice value so that its first Set after a
-// reset replaces the default and later ones append, however often the flag
-// set is parsed.
-type resettableSlice struct {
-	pflag.Value
-	slice   pflag.SliceValue
-	def     []string
-	changed bool
-}
-
-// Set parses val with the wrapped value's own syntax, then replaces (first
-// time) or appends to the current list.
-func (r *resettableSlice) Set(val string) error {
-	prev := slices.Clone(r.slice.GetSlice())
-	if err := r.slice.Replace([]string{}); err != nil {
-		return err
-	}
-	if err := r.Value.Set(val); err != nil {
-		_ = r.slice.Replace(prev)
-		return err
-	}
-	if r.changed {
-		if err := r.slice.Replace(append(prev, r.slice.GetSlice()...)); err != nil {
-			return err
-		}
-	}
-	r.changed = true
-	return nil
-}
-
-func (r *resettableSlice) reset() {
-	_ = r.slice.Replace(slices.Clone(r.def))
-	r.changed = false
 }
 
 // spillwayVersion returns the version to print.

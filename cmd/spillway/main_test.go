@@ -13,35 +13,33 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/spf13/pflag"
-
 	"spillway/funnel/data"
 )
 
-// writetest is a test-only command that shows the output mechanism: it
-// loads data through roleFlags, then writes the data back into an atomic
-// output folder and commits it. With --fail-after-write it fails after
-// writing (as a real command might mid-way); a cancelled context stops it
-// before the commit.
-var writetestOpts struct {
+// writetestOptions are the flags of writetest, a test-only command that
+// shows the output mechanism: it loads data through roleFlags, then writes
+// the data back into an atomic output folder and commits it. With
+// --fail-after-write it fails after writing (as a real command might
+// mid-way); a cancelled context stops it before the commit.
+type writetestOptions struct {
 	roles          roleFlags
 	out            string
 	force          bool
 	failAfterWrite bool
 }
 
-func init() {
-	fs := pflag.NewFlagSet("writetest", pflag.ContinueOnError)
-	writetestOpts.roles.addFlags(fs)
-	fs.StringVar(&writetestOpts.out, "out", "", "output `FOLDER`")
-	fs.BoolVar(&writetestOpts.force, "force", false, "replace an existing output folder")
-	fs.BoolVar(&writetestOpts.failAfterWrite, "fail-after-write", false, "fail after writing (test)")
-	register(&command{
+func newWritetestCommand() *command {
+	var o writetestOptions
+	fs := newFlagSet("writetest")
+	o.roles.addFlags(fs)
+	fs.StringVar(&o.out, "out", "", "output `FOLDER`")
+	fs.BoolVar(&o.force, "force", false, "replace an existing output folder")
+	fs.BoolVar(&o.failAfterWrite, "fail-after-write", false, "fail after writing (test)")
+	return &command{
 		name: "writetest", usage: "writetest --out FOLDER (role flags)", short: "test-only: copy the data into a folder",
 		long:  "Writetest copies the data into an output folder.\n\nEXAMPLE\n  spillway writetest --out x --data d.csv ...\n\n" + exitStatusHelp,
-		order: 999, flags: fs,
+		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			o := &writetestOpts
 			if err := noArgs(args); err != nil {
 				return err
 			}
@@ -69,7 +67,12 @@ func init() {
 			}
 			return od.Commit()
 		},
-	})
+	}
+}
+
+// testCommands are spillway's commands and writetest, built afresh.
+func testCommands() []*command {
+	return append(newCommands(), newWritetestCommand())
 }
 
 // runCmd runs spillway with args and returns the exit status and outputs.
@@ -81,7 +84,7 @@ func runCmd(t *testing.T, args ...string) (code int, stdout, stderr string) {
 func runCtx(t *testing.T, ctx context.Context, args ...string) (code int, stdout, stderr string) {
 	t.Helper()
 	var out, errb bytes.Buffer
-	code = run(ctx, args, &out, &errb)
+	code = runCommands(ctx, testCommands(), args, &out, &errb)
 	return code, out.String(), errb.String()
 }
 
@@ -112,7 +115,12 @@ func TestHelp(t *testing.T) {
 }
 
 func TestEveryCommandDocumentsExitStatus(t *testing.T) {
-	for _, c := range sortedCommands() {
+	seen := map[string]bool{}
+	for _, c := range testCommands() {
+		if c.name == "" || strings.HasPrefix(c.name, "-") || seen[c.name] || c.flags == nil || c.run == nil {
+			t.Errorf("command %q: empty or repeated name, or no flags or run function", c.name)
+		}
+		seen[c.name] = true
 		if !strings.Contains(c.long, "EXIT STATUS") || !strings.Contains(c.long, "EXAMPLE") {
 			t.Errorf("%s: long help lacks EXAMPLE or EXIT STATUS", c.name)
 		}
@@ -271,39 +279,25 @@ func inspectArgs(path string, more ...string) []string {
 		"--queries", "queries", "--outcome", "sales"}, more...)
 }
 
-func TestResetFlags(t *testing.T) {
-	fs := pflag.NewFlagSet("x", pflag.ContinueOnError)
-	names := fs.StringSlice("names", []string{"a"}, "")
-	nums := fs.IntSlice("nums", []int{1, 2}, "")
-	seed := fs.Uint64("seed", 7, "")
-	force := fs.Bool("force", false, "")
-	parse := func(args ...string) {
-		t.Helper()
-		resetFlags(fs)
-		if err := fs.Parse(args); err != nil {
-			t.Fatal(err)
-		}
+// TestCommandsBuiltTwice checks that a command built twice shares no flag
+// state: parsing one leaves the other at its defaults; a repeated slice
+// flag appends, its first use replacing the default; and the help shows
+// slice flags and their defaults as pflag does.
+func TestCommandsBuiltTwice(t *testing.T) {
+	a, b := newValidateCommand(), newValidateCommand()
+	if err := a.flags.Parse([]string{"--leave-out", "2024Q1,2024Q2", "--leave-out", "2024Q3", "--checks", "holdout", "--seed", "9", "--force"}); err != nil {
+		t.Fatal(err)
 	}
-	parse("--names", "b,c", "--names", "d", "--nums", "5", "--seed", "9", "--force")
-	if !slices.Equal(*names, []string{"b", "c", "d"}) || !slices.Equal(*nums, []int{5}) || *seed != 9 || !*force {
-		t.Fatalf("first parse: got %v %v %v %v", *names, *nums, *seed, *force)
+	value := func(c *command, name string) string { return c.flags.Lookup(name).Value.String() }
+	if got := []string{value(a, "leave-out"), value(a, "checks"), value(a, "seed"), value(a, "force")}; !slices.Equal(got, []string{"[2024Q1,2024Q2,2024Q3]", "[holdout]", "9", "true"}) {
+		t.Fatalf("first command: got %v", got)
 	}
-	parse()
-	if !slices.Equal(*names, []string{"a"}) || !slices.Equal(*nums, []int{1, 2}) || *seed != 7 || *force || fs.Changed("names") {
-		t.Fatalf("after reset: got %v %v %v %v", *names, *nums, *seed, *force)
+	if got := []string{value(b, "leave-out"), value(b, "checks"), value(b, "seed"), value(b, "force")}; !slices.Equal(got, []string{"[]", "[recovery,holdout,stability]", "1", "false"}) || b.flags.Changed("checks") {
+		t.Fatalf("second command: got %v, want the defaults", got)
 	}
-	parse("--names", "e", "--nums", "3,4")
-	if !slices.Equal(*names, []string{"e"}) || !slices.Equal(*nums, []int{3, 4}) {
-		t.Fatalf("second parse: got %v %v", *names, *nums)
-	}
-	if err := fs.Parse([]string{"--nums", "x"}); err == nil || !slices.Equal(*nums, []int{3, 4}) {
-		t.Fatalf("a bad value: got %v, nums %v", err, *nums)
-	}
-	// The help shows the wrapped flags as pflag would.
-	if u := flagUsages(fs); !strings.Contains(u, "--names strings") || !strings.Contains(u, `(default [a])`) {
+	var help bytes.Buffer
+	writeCommandHelp(&help, b)
+	if u := help.String(); !strings.Contains(u, "--checks CHECKS") || !strings.Contains(u, "(default [recovery,holdout,stability])") {
 		t.Errorf("usage: %s", u)
-	}
-	if _, ok := fs.Lookup("names").Value.(*resettableSlice); !ok {
-		t.Error("flagUsages did not put the wrapper back")
 	}
 }

@@ -18,9 +18,6 @@ const (
 	DrawColumn      = ".draw"
 )
 
-// SummaryHeader is the header of the summary CSV, in order.
-var SummaryHeader = []string{"parameter", "mean", "sd", "q05", "q50", "q95", "rhat", "ess_bulk", "ess_tail", "mcse_mean"}
-
 // formatFloat formats v so that strconv.ParseFloat returns v exactly;
 // NaN and ±Inf are written as NaN, +Inf and -Inf.
 func formatFloat(dst []byte, v float64) []byte {
@@ -71,7 +68,7 @@ func WriteDraws(w io.Writer, f *Fit) error {
 	return bw.Flush()
 }
 
-// ParseError locates a problem in a draws or summary CSV. Line is 1-based
+// ParseError locates a problem in a draws CSV. Line is 1-based
 // and counts the header; Column is the header name ("" for a whole-row
 // problem).
 type ParseError struct {
@@ -180,69 +177,4 @@ func ReadDraws(r io.Reader) (*Fit, error) {
 		fit.Chains[c] = Chain{Draws: mat.NewDense(n, k, data)}
 	}
 	return fit, nil
-}
-
-// WriteSummary writes s as CSV with the columns of SummaryHeader, numbers in
-// round-trip precision (NaN for undefined diagnostics).
-func WriteSummary(w io.Writer, s []Summary) error {
-	cw := csv.NewWriter(w)
-	if err := cw.Write(SummaryHeader); err != nil {
-		return err
-	}
-	rec := make([]string, len(SummaryHeader))
-	for _, p := range s {
-		rec[0] = p.Parameter
-		for i, v := range []float64{p.Mean, p.SD, p.Q05, p.Q50, p.Q95, p.Rhat, p.ESSBulk, p.ESSTail, p.MCSEMean} {
-			rec[i+1] = strconv.FormatFloat(v, 'g', -1, 64)
-		}
-		if err := cw.Write(rec); err != nil {
-			return err
-		}
-	}
-	cw.Flush()
-	return cw.Error()
-}
-
-// ReadSummary reads a summary CSV written by WriteSummary. The header must
-// be exactly SummaryHeader. Problems are returned as *ParseError.
-func ReadSummary(r io.Reader) ([]Summary, error) {
-	cr := csv.NewReader(r)
-	header, err := cr.Read()
-	if err == io.EOF {
-		return nil, &ParseError{Line: 1, Err: errors.New("empty file, want a header")}
-	}
-	if err != nil {
-		return nil, err
-	}
-	if len(header) != len(SummaryHeader) {
-		return nil, &ParseError{Line: 1, Err: fmt.Errorf("header has %d columns, want %d", len(header), len(SummaryHeader))}
-	}
-	for i, h := range SummaryHeader {
-		if header[i] != h {
-			return nil, &ParseError{Line: 1, Err: fmt.Errorf("column %d is %q, want %q", i+1, header[i], h)}
-		}
-	}
-	var out []Summary
-	for line := 2; ; line++ {
-		rec, err := cr.Read()
-		if err == io.EOF {
-			return out, nil
-		}
-		if err != nil {
-			var pe *csv.ParseError
-			if errors.As(err, &pe) {
-				return nil, &ParseError{Line: pe.Line, Err: pe.Err}
-			}
-			return nil, err
-		}
-		var v [9]float64
-		for i := range v {
-			v[i], err = strconv.ParseFloat(rec[i+1], 64)
-			if err != nil {
-				return nil, &ParseError{Line: line, Column: SummaryHeader[i+1], Err: fmt.Errorf("%q is not a number", rec[i+1])}
-			}
-		}
-		out = append(out, Summary{Parameter: rec[0], Mean: v[0], SD: v[1], Q05: v[2], Q50: v[3], Q95: v[4],
-			Rhat: v[5], ESSBulk: v[6], ESSTail: v[7], MCSEMean: v[8]})
-	}
 }

@@ -6,6 +6,8 @@ import (
 
 	"gonum.org/v1/gonum/dsp/fourier"
 	"gonum.org/v1/gonum/mathext"
+
+	"spillway/funnel/stat"
 )
 
 // The diagnostics in this file follow Vehtari, Gelman, Simpson, Carpenter and
@@ -127,24 +129,6 @@ func zScale(x [][]float64) [][]float64 {
 	return out
 }
 
-func meanOf(x []float64) float64 {
-	s := 0.0
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
-
-// varianceOf returns the sample variance (n − 1 divisor) of x.
-func varianceOf(x []float64) float64 {
-	mu := meanOf(x)
-	s := 0.0
-	for _, v := range x {
-		s += (v - mu) * (v - mu)
-	}
-	return s / float64(len(x)-1)
-}
-
 // rhatCore is posterior's .rhat: sqrt((B/W + n − 1)/n) with
 // B = n var(chain means) and W = mean(chain variances).
 func rhatCore(x [][]float64) float64 {
@@ -158,11 +142,11 @@ func rhatCore(x [][]float64) float64 {
 	means := make([]float64, m)
 	w := 0.0
 	for c, ch := range x {
-		means[c] = meanOf(ch)
-		w += varianceOf(ch)
+		means[c] = stat.Mean(ch)
+		w += stat.Variance(ch)
 	}
 	w /= float64(m)
-	b := float64(n) * varianceOf(means)
+	b := float64(n) * stat.Variance(means)
 	return math.Sqrt((b/w + float64(n) - 1) / float64(n))
 }
 
@@ -181,7 +165,7 @@ func essCore(x [][]float64) float64 {
 	var work []float64
 	var coef []complex128
 	for c, ch := range x {
-		means[c] = meanOf(ch)
+		means[c] = stat.Mean(ch)
 		acovs[c], work, coef = autocovariance(fft, ch, work, coef)
 	}
 	// acov returns the chain-averaged autocovariance at lag k.
@@ -196,7 +180,7 @@ func essCore(x [][]float64) float64 {
 	meanVar := acov(0) * fn / (fn - 1)
 	varPlus := meanVar * (fn - 1) / fn
 	if m > 1 {
-		varPlus += varianceOf(means)
+		varPlus += stat.Variance(means)
 	}
 	rho := make([]float64, n)
 	t := 0
@@ -248,7 +232,7 @@ func essCore(x [][]float64) float64 {
 func autocovariance(fft *fourier.FFT, x, work []float64, coef []complex128) ([]float64, []float64, []complex128) {
 	n := len(x)
 	out := make([]float64, n)
-	v := varianceOf(x)
+	v := stat.Variance(x)
 	if v == 0 {
 		return out, work, coef
 	}
@@ -257,7 +241,7 @@ func autocovariance(fft *fourier.FFT, x, work []float64, coef []complex128) ([]f
 		work = make([]float64, size)
 	}
 	work = work[:size]
-	mu := meanOf(x)
+	mu := stat.Mean(x)
 	for i, xi := range x {
 		work[i] = xi - mu
 	}
@@ -319,7 +303,7 @@ func foldDraws(x [][]float64, med float64) [][]float64 {
 // with the tail R-hat of the folded draws (median from sorted).
 func rhatFrom(x, zb [][]float64, sorted []float64) float64 {
 	bulk := rhatCore(zb)
-	tail := rhatCore(zScale(splitChains(foldDraws(x, Quantile(sorted, 0.5)))))
+	tail := rhatCore(zScale(splitChains(foldDraws(x, stat.Quantile(sorted, 0.5)))))
 	if math.IsNaN(bulk) || math.IsNaN(tail) {
 		return math.NaN()
 	}
@@ -335,7 +319,7 @@ func essQuantileFrom(x [][]float64, sorted []float64, p float64) float64 {
 		s := float64(len(sorted))
 		p = (s - 0.5) / s
 	}
-	q := Quantile(sorted, p)
+	q := stat.Quantile(sorted, p)
 	ind := make([][]float64, len(x))
 	for c, ch := range x {
 		b := make([]float64, len(ch))
@@ -422,44 +406,6 @@ func ESSTail(x [][]float64) float64 {
 // sd(x) / sqrt(ESSBasic(x)), in the units of x (posterior's mcse_mean).
 func MCSEMean(x [][]float64) float64 {
 	checkShape(x)
-	return sdPooled(x) / math.Sqrt(ESSBasic(x))
-}
-
-func sdPooled(x [][]float64) float64 {
-	s, n := 0.0, 0
-	for _, c := range x {
-		for _, v := range c {
-			s += v
-			n++
-		}
-	}
-	mu := s / float64(n)
-	ss := 0.0
-	for _, c := range x {
-		for _, v := range c {
-			ss += (v - mu) * (v - mu)
-		}
-	}
-	return math.Sqrt(ss / float64(n-1))
-}
-
-// Quantile returns the type-7 sample quantile (R's default; Hyndman and Fan
-// 1996) of the sorted values at probability p in [0, 1]: with
-// h = 1 + (n−1)p, lo = ⌊h⌋, it is (1 − (h − lo)) x[lo] + (h − lo) x[lo+1]
-// in 1-based indexing. It panics on an empty slice.
-func Quantile(sorted []float64, p float64) float64 {
-	n := len(sorted)
-	if n == 0 {
-		panic("mcmc: quantile of no values")
-	}
-	index := 1 + float64(n-1)*p
-	lo := math.Floor(index)
-	hi := math.Ceil(index)
-	q := sorted[int(lo)-1]
-	xhi := sorted[int(hi)-1]
-	if index > lo && xhi != q {
-		h := index - lo
-		q = (1-h)*q + h*xhi
-	}
-	return q
+	_, sd := stat.MeanSD(slices.Concat(x...))
+	return sd / math.Sqrt(ESSBasic(x))
 }

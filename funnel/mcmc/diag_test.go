@@ -166,16 +166,3 @@ func TestConstantParameter(t *testing.T) {
 		t.Errorf("summary of constant draws: got %+v", s)
 	}
 }
-
-// TestQuantileType7 checks Quantile against R's quantile(type = 7):
-// quantile(c(1, 2, 4, 8, 16), c(0.05, 0.5, 0.95, 0, 1)) gives
-// 1.2, 4, 14.4, 1, 16 (hand-computed from the type-7 definition,
-// Hyndman and Fan 1996).
-func TestQuantileType7(t *testing.T) {
-	x := []float64{1, 2, 4, 8, 16}
-	for _, c := range []struct{ p, want float64 }{{0.05, 1.2}, {0.5, 4}, {0.95, 14.4}, {0, 1}, {1, 16}} {
-		if got := mcmc.Quantile(x, c.p); !scalar.EqualWithinAbsOrRel(got, c.want, 1e-14, 1e-14) {
-			t.Errorf("Quantile(%v): got %v, want %v", c.p, got, c.want)
-		}
-	}
-}

@@ -1,7 +1,7 @@
 // Package mcmc samples posterior distributions on unconstrained R^n with the
 // No-U-Turn Sampler, runs several chains in parallel, and diagnoses the result
-// (rank-normalised split R-hat, bulk and tail ESS; Vehtari et al. 2021). It
-// imports no other spillway package.
+// (rank-normalised split R-hat, bulk and tail ESS; Vehtari et al. 2021). Of
+// the other spillway packages it imports only funnel/stat.
 //
 // # Using it
 //
@@ -9,8 +9,8 @@
 // unconstrained scale, names, the map to constrained values, Clone). Run
 // samples it with Settings (nil means 4 chains, 1000 warm-up and 1000 kept
 // iterations, target acceptance 0.8, tree depth 10), Summarize computes the
-// per-parameter table, Judge gives the verdict, and WriteDraws, ReadDraws,
-// WriteSummary and ReadSummary move fits through tidy CSV files. Package
+// per-parameter table, Judge gives the verdict, and WriteDraws and ReadDraws
+// move fits through tidy CSV files. Package
 // mcmctest checks a model's gradient against finite differences; package
 // progress prints progress for a Recorder.
 //

@@ -10,6 +10,8 @@ import (
 	"time"
 
 	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/stat"
 )
 
 // Recorder receives progress from the chains. Record is called after every
@@ -354,11 +356,7 @@ func ebfmi(e []float64) float64 {
 	if len(e) < 2 {
 		return math.NaN()
 	}
-	mean := 0.0
-	for _, v := range e {
-		mean += v
-	}
-	mean /= float64(len(e))
+	mean := stat.Mean(e)
 	num, den := 0.0, 0.0
 	for i, v := range e {
 		den += (v - mean) * (v - mean)

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"math"
 	"runtime"
+	"slices"
 	"strings"
 	"sync/atomic"
 	"testing"
@@ -14,6 +15,7 @@ import (
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/mcmc/mcmctest"
+	"spillway/funnel/stat"
 )
 
 // transformed returns per-chain draws of f(name's draws).
@@ -28,21 +30,10 @@ func transformed(x [][]float64, f func(float64) float64) [][]float64 {
 	return out
 }
 
-func pooledMean(x [][]float64) float64 {
-	s, n := 0.0, 0
-	for _, c := range x {
-		for _, v := range c {
-			s += v
-			n++
-		}
-	}
-	return s / float64(n)
-}
-
 // checkMoment reports whether the draws' mean is within k MCSE of want.
 func checkMoment(t *testing.T, label string, x [][]float64, want, k float64) {
 	t.Helper()
-	got, se := pooledMean(x), mcmc.MCSEMean(x)
+	got, se := stat.Mean(slices.Concat(x...)), mcmc.MCSEMean(x)
 	if math.Abs(got-want) > k*se {
 		t.Errorf("%s: mean %.6g, want %.6g within %g MCSE (MCSE %.3g, off by %.2f MCSE)", label, got, want, k, se, (got-want)/se)
 	}
@@ -331,29 +322,6 @@ func TestReadDrawsErrors(t *testing.T) {
 		var pe *mcmc.ParseError
 		if err == nil || !errors.As(err, &pe) || !strings.Contains(err.Error(), c.want) {
 			t.Errorf("%s: got %v, want a ParseError containing %q", c.name, err, c.want)
-		}
-	}
-}
-
-func TestSummaryCSV(t *testing.T) {
-	fit := readFit(t, "testdata/tiny_draws.csv")
-	sums := mcmc.Summarize(fit)
-	var b bytes.Buffer
-	if err := mcmc.WriteSummary(&b, sums); err != nil {
-		t.Fatal(err)
-	}
-	if first := strings.SplitN(b.String(), "\n", 2)[0]; first != "parameter,mean,sd,q05,q50,q95,rhat,ess_bulk,ess_tail,mcse_mean" {
-		t.Errorf("header %q", first)
-	}
-	back, err := mcmc.ReadSummary(&b)
-	if err != nil {
-		t.Fatal(err)
-	}
-	for i := range sums {
-		g, w := back[i], sums[i]
-		// ess_tail of x is NaN (all draws at or below q95; R gives NA).
-		if g.Parameter != w.Parameter || g.Mean != w.Mean || g.Rhat != w.Rhat || !(g.ESSTail == w.ESSTail || math.IsNaN(w.ESSTail) && math.IsNaN(g.ESSTail)) {
-			t.Errorf("row %d: got %+v, want %+v", i, g, w)
 		}
 	}
 }

@@ -7,6 +7,8 @@ import (
 	"slices"
 	"strings"
 	"sync"
+
+	"spillway/funnel/stat"
 )
 
 // Summary describes one constrained parameter over all chains' draws.
@@ -60,12 +62,8 @@ func summarizeColumn(name string, x [][]float64) Summary {
 	for _, c := range x {
 		pooled = append(pooled, c...)
 	}
-	s := Summary{Parameter: name, Mean: meanOf(pooled)}
-	if len(pooled) > 1 {
-		s.SD = sdPooled(x)
-	} else {
-		s.SD = math.NaN()
-	}
+	s := Summary{Parameter: name}
+	s.Mean, s.SD = stat.MeanSD(pooled) // before the sort below: the sums run in draw order
 	constant := true
 	for _, v := range pooled {
 		if v != pooled[0] {
@@ -84,9 +82,9 @@ func summarizeColumn(name string, x [][]float64) Summary {
 		// One sort and one rank normalisation serve the quantiles, R-hat and
 		// both ESS values.
 		slices.Sort(pooled)
-		s.Q05 = Quantile(pooled, 0.05)
-		s.Q50 = Quantile(pooled, 0.5)
-		s.Q95 = Quantile(pooled, 0.95)
+		s.Q05 = stat.Quantile(pooled, 0.05)
+		s.Q50 = stat.Quantile(pooled, 0.5)
+		s.Q95 = stat.Quantile(pooled, 0.95)
 		zb := zScale(splitChains(x))
 		s.Rhat = rhatFrom(x, zb, pooled)
 		s.ESSBulk = essCore(zb)

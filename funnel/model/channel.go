@@ -2,6 +2,7 @@ package model
 
 import (
 	"math"
+	"spillway/funnel/stat"
 
 	"spillway/funnel/transform"
 )
@@ -29,7 +30,7 @@ type channelTerm struct {
 
 func newChannelTerm(c *Channel, k []int, par []param, plain, centred bool) *channelTerm {
 	ch := &channelTerm{k: k, x: c.X, linear: c.Linear, plain: plain, centred: centred,
-		abar: mean(c.X), coefFree: par[k[0]].free, coefReal: par[k[0]].sup == Real, kFree: -1, sFree: -1}
+		abar: stat.Mean(c.X), coefFree: par[k[0]].free, coefReal: par[k[0]].sup == Real, kFree: -1, sFree: -1}
 	if !c.Linear {
 		ch.kFree, ch.sFree = par[k[2]].free, par[k[3]].free
 		ch.alloc()

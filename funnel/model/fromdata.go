@@ -2,6 +2,7 @@ package model
 
 import (
 	"spillway/funnel/data"
+	"spillway/funnel/stat"
 )
 
 // Scale converts a national series to model units. Column names come from
@@ -68,12 +69,12 @@ func ScaleTrain(s data.Series, spec data.Spec, train []bool) *Scaled {
 		d := SpendScale(pick(x))
 		sc.Search, sc.SearchScale = append(sc.Search, scaled(x, d)), append(sc.SearchScale, d)
 	}
-	sc.QueriesScale = mean(pick(s.Queries))
+	sc.QueriesScale = stat.Mean(pick(s.Queries))
 	sc.Queries = scaled(s.Queries, sc.QueriesScale)
-	sc.OutcomeScale = mean(pick(s.Outcome))
+	sc.OutcomeScale = stat.Mean(pick(s.Outcome))
 	sc.Outcome = scaled(s.Outcome, sc.OutcomeScale)
 	for _, z := range s.Controls {
-		m, sd := meanSD(pick(z))
+		m, sd := stat.MeanSD(pick(z))
 		out := make([]float64, T)
 		for i, v := range z {
 			out[i] = (v - m) / sd

@@ -127,3 +127,26 @@ func (p Prior) String() string {
 	}
 	return string(p.Family)
 }
+
+// NormalApprox returns the mean and precision (1/variance) of a normal
+// penalty that stands in for the prior in a least-squares projection: the
+// prior itself for Normal; for HalfNormal(s) the untruncated N(0, s), whose
+// log density has the same shape on x > 0; the prior's mean and variance for
+// Gamma and Beta; precision 0 (no penalty) for Flat and Jeffreys. Fixed
+// parameters are not projected and return (P1, 0).
+func (p Prior) NormalApprox() (mean, prec float64) {
+	switch p.Family {
+	case Normal:
+		return p.P1, 1 / (p.P2 * p.P2)
+	case HalfNormal:
+		return 0, 1 / (p.P1 * p.P1)
+	case Gamma:
+		return p.P1 / p.P2, p.P2 * p.P2 / p.P1
+	case Beta:
+		s := p.P1 + p.P2
+		return p.P1 / s, s * s * (s + 1) / (p.P1 * p.P2)
+	case Fixed:
+		return p.P1, 0
+	}
+	return 0, 0
+}

@@ -1,13 +1,14 @@
 package model
 
 import (
-	"encoding/csv"
 	"errors"
 	"fmt"
 	"io"
 	"os"
 	"strconv"
 	"strings"
+
+	"spillway/funnel/table"
 )
 
 // PriorError is a bad line of a priors file.
@@ -40,42 +41,50 @@ func LoadPriors(path string, known func(string) bool) (map[string]Prior, error) 
 	return ReadPriors(f, path, known)
 }
 
+// priorRow is one line of a priors file.
+type priorRow struct {
+	Parameter string     `csv:"parameter"`
+	Family    string     `csv:"family"`
+	P1        priorParam `csv:"p1"`
+	P2        priorParam `csv:"p2"`
+}
+
+// priorParam is p1 or p2: a number, or an empty cell for a family that
+// needs fewer parameters.
+type priorParam float64
+
+func (p *priorParam) UnmarshalCSV(s string) error {
+	if s == "" {
+		*p = 0
+		return nil
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil {
+		return fmt.Errorf("%q is not a number", s)
+	}
+	*p = priorParam(v)
+	return nil
+}
+
 // ReadPriors is LoadPriors on a reader; file names the source in errors.
 func ReadPriors(r io.Reader, file string, known func(string) bool) (map[string]Prior, error) {
-	cr := csv.NewReader(r)
-	cr.FieldsPerRecord = -1
-	rows, err := cr.ReadAll()
+	var rows []priorRow
+	lines, err := table.Read(r, file, &rows, table.Options{Exact: true})
 	if err != nil {
-		var pe *csv.ParseError
-		if errors.As(err, &pe) {
-			return nil, &PriorError{File: file, Line: pe.Line, Column: pe.Column, Err: pe.Err}
+		var te *table.Error
+		if !errors.As(err, &te) {
+			return nil, &PriorError{File: file, Line: 1, Err: err}
 		}
-		return nil, &PriorError{File: file, Line: 1, Err: err}
-	}
-	if len(rows) == 0 {
-		return nil, &PriorError{File: file, Line: 1, Err: errors.New("empty file; expected the header parameter,family,p1,p2")}
-	}
-	want := []string{"parameter", "family", "p1", "p2"}
-	head := rows[0]
-	if len(head) > 0 {
-		head[0] = strings.TrimPrefix(head[0], "\ufeff")
-	}
-	if len(head) != 4 {
-		return nil, &PriorError{File: file, Line: 1, Err: fmt.Errorf("header has %d columns; expected parameter,family,p1,p2", len(head))}
-	}
-	for i, h := range head {
-		if strings.TrimSpace(h) != want[i] {
-			return nil, &PriorError{File: file, Line: 1, Column: i + 1, Err: fmt.Errorf("header column %d is %q; expected %q", i+1, h, want[i])}
+		pe := &PriorError{File: file, Line: max(te.Line, 1), Column: te.Col, Err: te.Err}
+		if te.Line > 1 && te.Column != "" {
+			pe.Err = fmt.Errorf("%s %w", te.Column, te.Err) // p1 "zero" is not a number
 		}
+		return nil, pe
 	}
 	out := map[string]Prior{}
 	seen := map[string]int{}
-	for i, row := range rows[1:] {
-		line := i + 2
-		if len(row) != 4 {
-			return nil, &PriorError{File: file, Line: line, Err: fmt.Errorf("row has %d fields; expected 4 (parameter,family,p1,p2)", len(row))}
-		}
-		name := strings.TrimSpace(row[0])
+	for i, row := range rows {
+		line, name := lines[i], row.Parameter
 		if !known(name) {
 			return nil, &PriorError{File: file, Line: line, Column: 1, Err: fmt.Errorf("no parameter named %q in the model (names look like alpha[video_spend], K2[audio_spend], gamma, sigma_q)", name)}
 		}
@@ -83,18 +92,7 @@ func ReadPriors(r io.Reader, file string, known func(string) bool) (map[string]P
 			return nil, &PriorError{File: file, Line: line, Column: 1, Err: fmt.Errorf("parameter %s already has a prior on line %d", name, prev)}
 		}
 		seen[name] = line
-		p := Prior{Family: Family(strings.ToLower(strings.TrimSpace(row[1])))}
-		for k, dst := range []*float64{&p.P1, &p.P2} {
-			s := strings.TrimSpace(row[2+k])
-			if s == "" {
-				continue
-			}
-			v, err := strconv.ParseFloat(s, 64)
-			if err != nil {
-				return nil, &PriorError{File: file, Line: line, Column: 3 + k, Err: fmt.Errorf("p%d %q is not a number", k+1, s)}
-			}
-			*dst = v
-		}
+		p := Prior{Family: Family(strings.ToLower(row.Family)), P1: float64(row.P1), P2: float64(row.P2)}
 		if err := p.Check(); err != nil {
 			return nil, &PriorError{File: file, Line: line, Column: 2, Err: fmt.Errorf("%s: %v", name, err)}
 		}

@@ -1,7 +1,6 @@
 package model
 
 import (
-	"math"
 	"time"
 )
 
@@ -71,21 +70,4 @@ func scaled(x []float64, d float64) []float64 {
 		out[i] = v / d
 	}
 	return out
-}
-
-func mean(x []float64) float64 {
-	s := 0.0
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
-
-func meanSD(x []float64) (m, sd float64) {
-	m = mean(x)
-	ss := 0.0
-	for _, v := range x {
-		ss += (v - m) * (v - m)
-	}
-	return m, math.Sqrt(ss / float64(len(x)-1))
 }

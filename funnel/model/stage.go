@@ -1,6 +1,10 @@
 package model
 
-import "fmt"
+import (
+	"fmt"
+
+	"spillway/funnel/stat"
+)
 
 // Param is one named parameter of a stage with its prior.
 type Param struct {
@@ -219,7 +223,7 @@ func (s *Stage) Target() (*Target, error) {
 		}
 		bar := 0.0
 		if t.centred {
-			bar = mean(r.X)
+			bar = stat.Mean(r.X)
 		}
 		t.terms = append(t.terms, &regressorTerm{k: k, x: r.X, bar: bar})
 	}

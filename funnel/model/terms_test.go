@@ -3,6 +3,7 @@ package model
 import (
 	"math"
 	"math/rand/v2"
+	"spillway/funnel/stat"
 	"testing"
 
 	"spillway/funnel/mcmc/mcmctest"
@@ -63,7 +64,7 @@ func predictorFunc(t *testing.T, p predictor, np int, k []int, base, scale, c []
 func TestRegressorTerm(t *testing.T) {
 	sc := testScaled(40, 1)
 	c := randomWeights(40, 1)
-	for _, bar := range []float64{0, mean(sc.Controls[0])} {
+	for _, bar := range []float64{0, stat.Mean(sc.Controls[0])} {
 		r := &regressorTerm{k: 1, x: sc.Controls[0], bar: bar}
 		f := predictorFunc(t, r, 2, []int{1}, []float64{0.2}, []float64{2}, c, 0.7)
 		mcmctest.CheckGradient(t, f, 1e-7, termGrad)

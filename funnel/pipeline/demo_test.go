@@ -13,6 +13,7 @@ import (
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/scenario"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -96,7 +97,7 @@ func TestAgainstStan(t *testing.T) {
 			n++
 		}
 	}
-	split, err := mediation.Split(fit.Inputs(), mediation.Quarters(fit.Data.Weeks)[:1])
+	split, err := mediation.Split(fit.Inputs(), window.Quarters(fit.Data.Weeks)[:1])
 	if err != nil {
 		t.Fatal(err)
 	}

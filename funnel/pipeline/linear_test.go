@@ -6,6 +6,7 @@ import (
 	"encoding/csv"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -13,6 +14,8 @@ import (
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
+	"spillway/funnel/window"
+	"spillway/funnel/stat"
 	"spillway/mediation"
 )
 
@@ -114,28 +117,11 @@ func draws(fit *mcmc.Fit, name string, f func(float64) float64) [][]float64 {
 	return out
 }
 
-func meanSD(x [][]float64) (m, sd float64) {
-	n := 0
-	for _, c := range x {
-		for _, v := range c {
-			m += v
-			n++
-		}
-	}
-	m /= float64(n)
-	for _, c := range x {
-		for _, v := range c {
-			sd += (v - m) * (v - m)
-		}
-	}
-	return m, math.Sqrt(sd / float64(n-1))
-}
-
 // checkMoments requires a posterior mean within 4 MCSE of want and, when
 // wantSD > 0, the posterior sd within 10% of wantSD.
 func checkMoments(t *testing.T, name string, x [][]float64, want, wantSD float64) {
 	t.Helper()
-	m, sd := meanSD(x)
+	m, sd := stat.MeanSD(slices.Concat(x...))
 	mcse := mcmc.MCSEMean(x)
 	t.Logf("%s: mean %.10g (want %.10g, %.2f MCSE), sd %.6g (want %.6g)", name, m, want, (m-want)/mcse, sd, wantSD)
 	if math.Abs(m-want) > 4*mcse {
@@ -233,7 +219,7 @@ func TestLinearTalOr(t *testing.T) {
 		t.Errorf("sensitivity crosses zero at rho = %.4f, want 0.4301", sens[0].Zero)
 	}
 	// at rho = 0 the sensitivity reproduces the main via-search effect
-	res, err := mediation.Split(in, mediation.Quarters(sc.Weeks)[:1])
+	res, err := mediation.Split(in, window.Quarters(sc.Weeks)[:1])
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -9,6 +9,7 @@ import (
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/scenario"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -62,7 +63,7 @@ func TestRecovery(t *testing.T) {
 				t.Logf("%s %s: %v", name, StageNames[k], v.Reasons)
 			}
 		}
-		split, err := mediation.Split(fit.Inputs(), mediation.Quarters(scaled.Weeks)[:1])
+		split, err := mediation.Split(fit.Inputs(), window.Quarters(scaled.Weeks)[:1])
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -9,6 +9,7 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/model"
+	"spillway/funnel/stat"
 )
 
 // Channel holds the true transform of one channel in one stage.
@@ -227,7 +228,7 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 		}
 	}
 	// paid search spend partly follows query volume
-	mq := mean(q)
+	mq := stat.Mean(q)
 	search := make([]float64, T)
 	for i := range search {
 		f := s.SearchFollowsQueries*q[i]/mq + (1 - s.SearchFollowsQueries)
@@ -252,15 +253,15 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 		}
 	}
 	// raw units; the model divides by the means, so the truth is rescaled by them
-	mqs, mys := mean(q), mean(y)
+	mqs, mys := stat.Mean(q), stat.Mean(y)
 	queries, outcome := make([]float64, T), make([]float64, T)
 	for i := range q {
 		queries[i] = math.Round(q[i] * s.QueryBase)
 		outcome[i] = math.Round(y[i] * s.OutcomeBase)
 	}
 	// rounding changes the means slightly; use the means the model will see
-	mqs = mean(queries) / s.QueryBase
-	mys = mean(outcome) / s.OutcomeBase
+	mqs = stat.Mean(queries) / s.QueryBase
+	mys = stat.Mean(outcome) / s.OutcomeBase
 	reg := data.Region{Name: name, Population: pop, Series: data.Series{
 		Weeks: weeks, Upper: upperRaw, Search: [][]float64{search}, Queries: queries, Outcome: outcome,
 		Controls: [][]float64{price}}}
@@ -406,25 +407,12 @@ func divide(x []float64, d float64) []float64 {
 }
 
 func standardise(x []float64) []float64 {
-	m := mean(x)
-	ss := 0.0
-	for _, v := range x {
-		ss += (v - m) * (v - m)
-	}
-	sd := math.Sqrt(ss / float64(len(x)-1))
+	m, sd := stat.MeanSD(x)
 	out := make([]float64, len(x))
 	for i, v := range x {
 		out[i] = (v - m) / sd
 	}
 	return out
-}
-
-func mean(x []float64) float64 {
-	s := 0.0
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
 }
 
 func round2(v float64) float64 { return math.Round(v*100) / 100 }

@@ -8,6 +8,7 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/model"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -117,7 +118,7 @@ func TrueSplit(s data.Series, spec data.Spec, dem, out map[string]float64) (*med
 		return nil, err
 	}
 	return mediation.Split(&mediation.Inputs{Data: sc, Demand: st1, Outcome: st2, DemandDraws: d1, OutcomeDraws: d2},
-		mediation.Quarters(s.Weeks))
+		window.Quarters(s.Weeks))
 }
 
 // WriteJSON writes t as indented JSON with sorted keys (maps are sorted by

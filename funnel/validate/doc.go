@@ -22,7 +22,8 @@
 // joins the shards' Results after checking that they come from the same
 // data and settings and hold every job exactly once; Aggregate turns a
 // complete set of Records into the validation table and verdicts, and
-// Files renders the output folder. The unsharded path goes through the same
+// Files renders the output folder (validation.png is drawn from the Report
+// by spillway/plots/validation, so this package needs no plotting library). The unsharded path goes through the same
 // records, so a merged sweep is byte-identical to an unsharded one.
 //
 // The package does no file or terminal I/O of its own: readers and

@@ -6,8 +6,6 @@ import (
 	"math"
 	"strconv"
 	"strings"
-
-	"spillway/funnel/validate/chart"
 )
 
 // The files of a validation folder.
@@ -33,7 +31,8 @@ func ShardFiles(res *Results) (map[string][]byte, error) {
 }
 
 // Files renders the folder of a complete sweep: manifest.json, jobs.csv,
-// validation.csv, verdict.txt and validation.png. To make a whole run and
+// validation.csv and verdict.txt; validation.png (ChartFile) is drawn from
+// the returned Report by spillway/plots/validation. To make a whole run and
 // a merge of shards produce the same bytes, the records are first written
 // as jobs.csv and read back, and everything is aggregated from what was
 // read.
@@ -55,10 +54,6 @@ func Files(res *Results) (map[string][]byte, *Report, error) {
 		return nil, nil, err
 	}
 	files[VerdictFile] = []byte(rep.Text())
-	files[ChartFile], err = rep.Chart()
-	if err != nil {
-		return nil, nil, err
-	}
 	return files, rep, nil
 }
 
@@ -110,20 +105,4 @@ func (rep *Report) Title() string {
 	}
 	s := strings.Join(parts, "; ")
 	return strings.ToUpper(s[:1]) + s[1:]
-}
-
-// Chart renders validation.png.
-func (rep *Report) Chart() ([]byte, error) {
-	f := chart.Figure{Title: rep.Title(), Caption: rep.Caption, Replicates: rep.Replicates}
-	for _, c := range rep.Coverage {
-		f.Coverage = append(f.Coverage, chart.Coverage{Label: c.Label, Path: c.Path, Cover50: c.Cover50, Cover90: c.Cover90, Flagged: c.Flagged})
-	}
-	for _, s := range rep.Forecasts {
-		f.Forecasts = append(f.Forecasts, chart.Forecast{Stage: s.Stage, Days: s.Days, Actual: s.Actual, Mean: s.Mean,
-			Lo: s.Lo, Hi: s.Hi, Baseline: s.Baseline, Origins: s.Origins})
-	}
-	for _, s := range rep.Shifts {
-		f.Shifts = append(f.Shifts, chart.Shift{Label: s.Label, Path: s.Path, Value: s.Shift, Threshold: s.Level, Flagged: s.Flagged})
-	}
-	return f.PNG()
 }

@@ -3,6 +3,7 @@ package validate
 import (
 	"bytes"
 	"context"
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"runtime"
@@ -47,7 +48,7 @@ func TestMergeEqualsWholeRun(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	want, _, err := Files(whole)
+	want, wantRep, err := Files(whole)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -77,7 +78,7 @@ func TestMergeEqualsWholeRun(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	got, _, err := Files(merged)
+	got, gotRep, err := Files(merged)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -88,6 +89,10 @@ func TestMergeEqualsWholeRun(t *testing.T) {
 		if !bytes.Equal(got[name], b) {
 			t.Errorf("%s differs between the merged shards and the whole run", name)
 		}
+	}
+	// validation.png is drawn from the report alone (plots/validation)
+	if g, w := fmt.Sprintf("%+v", gotRep), fmt.Sprintf("%+v", wantRep); g != w {
+		t.Errorf("the report (and so validation.png) differs between the merged shards and the whole run:\n%s\n%s", g, w)
 	}
 	if !strings.Contains(string(want[TableFile]), "check,effect,channel,metric,value\n") {
 		t.Errorf("validation.csv header: %q", strings.SplitN(string(want[TableFile]), "\n", 2)[0])

@@ -15,7 +15,7 @@ import (
 	"spillway/funnel/data"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
-	"spillway/mediation"
+	"spillway/funnel/window"
 )
 
 // The checks, in the order they run and are reported.
@@ -204,7 +204,7 @@ type Sweep struct {
 	set      Settings
 	base     *model.Scaled
 	stages   [2]*model.Stage // built on base
-	windows  []mediation.Window
+	windows  []window.Window
 	jobs     []Job
 	skipped  []string
 	gen      *generator
@@ -236,7 +236,7 @@ func New(in Input, s Settings) (*Sweep, error) {
 			return nil, fmt.Errorf("validate: %s stage: %w", st.Name, err)
 		}
 	}
-	sw.windows = mediation.Quarters(in.Series.Weeks)
+	sw.windows = window.Quarters(in.Series.Weeks)
 	if in.Reference != nil {
 		for k, f := range []*mcmc.Fit{in.Reference.Demand, in.Reference.Outcome} {
 			if f == nil || strings.Join(f.Names, ",") != strings.Join(sw.stages[k].Names(), ",") {
@@ -319,7 +319,7 @@ func (sw *Sweep) plan() error {
 			}
 		}
 		for _, name := range names {
-			i := slices.IndexFunc(quarters, func(w mediation.Window) bool { return w.Name == name })
+			i := slices.IndexFunc(quarters, func(w window.Window) bool { return w.Name == name })
 			if i < 0 {
 				var all []string
 				for _, q := range quarters {

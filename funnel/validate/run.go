@@ -17,7 +17,9 @@ import (
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
+	"spillway/funnel/stat"
 	"spillway/funnel/validate/score"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -333,9 +335,9 @@ func keyEffects(res *mediation.Result, quarters bool) []mediation.Effect {
 func effectRecords(job int, e mediation.Effect, truth *float64) []Record {
 	s := append([]float64(nil), e.Draws...)
 	sort.Float64s(s)
-	mean, sd := meanSD(s)
-	vals := []float64{mean, sd, mcmc.Quantile(s, 0.05), mcmc.Quantile(s, 0.25), mcmc.Quantile(s, 0.5),
-		mcmc.Quantile(s, 0.75), mcmc.Quantile(s, 0.9), mcmc.Quantile(s, 0.95)}
+	mean, sd := stat.MeanSD(s)
+	vals := []float64{mean, sd, stat.Quantile(s, 0.05), stat.Quantile(s, 0.25), stat.Quantile(s, 0.5),
+		stat.Quantile(s, 0.75), stat.Quantile(s, 0.9), stat.Quantile(s, 0.95)}
 	recs := make([]Record, 0, len(vals)+1)
 	if truth != nil {
 		recs = append(recs, Record{Job: job, Kind: "effect", Name: e.Channel, Path: e.Path, Window: e.Window, Stat: "truth", Value: *truth})
@@ -385,21 +387,6 @@ func nanZero(v float64) float64 {
 		return 0
 	}
 	return v
-}
-
-func meanSD(x []float64) (m, sd float64) {
-	for _, v := range x {
-		m += v
-	}
-	m /= float64(len(x))
-	if len(x) < 2 {
-		return m, 0
-	}
-	ss := 0.0
-	for _, v := range x {
-		ss += (v - m) * (v - m)
-	}
-	return m, math.Sqrt(ss / float64(len(x)-1))
 }
 
 // holdoutJob fits the weeks before the origin (the series cut after the
@@ -454,7 +441,7 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			y := actual[t]
 			p := pred[k][i]
 			sort.Float64s(p)
-			mean, _ := meanSD(p)
+			mean, _ := stat.MeanSD(p)
 			base := make([]float64, len(rel))
 			for e, r := range rel {
 				base[e] = point[i] * (1 + r)
@@ -468,13 +455,13 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			}
 			add("actual", y)
 			add("mean", mean)
-			add("q05", mcmc.Quantile(p, 0.05))
-			add("q50", mcmc.Quantile(p, 0.5))
-			add("q95", mcmc.Quantile(p, 0.95))
+			add("q05", stat.Quantile(p, 0.05))
+			add("q50", stat.Quantile(p, 0.5))
+			add("q95", stat.Quantile(p, 0.95))
 			add("crps", score.CRPSSorted(p, y))
 			add("base", point[i])
-			add("base_q05", mcmc.Quantile(base, 0.05))
-			add("base_q95", mcmc.Quantile(base, 0.95))
+			add("base_q05", stat.Quantile(base, 0.05))
+			add("base_q95", stat.Quantile(base, 0.95))
 			add("base_crps", score.CRPSSorted(base, y))
 		}
 	}
@@ -538,7 +525,7 @@ func cutSeries(s data.Series, n int) data.Series {
 func (sw *Sweep) stabilityJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
 	sc := sw.base
 	if j.Quarter != "" {
-		i := slices.IndexFunc(sw.windows, func(w mediation.Window) bool { return w.Name == j.Quarter })
+		i := slices.IndexFunc(sw.windows, func(w window.Window) bool { return w.Name == j.Quarter })
 		q := sw.windows[i]
 		train := make([]bool, sc.T)
 		for t := range train {

@@ -6,6 +6,7 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 
+	"spillway/funnel/stat"
 	"spillway/mediation/ols"
 )
 
@@ -203,13 +204,7 @@ func Moments(e1, e2 []float64) (s1, s2, r float64) {
 	if len(e2) != n || n < 2 {
 		panic(badLen)
 	}
-	var m1, m2 float64
-	for i := range n {
-		m1 += e1[i]
-		m2 += e2[i]
-	}
-	m1 /= float64(n)
-	m2 /= float64(n)
+	m1, m2 := stat.Mean(e1), stat.Mean(e2)
 	var s11, s22, s12 float64
 	for i := range n {
 		d1, d2 := e1[i]-m1, e2[i]-m2

@@ -8,6 +8,8 @@ import (
 	"gonum.org/v1/gonum/blas/blas64"
 	"gonum.org/v1/gonum/lapack/lapack64"
 	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/stat"
 )
 
 // RankTol is the relative tolerance of the rank test: column j of x counts as
@@ -155,11 +157,7 @@ func Solve(x *mat.Dense, y []float64) (*Fit, error) {
 
 	tss := 0.0
 	if hasIntercept(x) {
-		mean := 0.0
-		for _, v := range y {
-			mean += v
-		}
-		mean /= float64(n)
+		mean := stat.Mean(y)
 		for _, v := range y {
 			tss += (v - mean) * (v - mean)
 		}

@@ -5,7 +5,8 @@ import (
 	"math"
 	"slices"
 
-	"spillway/plots/fitdir"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/stat"
 )
 
 // Change is the difference of one effect between two windows, computed
@@ -40,7 +41,7 @@ func (c Change) Relative() float64 {
 // pairedDraws returns the values of the draws two series share, in draw
 // order. It is an error when their draw numbers differ: the windows must
 // come from the same posterior.
-func pairedDraws(a, b fitdir.DrawSeries) (va, vb []float64, err error) {
+func pairedDraws(a, b fitfolder.DrawSeries) (va, vb []float64, err error) {
 	if !slices.Equal(a.Draw, b.Draw) {
 		return nil, nil, fmt.Errorf("the two windows have different posterior draws (%d and %d); rerun spillway split", len(a.Draw), len(b.Draw))
 	}
@@ -51,23 +52,23 @@ func pairedDraws(a, b fitdir.DrawSeries) (va, vb []float64, err error) {
 // "via_search", "total" or "mediated_share") from window base to window.
 // The mediated share is computed per draw as via_search / total in each
 // window. The error says which draws are missing.
-func Compare(f *fitdir.Fit, channel, path, window, base string) (Change, error) {
+func Compare(f *fitfolder.Fit, channel, path, window, base string) (Change, error) {
 	c := Change{Channel: channel, Path: path, Window: window, Base: base}
-	get := func(p, w string) (fitdir.DrawSeries, error) {
-		s, ok := f.EffectDraws[fitdir.DrawKey{Channel: channel, Path: p, Window: w}]
+	get := func(p, w string) (fitfolder.DrawSeries, error) {
+		s, ok := f.EffectDraws[fitfolder.DrawKey{Channel: channel, Path: p, Window: w}]
 		if !ok || len(s.Value) == 0 {
 			return s, fmt.Errorf("effect_draws.csv has no draws for %s %s in window %s", channel, p, w)
 		}
 		return s, nil
 	}
 	var va, vb []float64
-	if path == fitdir.PathMediatedShare {
-		share := func(w string) (fitdir.DrawSeries, error) {
-			via, err := get(fitdir.PathViaSearch, w)
+	if path == fitfolder.PathMediatedShare {
+		share := func(w string) (fitfolder.DrawSeries, error) {
+			via, err := get(fitfolder.PathViaSearch, w)
 			if err != nil {
 				return via, err
 			}
-			tot, err := get(fitdir.PathTotal, w)
+			tot, err := get(fitfolder.PathTotal, w)
 			if err != nil {
 				return tot, err
 			}
@@ -75,7 +76,7 @@ func Compare(f *fitdir.Fit, channel, path, window, base string) (Change, error) 
 			if err != nil {
 				return via, err
 			}
-			out := fitdir.DrawSeries{Draw: via.Draw, Value: make([]float64, len(v))}
+			out := fitfolder.DrawSeries{Draw: via.Draw, Value: make([]float64, len(v))}
 			for i := range v {
 				out.Value[i] = v[i] / t[i]
 			}
@@ -106,36 +107,13 @@ func Compare(f *fitdir.Fit, channel, path, window, base string) (Change, error) 
 		}
 	}
 	d := make([]float64, len(va))
-	sb := 0.0
 	for i := range va {
 		d[i] = va[i] - vb[i]
-		sb += vb[i]
 	}
 	c.Draws = len(d)
-	c.Mean = mean(d)
-	c.BaseMean = sb / float64(len(vb))
+	c.Mean = stat.Mean(d)
+	c.BaseMean = stat.Mean(vb)
 	slices.Sort(d)
-	c.Q05, c.Q95 = quantileSorted(d, 0.05), quantileSorted(d, 0.95)
+	c.Q05, c.Q95 = stat.Quantile(d, 0.05), stat.Quantile(d, 0.95)
 	return c, nil
-}
-
-func mean(v []float64) float64 {
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
-}
-
-// quantileSorted returns the p-quantile of the sorted slice s by linear
-// interpolation between order statistics (Hyndman and Fan 1996, type 7,
-// the default of R's quantile).
-func quantileSorted(s []float64, p float64) float64 {
-	h := p * float64(len(s)-1)
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[i] + (h-lo)*(s[i+1]-s[i])
 }

@@ -11,18 +11,19 @@ import (
 	"slices"
 	"strings"
 
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/window"
 	"spillway/plots"
-	"spillway/plots/fitdir"
 )
 
 // Write writes the quarterly-review report for the window (see
-// fitdir.Fit.Window: empty means the last full quarter) to w as one
+// fitfolder.Fit.Window: empty means the last full quarter) to w as one
 // self-contained HTML page. charts maps chart names (plots.Names) to PNG
 // bytes, embedded as data URIs; a nil map renders them with plots.Render.
 // A chart missing from a non-nil map is left out. Nothing is written to w
-// when an error is returned. The error is a *fitdir.WindowError when the
+// when an error is returned. The error is a *fitfolder.WindowError when the
 // window is not in effects.csv.
-func Write(w io.Writer, f *fitdir.Fit, window string, charts map[string][]byte) error {
+func Write(w io.Writer, f *fitfolder.Fit, window string, charts map[string][]byte) error {
 	win, err := f.Window(window)
 	if err != nil {
 		return err
@@ -126,10 +127,10 @@ type stageRow struct {
 }
 
 var pathLabels = map[string]string{
-	fitdir.PathDirect:        "direct",
-	fitdir.PathViaSearch:     "via branded search",
-	fitdir.PathTotal:         "total",
-	fitdir.PathMediatedShare: "share via search",
+	fitfolder.PathDirect:        "direct",
+	fitfolder.PathViaSearch:     "via branded search",
+	fitfolder.PathTotal:         "total",
+	fitfolder.PathMediatedShare: "share via search",
 }
 
 // chartTitles describes each chart for its heading and alt text.
@@ -146,10 +147,10 @@ var chartTitles = map[string][2]string{
 // perScale chooses how per-unit-spend values are shown: per unit, or per
 // 1,000 of spend when values per unit are small (conversions per currency
 // unit). It returns the factor and the column heading.
-func perScale(f *fitdir.Fit) (float64, string) {
+func perScale(f *fitfolder.Fit) (float64, string) {
 	var vs []float64
 	for _, e := range f.Effects {
-		if e.Path == fitdir.PathTotal && !math.IsNaN(e.PerUnitSpend) && e.Window == "all" {
+		if e.Path == fitfolder.PathTotal && !math.IsNaN(e.PerUnitSpend) && e.Window == "all" {
 			vs = append(vs, math.Abs(e.PerUnitSpend))
 		}
 	}
@@ -172,7 +173,7 @@ func pctInterval(lo, hi float64) string {
 	return plots.Percent(lo) + " to " + plots.Percent(hi)
 }
 
-func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, error) {
+func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, error) {
 	spec := f.Run.Spec
 	outcome := plots.Plain(spec.Outcome)
 	whole := f.Whole()
@@ -181,12 +182,12 @@ func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, err
 		Trustworthy: f.Verdict.Trustworthy,
 		Window:      w.Name,
 		WindowLabel: w.Label(),
-		Quarter:     w.Kind == fitdir.Quarter,
+		Quarter:     w.Kind == window.Quarter,
 		Command:     f.Run.Command,
 	}
-	if w.Kind == fitdir.WholePeriod {
+	if w.Kind == window.WholePeriod {
 		v.Title = "Review of the whole period"
-	} else if w.Kind == fitdir.Quarter {
+	} else if w.Kind == window.Quarter {
 		v.Title = "Quarterly review: " + w.Label()
 	} else {
 		v.Title = "Review: " + w.Label()
@@ -246,8 +247,8 @@ func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, err
 	}
 	when := windowPhraseShort(w)
 	for _, ch := range spec.Upper {
-		s, ok1 := f.Effect(ch, fitdir.PathMediatedShare, w.Name)
-		t, ok2 := f.Effect(ch, fitdir.PathTotal, w.Name)
+		s, ok1 := f.Effect(ch, fitfolder.PathMediatedShare, w.Name)
+		t, ok2 := f.Effect(ch, fitfolder.PathTotal, w.Name)
 		if !ok1 || !ok2 {
 			continue
 		}
@@ -274,7 +275,7 @@ func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, err
 	}
 
 	// Quarter comparisons.
-	if w.Kind == fitdir.Quarter {
+	if w.Kind == window.Quarter {
 		cv, notes, err := compareQuarters(f, w)
 		if err != nil {
 			return nil, err
@@ -282,7 +283,7 @@ func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, err
 		v.Compare = cv
 		v.CompareNote = strings.Join(notes, " ")
 		for _, ch := range spec.Upper {
-			if c, err := Compare(f, ch, fitdir.PathTotal, w.Name, cv.Prev); err == nil {
+			if c, err := Compare(f, ch, fitfolder.PathTotal, w.Name, cv.Prev); err == nil {
 				v.Findings = append(v.Findings, changeSentence(c, outcome))
 			}
 		}
@@ -344,25 +345,25 @@ func build(f *fitdir.Fit, w fitdir.Window, charts map[string][]byte) (*view, err
 	}
 
 	// Effect tables: the window, then the whole period.
-	windows := []fitdir.Window{w}
-	if w.Kind != fitdir.WholePeriod {
+	windows := []window.Window{w}
+	if w.Kind != window.WholePeriod {
 		windows = append(windows, whole)
 	}
 	for _, tw := range windows {
 		tab := effectTable{ID: "effects-" + tw.Name, Weeks: weeksText(f, tw)}
-		if tw.Kind == fitdir.WholePeriod {
+		if tw.Kind == window.WholePeriod {
 			tab.Heading = "Whole period"
 		} else {
 			tab.Heading = tw.Label()
 		}
 		for _, ch := range append(slices.Clone(spec.Upper), spec.Search...) {
-			for _, p := range []string{fitdir.PathViaSearch, fitdir.PathDirect, fitdir.PathTotal, fitdir.PathMediatedShare} {
+			for _, p := range []string{fitfolder.PathViaSearch, fitfolder.PathDirect, fitfolder.PathTotal, fitfolder.PathMediatedShare} {
 				e, ok := f.Effect(ch, p, tw.Name)
 				if !ok {
 					continue
 				}
 				row := effectRow{Channel: plots.Channel(ch), Path: p, PathLabel: pathLabels[p], Window: tw.Name}
-				if p == fitdir.PathMediatedShare {
+				if p == fitfolder.PathMediatedShare {
 					row.Mean, row.Q05, row.Q95 = plots.Percent(e.Mean), plots.Percent(e.Q05), plots.Percent(e.Q95)
 					row.Per = ""
 				} else {
@@ -427,21 +428,21 @@ func paidSearchName(cols []string) string {
 	return "paid search (" + strings.Join(names, ", ") + ")"
 }
 
-func windowPhraseShort(w fitdir.Window) string {
+func windowPhraseShort(w window.Window) string {
 	switch w.Kind {
-	case fitdir.Quarter:
+	case window.Quarter:
 		return "in " + w.Name
-	case fitdir.Custom:
-		return fmt.Sprintf("from %s to %s", fitdir.Day(w.From), fitdir.Day(w.To))
+	case window.Custom:
+		return fmt.Sprintf("from %s to %s", window.Day(w.Start), window.Day(w.End))
 	}
 	return "over the whole period"
 }
 
-func dateRange(w fitdir.Window) string {
-	return fitdir.Day(w.From) + " – " + fitdir.Day(w.To)
+func dateRange(w window.Window) string {
+	return window.Day(w.Start) + " – " + window.Day(w.End)
 }
 
-func weeksText(f *fitdir.Fit, w fitdir.Window) string {
+func weeksText(f *fitfolder.Fit, w window.Window) string {
 	n := f.Data.WeeksIn(w)
 	if n == 0 {
 		return "no weeks of data"
@@ -450,9 +451,9 @@ func weeksText(f *fitdir.Fit, w fitdir.Window) string {
 	for _, t := range f.Data.Weeks {
 		if w.Contains(t) {
 			if first == "" {
-				first = fitdir.Day(t)
+				first = window.Day(t)
 			}
-			last = fitdir.Day(t)
+			last = window.Day(t)
 		}
 	}
 	if n == 1 {
@@ -498,7 +499,7 @@ func pointsInterval(lo, hi float64) string {
 
 // compareQuarters builds the comparison of w with the previous quarter and
 // the same quarter a year earlier, for every channel and path with draws.
-func compareQuarters(f *fitdir.Fit, w fitdir.Window) (*compareView, []string, error) {
+func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string, error) {
 	prev, _ := w.Previous()
 	year, _ := w.YearEarlier()
 	cv := &compareView{Window: w.Name, Prev: prev.Name, Year: year.Name}
@@ -512,17 +513,17 @@ func compareQuarters(f *fitdir.Fit, w fitdir.Window) (*compareView, []string, er
 	}
 	spec := f.Run.Spec
 	for _, ch := range append(slices.Clone(spec.Upper), spec.Search...) {
-		for _, p := range []string{fitdir.PathViaSearch, fitdir.PathDirect, fitdir.PathTotal, fitdir.PathMediatedShare} {
+		for _, p := range []string{fitfolder.PathViaSearch, fitfolder.PathDirect, fitfolder.PathTotal, fitfolder.PathMediatedShare} {
 			now, ok := f.Effect(ch, p, w.Name)
 			if !ok {
 				continue
 			}
-			if p != fitdir.PathMediatedShare {
-				if _, ok := f.EffectDraws[fitdir.DrawKey{Channel: ch, Path: p, Window: w.Name}]; !ok {
+			if p != fitfolder.PathMediatedShare {
+				if _, ok := f.EffectDraws[fitfolder.DrawKey{Channel: ch, Path: p, Window: w.Name}]; !ok {
 					continue
 				}
 			}
-			if p == fitdir.PathTotal && !slices.Contains(spec.Upper, ch) {
+			if p == fitfolder.PathTotal && !slices.Contains(spec.Upper, ch) {
 				// Paid search has one path: its total repeats its direct row.
 				continue
 			}
@@ -530,7 +531,7 @@ func compareQuarters(f *fitdir.Fit, w fitdir.Window) (*compareView, []string, er
 			change := func(c Change) string {
 				return plots.Signed(c.Mean) + " (" + signedInterval(c.Q05, c.Q95) + ")"
 			}
-			if p == fitdir.PathMediatedShare {
+			if p == fitfolder.PathMediatedShare {
 				format = plots.Percent
 				change = func(c Change) string {
 					return plots.Points(c.Mean) + " (" + pointsInterval(c.Q05, c.Q95) + ")"
@@ -573,7 +574,7 @@ func compareQuarters(f *fitdir.Fit, w fitdir.Window) (*compareView, []string, er
 	return cv, notes, nil
 }
 
-func dataSummary(f *fitdir.Fit, w fitdir.Window) dataView {
+func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 	spec := f.Run.Spec
 	whole := f.Whole()
 	d := dataView{
@@ -584,15 +585,11 @@ func dataSummary(f *fitdir.Fit, w fitdir.Window) dataView {
 		Outcome:     plots.Number(f.Data.Total(spec.Outcome, whole)),
 		Queries:     plots.Number(f.Data.Total(spec.Queries, whole)),
 	}
-	if w.Kind != fitdir.WholePeriod {
+	if w.Kind != window.WholePeriod {
 		d.WindowWeeks = w.Name + ": " + weeksText(f, w)
 	}
 	if spec.Region != "" {
-		seen := map[string]bool{}
-		for _, r := range f.Data.Region {
-			seen[r] = true
-		}
-		d.Regions = fmt.Sprintf("%d regions (column %s)", len(seen), spec.Region)
+		d.Regions = fmt.Sprintf("%d regions (column %s)", len(f.Data.Regions), spec.Region)
 	} else {
 		d.Regions = "one national series"
 	}

@@ -15,15 +15,16 @@ import (
 	"sync"
 	"testing"
 
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/fitfolder/fitfoldertest"
+	"spillway/funnel/stat"
 	"spillway/plots"
-	"spillway/plots/fitdir"
-	"spillway/plots/fitdir/fitdirtest"
 	"spillway/plots/report"
 )
 
 type fixture struct {
-	fx     *fitdirtest.Fixture
-	f      *fitdir.Fit
+	fx     *fitfoldertest.Fixture
+	f      *fitfolder.Fit
 	charts map[string][]byte
 }
 
@@ -55,11 +56,11 @@ func load(t *testing.T, bad bool) *fixture {
 		t.Fatal(err)
 	}
 	tmpDirs = append(tmpDirs, dir)
-	fx, err := fitdirtest.Write(filepath.Join(dir, "fit"), fitdirtest.Options{Untrustworthy: bad})
+	fx, err := fitfoldertest.Write(filepath.Join(dir, "fit"), fitfoldertest.Options{Untrustworthy: bad})
 	if err != nil {
 		t.Fatal(err)
 	}
-	f, err := fitdir.Load(fx.Dir)
+	f, err := fitfolder.Load(fx.Dir)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -254,7 +255,7 @@ func TestReportEffectNumbers(t *testing.T) {
 			if tr.attr["data-window"] != w {
 				t.Errorf("row of window %s in table %s", tr.attr["data-window"], w)
 			}
-			var e fitdir.Effect
+			var e fitfolder.Effect
 			found := false
 			for _, fe := range x.fx.Effects {
 				if plots.Channel(fe.Channel) == tr.attr["data-channel"] && fe.Path == tr.attr["data-path"] && fe.Window == w {
@@ -269,7 +270,7 @@ func TestReportEffectNumbers(t *testing.T) {
 				t.Fatalf("row with %d cells", len(tds))
 			}
 			var mean, interval, per string
-			if e.Path == fitdir.PathMediatedShare {
+			if e.Path == fitfolder.PathMediatedShare {
 				mean = plots.Percent(e.Mean)
 				interval = plots.Percent(e.Q05) + " to " + plots.Percent(e.Q95)
 			} else {
@@ -325,16 +326,16 @@ func TestReportEffectNumbers(t *testing.T) {
 // fixture's draws, independently of the report package.
 func paired(x *fixture, ch, path, a, b string) (mean, q05, q95 float64) {
 	get := func(w string) []float64 {
-		if path == fitdir.PathMediatedShare {
-			via := x.fx.Draws[fitdir.DrawKey{Channel: ch, Path: fitdir.PathViaSearch, Window: w}]
-			tot := x.fx.Draws[fitdir.DrawKey{Channel: ch, Path: fitdir.PathTotal, Window: w}]
+		if path == fitfolder.PathMediatedShare {
+			via := x.fx.Draws[fitfolder.DrawKey{Channel: ch, Path: fitfolder.PathViaSearch, Window: w}]
+			tot := x.fx.Draws[fitfolder.DrawKey{Channel: ch, Path: fitfolder.PathTotal, Window: w}]
 			s := make([]float64, len(via))
 			for i := range via {
 				s[i] = via[i] / tot[i]
 			}
 			return s
 		}
-		return x.fx.Draws[fitdir.DrawKey{Channel: ch, Path: path, Window: w}]
+		return x.fx.Draws[fitfolder.DrawKey{Channel: ch, Path: path, Window: w}]
 	}
 	va, vb := get(a), get(b)
 	d := make([]float64, len(va))
@@ -343,7 +344,8 @@ func paired(x *fixture, ch, path, a, b string) (mean, q05, q95 float64) {
 		mean += d[i]
 	}
 	mean /= float64(len(d))
-	return mean, fitdirtest.Quantile(d, 0.05), fitdirtest.Quantile(d, 0.95)
+	slices.Sort(d)
+	return mean, stat.Quantile(d, 0.05), stat.Quantile(d, 0.95)
 }
 
 func TestCompareUsesPairedDraws(t *testing.T) {
@@ -414,7 +416,7 @@ func TestReportCompareTable(t *testing.T) {
 		}{{"2025Q2", 4, 5}, {"2024Q3", 7, 8}} {
 			m, lo, hi := paired(x, ch, path, "2025Q3", side.base)
 			want := plots.Signed(m) + " (" + plots.Signed(lo) + " to " + plots.Signed(hi) + ")"
-			if path == fitdir.PathMediatedShare {
+			if path == fitfolder.PathMediatedShare {
 				want = plots.Points(m) + " (" + strings.TrimSuffix(plots.Points(lo), " pts") + " to " + plots.Points(hi) + ")"
 			}
 			if got := tds[side.chg].fullText(); got != want {
@@ -523,7 +525,7 @@ func TestReportWindowErrors(t *testing.T) {
 	x := load(t, false)
 	var buf bytes.Buffer
 	err := report.Write(&buf, x.f, "2019Q1", x.charts)
-	var we *fitdir.WindowError
+	var we *fitfolder.WindowError
 	if !errors.As(err, &we) {
 		t.Fatalf("got %v, want a WindowError", err)
 	}
@@ -531,7 +533,7 @@ func TestReportWindowErrors(t *testing.T) {
 		t.Error("something was written despite the error")
 	}
 	// A custom window of effects.csv is reviewed as a range.
-	b := write(t, x, fitdirtest.CustomWindow)
+	b := write(t, x, fitfoldertest.CustomWindow)
 	if !strings.Contains(string(b), "Review: 1 Jul 2024 – 31 Dec 2024") {
 		t.Error("custom window: no range title")
 	}

@@ -1,4 +1,4 @@
-// Package fitdirtest writes complete, internally consistent fit folders for
+// Package fitfoldertest writes complete, internally consistent fit folders for
 // the tests of the charts, the report and the commands that read them.
 //
 // The scenario is invented: two upper-funnel channels (video_spend,
@@ -7,4 +7,4 @@
 // 2024-07-01:2024-12-31. Effects are drawn per posterior draw and every
 // summary in the folder is computed from those draws, so the numbers agree
 // with each other the way split's output does.
-package fitdirtest // import "spillway/plots/fitdir/fitdirtest"
+package fitfoldertest // import "spillway/funnel/fitfolder/fitfoldertest"

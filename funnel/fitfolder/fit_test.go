@@ -1,7 +1,8 @@
-package fitdir_test
+package fitfolder_test
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -9,18 +10,19 @@ import (
 	"testing"
 	"time"
 
-	"spillway/plots/fitdir"
-	"spillway/plots/fitdir/fitdirtest"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/fitfolder/fitfoldertest"
+	"spillway/funnel/window"
 )
 
-func writeFixture(t *testing.T, o fitdirtest.Options) (*fitdirtest.Fixture, *fitdir.Fit) {
+func writeFixture(t *testing.T, o fitfoldertest.Options) (*fitfoldertest.Fixture, *fitfolder.Fit) {
 	t.Helper()
 	dir := filepath.Join(t.TempDir(), "fit")
-	fx, err := fitdirtest.Write(dir, o)
+	fx, err := fitfoldertest.Write(dir, o)
 	if err != nil {
 		t.Fatal(err)
 	}
-	f, err := fitdir.Load(dir)
+	f, err := fitfolder.Load(dir)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -28,14 +30,14 @@ func writeFixture(t *testing.T, o fitdirtest.Options) (*fitdirtest.Fixture, *fit
 }
 
 func TestLoadRoundTrip(t *testing.T) {
-	fx, f := writeFixture(t, fitdirtest.Options{})
+	fx, f := writeFixture(t, fitfoldertest.Options{})
 	if got, want := len(f.Data.Weeks), 156; got != want {
 		t.Fatalf("weeks: got %d, want %d", got, want)
 	}
 	if !f.Data.Weeks[0].Equal(time.Date(2023, 1, 2, 0, 0, 0, 0, time.UTC)) {
 		t.Errorf("first week %v", f.Data.Weeks[0])
 	}
-	if f.Run.Command != fx.Command || f.Run.Chains != 4 || f.Run.Seed.String() != "11" {
+	if f.Run.Command != fx.Command || f.Run.Chains != 4 || f.Run.Seed != 11 {
 		t.Errorf("spec.json: got %+v", f.Run)
 	}
 	if len(f.Effects) != len(fx.Effects) {
@@ -83,11 +85,11 @@ func TestLoadRoundTrip(t *testing.T) {
 }
 
 func TestVerdictReasons(t *testing.T) {
-	_, f := writeFixture(t, fitdirtest.Options{Untrustworthy: true, Draws: 50})
+	_, f := writeFixture(t, fitfoldertest.Options{Untrustworthy: true, Draws: 50})
 	if f.Verdict.Trustworthy {
 		t.Fatal("verdict: got trustworthy")
 	}
-	want := fitdir.Reason{Stage: "outcome", Text: "R-hat 1.03 > 1.01 for K2[video_spend]"}
+	want := fitfolder.Reason{Stage: "outcome", Text: "R-hat 1.03 > 1.01 for K2[video_spend]"}
 	if len(f.Verdict.Reasons) != 3 || f.Verdict.Reasons[0] != want {
 		t.Errorf("reasons: got %+v, want first %+v", f.Verdict.Reasons, want)
 	}
@@ -98,14 +100,14 @@ func TestVerdictReasons(t *testing.T) {
 }
 
 func TestDefaultWindow(t *testing.T) {
-	_, f := writeFixture(t, fitdirtest.Options{Draws: 20})
+	_, f := writeFixture(t, fitfoldertest.Options{Draws: 20})
 	// The last week starts 2025-12-22, so the week starting 2025-12-29
 	// (still in Q4) is missing: 2025Q4 is not full and 2025Q3 is the last
 	// full quarter.
 	if got := f.DefaultWindow(); got != "2025Q3" {
 		t.Errorf("default window: got %s, want 2025Q3", got)
 	}
-	if !f.FullQuarter(fitdir.QuarterWindow(2023, 1)) {
+	if !f.FullQuarter(window.QuarterOf(2023, 1)) {
 		t.Error("2023Q1 should be full: the week before 2023-01-02 starts in 2022")
 	}
 	w, err := f.Window("")
@@ -113,53 +115,17 @@ func TestDefaultWindow(t *testing.T) {
 		t.Errorf("Window(\"\"): got %+v, %v", w, err)
 	}
 	all, err := f.Window("all")
-	if err != nil || !all.From.Equal(f.Data.Weeks[0]) || !all.To.Equal(f.Data.Weeks[155]) {
+	if err != nil || !all.Start.Equal(f.Data.Weeks[0]) || !all.End.Equal(f.Data.Weeks[155]) {
 		t.Errorf("Window(all): got %+v, %v", all, err)
 	}
 	_, err = f.Window("2019Q1")
-	var we *fitdir.WindowError
-	if !errors.As(err, &we) || !strings.Contains(err.Error(), "2025Q3") || !strings.Contains(err.Error(), fitdirtest.CustomWindow) {
+	var we *fitfolder.WindowError
+	if !errors.As(err, &we) || !strings.Contains(err.Error(), "2025Q3") || !strings.Contains(err.Error(), fitfoldertest.CustomWindow) {
 		t.Errorf("Window(2019Q1): got %v, want a WindowError listing the windows", err)
 	}
 	_, err = f.Window("last quarter")
 	if !errors.As(err, &we) || we.Err == nil {
 		t.Errorf("Window(last quarter): got %v, want a parse error", err)
-	}
-}
-
-func TestParseWindow(t *testing.T) {
-	for _, c := range []struct {
-		in       string
-		kind     fitdir.WindowKind
-		from, to string
-		ok       bool
-	}{
-		{"all", fitdir.WholePeriod, "", "", true},
-		{"2024Q1", fitdir.Quarter, "2024-01-01", "2024-03-31", true},
-		{"2024Q4", fitdir.Quarter, "2024-10-01", "2024-12-31", true},
-		{"2024-02-01:2024-02-29", fitdir.Custom, "2024-02-01", "2024-02-29", true},
-		{"2024Q5", 0, "", "", false},
-		{"2024-03-01:2024-02-01", 0, "", "", false},
-		{"2024-13-01:2024-12-01", 0, "", "", false},
-	} {
-		w, err := fitdir.ParseWindow(c.in)
-		if (err == nil) != c.ok {
-			t.Errorf("%s: error %v, want ok=%v", c.in, err, c.ok)
-			continue
-		}
-		if !c.ok {
-			continue
-		}
-		if w.Kind != c.kind || (c.from != "" && (w.From.Format(fitdir.DateLayout) != c.from || w.To.Format(fitdir.DateLayout) != c.to)) {
-			t.Errorf("%s: got %+v", c.in, w)
-		}
-	}
-	q := fitdir.QuarterWindow(2025, 1)
-	if p, _ := q.Previous(); p.Name != "2024Q4" {
-		t.Errorf("previous of 2025Q1: %s", p.Name)
-	}
-	if y, _ := q.YearEarlier(); y.Name != "2024Q1" {
-		t.Errorf("year before 2025Q1: %s", y.Name)
 	}
 }
 
@@ -179,7 +145,7 @@ func TestLoadErrors(t *testing.T) {
 		{"outcome/summary.csv", "gamma,", "gamma,x", []string{"summary.csv line", "column mean"}},
 	} {
 		dir := filepath.Join(t.TempDir(), "fit")
-		if _, err := fitdirtest.Write(dir, fitdirtest.Options{Draws: 10}); err != nil {
+		if _, err := fitfoldertest.Write(dir, fitfoldertest.Options{Draws: 10}); err != nil {
 			t.Fatal(err)
 		}
 		path := filepath.Join(dir, c.file)
@@ -195,7 +161,7 @@ func TestLoadErrors(t *testing.T) {
 			}
 			os.WriteFile(path, []byte(strings.Replace(string(b), c.old, c.new, 1)), 0o644)
 		}
-		_, err := fitdir.Load(dir)
+		_, err := fitfolder.Load(dir)
 		if err == nil {
 			t.Errorf("%s: no error", c.file)
 			continue
@@ -205,7 +171,7 @@ func TestLoadErrors(t *testing.T) {
 				t.Errorf("%s: error %q does not contain %q", c.file, err, w)
 			}
 		}
-		if c.old == "" && !errors.Is(err, fitdir.ErrMissing) {
+		if c.old == "" && !errors.Is(err, fitfolder.ErrMissing) {
 			t.Errorf("%s: error %v does not wrap ErrMissing", c.file, err)
 		}
 	}
@@ -230,7 +196,7 @@ func sameOrBothNaN(a, b float64) bool {
 // NaN where a number is required is an error.
 func TestUndefinedEffects(t *testing.T) {
 	dir := filepath.Join(t.TempDir(), "fit")
-	fx, err := fitdirtest.Write(dir, fitdirtest.Options{Draws: 10})
+	fx, err := fitfoldertest.Write(dir, fitfoldertest.Options{Draws: 10})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -243,7 +209,7 @@ func TestUndefinedEffects(t *testing.T) {
 		}
 	}
 	os.WriteFile(p, []byte(strings.Join(lines, "\n")), 0o644)
-	f, err := fitdir.Load(dir)
+	f, err := fitfolder.Load(dir)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -261,7 +227,41 @@ func TestUndefinedEffects(t *testing.T) {
 	cells[3] = "NaN"
 	wl[1] = strings.Join(cells, ",")
 	os.WriteFile(wp, []byte(strings.Join(wl, "\n")), 0o644)
-	if _, err := fitdir.Load(dir); err == nil || !strings.Contains(err.Error(), "weekly.csv line 2, column mean") {
+	if _, err := fitfolder.Load(dir); err == nil || !strings.Contains(err.Error(), "weekly.csv line 2, column mean") {
 		t.Errorf("NaN weekly mean: got %v, want an error naming weekly.csv line 2, column mean", err)
+	}
+}
+
+// TestWriteLoadLossless checks that what the writer is given comes back
+// from Load unchanged: spillway run draws its charts from the values in
+// memory, chart and report from the files, and both must agree.
+func TestWriteLoadLossless(t *testing.T) {
+	fx, f := writeFixture(t, fitfoldertest.Options{Untrustworthy: true, Draws: 30})
+	in := fx.Fit
+	for _, c := range []struct {
+		name      string
+		got, want any
+	}{
+		{"spec.json", f.Run, in.Run},
+		{"verdict.txt", f.Verdict, in.Verdict},
+		{"effects.csv", f.Effects, in.Effects},
+		{"effect_draws.csv", f.EffectDraws, in.EffectDraws},
+		{"borrowed.csv", f.Borrowed, in.Borrowed},
+		{"weekly.csv", f.Weekly, in.Weekly},
+		{"sensitivity.csv", f.Sensitivity, in.Sensitivity},
+		{"breakeven.csv", f.Breakeven, in.Breakeven},
+		{"fitted.csv", f.Fitted, in.Fitted},
+		{"curves.csv", f.Curves, in.Curves},
+		{"data.csv", f.Data.Regions, in.Data.Regions},
+	} {
+		// %v spells every float64 exactly (and NaN as NaN).
+		if g, w := fmt.Sprintf("%v", c.got), fmt.Sprintf("%v", c.want); g != w {
+			t.Errorf("%s: read back differs from what was written", c.name)
+		}
+	}
+	for k, s := range in.Stages {
+		if g, w := fmt.Sprintf("%v %v", f.Stages[k].Params, f.Stages[k].Stats), fmt.Sprintf("%v %v", s.Params, s.Stats); g != w {
+			t.Errorf("%s: summary.csv or stats.json read back differs", s.Name)
+		}
 	}
 }

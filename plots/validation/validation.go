@@ -1,4 +1,4 @@
-package chart
+package validation
 
 import (
 	"fmt"
@@ -11,49 +11,13 @@ import (
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
 
+	"spillway/funnel/validate"
 	"spillway/plots"
 	"spillway/plots/marks"
 )
 
-// Coverage is one effect's interval coverage over the replicates
-// (fractions in [0, 1]).
-type Coverage struct {
-	Label, Path      string
-	Cover50, Cover90 float64
-	// Flagged marks implausibly low coverage; the bar is drawn in the
-	// alert colour.
-	Flagged bool
-}
-
-// Forecast is one stage's holdout forecasts in raw units, week by week.
-type Forecast struct {
-	Stage string
-	// Days are the weeks as days since 1970-01-01; Origins likewise.
-	Days                 []float64
-	Actual, Mean, Lo, Hi []float64
-	Baseline             []float64
-	Origins              []float64
-}
-
-// Shift is one effect's largest move over the stability refits, in
-// posterior sds; Threshold is the flag level of the refit that moved it
-// most, drawn as a red tick on the bar's row.
-type Shift struct {
-	Label, Path      string
-	Value, Threshold float64
-	Flagged          bool
-}
-
-// Figure is the whole page. Empty sections are left out.
-type Figure struct {
-	Title, Caption string
-	Replicates     int
-	Coverage       []Coverage
-	// Forecasts: the outcome stage is drawn (the first one when there is
-	// no stage named "outcome").
-	Forecasts []Forecast
-	Shifts    []Shift
-}
+// page draws one report.
+type page struct{ rep *validate.Report }
 
 // Page size: 1600×900 px at 96 dpi, a 16:9 slide.
 const (
@@ -77,31 +41,33 @@ func pathColor(path string) color.Color {
 	return plots.Faint
 }
 
-// PNG renders the figure.
-func (f *Figure) PNG() ([]byte, error) {
+// PNG renders validation.png for rep: its title is rep.Title(), its
+// caption rep.Caption, and sections rep has no data for are left out.
+func PNG(rep *validate.Report) ([]byte, error) {
+	f := &page{rep: rep}
 	w := vg.Length(widthPx) * vg.Inch / dpi
 	h := vg.Length(heightPx) * vg.Inch / dpi
 	b, err := marks.PNG(w, h, dpi, f.draw)
 	if err != nil {
-		return nil, fmt.Errorf("chart: render validation.png: %w", err)
+		return nil, fmt.Errorf("validation: render validation.png: %w", err)
 	}
 	return b, nil
 }
 
-func (f *Figure) draw(dc draw.Canvas) error {
+func (f *page) draw(dc draw.Canvas) error {
 	left, right := dc.Min.X+margin, dc.Max.X-margin
 	y := dc.Max.Y - 24
 	ts := marks.TextStyle(28, plots.Ink, true)
 	ts.YAlign = text.YTop
-	for _, ln := range marks.Wrap(ts, f.Title, right-left) {
+	for _, ln := range marks.Wrap(ts, f.rep.Title(), right-left) {
 		dc.FillText(ts, vg.Point{X: left, Y: y}, ln)
 		y -= ts.Height(ln) + 6
 	}
 	y -= 10
 	bottom := dc.Min.Y + 18
-	if f.Caption != "" {
+	if f.rep.Caption != "" {
 		cs := marks.TextStyle(17, plots.Muted, false)
-		lines := marks.Wrap(cs, f.Caption, right-left)
+		lines := marks.Wrap(cs, f.rep.Caption, right-left)
 		for i := len(lines) - 1; i >= 0; i-- {
 			dc.FillText(cs, vg.Point{X: left, Y: bottom}, lines[i])
 			bottom += cs.Height(lines[i]) + 4
@@ -179,18 +145,18 @@ func newPanel(title string) *plot.Plot {
 // coveragePanel draws a horizontal bar per effect: the 90% interval's
 // coverage as the bar, the 50% interval's as a dot, the nominal levels as
 // dashed lines.
-func (f *Figure) coveragePanel() (*plot.Plot, error) {
-	if len(f.Coverage) == 0 {
+func (f *page) coveragePanel() (*plot.Plot, error) {
+	if len(f.rep.Coverage) == 0 {
 		return nil, nil
 	}
 	title := "Recovery: coverage of true effects"
-	if f.Replicates > 0 {
-		title = fmt.Sprintf("Recovery: coverage over %d data sets", f.Replicates)
+	if f.rep.Replicates > 0 {
+		title = fmt.Sprintf("Recovery: coverage over %d data sets", f.rep.Replicates)
 	}
 	p := newPanel(title)
-	n := len(f.Coverage)
+	n := len(f.rep.Coverage)
 	names := make([]string, n)
-	for i, c := range f.Coverage {
+	for i, c := range f.rep.Coverage {
 		yy := float64(n - 1 - i)
 		names[n-1-i] = c.Label
 		fill := pathColor(c.Path)
@@ -198,7 +164,7 @@ func (f *Figure) coveragePanel() (*plot.Plot, error) {
 			fill = plots.Alert
 		}
 		if !finite(c.Cover90, c.Cover50) {
-			return nil, fmt.Errorf("chart: coverage of %s is not a number", c.Label)
+			return nil, fmt.Errorf("validation: coverage of %s is not a number", c.Label)
 		}
 		p.Add(marks.Rect{X0: 0, X1: c.Cover90, Y0: yy - 0.32, Y1: yy + 0.32, Fill: fill})
 		at := marks.Dots{X: []float64{c.Cover50}, Y: []float64{yy}, Overflow: true}
@@ -225,12 +191,12 @@ func (f *Figure) coveragePanel() (*plot.Plot, error) {
 
 // forecastPanel draws the outcome's holdout forecasts: the 90% band and
 // mean against the actuals and the seasonal baseline.
-func (f *Figure) forecastPanel() (*plot.Plot, error) {
-	if len(f.Forecasts) == 0 {
+func (f *page) forecastPanel() (*plot.Plot, error) {
+	if len(f.rep.Forecasts) == 0 {
 		return nil, nil
 	}
-	s := f.Forecasts[0]
-	for _, fc := range f.Forecasts {
+	s := f.rep.Forecasts[0]
+	for _, fc := range f.rep.Forecasts {
 		if fc.Stage == "outcome" {
 			s = fc
 		}
@@ -256,7 +222,7 @@ func (f *Figure) forecastPanel() (*plot.Plot, error) {
 	}
 	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline} {
 		if !finite(v...) {
-			return nil, fmt.Errorf("chart: a %s forecast is not a number", s.Stage)
+			return nil, fmt.Errorf("validation: a %s forecast is not a number", s.Stage)
 		}
 	}
 	p.X.Tick.Marker = marks.MonthTicks{}
@@ -286,19 +252,19 @@ func splitBlocks(days []float64) [][2]int {
 }
 
 // shiftPanel draws each effect's largest move over the refits.
-func (f *Figure) shiftPanel() (*plot.Plot, error) {
-	if len(f.Shifts) == 0 {
+func (f *page) shiftPanel() (*plot.Plot, error) {
+	if len(f.rep.Shifts) == 0 {
 		return nil, nil
 	}
 	p := newPanel("Stability: largest move over refits")
-	n := len(f.Shifts)
+	n := len(f.rep.Shifts)
 	names := make([]string, n)
 	hi := 1.0
 	tick := draw.LineStyle{Color: plots.Alert, Width: vg.Points(3)}
-	for i, s := range f.Shifts {
+	for i, s := range f.rep.Shifts {
 		yy := float64(n - 1 - i)
 		names[n-1-i] = s.Label
-		v := s.Value
+		v := s.Shift
 		if !finite(v) {
 			v = 0
 		}
@@ -308,9 +274,9 @@ func (f *Figure) shiftPanel() (*plot.Plot, error) {
 		}
 		p.Add(marks.Rect{X0: 0, X1: v, Y0: yy - 0.32, Y1: yy + 0.32, Fill: fill})
 		hi = math.Max(hi, v)
-		if s.Threshold > 0 {
-			p.Add(marks.Segment{X0: s.Threshold, X1: s.Threshold, Y0: yy - 0.45, Y1: yy + 0.45, Style: tick})
-			hi = math.Max(hi, s.Threshold)
+		if s.Level > 0 {
+			p.Add(marks.Segment{X0: s.Level, X1: s.Level, Y0: yy - 0.45, Y1: yy + 0.45, Style: tick})
+			hi = math.Max(hi, s.Level)
 		}
 	}
 	p.X.Min, p.X.Max = 0, 1.08*hi

@@ -1,20 +1,20 @@
-package fitdirtest
+package fitfoldertest
 
 import (
-	"encoding/csv"
-	"encoding/json"
-	"fmt"
 	"math"
 	"math/rand/v2"
 	"os"
-	"path/filepath"
 	"slices"
-	"sort"
-	"strconv"
 	"strings"
 	"time"
 
-	"spillway/plots/fitdir"
+	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/mcmc"
+	"spillway/funnel/stat"
+	"spillway/funnel/window"
 )
 
 // Options changes the fixture. The zero value is a trustworthy fit with 400
@@ -35,7 +35,7 @@ type Options struct {
 // Fixture is what Write wrote, as numbers, for tests to compare against.
 type Fixture struct {
 	Dir     string
-	Spec    fitdir.Spec
+	Spec    data.Spec
 	Command string
 	Weeks   []time.Time
 	// Columns maps each data column to its weekly values.
@@ -43,17 +43,19 @@ type Fixture struct {
 	// Windows lists the windows of effects.csv in file order.
 	Windows []string
 	// Draws holds the effect draws by key; index i is .draw i+1.
-	Draws       map[fitdir.DrawKey][]float64
-	Effects     []fitdir.Effect
-	Borrowed    []fitdir.Borrowed
-	Weekly      []fitdir.Weekly
-	Sensitivity []fitdir.Sensitivity
-	Breakeven   []fitdir.Breakeven
-	Fitted      []fitdir.Fitted
-	Curves      []fitdir.Curve
-	Params      map[string][]fitdir.Param
-	Stats       map[string]fitdir.Stats
+	Draws       map[fitfolder.DrawKey][]float64
+	Effects     []fitfolder.Effect
+	Borrowed    []fitfolder.Borrowed
+	Weekly      []fitfolder.Weekly
+	Sensitivity []fitfolder.Sensitivity
+	Breakeven   []fitfolder.Breakeven
+	Fitted      []fitfolder.Fitted
+	Curves      []fitfolder.Curve
+	Params      map[string][]fitfolder.Param
+	Stats       map[string]fitfolder.Stats
 	Verdict     []string
+	// Fit is the folder as values, as the fit folder's writer was given it.
+	Fit *fitfolder.Fit
 }
 
 // Upper, Search and the other names are the fixture's column names.
@@ -89,12 +91,12 @@ func Write(dir string, o Options) (*Fixture, error) {
 	rng := rand.New(rand.NewPCG(o.Seed, 7))
 	fx := &Fixture{
 		Dir: dir,
-		Spec: fitdir.Spec{Data: "weekly.csv", Date: DateCol, Upper: Upper, Search: Search,
+		Spec: data.Spec{Data: "weekly.csv", Date: DateCol, Upper: Upper, Search: Search,
 			Queries: QueriesCol, Outcome: OutcomeCol, Controls: []string{ControlCol}},
 		Columns: map[string][]float64{},
-		Draws:   map[fitdir.DrawKey][]float64{},
-		Params:  map[string][]fitdir.Param{},
-		Stats:   map[string]fitdir.Stats{},
+		Draws:   map[fitfolder.DrawKey][]float64{},
+		Params:  map[string][]fitfolder.Param{},
+		Stats:   map[string]fitfolder.Stats{},
 	}
 	fx.Command = "spillway run --data weekly.csv --date week --upper video_spend,audio_spend " +
 		"--search search_spend --queries branded_queries --outcome conversions --controls price --seed 11 --out " + dir
@@ -125,19 +127,19 @@ func Write(dir string, o Options) (*Fixture, error) {
 
 	// Weekly mean contributions (conversions) through each path.
 	contrib := map[string]map[string][]float64{
-		"video_spend":  {fitdir.PathDirect: response(video, 0.5, 45), fitdir.PathViaSearch: response(video, 0.6, 65)},
-		"audio_spend":  {fitdir.PathDirect: response(audio, 0.3, 35), fitdir.PathViaSearch: response(audio, 0.4, 25)},
-		"search_spend": {fitdir.PathDirect: response(search, 0.2, 120)},
+		"video_spend":  {fitfolder.PathDirect: response(video, 0.5, 45), fitfolder.PathViaSearch: response(video, 0.6, 65)},
+		"audio_spend":  {fitfolder.PathDirect: response(audio, 0.3, 35), fitfolder.PathViaSearch: response(audio, 0.4, 25)},
+		"search_spend": {fitfolder.PathDirect: response(search, 0.2, 120)},
 	}
 	queries, conv := make([]float64, T), make([]float64, T)
 	for t := range T {
 		ft := float64(t)
 		season := math.Sin(2 * math.Pi * ft / 52.18)
-		via := contrib["video_spend"][fitdir.PathViaSearch][t] + contrib["audio_spend"][fitdir.PathViaSearch][t]
+		via := contrib["video_spend"][fitfolder.PathViaSearch][t] + contrib["audio_spend"][fitfolder.PathViaSearch][t]
 		queries[t] = math.Round(40000 + 3000*season + 160*via + 900*rng.NormFloat64())
 		c := 2400 + 150*season + 0.004*(queries[t]-40000)
 		for _, ch := range []string{"video_spend", "audio_spend", "search_spend"} {
-			c += contrib[ch][fitdir.PathDirect][t]
+			c += contrib[ch][fitfolder.PathDirect][t]
 		}
 		conv[t] = math.Round(c + 60*rng.NormFloat64())
 	}
@@ -145,17 +147,17 @@ func Write(dir string, o Options) (*Fixture, error) {
 
 	// Windows: all, each quarter with weeks, one custom range.
 	fx.Windows = []string{"all"}
-	var quarters []fitdir.Window
+	var quarters []window.Window
 	for y := 2023; y <= fx.Weeks[T-1].Year(); y++ {
 		for q := 1; q <= 4; q++ {
-			w := fitdir.QuarterWindow(y, q)
+			w := window.QuarterOf(y, q)
 			if weeksIn(fx.Weeks, w) > 0 {
 				quarters = append(quarters, w)
 				fx.Windows = append(fx.Windows, w.Name)
 			}
 		}
 	}
-	custom, _ := fitdir.ParseWindow(CustomWindow)
+	custom, _ := window.Parse(CustomWindow)
 	hasCustom := weeksIn(fx.Weeks, custom) > 0
 	if hasCustom {
 		fx.Windows = append(fx.Windows, CustomWindow)
@@ -166,11 +168,11 @@ func Write(dir string, o Options) (*Fixture, error) {
 	n := o.Draws
 	channels := []string{"video_spend", "audio_spend", "search_spend"}
 	for _, ch := range channels {
-		paths := []string{fitdir.PathDirect, fitdir.PathViaSearch}
+		paths := []string{fitfolder.PathDirect, fitfolder.PathViaSearch}
 		if ch == "search_spend" {
 			paths = paths[:1]
 		}
-		sdScale := map[string]float64{fitdir.PathDirect: 0.18, fitdir.PathViaSearch: 0.22}
+		sdScale := map[string]float64{fitfolder.PathDirect: 0.18, fitfolder.PathViaSearch: 0.22}
 		for _, p := range paths {
 			g := make([]float64, n)
 			for d := range n {
@@ -184,53 +186,54 @@ func Write(dir string, o Options) (*Fixture, error) {
 				for d := range n {
 					v[d] = m * g[d] * (1 + 0.03*rng.NormFloat64())
 					all[d] += v[d]
-					if hasCustom && w.From.After(custom.From.AddDate(0, 0, -1)) && w.To.Before(custom.To.AddDate(0, 0, 1)) {
+					if hasCustom && w.Start.After(custom.Start.AddDate(0, 0, -1)) && w.End.Before(custom.End.AddDate(0, 0, 1)) {
 						cust[d] += v[d]
 					}
 				}
-				fx.Draws[fitdir.DrawKey{Channel: ch, Path: p, Window: w.Name}] = v
+				fx.Draws[fitfolder.DrawKey{Channel: ch, Path: p, Window: w.Name}] = v
 			}
-			fx.Draws[fitdir.DrawKey{Channel: ch, Path: p, Window: "all"}] = all
+			fx.Draws[fitfolder.DrawKey{Channel: ch, Path: p, Window: "all"}] = all
 			if hasCustom {
-				fx.Draws[fitdir.DrawKey{Channel: ch, Path: p, Window: CustomWindow}] = cust
+				fx.Draws[fitfolder.DrawKey{Channel: ch, Path: p, Window: CustomWindow}] = cust
 			}
 		}
 		for _, w := range fx.Windows {
 			tot := make([]float64, n)
 			for d := range n {
 				for _, p := range paths {
-					tot[d] += fx.Draws[fitdir.DrawKey{Channel: ch, Path: p, Window: w}][d]
+					tot[d] += fx.Draws[fitfolder.DrawKey{Channel: ch, Path: p, Window: w}][d]
 				}
 			}
-			fx.Draws[fitdir.DrawKey{Channel: ch, Path: fitdir.PathTotal, Window: w}] = tot
+			fx.Draws[fitfolder.DrawKey{Channel: ch, Path: fitfolder.PathTotal, Window: w}] = tot
 		}
 	}
 
 	// effects.csv rows from the draws.
 	for _, wn := range fx.Windows {
-		w, _ := fitdir.ParseWindow(wn)
+		w, _ := window.Parse(wn)
 		for _, ch := range channels {
 			spend := sumIn(fx.Weeks, fx.Columns[ch], w)
-			paths := []string{fitdir.PathDirect, fitdir.PathViaSearch, fitdir.PathTotal, fitdir.PathMediatedShare}
+			paths := []string{fitfolder.PathDirect, fitfolder.PathViaSearch, fitfolder.PathTotal, fitfolder.PathMediatedShare}
 			if ch == "search_spend" {
-				paths = []string{fitdir.PathDirect, fitdir.PathTotal}
+				paths = []string{fitfolder.PathDirect, fitfolder.PathTotal}
 			}
 			for _, p := range paths {
 				var v []float64
 				per := math.NaN()
-				if p == fitdir.PathMediatedShare {
-					via := fx.Draws[fitdir.DrawKey{Channel: ch, Path: fitdir.PathViaSearch, Window: wn}]
-					tot := fx.Draws[fitdir.DrawKey{Channel: ch, Path: fitdir.PathTotal, Window: wn}]
+				if p == fitfolder.PathMediatedShare {
+					via := fx.Draws[fitfolder.DrawKey{Channel: ch, Path: fitfolder.PathViaSearch, Window: wn}]
+					tot := fx.Draws[fitfolder.DrawKey{Channel: ch, Path: fitfolder.PathTotal, Window: wn}]
 					v = make([]float64, n)
 					for d := range n {
 						v[d] = via[d] / tot[d]
 					}
 				} else {
-					v = fx.Draws[fitdir.DrawKey{Channel: ch, Path: p, Window: wn}]
+					v = fx.Draws[fitfolder.DrawKey{Channel: ch, Path: p, Window: wn}]
 				}
-				e := fitdir.Effect{Channel: ch, Path: p, Window: wn, Mean: mean(v),
-					Q05: Quantile(v, 0.05), Q50: Quantile(v, 0.5), Q95: Quantile(v, 0.95), PerUnitSpend: per}
-				if p != fitdir.PathMediatedShare {
+				s := slices.Sorted(slices.Values(v))
+				e := fitfolder.Effect{Channel: ch, Path: p, Window: wn, Mean: stat.Mean(v),
+					Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95), PerUnitSpend: per}
+				if p != fitfolder.PathMediatedShare {
 					e.PerUnitSpend = e.Mean / spend
 				}
 				fx.Effects = append(fx.Effects, e)
@@ -239,7 +242,7 @@ func Write(dir string, o Options) (*Fixture, error) {
 	}
 
 	// borrowed.csv: apparent = controlled * (1 + k), k the borrowed ratio.
-	ctrl := fx.Draws[fitdir.DrawKey{Channel: "search_spend", Path: fitdir.PathDirect, Window: "all"}]
+	ctrl := fx.Draws[fitfolder.DrawKey{Channel: "search_spend", Path: fitfolder.PathDirect, Window: "all"}]
 	app, share, naive := make([]float64, n), make([]float64, n), make([]float64, n)
 	for d := range n {
 		k := math.Max(0.05, 0.62+0.1*rng.NormFloat64())
@@ -251,19 +254,20 @@ func Write(dir string, o Options) (*Fixture, error) {
 		name string
 		v    []float64
 	}{{"controlled", ctrl}, {"apparent", app}, {"naive", naive}, {"borrowed_share", share}} {
-		fx.Borrowed = append(fx.Borrowed, fitdir.Borrowed{Channel: "search_spend", Measure: m.name,
-			Mean: mean(m.v), Q05: Quantile(m.v, 0.05), Q50: Quantile(m.v, 0.5), Q95: Quantile(m.v, 0.95)})
+		s := slices.Sorted(slices.Values(m.v))
+		fx.Borrowed = append(fx.Borrowed, fitfolder.Borrowed{Channel: "search_spend", Measure: m.name,
+			Mean: stat.Mean(m.v), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)})
 	}
 
 	// weekly.csv.
 	for t, wk := range fx.Weeks {
 		for _, ch := range channels {
-			for _, p := range []string{fitdir.PathDirect, fitdir.PathViaSearch} {
+			for _, p := range []string{fitfolder.PathDirect, fitfolder.PathViaSearch} {
 				c, ok := contrib[ch][p]
 				if !ok {
 					continue
 				}
-				fx.Weekly = append(fx.Weekly, fitdir.Weekly{Week: wk, Channel: ch, Path: p,
+				fx.Weekly = append(fx.Weekly, fitfolder.Weekly{Week: wk, Channel: ch, Path: p,
 					Mean: c[t], Q05: c[t] * 0.72, Q95: c[t] * 1.3})
 			}
 		}
@@ -274,19 +278,19 @@ func Write(dir string, o Options) (*Fixture, error) {
 	// audio outside it).
 	rho0 := map[string]float64{"video_spend": 0.45, "audio_spend": 1.4}
 	for _, ch := range Upper {
-		e, _ := fx.effect(ch, fitdir.PathViaSearch, "all")
+		e, _ := fx.effect(ch, fitfolder.PathViaSearch, "all")
 		half := (e.Q95 - e.Q05) / 2
 		for i := -9; i <= 9; i++ {
 			rho := float64(i) / 10
 			m := e.Mean * (1 - rho/rho0[ch])
-			fx.Sensitivity = append(fx.Sensitivity, fitdir.Sensitivity{Channel: ch, Rho: rho,
+			fx.Sensitivity = append(fx.Sensitivity, fitfolder.Sensitivity{Channel: ch, Rho: rho,
 				Mean: m, Q05: m - half*(1+0.3*math.Abs(rho)), Q95: m + half*(1+0.3*math.Abs(rho))})
 		}
 		be := math.NaN()
 		if rho0[ch] <= 0.9 {
 			be = rho0[ch]
 		}
-		fx.Breakeven = append(fx.Breakeven, fitdir.Breakeven{Channel: ch, RhoZero: be})
+		fx.Breakeven = append(fx.Breakeven, fitfolder.Breakeven{Channel: ch, RhoZero: be})
 	}
 
 	// fitted.csv: a predictive mean close to the actuals with a 90% band.
@@ -297,14 +301,14 @@ func Write(dir string, o Options) (*Fixture, error) {
 	}{{"demand", queries, 1100}, {"outcome", conv, 75}} {
 		for t, wk := range fx.Weeks {
 			m := st.actual[t] + st.sd*rng.NormFloat64()
-			fx.Fitted = append(fx.Fitted, fitdir.Fitted{Stage: st.name, Week: wk, Actual: st.actual[t],
+			fx.Fitted = append(fx.Fitted, fitfolder.Fitted{Stage: st.name, Week: wk, Actual: st.actual[t],
 				Mean: m, Q05: m - 1.645*st.sd, Q95: m + 1.645*st.sd})
 		}
 	}
 
 	// curves.csv: saturating steady-state response per path.
 	for _, ch := range Upper {
-		cur := mean(fx.Columns[ch])
+		cur := stat.Mean(fx.Columns[ch])
 		dmax := map[string]float64{"video_spend": 90, "audio_spend": 110}[ch]
 		vmax := map[string]float64{"video_spend": 140, "audio_spend": 70}[ch]
 		for i := 0; i <= 30; i++ {
@@ -314,8 +318,8 @@ func Write(dir string, o Options) (*Fixture, error) {
 			for _, pv := range []struct {
 				p string
 				m float64
-			}{{fitdir.PathDirect, d}, {fitdir.PathViaSearch, v}, {fitdir.PathTotal, d + v}} {
-				fx.Curves = append(fx.Curves, fitdir.Curve{Channel: ch, Path: pv.p, WeeklySpend: s,
+			}{{fitfolder.PathDirect, d}, {fitfolder.PathViaSearch, v}, {fitfolder.PathTotal, d + v}} {
+				fx.Curves = append(fx.Curves, fitfolder.Curve{Channel: ch, Path: pv.p, WeeklySpend: s,
 					Mean: pv.m, Q05: 0.7 * pv.m, Q95: 1.35 * pv.m, CurrentWeeklySpend: cur})
 			}
 		}
@@ -325,19 +329,19 @@ func Write(dir string, o Options) (*Fixture, error) {
 	return fx, fx.write()
 }
 
-func (fx *Fixture) effect(ch, p, w string) (fitdir.Effect, bool) {
+func (fx *Fixture) effect(ch, p, w string) (fitfolder.Effect, bool) {
 	for _, e := range fx.Effects {
 		if e.Channel == ch && e.Path == p && e.Window == w {
 			return e, true
 		}
 	}
-	return fitdir.Effect{}, false
+	return fitfolder.Effect{}, false
 }
 
 // response returns the weekly contribution scale*H(a(x/mean(x))) with a
 // geometric adstock of retention lam and a Hill curve K=1, S=1.5.
 func response(x []float64, lam, scale float64) []float64 {
-	m := mean(x)
+	m := stat.Mean(x)
 	out := make([]float64, len(x))
 	a := 0.0
 	for t, v := range x {
@@ -361,12 +365,12 @@ func (fx *Fixture) makeStages(rng *rand.Rand, bad bool) {
 			"beta[search_spend]", "lam_s[search_spend]", "K_s[search_spend]", "S_s[search_spend]",
 			"delta[video_spend]", "delta[audio_spend]", "sigma_y"},
 	}
-	for _, st := range fitdir.StageNames {
-		var ps []fitdir.Param
+	for _, st := range fitfolder.StageNames {
+		var ps []fitfolder.Param
 		for _, name := range names[st] {
 			m := 0.2 + 0.8*rng.Float64()
 			sd := 0.05 + 0.1*rng.Float64()
-			p := fitdir.Param{Name: name, Mean: m, SD: sd, Q05: m - 1.645*sd, Q50: m, Q95: m + 1.645*sd,
+			p := fitfolder.Param{Name: name, Mean: m, SD: sd, Q05: m - 1.645*sd, Q50: m, Q95: m + 1.645*sd,
 				Rhat: 1 + 0.006*rng.Float64(), ESSBulk: math.Round(700 + 2500*rng.Float64()),
 				ESSTail: math.Round(600 + 2000*rng.Float64()), MCSEMean: sd / 30}
 			if bad && st == "outcome" && name == "K2[video_spend]" {
@@ -375,7 +379,7 @@ func (fx *Fixture) makeStages(rng *rand.Rand, bad bool) {
 			ps = append(ps, p)
 		}
 		fx.Params[st] = ps
-		s := fitdir.Stats{WallSeconds: 12.5, WarmupSeconds: []float64{5.1, 5.3, 4.9, 5.2},
+		s := fitfolder.Stats{WallSeconds: 12.5, WarmupSeconds: []float64{5.1, 5.3, 4.9, 5.2},
 			SamplingSeconds: []float64{6.2, 6.0, 6.4, 6.1}, GradientEvaluations: []int64{60000, 61000, 59000, 60500},
 			Divergences: []int{0, 0, 0, 0}, TreedepthHits: []int{0, 0, 0, 0}, StepSize: []float64{0.31, 0.29, 0.33, 0.30}}
 		if bad && st == "outcome" {
@@ -393,187 +397,64 @@ func (fx *Fixture) makeStages(rng *rand.Rand, bad bool) {
 	}
 }
 
+// write writes the fixture through the fit folder's own writer.
 func (fx *Fixture) write() error {
-	dir := fx.Dir
-	g := func(v float64) string {
-		if math.IsNaN(v) {
-			return ""
+	col := func(names ...string) [][]float64 {
+		var out [][]float64
+		for _, n := range names {
+			out = append(out, fx.Columns[n])
 		}
-		return strconv.FormatFloat(v, 'g', -1, 64)
+		return out
 	}
-	day := func(t time.Time) string { return t.Format(fitdir.DateLayout) }
-
-	run := map[string]any{
-		"spec": fx.Spec, "seed": 11, "chains": 4, "warmup": 500, "draws": 500,
-		"command": fx.Command, "data_file": "data.csv",
+	ds := &data.Dataset{Spec: fx.Spec, File: "data.csv", Weeks: fx.Weeks, Regions: []data.Region{{Series: data.Series{
+		Weeks: fx.Weeks, Upper: col(fx.Spec.Upper...), Search: col(fx.Spec.Search...), Queries: fx.Columns[QueriesCol],
+		Outcome: fx.Columns[OutcomeCol], Controls: col(fx.Spec.Controls...)}}}}
+	f := &fitfolder.Fit{
+		Dir:  fx.Dir,
+		Run:  fitfolder.Run{Spec: fx.Spec, Seed: 11, Chains: 4, Warmup: 500, Draws: 500, Command: fx.Command, DataFile: "data.csv"},
+		Data: &fitfolder.Data{Dataset: ds},
 	}
-	b, err := json.MarshalIndent(run, "", "  ")
-	if err != nil {
-		return err
-	}
-	if err := os.WriteFile(filepath.Join(dir, "spec.json"), append(b, '\n'), 0o644); err != nil {
-		return err
-	}
-
-	cols := []string{DateCol, "video_spend", "audio_spend", "search_spend", QueriesCol, OutcomeCol, ControlCol}
-	var rows [][]string
-	for t, wk := range fx.Weeks {
-		r := []string{day(wk)}
-		for _, c := range cols[1:] {
-			r = append(r, g(fx.Columns[c][t]))
-		}
-		rows = append(rows, r)
-	}
-	if err := writeCSV(filepath.Join(dir, "data.csv"), cols, rows); err != nil {
-		return err
-	}
-
-	for _, st := range fitdir.StageNames {
-		sd := filepath.Join(dir, st)
-		if err := os.MkdirAll(sd, 0o755); err != nil {
-			return err
-		}
-		rows = nil
-		for _, p := range fx.Params[st] {
-			rows = append(rows, []string{p.Name, g(p.Mean), g(p.SD), g(p.Q05), g(p.Q50), g(p.Q95),
-				g(p.Rhat), g(p.ESSBulk), g(p.ESSTail), g(p.MCSEMean)})
-		}
-		if err := writeCSV(filepath.Join(sd, "summary.csv"), []string{"parameter", "mean", "sd", "q05", "q50",
-			"q95", "rhat", "ess_bulk", "ess_tail", "mcse_mean"}, rows); err != nil {
-			return err
-		}
-		b, err := json.MarshalIndent(fx.Stats[st], "", "  ")
-		if err != nil {
-			return err
-		}
-		if err := os.WriteFile(filepath.Join(sd, "stats.json"), b, 0o644); err != nil {
-			return err
-		}
-		// A small draws.csv so the folder is complete; the loader does not
+	for _, st := range fitfolder.StageNames {
+		// A small draws.csv so the folder is complete; the charts do not
 		// need it.
-		hdr := []string{".chain", ".iteration", ".draw"}
-		for _, p := range fx.Params[st] {
-			hdr = append(hdr, p.Name)
-		}
-		rows = nil
-		for c := 1; c <= 2; c++ {
-			for it := 1; it <= 5; it++ {
-				r := []string{strconv.Itoa(c), strconv.Itoa(it), strconv.Itoa((c-1)*5 + it)}
-				for _, p := range fx.Params[st] {
-					r = append(r, g(p.Mean+p.SD*float64(it-3)/2))
+		ps := fx.Params[st]
+		chains := make([]mcmc.Chain, 2)
+		for c := range chains {
+			m := mat.NewDense(5, len(ps), nil)
+			for it := range 5 {
+				for j, p := range ps {
+					m.Set(it, j, p.Mean+p.SD*float64(it-2)/2)
 				}
-				rows = append(rows, r)
 			}
+			chains[c] = mcmc.Chain{Draws: m}
 		}
-		if err := writeCSV(filepath.Join(sd, "draws.csv"), hdr, rows); err != nil {
-			return err
+		names := make([]string, len(ps))
+		for j, p := range ps {
+			names[j] = p.Name
 		}
+		f.Stages = append(f.Stages, &fitfolder.Stage{Name: st, Params: ps, Stats: fx.Stats[st],
+			Draws: &mcmc.Fit{Names: names, Chains: chains}})
 	}
-	if err := os.WriteFile(filepath.Join(dir, "verdict.txt"), []byte(strings.Join(fx.Verdict, "\n")+"\n"), 0o644); err != nil {
-		return err
+	f.Verdict.Trustworthy = fx.Verdict[0] == "trustworthy"
+	for _, line := range fx.Verdict[1:] {
+		stage, text, _ := strings.Cut(line, ": ")
+		f.Verdict.Reasons = append(f.Verdict.Reasons, fitfolder.Reason{Stage: stage, Text: text})
 	}
-
-	rows = nil
-	for _, e := range fx.Effects {
-		rows = append(rows, []string{e.Channel, e.Path, e.Window, g(e.Mean), g(e.Q05), g(e.Q50), g(e.Q95), g(e.PerUnitSpend)})
-	}
-	if err := writeCSV(filepath.Join(dir, "effects.csv"), []string{"channel", "path", "window", "mean", "q05", "q50",
-		"q95", "per_unit_spend"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	keys := make([]fitdir.DrawKey, 0, len(fx.Draws))
-	for k := range fx.Draws {
-		keys = append(keys, k)
-	}
-	winIdx := func(w string) int { return slices.Index(fx.Windows, w) }
-	sort.Slice(keys, func(i, j int) bool {
-		a, b := keys[i], keys[j]
-		if a.Window != b.Window {
-			return winIdx(a.Window) < winIdx(b.Window)
+	f.Split = fitfolder.Split{Effects: fx.Effects, EffectDraws: map[fitfolder.DrawKey]fitfolder.DrawSeries{},
+		Borrowed: fx.Borrowed, Weekly: fx.Weekly, Sensitivity: fx.Sensitivity, Breakeven: fx.Breakeven,
+		Fitted: fx.Fitted, Curves: fx.Curves}
+	for k, v := range fx.Draws {
+		d := make([]int, len(v))
+		for i := range d {
+			d[i] = i + 1
 		}
-		if a.Channel != b.Channel {
-			return a.Channel < b.Channel
-		}
-		return a.Path < b.Path
-	})
-	for _, k := range keys {
-		for d, v := range fx.Draws[k] {
-			rows = append(rows, []string{k.Channel, k.Path, k.Window, strconv.Itoa(d + 1), g(v)})
-		}
+		f.EffectDraws[k] = fitfolder.DrawSeries{Draw: d, Value: v}
 	}
-	if err := writeCSV(filepath.Join(dir, "effect_draws.csv"), []string{"channel", "path", "window", ".draw", "value"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	for _, r := range fx.Borrowed {
-		rows = append(rows, []string{r.Channel, r.Measure, g(r.Mean), g(r.Q05), g(r.Q50), g(r.Q95)})
-	}
-	if err := writeCSV(filepath.Join(dir, "borrowed.csv"), []string{"channel", "measure", "mean", "q05", "q50", "q95"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	for _, r := range fx.Weekly {
-		rows = append(rows, []string{day(r.Week), r.Channel, r.Path, g(r.Mean), g(r.Q05), g(r.Q95)})
-	}
-	if err := writeCSV(filepath.Join(dir, "weekly.csv"), []string{"week", "channel", "path", "mean", "q05", "q95"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	for _, r := range fx.Sensitivity {
-		rows = append(rows, []string{r.Channel, strconv.FormatFloat(r.Rho, 'f', 1, 64), g(r.Mean), g(r.Q05), g(r.Q95)})
-	}
-	if err := writeCSV(filepath.Join(dir, "sensitivity.csv"), []string{"channel", "rho", "via_search_mean",
-		"via_search_q05", "via_search_q95"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	for _, r := range fx.Breakeven {
-		rows = append(rows, []string{r.Channel, g(r.RhoZero)})
-	}
-	if err := writeCSV(filepath.Join(dir, "breakeven.csv"), []string{"channel", "rho_zero"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	for _, r := range fx.Fitted {
-		rows = append(rows, []string{r.Stage, day(r.Week), g(r.Actual), g(r.Mean), g(r.Q05), g(r.Q95)})
-	}
-	if err := writeCSV(filepath.Join(dir, "fitted.csv"), []string{"stage", "week", "actual", "mean", "q05", "q95"}, rows); err != nil {
-		return err
-	}
-
-	rows = nil
-	for _, r := range fx.Curves {
-		rows = append(rows, []string{r.Channel, r.Path, g(r.WeeklySpend), g(r.Mean), g(r.Q05), g(r.Q95), g(r.CurrentWeeklySpend)})
-	}
-	return writeCSV(filepath.Join(dir, "curves.csv"), []string{"channel", "path", "weekly_spend", "mean", "q05", "q95",
-		"current_weekly_spend"}, rows)
+	fx.Fit = f
+	return f.Write(fx.Dir)
 }
 
-func writeCSV(path string, header []string, rows [][]string) error {
-	f, err := os.Create(path)
-	if err != nil {
-		return err
-	}
-	w := csv.NewWriter(f)
-	if err := w.Write(header); err != nil {
-		f.Close()
-		return err
-	}
-	if err := w.WriteAll(rows); err != nil {
-		f.Close()
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	return f.Close()
-}
-
-func weeksIn(weeks []time.Time, w fitdir.Window) int {
+func weeksIn(weeks []time.Time, w window.Window) int {
 	n := 0
 	for _, t := range weeks {
 		if w.Contains(t) {
@@ -583,7 +464,7 @@ func weeksIn(weeks []time.Time, w fitdir.Window) int {
 	return n
 }
 
-func sumIn(weeks []time.Time, v []float64, w fitdir.Window) float64 {
+func sumIn(weeks []time.Time, v []float64, w window.Window) float64 {
 	s := 0.0
 	for t, wk := range weeks {
 		if w.Contains(wk) {
@@ -591,27 +472,4 @@ func sumIn(weeks []time.Time, v []float64, w fitdir.Window) float64 {
 		}
 	}
 	return s
-}
-
-func mean(v []float64) float64 {
-	s := 0.0
-	for _, x := range v {
-		s += x
-	}
-	return s / float64(len(v))
-}
-
-// Quantile returns the p-quantile of v by linear interpolation between
-// order statistics (Hyndman and Fan 1996, type 7, R's default). v is not
-// modified.
-func Quantile(v []float64, p float64) float64 {
-	s := slices.Clone(v)
-	slices.Sort(s)
-	h := p * float64(len(s)-1)
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= len(s) {
-		return s[len(s)-1]
-	}
-	return s[i] + (h-lo)*(s[i+1]-s[i])
 }

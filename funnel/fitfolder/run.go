@@ -1,0 +1,73 @@
+package fitfolder
+
+import (
+	"bytes"
+	"encoding/json"
+	"errors"
+	"os"
+
+	"spillway/funnel/data"
+)
+
+// Run is spec.json: everything needed to rerun a fit.
+type Run struct {
+	Spec     data.Spec `json:"spec"`
+	Demo     string    `json:"demo,omitempty"` // the scenario name when the data are the built-in demo
+	Seed     uint64    `json:"seed"`
+	Chains   int       `json:"chains"`
+	Warmup   int       `json:"warmup"`
+	Draws    int       `json:"draws"`
+	Accept   float64   `json:"target_accept"`
+	Linear   []string  `json:"linear,omitempty"`
+	Priors   string    `json:"priors,omitempty"` // the priors file given; copied into the folder as priors.csv
+	Command  string    `json:"command"`
+	DataFile string    `json:"data_file"`
+	Version  string    `json:"version"`
+}
+
+// jsonFile renders v as an indented JSON file.
+func jsonFile(v any) ([]byte, error) {
+	b, err := json.MarshalIndent(v, "", "  ")
+	return append(b, '\n'), err
+}
+
+// readJSON decodes the JSON file at path into v; a decoding error is an
+// *Error at the line (and field) at fault.
+func readJSON(path string, v any) error {
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return openError(path, hintFit, err)
+	}
+	if err := json.NewDecoder(bytes.NewReader(b)).Decode(v); err != nil {
+		var se *json.SyntaxError
+		var te *json.UnmarshalTypeError
+		switch {
+		case errors.As(err, &se):
+			return &Error{File: path, Line: lineAt(b, se.Offset), Err: err}
+		case errors.As(err, &te):
+			return &Error{File: path, Line: lineAt(b, te.Offset), Column: te.Field, Err: err}
+		}
+		return &Error{File: path, Err: err}
+	}
+	return nil
+}
+
+// readRun reads spec.json and checks that it names the columns every fit
+// has.
+func readRun(path string) (Run, error) {
+	var r Run
+	if err := readJSON(path, &r); err != nil {
+		return r, err
+	}
+	s := r.Spec
+	for _, c := range []struct {
+		key string
+		ok  bool
+	}{{"spec.date", s.Date != ""}, {"spec.upper", len(s.Upper) > 0}, {"spec.search", len(s.Search) > 0},
+		{"spec.queries", s.Queries != ""}, {"spec.outcome", s.Outcome != ""}} {
+		if !c.ok {
+			return r, &Error{File: path, Column: c.key, Err: errors.New("missing or empty")}
+		}
+	}
+	return r, nil
+}

@@ -1,0 +1,69 @@
+package pipeline
+
+import (
+	"fmt"
+	"slices"
+	"strings"
+
+	"spillway/funnel/model"
+)
+
+// Choices are the model choices a user makes beyond the data roles; the
+// commands take them from --linear and --priors, or from a fit folder's
+// spec.json and priors.csv.
+type Choices struct {
+	// Linear names spend columns whose effect is linear (no adstock, no
+	// saturation).
+	Linear []string
+	// Priors is a priors file (see model.LoadPriors); empty keeps the
+	// default priors.
+	Priors string
+}
+
+// LinearError is a Linear column that is not a spend column of the data.
+type LinearError struct {
+	Column string
+	// Spend lists the upper-funnel and paid-search columns.
+	Spend []string
+}
+
+func (e *LinearError) Error() string {
+	return fmt.Sprintf("%s: not an upper-funnel or paid-search column (%s)", e.Column, strings.Join(e.Spend, ", "))
+}
+
+// Options checks the choices against the data and returns the model
+// options, before any sampling. A Linear column that is not a spend column
+// of sc is a *LinearError. The priors file is read against the parameters
+// of the stages the linear choices give (its errors name the line and
+// column, see model.PriorError), and every stage is then compiled with the
+// priors, so that a prior that does not fit its parameter is reported
+// with the file's name.
+func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
+	o := model.Options{Linear: map[string]bool{}}
+	spend := slices.Concat(sc.UpperNames, sc.SearchNames)
+	for _, col := range c.Linear {
+		if !slices.Contains(spend, col) {
+			return o, &LinearError{Column: col, Spend: spend}
+		}
+		o.Linear[col] = true
+	}
+	if c.Priors == "" {
+		return o, nil
+	}
+	st, err := Stages(sc, o)
+	if err != nil {
+		return o, err
+	}
+	if o.Priors, err = model.LoadPriors(c.Priors, Known(st)); err != nil {
+		return o, err
+	}
+	if st, err = Stages(sc, o); err != nil {
+		return o, err
+	}
+	for _, s := range st {
+		if _, err := s.Target(); err != nil {
+			return o, fmt.Errorf("%s: %w", c.Priors, err)
+		}
+	}
+	return o, nil
+}

@@ -1,0 +1,74 @@
+package pipeline
+
+import (
+	"errors"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"spillway/funnel/data"
+	"spillway/funnel/model"
+	"spillway/funnel/scenario"
+)
+
+// TestChoicesOptions checks the options built from --linear and --priors:
+// linear spend columns, priors by parameter name, and each kind of error.
+func TestChoicesOptions(t *testing.T) {
+	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := model.Scale(ds.National(), ds.Spec)
+	dir := t.TempDir()
+	file := func(name, text string) string {
+		p := filepath.Join(dir, name)
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return p
+	}
+
+	o, err := Choices{}.Options(sc)
+	if err != nil || len(o.Linear) != 0 || o.Priors != nil {
+		t.Errorf("no choices: got %+v, %v; want the defaults", o, err)
+	}
+
+	good := file("good.csv", "parameter,family,p1,p2\nK[video_spend],gamma,2,2\n")
+	o, err = Choices{Linear: []string{"search_spend"}, Priors: good}.Options(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !o.Linear["search_spend"] || len(o.Linear) != 1 {
+		t.Errorf("linear: got %v, want search_spend only", o.Linear)
+	}
+	if p := o.Priors["K[video_spend]"]; p != (model.Prior{Family: model.Gamma, P1: 2, P2: 2}) || len(o.Priors) != 1 {
+		t.Errorf("priors: got %v", o.Priors)
+	}
+
+	_, err = Choices{Linear: []string{"price"}}.Options(sc)
+	var le *LinearError
+	if !errors.As(err, &le) || err.Error() != "price: not an upper-funnel or paid-search column (video_spend, audio_spend, search_spend)" {
+		t.Errorf("a control as linear: got %v", err)
+	}
+
+	// a linear channel has no adstock or saturation parameters to set
+	lam := file("lam.csv", "parameter,family,p1,p2\nlam[video_spend],beta,3,3\n")
+	_, err = Choices{Linear: []string{"video_spend"}, Priors: lam}.Options(sc)
+	var pe *model.PriorError
+	if !errors.As(err, &pe) || pe.Line != 2 || pe.Column != 1 {
+		t.Errorf("prior on a linear channel's retention: got %v, want line 2 column 1", err)
+	}
+	if _, err := (Choices{Priors: lam}).Options(sc); err != nil {
+		t.Errorf("the same prior without --linear: %v", err)
+	}
+
+	misfit := file("misfit.csv", "parameter,family,p1,p2\ngamma,beta,2,2\n")
+	if _, err := (Choices{Priors: misfit}).Options(sc); err == nil || !strings.HasPrefix(err.Error(), misfit+": prior for gamma") {
+		t.Errorf("a beta prior on gamma: got %v, want the file and the parameter named", err)
+	}
+
+	if _, err := (Choices{Priors: filepath.Join(dir, "missing.csv")}).Options(sc); !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("missing priors file: got %v", err)
+	}
+}
