@@ -1,8 +1,9 @@
 package allocate
 
 import (
-	"math"
 	"sort"
+
+	"spillway/funnel/stat"
 )
 
 // objective is the plan's objective over a set of draws, as a function of
@@ -91,7 +92,7 @@ func (o *objective) reduce(f [][]float64) float64 {
 		o.gain[i] = g
 	}
 	sort.Float64s(o.gain)
-	return quantile(o.gain, o.p.quantile)
+	return stat.Quantile(o.gain, o.p.quantile)
 }
 
 // marginal writes into g[c], for each channel with mask[c], the derivative
@@ -124,26 +125,4 @@ func equal(a, b []float64) bool {
 	return true
 }
 
-func meanOf(x []float64) float64 {
-	s := 0.0
-	for _, v := range x {
-		s += v
-	}
-	return s / float64(len(x))
-}
-
-// quantile returns the p-quantile of sorted x by linear interpolation
-// between order statistics (R's type 7, as mediation.Summarise).
-func quantile(sorted []float64, p float64) float64 {
-	n := len(sorted)
-	if n == 0 {
-		return math.NaN()
-	}
-	h := float64(n-1) * p
-	lo := math.Floor(h)
-	i := int(lo)
-	if i+1 >= n {
-		return sorted[n-1]
-	}
-	return sorted[i] + (h-lo)*(sorted[i+1]-sorted[i])
-}
+func meanOf(x []float64) float64 { return stat.Mean(x) }

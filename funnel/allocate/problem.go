@@ -8,6 +8,7 @@ import (
 	"time"
 
 	"spillway/funnel/model"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -190,11 +191,11 @@ func patternWindow(name string, weeks int, dates []time.Time) (from, to int, err
 		}
 		return T - weeks, T - 1, nil
 	}
-	w, err := mediation.ParseWindow(name, dates)
+	w, err := window.Resolve(name, dates)
 	if err != nil {
 		return 0, 0, fmt.Errorf("allocate: pattern %w (or last, or even)", err)
 	}
-	if w.Name == "all" {
+	if w.Kind == window.WholePeriod {
 		return 0, 0, fmt.Errorf("allocate: pattern all: expected last, even, a quarter of the data or FROM:TO dates")
 	}
 	return w.From, w.To, nil

@@ -11,6 +11,7 @@ import (
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
 	"spillway/funnel/scenario"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
@@ -123,7 +124,7 @@ func (f *demoFitted) truthSplit() (*truthSplit, error) {
 		return nil, err
 	}
 	r, err := mediation.Split(&mediation.Inputs{Data: f.sc, Demand: f.demand, Outcome: f.outcome,
-		DemandDraws: in.DemandDraws, OutcomeDraws: in.OutcomeDraws}, mediation.Quarters(f.sc.Weeks)[:1])
+		DemandDraws: in.DemandDraws, OutcomeDraws: in.OutcomeDraws}, window.Quarters(f.sc.Weeks)[:1])
 	if err != nil {
 		return nil, err
 	}
