@@ -31,7 +31,7 @@ func TestEffectIsWholeModel(t *testing.T) {
 		a[c] = cents(v)
 	}
 	x := p.weekly(a, nil)
-	got := table(len(a), 3)
+	got := drawTable(len(a), 3)
 	p.eng.effects(got, x, []int{0, 1, 2})
 
 	sc := w.sc

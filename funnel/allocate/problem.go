@@ -354,3 +354,5 @@ func maxOf(x []float64) float64 {
 	}
 	return m
 }
+
+func joinNames(names []string) string { return strings.Join(names, ", ") }

@@ -204,13 +204,13 @@ func (p *Problem) evaluate(planned []int64, optimised bool) (*Result, error) {
 	if p.quantile > 0 {
 		r.Objective = fmt.Sprintf("q%g of the gain", p.quantile)
 	}
-	fCur, fPl := table(n, nd), table(n, nd)
+	fCur, fPl := drawTable(n, nd), drawTable(n, nd)
 	e.effects(fCur, p.weekly(p.curC, nil), all)
 	r.Weekly = make([][]float64, n)
 	e.effects(fPl, p.weekly(planned, r.Weekly), all)
 	// marginal returns: central differences in each channel's amount
 	h := 1e-4 * float64(p.budgetC) / 100 / float64(n)
-	up, down := table(n, nd), table(n, nd)
+	up, down := drawTable(n, nd), drawTable(n, nd)
 	xu, xd := make([][]float64, n), make([][]float64, n)
 	lower := make([]float64, n)
 	for c := range p.names {
@@ -238,14 +238,18 @@ func (p *Problem) evaluate(planned []int64, optimised bool) (*Result, error) {
 	r.IncrementalCurrent, r.IncrementalPlanned = mediation.Summarise(incCur), mediation.Summarise(incPl)
 	r.Gain = mediation.Summarise(gain)
 	r.PBeats = float64(beats) / float64(nd)
+	var curC, planC int64
+	for c := range p.names {
+		curC += p.curC[c]
+		planC += planned[c]
+	}
+	r.Current, r.Planned = float64(curC)/100, float64(planC)/100
 	for c, name := range p.names {
 		ch := Channel{Channel: name, Search: p.search[c], Current: float64(p.curC[c]) / 100, Planned: float64(planned[c]) / 100,
 			Min: float64(p.minC[c]) / 100, Max: math.Inf(1), Locked: p.locked[c]}
 		if p.maxC[c] != noMax {
 			ch.Max = float64(p.maxC[c]) / 100
 		}
-		r.Current += ch.Current
-		r.Planned += ch.Planned
 		ch.EffectCurrent, ch.EffectPlanned = mediation.Summarise(fCur[c]), mediation.Summarise(fPl[c])
 		mr := make([]float64, nd)
 		a := float64(planned[c]) / 100
@@ -316,7 +320,7 @@ func (p *Problem) weekly(amounts []int64, out [][]float64) [][]float64 {
 	return x
 }
 
-func table(n, nd int) [][]float64 {
+func drawTable(n, nd int) [][]float64 {
 	t := make([][]float64, n)
 	for c := range t {
 		t[c] = make([]float64, nd)
