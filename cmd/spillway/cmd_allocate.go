@@ -39,7 +39,7 @@ type planFlags struct {
 
 func (o *allocateOptions) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&o.fit, "fit", "", "the fit `FOLDER` written by 'spillway fit' or 'spillway run'")
-	fs.StringVar(&o.out, "out", "", "the output `FOLDER` for the plan (written atomically; must not exist unless --force)")
+	fs.StringVar(&o.out, "out", "", "a new output `FOLDER` for the plan (written atomically; must not exist unless --force); default: the fit folder itself, replacing its plan")
 	fs.BoolVar(&o.force, "force", false, "replace the output folder if it exists")
 	o.plan.addFlags(fs)
 }
@@ -93,7 +93,7 @@ func newAllocateCommand() *command {
 	opts.addFlags(fs)
 	return &command{
 		name:  "allocate",
-		usage: "allocate --fit FOLDER --out FOLDER [--weeks N] [--budget AMOUNT] [--limits FILE] [--lock COLUMNS] [--pattern PATTERN] [--plan FILE] [--cautious P]",
+		usage: "allocate --fit FOLDER [--out FOLDER] [--weeks N] [--budget AMOUNT] [--limits FILE] [--lock COLUMNS] [--pattern PATTERN] [--plan FILE] [--cautious P]",
 		short: "plan the budget of the weeks after the data, with limits and uncertainty",
 		long: `Allocate plans each channel's spend over the N weeks after the data's last
 week. A channel's weekly spend follows its pattern (by default its own spend
@@ -111,7 +111,8 @@ return (which counts demand the upper funnel created). --cautious P
 maximises a lower quantile of the gain over the current plan instead.
 --plan FILE evaluates a plan you bring instead of optimising.
 
-It writes into the output folder:
+It writes into the output folder (by default the fit folder itself, where the
+report then shows the plan):
   plan.csv         channel,current,planned,min,max,locked,at_limit, the
                    channel's incremental outcome (mean, q05, q95) at its
                    current and planned amounts, its marginal return at the
@@ -147,16 +148,20 @@ EXAMPLE
 	}
 }
 
-// runAllocate plans from a fit folder into a new output folder.
+// runAllocate plans from a fit folder into a new output folder, or into
+// the fit folder itself.
 func runAllocate(ctx context.Context, o *allocateOptions, stdout, stderr io.Writer) error {
 	if err := o.plan.validate(); err != nil {
 		return err
 	}
-	od, err := newOutDir(o.out, o.force, o.fit, o.plan.limits, o.plan.given)
-	if err != nil {
-		return err
+	var od *outDir
+	if o.out != "" {
+		var err error
+		if od, err = newOutDir(o.out, o.force, o.fit, o.plan.limits, o.plan.given); err != nil {
+			return err
+		}
+		defer od.Abort()
 	}
-	defer od.Abort()
 	ff, err := readFitFolder(o.fit)
 	if err != nil {
 		return err
@@ -165,6 +170,16 @@ func runAllocate(ctx context.Context, o *allocateOptions, stdout, stderr io.Writ
 	files, err := planFiles(ctx, ff, &o.plan, cmd, stdout, stderr)
 	if err != nil {
 		return err
+	}
+	if od == nil {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		if err := updateInPlace(o.fit, files); err != nil {
+			return err
+		}
+		fmt.Fprintf(stdout, "plan written to %s\n", o.fit)
+		return nil
 	}
 	for name, b := range files {
 		if err := od.WriteFile(name, b); err != nil {
@@ -259,7 +274,10 @@ func planError(err error, limits, given *allocate.File) error {
 
 // allocateCommand spells out the command that reproduces a plan.
 func allocateCommand(o *allocateOptions) string {
-	parts := []string{"spillway", "allocate", "--fit", shellQuote(o.fit), "--out", shellQuote(o.out)}
+	parts := []string{"spillway", "allocate", "--fit", shellQuote(o.fit)}
+	if o.out != "" {
+		parts = append(parts, "--out", shellQuote(o.out))
+	}
 	return strings.Join(append(parts, o.plan.args()...), " ")
 }
 

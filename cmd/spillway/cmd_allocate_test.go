@@ -136,6 +136,28 @@ func TestAllocateCommand(t *testing.T) {
 	}
 }
 
+// TestAllocateIntoFitFolder plans into the fit folder itself (no --out)
+// and checks that the report then has the plan's section.
+func TestAllocateIntoFitFolder(t *testing.T) {
+	fit := fitForAllocate(t)
+	if code, _, stderr := runCmd(t, "split", "--fit", fit); code != 0 {
+		t.Fatalf("split: exit %d: %s", code, stderr)
+	}
+	code, stdout, stderr := runCmd(t, "allocate", "--fit", fit, "--budget", "500000")
+	if code != 0 || !strings.Contains(stdout, "plan written to "+fit) {
+		t.Fatalf("allocate into the fit folder: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	if code, _, stderr := runCmd(t, "report", "--fit", fit); code != 0 {
+		t.Fatalf("report: exit %d: %s", code, stderr)
+	}
+	html, _ := os.ReadFile(filepath.Join(fit, "report.html"))
+	for _, want := range []string{`id="plan"`, "Gain over the current plan", "confirm large moves with a controlled experiment"} {
+		if !strings.Contains(string(html), want) {
+			t.Errorf("the report lacks %q", want)
+		}
+	}
+}
+
 func cents(t *testing.T, s string) int64 {
 	t.Helper()
 	v, err := strconv.ParseFloat(s, 64)
