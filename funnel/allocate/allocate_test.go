@@ -396,3 +396,48 @@ func TestCoresDoNotMatter(t *testing.T) {
 		t.Errorf("one core: %+v\nfour: %+v", one, four)
 	}
 }
+
+// TestCautious checks the cautious objective against the default on the
+// same draws: the cautious plan's 10% quantile of the gain over the current
+// plan is at least the mean plan's, and the mean plan's posterior mean gain
+// at least the cautious plan's (each is best at what it maximises).
+func TestCautious(t *testing.T) {
+	w := newWorld(t, "demo", 1, model.Options{}, nil)
+	in := w.inputs(t, 60)
+	s := Settings{Limits: []Limit{{Channel: "search_spend", Max: 9e5}}}
+	mean := mustOptimise(t, mustNew(t, in, s))
+	s.Quantile = 0.1
+	p := mustNew(t, in, s)
+	cautious := mustOptimise(t, p)
+	q10 := func(r *Result) float64 {
+		e, err := p.Evaluate(plannedOf(r))
+		if err != nil {
+			t.Fatal(err)
+		}
+		o := newObjective(p, seq(p.Draws()))
+		a := make([]float64, len(p.names))
+		for c := range a {
+			a[c] = e.Channels[c].Planned
+		}
+		return o.value(a)
+	}
+	qm, qc := q10(mean), q10(cautious)
+	t.Logf("mean plan %v: gain %.2f, q10 %.2f; cautious plan %v: gain %.2f, q10 %.2f", plannedOf(mean), mean.Gain.Mean, qm, plannedOf(cautious), cautious.Gain.Mean, qc)
+	if qc < qm-1e-6*math.Abs(qm) {
+		t.Errorf("the cautious plan's q10 of the gain %.4f is below the mean plan's %.4f", qc, qm)
+	}
+	if cautious.Gain.Mean > mean.Gain.Mean+1e-9*math.Abs(mean.Gain.Mean) {
+		t.Errorf("the cautious plan's mean gain %.4f is above the mean plan's %.4f", cautious.Gain.Mean, mean.Gain.Mean)
+	}
+	if cautious.Check != nil || cautious.Objective != "q0.1 of the gain" {
+		t.Errorf("cautious plan: check %v, objective %q", cautious.Check, cautious.Objective)
+	}
+}
+
+func seq(n int) []int {
+	out := make([]int, n)
+	for i := range out {
+		out[i] = i
+	}
+	return out
+}
