@@ -251,11 +251,13 @@ func planFiles(ctx context.Context, ff *fitFolder, pf *planFlags, command string
 // given plan into an error pointing at the file row or the flag at fault
 // (exit status 2).
 func planError(err error, limits, given *allocate.File) error {
+	var se *allocate.SettingError
+	if errors.As(err, &se) {
+		flag := map[string]string{"weeks": "--weeks", "pattern": "--pattern", "quantile": "--cautious"}[se.Setting]
+		return usagef("%s: %v", flag, se)
+	}
 	var le *allocate.LimitError
 	if !errors.As(err, &le) {
-		if strings.Contains(err.Error(), "pattern") || strings.Contains(err.Error(), "weeks") {
-			return usagef("%v", err)
-		}
 		return err
 	}
 	for _, f := range []*allocate.File{limits, given} {

@@ -94,6 +94,18 @@ func (e *LimitError) Error() string {
 
 func (e *LimitError) Unwrap() error { return e.Err }
 
+// SettingError is a setting that cannot make a plan: Setting names the
+// field of Settings in lower case ("weeks", "after", "pattern",
+// "quantile").
+type SettingError struct {
+	Setting string
+	Err     error
+}
+
+func (e *SettingError) Error() string { return e.Err.Error() }
+
+func (e *SettingError) Unwrap() error { return e.Err }
+
 // Problem is a budget plan ready to be optimised or evaluated: channels,
 // patterns, current amounts, limits and budget, and the simulator with
 // each draw's carryover from the data.
@@ -125,11 +137,14 @@ func New(in Inputs, s Settings) (*Problem, error) {
 	if s.After == 0 {
 		s.After = DefaultAfter
 	}
-	if s.Weeks < 1 || s.After < 0 {
-		return nil, fmt.Errorf("allocate: a plan of %d weeks with %d weeks after it", s.Weeks, s.After)
+	if s.Weeks < 1 {
+		return nil, &SettingError{"weeks", fmt.Errorf("a plan of %d weeks", s.Weeks)}
+	}
+	if s.After < 0 {
+		return nil, &SettingError{"after", fmt.Errorf("%d weeks after the plan", s.After)}
 	}
 	if s.Quantile < 0 || s.Quantile > 0.5 || math.IsNaN(s.Quantile) {
-		return nil, fmt.Errorf("allocate: the cautious objective's quantile is %v; expected a probability in (0, 0.5]", s.Quantile)
+		return nil, &SettingError{"quantile", fmt.Errorf("the cautious objective's quantile is %v; expected a probability in (0, 0.5]", s.Quantile)}
 	}
 	p := &Problem{quantile: s.Quantile}
 	p.names = append(append(p.names, sc.UpperNames...), sc.SearchNames...)
@@ -187,16 +202,16 @@ func patternWindow(name string, weeks int, dates []time.Time) (from, to int, err
 	switch name {
 	case "", "last", "even":
 		if weeks > T {
-			return 0, 0, fmt.Errorf("allocate: a plan of %d weeks is longer than the data's %d weeks; use a shorter plan or --pattern with a window", weeks, T)
+			return 0, 0, &SettingError{"weeks", fmt.Errorf("a plan of %d weeks with the pattern of the data's last weeks, longer than the data's %d weeks; use a shorter plan or a window of the data as the pattern", weeks, T)}
 		}
 		return T - weeks, T - 1, nil
 	}
 	w, err := window.Resolve(name, dates)
 	if err != nil {
-		return 0, 0, fmt.Errorf("allocate: pattern %w (or last, or even)", err)
+		return 0, 0, &SettingError{"pattern", fmt.Errorf("%w; or last, or even", err)}
 	}
 	if w.Kind == window.WholePeriod {
-		return 0, 0, fmt.Errorf("allocate: pattern all: expected last, even, a quarter of the data or FROM:TO dates")
+		return 0, 0, &SettingError{"pattern", errors.New("all: expected last, even, a quarter of the data or FROM:TO dates")}
 	}
 	return w.From, w.To, nil
 }
