@@ -42,8 +42,15 @@ func planSection(f *fitfolder.Fit) (*planView, error) {
 	default:
 		v.Intro = "The plan that maximises the posterior mean of the incremental " + unit + ", within the limits and the budget:"
 	}
-	v.Intro += fmt.Sprintf(" %d weeks from %s, each channel's spend following its %s pattern; each plan's %s counted over its weeks and the %d weeks after them, against no spend in its weeks. Paid search counts with its own (controlled) effect only, never its apparent return.",
-		s.Weeks, s.FirstWeek, s.Pattern, unit, s.AfterWeeks)
+	pattern := "its spend in " + s.Pattern + ", repeated as needed"
+	switch s.Pattern {
+	case "last":
+		pattern = fmt.Sprintf("its own flighting in the data's last %d weeks", s.Weeks)
+	case "even":
+		pattern = "an even spread"
+	}
+	v.Intro += fmt.Sprintf(" %d weeks from %s, each channel's weekly spend following %s; each plan's %s counted over its weeks and the %d weeks after them, against no spend in its weeks. Paid search counts with its own (controlled) effect only, never its apparent return.",
+		s.Weeks, s.FirstWeek, pattern, unit, s.AfterWeeks)
 	for _, c := range p.Channels {
 		lim := fmt.Sprintf("%s to %s", plots.Number(c.Min), plots.Number(c.Max))
 		if math.IsInf(c.Max, 1) {

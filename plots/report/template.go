@@ -149,8 +149,7 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 {{end}}
 
-{{with .Plan}}
-<h2>{{.Heading}}</h2>
+{{with .Plan}}<h2>{{.Heading}}</h2>
 <p>{{.Intro}}</p>
 <table id="plan">
 <thead><tr><th>Channel</th><th class="num">Current</th><th class="num">Planned</th><th class="num">Change</th><th>Limits</th><th class="num">Incremental outcome, planned (90% interval)</th><th class="num">Marginal return (90% interval)</th></tr></thead>
@@ -164,9 +163,8 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <ul id="plan-notes">{{range .Notes}}
 <li>{{.}}</li>{{end}}
 </ul>
-{{end}}
 
-<h2>Cautions</h2>
+{{end}}<h2>Cautions</h2>
 <ul id="cautions">{{range .Cautions}}
 <li>{{.}}</li>{{end}}
 </ul>
