@@ -240,7 +240,7 @@ func planFiles(ctx context.Context, ff *fitFolder, pf *planFlags, command string
 	if err != nil {
 		return nil, err
 	}
-	if files["plan.png"], err = fig.PNG(); err != nil {
+	if files[fitfolder.PlanChart], err = fig.PNG(); err != nil {
 		return nil, err
 	}
 	printPlan(stdout, plan, ff.Run.Spec.Outcome)

@@ -126,8 +126,9 @@ type PlanCheck struct {
 	Failures  []string `json:"failures"`
 }
 
-// PlanFiles are the names of the files a plan writes.
-var PlanFiles = []string{"plan.csv", "plan_weekly.csv", "plan.json"}
+// PlanChart is the name of the plan's chart, drawn by package plots and
+// written beside the plan's tables.
+const PlanChart = "plan.png"
 
 // Files renders the plan's files by name.
 func (p *Plan) Files() (map[string][]byte, error) {
