@@ -115,7 +115,11 @@ upper funnel directly) and naive (the outcome stage without queries, a
 cross-check for paid search). It writes FOLDER/spec.json, FOLDER/data.csv, and
 for each stage FOLDER/STAGE/draws.csv, summary.csv and stats.json, and
 FOLDER/verdict.txt: whether the fit deserves trust (R-hat <= 1.01, bulk and
-tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not.
+tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not, and
+whether the data support the media effects at all: the outcome stage must
+predict left-out weeks better than the same stage without any media term
+(PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
+adds which effects the data cannot tell from zero or from the prior.
 Regional data are fitted as their national sum.
 
 EXAMPLE
@@ -208,6 +212,11 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		return nil, err
 	}
 	f, reps := newFit(*fs, ds, priorBytes, fitted)
+	sup, err := pipeline.CheckSupport(ctx, fitted, o, set)
+	if err != nil {
+		return nil, err
+	}
+	addSupport(&f.Verdict, sup)
 	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
@@ -217,7 +226,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			return nil, err
 		}
 	}
-	printFitSummary(stdout, reps, fitted)
+	printFitSummary(stdout, reps, fitted, sup)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
@@ -241,7 +250,7 @@ func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 }
 
 // printFitSummary prints one line per stage and the verdict.
-func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
+func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted, sup *pipeline.Support) {
 	for k, r := range reps {
 		maxR, minB, minT := 0.0, 1e300, 1e300
 		for _, s := range r.summary {
@@ -264,8 +273,12 @@ func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
 	for _, r := range reps {
 		ok = ok && r.verdict.Trustworthy
 	}
-	if ok {
+	if ok && sup.Supported() {
 		fmt.Fprintln(w, "verdict: trustworthy (R-hat <= 1.01, ESS >= 400, no divergences, E-BFMI >= 0.3 in every stage)")
+		fmt.Fprintf(w, "support: %s\n", sup.Text())
+		if n := sup.Note(); n != "" {
+			fmt.Fprintf(w, "support: note: %s\n", n)
+		}
 		return
 	}
 	fmt.Fprintln(w, "verdict: NOT TRUSTWORTHY; do not use these numbers before fixing:")
@@ -273,5 +286,28 @@ func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
 		for _, why := range r.verdict.Reasons {
 			fmt.Fprintf(w, "  %s: %s\n", r.name, why)
 		}
+	}
+	if sup.Supported() {
+		fmt.Fprintf(w, "support: %s\n", sup.Text())
+	} else {
+		fmt.Fprintf(w, "  support: %s\n", sup.Text())
+	}
+	if n := sup.Note(); n != "" {
+		fmt.Fprintf(w, "support: note: %s\n", n)
+	}
+}
+
+// addSupport adds the support check to the fit's verdict: media effects
+// the data do not support make the fit not trustworthy, whatever the
+// sampler's diagnostics say.
+func addSupport(v *fitfolder.Verdict, sup *pipeline.Support) {
+	if sup.Supported() {
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + sup.Text()})
+	} else {
+		v.Trustworthy = false
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: sup.Text()})
+	}
+	if n := sup.Note(); n != "" {
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + n})
 	}
 }

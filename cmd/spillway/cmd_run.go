@@ -17,16 +17,18 @@ import (
 
 // runOptions are the flags of spillway run.
 type runOptions struct {
-	roles    roleFlags
-	sampling samplingFlags
-	window   string
-	allocate bool
+	roles      roleFlags
+	sampling   samplingFlags
+	window     string
+	negligible float64
+	allocate   bool
 }
 
 func (o *runOptions) addFlags(fs *pflag.FlagSet) {
 	o.roles.addFlags(fs)
 	o.sampling.addFlags(fs)
 	fs.StringVar(&o.window, "window", "", "the review `WINDOW` for the table, charts and report: all, a quarter (2025Q2) or FROM:TO; default: the last full quarter")
+	addNegligibleFlag(fs, &o.negligible)
 	fs.BoolVar(&o.allocate, "allocate", false, "also plan the budget of the 13 weeks after the data (spillway allocate with its defaults) into the folder and the report")
 }
 
@@ -72,6 +74,9 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err := noArgs(args); err != nil {
 		return err
 	}
+	if err := checkNegligible(o.negligible); err != nil {
+		return err
+	}
 	demo := ""
 	if !o.roles.given() {
 		demo = "demo"
@@ -88,7 +93,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 		tableWindow = "all"
 	}
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, od.fit, tableWindow)
+	s, err := splitFit(ctx, od.fit, tableWindow, o.negligible)
 	if err != nil {
 		return err
 	}
@@ -96,6 +101,8 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err != nil {
 		return err
 	}
+	od.fit.Verdict = s.withNotes(od.fit.Verdict)
+	files["verdict.txt"] = []byte(od.fit.Verdict.Text())
 	if err := ctx.Err(); err != nil {
 		return err
 	}

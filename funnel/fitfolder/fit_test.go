@@ -205,7 +205,7 @@ func TestUndefinedEffects(t *testing.T) {
 	lines := strings.Split(string(b), "\n")
 	for i, ln := range lines {
 		if strings.HasPrefix(ln, "audio_spend,mediated_share,2024Q1,") {
-			lines[i] = "audio_spend,mediated_share,2024Q1,NaN,NaN,NaN,NaN,"
+			lines[i] = "audio_spend,mediated_share,2024Q1,NaN,NaN,NaN,NaN,,,,,"
 		}
 	}
 	os.WriteFile(p, []byte(strings.Join(lines, "\n")), 0o644)

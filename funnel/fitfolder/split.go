@@ -41,10 +41,21 @@ const (
 // PerUnitSpend is the path's effect per unit of the channel's spend in the
 // window, NaN when undefined (a share, a window without spend). A value the
 // file gives as NaN, NA or an infinity (a share of a zero total) is NaN.
+//
+// The last four say how much the data moved the effect from its prior
+// (NaN when not computed): PriorQ05 and PriorQ95 are the prior's 90%
+// interval of the same effect, Contraction is 1 - the posterior's 90%
+// interval width over the prior's, and PNegligible the posterior
+// probability that the effect is negligible (a path under a fraction of the
+// channel's total, a total under that fraction of the outcome in the
+// window; NaN for a share).
 type Effect struct {
 	Channel, Path, Window string
 	Mean, Q05, Q50, Q95   float64
 	PerUnitSpend          float64
+
+	PriorQ05, PriorQ95       float64
+	Contraction, PNegligible float64
 }
 
 type effectRow struct {
@@ -56,6 +67,10 @@ type effectRow struct {
 	Q50          table.UndefFloat `csv:"q50"`
 	Q95          table.UndefFloat `csv:"q95"`
 	PerUnitSpend table.OptFloat   `csv:"per_unit_spend"`
+	PriorQ05     table.OptFloat   `csv:"prior_q05"`
+	PriorQ95     table.OptFloat   `csv:"prior_q95"`
+	Contraction  table.OptFloat   `csv:"contraction"`
+	PNegligible  table.OptFloat   `csv:"p_negligible"`
 }
 
 // DrawKey names one series of effect_draws.csv.
@@ -202,7 +217,8 @@ func (s *Split) Files() (map[string][]byte, error) {
 	var draws []effectDrawRow
 	for i, e := range s.Effects {
 		effects[i] = effectRow{e.Channel, e.Path, e.Window, table.UndefFloat(e.Mean), table.UndefFloat(e.Q05),
-			table.UndefFloat(e.Q50), table.UndefFloat(e.Q95), table.OptFloat(e.PerUnitSpend)}
+			table.UndefFloat(e.Q50), table.UndefFloat(e.Q95), table.OptFloat(e.PerUnitSpend),
+			table.OptFloat(e.PriorQ05), table.OptFloat(e.PriorQ95), table.OptFloat(e.Contraction), table.OptFloat(e.PNegligible)}
 		ds := s.EffectDraws[DrawKey{e.Channel, e.Path, e.Window}]
 		for j, d := range ds.Draw {
 			draws = append(draws, effectDrawRow{e.Channel, e.Path, e.Window, table.Int(d), table.Float(ds.Value[j])})
@@ -303,7 +319,8 @@ func readSplit(dir string, run Run) (Split, error) {
 		}
 		seen[k] = true
 		s.Effects = append(s.Effects, Effect{r.Channel, r.Path, r.Window, float64(r.Mean), float64(r.Q05),
-			float64(r.Q50), float64(r.Q95), float64(r.PerUnitSpend)})
+			float64(r.Q50), float64(r.Q95), float64(r.PerUnitSpend),
+			float64(r.PriorQ05), float64(r.PriorQ95), float64(r.Contraction), float64(r.PNegligible)})
 	}
 	if len(s.Effects) == 0 {
 		return s, &Error{File: path, Err: fmt.Errorf("no rows")}

@@ -58,28 +58,31 @@ type view struct {
 	Title, Subtitle string
 	Trustworthy     bool
 	Reasons         []string
-	Checks          string
-	Job             string
-	Findings        []string
-	Quarter         bool
-	Window          string // window name, "all" or a range
-	WindowLabel     string
-	Compare         *compareView
-	CompareNote     string
-	Charts          []chartView
-	EffectTables    []effectTable
-	PerLabel        string
-	Borrowed        []borrowedRow
-	BorrowedNote    string
-	Assumptions     []string
-	Sensitivity     []string
-	Cautions        []string
-	Data            dataView
-	Stages          []stageRow
-	Command         string
-	Rerun           string
-	Validation      *validationView
-	Plan            *planView
+	// Notes are the support check's result and what the data cannot tell,
+	// shown under the verdict.
+	Notes        []string
+	Checks       string
+	Job          string
+	Findings     []string
+	Quarter      bool
+	Window       string // window name, "all" or a range
+	WindowLabel  string
+	Compare      *compareView
+	CompareNote  string
+	Charts       []chartView
+	EffectTables []effectTable
+	PerLabel     string
+	Borrowed     []borrowedRow
+	BorrowedNote string
+	Assumptions  []string
+	Sensitivity  []string
+	Cautions     []string
+	Data         dataView
+	Stages       []stageRow
+	Command      string
+	Rerun        string
+	Validation   *validationView
+	Plan         *planView
 }
 
 type chartView struct {
@@ -200,10 +203,20 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	v.Subtitle = fmt.Sprintf("%s on %s from %s and %s, %s (%d weeks). Fit folder %s.",
 		plots.Capital(outcome), plots.List(uppers), plots.Plain(spec.Queries),
 		plots.List(channelNames(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
+	supported := mediaSupported(f.Verdict)
 	for _, r := range f.Verdict.Reasons {
-		if r.Stage != "" {
+		switch {
+		case r.Stage == "support" || r.Stage == "effect":
+			// the support check and what the data cannot tell: shown at the
+			// top whether or not the sampler's checks passed
+			if text, ok := strings.CutPrefix(r.Text, "note: "); ok {
+				v.Notes = append(v.Notes, text)
+			} else {
+				v.Reasons = append(v.Reasons, r.Text)
+			}
+		case r.Stage != "":
 			v.Reasons = append(v.Reasons, r.Stage+" stage: "+r.Text)
-		} else {
+		default:
 			v.Reasons = append(v.Reasons, r.Text)
 		}
 	}
@@ -281,7 +294,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 
 	// Quarter comparisons.
 	if w.Kind == window.Quarter {
-		cv, notes, err := compareQuarters(f, w)
+		cv, notes, err := compareQuarters(f, w, supported)
 		if err != nil {
 			return nil, err
 		}
@@ -289,7 +302,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.CompareNote = strings.Join(notes, " ")
 		for _, ch := range spec.Upper {
 			if c, err := Compare(f, ch, fitfolder.PathTotal, w.Name, cv.Prev); err == nil {
-				v.Findings = append(v.Findings, changeSentence(c, outcome))
+				v.Findings = append(v.Findings, changeSentence(c, outcome, supported))
 			}
 		}
 	} else {
@@ -481,7 +494,7 @@ func trimFloat(v float64) string {
 	return s
 }
 
-func changeSentence(c Change, outcome string) string {
+func changeSentence(c Change, outcome string, supported bool) string {
 	dir := "rose"
 	if c.Mean < 0 {
 		dir = "fell"
@@ -493,6 +506,8 @@ func changeSentence(c Change, outcome string) string {
 	verdict := "the 90% interval of the change excludes zero, so the change is clear"
 	if !c.ExcludesZero() {
 		verdict = "the 90% interval of the change includes zero, so it may be noise"
+	} else if !supported {
+		verdict = "the media effects themselves are not supported by the data (see the top of this report), so no change between quarters is clear"
 	}
 	return fmt.Sprintf("%s's total effect %s by %s %s%s from %s to %s; %s (%s).",
 		plots.Capital(plots.Channel(c.Channel)), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,
@@ -509,7 +524,9 @@ func pointsInterval(lo, hi float64) string {
 
 // compareQuarters builds the comparison of w with the previous quarter and
 // the same quarter a year earlier, for every channel and path with draws.
-func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string, error) {
+// Without support for the media effects (supported false) no change is
+// called clear.
+func compareQuarters(f *fitfolder.Fit, w window.Window, supported bool) (*compareView, []string, error) {
 	prev, _ := w.Previous()
 	year, _ := w.YearEarlier()
 	cv := &compareView{Window: w.Name, Prev: prev.Name, Year: year.Name}
@@ -571,8 +588,8 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 					return nil, nil, err
 				}
 				*side.chg = change(c)
-				*side.clear = c.ExcludesZero()
-				if c.ExcludesZero() {
+				*side.clear = c.ExcludesZero() && supported
+				if *side.clear {
 					*side.sig = "yes"
 				} else {
 					*side.sig = "no"
@@ -618,4 +635,17 @@ func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
 	}
 	return d
+}
+
+// mediaSupported reports whether the verdict's support check passed: a
+// "support" line that is not a note says the media effects are not
+// supported. A verdict without the check (an older fit) counts as
+// supported.
+func mediaSupported(v fitfolder.Verdict) bool {
+	for _, r := range v.Reasons {
+		if r.Stage == "support" && !strings.HasPrefix(r.Text, "note: ") {
+			return false
+		}
+	}
+	return true
 }

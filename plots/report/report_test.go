@@ -551,3 +551,32 @@ func TestReportRendersCharts(t *testing.T) {
 		t.Errorf("%d charts embedded, want %d", n, len(plots.Names))
 	}
 }
+
+// TestReportUnsupportedMedia gives the fixture a verdict whose support
+// check failed: the reason shows at the top without a "stage" label, the
+// notes on what the data cannot tell show under it, and no
+// quarter-on-quarter change is called clear.
+func TestReportUnsupportedMedia(t *testing.T) {
+	x := load(t, false)
+	f := *x.f
+	f.Verdict = fitfolder.Verdict{Reasons: []fitfolder.Reason{
+		{Stage: "support", Text: "media effects are NOT SUPPORTED by the data: test"},
+		{Stage: "effect", Text: "note: video_spend's total effect (all): negligible (P = 0.95 that it is under 5% of the outcome in the window)"},
+	}}
+	var buf bytes.Buffer
+	if err := report.Write(&buf, &f, "2025Q3", x.charts); err != nil {
+		t.Fatal(err)
+	}
+	s := buf.String()
+	for _, want := range []string{"<li>media effects are NOT SUPPORTED by the data: test</li>", "negligible (P = 0.95"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("report lacks %q", want)
+		}
+	}
+	if strings.Contains(s, "support stage") || strings.Contains(s, "so the change is clear") || strings.Contains(s, `class="clear"`) {
+		t.Error("a change is called clear, or the support line is labelled a stage, though the media effects are not supported")
+	}
+	if !strings.Contains(s, "no change between quarters is clear") {
+		t.Error("no sentence saying that no change is clear")
+	}
+}

@@ -76,6 +76,9 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 {{else}}
 <section class="passed" id="verdict">{{.Checks}}</section>
 {{end}}
+{{if .Notes}}<ul class="support" id="support">{{range .Notes}}
+<li>{{.}}</li>{{end}}
+</ul>{{end}}
 <p class="job" id="job">{{.Job}}</p>
 
 <h2>Headline findings</h2>
