@@ -96,13 +96,22 @@ func (p *Problem) find(a []float64, free []int, total float64, st *Stats) ([]flo
 	starts := p.starts(a, free, total, bs)
 	st.Starts = len(starts)
 	full := newObjective(p, all)
-	// the objective is divided by the current plan's incremental outcome
-	// (or, if that is zero, by the first start's), so tolerances are relative
+	// the objective is divided by the posterior mean of the current plan's
+	// incremental outcome (or, if that is zero, the first start's), for
+	// either objective, so tolerances are relative
+	meanOutcome := func(a []float64) float64 {
+		full.value(a)
+		v := 0.0
+		for _, m := range full.lastMu {
+			v += m
+		}
+		return math.Abs(v)
+	}
 	cur := amounts(p.curC)
-	scale := math.Abs(full.value(cur))
+	scale := meanOutcome(cur)
 	if scale == 0 || math.IsNaN(scale) {
 		place(cur, free, bs, starts[0])
-		scale = math.Abs(full.value(cur))
+		scale = meanOutcome(cur)
 	}
 	if scale == 0 || math.IsNaN(scale) {
 		scale = 1
