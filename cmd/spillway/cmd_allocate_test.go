@@ -211,3 +211,25 @@ func TestAllocateErrors(t *testing.T) {
 		}
 	}
 }
+
+// TestRunAllocate runs the whole job on the demo with --allocate: the plan
+// is in the folder and in the report.
+func TestRunAllocate(t *testing.T) {
+	if testing.Short() {
+		t.Skip("end-to-end run of the demo; skipped with -short")
+	}
+	dir := filepath.Join(t.TempDir(), "out")
+	code, stdout, stderr := runCmd(t, append([]string{"run", "--allocate", "--out", dir}, quick...)...)
+	if code != 0 || !strings.Contains(stdout, "gain over the current plan") {
+		t.Fatalf("run --allocate: exit %d\n%s\n%s", code, stdout, stderr)
+	}
+	for _, f := range []string{"plan.csv", "plan_weekly.csv", "plan.json", "plan.png", "report.html"} {
+		if _, err := os.Stat(filepath.Join(dir, f)); err != nil {
+			t.Errorf("missing %s", f)
+		}
+	}
+	html, _ := os.ReadFile(filepath.Join(dir, "report.html"))
+	if !strings.Contains(string(html), `id="plan"`) {
+		t.Error("the report has no plan section")
+	}
+}
