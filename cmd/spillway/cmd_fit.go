@@ -29,12 +29,14 @@ type samplingFlags struct {
 	linear                []string
 	quiet                 bool
 	targetAccept          float64
+	labels                labelFlags // fit and run only
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
 	fs.Float64Var(&s.targetAccept, "target-accept", pipeline.DefaultTargetAccept, "the acceptance rate the step size adapts to during warm-up; raise it (0.95) if the verdict reports divergent transitions")
+	s.labels.addFlags(fs)
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -188,6 +190,10 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if len(ds.Regions) > 1 {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
 	}
+	labels, err := opts.labels.resolve(ds.Spec)
+	if err != nil {
+		return nil, err
+	}
 	sc := model.Scale(ds.National(), ds.Spec)
 	o, err := modelOptions(sc, opts)
 	if err != nil {
@@ -200,7 +206,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
+		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels}
 	verb := "fit"
 	if demo != "" {
 		verb = "run"

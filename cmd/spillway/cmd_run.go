@@ -87,13 +87,10 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 		return err
 	}
 	defer od.Abort()
-	// the review window: checked against the data before the split runs
-	tableWindow := o.window
-	if tableWindow == "" {
-		tableWindow = "all"
-	}
+	// the review window of the table, the charts and the report: checked
+	// against the data before the split runs
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, od.fit, tableWindow, o.negligible)
+	s, err := splitFit(ctx, od.fit, o.window, o.negligible)
 	if err != nil {
 		return err
 	}
@@ -133,7 +130,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 			return err
 		}
 	}
-	w, err := f.Window(o.window)
+	w, err := f.Window(s.asked.Name)
 	if err != nil {
 		return usagef("--window: %v", err)
 	}

@@ -24,7 +24,8 @@ type splitOptions struct {
 
 func (o *splitOptions) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&o.fit, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
-	fs.StringVar(&o.window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
+	fs.StringVar(&o.window, "window", "", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31); "+
+		"default: the last full quarter, as for chart and report")
 	addNegligibleFlag(fs, &o.negligible)
 }
 
@@ -68,6 +69,9 @@ It writes into the fit folder:
                     at which it reaches zero
   fitted.csv        actual against fitted, both stages, 90% predictive band
   curves.csv        response curves per upper channel
+  returns.csv       return on spend and cost per incremental outcome per
+                    channel and window, and the marginal return at the
+                    current weekly spend, with 90% intervals
 and prints the table for WINDOW.
 
 EXAMPLE
@@ -138,12 +142,20 @@ type splitResult struct {
 }
 
 // splitFit computes the effects of ff for every quarter, the whole period
-// and the window named.
+// and the window named; an empty name means the review's default window,
+// the last quarter the data cover in full (all when there is none), the
+// one chart and report choose by default.
 func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible float64) (*splitResult, error) {
 	wins := window.Quarters(ff.scaled.Weeks)
+	if windowName == "" {
+		windowName = "all"
+		if q, ok := window.LastFullQuarter(ff.scaled.Weeks); ok {
+			windowName = q.Name
+		}
+	}
 	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
 	if err != nil {
-		return nil, usagef("--window %v", err)
+		return nil, usagef("--window: %v", err)
 	}
 	found := false
 	for _, w := range wins {
@@ -189,6 +201,10 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if err != nil {
 		return nil, err
 	}
+	returns, err := mediation.Returns(in, res)
+	if err != nil {
+		return nil, err
+	}
 	return &splitResult{
 		Split: fitfolder.Split{
 			Effects:     mediation.EffectsTable(res, sup),
@@ -199,6 +215,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 			Breakeven:   mediation.BreakevenTable(sens),
 			Fitted:      fitted,
 			Curves:      curves,
+			Returns:     returns,
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes,
 	}, nil

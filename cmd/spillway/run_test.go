@@ -61,6 +61,17 @@ func TestRunDemo(t *testing.T) {
 			t.Errorf("stdout lacks %q:\n%s", want, stdout)
 		}
 	}
+	// one window for the table, the charts and the report: the demo's last
+	// full quarter (its data end in 2025Q4 with 12 of 13 weeks)
+	for _, want := range []string{"window 2025Q3 (", "review window 2025Q3;"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("stdout lacks %q:\n%s", want, stdout)
+		}
+	}
+	page, _ := os.ReadFile(filepath.Join(dir, "report.html"))
+	if !strings.Contains(string(page), "Quarterly review: 2025Q3") {
+		t.Error("report.html is not the review of 2025Q3, the window of the table")
+	}
 	head, _ := os.ReadFile(filepath.Join(dir, "effects.csv"))
 	if !strings.HasPrefix(string(head), "channel,path,window,mean,q05,q50,q95,per_unit_spend,prior_q05,prior_q95,contraction,p_negligible\n") {
 		t.Errorf("effects.csv header: %q", strings.SplitN(string(head), "\n", 2)[0])
@@ -137,6 +148,8 @@ func TestFitBadInputs(t *testing.T) {
 		{"prior that does not fit", append([]string{"fit", "--data", good, "--priors", betaOnCoef}, roles...), "gamma"},
 		{"linear column not a channel", append([]string{"fit", "--data", good, "--linear", "price"}, roles...), "--linear price"},
 		{"bad chains", append([]string{"fit", "--data", good, "--chains", "0"}, roles...), "--chains"},
+		{"label of a column that is not spend", append([]string{"fit", "--data", good, "--label", "price=Price"}, roles...), "--label price=Price: price is not a spend column"},
+		{"label without a name", append([]string{"fit", "--data", good, "--label", "video_spend"}, roles...), "expected COLUMN=NAME"},
 	} {
 		out := filepath.Join(tmp, "out-"+strings.ReplaceAll(c.name, " ", "-"))
 		args := append(append([]string{c.args[0]}, quick...), c.args[1:]...)

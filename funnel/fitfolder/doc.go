@@ -19,6 +19,7 @@
 //	breakeven.csv         Breakeven
 //	fitted.csv            Fitted
 //	curves.csv            Curve
+//	returns.csv           Return (absent in folders written before it existed)
 //	plan.csv              PlanChannel: the budget plan `spillway allocate` wrote, one row per channel
 //	plan_weekly.csv       PlanWeek: the plan's spend per week and channel
 //	plan.json             PlanSummary: totals, the gain with its interval, marginal returns, the check

@@ -2,6 +2,7 @@ package fitfolder
 
 import (
 	"fmt"
+	"os"
 	"path/filepath"
 	"slices"
 	"sort"
@@ -24,6 +25,9 @@ type Split struct {
 	Breakeven   []Breakeven
 	Fitted      []Fitted
 	Curves      []Curve
+	// Returns is returns.csv; it is absent (nil) in fit folders written
+	// before the file existed.
+	Returns []Return
 }
 
 // Paths of effects.csv.
@@ -112,6 +116,27 @@ type borrowedRow struct {
 	Q05     table.Float `csv:"q05"`
 	Q50     table.Float `csv:"q50"`
 	Q95     table.Float `csv:"q95"`
+}
+
+// Return is one row of returns.csv: an upper channel's return on spend
+// ("return_on_spend", outcome per unit of spend) or cost per incremental
+// outcome ("cost_per_incremental", spend per unit of outcome) over a
+// window, or its marginal return at the current weekly spend
+// ("marginal_return", extra weekly outcome per extra unit of weekly spend,
+// window "all"). A value the file gives as NaN or NA is NaN.
+type Return struct {
+	Channel, Window, Measure string
+	Mean, Q05, Q50, Q95      float64
+}
+
+type returnRow struct {
+	Channel string           `csv:"channel"`
+	Window  string           `csv:"window"`
+	Measure string           `csv:"measure"`
+	Mean    table.UndefFloat `csv:"mean"`
+	Q05     table.UndefFloat `csv:"q05"`
+	Q50     table.UndefFloat `csv:"q50"`
+	Q95     table.UndefFloat `csv:"q95"`
 }
 
 // Weekly is one row of weekly.csv: a channel's contribution through one
@@ -248,6 +273,16 @@ func (s *Split) Files() (map[string][]byte, error) {
 	for i, c := range s.Curves {
 		curves[i] = curveRow{c.Channel, c.Path, table.Float(c.WeeklySpend), table.Float(c.Mean), table.Float(c.Q05),
 			table.Float(c.Q95), table.Float(c.CurrentWeeklySpend)}
+	}
+	returns := make([]returnRow, len(s.Returns))
+	for i, r := range s.Returns {
+		returns[i] = returnRow{r.Channel, r.Window, r.Measure, table.UndefFloat(r.Mean), table.UndefFloat(r.Q05),
+			table.UndefFloat(r.Q50), table.UndefFloat(r.Q95)}
+	}
+	if s.Returns != nil {
+		if err := add("returns.csv", returns); err != nil {
+			return nil, err
+		}
 	}
 	for _, t := range []struct {
 		name string
@@ -429,6 +464,24 @@ func readSplit(dir string, run Run) (Split, error) {
 			return s, err
 		}
 		s.Fitted = append(s.Fitted, Fitted{r.Stage, time.Time(r.Week), float64(r.Actual), float64(r.Mean), float64(r.Q05), float64(r.Q95)})
+	}
+
+	path = p("returns.csv")
+	if _, err := os.Stat(path); err == nil {
+		var returns []returnRow
+		if lines, err = readTable(path, hintSplit, &returns); err != nil {
+			return s, err
+		}
+		s.Returns = []Return{}
+		for i, r := range returns {
+			if err := upper(path, lines[i], r.Channel); err != nil {
+				return s, err
+			}
+			if err := oneOf(path, lines[i], "measure", r.Measure, "return_on_spend", "cost_per_incremental", "marginal_return"); err != nil {
+				return s, err
+			}
+			s.Returns = append(s.Returns, Return{r.Channel, r.Window, r.Measure, float64(r.Mean), float64(r.Q05), float64(r.Q50), float64(r.Q95)})
+		}
 	}
 
 	path = p("curves.csv")

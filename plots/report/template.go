@@ -88,11 +88,11 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 
 {{if .Compare}}
 <h2>{{.Compare.Window}} against the previous quarter and a year earlier</h2>
-<p class="note">Changes are computed draw by draw from the posterior (the same draw in both quarters), so their 90% intervals account for what the quarters share. "Clear" means the interval excludes zero. Outcome units, or percentage points for the share via search.</p>
+<p class="note">Changes are computed draw by draw from the posterior (the same draw in both quarters), so their 90% intervals account for what the quarters share. "Clear" means the interval excludes zero. Outcome units, or percentage points for the share via search. "Spend change" is the change in the channel's spend between the two quarters: an effect that moves with its spend is spend-driven, not a change in how well the channel works.</p>
 <table id="compare">
-<thead><tr><th>Channel</th><th>Path</th><th class="num">{{.Compare.Window}}</th><th class="num">{{.Compare.Prev}}</th><th class="num">Change (90% interval)</th><th>Clear?</th><th class="num">{{.Compare.Year}}</th><th class="num">Change (90% interval)</th><th>Clear?</th></tr></thead>
+<thead><tr><th>Channel</th><th>Path</th><th class="num">{{.Compare.Window}}</th><th class="num">{{.Compare.Prev}}</th><th class="num">Change (90% interval)</th><th class="num">Spend change</th><th>Clear?</th><th class="num">{{.Compare.Year}}</th><th class="num">Change (90% interval)</th><th class="num">Spend change</th><th>Clear?</th></tr></thead>
 <tbody>{{range .Compare.Rows}}
-<tr><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Now}}</td><td class="num">{{.Prev}}</td><td class="num">{{.PrevChange}}</td><td{{if .PrevClear}} class="clear"{{end}}>{{.PrevSig}}</td><td class="num">{{.Year}}</td><td class="num">{{.YearChange}}</td><td{{if .YearClear}} class="clear"{{end}}>{{.YearSig}}</td></tr>{{end}}
+<tr><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Now}}</td><td class="num">{{.Prev}}</td><td class="num">{{.PrevChange}}</td><td class="num">{{.PrevSpend}}</td><td{{if .PrevClear}} class="clear"{{end}}>{{.PrevSig}}</td><td class="num">{{.Year}}</td><td class="num">{{.YearChange}}</td><td class="num">{{.YearSpend}}</td><td{{if .YearClear}} class="clear"{{end}}>{{.YearSig}}</td></tr>{{end}}
 </tbody>
 </table>
 {{end}}
@@ -114,6 +114,17 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <thead><tr><th>Channel</th><th>Path</th><th class="num">Mean</th><th class="num">90% interval</th><th class="num">{{$.PerLabel}}</th></tr></thead>
 <tbody>{{range .Rows}}
 <tr data-channel="{{.Channel}}" data-path="{{.Path}}" data-window="{{.Window}}"><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Mean}}</td><td class="num">{{.Interval}}</td><td class="num">{{.Per}}</td></tr>{{end}}
+</tbody>
+</table>
+{{end}}
+
+{{if .Returns}}
+<h2>Returns</h2>
+<p class="note">{{.ReturnsNote}}</p>
+<table id="returns">
+<thead><tr><th>Channel</th><th class="num">Return on spend, {{.Window}} ({{.PerLabel}})</th><th class="num">Cost per incremental {{.Data.OutcomeName}}, {{.Window}}</th><th class="num">Return on spend, whole period</th><th class="num">Marginal return at current spend ({{.PerLabel}})</th></tr></thead>
+<tbody>{{range .Returns}}
+<tr data-channel="{{.Column}}"><td>{{.Channel}}</td><td class="num">{{.ROS}}</td><td class="num">{{.Cost}}</td><td class="num">{{.ROSAll}}</td><td class="num">{{.Marginal}}</td></tr>{{end}}
 </tbody>
 </table>
 {{end}}
@@ -184,16 +195,16 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <h2>Data</h2>
 <p id="data">{{.Data.Weeks}} weeks, {{.Data.Range}}; {{.Data.Regions}}.{{if .Data.WindowWeeks}} Review window {{.Data.WindowWeeks}}.{{end}} Total {{.Data.OutcomeName}}: {{.Data.Outcome}}; total {{.Data.QName}}: {{.Data.Queries}}.</p>
 <table id="spend">
-<thead><tr><th>Channel</th><th>Role</th><th class="num">Total spend</th><th class="num">Share of spend</th><th class="num">Spend in {{.Window}}</th></tr></thead>
+<thead><tr><th>Channel</th><th>Role</th><th class="num">Total spend{{.Data.Currency}}</th><th class="num">Share of spend</th><th class="num">Spend in {{.Window}}{{.Data.Currency}}</th></tr></thead>
 <tbody>{{range .Data.Spend}}
 <tr><td>{{.Channel}}</td><td>{{.Role}}</td><td class="num">{{.Total}}</td><td class="num">{{.Share}}</td><td class="num">{{.Window}}</td></tr>{{end}}
 </tbody>
 </table>
 
 <h2>How to rerun</h2>
-<p>{{.Rerun}}</p>
+<p>To redo the whole job behind this page (check the data, fit, split, charts and this report, with the same data, seed and window) into a new folder, run this from the folder the original run was started in (the data file's path is as it was given then); the same inputs give byte-identical draws and tables:</p>
 <pre id="command">{{.Command}}</pre>
-<p class="note">Then <code>spillway report --fit FOLDER --window {{.Window}}</code> rebuilds this page.</p>
+<p class="note">To rebuild only this page from the fit folder (after changing the window, for example): <code id="rebuild">{{.Rebuild}}</code></p>
 <footer>Made by spillway. This page is self-contained: it needs no network and prints on A4.</footer>
 </main>
 </body>
