@@ -160,10 +160,11 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if err := opts.validate(); err != nil {
 		return nil, err
 	}
-	out, err := newOutDir(opts.out, opts.force)
+	out, err := newOutDir(opts.out, opts.force, append(roles.inputs(), opts.priors)...)
 	if err != nil {
 		return nil, err
 	}
+	dropNote(stderr, out)
 	defer func() {
 		if err != nil {
 			out.Abort()
@@ -203,7 +204,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
+	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(ctx, opts, stderr))
 	if err != nil {
 		return nil, err
 	}
@@ -226,7 +227,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 
 // progressHook returns the per-stage progress display: a bar when stderr
 // is a terminal, a plain line every few seconds otherwise, none with --quiet.
-func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
+// A stage stopped by ctx (Ctrl-C) ends its display with "interrupted".
+func progressHook(ctx context.Context, opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 	if opts.quiet {
 		return nil
 	}
@@ -236,7 +238,13 @@ func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 	}
 	return func(stage string) (mcmc.Recorder, func()) {
 		p := progress.New(progress.Options{Writer: stderr, Terminal: tty, Label: stage, Chains: opts.chains, Iterations: opts.warmup + opts.draws})
-		return p, func() { _ = p.Finish() }
+		return p, func() {
+			if ctx.Err() != nil {
+				_ = p.Interrupt()
+				return
+			}
+			_ = p.Finish()
+		}
 	}
 }
 

@@ -61,13 +61,13 @@ EXAMPLE
 ` + exitStatusHelp,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			return runSimulate(ctx, &opts, args, stdout)
+			return runSimulate(ctx, &opts, args, stdout, stderr)
 		},
 	}
 }
 
 // runSimulate writes a scenario's data.csv and truth.json.
-func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout io.Writer) error {
+func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout, stderr io.Writer) error {
 	if err := noArgs(args); err != nil {
 		return err
 	}
@@ -82,6 +82,7 @@ func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout io
 		return err
 	}
 	defer od.Abort()
+	dropNote(stderr, od)
 	sc, err := scenario.Named(o.scenario, o.seed, o.weeks, o.regions)
 	if err != nil {
 		return usagef("%v", err)

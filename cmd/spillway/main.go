@@ -30,7 +30,7 @@ const (
 	exitOK          = 0   // success
 	exitFailure     = 1   // the work could not be done
 	exitUsage       = 2   // bad usage or bad data; nothing was written
-	exitInterrupted = 130 // SIGINT or SIGTERM; nothing half-written was left
+	exitInterrupted = 130 // SIGINT (128 + 2), or a cancel without a signal; nothing half-written was left
 )
 
 // exitStatusHelp is the EXIT STATUS section every command's long help ends
@@ -40,21 +40,61 @@ const exitStatusHelp = `EXIT STATUS
   1    failure: the work could not be done
   2    bad usage or bad data (the message names the file, line and column);
        nothing is written
-  130  interrupted; nothing half-written is left behind`
+  129, 130, 131, 141, 143
+       stopped by a signal (128 + its number: SIGHUP, SIGINT, SIGQUIT,
+       SIGPIPE, SIGTERM); nothing half-written is left behind`
 
 // version is set at build time with -ldflags "-X main.version=v1.2.3"; when
 // empty the module version from the build information is used.
 var version = ""
 
 func main() {
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	go func() {
-		<-ctx.Done()
-		stop() // a second signal ends the process at once
-	}()
+	ctx, stop := notifyContext(context.Background())
 	code := run(ctx, os.Args[1:], os.Stdout, os.Stderr)
 	stop()
 	os.Exit(code)
+}
+
+// stopSignals are the signals that stop spillway cleanly: the context is
+// cancelled with a signalCause, the command removes its temporary output
+// and spillway exits with 128 + the signal's number. SIGKILL and SIGSTOP
+// cannot be caught; a later run removes what a killed run left.
+var stopSignals = []os.Signal{syscall.SIGHUP, syscall.SIGINT, syscall.SIGQUIT, syscall.SIGPIPE, syscall.SIGTERM}
+
+// signalCause is the cause of a context cancelled by a signal.
+type signalCause struct{ sig syscall.Signal }
+
+func (c signalCause) Error() string { return "stopped by signal " + c.sig.String() }
+
+// Is makes a signal stop match context.Canceled, like a plain cancel.
+func (c signalCause) Is(target error) bool { return target == context.Canceled }
+
+// notifyContext returns a context cancelled, with a signalCause, by the
+// first of stopSignals. A second SIGHUP, SIGINT, SIGQUIT or SIGTERM ends
+// the process at once (the default action). SIGPIPE stays caught: once a
+// reader of standard output or error has gone, writes there must fail with
+// an error rather than kill the process before it has cleaned up.
+func notifyContext(parent context.Context) (context.Context, func()) {
+	ctx, cancel := context.WithCancelCause(parent)
+	ch := make(chan os.Signal, 1)
+	signal.Notify(ch, stopSignals...)
+	done := make(chan struct{})
+	go func() {
+		select {
+		case s := <-ch:
+			sig, _ := s.(syscall.Signal)
+			cancel(signalCause{sig})
+			signal.Reset(syscall.SIGHUP, syscall.SIGINT, syscall.SIGQUIT, syscall.SIGTERM)
+			for range ch { // later SIGPIPEs
+			}
+		case <-done:
+		}
+	}()
+	return ctx, func() {
+		signal.Stop(ch)
+		close(done)
+		cancel(nil)
+	}
 }
 
 // command is one subcommand. Files cmd_NAME.go build one with a
@@ -169,7 +209,7 @@ func report(ctx context.Context, c *command, err error, stderr io.Writer) int {
 	switch {
 	case code == exitOK:
 		return code
-	case code == exitInterrupted:
+	case code > 128:
 		fmt.Fprintf(stderr, "spillway %s: interrupted\n", c.name)
 		return code
 	}
@@ -182,18 +222,25 @@ func report(ctx context.Context, c *command, err error, stderr io.Writer) int {
 }
 
 // exitCode is the one table from errors to exit statuses: nil is 0; a
-// cancelled context (SIGINT, SIGTERM) is 130; a usage error, a bad-data
-// error (badData) or a *data.DataError anywhere in the chain is 2; anything
-// else is 1.
+// context cancelled by a signal is 128 + the signal's number (SIGINT 130,
+// SIGTERM 143, SIGHUP 129, SIGQUIT 131, SIGPIPE 141), otherwise 130; a
+// write to a closed pipe is 141, as if SIGPIPE had stopped it; a usage
+// error, a bad-data error (badData) or a *data.DataError anywhere in the
+// chain is 2; anything else is 1.
 func exitCode(ctx context.Context, err error) int {
 	var (
 		ue usageError
 		bd badDataError
 		de *data.DataError
+		sc signalCause
 	)
 	switch {
 	case err == nil:
 		return exitOK
+	case ctx != nil && errors.As(context.Cause(ctx), &sc):
+		return 128 + int(sc.sig)
+	case errors.Is(err, syscall.EPIPE):
+		return 128 + int(syscall.SIGPIPE)
 	case errors.Is(err, context.Canceled) || (ctx != nil && ctx.Err() != nil):
 		return exitInterrupted
 	case errors.As(err, &ue), errors.As(err, &bd), errors.As(err, &de):

@@ -36,6 +36,20 @@ func (r *roleFlags) given() bool {
 		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0
 }
 
+// inputs returns the files the role flags read: the spec file and the
+// data file (named by --data or by the spec file), for newOutDir to
+// protect. A spec file that cannot be read adds nothing here; resolve
+// reports it.
+func (r *roleFlags) inputs() []string {
+	files := []string{r.specFile, r.spec.Data}
+	if r.spec.Data == "" && r.specFile != "" {
+		if s, err := data.LoadSpec(r.specFile); err == nil {
+			files = append(files, s.Data)
+		}
+	}
+	return files
+}
+
 // resolve returns the spec to use: the spec file (if any) with the flags
 // put over it, checked. Errors are bad data (exit status 2).
 func (r *roleFlags) resolve() (data.Spec, error) {
