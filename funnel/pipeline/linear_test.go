@@ -14,8 +14,8 @@ import (
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
-	"spillway/funnel/window"
 	"spillway/funnel/stat"
+	"spillway/funnel/window"
 	"spillway/mediation"
 )
 
