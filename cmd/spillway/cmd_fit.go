@@ -156,7 +156,9 @@ type fitRun struct {
 
 // runFit fits and writes the fit folder into a temporary output folder.
 // With demo set, the data are that built-in scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (_ *fitRun, err error) {
+// Each of checks is run on the loaded data before any sampling (run checks
+// its --window there), so that a mistake costs no fit.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer, checks ...func(*data.Dataset) error) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
 		return nil, err
 	}
@@ -178,6 +180,11 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	} else if ds, err = roles.load(); err != nil {
 		return nil, err
+	}
+	for _, check := range checks {
+		if err := check(ds); err != nil {
+			return nil, err
+		}
 	}
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)

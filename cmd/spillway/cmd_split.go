@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 
 	"github.com/spf13/pflag"
 
@@ -112,7 +113,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResu
 	wins := window.Quarters(ff.scaled.Weeks)
 	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
 	if err != nil {
-		return nil, usagef("--window %v", err)
+		return nil, usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
 	}
 	found := false
 	for _, w := range wins {
