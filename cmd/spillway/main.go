@@ -179,7 +179,11 @@ func runCommands(ctx context.Context, cmds []*command, args []string, stdout, st
 	case "help", "-h", "--help", "-help":
 		return runHelp(cmds, args[1:], stdout, stderr)
 	case "version", "--version":
-		fmt.Fprintf(stdout, "spillway %s\n", spillwayVersion())
+		v := spillwayVersion()
+		fmt.Fprintf(stdout, "spillway %s\n", v)
+		if v == "(devel)" {
+			fmt.Fprintln(stderr, "spillway: this build carries no version: it was built by go run or without version control information (-buildvcs=false); go install ./cmd/spillway in a git clone records the commit")
+		}
 		return exitOK
 	}
 	c := find(cmds, name)
@@ -197,7 +201,7 @@ func runCommands(ctx context.Context, cmds []*command, args []string, stdout, st
 			writeCommandHelp(stdout, c)
 			return exitOK
 		}
-		return report(ctx, c, usageError{flagError(err)}, stderr)
+		return report(ctx, c, usageError{flagError(c.flags, err)}, stderr)
 	}
 	return report(ctx, c, c.run(ctx, c.flags.Args(), stdout, stderr), stderr)
 }
@@ -286,8 +290,9 @@ func noArgs(args []string) error {
 	return nil
 }
 
-// flagError rewrites a pflag parse error as a short message.
-func flagError(err error) error {
+// flagError rewrites a pflag parse error of fs as a short message; an
+// unknown flag gets the nearest flag name of fs as a suggestion.
+func flagError(fs *pflag.FlagSet, err error) error {
 	var (
 		ne *pflag.NotExistError
 		vr *pflag.ValueRequiredError
@@ -299,7 +304,11 @@ func flagError(err error) error {
 		if ne.GetSpecifiedShortnames() != "" && ne.GetSpecifiedName() != "" {
 			return fmt.Errorf("unknown flag -%s", ne.GetSpecifiedName()[:1])
 		}
-		return fmt.Errorf("unknown flag --%s", ne.GetSpecifiedName())
+		name := ne.GetSpecifiedName()
+		if near := nearestFlag(fs, name); near != "" {
+			return fmt.Errorf("unknown flag --%s; did you mean --%s?", name, near)
+		}
+		return fmt.Errorf("unknown flag --%s", name)
 	case errors.As(err, &vr):
 		return fmt.Errorf("flag --%s needs a value", vr.GetFlag().Name)
 	case errors.As(err, &iv):
@@ -315,13 +324,94 @@ func flagError(err error) error {
 	return err
 }
 
-// spillwayVersion returns the version to print.
+// nearestFlag returns the flag of fs closest to name in edit distance
+// (a typo: at most one edit for short names, two from six letters, three
+// from twelve), or a flag that name is the start of, or "" when none is
+// close. Ties go to the flag added first.
+func nearestFlag(fs *pflag.FlagSet, name string) string {
+	best, bestD := "", 0
+	limit := 1 + len(name)/6
+	fs.VisitAll(func(f *pflag.Flag) {
+		if f.Hidden {
+			return
+		}
+		d := editDistance(strings.ToLower(name), f.Name)
+		if len(name) >= 3 && strings.HasPrefix(f.Name, name) {
+			d = min(d, 1)
+		}
+		if d <= limit && (best == "" || d < bestD) {
+			best, bestD = f.Name, d
+		}
+	})
+	return best
+}
+
+// editDistance is the Levenshtein distance between a and b, by bytes.
+func editDistance(a, b string) int {
+	prev := make([]int, len(b)+1)
+	cur := make([]int, len(b)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		cur[0] = i
+		for j := 1; j <= len(b); j++ {
+			sub := prev[j-1]
+			if a[i-1] != b[j-1] {
+				sub++
+			}
+			cur[j] = min(sub, prev[j]+1, cur[j-1]+1)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(b)]
+}
+
+// spillwayVersion returns the version to print: the -X main.version set
+// at link time, else what the build recorded (versionOf).
 func spillwayVersion() string {
 	if version != "" {
 		return version
 	}
-	if bi, ok := debug.ReadBuildInfo(); ok && bi.Main.Version != "" {
-		return bi.Main.Version
+	bi, _ := debug.ReadBuildInfo()
+	return versionOf(bi)
+}
+
+// versionOf returns the version a build recorded: the main module's
+// version when it has one (go install spillway@v1.2.0, or a build in a
+// tagged checkout), else the commit it was built from with the commit's
+// time, marked +dirty when the working tree had changes (a build in a git
+// clone), else "(devel)" with a hint (go run, or a build without version
+// control information; 'spillway version' then says so).
+func versionOf(bi *debug.BuildInfo) string {
+	if bi == nil {
+		return "(devel)"
 	}
-	return "(devel)"
+	if v := bi.Main.Version; v != "" && v != "(devel)" {
+		return v
+	}
+	var rev, at, dirty string
+	for _, s := range bi.Settings {
+		switch s.Key {
+		case "vcs.revision":
+			rev = s.Value
+		case "vcs.time":
+			at = s.Value
+		case "vcs.modified":
+			if s.Value == "true" {
+				dirty = "+dirty"
+			}
+		}
+	}
+	if rev == "" {
+		return "(devel)"
+	}
+	if len(rev) > 12 {
+		rev = rev[:12]
+	}
+	v := "commit " + rev + dirty
+	if at != "" {
+		v += " (" + at + ")"
+	}
+	return v
 }

@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"runtime/debug"
 	"slices"
 	"strings"
 	"testing"
@@ -165,6 +166,29 @@ func TestVersion(t *testing.T) {
 	code, out, _ := runCmd(t, "--version")
 	if code != 0 || !strings.HasPrefix(out, "spillway ") {
 		t.Errorf("got %d %q", code, out)
+	}
+}
+
+// TestVersionOf: the version comes from the build's module information:
+// the module version, else the commit and its time, else a plain devel.
+func TestVersionOf(t *testing.T) {
+	vcs := []debug.BuildSetting{{Key: "vcs", Value: "git"}, {Key: "vcs.revision", Value: "5e920a2c0ffee0123456789abcdef0123456789a"},
+		{Key: "vcs.time", Value: "2026-12-02T06:00:00Z"}, {Key: "vcs.modified", Value: "false"}}
+	dirty := append(slices.Clone(vcs[:3]), debug.BuildSetting{Key: "vcs.modified", Value: "true"})
+	for _, c := range []struct {
+		bi   *debug.BuildInfo
+		want string
+	}{
+		{&debug.BuildInfo{Main: debug.Module{Version: "v1.2.0"}, Settings: vcs}, "v1.2.0"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "v0.0.0-20261202060000-5e920a2c0ffe+dirty"}}, "v0.0.0-20261202060000-5e920a2c0ffe+dirty"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "(devel)"}, Settings: vcs}, "commit 5e920a2c0ffe (2026-12-02T06:00:00Z)"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "(devel)"}, Settings: dirty}, "commit 5e920a2c0ffe+dirty (2026-12-02T06:00:00Z)"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "(devel)"}}, "(devel)"},
+		{nil, "(devel)"},
+	} {
+		if got := versionOf(c.bi); got != c.want {
+			t.Errorf("got %q, want %q", got, c.want)
+		}
 	}
 }
 
