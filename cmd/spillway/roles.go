@@ -1,6 +1,8 @@
 package main
 
 import (
+	"strings"
+
 	"github.com/spf13/pflag"
 
 	"spillway/funnel/data"
@@ -65,10 +67,38 @@ func (r *roleFlags) resolve() (data.Spec, error) {
 	if spec.Data == "" {
 		return data.Spec{}, usagef("no data file: name it with --data FILE (or \"data\" in the spec file)")
 	}
+	if err := missingRoles(spec); err != nil {
+		return data.Spec{}, err
+	}
 	if err := spec.Validate(); err != nil {
 		return data.Spec{}, badData(err)
 	}
 	return spec, nil
+}
+
+// missingRoles reports every required role that neither the flags nor
+// the spec file name, at once, when more than one is missing (one alone
+// is left to Spec.Validate's message).
+func missingRoles(spec data.Spec) error {
+	var missing []string
+	for _, r := range []struct {
+		empty     bool
+		flag, key string
+	}{
+		{spec.Date == "", "--date COLUMN (week start)", "date"},
+		{len(spec.Upper) == 0, "--upper COLUMNS (upper-funnel spend)", "upper"},
+		{len(spec.Search) == 0, "--search COLUMNS (paid-search spend)", "search"},
+		{spec.Queries == "", "--queries COLUMN (branded query volume)", "queries"},
+		{spec.Outcome == "", "--outcome COLUMN (the outcome)", "outcome"},
+	} {
+		if r.empty {
+			missing = append(missing, r.flag)
+		}
+	}
+	if len(missing) < 2 {
+		return nil
+	}
+	return usagef("%d roles are missing: %s; name each column with its flag (or its key in a --spec file)", len(missing), strings.Join(missing, ", "))
 }
 
 // load resolves the spec and loads and checks the data file. Errors are bad
