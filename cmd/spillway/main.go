@@ -15,6 +15,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"regexp"
 	"runtime/debug"
 	"slices"
 	"strings"
@@ -191,7 +192,17 @@ func runCommands(ctx context.Context, cmds []*command, args []string, stdout, st
 		if strings.HasPrefix(name, "-") {
 			fmt.Fprintf(stderr, "spillway: unknown flag %s\n", name)
 		} else {
-			fmt.Fprintf(stderr, "spillway: unknown command %q\n", name)
+			fmt.Fprintf(stderr, "spillway: unknown command %q", name)
+			best, bestD := "", 0
+			for _, c := range cmds {
+				if d := editDistance(strings.ToLower(name), c.name); d <= 1+len(name)/6 && (best == "" || d < bestD) {
+					best, bestD = c.name, d
+				}
+			}
+			if best != "" {
+				fmt.Fprintf(stderr, "; did you mean %s?", best)
+			}
+			fmt.Fprintln(stderr)
 		}
 		fmt.Fprintf(stderr, "Run 'spillway help' for usage.\n")
 		return exitUsage
@@ -217,12 +228,23 @@ func report(ctx context.Context, c *command, err error, stderr io.Writer) int {
 		fmt.Fprintf(stderr, "spillway %s: interrupted\n", c.name)
 		return code
 	}
-	fmt.Fprintf(stderr, "spillway %s: %v\n", c.name, err)
+	fmt.Fprintf(stderr, "spillway %s: %s\n", c.name, userMessage(err.Error()))
 	var ue usageError
 	if errors.As(err, &ue) {
 		fmt.Fprintf(stderr, "Run 'spillway help %s' for usage.\n", c.name)
 	}
 	return code
+}
+
+// internalPrefix matches the package-name prefixes that spillway's
+// library packages put on their errors (gonum's convention, "mcmc: chain
+// 1: ..."), at the start of a message or after another prefix. They mean
+// nothing to a user, who sees "spillway fit: " in front instead.
+var internalPrefix = regexp.MustCompile(`(^|: )(?:(?:fitdir|fitfolder|fitfoldertest|mediation|mcmc|model|pipeline|scenario|plots|forward|table|window|validate|validation|stat|transform|ols|score|report|htmlreport|progress): )+`)
+
+// userMessage removes internal package names from an error message.
+func userMessage(msg string) string {
+	return internalPrefix.ReplaceAllString(msg, "$1")
 }
 
 // exitCode is the one table from errors to exit statuses: nil is 0; a
