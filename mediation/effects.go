@@ -11,8 +11,8 @@ import (
 
 	"spillway/funnel/forward"
 	"spillway/funnel/model"
-	"spillway/funnel/window"
 	"spillway/funnel/stat"
+	"spillway/funnel/window"
 	"spillway/mediation/linear"
 	"spillway/mediation/ols"
 )
