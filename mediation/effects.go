@@ -37,7 +37,7 @@ type Effect struct {
 // Result holds every effect the split reports, per posterior draw.
 type Result struct {
 	Effects  []Effect // upper channels: direct, via_search, total, mediated_share per window
-	Borrowed []Effect // search channels: controlled, apparent, naive, borrowed_share (window all)
+	Borrowed []Effect // search channels: controlled, apparent, naive, borrowed_share per window
 	// Weekly[c] holds the weekly via-search and direct contributions of upper
 	// channel c: [path 0 via_search, 1 direct][draw][week].
 	Weekly [][2][][]float64
@@ -91,9 +91,14 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 			eff[c][w] = slot{make([]float64, nd), make([]float64, nd)}
 		}
 	}
-	ctl, app, shr, nai := make([][]float64, ns), make([][]float64, ns), make([][]float64, ns), make([][]float64, ns)
-	for s := range ctl {
-		ctl[s], app[s], shr[s], nai[s] = make([]float64, nd), make([]float64, nd), make([]float64, nd), make([]float64, nd)
+	// paid search per channel x window: controlled, apparent, naive, share
+	type bslot struct{ ctl, app, nai, shr []float64 }
+	bor := make([][]bslot, ns)
+	for s := range bor {
+		bor[s] = make([]bslot, len(windows))
+		for w := range windows {
+			bor[s][w] = bslot{make([]float64, nd), make([]float64, nd), make([]float64, nd), make([]float64, nd)}
+		}
 	}
 	res.Weekly = make([][2][][]float64, nu)
 	for c := range res.Weekly {
@@ -156,7 +161,7 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 			solver := ols.NewSolver(T+p, p)
 			coef := make([]float64, p)
 			hs := make([]forward.Path, ns)
-			var hn forward.Path
+			var hn, cfs, cfn forward.Path
 			for d := wkr; d < nd; d += workers {
 				dr := sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
 				for c := 0; c < nu; c++ {
@@ -225,14 +230,28 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 				for s := 0; s < ns; s++ {
 					m, _ := dr.Outcome.Channel(sc.SearchNames[s])
 					beta := m.Coef
-					sum := hs[s].Sum()
 					bApp := coef[base+s]
-					ctl[s][d] = hs[s].Gain * sum
-					app[s][d] = sc.OutcomeScale * bApp * sum
-					shr[s][d] = (bApp - beta) / bApp
+					// the apparent path: paid search's response with the
+					// coefficient the stage without queries would give it
+					apparent := forward.Path{Gain: sc.OutcomeScale * bApp, Response: hs[s].Response}
+					var nd forward.Draw
 					if hasNaive {
-						naive.Search(&hn, naive.Draw(in.DemandDraws.Rows[d], in.NaiveDraws.Rows[d]), s, sc.Search[s])
-						nai[s][d] = hn.Gain * hn.Sum()
+						nd = naive.Draw(in.DemandDraws.Rows[d], in.NaiveDraws.Rows[d])
+						naive.Search(&hn, nd, s, sc.Search[s])
+					}
+					for w, win := range windows {
+						cfx = forward.Without(cfx, sc.Search[s], win.From, win.To)
+						sim.Search(&cfs, dr, s, cfx)
+						b := bor[s][w]
+						b.ctl[d] = forward.Effect(hs[s], cfs, win.From)
+						b.app[d] = forward.Effect(apparent, cfs, win.From)
+						// the share of the apparent return that is borrowed
+						// is a ratio of coefficients: the same in every window
+						b.shr[d] = (bApp - beta) / bApp
+						if hasNaive {
+							naive.Search(&cfn, nd, s, cfx)
+							b.nai[d] = forward.Effect(hn, cfn, win.From)
+						}
 					}
 				}
 			}
@@ -265,17 +284,20 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 		}
 	}
 	for s, col := range sc.SearchNames {
-		spend := 0.0
-		for _, v := range sc.RawSearch[s] {
-			spend += v
+		for w, win := range windows {
+			spend := 0.0
+			for t := win.From; t <= win.To; t++ {
+				spend += sc.RawSearch[s][t]
+			}
+			b := bor[s][w]
+			res.Borrowed = append(res.Borrowed,
+				Effect{Channel: col, Path: "controlled", Window: win.Name, Draws: b.ctl, Spend: spend},
+				Effect{Channel: col, Path: "apparent", Window: win.Name, Draws: b.app, Spend: spend})
+			if hasNaive {
+				res.Borrowed = append(res.Borrowed, Effect{Channel: col, Path: "naive", Window: win.Name, Draws: b.nai, Spend: spend})
+			}
+			res.Borrowed = append(res.Borrowed, Effect{Channel: col, Path: "borrowed_share", Window: win.Name, Draws: b.shr, Spend: spend})
 		}
-		res.Borrowed = append(res.Borrowed,
-			Effect{Channel: col, Path: "controlled", Window: "all", Draws: ctl[s], Spend: spend},
-			Effect{Channel: col, Path: "apparent", Window: "all", Draws: app[s], Spend: spend})
-		if hasNaive {
-			res.Borrowed = append(res.Borrowed, Effect{Channel: col, Path: "naive", Window: "all", Draws: nai[s], Spend: spend})
-		}
-		res.Borrowed = append(res.Borrowed, Effect{Channel: col, Path: "borrowed_share", Window: "all", Draws: shr[s], Spend: spend})
 	}
 	return res, nil
 }

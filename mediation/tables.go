@@ -51,7 +51,7 @@ func BorrowedTable(r *Result) []fitfolder.Borrowed {
 	var rows []fitfolder.Borrowed
 	for _, e := range r.Borrowed {
 		s := Summarise(e.Draws)
-		rows = append(rows, fitfolder.Borrowed{Channel: e.Channel, Measure: e.Path, Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95})
+		rows = append(rows, fitfolder.Borrowed{Channel: e.Channel, Measure: e.Path, Window: e.Window, Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95})
 	}
 	return rows
 }
@@ -128,11 +128,19 @@ func Table(w io.Writer, r *Result, window string, unit string) error {
 	}
 	bk := map[string]Summary{}
 	var sch []string
+	var whole []fitfolder.Borrowed
 	for _, e := range r.Borrowed {
+		s := Summarise(e.Draws)
+		if e.Window == "all" {
+			whole = append(whole, fitfolder.Borrowed{Channel: e.Channel, Measure: e.Path, Window: e.Window, Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95})
+		}
+		if e.Window != window {
+			continue
+		}
 		if e.Path == "controlled" {
 			sch = append(sch, e.Channel)
 		}
-		bk[e.Channel+"/"+e.Path] = Summarise(e.Draws)
+		bk[e.Channel+"/"+e.Path] = s
 	}
 	// the channel column is as wide as the longest name (at least 16), the
 	// intervals as the widest (at least 26), so long names keep the
@@ -154,11 +162,15 @@ func Table(w io.Writer, r *Result, window string, unit string) error {
 		sh := byKey[c+"/mediated_share"]
 		fmt.Fprintf(w, "%-*s %-*s %-*s %-*s %.0f%% [%.0f%%, %.0f%%]\n", cw, c, iw, iv(byKey[c+"/direct"]), iw, iv(byKey[c+"/via_search"]), iw, iv(byKey[c+"/total"]), 100*sh.Mean, 100*sh.Q05, 100*sh.Q95)
 	}
-	fmt.Fprintf(w, "\nPaid search, whole period (%s)\n", unit)
+	fmt.Fprintf(w, "\nPaid search, window %s (%s)\n", window, unit)
 	fmt.Fprintf(w, "%-*s %-*s %-*s %s\n", cw, "channel", iw, "controlled", iw, "apparent", "borrowed share")
 	for _, c := range sch {
 		b := bk[c+"/borrowed_share"]
 		fmt.Fprintf(w, "%-*s %-*s %-*s %.0f%% [%.0f%%, %.0f%%]\n", cw, c, iw, iv(bk[c+"/controlled"]), iw, iv(bk[c+"/apparent"]), 100*b.Mean, 100*b.Q05, 100*b.Q95)
+	}
+	fmt.Fprintln(w, "borrowed share: per posterior draw, (apparent - controlled) / apparent; its mean and 90% interval.")
+	for _, n := range NaiveCheck(whole) {
+		fmt.Fprintln(w, n)
 	}
 	return nil
 }

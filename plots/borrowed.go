@@ -2,6 +2,7 @@ package plots
 
 import (
 	"fmt"
+	"image/color"
 	"math"
 
 	"gonum.org/v1/plot"
@@ -13,21 +14,26 @@ import (
 	"spillway/plots/marks"
 )
 
-// borrowed: per paid-search channel, apparent against controlled
-// incremental, the borrowed share, and the naive refit as a faint
-// cross-check. borrowed.csv covers the whole period.
+// borrowed: per paid-search channel, two panels. Left: the apparent and
+// controlled incremental outcome over the whole period, each with its
+// interval, and the refit without queries as a faint cross-check; the bars
+// are not stacked, because the borrowed share is a per-draw ratio whose mean
+// is not the ratio of the bars' means. Right: the borrowed share itself,
+// (apparent - controlled) / apparent per draw, its mean and 90% interval
+// on a 0-100% scale, the one figure the title, the label and the tables
+// give.
 func (r *review) borrowed() (*Figure, error) {
 	search := r.f.Run.Spec.Search
 	fig := &Figure{
 		Legend: []LegendItem{
-			{"paid search's own effect", Direct, SwatchBox, nil},
-			{"demand borrowed from the upper funnel", ViaSearch, SwatchBox, nil},
-			{"refit without queries (cross-check)", Faint, SwatchBox, nil},
+			{"apparent (model without queries)", ViaSearch, SwatchBox, nil},
+			{"controlled (own effect)", Direct, SwatchBox, nil},
+			{"refit without queries", Faint, SwatchBox, nil},
 			{"90% interval", Ink, SwatchWhisker, nil},
 		},
-		Caption: "Whole period: " + r.weeksText(r.whole) + ". Apparent = what a model without the branded-query term " +
-			"credits to paid search; controlled = paid search's incremental " + r.outcome + " once branded demand is " +
-			"accounted for. Bars are posterior means, whiskers 90% credible intervals.",
+		Caption: "Whole period: " + r.weeksText(r.whole) + ". Bars are posterior means, whiskers 90% credible intervals. " +
+			"Borrowed share: per posterior draw, (apparent - controlled) / apparent, the part of paid search's apparent " +
+			"return that is demand the upper funnel created; its mean and 90% interval.",
 	}
 	cats := []string{"refit without\nqueries", "controlled", "apparent"}
 	var panels []*plot.Plot
@@ -51,52 +57,60 @@ func (r *review) borrowed() (*Figure, error) {
 				Lo: []float64{b.Q05}, Hi: []float64{b.Q95}})
 		}
 		naive, ctrl, app, share := bs[0], bs[1], bs[2], bs[3]
-		title := Capital(Channel(ch))
-		if len(search) == 1 {
-			title = "Paid search (" + Channel(ch) + "), whole period"
-			if Channel(ch) == "search" || Channel(ch) == "paid search" {
-				title = "Paid search, whole period"
-			}
+		name := "Paid search (" + Channel(ch) + ")"
+		if Channel(ch) == "search" || Channel(ch) == "paid search" {
+			name = "Paid search"
 		}
-		p := newPanel(title)
+		p := newPanel(name + ", whole period")
 		p.X.Label.Text = "incremental " + r.outcome + " over the whole period"
 		p.Y.Tick.Marker = marks.CategoryTicks(cats)
 		p.Y.Tick.Label = marks.TextStyle(sizeAxis, Ink, true)
 		p.Y.Tick.Label.XAlign, p.Y.Tick.Label.YAlign = text.XRight, text.YCenter
 		p.Add(gridLines{vertical: true})
 		const hh = 0.3
-		// Naive refit: faint bar and whisker.
 		p.Add(marks.Rect{X0: 0, X1: naive.Mean, Y0: -hh * 0.8, Y1: hh * 0.8, Fill: marks.Tint(Faint, 0.45)})
 		p.Add(marks.Whisker{At: 0, Lo: naive.Q05, Hi: naive.Q95, Horizontal: true,
 			Style: draw.LineStyle{Color: Faint, Width: vg.Points(2.5)}, Cap: vg.Points(14)})
-		// Controlled.
-		p.Add(marks.Rect{X0: 0, X1: ctrl.Mean, Y0: 1 - hh, Y1: 1 + hh, Fill: Direct})
-		p.Add(marks.Whisker{At: 1, Lo: ctrl.Q05, Hi: ctrl.Q95, Horizontal: true,
-			Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
-		// Apparent = own effect + borrowed demand.
-		p.Add(marks.Rect{X0: 0, X1: ctrl.Mean, Y0: 2 - hh, Y1: 2 + hh, Fill: Direct})
-		p.Add(marks.Rect{X0: ctrl.Mean, X1: app.Mean, Y0: 2 - hh, Y1: 2 + hh, Fill: ViaSearch})
-		p.Add(marks.Whisker{At: 2, Lo: app.Q05, Hi: app.Q95, Horizontal: true,
-			Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
-		bl := marks.TextStyle(sizeLabel+1, Ink, true)
-		bl.XAlign, bl.YAlign = text.XCenter, text.YBottom
-		p.Add(marks.Label{X: (ctrl.Mean + app.Mean) / 2, Y: 2 + hh, DY: vg.Points(5),
-			Text: fmt.Sprintf("%s borrowed (90%%: %s–%s)", Percent(share.Mean), Percent(share.Q05), Percent(share.Q95)), Style: bl})
+		for i, b := range []struct {
+			v    fitfolder.Borrowed
+			fill color.Color
+		}{{ctrl, Direct}, {app, ViaSearch}} {
+			y := float64(i + 1)
+			p.Add(marks.Rect{X0: 0, X1: b.v.Mean, Y0: y - hh, Y1: y + hh, Fill: b.fill})
+			p.Add(marks.Whisker{At: y, Lo: b.v.Q05, Hi: b.v.Q95, Horizontal: true,
+				Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
+		}
 		vl := marks.TextStyle(sizeLabel, Ink, false)
 		vl.XAlign, vl.YAlign = text.XLeft, text.YCenter
 		for i, b := range []fitfolder.Borrowed{naive, ctrl, app} {
 			p.Add(marks.Label{X: b.Q95, Y: float64(i), DX: vg.Points(12), Text: Number(b.Mean), Style: vl})
 		}
-		p.Y.Min, p.Y.Max = -0.6, 2.75
+		p.Y.Min, p.Y.Max = -0.6, 2.6
 		p.X.Min = 0
-		p.X.Max = math.Max(math.Max(app.Q95, naive.Q95), ctrl.Q95) * 1.16
-		panels = append(panels, p)
+		p.X.Max = math.Max(math.Max(app.Q95, naive.Q95), ctrl.Q95) * 1.18
+
+		q := newPanel("Share of the apparent return that is borrowed")
+		q.X.Label.Text = "borrowed share (per posterior draw)"
+		q.X.Tick.Marker = percentTicks{}
+		q.Y.Tick.Marker = marks.CategoryTicks([]string{""})
+		q.Add(gridLines{vertical: true})
+		q.Add(marks.Rect{X0: 0, X1: 1, Y0: -hh, Y1: hh, Fill: marks.Tint(Faint, 0.3)})
+		q.Add(marks.Rect{X0: 0, X1: share.Mean, Y0: -hh, Y1: hh, Fill: ViaSearch})
+		q.Add(marks.Whisker{At: 0, Lo: share.Q05, Hi: share.Q95, Horizontal: true,
+			Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
+		bl := marks.TextStyle(sizeLabel+1, Ink, true)
+		bl.XAlign, bl.YAlign = text.XCenter, text.YBottom
+		q.Add(marks.Label{X: 0.5, Y: hh, DY: vg.Points(10),
+			Text: fmt.Sprintf("%s borrowed (90%%: %s–%s)", Percent(share.Mean), Percent(share.Q05), Percent(share.Q95)), Style: bl})
+		q.X.Min, q.X.Max = 0, 1
+		q.Y.Min, q.Y.Max = -1, 1.2
+		panels = append(panels, p, q)
 		titleParts = append(titleParts, fmt.Sprintf("%s for %s", Percent(share.Mean), Channel(ch)))
 	}
 	if len(panels) == 0 {
 		return nil, fmt.Errorf("spec.json names no paid-search channel")
 	}
-	fig.grid(1, len(panels), panels...)
+	fig.grid(len(search), 2, panels...)
 	up := List(channelNames(r.uppers()))
 	if len(search) == 1 {
 		s, _ := r.f.BorrowedMeasure(search[0], "borrowed_share")
@@ -105,4 +119,16 @@ func (r *review) borrowed() (*Figure, error) {
 		fig.Title = fmt.Sprintf("Of paid search's apparent return, demand borrowed from %s is %s", up, List(titleParts))
 	}
 	return fig, nil
+}
+
+// percentTicks labels a 0..1 axis in steps of 25%.
+type percentTicks struct{}
+
+// Ticks implements plot.Ticker.
+func (percentTicks) Ticks(min, max float64) []plot.Tick {
+	var ts []plot.Tick
+	for v := 0.0; v <= 1.0001; v += 0.25 {
+		ts = append(ts, plot.Tick{Value: v, Label: fmt.Sprintf("%.0f%%", 100*v)})
+	}
+	return ts
 }

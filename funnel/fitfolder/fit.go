@@ -175,10 +175,17 @@ func (s *Split) Effect(channel, path, window string) (Effect, bool) {
 	return Effect{}, false
 }
 
-// BorrowedMeasure returns the borrowed.csv row for channel and measure.
+// BorrowedMeasure returns the borrowed.csv row for channel and measure
+// over the whole period.
 func (s *Split) BorrowedMeasure(channel, measure string) (Borrowed, bool) {
+	return s.BorrowedIn(channel, measure, "all")
+}
+
+// BorrowedIn returns the borrowed.csv row for channel and measure over
+// window.
+func (s *Split) BorrowedIn(channel, measure, window string) (Borrowed, bool) {
 	for _, b := range s.Borrowed {
-		if b.Channel == channel && b.Measure == measure {
+		if b.Channel == channel && b.Measure == measure && b.Window == window {
 			return b, true
 		}
 	}

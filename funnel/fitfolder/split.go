@@ -32,6 +32,8 @@ const (
 	PathViaSearch     = "via_search"
 	PathTotal         = "total"
 	PathMediatedShare = "mediated_share"
+	// PathControlled is paid search's own effect (curves.csv and borrowed.csv).
+	PathControlled = "controlled"
 )
 
 // Effect is one row of effects.csv. Values are in outcome units summed over
@@ -77,17 +79,20 @@ type effectDrawRow struct {
 	Value   table.Float `csv:"value"`
 }
 
-// Borrowed is one row of borrowed.csv. Measure is "controlled",
-// "apparent", "naive" (outcome units over the whole period) or
-// "borrowed_share" (a fraction 0..1).
+// Borrowed is one row of borrowed.csv: a paid-search channel's measure
+// over a window (as in effects.csv). Measure is "controlled", "apparent",
+// "naive" (outcome units from the window's spend, carryover included) or
+// "borrowed_share" (a fraction 0..1, per draw (apparent - controlled) /
+// apparent; the same in every window unless effects drift).
 type Borrowed struct {
-	Channel, Measure    string
-	Mean, Q05, Q50, Q95 float64
+	Channel, Measure, Window string
+	Mean, Q05, Q50, Q95      float64
 }
 
 type borrowedRow struct {
 	Channel string      `csv:"channel"`
 	Measure string      `csv:"measure"`
+	Window  string      `csv:"window"`
 	Mean    table.Float `csv:"mean"`
 	Q05     table.Float `csv:"q05"`
 	Q50     table.Float `csv:"q50"`
@@ -161,7 +166,9 @@ type fittedRow struct {
 
 // Curve is one row of curves.csv: the steady-state weekly incremental
 // outcome through Path at a weekly spend of WeeklySpend, with the mean
-// weekly spend of the data as CurrentWeeklySpend.
+// weekly spend of the data as CurrentWeeklySpend. Upper-funnel channels
+// have the paths direct, via_search and total; paid-search channels have
+// PathControlled, their own effect with branded demand held.
 type Curve struct {
 	Channel, Path      string
 	WeeklySpend        float64
@@ -203,7 +210,7 @@ func (s *Split) Files() (map[string][]byte, error) {
 	}
 	borrowed := make([]borrowedRow, len(s.Borrowed))
 	for i, b := range s.Borrowed {
-		borrowed[i] = borrowedRow{b.Channel, b.Measure, table.Float(b.Mean), table.Float(b.Q05), table.Float(b.Q50), table.Float(b.Q95)}
+		borrowed[i] = borrowedRow{b.Channel, b.Measure, b.Window, table.Float(b.Mean), table.Float(b.Q05), table.Float(b.Q50), table.Float(b.Q95)}
 	}
 	weekly := make([]weeklyRow, len(s.Weekly))
 	for i, w := range s.Weekly {
@@ -347,7 +354,10 @@ func readSplit(dir string, run Run) (Split, error) {
 		if err := oneOf(path, lines[i], "measure", r.Measure, "controlled", "apparent", "naive", "borrowed_share"); err != nil {
 			return s, err
 		}
-		s.Borrowed = append(s.Borrowed, Borrowed{r.Channel, r.Measure, float64(r.Mean), float64(r.Q05), float64(r.Q50), float64(r.Q95)})
+		if r.Window == "" {
+			return s, rowError(path, lines[i], "window", "empty; expected all, a quarter or FROM:TO as in effects.csv")
+		}
+		s.Borrowed = append(s.Borrowed, Borrowed{r.Channel, r.Measure, r.Window, float64(r.Mean), float64(r.Q05), float64(r.Q50), float64(r.Q95)})
 	}
 
 	path = p("weekly.csv")
@@ -410,11 +420,18 @@ func readSplit(dir string, run Run) (Split, error) {
 		return s, err
 	}
 	for i, r := range curves {
-		if err := upper(path, lines[i], r.Channel); err != nil {
-			return s, err
-		}
-		if err := oneOf(path, lines[i], "path", r.Path, PathDirect, PathViaSearch, PathTotal); err != nil {
-			return s, err
+		if slices.Contains(spec.Search, r.Channel) {
+			// paid search: its controlled path only
+			if err := oneOf(path, lines[i], "path", r.Path, PathControlled); err != nil {
+				return s, err
+			}
+		} else {
+			if err := upper(path, lines[i], r.Channel); err != nil {
+				return s, err
+			}
+			if err := oneOf(path, lines[i], "path", r.Path, PathDirect, PathViaSearch, PathTotal); err != nil {
+				return s, err
+			}
 		}
 		if r.WeeklySpend < 0 {
 			return s, rowError(path, lines[i], "weekly_spend", "negative spend %v", float64(r.WeeklySpend))

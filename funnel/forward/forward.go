@@ -234,6 +234,13 @@ func (s *Simulator) Steady(d Draw, c int, x float64) (via, direct float64) {
 	return via, direct
 }
 
+// SteadySearch returns paid-search channel k's weekly controlled outcome
+// when it spends x (scaled units) every week for ever.
+func (s *Simulator) SteadySearch(d Draw, k int, x float64) float64 {
+	m := d.Outcome.ChannelAt(s.srch[k])
+	return s.sc.OutcomeScale * m.Coef * m.Steady(x)
+}
+
 // Run is the model run forward over a plan, week by week. Its slices are
 // reused by the next run into it.
 type Run struct {

@@ -27,7 +27,8 @@ type Truth struct {
 	// Effects are per upper channel, path and window (outcome units; for
 	// regional data, regions summed).
 	Effects []TrueEffect `json:"effects"`
-	// Borrowed are per search channel: controlled, apparent, borrowed_share.
+	// Borrowed are per search channel and window: controlled, apparent,
+	// borrowed_share.
 	Borrowed []TrueEffect `json:"borrowed"`
 }
 
@@ -83,11 +84,11 @@ func (s *Scenario) Truth(r *Result) (*Truth, error) {
 			ctl += p.Borrowed[i].Draws[0]
 			app += p.Borrowed[i+1].Draws[0]
 		}
-		ch := first.Borrowed[i].Channel
+		ch, win := first.Borrowed[i].Channel, first.Borrowed[i].Window
 		t.Borrowed = append(t.Borrowed,
-			TrueEffect{Channel: ch, Path: "controlled", Window: "all", Value: ctl},
-			TrueEffect{Channel: ch, Path: "apparent", Window: "all", Value: app},
-			TrueEffect{Channel: ch, Path: "borrowed_share", Window: "all", Value: (app - ctl) / app})
+			TrueEffect{Channel: ch, Path: "controlled", Window: win, Value: ctl},
+			TrueEffect{Channel: ch, Path: "apparent", Window: win, Value: app},
+			TrueEffect{Channel: ch, Path: "borrowed_share", Window: win, Value: (app - ctl) / app})
 	}
 	for _, e := range append(append([]TrueEffect(nil), t.Effects...), t.Borrowed...) {
 		if math.IsNaN(e.Value) || math.IsInf(e.Value, 0) {

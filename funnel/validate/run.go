@@ -324,7 +324,8 @@ func keyEffects(res *mediation.Result, quarters bool) []mediation.Effect {
 		}
 	}
 	for _, e := range res.Borrowed {
-		if e.Path == "borrowed_share" {
+		// the share is a ratio of coefficients, the same in every window
+		if e.Path == "borrowed_share" && e.Window == "all" {
 			out = append(out, e)
 		}
 	}

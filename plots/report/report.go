@@ -13,6 +13,7 @@ import (
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/window"
+	"spillway/mediation"
 	"spillway/plots"
 )
 
@@ -400,9 +401,14 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		}
 	}
 	v.BorrowedNote = fmt.Sprintf("Incremental %s over the whole period (%s). The apparent figure is what paid search "+
-		"would be credited with if the model left branded queries out; the difference is demand that the upper funnel "+
-		"created and paid search captured. The separate refit without queries should agree with the apparent figure in the mean.",
+		"would be credited with if the model left branded queries out (per posterior draw, the estimate of a model without "+
+		"the query term, with its priors); the difference is demand that the upper funnel created and paid search captured. "+
+		"The borrowed share is, per posterior draw, (apparent - controlled) / apparent; the table gives its mean and 90%% "+
+		"interval, as do the chart and the headline. The separate refit without queries is a cross-check of the apparent figure.",
 		outcome, weeksText(f, whole))
+	for _, n := range mediation.NaiveCheck(f.Borrowed) {
+		v.BorrowedNote += " " + strings.TrimPrefix(n, "note: ")
+	}
 
 	// Data summary.
 	v.Data = dataSummary(f, w)

@@ -255,7 +255,7 @@ func Write(dir string, o Options) (*Fixture, error) {
 		v    []float64
 	}{{"controlled", ctrl}, {"apparent", app}, {"naive", naive}, {"borrowed_share", share}} {
 		s := slices.Sorted(slices.Values(m.v))
-		fx.Borrowed = append(fx.Borrowed, fitfolder.Borrowed{Channel: "search_spend", Measure: m.name,
+		fx.Borrowed = append(fx.Borrowed, fitfolder.Borrowed{Channel: "search_spend", Measure: m.name, Window: "all",
 			Mean: stat.Mean(m.v), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)})
 	}
 
