@@ -12,6 +12,7 @@ import (
 	"runtime/debug"
 	"slices"
 	"strings"
+	"syscall"
 	"testing"
 
 	"spillway/funnel/data"
@@ -249,6 +250,10 @@ func TestExitCode(t *testing.T) {
 	de := &data.DataError{File: "a.csv", Line: 2, Err: errors.New("bad")}
 	cancelled, cancel := context.WithCancel(context.Background())
 	cancel()
+	byTerm, stop := context.WithCancelCause(context.Background())
+	stop(signalCause{syscall.SIGTERM})
+	byHup, stop2 := context.WithCancelCause(context.Background())
+	stop2(signalCause{syscall.SIGHUP})
 	tests := []struct {
 		name string
 		ctx  context.Context
@@ -263,6 +268,10 @@ func TestExitCode(t *testing.T) {
 		{"wrapped data error", context.Background(), fmt.Errorf("load: %w", de), 2},
 		{"canceled", context.Background(), fmt.Errorf("sampling: %w", context.Canceled), 130},
 		{"error after cancel", cancelled, errors.New("write: broken"), 130},
+		{"SIGTERM", byTerm, context.Cause(byTerm), 143},
+		{"error after SIGHUP", byHup, errors.New("write: broken"), 129},
+		{"closed pipe", context.Background(), fmt.Errorf("write stdout: %w", syscall.EPIPE), 141},
+		{"SIGTERM is a cancel", context.Background(), fmt.Errorf("x: %w", signalCause{syscall.SIGTERM}), 130},
 	}
 	for _, test := range tests {
 		if got := exitCode(test.ctx, test.err); got != test.want {
