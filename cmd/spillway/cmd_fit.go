@@ -47,7 +47,7 @@ type samplingDefaults struct {
 
 func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
-	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
+	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists and spillway wrote it (never one holding an input or files spillway did not write)")
 	fs.Uint64Var(&s.seed, "seed", 1, d.seedHelp)
 	fs.IntVar(&s.chains, "chains", d.chains, "number of "+d.chainsWhat+", run in parallel")
 	fs.IntVar(&s.warmup, "warmup", d.warmup, "warm-up "+d.iterWhat)

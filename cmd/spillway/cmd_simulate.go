@@ -29,7 +29,7 @@ func (o *simulateOptions) addFlags(fs *pflag.FlagSet) {
 	fs.IntVar(&o.weeks, "weeks", 0, "number of weeks (0: the scenario's own, 156)")
 	fs.IntVar(&o.regions, "regions", 0, "number of regions (0: the scenario's own; demo-regions has 24)")
 	fs.StringVar(&o.out, "out", "", "the output `FOLDER` for data.csv and truth.json")
-	fs.BoolVar(&o.force, "force", false, "replace the output folder if it exists")
+	fs.BoolVar(&o.force, "force", false, "replace the output folder if it exists and spillway wrote it (never one holding an input or files spillway did not write)")
 }
 
 // newSimulateCommand builds spillway simulate.
