@@ -15,16 +15,25 @@ import (
 // quantiles, and the mean per unit of the channel's raw spend in the
 // window (NaN for mediated_share, a fraction, and for a window without
 // spend).
-func EffectsTable(r *Result) []fitfolder.Effect {
+//
+// sup, if not nil, gives each effect's support (Supports): the prior's 90%
+// interval, the contraction and the probability of a negligible effect;
+// without it those columns are NaN.
+func EffectsTable(r *Result, sup map[Key]Support) []fitfolder.Effect {
 	var rows []fitfolder.Effect
 	for _, e := range r.Effects {
+		su, ok := sup[Key{e.Channel, e.Path, e.Window}]
+		if !ok {
+			su = Support{math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()}
+		}
 		s := Summarise(e.Draws)
 		pu := math.NaN()
 		if e.Path != "mediated_share" && e.Spend > 0 {
 			pu = s.Mean / e.Spend
 		}
 		rows = append(rows, fitfolder.Effect{Channel: e.Channel, Path: e.Path, Window: e.Window,
-			Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95, PerUnitSpend: pu})
+			Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95, PerUnitSpend: pu,
+			PriorQ05: su.PriorQ05, PriorQ95: su.PriorQ95, Contraction: su.Contraction, PNegligible: su.PNegligible})
 	}
 	return rows
 }

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"strings"
 
@@ -29,12 +30,14 @@ type samplingFlags struct {
 	linear                []string
 	quiet                 bool
 	targetAccept          float64
+	labels                labelFlags // fit and run only
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
 	fs.Float64Var(&s.targetAccept, "target-accept", pipeline.DefaultTargetAccept, "the acceptance rate the step size adapts to during warm-up; raise it (0.95) if the verdict reports divergent transitions")
+	s.labels.addFlags(fs)
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -115,7 +118,11 @@ upper funnel directly) and naive (the outcome stage without queries, a
 cross-check for paid search). It writes FOLDER/spec.json, FOLDER/data.csv, and
 for each stage FOLDER/STAGE/draws.csv, summary.csv and stats.json, and
 FOLDER/verdict.txt: whether the fit deserves trust (R-hat <= 1.01, bulk and
-tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not.
+tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not, and
+whether the data support the media effects at all: the outcome stage must
+predict left-out weeks better than the same stage without any media term
+(PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
+adds which effects the data cannot tell from zero or from the prior.
 Regional data are fitted as their national sum.
 
 EXAMPLE
@@ -192,6 +199,10 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if len(ds.Regions) > 1 {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
 	}
+	labels, err := opts.labels.resolve(ds.Spec)
+	if err != nil {
+		return nil, err
+	}
 	sc := model.Scale(ds.National(), ds.Spec)
 	o, err := modelOptions(sc, opts)
 	if err != nil {
@@ -204,7 +215,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion()}
+		Linear: opts.linear, Priors: opts.priors, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels}
 	verb := "fit"
 	if demo != "" {
 		verb = "run"
@@ -216,6 +227,11 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		return nil, err
 	}
 	f, reps := newFit(*fs, ds, priorBytes, fitted)
+	sup, err := pipeline.CheckSupport(ctx, fitted, o, set)
+	if err != nil {
+		return nil, err
+	}
+	addSupport(&f.Verdict, sup)
 	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
@@ -225,7 +241,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			return nil, err
 		}
 	}
-	printFitSummary(stdout, reps, fitted)
+	printFitSummary(stdout, reps, fitted, sup)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
@@ -256,31 +272,27 @@ func progressHook(ctx context.Context, opts *samplingFlags, stderr io.Writer) pi
 }
 
 // printFitSummary prints one line per stage and the verdict.
-func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
+func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted, sup *pipeline.Support) {
 	for k, r := range reps {
-		maxR, minB, minT := 0.0, 1e300, 1e300
-		for _, s := range r.summary {
-			if s.Constant() {
-				continue
-			}
-			maxR = max(maxR, s.Rhat)
-			minB = min(minB, s.ESSBulk)
-			minT = min(minT, s.ESSTail)
-		}
+		maxR, minB, minT := mcmc.Worst(r.summary)
 		div, leap := 0, 0.0
 		for _, c := range f.Fits[k].Chains {
 			div += c.Stats.Divergences
 			leap += c.Stats.MeanLeapfrogs / float64(len(f.Fits[k].Chains))
 		}
-		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %.3f, min bulk ESS %.0f, min tail ESS %.0f, %d divergences, %.0f leapfrog steps per draw\n",
-			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], maxR, minB, minT, div, leap)
+		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %s, min bulk ESS %s, min tail ESS %s, %d divergences, %.0f leapfrog steps per draw\n",
+			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], diagText(maxR, "%.3f"), diagText(minB, "%.0f"), diagText(minT, "%.0f"), div, leap)
 	}
 	ok := true
 	for _, r := range reps {
 		ok = ok && r.verdict.Trustworthy
 	}
-	if ok {
+	if ok && sup.Supported() {
 		fmt.Fprintln(w, "verdict: trustworthy (R-hat <= 1.01, ESS >= 400, no divergences, E-BFMI >= 0.3 in every stage)")
+		fmt.Fprintf(w, "support: %s\n", sup.Text())
+		if n := sup.Note(); n != "" {
+			fmt.Fprintf(w, "support: note: %s\n", n)
+		}
 		return
 	}
 	fmt.Fprintln(w, "verdict: NOT TRUSTWORTHY; do not use these numbers before fixing:")
@@ -289,4 +301,35 @@ func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
 			fmt.Fprintf(w, "  %s: %s\n", r.name, why)
 		}
 	}
+	if sup.Supported() {
+		fmt.Fprintf(w, "support: %s\n", sup.Text())
+	} else {
+		fmt.Fprintf(w, "  support: %s\n", sup.Text())
+	}
+	if n := sup.Note(); n != "" {
+		fmt.Fprintf(w, "support: note: %s\n", n)
+	}
+}
+
+// addSupport adds the support check to the fit's verdict: media effects
+// the data do not support make the fit not trustworthy, whatever the
+// sampler's diagnostics say.
+func addSupport(v *fitfolder.Verdict, sup *pipeline.Support) {
+	if sup.Supported() {
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + sup.Text()})
+	} else {
+		v.Trustworthy = false
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: sup.Text()})
+	}
+	if n := sup.Note(); n != "" {
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + n})
+	}
+}
+
+// diagText formats a convergence diagnostic, or "not computable" for NaN.
+func diagText(v float64, format string) string {
+	if math.IsNaN(v) {
+		return "not computable"
+	}
+	return fmt.Sprintf(format, v)
 }

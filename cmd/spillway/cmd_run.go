@@ -18,15 +18,17 @@ import (
 
 // runOptions are the flags of spillway run.
 type runOptions struct {
-	roles    roleFlags
-	sampling samplingFlags
-	window   string
+	roles      roleFlags
+	sampling   samplingFlags
+	window     string
+	negligible float64
 }
 
 func (o *runOptions) addFlags(fs *pflag.FlagSet) {
 	o.roles.addFlags(fs)
 	o.sampling.addFlags(fs)
 	fs.StringVar(&o.window, "window", "", "the review `WINDOW` for the table, charts and report: all, a quarter (2025Q2) or FROM:TO; default: the last full quarter")
+	addNegligibleFlag(fs, &o.negligible)
 }
 
 // newRunCommand builds spillway run.
@@ -68,6 +70,9 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err := noArgs(args); err != nil {
 		return err
 	}
+	if err := checkNegligible(o.negligible); err != nil {
+		return err
+	}
 	if o.window != "" {
 		if _, err := window.Parse(o.window); err != nil {
 			return usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
@@ -94,12 +99,10 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 		return err
 	}
 	defer od.Abort()
-	tableWindow := o.window
-	if tableWindow == "" {
-		tableWindow = "all"
-	}
+	// the review window of the table, the charts and the report: checked
+	// against the data before the fit (checkWindow)
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, od.fit, tableWindow)
+	s, err := splitFit(ctx, od.fit, o.window, o.negligible)
 	if err != nil {
 		return err
 	}
@@ -107,6 +110,8 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err != nil {
 		return err
 	}
+	od.fit.Verdict = s.withNotes(od.fit.Verdict)
+	files["verdict.txt"] = []byte(od.fit.Verdict.Text())
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -121,7 +126,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	f := od.fit.Fit
 	f.Split = s.Split
 	f.Dir = od.Final()
-	w, err := f.Window(o.window)
+	w, err := f.Window(s.asked.Name)
 	if err != nil {
 		return usagef("--window: %v", err)
 	}

@@ -19,6 +19,7 @@
 //	breakeven.csv         Breakeven
 //	fitted.csv            Fitted
 //	curves.csv            Curve
+//	returns.csv           Return (absent in folders written before it existed)
 //
 // The tables are fixed-schema CSV read and written by package table, so
 // every error names the file, the line and the column at fault (*Error).

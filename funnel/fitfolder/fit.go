@@ -175,6 +175,17 @@ func (s *Split) Effect(channel, path, window string) (Effect, bool) {
 	return Effect{}, false
 }
 
+// ReturnMeasure returns the returns.csv row for channel, window and
+// measure; ok is false when there is none (or no returns.csv).
+func (s *Split) ReturnMeasure(channel, window, measure string) (Return, bool) {
+	for _, r := range s.Returns {
+		if r.Channel == channel && r.Window == window && r.Measure == measure {
+			return r, true
+		}
+	}
+	return Return{}, false
+}
+
 // BorrowedMeasure returns the borrowed.csv row for channel and measure
 // over the whole period.
 func (s *Split) BorrowedMeasure(channel, measure string) (Borrowed, bool) {

@@ -23,6 +23,19 @@ type Run struct {
 	Command  string    `json:"command"`
 	DataFile string    `json:"data_file"`
 	Version  string    `json:"version"`
+	// Labels are the display names the charts and the report use; zero
+	// means names made from the column names.
+	Labels Labels `json:"labels,omitzero"`
+}
+
+// Labels are the names a review shows instead of column names: a label
+// per spend column ("Online video" for video_spend), the outcome's name
+// ("orders") and the currency of spend ("EUR"). Empty fields fall back on
+// the column names and no currency.
+type Labels struct {
+	Channels map[string]string `json:"channels,omitempty"`
+	Outcome  string            `json:"outcome,omitempty"`
+	Currency string            `json:"currency,omitempty"`
 }
 
 // jsonFile renders v as an indented JSON file.
