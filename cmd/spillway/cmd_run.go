@@ -10,7 +10,9 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"spillway/funnel/allocate"
 	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/window"
 	"spillway/plots"
 	htmlreport "spillway/plots/report"
@@ -22,6 +24,7 @@ type runOptions struct {
 	sampling   samplingFlags
 	window     string
 	negligible float64
+	allocate   bool
 }
 
 func (o *runOptions) addFlags(fs *pflag.FlagSet) {
@@ -29,6 +32,7 @@ func (o *runOptions) addFlags(fs *pflag.FlagSet) {
 	o.sampling.addFlags(fs)
 	fs.StringVar(&o.window, "window", "", "the review `WINDOW` for the table, charts and report: all, a quarter (2025Q2) or FROM:TO; default: the last full quarter")
 	addNegligibleFlag(fs, &o.negligible)
+	fs.BoolVar(&o.allocate, "allocate", false, "also plan the budget of the 13 weeks after the data (spillway allocate with its defaults) into the folder and the report")
 }
 
 // newRunCommand builds spillway run.
@@ -47,7 +51,10 @@ the charts and writes the review report, all into FOLDER (written atomically:
 an interrupted run leaves nothing behind). It prints where the report is.
 Without --data (and the other role flags) it runs the built-in demo:
 Quillmere Bikes, an invented brand, 156 weeks of video, audio and paid search.
-The steps are also commands of their own: fit, split, chart and report.
+The steps are also commands of their own: fit, split, chart and report. With
+--allocate it also plans the budget of the weeks after the data (see
+'spillway help allocate'; a plan rests on the model's assumptions: confirm
+large moves with a controlled experiment).
 
 EXAMPLE
   spillway run --out demo-out
@@ -126,6 +133,22 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	f := od.fit.Fit
 	f.Split = s.Split
 	f.Dir = od.Final()
+	if o.allocate {
+		fmt.Fprintln(stdout)
+		pf := planFlags{weeks: allocate.DefaultWeeks, pattern: "last"}
+		files, err := planFiles(ctx, od.fit, &pf, "spillway allocate --fit "+shellQuote(od.Final()), stdout, stderr)
+		if err != nil {
+			return err
+		}
+		for name, b := range files {
+			if err := od.WriteFile(name, b); err != nil {
+				return err
+			}
+		}
+		if f.Plan, err = fitfolder.ReadPlan(od.Path()); err != nil {
+			return err
+		}
+	}
 	w, err := f.Window(s.asked.Name)
 	if err != nil {
 		return usagef("--window: %v", err)

@@ -140,7 +140,7 @@ type command struct {
 // lists them.
 func newCommands() []*command {
 	return []*command{newRunCommand(), newSimulateCommand(), newInspectCommand(), newFitCommand(),
-		newSplitCommand(), newChartCommand(), newReportCommand(), newValidateCommand()}
+		newSplitCommand(), newAllocateCommand(), newChartCommand(), newReportCommand(), newValidateCommand()}
 }
 
 // newFlagSet returns an empty flag set for the command name. It prints

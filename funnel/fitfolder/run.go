@@ -46,10 +46,14 @@ func jsonFile(v any) ([]byte, error) {
 
 // readJSON decodes the JSON file at path into v; a decoding error is an
 // *Error at the line (and field) at fault.
-func readJSON(path string, v any) error {
+func readJSON(path string, v any) error { return readJSONHint(path, hintFit, v) }
+
+// readJSONHint is readJSON with hint saying what writes the file, for the
+// message when it is missing.
+func readJSONHint(path, hint string, v any) error {
 	b, err := os.ReadFile(path)
 	if err != nil {
-		return openError(path, hintFit, err)
+		return openError(path, hint, err)
 	}
 	if err := json.NewDecoder(bytes.NewReader(b)).Decode(v); err != nil {
 		var se *json.SyntaxError

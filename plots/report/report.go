@@ -41,6 +41,9 @@ func Write(w io.Writer, f *fitfolder.Fit, window string, charts map[string][]byt
 	if v.Validation, err = loadValidation(f.Dir); err != nil {
 		return fmt.Errorf("report: validation: %w", err)
 	}
+	if v.Plan, err = planSection(f); err != nil {
+		return fmt.Errorf("report: plan: %w", err)
+	}
 	var buf bytes.Buffer
 	if err := page.Execute(&buf, v); err != nil {
 		return fmt.Errorf("report: %w", err)
@@ -81,6 +84,7 @@ type view struct {
 	Command      string // redoes the whole job into a new folder
 	Rebuild      string // rebuilds this page from the fit folder
 	Validation   *validationView
+	Plan         *planView
 }
 
 type chartView struct {

@@ -163,7 +163,22 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 {{end}}
 
-<h2>Cautions</h2>
+{{with .Plan}}<h2>{{.Heading}}</h2>
+<p>{{.Intro}}</p>
+<table id="plan">
+<thead><tr><th>Channel</th><th class="num">Current</th><th class="num">Planned</th><th class="num">Change</th><th>Limits</th><th class="num">Incremental outcome, planned (90% interval)</th><th class="num">Marginal return (90% interval)</th></tr></thead>
+<tbody>{{range .Rows}}
+<tr data-channel="{{.Channel}}"><td>{{.Channel}}</td><td class="num">{{.Current}}</td><td class="num">{{.Planned}}</td><td class="num">{{.Change}}</td><td>{{.Limits}}</td><td class="num">{{.Incremental}}</td><td class="num">{{.Marginal}}</td></tr>{{end}}
+</tbody>
+</table>
+<p id="plan-gain">{{.Gain}}</p>
+{{if .Check}}<p class="note">{{.Check}}</p>{{end}}
+<figure><img src="{{.Src}}" alt="Budget plan: current against planned spend per channel, the gain over the current plan with its 90% interval, and each channel's marginal return at the plan"/></figure>
+<ul id="plan-notes">{{range .Notes}}
+<li>{{.}}</li>{{end}}
+</ul>
+
+{{end}}<h2>Cautions</h2>
 <ul id="cautions">{{range .Cautions}}
 <li>{{.}}</li>{{end}}
 </ul>
