@@ -161,6 +161,7 @@ func runAllocate(ctx context.Context, o *allocateOptions, stdout, stderr io.Writ
 			return err
 		}
 		defer od.Abort()
+		dropNote(stderr, od)
 	}
 	ff, err := readFitFolder(o.fit)
 	if err != nil {

@@ -50,7 +50,7 @@ type samplingDefaults struct {
 
 func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
-	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
+	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists and spillway wrote it (never one holding an input or files spillway did not write)")
 	fs.Uint64Var(&s.seed, "seed", 1, d.seedHelp)
 	fs.IntVar(&s.chains, "chains", d.chains, "number of "+d.chainsWhat+", run in parallel")
 	fs.IntVar(&s.warmup, "warmup", d.warmup, "warm-up "+d.iterWhat)
@@ -163,14 +163,17 @@ type fitRun struct {
 
 // runFit fits and writes the fit folder into a temporary output folder.
 // With demo set, the data are that built-in scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (_ *fitRun, err error) {
+// Each of checks is run on the loaded data before any sampling (run checks
+// its --window there), so that a mistake costs no fit.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer, checks ...func(*data.Dataset) error) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
 		return nil, err
 	}
-	out, err := newOutDir(opts.out, opts.force)
+	out, err := newOutDir(opts.out, opts.force, append(roles.inputs(), opts.priors)...)
 	if err != nil {
 		return nil, err
 	}
+	dropNote(stderr, out)
 	defer func() {
 		if err != nil {
 			out.Abort()
@@ -184,6 +187,11 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	} else if ds, err = roles.load(); err != nil {
 		return nil, err
+	}
+	for _, check := range checks {
+		if err := check(ds); err != nil {
+			return nil, err
+		}
 	}
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
@@ -214,7 +222,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(opts, stderr))
+	fitted, err := pipeline.Fit(ctx, sc, o, set, progressHook(ctx, opts, stderr))
 	if err != nil {
 		return nil, err
 	}
@@ -242,7 +250,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 
 // progressHook returns the per-stage progress display: a bar when stderr
 // is a terminal, a plain line every few seconds otherwise, none with --quiet.
-func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
+// A stage stopped by ctx (Ctrl-C) ends its display with "interrupted".
+func progressHook(ctx context.Context, opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 	if opts.quiet {
 		return nil
 	}
@@ -252,7 +261,13 @@ func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 	}
 	return func(stage string) (mcmc.Recorder, func()) {
 		p := progress.New(progress.Options{Writer: stderr, Terminal: tty, Label: stage, Chains: opts.chains, Iterations: opts.warmup + opts.draws})
-		return p, func() { _ = p.Finish() }
+		return p, func() {
+			if ctx.Err() != nil {
+				_ = p.Interrupt()
+				return
+			}
+			_ = p.Finish()
+		}
 	}
 }
 

@@ -6,11 +6,14 @@ import (
 	"fmt"
 	"io"
 	"path/filepath"
+	"strings"
 
 	"github.com/spf13/pflag"
 
 	"spillway/funnel/allocate"
+	"spillway/funnel/data"
 	"spillway/funnel/fitfolder"
+	"spillway/funnel/window"
 	"spillway/plots"
 	htmlreport "spillway/plots/report"
 )
@@ -77,18 +80,34 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err := checkNegligible(o.negligible); err != nil {
 		return err
 	}
+	if o.window != "" {
+		if _, err := window.Parse(o.window); err != nil {
+			return usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
+		}
+	}
 	demo := ""
 	if !o.roles.given() {
 		demo = "demo"
 		fmt.Fprintln(stderr, "spillway run: no --data given: running the built-in demo (Quillmere Bikes, 156 weeks)")
 	}
-	od, err := runFit(ctx, &o.roles, &o.sampling, demo, stdout, stderr)
+	// the review window: its form checked now, its weeks against the data
+	// once loaded, both before any sampling
+	checkWindow := func(ds *data.Dataset) error {
+		if o.window == "" {
+			return nil
+		}
+		if _, err := window.Resolve(o.window, ds.Weeks); err != nil {
+			return usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
+		}
+		return nil
+	}
+	od, err := runFit(ctx, &o.roles, &o.sampling, demo, stdout, stderr, checkWindow)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
 	// the review window of the table, the charts and the report: checked
-	// against the data before the split runs
+	// against the data before the fit (checkWindow)
 	fmt.Fprintln(stdout)
 	s, err := splitFit(ctx, od.fit, o.window, o.negligible)
 	if err != nil {

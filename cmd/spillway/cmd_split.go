@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strings"
 
 	"github.com/spf13/pflag"
 
@@ -155,7 +156,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	}
 	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
 	if err != nil {
-		return nil, usagef("--window: %v", err)
+		return nil, usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
 	}
 	found := false
 	for _, w := range wins {

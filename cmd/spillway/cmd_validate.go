@@ -135,7 +135,7 @@ EXAMPLE
 // runValidate runs a sweep, one shard of it, or a merge.
 func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, args []string, stdout, stderr io.Writer) error {
 	if o.merge {
-		return runMerge(o, fs, args, stdout)
+		return runMerge(o, fs, args, stdout, stderr)
 	}
 	if err := noArgs(args); err != nil {
 		return err
@@ -175,11 +175,12 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0) {
 		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors and --linear")
 	}
-	od, err := newOutDir(o.sampling.out, o.sampling.force)
+	od, err := newOutDir(o.sampling.out, o.sampling.force, append(o.roles.inputs(), o.sampling.priors, o.truth, o.fitDir)...)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
+	dropNote(stderr, od)
 
 	in := validate.Input{Tool: "spillway " + spillwayVersion()}
 	var ds *data.Dataset
@@ -242,7 +243,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 }
 
 // runMerge combines shard folders.
-func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout io.Writer) error {
+func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 {
 		return usagef("--merge needs the shard folders as arguments")
 	}
@@ -258,11 +259,12 @@ func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout io.Wr
 	if len(extra) > 0 {
 		return usagef("--merge takes only shard folders, --out and --force; the shards already fix %s", strings.Join(extra, ", "))
 	}
-	od, err := newOutDir(o.sampling.out, o.sampling.force)
+	od, err := newOutDir(o.sampling.out, o.sampling.force, args...)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
+	dropNote(stderr, od)
 	var parts []*validate.Results
 	for _, dir := range args {
 		r, err := readShard(dir)

@@ -64,8 +64,14 @@ func TestChoicesOptions(t *testing.T) {
 	}
 
 	misfit := file("misfit.csv", "parameter,family,p1,p2\ngamma,beta,2,2\n")
-	if _, err := (Choices{Priors: misfit}).Options(sc); err == nil || !strings.HasPrefix(err.Error(), misfit+": prior for gamma") {
-		t.Errorf("a beta prior on gamma: got %v, want the file and the parameter named", err)
+	if _, err := (Choices{Priors: misfit}).Options(sc); err == nil || !strings.HasPrefix(err.Error(), misfit+":2:2: gamma: beta does not fit") {
+		t.Errorf("a beta prior on gamma: got %v, want the file, line, column and parameter named", err)
+	}
+	// a prior whose support only shows in the compiled stage: the intercept
+	// lies on the real line, so a halfnormal there is located at its family
+	intercept := file("intercept.csv", "parameter,family,p1,p2\nsigma_y,halfnormal,0.5,\nmu_y,halfnormal,0.5,\n")
+	if _, err := (Choices{Priors: intercept}).Options(sc); !errors.As(err, &pe) || pe.Line != 3 || pe.Column != 2 {
+		t.Errorf("a halfnormal prior on an intercept: got %v, want line 3 column 2", err)
 	}
 
 	if _, err := (Choices{Priors: filepath.Join(dir, "missing.csv")}).Options(sc); !errors.Is(err, os.ErrNotExist) {
