@@ -4,7 +4,9 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"time"
+	"unicode/utf8"
 
 	"spillway/funnel/fitfolder"
 )
@@ -13,16 +15,25 @@ import (
 // quantiles, and the mean per unit of the channel's raw spend in the
 // window (NaN for mediated_share, a fraction, and for a window without
 // spend).
-func EffectsTable(r *Result) []fitfolder.Effect {
+//
+// sup, if not nil, gives each effect's support (Supports): the prior's 90%
+// interval, the contraction and the probability of a negligible effect;
+// without it those columns are NaN.
+func EffectsTable(r *Result, sup map[Key]Support) []fitfolder.Effect {
 	var rows []fitfolder.Effect
 	for _, e := range r.Effects {
+		su, ok := sup[Key{e.Channel, e.Path, e.Window}]
+		if !ok {
+			su = Support{math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()}
+		}
 		s := Summarise(e.Draws)
 		pu := math.NaN()
 		if e.Path != "mediated_share" && e.Spend > 0 {
 			pu = s.Mean / e.Spend
 		}
 		rows = append(rows, fitfolder.Effect{Channel: e.Channel, Path: e.Path, Window: e.Window,
-			Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95, PerUnitSpend: pu})
+			Mean: s.Mean, Q05: s.Q05, Q50: s.Q50, Q95: s.Q95, PerUnitSpend: pu,
+			PriorQ05: su.PriorQ05, PriorQ95: su.PriorQ95, Contraction: su.Contraction, PNegligible: su.PNegligible})
 	}
 	return rows
 }
@@ -110,8 +121,6 @@ func RhoGrid() []float64 {
 // the direct, via-search and total effects with 90% intervals and the
 // mediated share; per paid-search channel the borrowed share.
 func Table(w io.Writer, r *Result, window string, unit string) error {
-	fmt.Fprintf(w, "Effect of each upper-funnel channel, window %s (%s; mean and 90%% interval)\n", window, unit)
-	fmt.Fprintf(w, "%-16s %-26s %-26s %-26s %s\n", "channel", "direct", "via search", "total", "share via search")
 	byKey := map[string]Summary{}
 	var chans []string
 	for _, e := range r.Effects {
@@ -126,13 +135,6 @@ func Table(w io.Writer, r *Result, window string, unit string) error {
 	if len(chans) == 0 {
 		return fmt.Errorf("mediation: no effects for window %s", window)
 	}
-	iv := func(s Summary) string { return fmt.Sprintf("%.0f [%.0f, %.0f]", s.Mean, s.Q05, s.Q95) }
-	for _, c := range chans {
-		sh := byKey[c+"/mediated_share"]
-		fmt.Fprintf(w, "%-16s %-26s %-26s %-26s %.0f%% [%.0f%%, %.0f%%]\n", c, iv(byKey[c+"/direct"]), iv(byKey[c+"/via_search"]), iv(byKey[c+"/total"]), 100*sh.Mean, 100*sh.Q05, 100*sh.Q95)
-	}
-	fmt.Fprintf(w, "\nPaid search, window %s (%s)\n", window, unit)
-	fmt.Fprintf(w, "%-16s %-26s %-26s %s\n", "channel", "controlled", "apparent", "borrowed share")
 	bk := map[string]Summary{}
 	var sch []string
 	var whole []fitfolder.Borrowed
@@ -149,9 +151,31 @@ func Table(w io.Writer, r *Result, window string, unit string) error {
 		}
 		bk[e.Channel+"/"+e.Path] = s
 	}
+	// the channel column is as wide as the longest name (at least 16), the
+	// intervals as the widest (at least 26), so long names keep the
+	// columns aligned
+	cw, iw := 16, 26
+	iv := func(s Summary) string { return fmt.Sprintf("%.0f [%.0f, %.0f]", s.Mean, s.Q05, s.Q95) }
+	for _, c := range slices.Concat(chans, sch) {
+		cw = max(cw, utf8.RuneCountInString(c))
+	}
+	for _, s := range byKey {
+		iw = max(iw, len(iv(s)))
+	}
+	for _, s := range bk {
+		iw = max(iw, len(iv(s)))
+	}
+	fmt.Fprintf(w, "Effect of each upper-funnel channel, window %s (%s; mean and 90%% interval)\n", window, unit)
+	fmt.Fprintf(w, "%-*s %-*s %-*s %-*s %s\n", cw, "channel", iw, "direct", iw, "via search", iw, "total", "share via search")
+	for _, c := range chans {
+		sh := byKey[c+"/mediated_share"]
+		fmt.Fprintf(w, "%-*s %-*s %-*s %-*s %.0f%% [%.0f%%, %.0f%%]\n", cw, c, iw, iv(byKey[c+"/direct"]), iw, iv(byKey[c+"/via_search"]), iw, iv(byKey[c+"/total"]), 100*sh.Mean, 100*sh.Q05, 100*sh.Q95)
+	}
+	fmt.Fprintf(w, "\nPaid search, window %s (%s)\n", window, unit)
+	fmt.Fprintf(w, "%-*s %-*s %-*s %s\n", cw, "channel", iw, "controlled", iw, "apparent", "borrowed share")
 	for _, c := range sch {
 		b := bk[c+"/borrowed_share"]
-		fmt.Fprintf(w, "%-16s %-26s %-26s %.0f%% [%.0f%%, %.0f%%]\n", c, iv(bk[c+"/controlled"]), iv(bk[c+"/apparent"]), 100*b.Mean, 100*b.Q05, 100*b.Q95)
+		fmt.Fprintf(w, "%-*s %-*s %-*s %.0f%% [%.0f%%, %.0f%%]\n", cw, c, iw, iv(bk[c+"/controlled"]), iw, iv(bk[c+"/apparent"]), 100*b.Mean, 100*b.Q05, 100*b.Q95)
 	}
 	fmt.Fprintln(w, "borrowed share: per posterior draw, (apparent - controlled) / apparent; its mean and 90% interval.")
 	for _, n := range NaiveCheck(whole) {

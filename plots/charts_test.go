@@ -3,6 +3,7 @@ package plots_test
 import (
 	"bytes"
 	"errors"
+	"fmt"
 	"image"
 	"image/png"
 	"math"
@@ -17,6 +18,7 @@ import (
 	"spillway/funnel/fitfolder/fitfoldertest"
 	"spillway/funnel/stat"
 	"spillway/funnel/window"
+	"spillway/mediation"
 	"spillway/plots"
 )
 
@@ -269,9 +271,29 @@ func TestCurveNumbers(t *testing.T) {
 				}
 			}
 		}
-		cur := find(t, fig, ch, "current").X[0]
+		curS := find(t, fig, ch, "current")
+		cur := curS.X[0]
 		if want := stat.Mean(fx.Columns[ch]); math.Abs(cur-want) > 1e-9*want {
 			t.Errorf("%s current spend: got %v, want mean weekly spend %v", ch, cur, want)
+		}
+		// The operating point: the total curve and its interval at the
+		// current spend, which is a grid point of the fixture's curves.
+		for _, c := range fx.Curves {
+			if c.Channel == ch && c.Path == "total" && math.Abs(c.WeeklySpend-cur) < 1e-9*cur {
+				if math.Abs(curS.Y[0]-c.Mean) > 1e-9*c.Mean || math.Abs(curS.Lo[0]-c.Q05) > 1e-9*c.Mean || math.Abs(curS.Hi[0]-c.Q95) > 1e-9*c.Mean {
+					t.Errorf("%s operating point: got %v [%v, %v], want %v [%v, %v]", ch, curS.Y[0], curS.Lo[0], curS.Hi[0], c.Mean, c.Q05, c.Q95)
+				}
+			}
+		}
+		// The observed range: the least and greatest week with spend.
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for _, v := range fx.Columns[ch] {
+			if v > 0 {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		if obs := find(t, fig, ch, "observed"); math.Abs(obs.X[0]-lo) > 1e-6*hi || math.Abs(obs.X[1]-hi) > 1e-6*hi {
+			t.Errorf("%s observed range: got %v, want [%v, %v]", ch, obs.X, lo, hi)
 		}
 		// The fixture's curves are closed-form saturating curves on a grid
 		// with a point at 1.0× and 1.1× current spend, so the gain from 10%
@@ -324,6 +346,58 @@ func TestWeeklyNumbers(t *testing.T) {
 	if _, ok := fig.Find("search_spend", "direct"); !ok {
 		t.Error("weekly chart has no panel for paid search")
 	}
+	// The caption names the split chart's definition beside the title's:
+	// the window's via-search effect over its 13 weeks.
+	for _, ch := range fitfoldertest.Upper {
+		e := fxEffect(t, fx, ch, "via_search", "2025Q3")
+		want := fmt.Sprintf("%s / 13 = %s a week", plots.Number(e.Mean), plots.About(e.Mean/13))
+		if !strings.Contains(fig.Caption, want) {
+			t.Errorf("caption %q lacks %q", fig.Caption, want)
+		}
+	}
+}
+
+// TestPartialQuarterCharts names 2025Q4, of which the fixture holds 12 of
+// 13 weeks, as partial in the charts' titles and captions.
+func TestPartialQuarterCharts(t *testing.T) {
+	_, f := load(t, false)
+	for _, name := range []string{"split", "weekly"} {
+		fig := build(t, f, "2025Q4", name)
+		if !strings.Contains(fig.Title, "2025Q4 (partial: 12 of 13 weeks)") {
+			t.Errorf("%s title %q does not say 2025Q4 is partial", name, fig.Title)
+		}
+		if !strings.Contains(fig.Caption, "carryover past it is not counted") {
+			t.Errorf("%s caption %q does not say the carryover is cut", name, fig.Caption)
+		}
+	}
+	if fig := build(t, f, "2025Q3", "split"); strings.Contains(fig.Title+fig.Caption, "partial") {
+		t.Errorf("2025Q3 is a full quarter: %q", fig.Title)
+	}
+}
+
+// TestLabels draws the charts with display names and a currency and
+// finds them in the titles and on the spend axis.
+func TestLabels(t *testing.T) {
+	_, loaded := load(t, false)
+	f := *loaded
+	f.Run.Labels = fitfolder.Labels{Channels: map[string]string{"video_spend": "Online video"}, Outcome: "orders", Currency: "EUR"}
+	fig := build(t, &f, "", "split")
+	if !strings.Contains(fig.Title, "Online video's effect") || !strings.Contains(fig.Caption, "incremental orders") {
+		t.Errorf("split: title %q, caption %q", fig.Title, fig.Caption)
+	}
+	fig = build(t, &f, "", "curves")
+	if !strings.Contains(fig.Title, "through Online video") {
+		t.Errorf("curves title %q", fig.Title)
+	}
+	figs, err := plots.Build(&f, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, fg := range figs {
+		if strings.Contains(fg.Title+fg.Caption, "conversions") {
+			t.Errorf("%s still says conversions: %q", fg.Name, fg.Title)
+		}
+	}
 }
 
 func TestFitNumbers(t *testing.T) {
@@ -372,6 +446,23 @@ func TestSensitivityNumbers(t *testing.T) {
 	}
 	if !strings.Contains(fig.Title, "rho = 0.45") || !strings.Contains(fig.Title, "audio's stays above zero") {
 		t.Errorf("title %q", fig.Title)
+	}
+	// The benchmark: the error correlation that leaving out price would
+	// cause, from the posterior means in summary.csv.
+	mean := func(name string) float64 {
+		for _, st := range f.Stages {
+			for _, p := range st.Params {
+				if p.Name == name && st.Name != "naive" {
+					return p.Mean
+				}
+			}
+		}
+		t.Fatalf("no %s", name)
+		return 0
+	}
+	want := mediation.OmittedControlRho(mean("phi_q[price]"), mean("phi_y[price]"), mean("sigma_q"), mean("sigma_y"), 1)
+	if b, ok := fig.Find("video_spend", "benchmark/price"); want >= -0.95 && want <= 0.95 && (!ok || b.X[0] != want) {
+		t.Errorf("price benchmark: got %v, want %v", b.X, want)
 	}
 }
 

@@ -35,7 +35,8 @@ type review struct {
 	f       *fitfolder.Fit
 	w       window.Window
 	whole   window.Window
-	outcome string // plain name of the outcome ("conversions")
+	outcome string // display name of the outcome ("conversions")
+	lab     Labels
 }
 
 func newReview(f *fitfolder.Fit, window string) (*review, error) {
@@ -43,7 +44,8 @@ func newReview(f *fitfolder.Fit, window string) (*review, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &review{f: f, w: w, whole: f.Whole(), outcome: Plain(f.Run.Spec.Outcome)}, nil
+	lab := LabelsOf(f)
+	return &review{f: f, w: w, whole: f.Whole(), outcome: lab.Outcome(), lab: lab}, nil
 }
 
 // Build returns every chart of Names for the window (see fitfolder.Fit.Window:
@@ -126,6 +128,10 @@ func (r *review) windowCaption() string {
 	if r.w.Kind == window.WholePeriod {
 		return "Whole period: " + r.weeksText(r.whole) + "."
 	}
+	if p := Partial(r.f, r.w); p != "" {
+		return fmt.Sprintf("%s: %s (%s; the data's last week starts %s, so carryover past it is not counted). Whole period: %s.",
+			r.w.Name, r.weeksText(r.w), p, window.Day(r.whole.End), r.weeksText(r.whole))
+	}
 	return fmt.Sprintf("%s: %s. Whole period: %s.", r.w.Name, r.weeksText(r.w), r.weeksText(r.whole))
 }
 
@@ -141,24 +147,45 @@ func windowPhrase(w window.Window) string {
 	return "Over the whole period"
 }
 
-// panelTitle names a window for a panel: "2025Q3 (Jul–Sep 2025)" or
-// "Whole period (Jan 2023 – Dec 2025)".
+// panelTitle names a window for a panel: "2025Q3 (Jul–Sep 2025)",
+// "2025Q4 (Oct–Dec 2025), partial: 12 of 13 weeks" or "Whole period
+// (Jan 2023 – Dec 2025)".
 func (r *review) panelTitle(w window.Window) string {
 	if w.Kind == window.WholePeriod {
 		return fmt.Sprintf("Whole period (%s – %s)", r.whole.Start.Format("Jan 2006"), r.whole.End.Format("Jan 2006"))
 	}
+	if p := Partial(r.f, w); p != "" {
+		return w.Label() + ", " + p
+	}
 	return w.Label()
 }
 
-func (r *review) uppers() []string { return r.f.Run.Spec.Upper }
-
-func channelNames(cols []string) []string {
-	out := make([]string, len(cols))
-	for i, c := range cols {
-		out[i] = Channel(c)
+// Partial describes a quarter the data cover only in part, "partial: 12 of
+// 13 weeks", and is empty for a quarter covered in full and for any other
+// window. Effects of such a quarter sum fewer weeks than a full one, and
+// the carryover of its spend is cut where the data end, so titles and text
+// name it.
+func Partial(f *fitfolder.Fit, w window.Window) string {
+	if w.Kind != window.Quarter {
+		return ""
 	}
-	return out
+	have, full := w.Coverage(f.Data.Weeks)
+	if have == full {
+		return ""
+	}
+	return fmt.Sprintf("partial: %d of %d weeks", have, full)
 }
+
+// reviewPhrase opens a sentence about the window under review, naming a
+// partial quarter: "In 2025Q4 (partial: 12 of 13 weeks)".
+func (r *review) reviewPhrase() string {
+	if p := Partial(r.f, r.w); p != "" {
+		return windowPhrase(r.w) + " (" + p + ")"
+	}
+	return windowPhrase(r.w)
+}
+
+func (r *review) uppers() []string { return r.f.Run.Spec.Upper }
 
 func (r *review) effect(ch, path string, w window.Window) (fitfolder.Effect, error) {
 	e, ok := r.f.Effect(ch, path, w.Name)
@@ -215,4 +242,14 @@ func (b blankTicks) Ticks(lo, hi float64) []plot.Tick {
 		ts[i].Label = ""
 	}
 	return ts
+}
+
+// channelNames returns the plain names of cols made from the column names
+// alone (see Labels.Channels for the display names).
+func channelNames(cols []string) []string {
+	out := make([]string, len(cols))
+	for i, c := range cols {
+		out[i] = Channel(c)
+	}
+	return out
 }

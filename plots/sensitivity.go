@@ -27,6 +27,12 @@ func (r *review) sensitivity() (*Figure, error) {
 			"of branded queries and " + r.outcome + "); rho = 0 is the main result. Whole period: " + r.weeksText(r.whole) +
 			". Line: posterior mean; band: 90% credible interval.",
 	}
+	benches := ControlBenchmarks(r.f)
+	if len(benches) > 0 {
+		fig.Legend = append(fig.Legend, LegendItem{"rho that leaving out an observed control would cause", Muted, SwatchDash, nil})
+		fig.Caption += " Dotted lines: the error correlation that leaving an observed control out of both stages would cause " +
+			"(at the posterior means), a yardstick for how strong an unmeasured common cause would have to be."
+	}
 	var panels []*plot.Plot
 	var crossing, steady [][2]string // channel and rho, channel and behaviour
 	for _, ch := range r.uppers() {
@@ -49,7 +55,7 @@ func (r *review) sensitivity() (*Figure, error) {
 			allNeg = allNeg && x.Mean < 0
 		}
 		fig.add(s)
-		p := newPanel(Capital(Channel(ch)))
+		p := newPanel(Capital(r.lab.Channel(ch)))
 		p.X.Label.Text = "error correlation (rho)"
 		p.Y.Label.Text = "via-search " + r.outcome
 		p.X.Tick.Marker = marks.NumberTicks{}
@@ -71,7 +77,7 @@ func (r *review) sensitivity() (*Figure, error) {
 				ls.XAlign, dx = text.XLeft, vg.Points(8)
 			}
 			p.Add(marks.Label{X: be, Top: true, DX: dx, DY: -vg.Points(8), Text: "zero at rho = " + trimRho(be), Style: ls, Halo: true})
-			crossing = append(crossing, [2]string{Channel(ch), trimRho(be)})
+			crossing = append(crossing, [2]string{r.lab.Channel(ch), trimRho(be)})
 		} else {
 			word := "changes sign"
 			switch {
@@ -80,14 +86,35 @@ func (r *review) sensitivity() (*Figure, error) {
 			case allNeg:
 				word = "stays below zero"
 			}
-			steady = append(steady, [2]string{Channel(ch), word})
+			steady = append(steady, [2]string{r.lab.Channel(ch), word})
 		}
 		p.X.Min, p.X.Max = -0.95, 0.95
 		lo, hi := 0.0, 0.0
 		for i := range s.X {
 			lo, hi = math.Min(lo, s.Lo[i]), math.Max(hi, s.Hi[i])
 		}
+		// round the range out to whole tick steps, so both ends of the
+		// axis, the negative side included, carry a labelled tick
+		step := marks.NiceStep((hi - lo) / 5)
+		lo, hi = math.Floor(lo/step)*step, math.Ceil(hi/step)*step
 		p.Y.Min, p.Y.Max = lo, hi+(hi-lo)*0.12
+		for _, b := range benches {
+			if b.Rho < -0.95 || b.Rho > 0.95 {
+				continue
+			}
+			fig.add(Series{Panel: ch, Name: "benchmark/" + b.Control, X: []float64{b.Rho}})
+			p.Add(marks.Rule{At: b.Rho, Vertical: true, Style: draw.LineStyle{Color: Muted, Width: vg.Points(2),
+				Dashes: []vg.Length{vg.Points(2), vg.Points(4)}}})
+			// at the foot of the line, on the side nearer rho = 0, where
+			// the curve is far from the bottom of the panel
+			bs := marks.TextStyle(sizeLabel, Muted, false)
+			bs.XAlign, bs.YAlign = text.XRight, text.YBottom
+			dx := -vg.Points(6)
+			if b.Rho < 0 {
+				bs.XAlign, dx = text.XLeft, vg.Points(6)
+			}
+			p.Add(marks.Label{X: b.Rho, Y: lo, DX: dx, DY: vg.Points(6), Text: "without " + Plain(b.Control) + ": " + trimRho(b.Rho), Style: bs, Halo: true})
+		}
 		panels = append(panels, p)
 	}
 	fig.grid(1, len(panels), panels...)

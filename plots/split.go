@@ -3,6 +3,7 @@ package plots
 import (
 	"fmt"
 	"math"
+	"strings"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/text"
@@ -14,8 +15,6 @@ import (
 	"spillway/plots/marks"
 )
 
-var intervalCaption = "Bars and lines are posterior means; whiskers and bands are 90% credible intervals."
-
 // split: per upper channel, direct and via-search as stacked bars, for the
 // window and the whole period.
 func (r *review) split() (*Figure, error) {
@@ -23,9 +22,11 @@ func (r *review) split() (*Figure, error) {
 		Legend: []LegendItem{
 			{"direct", Direct, SwatchBox, nil},
 			{"via branded search", ViaSearch, SwatchBox, nil},
-			{"90% interval of each part (in the bar) and of the total (beside it)", Ink, SwatchWhisker, nil},
+			{"90% interval of the total", Ink, SwatchWhisker, nil},
 		},
-		Caption: r.windowCaption() + " " + intervalCaption + " Percentages: share of the total that runs through branded search.",
+		Caption: r.windowCaption() + " Each bar is the channel's total incremental " + r.outcome + " (posterior mean), split into its direct and " +
+			"via-search parts; the whisker is the 90% credible interval of the total. On the via-search part: the share of the total " +
+			"that runs through branded search, with its 90% interval. Effect of the window's spend, carryover after the window included.",
 	}
 	windows := []window.Window{r.w}
 	if r.w.Kind != window.WholePeriod {
@@ -35,7 +36,7 @@ func (r *review) split() (*Figure, error) {
 	for _, w := range windows {
 		p := newPanel(r.panelTitle(w))
 		p.Y.Label.Text = "incremental " + r.outcome
-		p.X.Tick.Marker = marks.CategoryTicks(channelNames(r.uppers()))
+		p.X.Tick.Marker = marks.CategoryTicks(r.lab.Channels(r.uppers()))
 		p.X.Tick.Label = marks.TextStyle(sizeAxis, Ink, true)
 		p.X.Tick.Label.XAlign = text.XCenter
 		p.X.Tick.Label.YAlign = text.YTop
@@ -60,26 +61,24 @@ func (r *review) split() (*Figure, error) {
 			const hw = 0.3
 			p.Add(marks.Rect{X0: x - hw, X1: x + hw, Y0: 0, Y1: d.Mean, Fill: Direct})
 			p.Add(marks.Rect{X0: x - hw, X1: x + hw, Y0: d.Mean, Y1: d.Mean + v.Mean, Fill: ViaSearch})
-			thin := draw.LineStyle{Color: Ink, Width: vg.Points(2.2)}
-			if finite(d.Q05, d.Q95) {
-				p.Add(marks.Whisker{At: x - 0.19, Lo: d.Q05, Hi: d.Q95, Style: thin, Cap: vg.Points(12)})
-			}
-			if finite(v.Q05, v.Q95) {
-				p.Add(marks.Whisker{At: x + 0.19, Lo: d.Mean + v.Q05, Hi: d.Mean + v.Q95, Style: thin, Cap: vg.Points(12)})
-			}
+			// one interval per bar: the total's, beside it
 			if finite(t.Q05, t.Q95) {
-				p.Add(marks.Whisker{At: x + hw + 0.1, Lo: t.Q05, Hi: t.Q95,
-					Style: draw.LineStyle{Color: Ink, Width: vg.Points(3.5)}, Cap: vg.Points(16)})
+				p.Add(marks.Whisker{At: x + hw + 0.08, Lo: t.Q05, Hi: t.Q95,
+					Style: draw.LineStyle{Color: Ink, Width: vg.Points(3)}, Cap: vg.Points(16)})
 			}
-			p.Add(marks.Rect{X0: x + hw + 0.06, X1: x + hw + 0.14, Y0: t.Mean, Y1: t.Mean, Edge: draw.LineStyle{Color: Ink, Width: vg.Points(3.5)}})
-			// Share on the via-search segment, total above the bar.
-			ls := marks.TextStyle(sizeLabel+1, Ink, true)
+			// The share via search with its interval on the via-search
+			// segment, the total above the bar.
+			ls := marks.TextStyle(sizeLabel, Ink, true)
 			ls.XAlign, ls.YAlign = text.XCenter, text.YCenter
-			p.Add(marks.Label{X: x, Y: d.Mean + v.Mean/2, Text: Percent(s.Mean), Style: ls, Halo: true})
+			share := Percent(s.Mean)
+			if finite(s.Q05, s.Q95) {
+				share += " (" + strings.TrimSuffix(Percent(s.Q05), "%") + "–" + Percent(s.Q95) + ")"
+			}
+			p.Add(marks.Label{X: x + 0, Y: d.Mean + v.Mean/2, Text: share, Style: ls, Halo: true})
 			ts := marks.TextStyle(sizeLabel, Ink, false)
 			ts.XAlign, ts.YAlign = text.XCenter, text.YBottom
-			hi := math.Max(nz(t.Q95), d.Mean+nz(v.Q95))
-			p.Add(marks.Label{X: x + 0.1, Y: hi, DY: vg.Points(6), Text: "total " + Number(t.Mean), Style: ts})
+			hi := math.Max(nz(t.Q95), d.Mean+v.Mean)
+			p.Add(marks.Label{X: x + 0.08, Y: hi, DY: vg.Points(6), Text: "total " + Number(t.Mean), Style: ts})
 			top = math.Max(top, hi)
 		}
 		p.X.Min, p.X.Max = -0.6, float64(len(r.uppers()))-0.4
@@ -94,11 +93,11 @@ func (r *review) split() (*Figure, error) {
 	for i, ch := range r.uppers() {
 		s, _ := r.f.Effect(ch, fitfolder.PathMediatedShare, r.w.Name)
 		if i == 0 {
-			parts = append(parts, fmt.Sprintf("%s of %s's effect", Percent(s.Mean), Channel(ch)))
+			parts = append(parts, fmt.Sprintf("%s of %s's effect", Percent(s.Mean), r.lab.Channel(ch)))
 		} else {
-			parts = append(parts, fmt.Sprintf("%s of %s's", Percent(s.Mean), Channel(ch)))
+			parts = append(parts, fmt.Sprintf("%s of %s's", Percent(s.Mean), r.lab.Channel(ch)))
 		}
 	}
-	fig.Title = fmt.Sprintf("%s, %s ran through branded search", windowPhrase(r.w), List(parts))
+	fig.Title = fmt.Sprintf("%s, %s ran through branded search", r.reviewPhrase(), List(parts))
 	return fig, nil
 }

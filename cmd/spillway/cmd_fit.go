@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"strings"
 
@@ -33,6 +34,7 @@ type samplingFlags struct {
 	lifts                 string
 	quiet                 bool
 	targetAccept          float64
+	labels                labelFlags // fit and run only
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
@@ -40,6 +42,7 @@ func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
 	fs.Float64Var(&s.targetAccept, "target-accept", pipeline.DefaultTargetAccept, "the acceptance rate the step size adapts to during warm-up; raise it (0.95) if the verdict reports divergent transitions")
 	fs.StringVar(&s.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data: channel,start,end,estimate,se[,metric,region]")
+	s.labels.addFlags(fs)
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -52,7 +55,7 @@ type samplingDefaults struct {
 
 func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.StringVar(&s.out, "out", "", "the output `FOLDER` (written atomically; must not exist unless --force)")
-	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists")
+	fs.BoolVar(&s.force, "force", false, "replace the output folder if it exists and spillway wrote it (never one holding an input or files spillway did not write)")
 	fs.Uint64Var(&s.seed, "seed", 1, d.seedHelp)
 	fs.IntVar(&s.chains, "chains", d.chains, "number of "+d.chainsWhat+", run in parallel")
 	fs.IntVar(&s.warmup, "warmup", d.warmup, "warm-up "+d.iterWhat)
@@ -125,7 +128,11 @@ upper funnel directly) and naive (the outcome stage without queries, a
 cross-check for paid search). It writes FOLDER/spec.json, FOLDER/data.csv, and
 for each stage FOLDER/STAGE/draws.csv, summary.csv and stats.json, and
 FOLDER/verdict.txt: whether the fit deserves trust (R-hat <= 1.01, bulk and
-tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not.
+tail ESS >= 400, no divergent transitions, E-BFMI >= 0.3) and why not, and
+whether the data support the media effects at all: the outcome stage must
+predict left-out weeks better than the same stage without any media term
+(PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
+adds which effects the data cannot tell from zero or from the prior.
 Regional data are fitted as their national sum.
 
 With --drift, the named channels' effectiveness may change over time: each
@@ -178,14 +185,17 @@ type fitRun struct {
 
 // runFit fits and writes the fit folder into a temporary output folder.
 // With demo set, the data are that built-in scenario and roles are ignored.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer) (_ *fitRun, err error) {
+// Each of checks is run on the loaded data before any sampling (run checks
+// its --window there), so that a mistake costs no fit.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer, checks ...func(*data.Dataset) error) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
 		return nil, err
 	}
-	out, err := newOutDir(opts.out, opts.force)
+	out, err := newOutDir(opts.out, opts.force, append(roles.inputs(), opts.priors)...)
 	if err != nil {
 		return nil, err
 	}
+	dropNote(stderr, out)
 	defer func() {
 		if err != nil {
 			out.Abort()
@@ -200,11 +210,20 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	} else if ds, err = roles.load(); err != nil {
 		return nil, err
 	}
+	for _, check := range checks {
+		if err := check(ds); err != nil {
+			return nil, err
+		}
+	}
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
 	}
 	if len(ds.Regions) > 1 {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
+	}
+	labels, err := opts.labels.resolve(ds.Spec)
+	if err != nil {
+		return nil, err
 	}
 	sc := model.Scale(ds.National(), ds.Spec)
 	o, err := modelOptions(sc, opts)
@@ -227,23 +246,28 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion()}
+		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels}
 	verb := "fit"
 	if demo != "" {
 		verb = "run"
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	fitted, err := pipeline.FitLifts(ctx, sc, o, tests, set, progressHook(opts, stderr))
+	fitted, err := pipeline.FitLifts(ctx, sc, o, tests, set, progressHook(ctx, opts, stderr))
 	if err != nil {
 		return nil, err
 	}
 	f, reps := newFit(*fs, ds, priorBytes, fitted)
+	sup, err := pipeline.CheckSupport(ctx, fitted, o, set)
+	if err != nil {
+		return nil, err
+	}
+	addSupport(&f.Verdict, sup)
 	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
 	}
-	checks, err := driftFiles(files, fitted, liftBytes)
+	liftChecks, err := driftFiles(files, fitted, liftBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -252,8 +276,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			return nil, err
 		}
 	}
-	printFitSummary(stdout, reps, fitted)
-	printLiftChecks(stdout, checks)
+	printFitSummary(stdout, reps, fitted, sup)
+	printLiftChecks(stdout, liftChecks)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
@@ -262,7 +286,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 
 // progressHook returns the per-stage progress display: a bar when stderr
 // is a terminal, a plain line every few seconds otherwise, none with --quiet.
-func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
+// A stage stopped by ctx (Ctrl-C) ends its display with "interrupted".
+func progressHook(ctx context.Context, opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 	if opts.quiet {
 		return nil
 	}
@@ -272,36 +297,38 @@ func progressHook(opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
 	}
 	return func(stage string) (mcmc.Recorder, func()) {
 		p := progress.New(progress.Options{Writer: stderr, Terminal: tty, Label: stage, Chains: opts.chains, Iterations: opts.warmup + opts.draws})
-		return p, func() { _ = p.Finish() }
+		return p, func() {
+			if ctx.Err() != nil {
+				_ = p.Interrupt()
+				return
+			}
+			_ = p.Finish()
+		}
 	}
 }
 
 // printFitSummary prints one line per stage and the verdict.
-func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
+func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted, sup *pipeline.Support) {
 	for k, r := range reps {
-		maxR, minB, minT := 0.0, 1e300, 1e300
-		for _, s := range r.summary {
-			if s.Constant() {
-				continue
-			}
-			maxR = max(maxR, s.Rhat)
-			minB = min(minB, s.ESSBulk)
-			minT = min(minT, s.ESSTail)
-		}
+		maxR, minB, minT := mcmc.Worst(r.summary)
 		div, leap := 0, 0.0
 		for _, c := range f.Fits[k].Chains {
 			div += c.Stats.Divergences
 			leap += c.Stats.MeanLeapfrogs / float64(len(f.Fits[k].Chains))
 		}
-		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %.3f, min bulk ESS %.0f, min tail ESS %.0f, %d divergences, %.0f leapfrog steps per draw\n",
-			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], maxR, minB, minT, div, leap)
+		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %s, min bulk ESS %s, min tail ESS %s, %d divergences, %.0f leapfrog steps per draw\n",
+			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], diagText(maxR, "%.3f"), diagText(minB, "%.0f"), diagText(minT, "%.0f"), div, leap)
 	}
 	ok := true
 	for _, r := range reps {
 		ok = ok && r.verdict.Trustworthy
 	}
-	if ok {
+	if ok && sup.Supported() {
 		fmt.Fprintln(w, "verdict: trustworthy (R-hat <= 1.01, ESS >= 400, no divergences, E-BFMI >= 0.3 in every stage)")
+		fmt.Fprintf(w, "support: %s\n", sup.Text())
+		if n := sup.Note(); n != "" {
+			fmt.Fprintf(w, "support: note: %s\n", n)
+		}
 		return
 	}
 	fmt.Fprintln(w, "verdict: NOT TRUSTWORTHY; do not use these numbers before fixing:")
@@ -310,4 +337,35 @@ func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted) {
 			fmt.Fprintf(w, "  %s: %s\n", r.name, why)
 		}
 	}
+	if sup.Supported() {
+		fmt.Fprintf(w, "support: %s\n", sup.Text())
+	} else {
+		fmt.Fprintf(w, "  support: %s\n", sup.Text())
+	}
+	if n := sup.Note(); n != "" {
+		fmt.Fprintf(w, "support: note: %s\n", n)
+	}
+}
+
+// addSupport adds the support check to the fit's verdict: media effects
+// the data do not support make the fit not trustworthy, whatever the
+// sampler's diagnostics say.
+func addSupport(v *fitfolder.Verdict, sup *pipeline.Support) {
+	if sup.Supported() {
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + sup.Text()})
+	} else {
+		v.Trustworthy = false
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: sup.Text()})
+	}
+	if n := sup.Note(); n != "" {
+		v.Reasons = append(v.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + n})
+	}
+}
+
+// diagText formats a convergence diagnostic, or "not computable" for NaN.
+func diagText(v float64, format string) string {
+	if math.IsNaN(v) {
+		return "not computable"
+	}
+	return fmt.Sprintf(format, v)
 }

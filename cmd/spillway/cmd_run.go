@@ -6,24 +6,33 @@ import (
 	"fmt"
 	"io"
 	"path/filepath"
+	"strings"
 
 	"github.com/spf13/pflag"
 
+	"spillway/funnel/allocate"
+	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/window"
 	"spillway/plots"
 	htmlreport "spillway/plots/report"
 )
 
 // runOptions are the flags of spillway run.
 type runOptions struct {
-	roles    roleFlags
-	sampling samplingFlags
-	window   string
+	roles      roleFlags
+	sampling   samplingFlags
+	window     string
+	negligible float64
+	allocate   bool
 }
 
 func (o *runOptions) addFlags(fs *pflag.FlagSet) {
 	o.roles.addFlags(fs)
 	o.sampling.addFlags(fs)
 	fs.StringVar(&o.window, "window", "", "the review `WINDOW` for the table, charts and report: all, a quarter (2025Q2) or FROM:TO; default: the last full quarter")
+	addNegligibleFlag(fs, &o.negligible)
+	fs.BoolVar(&o.allocate, "allocate", false, "also plan the budget of the 13 weeks after the data (spillway allocate with its defaults) into the folder and the report")
 }
 
 // newRunCommand builds spillway run.
@@ -42,7 +51,10 @@ the charts and writes the review report, all into FOLDER (written atomically:
 an interrupted run leaves nothing behind). It prints where the report is.
 Without --data (and the other role flags) it runs the built-in demo:
 Quillmere Bikes, an invented brand, 156 weeks of video, audio and paid search.
-The steps are also commands of their own: fit, split, chart and report.
+The steps are also commands of their own: fit, split, chart and report. With
+--allocate it also plans the budget of the weeks after the data (see
+'spillway help allocate'; a plan rests on the model's assumptions: confirm
+large moves with a controlled experiment).
 
 EXAMPLE
   spillway run --out demo-out
@@ -65,23 +77,39 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err := noArgs(args); err != nil {
 		return err
 	}
+	if err := checkNegligible(o.negligible); err != nil {
+		return err
+	}
+	if o.window != "" {
+		if _, err := window.Parse(o.window); err != nil {
+			return usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
+		}
+	}
 	demo := ""
 	if !o.roles.given() {
 		demo = "demo"
 		fmt.Fprintln(stderr, "spillway run: no --data given: running the built-in demo (Quillmere Bikes, 156 weeks)")
 	}
-	od, err := runFit(ctx, &o.roles, &o.sampling, demo, stdout, stderr)
+	// the review window: its form checked now, its weeks against the data
+	// once loaded, both before any sampling
+	checkWindow := func(ds *data.Dataset) error {
+		if o.window == "" {
+			return nil
+		}
+		if _, err := window.Resolve(o.window, ds.Weeks); err != nil {
+			return usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
+		}
+		return nil
+	}
+	od, err := runFit(ctx, &o.roles, &o.sampling, demo, stdout, stderr, checkWindow)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
-	// the review window: checked against the data before the split runs
-	tableWindow := o.window
-	if tableWindow == "" {
-		tableWindow = "all"
-	}
+	// the review window of the table, the charts and the report: checked
+	// against the data before the fit (checkWindow)
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, od.fit, tableWindow)
+	s, err := splitFit(ctx, od.fit, o.window, o.negligible)
 	if err != nil {
 		return err
 	}
@@ -89,6 +117,8 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err != nil {
 		return err
 	}
+	od.fit.Verdict = s.withNotes(od.fit.Verdict)
+	files["verdict.txt"] = []byte(od.fit.Verdict.Text())
 	if err := ctx.Err(); err != nil {
 		return err
 	}
@@ -103,7 +133,23 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	f := od.fit.Fit
 	f.Split = s.Split
 	f.Dir = od.Final()
-	w, err := f.Window(o.window)
+	if o.allocate {
+		fmt.Fprintln(stdout)
+		pf := planFlags{weeks: allocate.DefaultWeeks, pattern: "last"}
+		files, err := planFiles(ctx, od.fit, &pf, "spillway allocate --fit "+shellQuote(od.Final()), stdout, stderr)
+		if err != nil {
+			return err
+		}
+		for name, b := range files {
+			if err := od.WriteFile(name, b); err != nil {
+				return err
+			}
+		}
+		if f.Plan, err = fitfolder.ReadPlan(od.Path()); err != nil {
+			return err
+		}
+	}
+	w, err := f.Window(s.asked.Name)
 	if err != nil {
 		return usagef("--window: %v", err)
 	}

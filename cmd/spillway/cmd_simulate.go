@@ -29,7 +29,7 @@ func (o *simulateOptions) addFlags(fs *pflag.FlagSet) {
 	fs.IntVar(&o.weeks, "weeks", 0, "number of weeks (0: the scenario's own, 156)")
 	fs.IntVar(&o.regions, "regions", 0, "number of regions (0: the scenario's own; demo-regions has 24)")
 	fs.StringVar(&o.out, "out", "", "the output `FOLDER` for data.csv and truth.json")
-	fs.BoolVar(&o.force, "force", false, "replace the output folder if it exists")
+	fs.BoolVar(&o.force, "force", false, "replace the output folder if it exists and spillway wrote it (never one holding an input or files spillway did not write)")
 }
 
 // newSimulateCommand builds spillway simulate.
@@ -61,13 +61,13 @@ EXAMPLE
 ` + exitStatusHelp,
 		flags: fs,
 		run: func(ctx context.Context, args []string, stdout, stderr io.Writer) error {
-			return runSimulate(ctx, &opts, args, stdout)
+			return runSimulate(ctx, &opts, args, stdout, stderr)
 		},
 	}
 }
 
 // runSimulate writes a scenario's data.csv and truth.json.
-func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout io.Writer) error {
+func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout, stderr io.Writer) error {
 	if err := noArgs(args); err != nil {
 		return err
 	}
@@ -82,6 +82,7 @@ func runSimulate(_ context.Context, o *simulateOptions, args []string, stdout io
 		return err
 	}
 	defer od.Abort()
+	dropNote(stderr, od)
 	sc, err := scenario.Named(o.scenario, o.seed, o.weeks, o.regions)
 	if err != nil {
 		return usagef("%v", err)

@@ -2,13 +2,16 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"io"
 	"math"
+	"strings"
 
 	"github.com/spf13/pflag"
 
 	"spillway/funnel/fitfolder"
+	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
 	"spillway/funnel/window"
 	"spillway/mediation"
@@ -17,11 +20,27 @@ import (
 // splitOptions are the flags of spillway split.
 type splitOptions struct {
 	fit, window string
+	negligible  float64
 }
 
 func (o *splitOptions) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&o.fit, "fit", "", "the fit `FOLDER` written by 'spillway fit'")
-	fs.StringVar(&o.window, "window", "all", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31)")
+	fs.StringVar(&o.window, "window", "", "the `WINDOW` for the table: all, a quarter (2024Q3) or FROM:TO (2024-01-01:2024-03-31); "+
+		"default: the last full quarter, as for chart and report")
+	addNegligibleFlag(fs, &o.negligible)
+}
+
+// addNegligibleFlag adds --negligible, the fraction under which an effect
+// counts as negligible.
+func addNegligibleFlag(fs *pflag.FlagSet, f *float64) {
+	fs.Float64Var(f, "negligible", mediation.DefaultNegligible, "the `FRACTION` under which a path counts as negligible: a via-search or direct path under this share of the channel's total, a total under this share of the outcome")
+}
+
+func checkNegligible(f float64) error {
+	if !(f > 0 && f < 1) {
+		return usagef("--negligible %g: expected a fraction between 0 and 1", f)
+	}
+	return nil
 }
 
 // newSplitCommand builds spillway split.
@@ -37,8 +56,12 @@ func newSplitCommand() *command {
 channel's spend to zero in a window (carryover into later weeks included) to
 find its effect through branded search (via_search) and directly (direct).
 It writes into the fit folder:
-  effects.csv       channel,path,window,mean,q05,q50,q95,per_unit_spend
-                    (window all and every calendar quarter; also WINDOW)
+  effects.csv       channel,path,window,mean,q05,q50,q95,per_unit_spend,
+                    prior_q05,prior_q95,contraction,p_negligible
+                    (window all and every calendar quarter; also WINDOW):
+                    the prior's 90% interval of the same effect, how much
+                    narrower the posterior's is (contraction), and the
+                    probability that the effect is negligible (--negligible)
   effect_draws.csv  the same effects per draw, for paired comparisons
   borrowed.csv      paid search: controlled, apparent, naive, borrowed_share
   weekly.csv        weekly via-search and direct contributions
@@ -47,6 +70,9 @@ It writes into the fit folder:
                     at which it reaches zero
   fitted.csv        actual against fitted, both stages, 90% predictive band
   curves.csv        response curves per upper channel
+  returns.csv       return on spend and cost per incremental outcome per
+                    channel and window, and the marginal return at the
+                    current weekly spend, with 90% intervals
 and prints the table for WINDOW.
 
 EXAMPLE
@@ -61,19 +87,22 @@ EXAMPLE
 			if opts.fit == "" {
 				return usagef("no fit folder: name it with --fit FOLDER")
 			}
-			return runSplit(ctx, opts.fit, opts.window, stdout, true)
+			if err := checkNegligible(opts.negligible); err != nil {
+				return err
+			}
+			return runSplit(ctx, opts.fit, opts.window, opts.negligible, stdout, true)
 		},
 	}
 }
 
 // runSplit computes the effects of a fit folder and adds the split's files
 // to it atomically; say reports the folder on stdout.
-func runSplit(ctx context.Context, dir, windowName string, stdout io.Writer, say bool) error {
+func runSplit(ctx context.Context, dir, windowName string, negligible float64, stdout io.Writer, say bool) error {
 	ff, err := readFitFolder(dir)
 	if err != nil {
 		return err
 	}
-	s, err := splitFit(ctx, ff, windowName)
+	s, err := splitFit(ctx, ff, windowName, negligible)
 	if err != nil {
 		return err
 	}
@@ -81,6 +110,11 @@ func runSplit(ctx context.Context, dir, windowName string, stdout io.Writer, say
 	if err != nil {
 		return err
 	}
+	v, err := fitfolder.ReadVerdict(dir)
+	if err != nil {
+		return badData(err)
+	}
+	files["verdict.txt"] = []byte(s.withNotes(v).Text())
 	if ctx.Err() != nil {
 		return ctx.Err()
 	}
@@ -104,15 +138,25 @@ type splitResult struct {
 	sens  []mediation.Sensitivity
 	asked window.Window
 	unit  string
+	// notes are the effects the data do not carry (mediation.SupportNotes)
+	notes []string
 }
 
 // splitFit computes the effects of ff for every quarter, the whole period
-// and the window named.
-func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResult, error) {
+// and the window named; an empty name means the review's default window,
+// the last quarter the data cover in full (all when there is none), the
+// one chart and report choose by default.
+func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible float64) (*splitResult, error) {
 	wins := window.Quarters(ff.scaled.Weeks)
+	if windowName == "" {
+		windowName = "all"
+		if q, ok := window.LastFullQuarter(ff.scaled.Weeks); ok {
+			windowName = q.Name
+		}
+	}
 	asked, err := window.Resolve(windowName, ff.scaled.Weeks)
 	if err != nil {
-		return nil, usagef("--window %v", err)
+		return nil, usagef("--window: %v", strings.TrimPrefix(err.Error(), "window "))
 	}
 	found := false
 	for _, w := range wins {
@@ -125,6 +169,23 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResu
 	res, err := mediation.Split(in, wins)
 	if err != nil {
 		return nil, err
+	}
+	// the same effects under the priors: how much the data moved each one
+	var sup map[mediation.Key]mediation.Support
+	var notes []string
+	priorIn, err := mediation.PriorInputs(in, mediation.PriorDraws, ff.Run.Seed)
+	switch {
+	case errors.Is(err, model.ErrImproper):
+		notes = append(notes, fmt.Sprintf("no comparison with the prior: %v", err))
+	case err != nil:
+		return nil, err
+	default:
+		prior, err := mediation.Split(priorIn, wins)
+		if err != nil {
+			return nil, fmt.Errorf("the effects under the priors: %w", err)
+		}
+		sup = mediation.Supports(res, prior, ff.scaled, wins, negligible)
+		notes = mediation.SupportNotes(res, sup, "all", negligible)
 	}
 	if ctx.Err() != nil {
 		return nil, ctx.Err()
@@ -141,9 +202,13 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResu
 	if err != nil {
 		return nil, err
 	}
+	returns, err := mediation.Returns(in, res)
+	if err != nil {
+		return nil, err
+	}
 	return &splitResult{
 		Split: fitfolder.Split{
-			Effects:     mediation.EffectsTable(res),
+			Effects:     mediation.EffectsTable(res, sup),
 			EffectDraws: mediation.EffectDrawsTable(res),
 			Borrowed:    mediation.BorrowedTable(res),
 			Weekly:      mediation.WeeklyTable(res, ff.scaled.Weeks, ff.scaled.UpperNames),
@@ -151,8 +216,9 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string) (*splitResu
 			Breakeven:   mediation.BreakevenTable(sens),
 			Fitted:      fitted,
 			Curves:      curves,
+			Returns:     returns,
 		},
-		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome,
+		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes,
 	}, nil
 }
 
@@ -170,5 +236,27 @@ func (s *splitResult) print(stdout io.Writer) error {
 		}
 		fmt.Fprintf(stdout, "%s: the via-search effect reaches zero if the errors of the demand and outcome stages correlate at rho = %.2f\n", s.Channel, s.Zero)
 	}
+	if len(s.notes) > 0 {
+		fmt.Fprintln(stdout)
+		fmt.Fprintln(stdout, "What the data cannot tell (whole period):")
+		for _, n := range s.notes {
+			fmt.Fprintf(stdout, "  %s\n", n)
+		}
+	}
 	return nil
+}
+
+// withNotes returns the fit's verdict with the split's notes as its
+// "effect" lines, replacing those of an earlier split.
+func (s *splitResult) withNotes(v fitfolder.Verdict) fitfolder.Verdict {
+	out := fitfolder.Verdict{Trustworthy: v.Trustworthy}
+	for _, r := range v.Reasons {
+		if r.Stage != "effect" {
+			out.Reasons = append(out.Reasons, r)
+		}
+	}
+	for _, n := range s.notes {
+		out.Reasons = append(out.Reasons, fitfolder.Reason{Stage: "effect", Text: "note: " + n})
+	}
+	return out
 }

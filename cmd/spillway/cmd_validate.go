@@ -35,6 +35,7 @@ type validateOptions struct {
 	horizon    int
 	leaveOut   []string
 	seeds      int
+	placebos   int
 	shard      string
 	merge      bool
 }
@@ -43,12 +44,13 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 	o.roles.addFlags(fs)
 	fs.StringVar(&o.fitDir, "fit", "", "a fit `FOLDER` from 'spillway fit': validate its data, with its posterior as the reference")
 	fs.StringVar(&o.truth, "truth", "", "a truth.json `FILE` from 'spillway simulate': recovery simulates from these true parameters")
-	fs.StringSliceVar(&o.checks, "checks", []string{validate.Recovery, validate.Holdout, validate.Stability}, "the `CHECKS` to run: recovery, holdout, stability")
+	fs.StringSliceVar(&o.checks, "checks", []string{validate.Recovery, validate.Holdout, validate.Stability}, "`CHECKS` to run; placebo only on request")
 	fs.IntVar(&o.replicates, "replicates", validate.DefaultReplicates, "simulated data sets refitted by the recovery check")
 	fs.IntVar(&o.origins, "origins", validate.DefaultOrigins, "forecast origins of the holdout check")
 	fs.IntVar(&o.horizon, "horizon", validate.DefaultHorizon, "weeks forecast from each origin (1 to 52)")
 	fs.StringSliceVar(&o.leaveOut, "leave-out", nil, "`QUARTERS` the stability check leaves out one at a time, e.g. 2024Q2,2024Q3 (default every quarter)")
 	fs.IntVar(&o.seeds, "seeds", validate.DefaultSeeds, "extra refits of the whole data with other seeds (stability); 0 for none")
+	fs.IntVar(&o.placebos, "placebos", validate.DefaultPlacebos, "placebo refits per channel (placebo; at least 19 to reach p = 0.05)")
 	fs.StringVar(&o.shard, "shard", "", "run only shard `I/N` of the sweep (jobs whose number is I-1 modulo N) into --out")
 	fs.BoolVar(&o.merge, "merge", false, "merge the shard folders given as arguments into --out")
 	o.sampling.addFlagsWith(fs, samplingDefaults{validate.DefaultChains, validate.DefaultWarmup, validate.DefaultDraws,
@@ -63,7 +65,7 @@ func newValidateCommand() *command {
 	return &command{
 		name:  "validate",
 		usage: "validate [(roles) | --fit FOLDER] --out FOLDER [flags]",
-		short: "check recovery of known truth, holdout accuracy and stability",
+		short: "check recovery of known truth, holdout accuracy, stability and placebo refits",
 		long: `Validate checks whether the model deserves trust on a data set by refitting it
 many times. With no data it validates the built-in demo.
 
@@ -79,11 +81,24 @@ many times. With no data it validates the built-in demo.
              the next --horizon weeks given the actual spend (and, for the
              outcome, the actual queries): MAPE, CRPS and 90% interval
              coverage, against a seasonal baseline (the same week a year
-             earlier times the recent level).
+             earlier times the recent level) and against the same model
+             without any spend term. "Beats" needs a difference whose 95%
+             interval over the effective number of weeks excludes zero;
+             coverage is judged against its binomial range.
   stability  refits leaving out each quarter in turn and with --seeds other
              seeds, and reports how far each effect moves in posterior sds
              of the reference fit; moves above 1 sd (or above what leaving
              out that many weeks explains by chance) are flagged.
+  placebo    (only when asked for) refits --placebos times per channel with
+             that channel's spend moved circularly in time by 13 weeks or
+             more (flighting kept), and reports where the effect on the
+             real spend (total; paid search: controlled) stands among the
+             placebo effects: p = (1 + placebos at or above it) / (1 + N).
+             Costs channels x N refits.
+
+A claim is made only when the evidence carries it: "recovers truth" needs at
+least 20 replicates, both coverages inside their binomial ranges and every
+refit converged; otherwise the verdict says "no claim" and why.
 
 FOLDER gets validation.csv (check,effect,channel,metric,value),
 validation.png, verdict.txt (also printed), jobs.csv (every job's raw numbers
@@ -120,7 +135,7 @@ EXAMPLE
 // runValidate runs a sweep, one shard of it, or a merge.
 func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, args []string, stdout, stderr io.Writer) error {
 	if o.merge {
-		return runMerge(o, fs, args, stdout)
+		return runMerge(o, fs, args, stdout, stderr)
 	}
 	if err := noArgs(args); err != nil {
 		return err
@@ -130,10 +145,10 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	}
 	set := validate.Settings{Checks: o.checks, Replicates: o.replicates, Origins: o.origins, Horizon: o.horizon,
 		LeaveOut: o.leaveOut, Seeds: o.seeds, Chains: o.sampling.chains, Warmup: o.sampling.warmup,
-		Draws: o.sampling.draws, Seed: o.sampling.seed}
+		Draws: o.sampling.draws, Seed: o.sampling.seed, Placebos: o.placebos}
 	switch {
-	case o.replicates < 0 || o.origins < 0 || o.seeds < 0:
-		return usagef("--replicates, --origins and --seeds must not be negative")
+	case o.replicates < 0 || o.origins < 0 || o.seeds < 0 || o.placebos < 0:
+		return usagef("--replicates, --origins, --seeds and --placebos must not be negative")
 	case o.horizon < 1 || o.horizon > validate.BaselineLag:
 		return usagef("--horizon must be 1 to %d weeks", validate.BaselineLag)
 	}
@@ -160,11 +175,12 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0 || len(o.sampling.drift) > 0 || o.sampling.baseline != "") {
 		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors, --linear, --drift and --baseline")
 	}
-	od, err := newOutDir(o.sampling.out, o.sampling.force)
+	od, err := newOutDir(o.sampling.out, o.sampling.force, append(o.roles.inputs(), o.sampling.priors, o.truth, o.fitDir)...)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
+	dropNote(stderr, od)
 
 	in := validate.Input{Tool: "spillway " + spillwayVersion()}
 	var ds *data.Dataset
@@ -227,7 +243,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 }
 
 // runMerge combines shard folders.
-func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout io.Writer) error {
+func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout, stderr io.Writer) error {
 	if len(args) == 0 {
 		return usagef("--merge needs the shard folders as arguments")
 	}
@@ -243,11 +259,12 @@ func runMerge(o *validateOptions, fs *pflag.FlagSet, args []string, stdout io.Wr
 	if len(extra) > 0 {
 		return usagef("--merge takes only shard folders, --out and --force; the shards already fix %s", strings.Join(extra, ", "))
 	}
-	od, err := newOutDir(o.sampling.out, o.sampling.force)
+	od, err := newOutDir(o.sampling.out, o.sampling.force, args...)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
+	dropNote(stderr, od)
 	var parts []*validate.Results
 	for _, dir := range args {
 		r, err := readShard(dir)

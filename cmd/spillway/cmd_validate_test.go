@@ -9,14 +9,15 @@ import (
 )
 
 // validateArgs validates simulated data in dir/sim with a tiny sweep: the
-// reference, one holdout origin and one left-out quarter, each fit with
+// reference, two recovery replicates, one holdout origin, one left-out
+// quarter and one placebo per channel, each fit with
 // one chain of 30 + 30 iterations (enough to exercise the command, not to
 // converge).
 func validateArgs(dir string, extra ...string) []string {
 	args := []string{"validate", "--data", filepath.Join(dir, "sim", "data.csv"), "--date", "week",
 		"--upper", "video_spend,audio_spend", "--search", "search_spend", "--queries", "branded_queries",
 		"--outcome", "conversions", "--controls", "price",
-		"--checks", "holdout,stability", "--origins", "1", "--leave-out", "2023Q3", "--seeds", "0",
+		"--checks", "recovery,holdout,stability,placebo", "--replicates", "2", "--origins", "1", "--leave-out", "2023Q3", "--seeds", "0", "--placebos", "1",
 		"--chains", "1", "--warmup", "30", "--draws", "30", "--seed", "4", "--quiet"}
 	return append(args, extra...)
 }
@@ -34,7 +35,12 @@ func TestValidateShardsMergeToTheSameBytes(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("validate: exit %d\n%s", code, errs)
 	}
-	for _, want := range []string{"holdout: ", "stability: ", "validation written to " + whole} {
+	// two replicates of unconverged refits never claim "recovers truth"
+	// (as 'validate --replicates 2' used to)
+	if strings.Contains(out, "recovers truth") {
+		t.Errorf("two replicates claim recovery:\n%s", out)
+	}
+	for _, want := range []string{"recovery: ", "holdout: ", "stability: ", "placebo: ", "validation written to " + whole} {
 		if !strings.Contains(out, want) {
 			t.Errorf("stdout lacks %q:\n%s", want, out)
 		}
@@ -75,7 +81,10 @@ func TestValidateShardsMergeToTheSameBytes(t *testing.T) {
 	table, _ := os.ReadFile(filepath.Join(whole, "validation.csv"))
 	if !strings.HasPrefix(string(table), "check,effect,channel,metric,value\n") ||
 		!strings.Contains(string(table), "holdout,outcome_baseline,,crps,") ||
-		!strings.Contains(string(table), "stability,via_search,video_spend,max_shift_sd,") {
+		!strings.Contains(string(table), "stability,via_search,video_spend,max_shift_sd,") ||
+		!strings.Contains(string(table), "holdout,demand_no_media,,crps,") ||
+		!strings.Contains(string(table), "placebo,total,video_spend,placebo_p,") ||
+		!strings.Contains(string(table), "placebo,controlled,search_spend,placebo_p,") {
 		t.Errorf("validation.csv:\n%s", table)
 	}
 

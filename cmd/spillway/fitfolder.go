@@ -3,6 +3,7 @@ package main
 import (
 	"fmt"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -126,6 +127,9 @@ func rerunCommand(verb string, fs *fitfolder.Run, out string) string {
 	add("warmup", strconv.Itoa(fs.Warmup))
 	add("draws", strconv.Itoa(fs.Draws))
 	add("target-accept", strconv.FormatFloat(fs.Accept, 'g', -1, 64))
+	for la := range slices.Chunk(labelArgs(fs.Labels), 2) {
+		add(strings.TrimPrefix(la[0], "--"), la[1])
+	}
 	add("out", out)
 	return strings.Join(parts, " ")
 }

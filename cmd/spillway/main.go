@@ -15,6 +15,7 @@ import (
 	"io"
 	"os"
 	"os/signal"
+	"regexp"
 	"runtime/debug"
 	"slices"
 	"strings"
@@ -30,7 +31,7 @@ const (
 	exitOK          = 0   // success
 	exitFailure     = 1   // the work could not be done
 	exitUsage       = 2   // bad usage or bad data; nothing was written
-	exitInterrupted = 130 // SIGINT or SIGTERM; nothing half-written was left
+	exitInterrupted = 130 // SIGINT (128 + 2), or a cancel without a signal; nothing half-written was left
 )
 
 // exitStatusHelp is the EXIT STATUS section every command's long help ends
@@ -40,21 +41,61 @@ const exitStatusHelp = `EXIT STATUS
   1    failure: the work could not be done
   2    bad usage or bad data (the message names the file, line and column);
        nothing is written
-  130  interrupted; nothing half-written is left behind`
+  129, 130, 131, 141, 143
+       stopped by a signal (128 + its number: SIGHUP, SIGINT, SIGQUIT,
+       SIGPIPE, SIGTERM); nothing half-written is left behind`
 
 // version is set at build time with -ldflags "-X main.version=v1.2.3"; when
 // empty the module version from the build information is used.
 var version = ""
 
 func main() {
-	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	go func() {
-		<-ctx.Done()
-		stop() // a second signal ends the process at once
-	}()
+	ctx, stop := notifyContext(context.Background())
 	code := run(ctx, os.Args[1:], os.Stdout, os.Stderr)
 	stop()
 	os.Exit(code)
+}
+
+// stopSignals are the signals that stop spillway cleanly: the context is
+// cancelled with a signalCause, the command removes its temporary output
+// and spillway exits with 128 + the signal's number. SIGKILL and SIGSTOP
+// cannot be caught; a later run removes what a killed run left.
+var stopSignals = []os.Signal{syscall.SIGHUP, syscall.SIGINT, syscall.SIGQUIT, syscall.SIGPIPE, syscall.SIGTERM}
+
+// signalCause is the cause of a context cancelled by a signal.
+type signalCause struct{ sig syscall.Signal }
+
+func (c signalCause) Error() string { return "stopped by signal " + c.sig.String() }
+
+// Is makes a signal stop match context.Canceled, like a plain cancel.
+func (c signalCause) Is(target error) bool { return target == context.Canceled }
+
+// notifyContext returns a context cancelled, with a signalCause, by the
+// first of stopSignals. A second SIGHUP, SIGINT, SIGQUIT or SIGTERM ends
+// the process at once (the default action). SIGPIPE stays caught: once a
+// reader of standard output or error has gone, writes there must fail with
+// an error rather than kill the process before it has cleaned up.
+func notifyContext(parent context.Context) (context.Context, func()) {
+	ctx, cancel := context.WithCancelCause(parent)
+	ch := make(chan os.Signal, 1)
+	signal.Notify(ch, stopSignals...)
+	done := make(chan struct{})
+	go func() {
+		select {
+		case s := <-ch:
+			sig, _ := s.(syscall.Signal)
+			cancel(signalCause{sig})
+			signal.Reset(syscall.SIGHUP, syscall.SIGINT, syscall.SIGQUIT, syscall.SIGTERM)
+			for range ch { // later SIGPIPEs
+			}
+		case <-done:
+		}
+	}()
+	return ctx, func() {
+		signal.Stop(ch)
+		close(done)
+		cancel(nil)
+	}
 }
 
 // command is one subcommand. Files cmd_NAME.go build one with a
@@ -99,7 +140,7 @@ type command struct {
 // lists them.
 func newCommands() []*command {
 	return []*command{newRunCommand(), newSimulateCommand(), newInspectCommand(), newFitCommand(),
-		newSplitCommand(), newChartCommand(), newReportCommand(), newValidateCommand()}
+		newSplitCommand(), newAllocateCommand(), newChartCommand(), newReportCommand(), newValidateCommand()}
 }
 
 // newFlagSet returns an empty flag set for the command name. It prints
@@ -139,7 +180,11 @@ func runCommands(ctx context.Context, cmds []*command, args []string, stdout, st
 	case "help", "-h", "--help", "-help":
 		return runHelp(cmds, args[1:], stdout, stderr)
 	case "version", "--version":
-		fmt.Fprintf(stdout, "spillway %s\n", spillwayVersion())
+		v := spillwayVersion()
+		fmt.Fprintf(stdout, "spillway %s\n", v)
+		if v == "(devel)" {
+			fmt.Fprintln(stderr, "spillway: this build carries no version: it was built by go run or without version control information (-buildvcs=false); go install ./cmd/spillway in a git clone records the commit")
+		}
 		return exitOK
 	}
 	c := find(cmds, name)
@@ -147,7 +192,17 @@ func runCommands(ctx context.Context, cmds []*command, args []string, stdout, st
 		if strings.HasPrefix(name, "-") {
 			fmt.Fprintf(stderr, "spillway: unknown flag %s\n", name)
 		} else {
-			fmt.Fprintf(stderr, "spillway: unknown command %q\n", name)
+			fmt.Fprintf(stderr, "spillway: unknown command %q", name)
+			best, bestD := "", 0
+			for _, c := range cmds {
+				if d := editDistance(strings.ToLower(name), c.name); d <= 1+len(name)/6 && (best == "" || d < bestD) {
+					best, bestD = c.name, d
+				}
+			}
+			if best != "" {
+				fmt.Fprintf(stderr, "; did you mean %s?", best)
+			}
+			fmt.Fprintln(stderr)
 		}
 		fmt.Fprintf(stderr, "Run 'spillway help' for usage.\n")
 		return exitUsage
@@ -157,7 +212,7 @@ func runCommands(ctx context.Context, cmds []*command, args []string, stdout, st
 			writeCommandHelp(stdout, c)
 			return exitOK
 		}
-		return report(ctx, c, usageError{flagError(err)}, stderr)
+		return report(ctx, c, usageError{flagError(c.flags, err)}, stderr)
 	}
 	return report(ctx, c, c.run(ctx, c.flags.Args(), stdout, stderr), stderr)
 }
@@ -169,11 +224,11 @@ func report(ctx context.Context, c *command, err error, stderr io.Writer) int {
 	switch {
 	case code == exitOK:
 		return code
-	case code == exitInterrupted:
+	case code > 128:
 		fmt.Fprintf(stderr, "spillway %s: interrupted\n", c.name)
 		return code
 	}
-	fmt.Fprintf(stderr, "spillway %s: %v\n", c.name, err)
+	fmt.Fprintf(stderr, "spillway %s: %s\n", c.name, userMessage(err.Error()))
 	var ue usageError
 	if errors.As(err, &ue) {
 		fmt.Fprintf(stderr, "Run 'spillway help %s' for usage.\n", c.name)
@@ -181,19 +236,37 @@ func report(ctx context.Context, c *command, err error, stderr io.Writer) int {
 	return code
 }
 
+// internalPrefix matches the package-name prefixes that spillway's
+// library packages put on their errors (gonum's convention, "mcmc: chain
+// 1: ..."), at the start of a message or after another prefix. They mean
+// nothing to a user, who sees "spillway fit: " in front instead.
+var internalPrefix = regexp.MustCompile(`(^|: )(?:(?:fitdir|fitfolder|fitfoldertest|mediation|mcmc|model|pipeline|scenario|plots|forward|table|window|validate|validation|stat|transform|ols|score|report|htmlreport|progress): )+`)
+
+// userMessage removes internal package names from an error message.
+func userMessage(msg string) string {
+	return internalPrefix.ReplaceAllString(msg, "$1")
+}
+
 // exitCode is the one table from errors to exit statuses: nil is 0; a
-// cancelled context (SIGINT, SIGTERM) is 130; a usage error, a bad-data
-// error (badData) or a *data.DataError anywhere in the chain is 2; anything
-// else is 1.
+// context cancelled by a signal is 128 + the signal's number (SIGINT 130,
+// SIGTERM 143, SIGHUP 129, SIGQUIT 131, SIGPIPE 141), otherwise 130; a
+// write to a closed pipe is 141, as if SIGPIPE had stopped it; a usage
+// error, a bad-data error (badData) or a *data.DataError anywhere in the
+// chain is 2; anything else is 1.
 func exitCode(ctx context.Context, err error) int {
 	var (
 		ue usageError
 		bd badDataError
 		de *data.DataError
+		sc signalCause
 	)
 	switch {
 	case err == nil:
 		return exitOK
+	case ctx != nil && errors.As(context.Cause(ctx), &sc):
+		return 128 + int(sc.sig)
+	case errors.Is(err, syscall.EPIPE):
+		return 128 + int(syscall.SIGPIPE)
 	case errors.Is(err, context.Canceled) || (ctx != nil && ctx.Err() != nil):
 		return exitInterrupted
 	case errors.As(err, &ue), errors.As(err, &bd), errors.As(err, &de):
@@ -239,8 +312,9 @@ func noArgs(args []string) error {
 	return nil
 }
 
-// flagError rewrites a pflag parse error as a short message.
-func flagError(err error) error {
+// flagError rewrites a pflag parse error of fs as a short message; an
+// unknown flag gets the nearest flag name of fs as a suggestion.
+func flagError(fs *pflag.FlagSet, err error) error {
 	var (
 		ne *pflag.NotExistError
 		vr *pflag.ValueRequiredError
@@ -252,7 +326,11 @@ func flagError(err error) error {
 		if ne.GetSpecifiedShortnames() != "" && ne.GetSpecifiedName() != "" {
 			return fmt.Errorf("unknown flag -%s", ne.GetSpecifiedName()[:1])
 		}
-		return fmt.Errorf("unknown flag --%s", ne.GetSpecifiedName())
+		name := ne.GetSpecifiedName()
+		if near := nearestFlag(fs, name); near != "" {
+			return fmt.Errorf("unknown flag --%s; did you mean --%s?", name, near)
+		}
+		return fmt.Errorf("unknown flag --%s", name)
 	case errors.As(err, &vr):
 		return fmt.Errorf("flag --%s needs a value", vr.GetFlag().Name)
 	case errors.As(err, &iv):
@@ -268,13 +346,94 @@ func flagError(err error) error {
 	return err
 }
 
-// spillwayVersion returns the version to print.
+// nearestFlag returns the flag of fs closest to name in edit distance
+// (a typo: at most one edit for short names, two from six letters, three
+// from twelve), or a flag that name is the start of, or "" when none is
+// close. Ties go to the flag added first.
+func nearestFlag(fs *pflag.FlagSet, name string) string {
+	best, bestD := "", 0
+	limit := 1 + len(name)/6
+	fs.VisitAll(func(f *pflag.Flag) {
+		if f.Hidden {
+			return
+		}
+		d := editDistance(strings.ToLower(name), f.Name)
+		if len(name) >= 3 && strings.HasPrefix(f.Name, name) {
+			d = min(d, 1)
+		}
+		if d <= limit && (best == "" || d < bestD) {
+			best, bestD = f.Name, d
+		}
+	})
+	return best
+}
+
+// editDistance is the Levenshtein distance between a and b, by bytes.
+func editDistance(a, b string) int {
+	prev := make([]int, len(b)+1)
+	cur := make([]int, len(b)+1)
+	for j := range prev {
+		prev[j] = j
+	}
+	for i := 1; i <= len(a); i++ {
+		cur[0] = i
+		for j := 1; j <= len(b); j++ {
+			sub := prev[j-1]
+			if a[i-1] != b[j-1] {
+				sub++
+			}
+			cur[j] = min(sub, prev[j]+1, cur[j-1]+1)
+		}
+		prev, cur = cur, prev
+	}
+	return prev[len(b)]
+}
+
+// spillwayVersion returns the version to print: the -X main.version set
+// at link time, else what the build recorded (versionOf).
 func spillwayVersion() string {
 	if version != "" {
 		return version
 	}
-	if bi, ok := debug.ReadBuildInfo(); ok && bi.Main.Version != "" {
-		return bi.Main.Version
+	bi, _ := debug.ReadBuildInfo()
+	return versionOf(bi)
+}
+
+// versionOf returns the version a build recorded: the main module's
+// version when it has one (go install spillway@v1.2.0, or a build in a
+// tagged checkout), else the commit it was built from with the commit's
+// time, marked +dirty when the working tree had changes (a build in a git
+// clone), else "(devel)" with a hint (go run, or a build without version
+// control information; 'spillway version' then says so).
+func versionOf(bi *debug.BuildInfo) string {
+	if bi == nil {
+		return "(devel)"
 	}
-	return "(devel)"
+	if v := bi.Main.Version; v != "" && v != "(devel)" {
+		return v
+	}
+	var rev, at, dirty string
+	for _, s := range bi.Settings {
+		switch s.Key {
+		case "vcs.revision":
+			rev = s.Value
+		case "vcs.time":
+			at = s.Value
+		case "vcs.modified":
+			if s.Value == "true" {
+				dirty = "+dirty"
+			}
+		}
+	}
+	if rev == "" {
+		return "(devel)"
+	}
+	if len(rev) > 12 {
+		rev = rev[:12]
+	}
+	v := "commit " + rev + dirty
+	if at != "" {
+		v += " (" + at + ")"
+	}
+	return v
 }

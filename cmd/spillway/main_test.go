@@ -9,8 +9,10 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"runtime/debug"
 	"slices"
 	"strings"
+	"syscall"
 	"testing"
 
 	"spillway/funnel/data"
@@ -142,7 +144,7 @@ func TestUsageErrors(t *testing.T) {
 		args []string
 		want string // the whole of stderr
 	}{
-		{[]string{"fitt"}, "spillway: unknown command \"fitt\"\nRun 'spillway help' for usage.\n"},
+		{[]string{"fitt"}, "spillway: unknown command \"fitt\"; did you mean fit?\nRun 'spillway help' for usage.\n"},
 		{[]string{"--frobnicate"}, "spillway: unknown flag --frobnicate\nRun 'spillway help' for usage.\n"},
 		{[]string{"inspect", "--foo"}, "spillway inspect: unknown flag --foo\nRun 'spillway help inspect' for usage.\n"},
 		{[]string{"inspect", "--foo=1"}, "spillway inspect: unknown flag --foo\nRun 'spillway help inspect' for usage.\n"},
@@ -168,10 +170,90 @@ func TestVersion(t *testing.T) {
 	}
 }
 
+// TestVersionOf: the version comes from the build's module information:
+// the module version, else the commit and its time, else a plain devel.
+func TestVersionOf(t *testing.T) {
+	vcs := []debug.BuildSetting{{Key: "vcs", Value: "git"}, {Key: "vcs.revision", Value: "5e920a2c0ffee0123456789abcdef0123456789a"},
+		{Key: "vcs.time", Value: "2026-12-02T06:00:00Z"}, {Key: "vcs.modified", Value: "false"}}
+	dirty := append(slices.Clone(vcs[:3]), debug.BuildSetting{Key: "vcs.modified", Value: "true"})
+	for _, c := range []struct {
+		bi   *debug.BuildInfo
+		want string
+	}{
+		{&debug.BuildInfo{Main: debug.Module{Version: "v1.2.0"}, Settings: vcs}, "v1.2.0"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "v0.0.0-20261202060000-5e920a2c0ffe+dirty"}}, "v0.0.0-20261202060000-5e920a2c0ffe+dirty"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "(devel)"}, Settings: vcs}, "commit 5e920a2c0ffe (2026-12-02T06:00:00Z)"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "(devel)"}, Settings: dirty}, "commit 5e920a2c0ffe+dirty (2026-12-02T06:00:00Z)"},
+		{&debug.BuildInfo{Main: debug.Module{Version: "(devel)"}}, "(devel)"},
+		{nil, "(devel)"},
+	} {
+		if got := versionOf(c.bi); got != c.want {
+			t.Errorf("got %q, want %q", got, c.want)
+		}
+	}
+}
+
+// TestDidYouMean: a mistyped flag or command gets the nearest name.
+func TestDidYouMean(t *testing.T) {
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"run", "--outt", "x"}, "spillway run: unknown flag --outt; did you mean --out?\n"},
+		{[]string{"fit", "--uper", "video"}, "spillway fit: unknown flag --uper; did you mean --upper?\n"},
+		{[]string{"validate", "--replicate", "3"}, "spillway validate: unknown flag --replicate; did you mean --replicates?\n"},
+		{[]string{"run", "--windw", "all"}, "spillway run: unknown flag --windw; did you mean --window?\n"},
+		{[]string{"run", "--zzzzzz"}, "spillway run: unknown flag --zzzzzz\n"},
+		{[]string{"inspct"}, "spillway: unknown command \"inspct\"; did you mean inspect?\n"},
+	} {
+		code, _, stderr := runCmd(t, c.args...)
+		if code != exitUsage || !strings.HasPrefix(stderr, c.want) {
+			t.Errorf("%v: exit %d, stderr %q; want 2 and %q", c.args, code, stderr, c.want)
+		}
+	}
+}
+
+// TestMissingRolesAtOnce: every missing role is named in one message.
+func TestMissingRolesAtOnce(t *testing.T) {
+	code, _, stderr := runCmd(t, "inspect", "--data", "sales.csv", "--upper", "video")
+	want := "spillway inspect: 4 roles are missing: --date COLUMN (week start), --search COLUMNS (paid-search spend), --queries COLUMN (branded query volume), --outcome COLUMN (the outcome)"
+	if code != exitUsage || !strings.HasPrefix(stderr, want) {
+		t.Errorf("exit %d, stderr %q; want 2 and %q", code, stderr, want)
+	}
+}
+
+// TestUserMessage: messages on stderr carry no internal package names.
+func TestUserMessage(t *testing.T) {
+	for _, c := range []struct{ in, want string }{
+		{"mcmc: chain 2: numerical overflow in metric adaptation", "chain 2: numerical overflow in metric adaptation"},
+		{"validate: reference fit: mcmc: chain 1: Init failed", "reference fit: chain 1: Init failed"},
+		{"f/effects.csv: fitfolder: file is missing (written by spillway split; run it first)", "f/effects.csv: file is missing (written by spillway split; run it first)"},
+		{"report: validation: render validation.png: x", "render validation.png: x"},
+		{"fitdir: spec.json: bad", "spec.json: bad"},
+		{"--window: \"x\" is not all", "--window: \"x\" is not all"},
+		{"sales.csv:3:2: column \"model: x\" is not a number", "sales.csv:3:2: column \"model: x\" is not a number"},
+	} {
+		if got := userMessage(c.in); got != c.want {
+			t.Errorf("userMessage(%q) = %q, want %q", c.in, got, c.want)
+		}
+	}
+	// through a command: a fit folder without its split
+	dir := t.TempDir()
+	writeFileIn(t, dir, "spec.json", "{}")
+	code, _, stderr := runCmd(t, "chart", "--fit", dir)
+	if code == 0 || internalPrefix.MatchString(strings.TrimPrefix(stderr, "spillway chart: ")) {
+		t.Errorf("chart on an incomplete folder: exit %d, stderr %q", code, stderr)
+	}
+}
+
 func TestExitCode(t *testing.T) {
 	de := &data.DataError{File: "a.csv", Line: 2, Err: errors.New("bad")}
 	cancelled, cancel := context.WithCancel(context.Background())
 	cancel()
+	byTerm, stop := context.WithCancelCause(context.Background())
+	stop(signalCause{syscall.SIGTERM})
+	byHup, stop2 := context.WithCancelCause(context.Background())
+	stop2(signalCause{syscall.SIGHUP})
 	tests := []struct {
 		name string
 		ctx  context.Context
@@ -186,6 +268,10 @@ func TestExitCode(t *testing.T) {
 		{"wrapped data error", context.Background(), fmt.Errorf("load: %w", de), 2},
 		{"canceled", context.Background(), fmt.Errorf("sampling: %w", context.Canceled), 130},
 		{"error after cancel", cancelled, errors.New("write: broken"), 130},
+		{"SIGTERM", byTerm, context.Cause(byTerm), 143},
+		{"error after SIGHUP", byHup, errors.New("write: broken"), 129},
+		{"closed pipe", context.Background(), fmt.Errorf("write stdout: %w", syscall.EPIPE), 141},
+		{"SIGTERM is a cancel", context.Background(), fmt.Errorf("x: %w", signalCause{syscall.SIGTERM}), 130},
 	}
 	for _, test := range tests {
 		if got := exitCode(test.ctx, test.err); got != test.want {

@@ -4,6 +4,7 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"path/filepath"
@@ -91,6 +92,15 @@ func newOutDir(path string, force bool, inputs ...string) (*outDir, error) {
 	}
 	o.tmp = tmp
 	return o, nil
+}
+
+// dropNote says on stderr which output folders inside the folder being
+// replaced go with it (the validation of a replaced run, say), so that
+// nobody loses them by surprise.
+func dropNote(stderr io.Writer, o *outDir) {
+	for _, d := range o.Dropped() {
+		fmt.Fprintf(stderr, "spillway: note: --force replaces %s, and with it %s, written by an earlier spillway command; move it out first to keep it\n", o.Final(), d)
+	}
 }
 
 // Path returns the temporary folder to write into.

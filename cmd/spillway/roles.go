@@ -1,6 +1,8 @@
 package main
 
 import (
+	"strings"
+
 	"github.com/spf13/pflag"
 
 	"spillway/funnel/data"
@@ -36,6 +38,20 @@ func (r *roleFlags) given() bool {
 		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0
 }
 
+// inputs returns the files the role flags read: the spec file and the
+// data file (named by --data or by the spec file), for newOutDir to
+// protect. A spec file that cannot be read adds nothing here; resolve
+// reports it.
+func (r *roleFlags) inputs() []string {
+	files := []string{r.specFile, r.spec.Data}
+	if r.spec.Data == "" && r.specFile != "" {
+		if s, err := data.LoadSpec(r.specFile); err == nil {
+			files = append(files, s.Data)
+		}
+	}
+	return files
+}
+
 // resolve returns the spec to use: the spec file (if any) with the flags
 // put over it, checked. Errors are bad data (exit status 2).
 func (r *roleFlags) resolve() (data.Spec, error) {
@@ -51,10 +67,38 @@ func (r *roleFlags) resolve() (data.Spec, error) {
 	if spec.Data == "" {
 		return data.Spec{}, usagef("no data file: name it with --data FILE (or \"data\" in the spec file)")
 	}
+	if err := missingRoles(spec); err != nil {
+		return data.Spec{}, err
+	}
 	if err := spec.Validate(); err != nil {
 		return data.Spec{}, badData(err)
 	}
 	return spec, nil
+}
+
+// missingRoles reports every required role that neither the flags nor
+// the spec file name, at once, when more than one is missing (one alone
+// is left to Spec.Validate's message).
+func missingRoles(spec data.Spec) error {
+	var missing []string
+	for _, r := range []struct {
+		empty     bool
+		flag, key string
+	}{
+		{spec.Date == "", "--date COLUMN (week start)", "date"},
+		{len(spec.Upper) == 0, "--upper COLUMNS (upper-funnel spend)", "upper"},
+		{len(spec.Search) == 0, "--search COLUMNS (paid-search spend)", "search"},
+		{spec.Queries == "", "--queries COLUMN (branded query volume)", "queries"},
+		{spec.Outcome == "", "--outcome COLUMN (the outcome)", "outcome"},
+	} {
+		if r.empty {
+			missing = append(missing, r.flag)
+		}
+	}
+	if len(missing) < 2 {
+		return nil
+	}
+	return usagef("%d roles are missing: %s; name each column with its flag (or its key in a --spec file)", len(missing), strings.Join(missing, ", "))
 }
 
 // load resolves the spec and loads and checks the data file. Errors are bad

@@ -2,9 +2,12 @@ package main
 
 import (
 	"bytes"
+	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"runtime"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -58,9 +61,23 @@ func TestRunDemo(t *testing.T) {
 			t.Errorf("stdout lacks %q:\n%s", want, stdout)
 		}
 	}
+	// one window for the table, the charts and the report: the demo's last
+	// full quarter (its data end in 2025Q4 with 12 of 13 weeks)
+	for _, want := range []string{"window 2025Q3 (", "review window 2025Q3;"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("stdout lacks %q:\n%s", want, stdout)
+		}
+	}
+	page, _ := os.ReadFile(filepath.Join(dir, "report.html"))
+	if !strings.Contains(string(page), "Quarterly review: 2025Q3") {
+		t.Error("report.html is not the review of 2025Q3, the window of the table")
+	}
 	head, _ := os.ReadFile(filepath.Join(dir, "effects.csv"))
-	if !strings.HasPrefix(string(head), "channel,path,window,mean,q05,q50,q95,per_unit_spend\n") {
+	if !strings.HasPrefix(string(head), "channel,path,window,mean,q05,q50,q95,per_unit_spend,prior_q05,prior_q95,contraction,p_negligible\n") {
 		t.Errorf("effects.csv header: %q", strings.SplitN(string(head), "\n", 2)[0])
+	}
+	if v, _ := os.ReadFile(filepath.Join(dir, "verdict.txt")); !strings.Contains(string(v), "support: note: media terms improve the prediction of left-out weeks") {
+		t.Errorf("verdict.txt lacks the support check:\n%s", v)
 	}
 	// split again on the folder: same bytes
 	before, _ := os.ReadFile(filepath.Join(dir, "effects.csv"))
@@ -131,6 +148,8 @@ func TestFitBadInputs(t *testing.T) {
 		{"prior that does not fit", append([]string{"fit", "--data", good, "--priors", betaOnCoef}, roles...), "gamma"},
 		{"linear column not a channel", append([]string{"fit", "--data", good, "--linear", "price"}, roles...), "--linear price"},
 		{"bad chains", append([]string{"fit", "--data", good, "--chains", "0"}, roles...), "--chains"},
+		{"label of a column that is not spend", append([]string{"fit", "--data", good, "--label", "price=Price"}, roles...), "--label price=Price: price is not a spend column"},
+		{"label without a name", append([]string{"fit", "--data", good, "--label", "video_spend"}, roles...), "expected COLUMN=NAME"},
 	} {
 		out := filepath.Join(tmp, "out-"+strings.ReplaceAll(c.name, " ", "-"))
 		args := append(append([]string{c.args[0]}, quick...), c.args[1:]...)
@@ -150,5 +169,53 @@ func TestFitBadInputs(t *testing.T) {
 				t.Errorf("%s: temporary folder %s left behind", c.name, e.Name())
 			}
 		}
+	}
+}
+
+// TestNoiseOutcomeNotSupported replaces the demo's outcome with independent
+// normal noise (mean 2,080, sd 300, as a user tried it): the fit must say
+// that the media effects are not supported, in stdout and verdict.txt, and
+// the verdict must not be "trustworthy".
+func TestNoiseOutcomeNotSupported(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits the model; skipped with -short")
+	}
+	b, err := os.ReadFile(filepath.Join("..", "..", "testdata", "demo", "data.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+	rng := rand.New(rand.NewPCG(10, 11))
+	for i := 1; i < len(lines); i++ {
+		f := strings.Split(lines[i], ",")
+		f[5] = strconv.Itoa(int(math.Round(2080 + 300*rng.NormFloat64()))) // conversions
+		lines[i] = strings.Join(f, ",")
+	}
+	tmp := t.TempDir()
+	data := filepath.Join(tmp, "noise.csv")
+	os.WriteFile(data, []byte(strings.Join(lines, "\n")+"\n"), 0o644)
+	dir := filepath.Join(tmp, "fit")
+	code, stdout, stderr := runCmd(t, append([]string{"fit", "--data", data, "--date", "week",
+		"--upper", "video_spend,audio_spend", "--search", "search_spend", "--queries", "branded_queries",
+		"--outcome", "conversions", "--controls", "price", "--out", dir}, quick...)...)
+	if code != 0 {
+		t.Fatalf("fit: exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(stdout, "media effects are NOT SUPPORTED by the data") {
+		t.Errorf("stdout does not say the media effects are not supported:\n%s", stdout)
+	}
+	v, _ := os.ReadFile(filepath.Join(dir, "verdict.txt"))
+	if !strings.HasPrefix(string(v), "not trustworthy\n") || !strings.Contains(string(v), "support: media effects are NOT SUPPORTED") {
+		t.Errorf("verdict.txt:\n%s", v)
+	}
+	if code, _, stderr := runCmd(t, "split", "--fit", dir, "--negligible", "1.5"); code != 2 || !strings.Contains(stderr, "--negligible") {
+		t.Errorf("split --negligible 1.5: exit %d, %s", code, stderr)
+	}
+	if code, _, stderr := runCmd(t, "split", "--fit", dir); code != 0 {
+		t.Fatalf("split: exit %d: %s", code, stderr)
+	}
+	v2, _ := os.ReadFile(filepath.Join(dir, "verdict.txt"))
+	if !strings.HasPrefix(string(v2), string(v)) {
+		t.Errorf("split dropped the fit's verdict lines:\n%s\nnow\n%s", v, v2)
 	}
 }

@@ -36,10 +36,13 @@ type Summary struct {
 	Warnings []Warning
 }
 
-// RegionSummary is the name and population (0 when absent) of a region.
+// RegionSummary is the name and population (0 when absent) of a region
+// and its totals over weeks: all spend columns together, queries and the
+// outcome, in the data's units.
 type RegionSummary struct {
-	Name       string
-	Population float64
+	Name                    string
+	Population              float64
+	Spend, Queries, Outcome float64
 }
 
 // ColumnSummary describes one column's national weekly series.
@@ -65,8 +68,22 @@ func Summarize(d *Dataset) Summary {
 	nat := d.National()
 	s := Summary{File: d.File, Weeks: len(d.Weeks), First: d.Weeks[0], Last: d.Weeks[len(d.Weeks)-1], Warnings: d.Warnings}
 	if d.Spec.Region != "" {
+		sum := func(x []float64) float64 {
+			t := 0.0
+			for _, v := range x {
+				t += v
+			}
+			return t
+		}
 		for _, r := range d.Regions {
-			s.Regions = append(s.Regions, RegionSummary{r.Name, r.Population})
+			rs := RegionSummary{Name: r.Name, Population: r.Population, Queries: sum(r.Queries), Outcome: sum(r.Outcome)}
+			for _, x := range r.Upper {
+				rs.Spend += sum(x)
+			}
+			for _, x := range r.Search {
+				rs.Spend += sum(x)
+			}
+			s.Regions = append(s.Regions, rs)
 		}
 	}
 	add := func(name, role string, x []float64) {
@@ -126,14 +143,32 @@ func (s Summary) WriteText(w io.Writer) error {
 	if len(s.Regions) == 0 {
 		fmt.Fprintf(ew, "Regions:  none (national data)\n")
 	} else {
-		names := make([]string, len(s.Regions))
-		for i, r := range s.Regions {
-			names[i] = r.Name
-			if r.Population > 0 {
-				names[i] += " (population " + human(r.Population) + ")"
-			}
+		fmt.Fprintf(ew, "Regions:  %d (fitted as their national sum)\n", len(s.Regions))
+	}
+	if len(s.Regions) > 0 {
+		fmt.Fprintln(ew)
+		pop := s.Regions[0].Population > 0
+		head := []string{"region"}
+		if pop {
+			head = append(head, "population")
 		}
-		fmt.Fprintf(ew, "Regions:  %d: %s\n", len(s.Regions), strings.Join(names, ", "))
+		rows := [][]string{append(head, "spend", "share of spend", "queries", "outcome")}
+		all := 0.0
+		for _, r := range s.Regions {
+			all += r.Spend
+		}
+		for _, r := range s.Regions {
+			row := []string{r.Name}
+			if pop {
+				row = append(row, human(r.Population))
+			}
+			share := "-"
+			if all > 0 {
+				share = fmt.Sprintf("%.1f%%", 100*r.Spend/all)
+			}
+			rows = append(rows, append(row, human(r.Spend), share, human(r.Queries), human(r.Outcome)))
+		}
+		writeTable(ew, rows, 1)
 	}
 	fmt.Fprintln(ew)
 	rows := [][]string{{"column", "role", "min", "median", "max", "zero weeks", "total", "share of spend"}}

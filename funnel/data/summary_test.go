@@ -3,6 +3,7 @@ package data
 import (
 	"bytes"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -96,15 +97,36 @@ func containsFields(text string, fields ...string) bool {
 func TestSummarizeRegions(t *testing.T) {
 	d := mustRead(t, regionFrame(60).csv(), regionSpec)
 	s := Summarize(d)
-	if len(s.Regions) != 3 || s.Regions[1] != (RegionSummary{"south", 3000}) {
+	if len(s.Regions) != 3 || s.Regions[1].Name != "south" || s.Regions[1].Population != 3000 {
 		t.Errorf("regions: got %+v", s.Regions)
 	}
 	var buf bytes.Buffer
 	if err := s.WriteText(&buf); err != nil {
 		t.Fatal(err)
 	}
-	if want := "Regions:  3: north (population 1000), south (population 3000), west (population 2000)\n"; !strings.Contains(buf.String(), want) {
-		t.Errorf("text lacks %q:\n%s", want, buf.String())
+	// one row per region, columns aligned; totals in the data's units
+	text := buf.String()
+	if want := "Regions:  3 (fitted as their national sum)\n\nregion  population   spend  share of spend  queries  outcome\nnorth         1000  150237           22.2%   360243   239730\n"; !strings.Contains(text, want) {
+		t.Errorf("text lacks %q:\n%s", want, text)
+	}
+	lines := strings.Split(text, "\n")
+	i := slices.IndexFunc(lines, func(l string) bool { return strings.HasPrefix(l, "region ") })
+	if i < 0 || len(lines) < i+4 || !strings.HasPrefix(lines[i+2], "south         3000") || len(lines[i+1]) != len(lines[i]) || len(lines[i+3]) != len(lines[i]) {
+		t.Errorf("region table not one aligned row per region:\n%s", text)
+	}
+	var shares float64
+	for _, r := range s.Regions {
+		shares += r.Spend
+		q := 0.0
+		for _, v := range d.Regions[slices.IndexFunc(d.Regions, func(g Region) bool { return g.Name == r.Name })].Queries {
+			q += v
+		}
+		if r.Queries != q {
+			t.Errorf("%s: queries total %v, want %v", r.Name, r.Queries, q)
+		}
+	}
+	if math.Abs(shares-s.Columns[0].Total-s.Columns[1].Total-s.Columns[2].Total) > 1e-9*shares {
+		t.Errorf("regions' spend %v does not add up to the spend columns' totals", shares)
 	}
 	// Totals are national: video in week 0 is 1000+2000+1500.
 	total := 0.0

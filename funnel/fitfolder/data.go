@@ -81,3 +81,28 @@ func column(spec data.Spec, s data.Series, col string) []float64 {
 	}
 	panic("fitfolder: unknown data column " + col)
 }
+
+// WeeklyRange returns the least and greatest weekly value of column col
+// summed over regions, among the weeks where it is above zero (for a spend
+// column: the range of weekly spend the data have seen). Both are zero
+// when no week is above zero. It panics if col is not a column of the
+// data's spec.
+func (d *Data) WeeklyRange(col string) (lo, hi float64) {
+	sum := make([]float64, len(d.Weeks))
+	for _, r := range d.Regions {
+		for t, v := range column(d.Spec, r.Series, col) {
+			sum[t] += v
+		}
+	}
+	first := true
+	for _, v := range sum {
+		if v <= 0 {
+			continue
+		}
+		if first {
+			lo, hi, first = v, v, false
+		}
+		lo, hi = min(lo, v), max(hi, v)
+	}
+	return lo, hi
+}

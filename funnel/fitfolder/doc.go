@@ -19,6 +19,11 @@
 //	breakeven.csv         Breakeven
 //	fitted.csv            Fitted
 //	curves.csv            Curve
+//	returns.csv           Return (absent in folders written before it existed)
+//	plan.csv              PlanChannel: the budget plan `spillway allocate` wrote, one row per channel
+//	plan_weekly.csv       PlanWeek: the plan's spend per week and channel
+//	plan.json             PlanSummary: totals, the gain with its interval, marginal returns, the check
+//	plan.png              the plan's chart (PlanChart)
 //
 // The tables are fixed-schema CSV read and written by package table, so
 // every error names the file, the line and the column at fault (*Error).

@@ -24,6 +24,9 @@ type Fit struct {
 	Stages  []*Stage // in StageNames order
 	Verdict Verdict
 	Split
+	// Plan is the budget plan `spillway allocate` wrote into the folder
+	// (plan.csv, plan_weekly.csv, plan.json); nil when there is none.
+	Plan *Plan
 }
 
 // Open reads what a fit folder needs to be refitted or split: spec.json,
@@ -80,9 +83,10 @@ func (f *Fit) ReadDraws() error {
 }
 
 // Load reads the fit folder dir for the charts and the report: Open, then
-// every stage's summary.csv and stats.json, verdict.txt and the split's
-// tables, checking headers, cells and cross-references (channels the spec
-// names, draws of effects that effects.csv holds). The draws are not read.
+// every stage's summary.csv and stats.json, verdict.txt, the split's
+// tables and the budget plan if the folder holds one, checking headers,
+// cells and cross-references (channels the spec names, draws of effects
+// that effects.csv holds). The draws are not read.
 func Load(dir string) (*Fit, error) {
 	f, err := Open(dir)
 	if err != nil {
@@ -100,6 +104,11 @@ func Load(dir string) (*Fit, error) {
 	}
 	if f.Split, err = readSplit(dir, f.Run); err != nil {
 		return nil, err
+	}
+	if HasPlan(dir) {
+		if f.Plan, err = ReadPlan(dir); err != nil {
+			return nil, err
+		}
 	}
 	return f, nil
 }
@@ -173,6 +182,17 @@ func (s *Split) Effect(channel, path, window string) (Effect, bool) {
 		}
 	}
 	return Effect{}, false
+}
+
+// ReturnMeasure returns the returns.csv row for channel, window and
+// measure; ok is false when there is none (or no returns.csv).
+func (s *Split) ReturnMeasure(channel, window, measure string) (Return, bool) {
+	for _, r := range s.Returns {
+		if r.Channel == channel && r.Window == window && r.Measure == measure {
+			return r, true
+		}
+	}
+	return Return{}, false
 }
 
 // BorrowedMeasure returns the borrowed.csv row for channel and measure

@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 	"time"
@@ -68,6 +69,13 @@ func TestLoadRoundTrip(t *testing.T) {
 		len(f.Sensitivity) != 38 || len(f.Borrowed) != 4 {
 		t.Errorf("row counts: weekly %d curves %d fitted %d sensitivity %d borrowed %d",
 			len(f.Weekly), len(f.Curves), len(f.Fitted), len(f.Sensitivity), len(f.Borrowed))
+	}
+	// returns.csv reads back as written (float text round-trips exactly)
+	if !slices.Equal(f.Returns, fx.Returns) || len(fx.Returns) == 0 {
+		t.Errorf("returns.csv: %d rows read, %d written, or they differ", len(f.Returns), len(fx.Returns))
+	}
+	if r, ok := f.ReturnMeasure("video_spend", "all", "marginal_return"); !ok || r.Mean <= 0 {
+		t.Errorf("marginal return of video: %v %v", r, ok)
 	}
 	if rho, ok := f.BreakevenRho("video_spend"); !ok || rho != 0.45 {
 		t.Errorf("video break-even: got %v %v, want 0.45", rho, ok)
@@ -205,7 +213,7 @@ func TestUndefinedEffects(t *testing.T) {
 	lines := strings.Split(string(b), "\n")
 	for i, ln := range lines {
 		if strings.HasPrefix(ln, "audio_spend,mediated_share,2024Q1,") {
-			lines[i] = "audio_spend,mediated_share,2024Q1,NaN,NaN,NaN,NaN,"
+			lines[i] = "audio_spend,mediated_share,2024Q1,NaN,NaN,NaN,NaN,,,,,"
 		}
 	}
 	os.WriteFile(p, []byte(strings.Join(lines, "\n")), 0o644)
@@ -262,6 +270,25 @@ func TestWriteLoadLossless(t *testing.T) {
 	for k, s := range in.Stages {
 		if g, w := fmt.Sprintf("%v %v", f.Stages[k].Params, f.Stages[k].Stats), fmt.Sprintf("%v %v", s.Params, s.Stats); g != w {
 			t.Errorf("%s: summary.csv or stats.json read back differs", s.Name)
+		}
+	}
+}
+
+// TestWeeklyRange checks the range of weekly spend against the fixture's
+// columns, weeks without spend left out.
+func TestWeeklyRange(t *testing.T) {
+	fx, f := writeFixture(t, fitfoldertest.Options{})
+	for _, col := range []string{"video_spend", "audio_spend"} {
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for _, v := range fx.Columns[col] {
+			if v > 0 {
+				lo, hi = math.Min(lo, v), math.Max(hi, v)
+			}
+		}
+		gl, gh := f.Data.WeeklyRange(col)
+		// data.csv stores the numbers as written, so allow rounding
+		if math.Abs(gl-lo) > 1e-6*hi || math.Abs(gh-hi) > 1e-6*hi {
+			t.Errorf("%s: range %g..%g, want %g..%g", col, gl, gh, lo, hi)
 		}
 	}
 }

@@ -26,6 +26,19 @@ type Run struct {
 	Command  string    `json:"command"`
 	DataFile string    `json:"data_file"`
 	Version  string    `json:"version"`
+	// Labels are the display names the charts and the report use; zero
+	// means names made from the column names.
+	Labels Labels `json:"labels,omitzero"`
+}
+
+// Labels are the names a review shows instead of column names: a label
+// per spend column ("Online video" for video_spend), the outcome's name
+// ("orders") and the currency of spend ("EUR"). Empty fields fall back on
+// the column names and no currency.
+type Labels struct {
+	Channels map[string]string `json:"channels,omitempty"`
+	Outcome  string            `json:"outcome,omitempty"`
+	Currency string            `json:"currency,omitempty"`
 }
 
 // LiftTestsFile is the fit folder's copy of the lift-test file a fit was
@@ -40,10 +53,14 @@ func jsonFile(v any) ([]byte, error) {
 
 // readJSON decodes the JSON file at path into v; a decoding error is an
 // *Error at the line (and field) at fault.
-func readJSON(path string, v any) error {
+func readJSON(path string, v any) error { return readJSONHint(path, hintFit, v) }
+
+// readJSONHint is readJSON with hint saying what writes the file, for the
+// message when it is missing.
+func readJSONHint(path, hint string, v any) error {
 	b, err := os.ReadFile(path)
 	if err != nil {
-		return openError(path, hintFit, err)
+		return openError(path, hint, err)
 	}
 	if err := json.NewDecoder(bytes.NewReader(b)).Decode(v); err != nil {
 		var se *json.SyntaxError

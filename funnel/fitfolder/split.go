@@ -2,6 +2,7 @@ package fitfolder
 
 import (
 	"fmt"
+	"os"
 	"path/filepath"
 	"slices"
 	"sort"
@@ -24,6 +25,9 @@ type Split struct {
 	Breakeven   []Breakeven
 	Fitted      []Fitted
 	Curves      []Curve
+	// Returns is returns.csv; it is absent (nil) in fit folders written
+	// before the file existed.
+	Returns []Return
 }
 
 // Paths of effects.csv.
@@ -41,10 +45,21 @@ const (
 // PerUnitSpend is the path's effect per unit of the channel's spend in the
 // window, NaN when undefined (a share, a window without spend). A value the
 // file gives as NaN, NA or an infinity (a share of a zero total) is NaN.
+//
+// The last four say how much the data moved the effect from its prior
+// (NaN when not computed): PriorQ05 and PriorQ95 are the prior's 90%
+// interval of the same effect, Contraction is 1 - the posterior's 90%
+// interval width over the prior's, and PNegligible the posterior
+// probability that the effect is negligible (a path under a fraction of the
+// channel's total, a total under that fraction of the outcome in the
+// window; NaN for a share).
 type Effect struct {
 	Channel, Path, Window string
 	Mean, Q05, Q50, Q95   float64
 	PerUnitSpend          float64
+
+	PriorQ05, PriorQ95       float64
+	Contraction, PNegligible float64
 }
 
 type effectRow struct {
@@ -56,6 +71,10 @@ type effectRow struct {
 	Q50          table.UndefFloat `csv:"q50"`
 	Q95          table.UndefFloat `csv:"q95"`
 	PerUnitSpend table.OptFloat   `csv:"per_unit_spend"`
+	PriorQ05     table.OptFloat   `csv:"prior_q05"`
+	PriorQ95     table.OptFloat   `csv:"prior_q95"`
+	Contraction  table.OptFloat   `csv:"contraction"`
+	PNegligible  table.OptFloat   `csv:"p_negligible"`
 }
 
 // DrawKey names one series of effect_draws.csv.
@@ -97,6 +116,27 @@ type borrowedRow struct {
 	Q05     table.Float `csv:"q05"`
 	Q50     table.Float `csv:"q50"`
 	Q95     table.Float `csv:"q95"`
+}
+
+// Return is one row of returns.csv: an upper channel's return on spend
+// ("return_on_spend", outcome per unit of spend) or cost per incremental
+// outcome ("cost_per_incremental", spend per unit of outcome) over a
+// window, or its marginal return at the current weekly spend
+// ("marginal_return", extra weekly outcome per extra unit of weekly spend,
+// window "all"). A value the file gives as NaN or NA is NaN.
+type Return struct {
+	Channel, Window, Measure string
+	Mean, Q05, Q50, Q95      float64
+}
+
+type returnRow struct {
+	Channel string           `csv:"channel"`
+	Window  string           `csv:"window"`
+	Measure string           `csv:"measure"`
+	Mean    table.UndefFloat `csv:"mean"`
+	Q05     table.UndefFloat `csv:"q05"`
+	Q50     table.UndefFloat `csv:"q50"`
+	Q95     table.UndefFloat `csv:"q95"`
 }
 
 // Weekly is one row of weekly.csv: a channel's contribution through one
@@ -202,7 +242,8 @@ func (s *Split) Files() (map[string][]byte, error) {
 	var draws []effectDrawRow
 	for i, e := range s.Effects {
 		effects[i] = effectRow{e.Channel, e.Path, e.Window, table.UndefFloat(e.Mean), table.UndefFloat(e.Q05),
-			table.UndefFloat(e.Q50), table.UndefFloat(e.Q95), table.OptFloat(e.PerUnitSpend)}
+			table.UndefFloat(e.Q50), table.UndefFloat(e.Q95), table.OptFloat(e.PerUnitSpend),
+			table.OptFloat(e.PriorQ05), table.OptFloat(e.PriorQ95), table.OptFloat(e.Contraction), table.OptFloat(e.PNegligible)}
 		ds := s.EffectDraws[DrawKey{e.Channel, e.Path, e.Window}]
 		for j, d := range ds.Draw {
 			draws = append(draws, effectDrawRow{e.Channel, e.Path, e.Window, table.Int(d), table.Float(ds.Value[j])})
@@ -232,6 +273,16 @@ func (s *Split) Files() (map[string][]byte, error) {
 	for i, c := range s.Curves {
 		curves[i] = curveRow{c.Channel, c.Path, table.Float(c.WeeklySpend), table.Float(c.Mean), table.Float(c.Q05),
 			table.Float(c.Q95), table.Float(c.CurrentWeeklySpend)}
+	}
+	returns := make([]returnRow, len(s.Returns))
+	for i, r := range s.Returns {
+		returns[i] = returnRow{r.Channel, r.Window, r.Measure, table.UndefFloat(r.Mean), table.UndefFloat(r.Q05),
+			table.UndefFloat(r.Q50), table.UndefFloat(r.Q95)}
+	}
+	if s.Returns != nil {
+		if err := add("returns.csv", returns); err != nil {
+			return nil, err
+		}
 	}
 	for _, t := range []struct {
 		name string
@@ -303,7 +354,8 @@ func readSplit(dir string, run Run) (Split, error) {
 		}
 		seen[k] = true
 		s.Effects = append(s.Effects, Effect{r.Channel, r.Path, r.Window, float64(r.Mean), float64(r.Q05),
-			float64(r.Q50), float64(r.Q95), float64(r.PerUnitSpend)})
+			float64(r.Q50), float64(r.Q95), float64(r.PerUnitSpend),
+			float64(r.PriorQ05), float64(r.PriorQ95), float64(r.Contraction), float64(r.PNegligible)})
 	}
 	if len(s.Effects) == 0 {
 		return s, &Error{File: path, Err: fmt.Errorf("no rows")}
@@ -412,6 +464,24 @@ func readSplit(dir string, run Run) (Split, error) {
 			return s, err
 		}
 		s.Fitted = append(s.Fitted, Fitted{r.Stage, time.Time(r.Week), float64(r.Actual), float64(r.Mean), float64(r.Q05), float64(r.Q95)})
+	}
+
+	path = p("returns.csv")
+	if _, err := os.Stat(path); err == nil {
+		var returns []returnRow
+		if lines, err = readTable(path, hintSplit, &returns); err != nil {
+			return s, err
+		}
+		s.Returns = []Return{}
+		for i, r := range returns {
+			if err := upper(path, lines[i], r.Channel); err != nil {
+				return s, err
+			}
+			if err := oneOf(path, lines[i], "measure", r.Measure, "return_on_spend", "cost_per_incremental", "marginal_return"); err != nil {
+				return s, err
+			}
+			s.Returns = append(s.Returns, Return{r.Channel, r.Window, r.Measure, float64(r.Mean), float64(r.Q05), float64(r.Q50), float64(r.Q95)})
+		}
 	}
 
 	path = p("curves.csv")

@@ -6,6 +6,7 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"path/filepath"
 	"strings"
 
 	"spillway/funnel/mcmc"
@@ -95,4 +96,9 @@ func readVerdict(path string) (Verdict, error) {
 		return Verdict{}, &Error{File: path, Err: errors.New("empty file")}
 	}
 	return v, nil
+}
+
+// ReadVerdict reads dir/verdict.txt (for split, which adds its notes to it).
+func ReadVerdict(dir string) (Verdict, error) {
+	return readVerdict(filepath.Join(dir, "verdict.txt"))
 }

@@ -369,6 +369,30 @@ func TestJudge(t *testing.T) {
 	bad := []mcmc.Summary{{Parameter: "q", SD: 1, Rhat: math.NaN(), ESSBulk: math.NaN(), ESSTail: 500}}
 	if v := mcmc.Judge(f, bad); v.Trustworthy || len(v.Reasons) != 2 {
 		t.Errorf("NaN diagnostics of a varying parameter: got %+v", v)
+	} else if !strings.Contains(v.Reasons[0], "not computable") {
+		t.Errorf("NaN R-hat should read as not computable: got %q", v.Reasons[0])
+	}
+	// A chain that never moved (spillway fit --chains 1 --warmup 20 --draws
+	// 20 on the demo left every demand parameter at its initial value):
+	// nothing varies, so nothing is computable, and the fit is not
+	// trustworthy even without divergences. It used to pass silently, and
+	// the console printed "max R-hat 0.000, min bulk ESS 1e300".
+	stuck := []mcmc.Summary{
+		{Parameter: "a", Mean: 1, Rhat: math.NaN(), ESSBulk: math.NaN(), ESSTail: math.NaN()},
+		{Parameter: "b", Mean: 2, Rhat: math.NaN(), ESSBulk: math.NaN(), ESSTail: math.NaN()},
+	}
+	if v := mcmc.Judge(f, stuck); v.Trustworthy || len(v.Reasons) != 1 || !strings.Contains(v.Reasons[0], "not computable") {
+		t.Errorf("stuck chains: got %+v", v)
+	}
+	if r, b, e := mcmc.Worst(stuck); !math.IsNaN(r) || !math.IsNaN(b) || !math.IsNaN(e) {
+		t.Errorf("Worst of stuck chains: got %v %v %v, want NaN", r, b, e)
+	}
+	mixed := append(append([]mcmc.Summary(nil), good...), stuck[0], mcmc.Summary{Parameter: "c", SD: 1, Rhat: 1.02, ESSBulk: 300, ESSTail: 800})
+	if r, b, e := mcmc.Worst(mixed); r != 1.02 || b != 300 || e != 800 {
+		t.Errorf("Worst: got %v %v %v, want 1.02 300 800 (the constant parameter skipped)", r, b, e)
+	}
+	if r, _, _ := mcmc.Worst(append(mixed, bad...)); !math.IsNaN(r) {
+		t.Errorf("Worst with a NaN R-hat: got %v, want NaN", r)
 	}
 }
 

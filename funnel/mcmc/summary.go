@@ -120,10 +120,13 @@ type Verdict struct {
 // ESS below MinESS, any divergent transition, or a chain's E-BFMI below
 // MinEBFMI make the fit not trustworthy, each adding one reason naming the
 // worst parameter or the chains concerned. A parameter whose draws are all
-// exactly equal (fixed by construction) is skipped; any other NaN R-hat or
-// ESS counts as a failure. Chains whose Stats are all zero (as after
-// ReadDraws) are not checked for divergences or E-BFMI; a warning says so.
-// Tree-depth saturation is reported as a warning.
+// exactly equal (fixed by construction) is skipped, unless every parameter
+// is: then the chains never moved and no diagnostic can be computed, which
+// is a reason of its own. Any other NaN R-hat or ESS (too few draws, NaN
+// draws) is "not computable" and also a failure: a diagnostic that cannot
+// be computed cannot vouch for the fit. Chains whose Stats are all zero (as
+// after ReadDraws) are not checked for divergences or E-BFMI; a warning
+// says so. Tree-depth saturation is reported as a warning.
 func Judge(f *Fit, s []Summary) Verdict {
 	var v Verdict
 	type worst struct {
@@ -131,27 +134,38 @@ func Judge(f *Fit, s []Summary) Verdict {
 		name  string
 		value float64
 	}
-	var rh, eb, et worst
+	var rh, eb, et, nrh, neb, net worst
 	note := func(w *worst, name string, value float64, worse func(a, b float64) bool) {
 		w.n++
 		if w.n == 1 || worse(value, w.value) {
 			w.name, w.value = name, value
 		}
 	}
-	// NaN is the worst of all.
-	higher := func(a, b float64) bool { return math.IsNaN(a) || a > b }
-	lower := func(a, b float64) bool { return math.IsNaN(a) || a < b }
+	higher := func(a, b float64) bool { return a > b }
+	lower := func(a, b float64) bool { return a < b }
+	first := func(a, b float64) bool { return false }
+	varying := 0
 	for _, p := range s {
 		if p.Constant() {
 			continue
 		}
-		if math.IsNaN(p.Rhat) || p.Rhat > MaxRhat {
+		varying++
+		switch {
+		case math.IsNaN(p.Rhat):
+			note(&nrh, p.Parameter, p.Rhat, first)
+		case p.Rhat > MaxRhat:
 			note(&rh, p.Parameter, p.Rhat, higher)
 		}
-		if math.IsNaN(p.ESSBulk) || p.ESSBulk < MinESS {
+		switch {
+		case math.IsNaN(p.ESSBulk):
+			note(&neb, p.Parameter, p.ESSBulk, first)
+		case p.ESSBulk < MinESS:
 			note(&eb, p.Parameter, p.ESSBulk, lower)
 		}
-		if math.IsNaN(p.ESSTail) || p.ESSTail < MinESS {
+		switch {
+		case math.IsNaN(p.ESSTail):
+			note(&net, p.Parameter, p.ESSTail, first)
+		case p.ESSTail < MinESS:
 			note(&et, p.Parameter, p.ESSTail, lower)
 		}
 	}
@@ -160,6 +174,17 @@ func Judge(f *Fit, s []Summary) Verdict {
 			return "1 parameter"
 		}
 		return fmt.Sprintf("%d parameters", n)
+	}
+	if varying == 0 && len(s) > 0 {
+		v.Reasons = append(v.Reasons, fmt.Sprintf("R-hat and ESS not computable: the draws of all %s are identical (the chains never moved)", plural(len(s))))
+	}
+	for _, w := range []struct {
+		w    worst
+		what string
+	}{{nrh, "R-hat"}, {neb, "bulk ESS"}, {net, "tail ESS"}} {
+		if w.w.n > 0 {
+			v.Reasons = append(v.Reasons, fmt.Sprintf("%s not computable for %s (first %s; too few draws or NaN draws)", w.what, plural(w.w.n), w.w.name))
+		}
 	}
 	if rh.n > 0 {
 		v.Reasons = append(v.Reasons, fmt.Sprintf("R-hat above %.2f for %s (worst %s: %.4g)", MaxRhat, plural(rh.n), rh.name, rh.value))
@@ -205,4 +230,43 @@ func Judge(f *Fit, s []Summary) Verdict {
 	}
 	v.Trustworthy = len(v.Reasons) == 0
 	return v
+}
+
+// Worst returns the largest R-hat and the smallest bulk and tail ESS over
+// the parameters of s whose draws vary. A value is NaN when it cannot be
+// computed: a varying parameter's diagnostic is NaN, or no parameter
+// varies at all (the chains never moved). Callers print NaN as "not
+// computable", never as a number.
+func Worst(s []Summary) (rhat, essBulk, essTail float64) {
+	rhat, essBulk, essTail = math.Inf(-1), math.Inf(1), math.Inf(1)
+	varying := false
+	for _, p := range s {
+		if p.Constant() {
+			continue
+		}
+		varying = true
+		rhat = nanMax(rhat, p.Rhat)
+		essBulk = nanMin(essBulk, p.ESSBulk)
+		essTail = nanMin(essTail, p.ESSTail)
+	}
+	if !varying {
+		return math.NaN(), math.NaN(), math.NaN()
+	}
+	return rhat, essBulk, essTail
+}
+
+// nanMax and nanMin propagate NaN: a diagnostic that cannot be computed is
+// the worst of all.
+func nanMax(a, b float64) float64 {
+	if math.IsNaN(a) || math.IsNaN(b) {
+		return math.NaN()
+	}
+	return math.Max(a, b)
+}
+
+func nanMin(a, b float64) float64 {
+	if math.IsNaN(a) || math.IsNaN(b) {
+		return math.NaN()
+	}
+	return math.Min(a, b)
 }

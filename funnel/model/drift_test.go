@@ -278,3 +278,40 @@ func BenchmarkDriftLogProbGrad(b *testing.B) {
 		tg.LogProbGrad(g, x)
 	}
 }
+
+// TestSmoothPriorDrawAndLogLik checks that a prior draw of a stage with
+// drifting channels and a moving baseline covers every parameter (the
+// smooths' from their priors: sd and length-scale positive, invgamma's
+// median about right), and that LogLik reads sigma by meaning (it is not
+// the last value of such a draw).
+func TestSmoothPriorDrawAndLogLik(t *testing.T) {
+	sc := testScaled(60, 15)
+	st, _ := Outcome(sc, Options{Drift: map[string]bool{"video": true}, Baseline: BaselineSmooth})
+	rng := rand.New(rand.NewPCG(15, 15))
+	l := st.Layout()
+	d := l.Channels()[st.ChannelIndex("video")].Drift
+	var lens []float64
+	for range 2000 {
+		v, err := st.PriorDraw(nil, rng)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(v) != len(st.Names()) || !(v[d.SD] > 0) || !(v[d.Len] > 0) || !(v[l.Baseline().Len] > 0) {
+			t.Fatalf("prior draw %v", v)
+		}
+		lens = append(lens, v[d.Len])
+	}
+	slices.Sort(lens)
+	if m := lens[len(lens)/2]; math.Abs(m-45.9) > 3 {
+		t.Errorf("median prior length-scale %.1f weeks, want about 45.9", m)
+	}
+	v, _ := st.PriorDraw(nil, rng)
+	ll, pred := st.LogLik(nil, nil, v)
+	sigma := l.View(v).Sigma()
+	for i, y := range st.Y {
+		z := (y - pred[i]) / sigma
+		if want := -math.Log(sigma) - 0.5*math.Log(2*math.Pi) - 0.5*z*z; math.Abs(ll[i]-want) > 1e-12 {
+			t.Fatalf("week %d: log likelihood %v, want %v", i, ll[i], want)
+		}
+	}
+}

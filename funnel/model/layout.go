@@ -264,6 +264,19 @@ func (p Params) ApplyDrift(h []float64, j int) {
 	}
 }
 
+// Last returns the drift multiplier of the stage's j-th channel in the
+// data's last week, the value ApplyDrift holds past the data (1 when the
+// channel does not drift).
+func (p Params) Last(j int) float64 {
+	d := p.l.channels[j].Drift
+	if !d.Has() {
+		return 1
+	}
+	var buf [64]float64
+	c := d.Basis.coefs(buf[:0], p.v[d.SD], p.v[d.Len], p.v[d.Z:d.Z+d.Basis.M])
+	return math.Exp(d.Basis.at(d.Basis.T-1, c))
+}
+
 // Baseline writes the moving baseline's f(t) (scaled units, averaging zero
 // over the fitted weeks) into dst, weeks from the data's first (held at the
 // last week's value past it), and returns it; nil when the stage has a

@@ -96,37 +96,89 @@ func (p Prior) Support(def Support) Support {
 
 // Check returns an error if the parameters of p are not valid for its family.
 func (p Prior) Check() error {
-	bad := func(f string, args ...any) error { return fmt.Errorf(f, args...) }
-	finite := !math.IsNaN(p.P1) && !math.IsInf(p.P1, 0) && !math.IsNaN(p.P2) && !math.IsInf(p.P2, 0)
-	if !finite {
-		return bad("prior parameters must be finite numbers")
+	_, err := p.CheckAt()
+	return err
+}
+
+// PriorLimit bounds the size of a prior's numbers: a scale, shape or rate
+// from 1/PriorLimit to PriorLimit, a mean or fixed value within
+// ±PriorLimit. The model's parameters are in scaled units of order one
+// (DESIGN.md's scaling), so a number outside is a typo or a wish to hold
+// the parameter fixed; beyond it the sampler finds no usable step size
+// (normal,0,1e-300 left it without an initial point).
+const PriorLimit = 1e6
+
+// Arity returns how many of P1, P2 the family takes (normal, gamma,
+// invgamma and beta two; halfnormal and fixed one; flat and jeffreys none),
+// or -1 for an unknown family.
+func (f Family) Arity() int {
+	switch f {
+	case Normal, Gamma, InvGamma, Beta:
+		return 2
+	case HalfNormal, Fixed:
+		return 1
+	case Flat, Jeffreys:
+		return 0
 	}
+	return -1
+}
+
+// CheckAt is Check that also says which number is at fault: 1 for P1, 2
+// for P2, 0 for the family itself.
+func (p Prior) CheckAt() (which int, err error) {
+	bad := func(w int, f string, args ...any) (int, error) { return w, fmt.Errorf(f, args...) }
+	if p.Family.Arity() < 0 {
+		return bad(0, "unknown family %q; expected normal, halfnormal, gamma, invgamma, beta, flat, jeffreys or fixed", p.Family)
+	}
+	for i, v := range []float64{p.P1, p.P2} {
+		if math.IsNaN(v) || math.IsInf(v, 0) {
+			return bad(i+1, "prior parameters must be finite numbers")
+		}
+	}
+	// positive: the number, a scale, shape or rate, must be in
+	// [1/PriorLimit, PriorLimit]; what names it in the message.
+	positive := func(w int, v float64, what string) (int, error) {
+		switch {
+		case v <= 0:
+			return bad(w, "%s needs %s > 0", p.Family, what)
+		case v < 1/PriorLimit || v > PriorLimit:
+			return bad(w, "%s %s %g is outside %g to %g: the model's parameters are in scaled units of order one (to hold a parameter at a value, use fixed)", p.Family, what, v, 1/PriorLimit, PriorLimit)
+		}
+		return 0, nil
+	}
+	within := func(w int, v float64, what string) (int, error) {
+		if math.Abs(v) > PriorLimit {
+			return bad(w, "%s %s %g is outside ±%g: the model's parameters are in scaled units of order one", p.Family, what, v, PriorLimit)
+		}
+		return 0, nil
+	}
+	var w int
 	switch p.Family {
 	case Normal:
-		if p.P2 <= 0 {
-			return bad("normal needs p1 = mean and p2 = sd > 0")
+		if w, err = within(1, p.P1, "mean p1"); err == nil {
+			w, err = positive(2, p.P2, "sd p2")
 		}
 	case HalfNormal:
-		if p.P1 <= 0 {
-			return bad("halfnormal needs p1 = sd > 0")
-		}
+		w, err = positive(1, p.P1, "sd p1")
 	case Gamma:
-		if p.P1 <= 0 || p.P2 <= 0 {
-			return bad("gamma needs p1 = shape > 0 and p2 = rate > 0")
+		if w, err = positive(1, p.P1, "shape p1"); err == nil {
+			w, err = positive(2, p.P2, "rate p2")
 		}
 	case Beta:
-		if p.P1 <= 0 || p.P2 <= 0 {
-			return bad("beta needs p1 > 0 and p2 > 0")
+		if w, err = positive(1, p.P1, "p1"); err == nil {
+			w, err = positive(2, p.P2, "p2")
 		}
 	case InvGamma:
-		if p.P1 <= 0 || p.P2 <= 0 {
-			return bad("invgamma needs p1 = shape > 0 and p2 = scale > 0")
+		if w, err = positive(1, p.P1, "shape p1"); err == nil {
+			w, err = positive(2, p.P2, "scale p2")
 		}
-	case Flat, Jeffreys, Fixed:
-	default:
-		return bad("unknown family %q; expected normal, halfnormal, gamma, invgamma, beta, flat, jeffreys or fixed", p.Family)
+	case Fixed:
+		w, err = within(1, p.P1, "value p1")
 	}
-	return nil
+	if err != nil {
+		return w, err
+	}
+	return 0, nil
 }
 
 func (p Prior) String() string {

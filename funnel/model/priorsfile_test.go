@@ -6,16 +6,32 @@ import (
 	"testing"
 )
 
+// stageCheck is the PriorCheck of the test model's three stages.
+func stageCheck(t *testing.T) PriorCheck {
+	st := stages(t, testScaled(60, 1), Options{})
+	return func(name string, p Prior) (has bool, which int, err error) {
+		for _, s := range st {
+			h, w, err := s.CheckPrior(name, p)
+			if err != nil {
+				return true, w, err
+			}
+			has = has || h
+		}
+		return has, 0, nil
+	}
+}
+
 func TestReadPriors(t *testing.T) {
-	known := func(n string) bool { return n == "K[video]" || n == "gamma" || n == "sigma_q" }
-	good := "parameter,family,p1,p2\r\nK[video],gamma,2,4\ngamma, HalfNormal ,0.3,\nsigma_q,jeffreys,,\n"
-	p, err := ReadPriors(strings.NewReader(good), "p.csv", known)
+	check := stageCheck(t)
+	good := "parameter,family,p1,p2\r\nK[video],gamma,2,4\ngamma, HalfNormal ,0.3,\nsigma_q,jeffreys,,\nmu_q,flat,,\nb_q,fixed,0,\n"
+	p, err := ReadPriors(strings.NewReader(good), "p.csv", check)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if p["K[video]"] != (Prior{Gamma, 2, 4}) || p["gamma"] != (Prior{HalfNormal, 0.3, 0}) || p["sigma_q"].Family != Jeffreys {
+	if p["K[video]"] != (Prior{Gamma, 2, 4}) || p["gamma"] != (Prior{HalfNormal, 0.3, 0}) || p["sigma_q"].Family != Jeffreys || p["b_q"] != (Prior{Fixed, 0, 0}) {
 		t.Errorf("got %v", p)
 	}
+	long := strings.Repeat("x", 10000)
 	for _, c := range []struct{ text, want string }{
 		{"", "p.csv:1: empty file"},
 		{"parameter,family,p1\n", "p.csv:1: header has 3 columns"},
@@ -24,12 +40,35 @@ func TestReadPriors(t *testing.T) {
 		{"parameter,family,p1,p2\ngamma,normal,0,1\ngamma,normal,0,2\n", "p.csv:3:1: parameter gamma already has a prior on line 2"},
 		{"parameter,family,p1,p2\ngamma,cauchy,0,1\n", "p.csv:2:2: gamma: unknown family \"cauchy\""},
 		{"parameter,family,p1,p2\ngamma,normal,zero,1\n", "p.csv:2:3: p1 \"zero\" is not a number"},
-		{"parameter,family,p1,p2\ngamma,normal,0,-1\n", "p.csv:2:2: gamma: normal needs p1 = mean and p2 = sd > 0"},
 		{"parameter,family,p1,p2\ngamma,normal,0\n", "p.csv:2: row has 3 fields"},
+		// a bad p2 is reported at p2's column (4), not the family's
+		{"parameter,family,p1,p2\ngamma,normal,0,-1\n", "p.csv:2:4: gamma: normal needs sd p2 > 0"},
+		{"parameter,family,p1,p2\nK[video],gamma,2,0\n", "p.csv:2:4: K[video]: gamma needs rate p2 > 0"},
+		{"parameter,family,p1,p2\nK[video],gamma,-2,1\n", "p.csv:2:3: K[video]: gamma needs shape p1 > 0"},
+		// a fixed sigma at or below zero is outside its support, located
+		{"parameter,family,p1,p2\nsigma_q,fixed,-1,\n", "p.csv:2:3: sigma_q: fixed value -1 is outside x > 0"},
+		{"parameter,family,p1,p2\nsigma_q,normal,0,1\n", "p.csv:2:2: sigma_q: a scale needs a positive prior"},
+		// an sd so small that the sampler has no usable step size
+		{"parameter,family,p1,p2\ngamma,normal,0,1e-300\n", "p.csv:2:4: gamma: normal sd p2 1e-300 is outside 1e-06 to 1e+06"},
+		{"parameter,family,p1,p2\nsigma_q,halfnormal,1e9,\n", "p.csv:2:3: sigma_q: halfnormal sd p1 1e+09 is outside"},
+		// numbers a family does not take are not ignored silently
+		{"parameter,family,p1,p2\nmu_q,flat,5,7\n", "p.csv:2:3: mu_q: flat takes no numbers; leave p1 empty"},
+		{"parameter,family,p1,p2\ngamma,halfnormal,0.5,2\n", "p.csv:2:4: gamma: halfnormal takes one number, p1; leave p2 empty"},
+		{"parameter,family,p1,p2\nb_q,fixed,,\n", "p.csv:2:3: b_q: fixed takes one number, p1; p1 is empty"},
+		{"parameter,family,p1,p2\nb_q,normal,0,\n", "p.csv:2:4: b_q: normal takes two numbers, p1 and p2; p2 is empty"},
+		// a positive-only family on the intercept, which lies on the real line
+		{"parameter,family,p1,p2\nmu_q,halfnormal,0.5,\n", "p.csv:2:2: mu_q: the intercept lies on the real line"},
+		{"parameter,family,p1,p2\nmu_y,gamma,2,2\n", "p.csv:2:2: mu_y: the intercept lies on the real line"},
+		{"parameter,family,p1,p2\nlam[video],normal,0,1\n", "p.csv:2:2: lam[video]: normal does not fit a parameter on (0, 1)"},
+		// a long cell is quoted as a short excerpt
+		{"parameter,family,p1,p2\n" + long + ",normal,0,1\n", "p.csv:2:1: no parameter named \"xxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxxx...\""},
 	} {
-		_, err := ReadPriors(strings.NewReader(c.text), "p.csv", known)
+		_, err := ReadPriors(strings.NewReader(c.text), "p.csv", check)
 		if err == nil || !strings.HasPrefix(err.Error(), c.want) {
-			t.Errorf("%q: got %v, want prefix %q", c.text, err, c.want)
+			t.Errorf("%.60q: got %v, want prefix %q", c.text, err, c.want)
+		}
+		if err != nil && len(err.Error()) > 400 {
+			t.Errorf("%.60q: message of %d bytes", c.text, len(err.Error()))
 		}
 	}
 }

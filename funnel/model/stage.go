@@ -231,6 +231,76 @@ func (s *Stage) ChannelIndex(col string) int {
 	return -1
 }
 
+// CheckPrior reports whether the stage has a parameter called name and,
+// if so, whether prior p fits it: its numbers are valid for the family
+// (Prior.CheckAt), the family's support suits the parameter (no beta on a
+// coefficient, no positive-only family on the intercept, which the sampler
+// moves on the real line, a positive prior on a scale), and a fixed value
+// lies in the support. which says what is at fault: 0 the family, 1 P1,
+// 2 P2. Target runs the same checks.
+func (s *Stage) CheckPrior(name string, p Prior) (has bool, which int, err error) {
+	def, coef, ok := s.support(name)
+	if !ok {
+		return false, 0, nil
+	}
+	_, which, err = s.fit(name, p, def, coef)
+	return true, which, err
+}
+
+// support returns the default support of the named parameter and whether
+// it is a coefficient of a regressor or channel.
+func (s *Stage) support(name string) (def Support, coefficient, ok bool) {
+	switch name {
+	case s.Intercept:
+		return Real, false, true
+	case s.Sigma:
+		return PositiveReal, false, true
+	}
+	for _, r := range s.Regressors {
+		if r.Name == name {
+			return r.Default, true, true
+		}
+	}
+	for _, c := range s.Channels {
+		for k, q := range c.Params {
+			if q.Name == name {
+				return q.Default, k == 0, true
+			}
+		}
+	}
+	for _, sm := range s.smooths() {
+		for _, q := range sm.Params {
+			if q.Name == name {
+				return q.Default, false, true
+			}
+		}
+	}
+	return 0, false, false
+}
+
+// fit checks prior p for the parameter name with default support def and
+// returns the support it gives the parameter; which is as in CheckPrior.
+func (s *Stage) fit(name string, p Prior, def Support, coefficient bool) (sup Support, which int, err error) {
+	if w, err := p.CheckAt(); err != nil {
+		return 0, w, fmt.Errorf("prior for %s: %v", name, err)
+	}
+	sup = p.Support(def)
+	if p.Family == Flat && coefficient {
+		sup = Real // a flat prior on a coefficient frees its sign
+	}
+	switch {
+	case def == UnitInterval && sup != UnitInterval || def != UnitInterval && sup == UnitInterval:
+		return 0, 0, fmt.Errorf("prior for %s: %s does not fit a parameter on %s", name, p.Family, supportName(def))
+	case name == s.Intercept && sup != Real:
+		return 0, 0, fmt.Errorf("prior for %s: the intercept lies on the real line (the sampler moves it there); %s allows only %s: use normal, flat or fixed", name, p.Family, supportName(sup))
+	case p.Family == Fixed && !inSupport(p.P1, sup):
+		return 0, 1, fmt.Errorf("prior for %s: fixed value %g is outside %s", name, p.P1, supportName(sup))
+	case def == PositiveReal && sup == Real && (name == s.Sigma || s.smoothScale(name)):
+		return 0, 0, fmt.Errorf("prior for %s: a scale needs a positive prior (halfnormal, gamma, jeffreys, flat or fixed above 0), not %s", name, p.Family)
+	}
+	return sup, 0, nil
+}
+
 // Target compiles the stage into a sampler target: its log density is the
 // sum of the terms doc.go lists. It returns an error when a prior does not
 // fit its parameter (a beta prior on a coefficient, say).
@@ -244,21 +314,9 @@ func (s *Stage) Target() (*Target, error) {
 		coefficient[c.Params[0].Name] = true
 	}
 	add := func(name string, p Prior, def Support) (int, error) {
-		if err := p.Check(); err != nil {
-			return 0, fmt.Errorf("prior for %s: %v", name, err)
-		}
-		sup := p.Support(def)
-		if p.Family == Flat && coefficient[name] {
-			sup = Real // a flat prior on a coefficient frees its sign
-		}
-		if def == UnitInterval && sup != UnitInterval || def != UnitInterval && sup == UnitInterval {
-			return 0, fmt.Errorf("prior for %s: %s does not fit a parameter on %s", name, p.Family, supportName(def))
-		}
-		if p.Family == Fixed && !inSupport(p.P1, sup) {
-			return 0, fmt.Errorf("prior for %s: fixed value %g is outside %s", name, p.P1, supportName(sup))
-		}
-		if def == PositiveReal && sup == Real && (name == s.Sigma) {
-			return 0, fmt.Errorf("prior for %s: a scale needs a positive prior", name)
+		sup, _, err := s.fit(name, p, def, coefficient[name])
+		if err != nil {
+			return 0, err
 		}
 		k := len(t.par)
 		pp := param{name: name, prior: p, sup: sup, free: -1}
@@ -300,9 +358,6 @@ func (s *Stage) Target() (*Target, error) {
 	}
 	if t.sigma, err = add(s.Sigma, s.SigmaPrior, PositiveReal); err != nil {
 		return nil, err
-	}
-	if t.par[t.sigma].prior.Family == Fixed && t.par[t.sigma].prior.P1 <= 0 {
-		return nil, fmt.Errorf("prior for %s: fixed value must be > 0", s.Sigma)
 	}
 	// the smooth functions' parameters come after sigma (Names)
 	smooth := func(sm *Smooth) (*smoothEval, error) {
@@ -348,4 +403,15 @@ func resizeTo(x []float64, n int) []float64 {
 		return x[:n]
 	}
 	return make([]float64, n)
+}
+
+// smoothScale reports whether name is a smooth function's sd or
+// length-scale: scales, which need a positive prior like sigma.
+func (s *Stage) smoothScale(name string) bool {
+	for _, sm := range s.smooths() {
+		if sm.Params[0].Name == name || sm.Params[1].Name == name {
+			return true
+		}
+	}
+	return false
 }

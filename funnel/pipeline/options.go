@@ -92,7 +92,7 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 	if err != nil {
 		return o, err
 	}
-	if o.Priors, err = model.LoadPriors(c.Priors, Known(st)); err != nil {
+	if o.Priors, err = model.LoadPriors(c.Priors, CheckPrior(st)); err != nil {
 		return o, err
 	}
 	if st, err = Stages(sc, o); err != nil {

@@ -64,8 +64,14 @@ func TestChoicesOptions(t *testing.T) {
 	}
 
 	misfit := file("misfit.csv", "parameter,family,p1,p2\ngamma,beta,2,2\n")
-	if _, err := (Choices{Priors: misfit}).Options(sc); err == nil || !strings.HasPrefix(err.Error(), misfit+": prior for gamma") {
-		t.Errorf("a beta prior on gamma: got %v, want the file and the parameter named", err)
+	if _, err := (Choices{Priors: misfit}).Options(sc); err == nil || !strings.HasPrefix(err.Error(), misfit+":2:2: gamma: beta does not fit") {
+		t.Errorf("a beta prior on gamma: got %v, want the file, line, column and parameter named", err)
+	}
+	// a prior whose support only shows in the compiled stage: the intercept
+	// lies on the real line, so a halfnormal there is located at its family
+	intercept := file("intercept.csv", "parameter,family,p1,p2\nsigma_y,halfnormal,0.5,\nmu_y,halfnormal,0.5,\n")
+	if _, err := (Choices{Priors: intercept}).Options(sc); !errors.As(err, &pe) || pe.Line != 3 || pe.Column != 2 {
+		t.Errorf("a halfnormal prior on an intercept: got %v, want line 3 column 2", err)
 	}
 
 	if _, err := (Choices{Priors: filepath.Join(dir, "missing.csv")}).Options(sc); !errors.Is(err, os.ErrNotExist) {
@@ -96,6 +102,13 @@ func TestChoicesDrift(t *testing.T) {
 	o, err = Choices{Drift: []string{"video_spend"}, Priors: p}.Options(sc)
 	if err != nil || o.Priors["drift_len_alpha[video_spend]"] != (model.Prior{Family: model.InvGamma, P1: 3, P2: 80}) {
 		t.Errorf("a prior on a drift's length-scale: %+v, %v", o.Priors, err)
+	}
+	neg := filepath.Join(t.TempDir(), "neg.csv")
+	if err := os.WriteFile(neg, []byte("parameter,family,p1,p2\ndrift_sd_alpha[video_spend],normal,0,1\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := (Choices{Drift: []string{"video_spend"}, Priors: neg}).Options(sc); err == nil || !strings.Contains(err.Error(), "a scale needs a positive prior") {
+		t.Errorf("a normal prior on a drift's sd: %v", err)
 	}
 	for _, c := range []struct {
 		ch   Choices

@@ -45,6 +45,22 @@ func Known(st [3]*model.Stage) func(string) bool {
 	return func(n string) bool { return names[n] }
 }
 
+// CheckPrior returns the model.PriorCheck of the stages: a parameter
+// exists if some stage has it, and a prior must fit it in every stage
+// that has it.
+func CheckPrior(st [3]*model.Stage) model.PriorCheck {
+	return func(name string, p model.Prior) (has bool, which int, err error) {
+		for _, s := range st {
+			h, w, err := s.CheckPrior(name, p)
+			if err != nil {
+				return true, w, err
+			}
+			has = has || h
+		}
+		return has, 0, nil
+	}
+}
+
 // Fitted holds the three fits.
 type Fitted struct {
 	Data   *model.Scaled

@@ -154,3 +154,36 @@ func (d *Date) UnmarshalCSV(s string) error {
 	*d = Date(t)
 	return nil
 }
+
+// Money is an amount of currency, written with two decimals (whole cents,
+// never in exponent form) and read back as any finite number.
+type Money float64
+
+func (m Money) MarshalCSV() (string, error) { return strconv.FormatFloat(float64(m), 'f', 2, 64), nil }
+
+func (m *Money) UnmarshalCSV(s string) error {
+	v, err := finite(s)
+	*m = Money(v)
+	return err
+}
+
+// OptMoney is Money that may be absent (no upper limit): NaN is written as
+// an empty cell, and an empty cell reads as NaN.
+type OptMoney float64
+
+func (m OptMoney) MarshalCSV() (string, error) {
+	if math.IsNaN(float64(m)) {
+		return "", nil
+	}
+	return Money(m).MarshalCSV()
+}
+
+func (m *OptMoney) UnmarshalCSV(s string) error {
+	if s == "" {
+		*m = OptMoney(math.NaN())
+		return nil
+	}
+	v, err := finite(s)
+	*m = OptMoney(v)
+	return err
+}

@@ -68,6 +68,8 @@ type Report struct {
 	Replicates int
 	// Caption says how the sweep was run, for the chart.
 	Caption string
+	// fits are the jobs' convergence numbers ("demand/rhat_max", ...).
+	fits jobStats
 }
 
 // CoverageBar is one effect's interval coverage over the replicates.
@@ -81,11 +83,16 @@ type CoverageBar struct {
 // ForecastSeries is one stage's holdout forecasts, week by week over all
 // origins, in raw units.
 type ForecastSeries struct {
-	Stage string
+	// Stage is "demand" or "outcome"; Column the data column it
+	// forecasts (the queries or the outcome).
+	Stage, Column string
 	// Days are the forecast weeks as days since 1970-01-01.
 	Days                 []float64
 	Actual, Mean, Lo, Hi []float64
 	Baseline             []float64
+	// NoMedia is the mean forecast of the model without media terms
+	// (nil for sweeps run before it existed).
+	NoMedia []float64
 	// Origins are the origin weeks (days since 1970-01-01).
 	Origins []float64
 }
@@ -122,6 +129,15 @@ func swingAt(weeks, T int) float64 {
 	return math.Max(Swing, LeaveOutZ*math.Sqrt(f/(1-f)))
 }
 
+// MinReplicates is the fewest recovery replicates over which "recovers
+// truth" can be claimed. The central 95% range of Binomial(n, 0.9) over n
+// is 75%-100% at n = 20 (REFERENCES.md section 9: [15, 20]) and 70%-100%
+// at n = 10: below 20 replicates, intervals that truly cover 75% would
+// pass as often as not, so the sweep could not tell calibrated intervals
+// from clearly over-confident ones. Fewer replicates can still show a
+// problem (a count far outside its range), never its absence.
+const MinReplicates = 20
+
 // Alpha is the family-wise false-alarm rate of the recovery flags: each
 // of E tests flags at Alpha/E (Bonferroni).
 const Alpha = 0.01
@@ -156,6 +172,7 @@ func Aggregate(res *Results) (*Report, error) {
 	fc := map[[2]string]jobStats{} // stage, week
 	var fcOrder [][2]string
 	fits := jobStats{}
+	plac := placeboStats{}
 	for _, r := range res.Records {
 		switch r.Kind {
 		case "effect":
@@ -178,6 +195,8 @@ func Aggregate(res *Results) (*Report, error) {
 				fcOrder = append(fcOrder, k)
 			}
 			fc[k].add(r)
+		case "placebo":
+			plac.add(r)
 		case "fit":
 			rr := r
 			rr.Stat = r.Name + "/" + r.Stat
@@ -186,7 +205,7 @@ func Aggregate(res *Results) (*Report, error) {
 			return nil, fmt.Errorf("validate: unknown record kind %q", r.Kind)
 		}
 	}
-	rep := &Report{}
+	rep := &Report{fits: fits}
 	set := m.Settings
 	if set.has(Recovery) {
 		rep.recovery(m, eff, effOrder, params, paramOrder)
@@ -196,6 +215,9 @@ func Aggregate(res *Results) (*Report, error) {
 	}
 	if set.has(Stability) {
 		rep.stability(m, eff, effOrder, check)
+	}
+	if set.has(Placebo) {
+		rep.placebo(m, plac)
 	}
 	rep.convergence(m, fits)
 	rep.Caption = caption(m)
@@ -211,6 +233,9 @@ func caption(m Manifest) string {
 	}
 	if s.has(Holdout) {
 		parts = append(parts, fmt.Sprintf("holdout: %d origins × %d weeks", s.Origins, s.Horizon))
+	}
+	if s.has(Placebo) {
+		parts = append(parts, fmt.Sprintf("placebo: %d refits per channel", s.Placebos))
 	}
 	if m.ReferenceSource == "given" {
 		parts = append(parts, "reference: the given fit")
@@ -338,6 +363,7 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 	worstP := 1.0
 	var biased []string
 	var pooledN, pooledIn90, pooledIn50 float64
+	var miscal []string
 	for _, a := range accs {
 		c50, c90 := a.in50/a.n, a.in90/a.n
 		rep.Rows = append(rep.Rows,
@@ -357,6 +383,23 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 		rep.Coverage = append(rep.Coverage, CoverageBar{Label: a.label, Path: a.path, Cover50: c50, Cover90: c90, Flagged: flag})
 		if flag && p < worstP {
 			worst, worstP = a, p
+		}
+		// the other three ways out of the binomial range: 50% intervals
+		// covering too few or too many true values, 90% intervals too
+		// many (too wide); each side tested at Alpha/(4E)
+		if !flag {
+			for _, t := range []struct {
+				k       float64
+				p       float64
+				what    string
+				low, hi bool
+			}{{c50 * float64(R), 0.5, "50%", true, true}, {c90 * float64(R), 0.9, "90%", false, true}} {
+				if t.low && score.BinomialLowerTail(t.k, R, t.p) < Alpha/(4*E) {
+					miscal = append(miscal, fmt.Sprintf("%s %s intervals cover %s (too narrow)", a.label, t.what, pct(t.k/float64(R))))
+				} else if t.hi && score.BinomialUpperTail(t.k, R, t.p) < Alpha/(4*E) {
+					miscal = append(miscal, fmt.Sprintf("%s %s intervals cover %s (too wide)", a.label, t.what, pct(t.k/float64(R))))
+				}
+			}
 		}
 		if a.nz > 0 && math.Abs(a.z/a.nz) > 3/math.Sqrt(float64(R)) {
 			biased = append(biased, fmt.Sprintf("%s (%+.1f sd on average)", a.label, a.z/a.nz))
@@ -387,6 +430,7 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 		}
 	}
 	pc90, pc50 := pooledIn90/pooledN, pooledIn50/pooledN
+	unconverged, refits := rep.unconverged(m, Recovery)
 	switch {
 	case worst != nil:
 		v.OK = false
@@ -397,10 +441,30 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 	case len(sbcBad) > 0:
 		v.OK = false
 		v.Headline = "calibration ranks not uniform for " + strings.Join(sbcBad, ", ")
+	case len(miscal) > 0:
+		v.OK = false
+		v.Headline = "miscalibrated: " + strings.Join(miscal, ", ")
+	// A problem found is reported whatever the number of replicates; a
+	// clean bill of health needs enough of them, all converged.
+	case R < MinReplicates:
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %s are too few to judge coverage (at least %d needed)", plural(R, "simulated data set"), MinReplicates)
+	case unconverged > 0:
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %d of %s did not converge", unconverged, plural(refits, "refit"))
 	default:
 		v.Headline = "recovers truth"
 	}
 	v.Details = append(v.Details, fmt.Sprintf("Over %s, 90%% intervals cover %s and 50%% intervals %s of the true whole-period effects.", plural(R, "simulated data set"), pct(pc90), pct(pc50)))
+	if R > 0 {
+		lo50, hi50 := score.BinomialRange(R, 0.5, 0.95)
+		lo90, hi90 := score.BinomialRange(R, 0.9, 0.95)
+		v.Details = append(v.Details, fmt.Sprintf("With %d replicates a calibrated effect's coverage falls by chance in %s-%s (50%% intervals) and %s-%s (90%%) in 95%% of sweeps (binomial); a claim needs at least %d replicates, where the 90%% range is 75%%-100%%.",
+			R, pct(float64(lo50)/float64(R)), pct(float64(hi50)/float64(R)), pct(float64(lo90)/float64(R)), pct(float64(hi90)/float64(R)), MinReplicates))
+	}
+	if len(miscal) > 0 && (worst != nil || len(biased) > 0 || len(sbcBad) > 0) {
+		v.Details = append(v.Details, "Miscalibrated: "+strings.Join(miscal, ", ")+".")
+	}
 	if worst != nil {
 		var low []string
 		for _, b := range rep.Coverage {
@@ -442,7 +506,15 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 		return
 	}
 	// mape counts weeks with a non-zero actual only (nm of them)
-	type tally struct{ mape, crps, cov, n, nm, baseMape, baseCRPS, baseCov, baseN float64 }
+	type tally struct {
+		mape, crps, cov, n, nm, baseMape, baseCRPS, baseCov, baseN float64
+		bareMape, bareCRPS, bareCov, bareN                         float64
+		// per forecast week, in job then week order: the job, whether
+		// the 90% interval missed, and the CRPS differences model -
+		// baseline and model - no media
+		job                []int
+		miss, dBase, dBare []float64
+	}
 	var stages []string
 	res := map[string]*tally{}
 	series := map[string]*ForecastSeries{}
@@ -453,7 +525,11 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			s = &tally{}
 			res[stage] = s
 			stages = append(stages, stage)
-			series[stage] = &ForecastSeries{Stage: stage}
+			col := m.Spec.Outcome
+			if stage == "demand" {
+				col = m.Spec.Queries
+			}
+			series[stage] = &ForecastSeries{Stage: stage, Column: col}
 		}
 		for _, j := range hjobs {
 			x, ok := fc[k][j]
@@ -466,10 +542,13 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 				s.nm++
 				s.mape += math.Abs(x["mean"]-y) / math.Abs(y)
 				s.baseMape += math.Abs(x["base"]-y) / math.Abs(y)
+				s.bareMape += math.Abs(x["bare_mean"]-y) / math.Abs(y)
 			}
 			s.crps += x["crps"]
+			miss := 1.0
 			if x["q05"] <= y && y <= x["q95"] {
 				s.cov++
+				miss = 0
 			}
 			s.baseCRPS += x["base_crps"]
 			if x["base_q05"] < x["base_q95"] {
@@ -478,6 +557,18 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 					s.baseCov++
 				}
 			}
+			_, hasBare := x["bare_crps"]
+			if hasBare {
+				s.bareN++
+				s.bareCRPS += x["bare_crps"]
+				if x["bare_q05"] <= y && y <= x["bare_q95"] {
+					s.bareCov++
+				}
+			}
+			s.job = append(s.job, j)
+			s.miss = append(s.miss, miss)
+			s.dBase = append(s.dBase, x["crps"]-x["base_crps"])
+			s.dBare = append(s.dBare, x["crps"]-x["bare_crps"])
 			fs := series[stage]
 			fs.Days = append(fs.Days, dayOf(k[1]))
 			fs.Actual = append(fs.Actual, y)
@@ -485,14 +576,47 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			fs.Lo = append(fs.Lo, x["q05"])
 			fs.Hi = append(fs.Hi, x["q95"])
 			fs.Baseline = append(fs.Baseline, x["base"])
+			if hasBare {
+				fs.NoMedia = append(fs.NoMedia, x["bare_mean"])
+			}
 		}
 	}
-	var beat, lose, narrow []string
+	// the records come stage by stage and week by week, each week over
+	// the origins; sort each stage's weeks by job (origin) then week so
+	// that neighbours in the lag-1 autocorrelation are neighbouring weeks
+	// of one origin
 	for _, stage := range stages {
 		s := res[stage]
-		baseCov := math.NaN()
+		idx := make([]int, len(s.job))
+		for i := range idx {
+			idx[i] = i
+		}
+		slices.SortStableFunc(idx, func(a, b int) int { return s.job[a] - s.job[b] })
+		perm := func(x []float64) []float64 {
+			out := make([]float64, len(x))
+			for i, k := range idx {
+				out[i] = x[k]
+			}
+			return out
+		}
+		job := make([]int, len(idx))
+		for i, k := range idx {
+			job[i] = s.job[k]
+		}
+		s.job, s.miss, s.dBase, s.dBare = job, perm(s.miss), perm(s.dBase), perm(s.dBare)
+	}
+	var problems, good []string
+	var lines, covs []string
+	for _, stage := range stages {
+		s := res[stage]
+		baseCov, bareCov := math.NaN(), math.NaN()
 		if s.baseN > 0 {
 			baseCov = s.baseCov / s.baseN
+		}
+		bareMape, bareCRPS := math.NaN(), math.NaN()
+		if s.bareN > 0 {
+			bareCov, bareCRPS = s.bareCov/s.bareN, s.bareCRPS/s.bareN
+			bareMape = 100 * s.bareMape / s.nm
 		}
 		rep.Rows = append(rep.Rows,
 			Row{Holdout, stage, "", "mape", 100 * s.mape / s.nm},
@@ -501,14 +625,47 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 			Row{Holdout, stage + "_baseline", "", "mape", 100 * s.baseMape / s.nm},
 			Row{Holdout, stage + "_baseline", "", "crps", s.baseCRPS / s.n},
 			Row{Holdout, stage + "_baseline", "", "coverage_90_forecast", baseCov})
-		line := fmt.Sprintf("%s: CRPS %s vs %s a week, MAPE %.1f%% vs %.1f%%", stage, num(s.crps/s.n), num(s.baseCRPS/s.n), 100*s.mape/s.nm, 100*s.baseMape/s.nm)
-		if s.crps < s.baseCRPS {
-			beat = append(beat, line)
-		} else {
-			lose = append(lose, line)
+		if s.bareN > 0 {
+			rep.Rows = append(rep.Rows,
+				Row{Holdout, stage + "_no_media", "", "mape", bareMape},
+				Row{Holdout, stage + "_no_media", "", "crps", bareCRPS},
+				Row{Holdout, stage + "_no_media", "", "coverage_90_forecast", bareCov})
 		}
-		if score.BinomialLowerTail(s.cov, int(s.n), 0.9) < Alpha {
-			narrow = append(narrow, fmt.Sprintf("%s %s", stage, pct(s.cov/s.n)))
+		// the seasonal rule
+		cmp := Compare(s.dBase, s.job)
+		line := fmt.Sprintf("%s: CRPS %s a week vs %s for the seasonal rule", stage, num(s.crps/s.n), num(s.baseCRPS/s.n))
+		switch cmp.Verdict() {
+		case Better:
+			good = append(good, stage+" forecasts beat the seasonal baseline")
+		case Worse:
+			problems = append(problems, stage+" forecasts are worse than the seasonal baseline")
+		default:
+			problems = append(problems, stage+" forecasts do not beat the seasonal baseline")
+		}
+		line += " (" + cmp.String() + ")"
+		if s.bareN > 0 {
+			cmp := Compare(s.dBare, s.job)
+			line += fmt.Sprintf(" and %s without media (%s)", num(bareCRPS), cmp.String())
+			switch cmp.Verdict() {
+			case Better:
+				good = append(good, "media improve the "+stage+" forecast"+beyond(stage))
+			case Worse:
+				problems = append(problems, "media make the "+stage+" forecast worse"+beyond(stage))
+			default:
+				problems = append(problems, "media do not measurably improve the "+stage+" forecast"+beyond(stage))
+			}
+		}
+		lines = append(lines, line)
+		cov := CoverageOf(s.miss, s.job, 0.9)
+		rep.Rows = append(rep.Rows, Row{Holdout, stage, "", "effective_weeks", cov.NEff})
+		covs = append(covs, stage+" "+cov.String())
+		switch cov.Verdict() {
+		case Worse:
+			problems = append(problems, fmt.Sprintf("%s forecast intervals too narrow (%s of weeks inside 90%% intervals)", stage, pct(cov.Rate)))
+		case Better:
+			problems = append(problems, fmt.Sprintf("%s forecast intervals too wide (%s of weeks inside 90%% intervals)", stage, pct(cov.Rate)))
+		case Undecided:
+			problems = append(problems, fmt.Sprintf("%s forecast coverage not judged (%.0f effective weeks, %d needed)", stage, cov.NEff, MinReplicates))
 		}
 		fs := series[stage]
 		for _, o := range origins {
@@ -517,27 +674,18 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 		rep.Forecasts = append(rep.Forecasts, *fs)
 	}
 	n := int(res[stages[0]].n)
-	switch {
-	case len(lose) == 0:
-		v.Headline = "forecasts beat the seasonal baseline"
-	case len(beat) == 0:
+	if len(problems) == 0 {
+		v.Headline = "forecasts beat the seasonal baseline and the model without media"
+	} else {
 		v.OK = false
-		v.Headline = "forecasts do not beat the seasonal baseline"
-	default:
-		v.OK = false
-		v.Headline = fmt.Sprintf("%s forecasts do not beat the seasonal baseline", strings.SplitN(lose[0], ":", 2)[0])
+		v.Headline = strings.Join(problems, "; ")
 	}
-	if len(narrow) > 0 {
-		v.OK = false
-		v.Headline += "; forecast intervals too narrow (" + strings.Join(narrow, ", ") + " of weeks inside 90% intervals)"
+	v.Details = append(v.Details, fmt.Sprintf("Over %s from %s (lower CRPS is better): %s.", plural(n, "forecast week"), plural(len(hjobs), "origin"), strings.Join(lines, "; ")))
+	if len(good) > 0 && len(problems) > 0 {
+		v.Details = append(v.Details, "Found: "+strings.Join(good, "; ")+".")
 	}
-	v.Details = append(v.Details, fmt.Sprintf("Model vs baseline over %s from %s (lower is better): %s.", plural(n, "forecast week"), plural(len(hjobs), "origin"), strings.Join(append(beat, lose...), "; ")))
-	var covs []string
-	for _, stage := range stages {
-		covs = append(covs, fmt.Sprintf("%s %s", stage, pct(res[stage].cov/res[stage].n)))
-	}
-	v.Details = append(v.Details, fmt.Sprintf("90%% forecast intervals cover %s of weeks.", strings.Join(covs, ", ")))
-	v.Details = append(v.Details, fmt.Sprintf("The baseline is the same week a year earlier times the recent level (last %d training weeks over the same weeks a year before).", LevelWeeks))
+	v.Details = append(v.Details, "90% forecast intervals cover "+strings.Join(covs, "; ")+".")
+	v.Details = append(v.Details, fmt.Sprintf("Neighbouring forecast weeks are not independent: each comparison and coverage is judged on an effective number of weeks, n (1 - r) / (1 + r) with r the lag-1 autocorrelation within origins; a difference counts when its 95%% interval (Student t) excludes zero (a Diebold-Mariano comparison), a coverage when it leaves the central 95%% binomial range. The baseline is the same week a year earlier times the recent level (last %d training weeks over the same weeks a year before); the model without media is this model with every spend term removed (the outcome stage keeps the queries).", LevelWeeks))
 	rep.Verdicts = append(rep.Verdicts, v)
 }
 
@@ -604,10 +752,21 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 			ns++
 		}
 	}
-	if len(swing) == 0 {
+	unconv, refits := rep.unconverged(m, Stability)
+	if r, ok := rep.fits[refJob]; ok && !converged(r) {
+		unconv++
+		refits++
+	}
+	switch {
+	case len(swing) == 0 && unconv > 0:
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %d of %s (with the reference) did not converge", unconv, plural(refits, "fit"))
+		v.Details = append(v.Details, fmt.Sprintf("No effect moved more than %.1f sd (largest: %s, %s), but moves between unconverged fits say little.", math.Ceil(best.Shift*10)/10, best.Label, best.Worst))
+	case len(swing) == 0:
 		v.Headline = fmt.Sprintf("stable: no effect moved more than %.1f sd", math.Ceil(best.Shift*10)/10)
 		v.Details = append(v.Details, fmt.Sprintf("The largest move was %s, %s.", best.Label, best.Worst))
-	} else {
+		v.Details = append(v.Details, "Stable is not the same as supported: an effect the data say little about stays near its prior in every refit; the holdout against the model without media and the placebo check ask whether the data support it.")
+	default:
 		v.OK = false
 		v.Headline = fmt.Sprintf("unstable: %s moved %.1f sd (%s)", best.Label, best.Shift, best.Worst)
 		v.Details = append(v.Details, fmt.Sprintf("Effects that moved more than %.0f posterior sd: %s.", Swing, strings.Join(swing, "; ")))
@@ -617,6 +776,43 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 		v.Details = append(v.Details, "Note: "+s+".")
 	}
 	rep.Verdicts = append(rep.Verdicts, v)
+}
+
+// beyond qualifies the outcome stage's comparison without media: its
+// forecasts use the actual queries, so the comparison asks what the media
+// terms add once the queries are known.
+func beyond(stage string) string {
+	if stage == "outcome" {
+		return " beyond the queries"
+	}
+	return ""
+}
+
+// converged reports whether a job's fits converged by the usual
+// standards: R-hat <= 1.01 and computable, no divergent transitions.
+func converged(s map[string]float64) bool {
+	r := math.Max(s["demand/rhat_max"], s["outcome/rhat_max"])
+	d := s["demand/divergences"] + s["outcome/divergences"]
+	return !math.IsNaN(s["demand/rhat_max"]) && !math.IsNaN(s["outcome/rhat_max"]) && r <= 1.01 && d == 0
+}
+
+// unconverged counts the refits of a check that did not converge, of all
+// its refits with fit records.
+func (rep *Report) unconverged(m Manifest, check string) (bad, n int) {
+	for _, j := range m.Jobs {
+		if j.Check != check {
+			continue
+		}
+		s, ok := rep.fits[j.Index]
+		if !ok {
+			continue
+		}
+		n++
+		if !converged(s) {
+			bad++
+		}
+	}
+	return bad, n
 }
 
 // convergence adds a note to each verdict whose refits did not converge
@@ -638,14 +834,22 @@ func (rep *Report) convergence(m Manifest, fits jobStats) {
 			n++
 			r := math.Max(s["demand/rhat_max"], s["outcome/rhat_max"])
 			d := s["demand/divergences"] + s["outcome/divergences"]
-			if r > 1.01 || d > 0 {
+			if !converged(s) {
 				bad++
 			}
 			div += int(d)
-			worst = math.Max(worst, r)
+			if math.IsNaN(r) || math.IsNaN(worst) {
+				worst = math.NaN()
+			} else {
+				worst = math.Max(worst, r)
+			}
 		}
 		if bad > 0 {
-			v.Details = append(v.Details, fmt.Sprintf("Caution: %d of %s did not fully converge (worst R-hat %.3f, %s in all); longer chains (--warmup, --draws) make the check sharper.", bad, plural(n, "refit"), worst, plural(div, "divergent transition")))
+			w := "not computable"
+			if !math.IsNaN(worst) {
+				w = fmt.Sprintf("%.3f", worst)
+			}
+			v.Details = append(v.Details, fmt.Sprintf("Caution: %d of %s did not fully converge (worst R-hat %s, %s in all); longer chains (--warmup, --draws) make the check sharper.", bad, plural(n, "refit"), w, plural(div, "divergent transition")))
 		}
 	}
 }

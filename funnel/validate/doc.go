@@ -9,10 +9,20 @@
 //     Betancourt, Simpson, Vehtari and Gelman 2018);
 //   - holdout: rolling-origin forecasts of the weeks after each origin from
 //     a fit to the weeks before it, scored by MAPE, CRPS and interval
-//     coverage against a seasonal baseline;
+//     coverage against a seasonal baseline and against the same model
+//     without any spend term;
 //   - stability: refits that leave out one quarter at a time, and refits
 //     with other seeds, and how far each effect moves in units of its
-//     posterior sd.
+//     posterior sd;
+//   - placebo (opt-in): refits with each channel's spend moved circularly
+//     in time, and the permutation p-value of the real effect among them.
+//
+// A verdict claims only what its evidence carries: "recovers truth" needs
+// MinReplicates converged replicates with both coverages inside their
+// binomial ranges; "beats" needs a weekly score difference whose interval
+// over the effective number of weeks (AR(1), compare.go) excludes zero;
+// "stable" needs converged refits. A problem found is reported whatever
+// the amount of evidence; its absence is not claimed without enough.
 //
 // A sweep is a fixed list of jobs (Plan): the reference fit, every
 // replicate, origin, left-out quarter and extra seed, each with a seed

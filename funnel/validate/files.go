@@ -3,6 +3,7 @@ package validate
 import (
 	"bytes"
 	"encoding/csv"
+	"fmt"
 	"math"
 	"strconv"
 	"strings"
@@ -90,7 +91,10 @@ func (rep *Report) Text() string {
 	return b.String()
 }
 
-// Title sums the verdicts up in one line, for the chart.
+// Title sums the verdicts up in one line, for the chart: each check's
+// finding in a few words ("recovery: no claim; holdout: media do not
+// measurably improve the demand forecast (+2 more)"); verdict.txt has
+// them in full.
 func (rep *Report) Title() string {
 	var parts []string
 	for _, v := range rep.Verdicts {
@@ -98,7 +102,15 @@ func (rep *Report) Title() string {
 		if strings.HasPrefix(h, "not run") {
 			continue
 		}
-		parts = append(parts, h)
+		clauses := strings.Split(h, "; ")
+		first := clauses[0]
+		if short, _, ok := strings.Cut(first, ": "); ok {
+			first = short
+		}
+		if len(clauses) > 1 {
+			first += fmt.Sprintf(" (+%d more)", len(clauses)-1)
+		}
+		parts = append(parts, v.Check+": "+first)
 	}
 	if len(parts) == 0 {
 		return "Validation"

@@ -23,13 +23,19 @@ const (
 	Recovery  = "recovery"
 	Holdout   = "holdout"
 	Stability = "stability"
+	// Placebo refits with each channel's spend moved in time (placebo.go);
+	// run only when asked for.
+	Placebo = "placebo"
 	// Reference is the check name of job 0, the fit to the whole data
 	// that recovery simulates from and stability compares with.
 	Reference = "reference"
 )
 
 // Checks lists the checks in report order.
-var Checks = []string{Recovery, Holdout, Stability}
+var Checks = []string{Recovery, Holdout, Stability, Placebo}
+
+// DefaultChecks are the checks an empty Settings.Checks runs.
+var DefaultChecks = []string{Recovery, Holdout, Stability}
 
 // Defaults of Settings. A refit is lighter than a full fit: 2 chains of
 // 500 warm-up and 500 kept draws.
@@ -57,8 +63,8 @@ const (
 // Settings configure a sweep. Every zero field means its documented
 // default.
 type Settings struct {
-	// Checks lists the checks to run (Recovery, Holdout, Stability) in
-	// any order; empty means all three.
+	// Checks lists the checks to run (Recovery, Holdout, Stability,
+	// Placebo) in any order; empty means DefaultChecks.
 	Checks []string `json:"checks"`
 	// Replicates is the number of simulated data sets of the recovery
 	// check. Zero means DefaultReplicates.
@@ -82,6 +88,9 @@ type Settings struct {
 	Chains int `json:"chains"`
 	Warmup int `json:"warmup"`
 	Draws  int `json:"draws"`
+	// Placebos is the number of placebo refits per channel (Placebo).
+	// Zero means DefaultPlacebos when the placebo check runs.
+	Placebos int `json:"placebos,omitempty"`
 	// Seed is the sweep's seed. The reference fit uses it as a fit does
 	// (demand Seed, outcome Seed+1); every other job i uses JobSeed(Seed, i).
 	Seed uint64 `json:"seed"`
@@ -91,12 +100,12 @@ type Settings struct {
 func (s Settings) resolved() (Settings, error) {
 	r := s
 	if len(r.Checks) == 0 {
-		r.Checks = append([]string(nil), Checks...)
+		r.Checks = append([]string(nil), DefaultChecks...)
 	}
 	seen := map[string]bool{}
 	for _, c := range r.Checks {
 		if !slices.Contains(Checks, c) {
-			return r, fmt.Errorf("validate: unknown check %q; expected recovery, holdout or stability", c)
+			return r, fmt.Errorf("validate: unknown check %q; expected recovery, holdout, stability or placebo", c)
 		}
 		seen[c] = true
 	}
@@ -118,6 +127,14 @@ func (s Settings) resolved() (Settings, error) {
 	def(&r.Chains, DefaultChains)
 	def(&r.Warmup, DefaultWarmup)
 	def(&r.Draws, DefaultDraws)
+	if r.has(Placebo) {
+		def(&r.Placebos, DefaultPlacebos)
+	} else {
+		r.Placebos = 0 // not in the manifest of a sweep without placebos
+	}
+	if r.Placebos < 0 {
+		return r, fmt.Errorf("validate: placebos must not be negative")
+	}
 	if r.Seeds == NoSeeds {
 		r.Seeds = 0
 	}
@@ -165,6 +182,10 @@ type Job struct {
 	Quarter string `json:"quarter,omitempty"`
 	// Weeks is the number of weeks left out (stability).
 	Weeks int `json:"weeks,omitempty"`
+	// Channel is the spend column moved and Shift the weeks it is moved
+	// by (placebo).
+	Channel string `json:"channel,omitempty"`
+	Shift   int    `json:"shift,omitempty"`
 }
 
 // Input is what a sweep validates.
@@ -266,7 +287,8 @@ func New(in Input, s Settings) (*Sweep, error) {
 func (sw *Sweep) needsReference() bool {
 	s := sw.set
 	stab := s.has(Stability) && (s.LeaveOut == nil || len(s.LeaveOut) > 0 || s.Seeds > 0)
-	return stab || (sw.gen != nil && sw.gen.fromPosterior)
+	plac := s.has(Placebo) && s.Placebos > 0
+	return stab || plac || (sw.gen != nil && sw.gen.fromPosterior)
 }
 
 // plan lists the jobs in their fixed order: the reference (when a check
@@ -340,6 +362,13 @@ func (sw *Sweep) plan() error {
 		}
 		for k := 1; k <= s.Seeds; k++ {
 			add(Job{Check: Stability, Label: fmt.Sprintf("seed %d", k)})
+		}
+	}
+	if s.has(Placebo) {
+		for c, col := range append(append([]string(nil), in.Spec.Upper...), in.Spec.Search...) {
+			for _, k := range PlaceboShifts(JobSeed(s.Seed, -1-c), T, s.Placebos) {
+				add(Job{Check: Placebo, Label: fmt.Sprintf("placebo %s moved %d weeks", col, k), Channel: col, Shift: k})
+			}
 		}
 	}
 	return nil

@@ -232,6 +232,8 @@ func (sw *Sweep) runJob(ctx context.Context, j Job, ref *fitted) ([]Record, erro
 		return sw.holdoutJob(ctx, j)
 	case Stability:
 		return sw.stabilityJob(ctx, j, ref)
+	case Placebo:
+		return sw.placeboJob(ctx, j)
 	}
 	panic("validate: unknown check " + j.Check)
 }
@@ -245,7 +247,49 @@ func (sw *Sweep) referenceJob(j Job, ref *fitted) ([]Record, error) {
 	for _, e := range keyEffects(res, false) {
 		recs = append(recs, effectRecords(j.Index, e, nil)...)
 	}
+	if sw.set.has(Placebo) {
+		for _, col := range append(append([]string(nil), sw.in.Spec.Upper...), sw.in.Spec.Search...) {
+			recs = append(recs, placeboRecord(j.Index, res, col))
+		}
+	}
 	return recs, nil
+}
+
+// placeboRecord is the posterior mean of the effect the placebo check
+// compares for channel col: an upper-funnel channel's total effect, paid
+// search's controlled effect, over the whole data.
+func placeboRecord(job int, res *mediation.Result, col string) Record {
+	v := math.NaN()
+	for _, e := range append(append([]mediation.Effect(nil), res.Effects...), res.Borrowed...) {
+		if e.Channel == col && e.Window == "all" && (e.Path == "total" || e.Path == "controlled") {
+			v, _ = stat.MeanSD(e.Draws)
+		}
+	}
+	return Record{Job: job, Kind: "placebo", Name: col, Stat: "estimate", Value: v}
+}
+
+// placeboJob refits the data with channel j.Channel's spend moved
+// circularly by j.Shift weeks and keeps that channel's effect.
+func (sw *Sweep) placeboJob(ctx context.Context, j Job) ([]Record, error) {
+	s := sw.in.Series
+	moved := data.Series{Weeks: s.Weeks, Upper: append([][]float64(nil), s.Upper...), Search: append([][]float64(nil), s.Search...),
+		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls}
+	if c := slices.Index(sw.in.Spec.Upper, j.Channel); c >= 0 {
+		moved.Upper[c] = ShiftSpend(nil, s.Upper[c], j.Shift)
+	} else if c := slices.Index(sw.in.Spec.Search, j.Channel); c >= 0 {
+		moved.Search[c] = ShiftSpend(nil, s.Search[c], j.Shift)
+	} else {
+		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
+	}
+	f, err := sw.fit(ctx, model.Scale(moved, sw.in.Spec), j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	res, err := mediation.Split(f.inputs(), sw.windows[:1])
+	if err != nil {
+		return nil, err
+	}
+	return append(fitRecords(j.Index, f), placeboRecord(j.Index, res, j.Channel)), nil
 }
 
 func (sw *Sweep) recoveryJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
@@ -349,19 +393,12 @@ func effectRecords(job int, e mediation.Effect, truth *float64) []Record {
 	return recs
 }
 
-// fitRecords keeps each stage's worst convergence numbers.
+// fitRecords keeps each stage's worst convergence numbers; NaN where they
+// cannot be computed (mcmc.Worst).
 func fitRecords(job int, f *fitted) []Record {
 	var recs []Record
 	for k, fit := range f.fits {
-		rh, eb, et := 0.0, math.Inf(1), math.Inf(1)
-		for _, s := range mcmc.Summarize(fit) {
-			if s.Constant() {
-				continue
-			}
-			rh = math.Max(rh, nanInf(s.Rhat))
-			eb = math.Min(eb, nanZero(s.ESSBulk))
-			et = math.Min(et, nanZero(s.ESSTail))
-		}
+		rh, eb, et := mcmc.Worst(mcmc.Summarize(fit))
 		div := 0
 		for _, c := range fit.Chains {
 			div += c.Stats.Divergences
@@ -374,20 +411,6 @@ func fitRecords(job int, f *fitted) []Record {
 			Record{Job: job, Kind: "fit", Name: name, Stat: "divergences", Value: float64(div)})
 	}
 	return recs
-}
-
-func nanInf(v float64) float64 {
-	if math.IsNaN(v) {
-		return math.Inf(1)
-	}
-	return v
-}
-
-func nanZero(v float64) float64 {
-	if math.IsNaN(v) {
-		return 0
-	}
-	return v
 }
 
 // holdoutJob fits the weeks before the origin (the series cut after the
@@ -433,6 +456,12 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			pred[1][i][d] = forward.Predictive(run.Outcome[t], dr.Outcome.Sigma(), rng) * sc.OutcomeScale
 		}
 	}
+	bare, err := sw.fitBare(ctx, f, j.Seed)
+	if err != nil {
+		return nil, err
+	}
+	recs = append(recs, fitRecords(j.Index, bare)...)
+	bpred := bare.forecast(j.Origin, h, rand.New(rand.NewPCG(j.Seed, 3)))
 	for k, actual := range [][]float64{s.Queries, s.Outcome} {
 		name := f.st[k].Name
 		point, rel := seasonalBaseline(actual[:j.Origin], j.Origin, h)
@@ -464,9 +493,68 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 			add("base_q05", stat.Quantile(base, 0.05))
 			add("base_q95", stat.Quantile(base, 0.95))
 			add("base_crps", score.CRPSSorted(base, y))
+			b := bpred[k][i]
+			sort.Float64s(b)
+			bmean, _ := stat.MeanSD(b)
+			add("bare_mean", bmean)
+			add("bare_q05", stat.Quantile(b, 0.05))
+			add("bare_q95", stat.Quantile(b, 0.95))
+			add("bare_crps", score.CRPSSorted(b, y))
 		}
 	}
 	return recs, nil
+}
+
+// fitBare fits f's stages again without any media term (no upper-funnel
+// or paid-search channel; the outcome stage keeps its query term, so it
+// asks whether the media terms add anything once the queries are known,
+// and the demand stage whether spend explains the queries at all), on the
+// same weeks, seeds seed+2 and seed+3. The stages' names get the suffix
+// "_no_media".
+func (sw *Sweep) fitBare(ctx context.Context, f *fitted, seed uint64) (*fitted, error) {
+	b := &fitted{sc: f.sc}
+	for k, st := range f.st {
+		bs := *st
+		bs.Name = st.Name + "_no_media"
+		bs.Channels = nil
+		b.st[k] = &bs
+		tg, err := bs.Target()
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", bs.Name, err)
+		}
+		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + 2 + uint64(k),
+			TargetAccept: pipeline.DefaultTargetAccept}
+		if b.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
+			return nil, fmt.Errorf("%s stage: %w", bs.Name, err)
+		}
+	}
+	return b, nil
+}
+
+// forecast returns each stage's posterior predictive draws, in raw units,
+// of the h weeks from origin, stage by stage ([stage][week][draw]): the
+// linear predictor at each draw (the outcome stage with the actual
+// queries) plus sigma times a standard normal from rng.
+func (f *fitted) forecast(origin, h int, rng *rand.Rand) [2][][]float64 {
+	var out [2][][]float64
+	scale := [2]float64{f.sc.QueriesScale, f.sc.OutcomeScale}
+	for k, st := range f.st {
+		l := st.Layout()
+		out[k] = make([][]float64, h)
+		rows := mediation.FromFit(f.fits[k]).Rows
+		for i := range out[k] {
+			out[k][i] = make([]float64, len(rows))
+		}
+		var m []float64
+		for d, v := range rows {
+			m = st.Predict(m, v)
+			sigma := l.View(v).Sigma()
+			for i := 0; i < h; i++ {
+				out[k][i][d] = forward.Predictive(m[origin+i], sigma, rng) * scale[k]
+			}
+		}
+	}
+	return out
 }
 
 // seasonalBaseline forecasts weeks origin..origin+h-1 from the training

@@ -210,3 +210,42 @@ func (w Window) Short() string {
 
 // Day formats t as "2 Jan 2006".
 func Day(t time.Time) string { return t.Format("2 Jan 2006") }
+
+// Coverage counts the weeks of quarter w: have is how many of weeks (week
+// starts in increasing order, one a week) start in w, full how many would
+// if the series ran through the whole quarter on the same weekday. For a
+// window that is not a Quarter, or an empty series, both are the weeks of
+// the series in w.
+func (w Window) Coverage(weeks []time.Time) (have, full int) {
+	for _, t := range weeks {
+		if w.Contains(t) {
+			have++
+		}
+	}
+	if w.Kind != Quarter || len(weeks) == 0 {
+		return have, have
+	}
+	// the first day in w on the series' weekday
+	d := w.Start
+	for d.Weekday() != weeks[0].Weekday() {
+		d = d.AddDate(0, 0, 1)
+	}
+	for ; !d.After(w.End); d = d.AddDate(0, 0, 7) {
+		full++
+	}
+	return have, full
+}
+
+// LastFullQuarter returns the latest calendar quarter whose every week
+// (by week start) is in weeks, resolved against weeks; ok is false when the
+// series covers no quarter in full. It is the review window when none is
+// asked for.
+func LastFullQuarter(weeks []time.Time) (w Window, ok bool) {
+	qs := Quarters(weeks)
+	for i := len(qs) - 1; i >= 1; i-- {
+		if have, full := qs[i].Coverage(weeks); have == full {
+			return qs[i], true
+		}
+	}
+	return Window{}, false
+}

@@ -77,3 +77,31 @@ func TestQuarters(t *testing.T) {
 		}
 	}
 }
+
+// TestCoverage counts a quarter's weeks in a series that stops inside it,
+// and picks the last quarter covered in full.
+func TestCoverage(t *testing.T) {
+	var weeks []time.Time
+	start := time.Date(2023, 12, 25, 0, 0, 0, 0, time.UTC) // a Monday in 2023Q4
+	for i := 0; i < 20; i++ {
+		weeks = append(weeks, start.AddDate(0, 0, 7*i))
+	}
+	// 2024Q1 has 13 Mondays (1 Jan .. 25 Mar); 2024Q2 has 13 (1 Apr .. 24
+	// Jun), of which the series holds 6 (1 Apr .. 6 May); 2023Q4 has 13,
+	// of which it holds 1.
+	for _, c := range []struct {
+		q          Window
+		have, full int
+	}{{QuarterOf(2024, 1), 13, 13}, {QuarterOf(2024, 2), 6, 13}, {QuarterOf(2023, 4), 1, 13}} {
+		if have, full := c.q.Coverage(weeks); have != c.have || full != c.full {
+			t.Errorf("%s: %d of %d weeks, want %d of %d", c.q.Name, have, full, c.have, c.full)
+		}
+	}
+	w, ok := LastFullQuarter(weeks)
+	if !ok || w.Name != "2024Q1" || w.From != 1 || w.To != 13 {
+		t.Errorf("last full quarter: %+v %v, want 2024Q1 weeks 1..13", w, ok)
+	}
+	if _, ok := LastFullQuarter(weeks[2:10]); ok {
+		t.Error("8 weeks hold no full quarter")
+	}
+}

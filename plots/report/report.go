@@ -41,6 +41,9 @@ func Write(w io.Writer, f *fitfolder.Fit, window string, charts map[string][]byt
 	if v.Validation, err = loadValidation(f.Dir); err != nil {
 		return fmt.Errorf("report: validation: %w", err)
 	}
+	if v.Plan, err = planSection(f); err != nil {
+		return fmt.Errorf("report: plan: %w", err)
+	}
 	var buf bytes.Buffer
 	if err := page.Execute(&buf, v); err != nil {
 		return fmt.Errorf("report: %w", err)
@@ -55,27 +58,33 @@ type view struct {
 	Title, Subtitle string
 	Trustworthy     bool
 	Reasons         []string
-	Checks          string
-	Job             string
-	Findings        []string
-	Quarter         bool
-	Window          string // window name, "all" or a range
-	WindowLabel     string
-	Compare         *compareView
-	CompareNote     string
-	Charts          []chartView
-	EffectTables    []effectTable
-	PerLabel        string
-	Borrowed        []borrowedRow
-	BorrowedNote    string
-	Assumptions     []string
-	Sensitivity     []string
-	Cautions        []string
-	Data            dataView
-	Stages          []stageRow
-	Command         string
-	Rerun           string
-	Validation      *validationView
+	// Notes are the support check's result and what the data cannot tell,
+	// shown under the verdict.
+	Notes        []string
+	Checks       string
+	Job          string
+	Findings     []string
+	Quarter      bool
+	Window       string // window name, "all" or a range
+	WindowLabel  string
+	Compare      *compareView
+	CompareNote  string
+	Charts       []chartView
+	EffectTables []effectTable
+	PerLabel     string
+	Borrowed     []borrowedRow
+	BorrowedNote string
+	Returns      []returnRow
+	ReturnsNote  string
+	Assumptions  []string
+	Sensitivity  []string
+	Cautions     []string
+	Data         dataView
+	Stages       []stageRow
+	Command      string // redoes the whole job into a new folder
+	Rebuild      string // rebuilds this page from the fit folder
+	Validation   *validationView
+	Plan         *planView
 }
 
 type chartView struct {
@@ -102,8 +111,14 @@ type compareView struct {
 	Rows               []compareRow
 }
 
+type returnRow struct {
+	Column, Channel             string
+	ROS, Cost, ROSAll, Marginal string
+}
+
 type compareRow struct {
 	Channel, PathLabel   string
+	PrevSpend, YearSpend string // relative change of the channel's spend
 	Now, Prev, Year      string
 	PrevChange, PrevSig  string
 	YearChange, YearSig  string
@@ -116,6 +131,7 @@ type dataView struct {
 	Spend                 []spendRow
 	Outcome, Queries      string
 	OutcomeName, QName    string
+	Currency              string // " (EUR)" after spend headings, or empty
 }
 
 type spendRow struct {
@@ -176,9 +192,10 @@ func pctInterval(lo, hi float64) string {
 
 func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, error) {
 	spec := f.Run.Spec
-	outcome := plots.Plain(spec.Outcome)
+	lab := plots.LabelsOf(f)
+	outcome := lab.Outcome()
 	whole := f.Whole()
-	uppers := channelNames(spec.Upper)
+	uppers := lab.Channels(spec.Upper)
 	v := &view{
 		Trustworthy: f.Verdict.Trustworthy,
 		Window:      w.Name,
@@ -190,22 +207,40 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.Title = "Review of the whole period"
 	} else if w.Kind == window.Quarter {
 		v.Title = "Quarterly review: " + w.Label()
+		if p := plots.Partial(f, w); p != "" {
+			v.Title += ", " + p
+			have, full := w.Coverage(f.Data.Weeks)
+			v.Findings = append(v.Findings, fmt.Sprintf("%s is a partial quarter: the data hold %d of its %d weeks and end "+
+				"with the week starting %s, so its effects sum fewer weeks than a full quarter and leave out the carryover "+
+				"of its spend past the data's end. Compare it with full quarters with care.",
+				w.Name, have, full, window.Day(whole.End)))
+		}
 	} else {
 		v.Title = "Review: " + w.Label()
 	}
 	v.Subtitle = fmt.Sprintf("%s on %s from %s and %s, %s (%d weeks). Fit folder %s.",
 		plots.Capital(outcome), plots.List(uppers), plots.Plain(spec.Queries),
-		plots.List(channelNames(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
+		plots.List(lab.Channels(spec.Search)), dateRange(whole), len(f.Data.Weeks), filepath.Base(filepath.Clean(f.Dir)))
+	supported := mediaSupported(f.Verdict)
 	for _, r := range f.Verdict.Reasons {
-		if r.Stage != "" {
+		switch {
+		case r.Stage == "support" || r.Stage == "effect":
+			// the support check and what the data cannot tell: shown at the
+			// top whether or not the sampler's checks passed
+			if text, ok := strings.CutPrefix(r.Text, "note: "); ok {
+				v.Notes = append(v.Notes, text)
+			} else {
+				v.Reasons = append(v.Reasons, r.Text)
+			}
+		case r.Stage != "":
 			v.Reasons = append(v.Reasons, r.Stage+" stage: "+r.Text)
-		} else {
+		default:
 			v.Reasons = append(v.Reasons, r.Text)
 		}
 	}
 	v.Job = fmt.Sprintf("This report splits the effect of %s on %s into the part that runs through branded search "+
 		"(people who see the ads and then search for the brand) and the direct part, and shows how much of %s's "+
-		"apparent return is demand borrowed from them.", plots.List(uppers), outcome, paidSearchName(spec.Search))
+		"apparent return is demand borrowed from them.", plots.List(uppers), outcome, lab.PaidSearch(spec.Search))
 
 	// Stage checks.
 	allPass := true
@@ -240,6 +275,9 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	}
 
 	k, perLabel := perScale(f)
+	if c := lab.Currency(); c != "" {
+		perLabel = strings.Replace(strings.Replace(perLabel, "per unit of spend", "per "+c+" of spend", 1), "per 1,000 of spend", "per "+c+" 1,000 of spend", 1)
+	}
 	v.PerLabel = perLabel
 
 	// Findings.
@@ -247,6 +285,9 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.Findings = append(v.Findings, "The fit failed its checks (see the top of this report): treat every number below as provisional.")
 	}
 	when := windowPhraseShort(w)
+	if p := plots.Partial(f, w); p != "" {
+		when += " (" + p + ")"
+	}
 	for _, ch := range spec.Upper {
 		s, ok1 := f.Effect(ch, fitfolder.PathMediatedShare, w.Name)
 		t, ok2 := f.Effect(ch, fitfolder.PathTotal, w.Name)
@@ -254,13 +295,13 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 			continue
 		}
 		v.Findings = append(v.Findings, fmt.Sprintf("%s of %s's effect on %s %s ran through branded search (90%% interval %s).",
-			plots.Percent(s.Mean), plots.Channel(ch), outcome, when, pctInterval(s.Q05, s.Q95)))
+			plots.Percent(s.Mean), lab.Channel(ch), outcome, when, pctInterval(s.Q05, s.Q95)))
 		per := ""
 		if !math.IsNaN(t.PerUnitSpend) {
 			per = fmt.Sprintf(", or %s %s", plots.Number(t.PerUnitSpend*k), perLabel)
 		}
 		v.Findings = append(v.Findings, fmt.Sprintf("With the via-search part credited, %s brought %s incremental %s %s (90%% interval %s)%s.",
-			plots.Channel(ch), plots.Number(t.Mean), outcome, when, interval(t.Q05, t.Q95), per))
+			lab.Channel(ch), plots.Number(t.Mean), outcome, when, interval(t.Q05, t.Q95), per))
 	}
 	for _, ch := range spec.Search {
 		sh, ok1 := f.BorrowedMeasure(ch, "borrowed_share")
@@ -271,13 +312,13 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		}
 		v.Findings = append(v.Findings, fmt.Sprintf("%s of %s's apparent return over the whole period is demand borrowed from %s "+
 			"(90%% interval %s): a model without branded queries would credit it with %s %s, but once they are accounted for its own incremental %s is %s.",
-			plots.Percent(sh.Mean), paidSearchName([]string{ch}), plots.List(uppers), pctInterval(sh.Q05, sh.Q95),
+			plots.Percent(sh.Mean), lab.PaidSearch([]string{ch}), plots.List(uppers), pctInterval(sh.Q05, sh.Q95),
 			plots.Number(ap.Mean), outcome, outcome, plots.Number(co.Mean)))
 	}
 
 	// Quarter comparisons.
 	if w.Kind == window.Quarter {
-		cv, notes, err := compareQuarters(f, w)
+		cv, notes, err := compareQuarters(f, w, supported)
 		if err != nil {
 			return nil, err
 		}
@@ -285,7 +326,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.CompareNote = strings.Join(notes, " ")
 		for _, ch := range spec.Upper {
 			if c, err := Compare(f, ch, fitfolder.PathTotal, w.Name, cv.Prev); err == nil {
-				v.Findings = append(v.Findings, changeSentence(c, outcome))
+				v.Findings = append(v.Findings, changeSentence(c, lab.Channel(c.Channel), outcome, supported, partialOf(f, w.Name, cv.Prev)))
 			}
 		}
 	} else {
@@ -300,32 +341,10 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		"No unmeasured confounder of spend and the outcome: budgets were not set in reaction to shocks that the controls do not capture.",
 		"The model's form: geometric adstock and Hill saturation for each channel, effects that are stable over the period, and normal errors.",
 	}
-	for _, ch := range spec.Upper {
-		be, ok := f.BreakevenRho(ch)
-		if !ok {
-			continue
-		}
-		if math.IsNaN(be) {
-			v.Sensitivity = append(v.Sensitivity, fmt.Sprintf("%s's via-search effect does not reach zero for any error correlation rho from -0.9 to 0.9.", plots.Capital(plots.Channel(ch))))
-		} else {
-			v.Sensitivity = append(v.Sensitivity, fmt.Sprintf("%s's via-search effect would reach zero if an unmeasured common cause made the errors of the two stages correlate at rho = %s.",
-				plots.Capital(plots.Channel(ch)), trimFloat(be)))
-		}
-	}
-	if len(v.Sensitivity) > 0 {
-		var fragile []string
-		for _, ch := range spec.Upper {
-			if be, ok := f.BreakevenRho(ch); ok && !math.IsNaN(be) && math.Abs(be) < 0.3 {
-				fragile = append(fragile, plots.Channel(ch))
-			}
-		}
-		switch len(fragile) {
-		case 0:
-		case 1:
-			v.Findings = append(v.Findings, fmt.Sprintf("Caution: %s's via-search effect would vanish under a weak unmeasured common cause (|rho| below 0.3); see the sensitivity section.", fragile[0]))
-		default:
-			v.Findings = append(v.Findings, fmt.Sprintf("Caution: the via-search effects of %s would vanish under a weak unmeasured common cause (|rho| below 0.3); see the sensitivity section.", plots.List(fragile)))
-		}
+	sens, fragile := sensitivityText(f, outcome)
+	v.Sensitivity = sens
+	if fragile != "" {
+		v.Findings = append(v.Findings, fragile)
 	}
 	v.Cautions = []string{
 		"Estimates from observational data rest on assumptions that this report names (above); they are not measured lifts.",
@@ -363,7 +382,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 				if !ok {
 					continue
 				}
-				row := effectRow{Channel: plots.Channel(ch), Path: p, PathLabel: pathLabels[p], Window: tw.Name}
+				row := effectRow{Channel: lab.Channel(ch), Path: p, PathLabel: pathLabels[p], Window: tw.Name}
 				if p == fitfolder.PathMediatedShare {
 					row.Mean, row.Q05, row.Q95 = plots.Percent(e.Mean), plots.Percent(e.Q05), plots.Percent(e.Q95)
 					row.Per = ""
@@ -391,7 +410,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 			if !ok {
 				continue
 			}
-			row := borrowedRow{Channel: plots.Channel(ch), Measure: m, Label: labels[m]}
+			row := borrowedRow{Channel: lab.Channel(ch), Measure: m, Label: labels[m]}
 			if m == "borrowed_share" {
 				row.Mean, row.Interval = plots.Percent(b.Mean), pctInterval(b.Q05, b.Q95)
 			} else {
@@ -410,28 +429,188 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		v.BorrowedNote += " " + strings.TrimPrefix(n, "note: ")
 	}
 
+	// Returns.
+	if f.Returns != nil {
+		withIv := func(r fitfolder.Return, ok bool, scale float64, format func(float64) string) string {
+			if !ok {
+				return "–"
+			}
+			return format(r.Mean*scale) + " (" + format(r.Q05*scale) + " to " + format(r.Q95*scale) + ")"
+		}
+		for _, ch := range spec.Upper {
+			ros, ok1 := f.ReturnMeasure(ch, w.Name, "return_on_spend")
+			cost, ok2 := f.ReturnMeasure(ch, w.Name, "cost_per_incremental")
+			all, ok3 := f.ReturnMeasure(ch, "all", "return_on_spend")
+			marg, ok4 := f.ReturnMeasure(ch, "all", "marginal_return")
+			if !ok1 && !ok2 && !ok3 && !ok4 {
+				continue
+			}
+			v.Returns = append(v.Returns, returnRow{Column: ch, Channel: lab.Channel(ch),
+				ROS: withIv(ros, ok1, k, plots.Number), Cost: withIv(cost, ok2, 1, lab.Spend),
+				ROSAll: withIv(all, ok3, k, plots.Number), Marginal: withIv(marg, ok4, k, plots.Number)})
+		}
+		v.ReturnsNote = fmt.Sprintf("Posterior mean and 90%% interval. Return on spend: the channel's total incremental %s "+
+			"(both paths, carryover after the window included) %s in the window. Cost per incremental %s: its spend divided by that total "+
+			"(the interval is the return's, turned over). Marginal return: the extra weekly %s per extra unit of weekly spend "+
+			"at the channel's current weekly spend (its mean over the data), the slope of the steady-state response curve there, shown %s; "+
+			"below the return on spend, extra spend buys less than the spend so far did.", outcome, perLabel, outcome, outcome, perLabel)
+	}
+
 	// Data summary.
 	v.Data = dataSummary(f, w)
-	v.Rerun = "To rerun the fit that produced these numbers (same data, same seed, byte-identical output):"
+	v.Command, v.Rebuild = rerunCommands(f, w)
 	return v, nil
 }
 
-func channelNames(cols []string) []string {
-	out := make([]string, len(cols))
-	for i, c := range cols {
-		out[i] = plots.Channel(c)
+// rerunCommands returns the command that redoes the whole job behind this
+// page (fit, split, charts and report, with the same data, seed and
+// window) into a new folder, and the one that rebuilds the page alone from
+// the fit folder. The fit's command ends with --out FOLDER; fit becomes
+// run, which also splits, draws and reports, and the folder gets the
+// suffix -rerun, because an existing folder is never overwritten without
+// --force.
+func rerunCommands(f *fitfolder.Fit, w window.Window) (rerun, rebuild string) {
+	cmd := f.Run.Command
+	if rest, ok := strings.CutPrefix(cmd, "spillway fit "); ok {
+		cmd = "spillway run " + rest
 	}
-	return out
+	folder := filepath.Clean(f.Dir)
+	if i := strings.LastIndex(cmd, " --out "); i >= 0 {
+		out := cmd[i+len(" --out "):]
+		cmd = cmd[:i]
+		next := out + "-rerun"
+		if strings.ContainsAny(out, "'\"\\ ") {
+			next = "spillway-rerun"
+		}
+		cmd += " --window " + w.Name + " --out " + next
+	}
+	return cmd, "spillway report --fit " + shellWord(folder) + " --window " + w.Name + " --force"
 }
 
-// paidSearchName names paid-search channels for sentences: "paid search"
-// for one channel called search, else "paid search (brand, generic)".
-func paidSearchName(cols []string) string {
-	names := channelNames(cols)
-	if len(names) == 1 && (names[0] == "search" || names[0] == "paid search") {
-		return "paid search"
+// shellWord quotes s for a POSIX shell when it holds anything but plain
+// path characters.
+func shellWord(s string) string {
+	if s != "" && strings.IndexFunc(s, func(r rune) bool {
+		return !(r >= 'a' && r <= 'z' || r >= 'A' && r <= 'Z' || r >= '0' && r <= '9' || strings.ContainsRune("-_./,=:+", r))
+	}) < 0 {
+		return s
 	}
-	return "paid search (" + strings.Join(names, ", ") + ")"
+	return "'" + strings.ReplaceAll(s, "'", `'\''`) + "'"
+}
+
+// currencySuffix is " (EUR)" for headings of spend, or empty without a
+// currency.
+func currencySuffix(lab plots.Labels) string {
+	if c := lab.Currency(); c != "" {
+		return " (" + c + ")"
+	}
+	return ""
+}
+
+// sensitivityText states where the via-search effects reach zero as the
+// errors of the two stages correlate (once, when it is the same rho for
+// every channel, as it is in the default model: rho enters through gamma,
+// the link every channel's path through branded search shares), and
+// benchmarks that rho by the correlation that leaving out each observed
+// control would induce (mediation.OmittedControlRho at the posterior
+// means of the control's coefficients and the stages' error sds). fragile
+// is a caution for the findings when the effects reach zero at |rho| below
+// 0.3 or below a control's benchmark of the same sign.
+func sensitivityText(f *fitfolder.Fit, outcome string) (lines []string, fragile string) {
+	spec := f.Run.Spec
+	lab := plots.LabelsOf(f)
+	type be struct {
+		ch  string
+		rho float64
+	}
+	var crossing []be
+	var steady []string
+	for _, ch := range spec.Upper {
+		rho, ok := f.BreakevenRho(ch)
+		switch {
+		case !ok:
+		case math.IsNaN(rho):
+			steady = append(steady, lab.Channel(ch))
+		default:
+			crossing = append(crossing, be{lab.Channel(ch), rho})
+		}
+	}
+	same := len(crossing) > 1
+	for _, c := range crossing {
+		same = same && math.Abs(c.rho-crossing[0].rho) < 0.005
+	}
+	var names []string
+	for _, c := range crossing {
+		names = append(names, c.ch)
+	}
+	switch {
+	case same && len(steady) == 0:
+		lines = append(lines, fmt.Sprintf("The via-search effect of every upper-funnel channel reaches zero at the same error correlation, rho = %s: "+
+			"an unmeasured common cause of branded queries and %s strong enough to make the errors of the two stages correlate that much "+
+			"would explain away the whole path through branded search. It is one rho for all channels because the correlation acts on the "+
+			"link from branded queries to %s, which every channel's path through search shares.", trimFloat(crossing[0].rho), outcome, outcome))
+	case same:
+		lines = append(lines, fmt.Sprintf("The via-search effects of %s reach zero at the same error correlation, rho = %s, "+
+			"the rho at which an unmeasured common cause of branded queries and %s would explain them away.", plots.List(names), trimFloat(crossing[0].rho), outcome))
+	default:
+		for _, c := range crossing {
+			lines = append(lines, fmt.Sprintf("%s's via-search effect would reach zero if an unmeasured common cause made the errors of the two stages correlate at rho = %s.",
+				plots.Capital(c.ch), trimFloat(c.rho)))
+		}
+	}
+	for _, ch := range steady {
+		lines = append(lines, fmt.Sprintf("%s's via-search effect does not reach zero for any error correlation rho from -0.9 to 0.9.", plots.Capital(ch)))
+	}
+	if len(crossing) == 0 {
+		return lines, ""
+	}
+
+	// Benchmarks: how much would leaving out an observed control correlate
+	// the errors?
+	type bench struct {
+		name string
+		rho  float64
+	}
+	var benches []bench
+	for _, b := range plots.ControlBenchmarks(f) {
+		benches = append(benches, bench{plots.Plain(b.Control), b.Rho})
+	}
+	var parts []string
+	var strong []string
+	for _, b := range benches {
+		parts = append(parts, fmt.Sprintf("%s, rho = %s", b.name, trimFloat(b.rho)))
+	}
+	for _, b := range benches {
+		if c := crossing[0].rho; b.rho*c > 0 && math.Abs(b.rho) >= math.Abs(c) {
+			strong = append(strong, b.name)
+		}
+	}
+	if len(benches) == 0 {
+		lines = append(lines, "How large a correlation is plausible: the fit has no observed control to compare with; "+
+			"correlations of 0.1 to 0.3 are what a modest common cause would produce.")
+	} else {
+		g := fmt.Sprintf("How large a correlation is plausible: leaving an observed control out of both stages would make their errors "+
+			"correlate at (%s), at the posterior means of its coefficients and the error sds. An unmeasured common cause as strong as ", strings.Join(parts, "; "))
+		if len(strong) > 0 {
+			g += fmt.Sprintf("%s would be enough to reach the break-even correlation.", plots.List(strong))
+		} else {
+			g += "any of them would not reach the break-even correlation."
+		}
+		lines = append(lines, g)
+	}
+	if min := math.Abs(crossing[0].rho); len(strong) > 0 || min < 0.3 {
+		subject := "the via-search effect of " + names[0]
+		if len(names) > 1 {
+			subject = "the via-search effects of " + plots.List(names)
+		}
+		why := "a modest correlation"
+		if len(strong) > 0 {
+			why = "no stronger than leaving out " + plots.List(strong) + " would cause"
+		}
+		fragile = fmt.Sprintf("Caution: %s would vanish if an unmeasured common cause of branded queries and %s made the errors of the two stages "+
+			"correlate at rho = %s, %s; see the sensitivity section.", subject, outcome, trimFloat(crossing[0].rho), why)
+	}
+	return lines, fragile
 }
 
 func windowPhraseShort(w window.Window) string {
@@ -477,7 +656,27 @@ func trimFloat(v float64) string {
 	return s
 }
 
-func changeSentence(c Change, outcome string) string {
+// partialOf names the quarters among ws that the data cover only in part,
+// with how much of each they hold: "2025Q4 (partial: 12 of 13 weeks)".
+func partialOf(f *fitfolder.Fit, names ...string) []string {
+	var out []string
+	for _, n := range names {
+		w, err := window.Parse(n)
+		if err != nil {
+			continue
+		}
+		if p := plots.Partial(f, w); p != "" {
+			out = append(out, w.Name+" ("+p+")")
+		}
+	}
+	return out
+}
+
+// changeSentence says how a total effect moved between two quarters and
+// whether the move is clear: not when the media effects are not
+// supported by the data, nor when partial names quarters of the two that
+// the data cover only in part.
+func changeSentence(c Change, name, outcome string, supported bool, partial []string) string {
 	dir := "rose"
 	if c.Mean < 0 {
 		dir = "fell"
@@ -487,11 +686,17 @@ func changeSentence(c Change, outcome string) string {
 		rel = " (" + plots.Percent(math.Abs(r)) + ")"
 	}
 	verdict := "the 90% interval of the change excludes zero, so the change is clear"
-	if !c.ExcludesZero() {
+	switch {
+	case !c.ExcludesZero():
 		verdict = "the 90% interval of the change includes zero, so it may be noise"
+	case !supported:
+		verdict = "the media effects themselves are not supported by the data (see the top of this report), so no change between quarters is clear"
+	case len(partial) > 0:
+		verdict = "the 90% interval of the change excludes zero, but " + plots.List(partial) +
+			" is only partly in the data, so part of the change is the shorter window and the carryover cut at the data's end"
 	}
 	return fmt.Sprintf("%s's total effect %s by %s %s%s from %s to %s; %s (%s).",
-		plots.Capital(plots.Channel(c.Channel)), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,
+		plots.Capital(name), dir, plots.Number(math.Abs(c.Mean)), outcome, rel, c.Base, c.Window,
 		verdict, signedInterval(c.Q05, c.Q95))
 }
 
@@ -505,10 +710,13 @@ func pointsInterval(lo, hi float64) string {
 
 // compareQuarters builds the comparison of w with the previous quarter and
 // the same quarter a year earlier, for every channel and path with draws.
-func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string, error) {
+// Without support for the media effects (supported false) no change is
+// called clear.
+func compareQuarters(f *fitfolder.Fit, w window.Window, supported bool) (*compareView, []string, error) {
 	prev, _ := w.Previous()
 	year, _ := w.YearEarlier()
 	cv := &compareView{Window: w.Name, Prev: prev.Name, Year: year.Name}
+	lab := plots.LabelsOf(f)
 	var notes []string
 	hasPrev, hasYear := f.HasWindow(prev.Name), f.HasWindow(year.Name)
 	if !hasPrev {
@@ -543,8 +751,10 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 					return plots.Points(c.Mean) + " (" + pointsInterval(c.Q05, c.Q95) + ")"
 				}
 			}
-			row := compareRow{Channel: plots.Channel(ch), PathLabel: pathLabels[p], Now: format(now.Mean),
-				Prev: "–", Year: "–", PrevChange: "–", YearChange: "–"}
+			row := compareRow{Channel: lab.Channel(ch), PathLabel: pathLabels[p], Now: format(now.Mean),
+				Prev: "–", Year: "–", PrevChange: "–", YearChange: "–", PrevSpend: "–", YearSpend: "–"}
+			row.PrevSpend = spendChange(f, ch, w, prev, hasPrev)
+			row.YearSpend = spendChange(f, ch, w, year, hasYear)
 			for _, side := range []struct {
 				ok            bool
 				base          string
@@ -567,8 +777,8 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 					return nil, nil, err
 				}
 				*side.chg = change(c)
-				*side.clear = c.ExcludesZero()
-				if c.ExcludesZero() {
+				*side.clear = c.ExcludesZero() && supported
+				if *side.clear {
 					*side.sig = "yes"
 				} else {
 					*side.sig = "no"
@@ -580,13 +790,33 @@ func compareQuarters(f *fitfolder.Fit, w window.Window) (*compareView, []string,
 	return cv, notes, nil
 }
 
+// spendChange is the relative change of channel ch's spend from quarter
+// base to quarter w ("+12%", "-30%"), "–" when base is not in the data or
+// had no spend.
+func spendChange(f *fitfolder.Fit, ch string, w, base window.Window, ok bool) string {
+	if !ok {
+		return "–"
+	}
+	b := f.Data.Total(ch, base)
+	if !(b > 0) {
+		return "–"
+	}
+	c := f.Data.Total(ch, w)/b - 1
+	if c > 0 {
+		return "+" + plots.Percent(c)
+	}
+	return plots.Percent(c)
+}
+
 func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 	spec := f.Run.Spec
+	lab := plots.LabelsOf(f)
 	whole := f.Whole()
 	d := dataView{
 		Weeks:       fmt.Sprint(len(f.Data.Weeks)),
 		Range:       dateRange(whole),
-		OutcomeName: plots.Plain(spec.Outcome),
+		OutcomeName: lab.Outcome(),
+		Currency:    currencySuffix(lab),
 		QName:       plots.Plain(spec.Queries),
 		Outcome:     plots.Number(f.Data.Total(spec.Outcome, whole)),
 		Queries:     plots.Number(f.Data.Total(spec.Queries, whole)),
@@ -605,13 +835,26 @@ func dataSummary(f *fitfolder.Fit, w window.Window) dataView {
 	}
 	for _, ch := range spec.Upper {
 		t := f.Data.Total(ch, whole)
-		d.Spend = append(d.Spend, spendRow{Channel: plots.Channel(ch), Role: "upper funnel", Total: plots.Number(t),
+		d.Spend = append(d.Spend, spendRow{Channel: lab.Channel(ch), Role: "upper funnel", Total: plots.Number(t),
 			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
 	}
 	for _, ch := range spec.Search {
 		t := f.Data.Total(ch, whole)
-		d.Spend = append(d.Spend, spendRow{Channel: plots.Channel(ch), Role: "paid search", Total: plots.Number(t),
+		d.Spend = append(d.Spend, spendRow{Channel: lab.Channel(ch), Role: "paid search", Total: plots.Number(t),
 			Share: plots.Percent(t / all), Window: plots.Number(f.Data.Total(ch, w))})
 	}
 	return d
+}
+
+// mediaSupported reports whether the verdict's support check passed: a
+// "support" line that is not a note says the media effects are not
+// supported. A verdict without the check (an older fit) counts as
+// supported.
+func mediaSupported(v fitfolder.Verdict) bool {
+	for _, r := range v.Reasons {
+		if r.Stage == "support" && !strings.HasPrefix(r.Text, "note: ") {
+			return false
+		}
+	}
+	return true
 }

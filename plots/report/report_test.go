@@ -5,6 +5,7 @@ import (
 	"encoding/base64"
 	"encoding/xml"
 	"errors"
+	"fmt"
 	"image/png"
 	"io"
 	"math"
@@ -18,6 +19,7 @@ import (
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/fitfolder/fitfoldertest"
 	"spillway/funnel/stat"
+	"spillway/funnel/window"
 	"spillway/plots"
 	"spillway/plots/report"
 )
@@ -405,7 +407,7 @@ func TestReportCompareTable(t *testing.T) {
 	checked := 0
 	for _, tr := range tab.all("tr") {
 		tds := tr.all("td")
-		if len(tds) != 9 {
+		if len(tds) != 11 {
 			continue
 		}
 		ch := tds[0].fullText() + "_spend"
@@ -413,7 +415,7 @@ func TestReportCompareTable(t *testing.T) {
 		for _, side := range []struct {
 			base       string
 			chg, clear int
-		}{{"2025Q2", 4, 5}, {"2024Q3", 7, 8}} {
+		}{{"2025Q2", 4, 6}, {"2024Q3", 8, 10}} {
 			m, lo, hi := paired(x, ch, path, "2025Q3", side.base)
 			want := plots.Signed(m) + " (" + plots.Signed(lo) + " to " + plots.Signed(hi) + ")"
 			if path == fitfolder.PathMediatedShare {
@@ -495,8 +497,14 @@ func TestReportContent(t *testing.T) {
 			t.Errorf("report lacks %q", want)
 		}
 	}
-	if cmd := root.byID("command"); cmd == nil || cmd.fullText() != x.fx.Command {
-		t.Errorf("rerun command: got %v, want %q", cmd, x.fx.Command)
+	// The rerun does the whole job (run, not fit then report) with the
+	// window of this page, into a folder that does not exist yet.
+	wantCmd := strings.TrimSuffix(x.fx.Command, " --out "+x.fx.Dir) + " --window 2025Q3 --out " + x.fx.Dir + "-rerun"
+	if cmd := root.byID("command"); cmd == nil || cmd.fullText() != wantCmd {
+		t.Errorf("rerun command: got %v, want %q", cmd, wantCmd)
+	}
+	if cmd := root.byID("rebuild"); cmd == nil || cmd.fullText() != "spillway report --fit "+x.fx.Dir+" --window 2025Q3 --force" {
+		t.Errorf("rebuild command: got %v", cmd)
 	}
 	// Spend totals per channel from data.csv.
 	spend := root.byID("spend")
@@ -549,5 +557,152 @@ func TestReportRendersCharts(t *testing.T) {
 	}
 	if n := strings.Count(buf.String(), "data:image/png;base64,"); n != len(plots.Names) {
 		t.Errorf("%d charts embedded, want %d", n, len(plots.Names))
+	}
+}
+
+// TestReportPartialQuarter reviews 2025Q4, of which the fixture holds 12
+// of 13 weeks: the title and the text name it partial and no change from
+// 2025Q3 is called clear without saying so.
+func TestReportPartialQuarter(t *testing.T) {
+	x := load(t, false)
+	text := parse(t, write(t, x, "2025Q4")).fullText()
+	for _, want := range []string{
+		"Quarterly review: 2025Q4 (Oct–Dec 2025), partial: 12 of 13 weeks",
+		"2025Q4 is a partial quarter: the data hold 12 of its 13 weeks",
+		"in 2025Q4 (partial: 12 of 13 weeks) ran through branded search",
+	} {
+		if !strings.Contains(text, want) {
+			t.Errorf("report of 2025Q4 lacks %q", want)
+		}
+	}
+	if strings.Contains(text, "so the change is clear") {
+		t.Error("a change into a partial quarter is called clear")
+	}
+	full := parse(t, write(t, x, "2025Q3")).fullText()
+	if strings.Contains(full, "partial") {
+		t.Error("the report of 2025Q3, a full quarter, says partial")
+	}
+}
+
+// TestReportSensitivityBenchmark checks the rho that leaving out the
+// control would induce, from the fixture's posterior means.
+func TestReportSensitivityBenchmark(t *testing.T) {
+	x := load(t, false)
+	text := parse(t, write(t, x, "")).fullText()
+	mean := func(name string) float64 {
+		for _, st := range x.f.Stages {
+			for _, p := range st.Params {
+				if p.Name == name {
+					return p.Mean
+				}
+			}
+		}
+		t.Fatalf("no parameter %s", name)
+		return 0
+	}
+	pq, py, sq, sy := mean("phi_q[price]"), mean("phi_y[price]"), mean("sigma_q"), mean("sigma_y")
+	rho := pq * py / math.Sqrt((sq*sq+pq*pq)*(sy*sy+py*py))
+	want := fmt.Sprintf("price, rho = %s", strings.TrimRight(strings.TrimRight(fmt.Sprintf("%.2f", rho), "0"), "."))
+	if !strings.Contains(text, want) {
+		t.Errorf("report lacks the benchmark %q", want)
+	}
+	if strings.Contains(text, "below 0.3") || strings.Contains(text, "weak unmeasured") {
+		t.Error("the old caution wording is back")
+	}
+}
+
+// TestReportReturns checks the returns table against returns.csv and the
+// spend change beside the effect change in the quarter comparison; a fit
+// folder written before returns.csv existed still gives a report, without
+// the table.
+func TestReportReturns(t *testing.T) {
+	x := load(t, false)
+	root := parse(t, write(t, x, "2025Q3"))
+	tab := root.byID("returns")
+	if tab == nil {
+		t.Fatal("no returns table")
+	}
+	k := 1.0
+	if strings.Contains(parse(t, write(t, x, "2025Q3")).fullText(), "per 1,000 of spend") {
+		k = 1000
+	}
+	for _, ch := range []string{"video_spend", "audio_spend"} {
+		ros, _ := x.f.ReturnMeasure(ch, "2025Q3", "return_on_spend")
+		marg, _ := x.f.ReturnMeasure(ch, "all", "marginal_return")
+		text := ""
+		for _, tr := range tab.all("tr") {
+			if tr.fullText() != "" && strings.Contains(tr.fullText(), plots.Channel(ch)) {
+				text = tr.fullText()
+			}
+		}
+		for _, want := range []string{plots.Number(ros.Mean * k), plots.Number(marg.Mean * k)} {
+			if !strings.Contains(text, want) {
+				t.Errorf("%s returns row %q lacks %s", ch, text, want)
+			}
+		}
+	}
+	// spend change of video from 2025Q2 to 2025Q3, from data.csv
+	w3, _ := window.Parse("2025Q3")
+	w2, _ := window.Parse("2025Q2")
+	c := x.f.Data.Total("video_spend", w3)/x.f.Data.Total("video_spend", w2) - 1
+	want := plots.Percent(c)
+	if c > 0 {
+		want = "+" + want
+	}
+	if cmp := root.byID("compare"); cmp == nil || !strings.Contains(cmp.fullText(), want) {
+		t.Errorf("compare table lacks video's spend change %s", want)
+	}
+
+	// an older fit folder: no returns.csv
+	dir := t.TempDir()
+	fx, err := fitfoldertest.Write(filepath.Join(dir, "fit"), fitfoldertest.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Remove(filepath.Join(fx.Dir, "returns.csv")); err != nil {
+		t.Fatal(err)
+	}
+	f, err := fitfolder.Load(fx.Dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if f.Returns != nil {
+		t.Error("a folder without returns.csv read rows")
+	}
+	var buf bytes.Buffer
+	if err := report.Write(&buf, f, "2025Q3", x.charts); err != nil {
+		t.Fatal(err)
+	}
+	if parse(t, buf.Bytes()).byID("returns") != nil {
+		t.Error("a returns table without returns.csv")
+	}
+}
+
+// TestReportUnsupportedMedia gives the fixture a verdict whose support
+// check failed: the reason shows at the top without a "stage" label, the
+// notes on what the data cannot tell show under it, and no
+// quarter-on-quarter change is called clear.
+func TestReportUnsupportedMedia(t *testing.T) {
+	x := load(t, false)
+	f := *x.f
+	f.Verdict = fitfolder.Verdict{Reasons: []fitfolder.Reason{
+		{Stage: "support", Text: "media effects are NOT SUPPORTED by the data: test"},
+		{Stage: "effect", Text: "note: video_spend's total effect (all): negligible (P = 0.95 that it is under 5% of the outcome in the window)"},
+	}}
+	var buf bytes.Buffer
+	if err := report.Write(&buf, &f, "2025Q3", x.charts); err != nil {
+		t.Fatal(err)
+	}
+	s := buf.String()
+	for _, want := range []string{"<li>media effects are NOT SUPPORTED by the data: test</li>", "negligible (P = 0.95"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("report lacks %q", want)
+		}
+	}
+	if strings.Contains(s, "support stage") || strings.Contains(s, "so the change is clear") || strings.Contains(s, `class="clear"`) {
+		t.Error("a change is called clear, or the support line is labelled a stage, though the media effects are not supported")
+	}
+	if !strings.Contains(s, "no change between quarters is clear") {
+		t.Error("no sentence saying that no change is clear")
 	}
 }

@@ -76,6 +76,9 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 {{else}}
 <section class="passed" id="verdict">{{.Checks}}</section>
 {{end}}
+{{if .Notes}}<ul class="support" id="support">{{range .Notes}}
+<li>{{.}}</li>{{end}}
+</ul>{{end}}
 <p class="job" id="job">{{.Job}}</p>
 
 <h2>Headline findings</h2>
@@ -85,11 +88,11 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 
 {{if .Compare}}
 <h2>{{.Compare.Window}} against the previous quarter and a year earlier</h2>
-<p class="note">Changes are computed draw by draw from the posterior (the same draw in both quarters), so their 90% intervals account for what the quarters share. "Clear" means the interval excludes zero. Outcome units, or percentage points for the share via search.</p>
+<p class="note">Changes are computed draw by draw from the posterior (the same draw in both quarters), so their 90% intervals account for what the quarters share. "Clear" means the interval excludes zero. Outcome units, or percentage points for the share via search. "Spend change" is the change in the channel's spend between the two quarters: an effect that moves with its spend is spend-driven, not a change in how well the channel works.</p>
 <table id="compare">
-<thead><tr><th>Channel</th><th>Path</th><th class="num">{{.Compare.Window}}</th><th class="num">{{.Compare.Prev}}</th><th class="num">Change (90% interval)</th><th>Clear?</th><th class="num">{{.Compare.Year}}</th><th class="num">Change (90% interval)</th><th>Clear?</th></tr></thead>
+<thead><tr><th>Channel</th><th>Path</th><th class="num">{{.Compare.Window}}</th><th class="num">{{.Compare.Prev}}</th><th class="num">Change (90% interval)</th><th class="num">Spend change</th><th>Clear?</th><th class="num">{{.Compare.Year}}</th><th class="num">Change (90% interval)</th><th class="num">Spend change</th><th>Clear?</th></tr></thead>
 <tbody>{{range .Compare.Rows}}
-<tr><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Now}}</td><td class="num">{{.Prev}}</td><td class="num">{{.PrevChange}}</td><td{{if .PrevClear}} class="clear"{{end}}>{{.PrevSig}}</td><td class="num">{{.Year}}</td><td class="num">{{.YearChange}}</td><td{{if .YearClear}} class="clear"{{end}}>{{.YearSig}}</td></tr>{{end}}
+<tr><td>{{.Channel}}</td><td>{{.PathLabel}}</td><td class="num">{{.Now}}</td><td class="num">{{.Prev}}</td><td class="num">{{.PrevChange}}</td><td class="num">{{.PrevSpend}}</td><td{{if .PrevClear}} class="clear"{{end}}>{{.PrevSig}}</td><td class="num">{{.Year}}</td><td class="num">{{.YearChange}}</td><td class="num">{{.YearSpend}}</td><td{{if .YearClear}} class="clear"{{end}}>{{.YearSig}}</td></tr>{{end}}
 </tbody>
 </table>
 {{end}}
@@ -115,6 +118,17 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 {{end}}
 
+{{if .Returns}}
+<h2>Returns</h2>
+<p class="note">{{.ReturnsNote}}</p>
+<table id="returns">
+<thead><tr><th>Channel</th><th class="num">Return on spend, {{.Window}} ({{.PerLabel}})</th><th class="num">Cost per incremental {{.Data.OutcomeName}}, {{.Window}}</th><th class="num">Return on spend, whole period</th><th class="num">Marginal return at current spend ({{.PerLabel}})</th></tr></thead>
+<tbody>{{range .Returns}}
+<tr data-channel="{{.Column}}"><td>{{.Channel}}</td><td class="num">{{.ROS}}</td><td class="num">{{.Cost}}</td><td class="num">{{.ROSAll}}</td><td class="num">{{.Marginal}}</td></tr>{{end}}
+</tbody>
+</table>
+{{end}}
+
 <h2>Demand borrowed by paid search</h2>
 <p class="note">{{.BorrowedNote}}</p>
 <table id="borrowed">
@@ -136,11 +150,11 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 
 {{with .Validation}}
 <h2>Validation</h2>
-<p>From <code>spillway validate</code> on this fit: recovery of known truth on data simulated like these, forecasts of weeks the model did not see, and stability when a quarter is left out.</p>
+<p>From <code>spillway validate</code> on this fit: {{.Intro}}.</p>
 <ul id="validation">{{range .Verdict}}
 {{if .Head}}<li><strong>{{.Text}}</strong></li>{{else}}<li class="detail">{{.Text}}</li>{{end}}{{end}}
 </ul>
-{{if .Src}}<figure><img src="{{.Src}}" alt="Validation: interval coverage, holdout forecasts and stability shifts"/></figure>{{end}}
+{{if .Src}}<figure><img src="{{.Src}}" alt="Validation: {{.Intro}}"/></figure>{{end}}
 <table id="validation-metrics">
 <thead><tr><th>Check</th><th>Effect or stage</th><th>Channel</th><th>Metric</th><th class="num">Value</th></tr></thead>
 <tbody>{{range .Rows}}
@@ -149,7 +163,22 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 {{end}}
 
-<h2>Cautions</h2>
+{{with .Plan}}<h2>{{.Heading}}</h2>
+<p>{{.Intro}}</p>
+<table id="plan">
+<thead><tr><th>Channel</th><th class="num">Current</th><th class="num">Planned</th><th class="num">Change</th><th>Limits</th><th class="num">Incremental outcome, planned (90% interval)</th><th class="num">Marginal return (90% interval)</th></tr></thead>
+<tbody>{{range .Rows}}
+<tr data-channel="{{.Channel}}"><td>{{.Channel}}</td><td class="num">{{.Current}}</td><td class="num">{{.Planned}}</td><td class="num">{{.Change}}</td><td>{{.Limits}}</td><td class="num">{{.Incremental}}</td><td class="num">{{.Marginal}}</td></tr>{{end}}
+</tbody>
+</table>
+<p id="plan-gain">{{.Gain}}</p>
+{{if .Check}}<p class="note">{{.Check}}</p>{{end}}
+<figure><img src="{{.Src}}" alt="Budget plan: current against planned spend per channel, the gain over the current plan with its 90% interval, and each channel's marginal return at the plan"/></figure>
+<ul id="plan-notes">{{range .Notes}}
+<li>{{.}}</li>{{end}}
+</ul>
+
+{{end}}<h2>Cautions</h2>
 <ul id="cautions">{{range .Cautions}}
 <li>{{.}}</li>{{end}}
 </ul>
@@ -166,16 +195,16 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <h2>Data</h2>
 <p id="data">{{.Data.Weeks}} weeks, {{.Data.Range}}; {{.Data.Regions}}.{{if .Data.WindowWeeks}} Review window {{.Data.WindowWeeks}}.{{end}} Total {{.Data.OutcomeName}}: {{.Data.Outcome}}; total {{.Data.QName}}: {{.Data.Queries}}.</p>
 <table id="spend">
-<thead><tr><th>Channel</th><th>Role</th><th class="num">Total spend</th><th class="num">Share of spend</th><th class="num">Spend in {{.Window}}</th></tr></thead>
+<thead><tr><th>Channel</th><th>Role</th><th class="num">Total spend{{.Data.Currency}}</th><th class="num">Share of spend</th><th class="num">Spend in {{.Window}}{{.Data.Currency}}</th></tr></thead>
 <tbody>{{range .Data.Spend}}
 <tr><td>{{.Channel}}</td><td>{{.Role}}</td><td class="num">{{.Total}}</td><td class="num">{{.Share}}</td><td class="num">{{.Window}}</td></tr>{{end}}
 </tbody>
 </table>
 
 <h2>How to rerun</h2>
-<p>{{.Rerun}}</p>
+<p>To redo the whole job behind this page (check the data, fit, split, charts and this report, with the same data, seed and window) into a new folder, run this from the folder the original run was started in (the data file's path is as it was given then); the same inputs give byte-identical draws and tables:</p>
 <pre id="command">{{.Command}}</pre>
-<p class="note">Then <code>spillway report --fit FOLDER --window {{.Window}}</code> rebuilds this page.</p>
+<p class="note">To rebuild only this page from the fit folder (after changing the window, for example): <code id="rebuild">{{.Rebuild}}</code></p>
 <footer>Made by spillway. This page is self-contained: it needs no network and prints on A4.</footer>
 </main>
 </body>

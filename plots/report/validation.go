@@ -20,6 +20,8 @@ const ValidationDir = "validation"
 
 // validationView is the report's validation section.
 type validationView struct {
+	// Intro names the checks that ran, in plain words, and only those.
+	Intro   string
 	Verdict []verdictLine
 	Src     template.URL
 	Rows    []validationRow
@@ -53,11 +55,21 @@ func loadValidation(dir string) (*validationView, error) {
 		return nil, err
 	}
 	v := &validationView{}
+	var ran []string
 	for _, l := range strings.Split(string(verdict), "\n") {
 		if t := strings.TrimSpace(l); t != "" {
 			v.Verdict = append(v.Verdict, verdictLine{Text: t, Head: t == l})
+			check, head, _ := strings.Cut(t, ": ")
+			if t == l && !strings.HasPrefix(head, "not run") {
+				if words, ok := checkWords[check]; ok {
+					ran = append(ran, words)
+				} else {
+					ran = append(ran, check)
+				}
+			}
 		}
 	}
+	v.Intro = joinWords(ran)
 	if png, err := os.ReadFile(filepath.Join(base, "validation.png")); err == nil {
 		v.Src = template.URL("data:image/png;base64," + base64.StdEncoding.EncodeToString(png))
 	}
@@ -88,4 +100,24 @@ func loadValidation(dir string) (*validationView, error) {
 		v.Rows = append(v.Rows, validationRow{r[0], strings.ReplaceAll(r[1], "_", " "), r[2], strings.ReplaceAll(r[3], "_", " "), val})
 	}
 	return v, nil
+}
+
+// checkWords say what each check of verdict.txt did, for the section's
+// introduction.
+var checkWords = map[string]string{
+	"recovery":  "recovery of known truth on data simulated like these",
+	"holdout":   "forecasts of weeks the model did not see, against a seasonal rule and the same model without media",
+	"stability": "stability when a quarter is left out or the seed changes",
+	"placebo":   "placebo refits with each channel's spend moved to weeks where it did not happen",
+}
+
+// joinWords joins "a", "a and b", "a, b and c"; none gives "no check ran".
+func joinWords(w []string) string {
+	switch len(w) {
+	case 0:
+		return "no check ran"
+	case 1:
+		return w[0]
+	}
+	return strings.Join(w[:len(w)-1], ", ") + " and " + w[len(w)-1]
 }

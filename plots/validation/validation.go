@@ -79,7 +79,7 @@ func (f *page) draw(dc draw.Canvas) error {
 	if err != nil {
 		return err
 	}
-	fc, err := f.forecastPanel()
+	fcs, err := f.forecastPanels()
 	if err != nil {
 		return err
 	}
@@ -87,7 +87,7 @@ func (f *page) draw(dc draw.Canvas) error {
 	if err != nil {
 		return err
 	}
-	for _, p := range []*plot.Plot{cov, fc, sh} {
+	for _, p := range append(append([]*plot.Plot{cov}, fcs...), sh) {
 		if p != nil {
 			panels = append(panels, p)
 		}
@@ -108,11 +108,19 @@ func (f *page) draw(dc draw.Canvas) error {
 	case 2:
 		panels[0].Draw(sub(0, 0, 0.48, 1))
 		panels[1].Draw(sub(0.52, 0, 1, 1))
-	default:
-		// coverage down the left; forecasts and shifts on the right
+	case 3:
+		// the first panel (coverage, or the demand forecasts) down the
+		// left; the other two on the right
 		panels[0].Draw(sub(0, 0, 0.44, 1))
 		panels[1].Draw(sub(0.48, 0.52, 1, 1))
 		panels[2].Draw(sub(0.48, 0, 1, 0.46))
+	default:
+		// coverage down the left; the two stages' forecasts side by side
+		// at the top right, stability below them
+		panels[0].Draw(sub(0, 0, 0.42, 1))
+		panels[1].Draw(sub(0.46, 0.52, 0.72, 1))
+		panels[2].Draw(sub(0.74, 0.52, 1, 1))
+		panels[3].Draw(sub(0.46, 0, 1, 0.46))
 	}
 	return nil
 }
@@ -189,22 +197,30 @@ func (f *page) coveragePanel() (*plot.Plot, error) {
 	return p, nil
 }
 
-// forecastPanel draws the outcome's holdout forecasts: the 90% band and
-// mean against the actuals and the seasonal baseline.
-func (f *page) forecastPanel() (*plot.Plot, error) {
-	if len(f.rep.Forecasts) == 0 {
-		return nil, nil
-	}
-	s := f.rep.Forecasts[0]
-	for _, fc := range f.rep.Forecasts {
-		if fc.Stage == "outcome" {
-			s = fc
+// forecastPanels draws each stage's holdout forecasts (demand, then
+// outcome): the 90% band and mean against the actuals, the seasonal
+// baseline and, when the sweep has it, the model without media.
+func (f *page) forecastPanels() ([]*plot.Plot, error) {
+	var out []*plot.Plot
+	for _, s := range f.rep.Forecasts {
+		if len(s.Days) == 0 {
+			continue
 		}
+		p, err := forecastPanel(s)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, p)
 	}
-	if len(s.Days) == 0 {
-		return nil, nil
+	return out, nil
+}
+
+func forecastPanel(s validate.ForecastSeries) (*plot.Plot, error) {
+	what := s.Stage
+	if s.Column != "" {
+		what = strings.ReplaceAll(s.Column, "_", " ")
 	}
-	p := newPanel("Holdout: " + s.Stage + " forecasts vs actual")
+	p := newPanel("Holdout: " + s.Stage)
 	// weeks of one origin follow each other; draw each block apart
 	blocks := splitBlocks(s.Days)
 	for _, b := range blocks {
@@ -214,27 +230,44 @@ func (f *page) forecastPanel() (*plot.Plot, error) {
 	for _, o := range s.Origins {
 		p.Add(marks.Rule{At: o, Vertical: true, Style: draw.LineStyle{Color: plots.Grid, Width: vg.Points(2)}})
 	}
+	noMedia := len(s.NoMedia) == len(s.Days)
 	for _, b := range blocks {
 		x := s.Days[b[0]:b[1]]
 		p.Add(marks.Line{X: x, Y: s.Baseline[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Faint, Width: vg.Points(3), Dashes: []vg.Length{vg.Points(8), vg.Points(5)}}, DotSingle: true})
+		if noMedia {
+			p.Add(marks.Line{X: x, Y: s.NoMedia[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Muted, Width: vg.Points(2.5), Dashes: []vg.Length{vg.Points(2), vg.Points(4)}}, DotSingle: true})
+		}
 		p.Add(marks.Line{X: x, Y: s.Mean[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Direct, Width: vg.Points(3.5)}, DotSingle: true})
 		p.Add(marks.Line{X: x, Y: s.Actual[b[0]:b[1]], Style: draw.LineStyle{Color: plots.Ink, Width: vg.Points(3)}, DotSingle: true})
 	}
-	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline} {
+	for _, v := range [][]float64{s.Actual, s.Mean, s.Lo, s.Hi, s.Baseline, s.NoMedia} {
 		if !finite(v...) {
 			return nil, fmt.Errorf("validation: a %s forecast is not a number", s.Stage)
 		}
 	}
 	p.X.Tick.Marker = marks.MonthTicks{}
 	p.Y.Tick.Marker = marks.NumberTicks{}
-	p.Y.Label.Text = s.Stage + " per week"
+	p.Y.Label.Text = what + " per week"
+	// room above the lines for the legend
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for _, v := range [][]float64{s.Actual, s.Lo, s.Hi, s.Baseline, s.NoMedia} {
+		for _, x := range v {
+			lo, hi = math.Min(lo, x), math.Max(hi, x)
+		}
+	}
+	if hi > lo {
+		p.Y.Min, p.Y.Max = lo-0.05*(hi-lo), hi+0.9*(hi-lo)
+	}
 	p.Legend.Add("actual", swatch{plots.Ink, false})
 	p.Legend.Add("model, 90% band", swatch{plots.Direct, false})
 	p.Legend.Add("seasonal baseline", swatch{plots.Faint, true})
-	p.Legend.TextStyle = marks.TextStyle(17, plots.Ink, false)
+	if noMedia {
+		p.Legend.Add("model without media", swatch{plots.Muted, true})
+	}
+	p.Legend.TextStyle = marks.TextStyle(15, plots.Ink, false)
 	p.Legend.Top = true
 	p.Legend.Left = true
-	p.Legend.Padding = vg.Points(3)
+	p.Legend.Padding = vg.Points(2)
 	return p, nil
 }
 

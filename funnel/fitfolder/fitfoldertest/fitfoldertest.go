@@ -51,6 +51,7 @@ type Fixture struct {
 	Breakeven   []fitfolder.Breakeven
 	Fitted      []fitfolder.Fitted
 	Curves      []fitfolder.Curve
+	Returns     []fitfolder.Return
 	Params      map[string][]fitfolder.Param
 	Stats       map[string]fitfolder.Stats
 	Verdict     []string
@@ -237,6 +238,14 @@ func Write(dir string, o Options) (*Fixture, error) {
 					e.PerUnitSpend = e.Mean / spend
 				}
 				fx.Effects = append(fx.Effects, e)
+				if p == fitfolder.PathTotal && slices.Contains(Upper, ch) && spend > 0 {
+					// returns.csv: the total over spend, and its inverse
+					fx.Returns = append(fx.Returns,
+						fitfolder.Return{Channel: ch, Window: wn, Measure: "return_on_spend",
+							Mean: e.Mean / spend, Q05: e.Q05 / spend, Q50: e.Q50 / spend, Q95: e.Q95 / spend},
+						fitfolder.Return{Channel: ch, Window: wn, Measure: "cost_per_incremental",
+							Mean: spend / e.Mean, Q05: spend / e.Q95, Q50: spend / e.Q50, Q95: spend / e.Q05})
+				}
 			}
 		}
 	}
@@ -311,6 +320,10 @@ func Write(dir string, o Options) (*Fixture, error) {
 		cur := stat.Mean(fx.Columns[ch])
 		dmax := map[string]float64{"video_spend": 90, "audio_spend": 110}[ch]
 		vmax := map[string]float64{"video_spend": 140, "audio_spend": 70}[ch]
+		// the marginal return: the slope of the total curve at cur
+		m := dmax*1.2*cur/((2.2*cur)*(2.2*cur)) + vmax*0.9*cur/((1.9*cur)*(1.9*cur))
+		fx.Returns = append(fx.Returns, fitfolder.Return{Channel: ch, Window: "all", Measure: "marginal_return",
+			Mean: m, Q05: 0.7 * m, Q50: m, Q95: 1.35 * m})
 		for i := 0; i <= 30; i++ {
 			s := cur * 3 * float64(i) / 30
 			d := dmax * s / (s + 1.2*cur)
@@ -442,7 +455,7 @@ func (fx *Fixture) write() error {
 	}
 	f.Split = fitfolder.Split{Effects: fx.Effects, EffectDraws: map[fitfolder.DrawKey]fitfolder.DrawSeries{},
 		Borrowed: fx.Borrowed, Weekly: fx.Weekly, Sensitivity: fx.Sensitivity, Breakeven: fx.Breakeven,
-		Fitted: fx.Fitted, Curves: fx.Curves}
+		Fitted: fx.Fitted, Curves: fx.Curves, Returns: fx.Returns}
 	for k, v := range fx.Draws {
 		d := make([]int, len(v))
 		for i := range d {

@@ -133,8 +133,17 @@ func (p *Printer) line(now time.Time) {
 	p.keep(err)
 }
 
-// Finish completes the bar, or prints a final plain line, once.
-func (p *Printer) Finish() error {
+// Finish completes the bar, or prints a final plain line, once: the
+// sampling is done.
+func (p *Printer) Finish() error { return p.end(false) }
+
+// Interrupt ends the display once, saying the sampling was interrupted
+// (after Ctrl-C, say) after the iterations recorded so far: the bar is
+// left where it stopped, and the final line says "interrupted", not
+// "done". After Finish or Interrupt, either does nothing.
+func (p *Printer) Interrupt() error { return p.end(true) }
+
+func (p *Printer) end(interrupted bool) error {
 	p.mu.Lock()
 	defer p.mu.Unlock()
 	if p.finished {
@@ -142,13 +151,25 @@ func (p *Printer) Finish() error {
 	}
 	p.finished = true
 	now := p.o.Now()
+	took := now.Sub(p.start).Round(100 * time.Millisecond)
 	if p.bar != nil {
+		if interrupted {
+			p.keep(p.bar.Exit())
+			_, err := fmt.Fprintf(p.o.Writer, "\n%s: interrupted after %d of %d iterations in %s\n", p.o.Label, p.done, p.total, took)
+			p.keep(err)
+			return p.err
+		}
 		p.keep(p.bar.Finish())
 		_, err := fmt.Fprintln(p.o.Writer)
 		p.keep(err)
 		return p.err
 	}
-	_, err := fmt.Fprintf(p.o.Writer, "%s: done, %d iterations in %s\n", p.o.Label, p.done, now.Sub(p.start).Round(100*time.Millisecond))
+	var err error
+	if interrupted {
+		_, err = fmt.Fprintf(p.o.Writer, "%s: interrupted after %d of %d iterations in %s\n", p.o.Label, p.done, p.total, took)
+	} else {
+		_, err = fmt.Fprintf(p.o.Writer, "%s: done, %d iterations in %s\n", p.o.Label, p.done, took)
+	}
 	p.keep(err)
 	return p.err
 }

@@ -93,3 +93,32 @@ func (s *safeBuffer) String() string {
 	defer s.mu.Unlock()
 	return s.b.String()
 }
+
+// After an interruption (Ctrl-C) the last line says so, plain or on a
+// terminal, and a later Finish adds nothing.
+func TestInterrupted(t *testing.T) {
+	for _, tty := range []bool{false, true} {
+		var b bytes.Buffer
+		clk := &fakeClock{t: time.Unix(0, 0), step: time.Second}
+		p := progress.New(progress.Options{Writer: &b, Terminal: tty, Label: "demand", Chains: 2, Iterations: 10, Interval: time.Hour, Now: clk.now})
+		for it := 1; it <= 3; it++ {
+			p.Record(0, it, true)
+		}
+		if err := p.Interrupt(); err != nil {
+			t.Fatal(err)
+		}
+		before := b.String()
+		if err := p.Finish(); err != nil {
+			t.Fatal(err)
+		}
+		out := b.String()
+		if out != before {
+			t.Errorf("terminal %v: Finish after Interrupt wrote %q", tty, out[len(before):])
+		}
+		lines := strings.Split(strings.TrimSpace(out), "\n")
+		last := lines[len(lines)-1]
+		if !strings.HasPrefix(last, "demand: interrupted after 3 of 20 iterations") || strings.Contains(out, "done") || strings.Contains(out, "20/20") {
+			t.Errorf("terminal %v: output %q, want a last line saying interrupted after 3 of 20", tty, out)
+		}
+	}
+}

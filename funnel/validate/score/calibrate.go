@@ -105,3 +105,27 @@ func RankUniformity(counts []int) (chi2, p float64) {
 	}
 	return chi2, distuv.ChiSquared{K: float64(len(counts) - 1)}.Survival(chi2)
 }
+
+// BinomialQuantile returns R's qbinom(q, n, p): the smallest k with
+// P(X <= k) >= q for X ~ Binomial(n, p).
+func BinomialQuantile(q float64, n int, p float64) int {
+	b := distuv.Binomial{N: float64(n), P: p}
+	for k := 0; k < n; k++ {
+		// a relative slack as R's qbinom uses (fuzz 1 - 64 eps), so that
+		// a CDF equal to q up to rounding counts as reaching it
+		if b.CDF(float64(k)) >= q*(1-64*2.220446049250313e-16) {
+			return k
+		}
+	}
+	return n
+}
+
+// BinomialRange returns the central range [lo, hi] holding probability
+// level of Binomial(n, p) (qbinom((1-level)/2) and qbinom((1+level)/2)): a
+// calibrated interval of nominal coverage p covers the truth between lo
+// and hi times in n independent trials with that probability. A count
+// outside it is evidence of miscalibration.
+func BinomialRange(n int, p, level float64) (lo, hi int) {
+	a := (1 - level) / 2
+	return BinomialQuantile(a, n, p), BinomialQuantile(1-a, n, p)
+}

@@ -204,3 +204,23 @@ func TestThinnedRankWidth(t *testing.T) {
 		t.Errorf("median truth: rank %d of %d", r, SBCBins*w-1)
 	}
 }
+
+// TestBinomialRange checks the central 95% ranges of REFERENCES.md
+// section 9 (computed there with R's qbinom).
+func TestBinomialRange(t *testing.T) {
+	for _, c := range []struct {
+		n      int
+		p      float64
+		lo, hi int
+	}{
+		{20, 0.5, 6, 14}, {20, 0.9, 15, 20},
+		{50, 0.5, 18, 32}, {50, 0.9, 41, 49},
+		{100, 0.5, 40, 60}, {100, 0.9, 84, 95},
+		{200, 0.5, 86, 114}, {200, 0.9, 171, 188},
+	} {
+		lo, hi := BinomialRange(c.n, c.p, 0.95)
+		if lo != c.lo || hi != c.hi {
+			t.Errorf("Binomial(%d, %v) central 95%%: got [%d, %d], want [%d, %d] (R qbinom)", c.n, c.p, lo, hi, c.lo, c.hi)
+		}
+	}
+}

@@ -1,0 +1,31 @@
+package model
+
+import "spillway/funnel/transform"
+
+// Carry returns the channel's adstock in the last week of x when x follows
+// weeks whose adstock ended at a0 (0 for a linear channel, which carries
+// nothing over): the state from which ResponseFrom continues.
+func (m Media) Carry(x []float64, a0 float64) float64 {
+	if m.Linear {
+		return 0
+	}
+	return transform.AdstockEnd(x, m.Lam, a0)
+}
+
+// ResponseFrom writes into dst the coefficient-free response of the spend x
+// (scaled units) when x follows weeks whose adstock ended at a0, and
+// returns it; a dst too short is replaced. For any split of a series into
+// past and x, ResponseFrom(dst, x, Carry(past, 0)) equals the tail of
+// Response(past then x) bit for bit, at the cost of x's weeks alone.
+func (m Media) ResponseFrom(dst, x []float64, a0 float64) []float64 {
+	dst = resizeTo(dst, len(x))
+	if m.Linear {
+		copy(dst, x)
+		return dst
+	}
+	transform.AdstockFrom(dst, x, m.Lam, a0)
+	for i, a := range dst {
+		dst[i] = transform.Hill(a, m.K, m.S)
+	}
+	return dst
+}
