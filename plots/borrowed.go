@@ -57,10 +57,7 @@ func (r *review) borrowed() (*Figure, error) {
 				Lo: []float64{b.Q05}, Hi: []float64{b.Q95}})
 		}
 		naive, ctrl, app, share := bs[0], bs[1], bs[2], bs[3]
-		name := "Paid search (" + Channel(ch) + ")"
-		if Channel(ch) == "search" || Channel(ch) == "paid search" {
-			name = "Paid search"
-		}
+		name := Capital(r.lab.PaidSearch([]string{ch}))
 		p := newPanel(name + ", whole period")
 		p.X.Label.Text = "incremental " + r.outcome + " over the whole period"
 		p.Y.Tick.Marker = marks.CategoryTicks(cats)
@@ -105,13 +102,13 @@ func (r *review) borrowed() (*Figure, error) {
 		q.X.Min, q.X.Max = 0, 1
 		q.Y.Min, q.Y.Max = -1, 1.2
 		panels = append(panels, p, q)
-		titleParts = append(titleParts, fmt.Sprintf("%s for %s", Percent(share.Mean), Channel(ch)))
+		titleParts = append(titleParts, fmt.Sprintf("%s for %s", Percent(share.Mean), r.lab.Channel(ch)))
 	}
 	if len(panels) == 0 {
 		return nil, fmt.Errorf("spec.json names no paid-search channel")
 	}
 	fig.grid(len(search), 2, panels...)
-	up := List(channelNames(r.uppers()))
+	up := List(r.lab.Channels(r.uppers()))
 	if len(search) == 1 {
 		s, _ := r.f.BorrowedMeasure(search[0], "borrowed_share")
 		fig.Title = fmt.Sprintf("%s of paid search's apparent return is demand borrowed from %s", Percent(s.Mean), up)
