@@ -74,7 +74,9 @@ func (f *OptFloat) UnmarshalCSV(s string) error {
 // written, if only as NaN (a share of a zero total).
 type UndefFloat float64
 
-func (f UndefFloat) MarshalCSV() (string, error) { return formatG(float64(f), ""), nil }
+// MarshalCSV writes NaN as NaN, not as an empty cell, which would not read
+// back.
+func (f UndefFloat) MarshalCSV() (string, error) { return formatG(float64(f), "NaN"), nil }
 
 func (f *UndefFloat) UnmarshalCSV(s string) error {
 	if undefined(s) {

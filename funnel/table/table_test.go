@@ -27,12 +27,13 @@ func TestRoundTrip(t *testing.T) {
 	in := []row{
 		{"a", Date(day), 3, 0.1, OptFloat(math.NaN()), OptStat(math.NaN()), -0.9, 1e-7},
 		{"b, quoted", Date(day.AddDate(0, 0, 7)), -1, 123456789.25, 2.5, 1.0004, 0.3, UndefFloat(math.Inf(1))},
+		{"c", Date(day), 0, 0, 0, 0, 0, UndefFloat(math.NaN())},
 	}
 	var b bytes.Buffer
 	if err := Write(&b, in); err != nil {
 		t.Fatal(err)
 	}
-	want := "name,day,n,x,opt,stat,grid,share\na,2024-02-29,3,0.1,,NaN,-0.9,1e-07\n\"b, quoted\",2024-03-07,-1,1.2345678925e+08,2.5,1.0004,0.3,+Inf\n"
+	want := "name,day,n,x,opt,stat,grid,share\na,2024-02-29,3,0.1,,NaN,-0.9,1e-07\n\"b, quoted\",2024-03-07,-1,1.2345678925e+08,2.5,1.0004,0.3,+Inf\nc,2024-02-29,0,0,0,0,0.0,NaN\n"
 	if b.String() != want {
 		t.Fatalf("written:\n%s\nwant:\n%s", b.String(), want)
 	}
@@ -41,12 +42,12 @@ func TestRoundTrip(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(out) != 2 || lines[0] != 2 || lines[1] != 3 {
+	if len(out) != 3 || lines[0] != 2 || lines[1] != 3 {
 		t.Fatalf("got %d rows on lines %v", len(out), lines)
 	}
 	if out[0].Name != "a" || !time.Time(out[0].Day).Equal(day) || out[0].X != 0.1 || !math.IsNaN(float64(out[0].Opt)) ||
 		!math.IsNaN(float64(out[0].Stat)) || out[0].Grid != -0.9 || out[1].N != -1 || out[1].Name != "b, quoted" ||
-		!math.IsNaN(float64(out[1].Share)) {
+		!math.IsNaN(float64(out[1].Share)) || !math.IsNaN(float64(out[2].Share)) {
 		t.Errorf("read back %+v", out)
 	}
 }
