@@ -20,6 +20,9 @@
 //	fitted.csv            Fitted
 //	curves.csv            Curve
 //	returns.csv           Return (absent in folders written before it existed)
+//	effects_by_region.csv RegionEffect: effects.csv per region (a panel of regions only)
+//	borrowed_by_region.csv RegionBorrowed: borrowed.csv per region (a panel only)
+//	region_differences.csv RegionDifference: each region against the sum over regions, per draw (a panel only)
 //	plan.csv              PlanChannel: the budget plan `spillway allocate` wrote, one row per channel
 //	plan_weekly.csv       PlanWeek: the plan's spend per week and channel
 //	plan.json             PlanSummary: totals, the gain with its interval, marginal returns, the check

@@ -105,6 +105,9 @@ func Load(dir string) (*Fit, error) {
 	if f.Split, err = readSplit(dir, f.Run); err != nil {
 		return nil, err
 	}
+	if err := readRegions(dir, f); err != nil {
+		return nil, err
+	}
 	if HasPlan(dir) {
 		if f.Plan, err = ReadPlan(dir); err != nil {
 			return nil, err

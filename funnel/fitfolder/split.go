@@ -28,6 +28,13 @@ type Split struct {
 	// Returns is returns.csv; it is absent (nil) in fit folders written
 	// before the file existed.
 	Returns []Return
+
+	// The region panel's tables (regions.go): effects_by_region.csv,
+	// borrowed_by_region.csv and region_differences.csv, nil unless the fit
+	// was a panel of regions.
+	RegionEffects     []RegionEffect
+	RegionBorrowed    []RegionBorrowed
+	RegionDifferences []RegionDifference
 }
 
 // Paths of effects.csv.
@@ -283,6 +290,9 @@ func (s *Split) Files() (map[string][]byte, error) {
 		if err := add("returns.csv", returns); err != nil {
 			return nil, err
 		}
+	}
+	if err := s.regionFiles(add); err != nil {
+		return nil, err
 	}
 	for _, t := range []struct {
 		name string
