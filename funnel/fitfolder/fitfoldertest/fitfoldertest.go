@@ -43,18 +43,21 @@ type Fixture struct {
 	// Windows lists the windows of effects.csv in file order.
 	Windows []string
 	// Draws holds the effect draws by key; index i is .draw i+1.
-	Draws       map[fitfolder.DrawKey][]float64
-	Effects     []fitfolder.Effect
-	Borrowed    []fitfolder.Borrowed
-	Weekly      []fitfolder.Weekly
-	Sensitivity []fitfolder.Sensitivity
-	Breakeven   []fitfolder.Breakeven
-	Fitted      []fitfolder.Fitted
-	Curves      []fitfolder.Curve
-	Returns     []fitfolder.Return
-	Params      map[string][]fitfolder.Param
-	Stats       map[string]fitfolder.Stats
-	Verdict     []string
+	Draws    map[fitfolder.DrawKey][]float64
+	Effects  []fitfolder.Effect
+	Borrowed []fitfolder.Borrowed
+	// BorrowedDraws holds paid search's borrowed.csv measures per draw
+	// (window all), by measure.
+	BorrowedDraws map[string][]float64
+	Weekly        []fitfolder.Weekly
+	Sensitivity   []fitfolder.Sensitivity
+	Breakeven     []fitfolder.Breakeven
+	Fitted        []fitfolder.Fitted
+	Curves        []fitfolder.Curve
+	Returns       []fitfolder.Return
+	Params        map[string][]fitfolder.Param
+	Stats         map[string]fitfolder.Stats
+	Verdict       []string
 	// Fit is the folder as values, as the fit folder's writer was given it.
 	Fit *fitfolder.Fit
 }
@@ -94,10 +97,11 @@ func Write(dir string, o Options) (*Fixture, error) {
 		Dir: dir,
 		Spec: data.Spec{Data: "weekly.csv", Date: DateCol, Upper: Upper, Search: Search,
 			Queries: QueriesCol, Outcome: OutcomeCol, Controls: []string{ControlCol}},
-		Columns: map[string][]float64{},
-		Draws:   map[fitfolder.DrawKey][]float64{},
-		Params:  map[string][]fitfolder.Param{},
-		Stats:   map[string]fitfolder.Stats{},
+		Columns:       map[string][]float64{},
+		Draws:         map[fitfolder.DrawKey][]float64{},
+		BorrowedDraws: map[string][]float64{},
+		Params:        map[string][]fitfolder.Param{},
+		Stats:         map[string]fitfolder.Stats{},
 	}
 	fx.Command = "spillway run --data weekly.csv --date week --upper video_spend,audio_spend " +
 		"--search search_spend --queries branded_queries --outcome conversions --controls price --seed 11 --out " + dir
@@ -264,6 +268,7 @@ func Write(dir string, o Options) (*Fixture, error) {
 		v    []float64
 	}{{"controlled", ctrl}, {"apparent", app}, {"naive", naive}, {"borrowed_share", share}} {
 		s := slices.Sorted(slices.Values(m.v))
+		fx.BorrowedDraws[m.name] = m.v
 		fx.Borrowed = append(fx.Borrowed, fitfolder.Borrowed{Channel: "search_spend", Measure: m.name, Window: "all",
 			Mean: stat.Mean(m.v), Q05: stat.Quantile(s, 0.05), Q50: stat.Quantile(s, 0.5), Q95: stat.Quantile(s, 0.95)})
 	}
@@ -428,25 +433,8 @@ func (fx *Fixture) write() error {
 		Data: &fitfolder.Data{Dataset: ds},
 	}
 	for _, st := range fitfolder.StageNames {
-		// A small draws.csv so the folder is complete; the charts do not
-		// need it.
 		ps := fx.Params[st]
-		chains := make([]mcmc.Chain, 2)
-		for c := range chains {
-			m := mat.NewDense(5, len(ps), nil)
-			for it := range 5 {
-				for j, p := range ps {
-					m.Set(it, j, p.Mean+p.SD*float64(it-2)/2)
-				}
-			}
-			chains[c] = mcmc.Chain{Draws: m}
-		}
-		names := make([]string, len(ps))
-		for j, p := range ps {
-			names[j] = p.Name
-		}
-		f.Stages = append(f.Stages, &fitfolder.Stage{Name: st, Params: ps, Stats: fx.Stats[st],
-			Draws: &mcmc.Fit{Names: names, Chains: chains}})
+		f.Stages = append(f.Stages, &fitfolder.Stage{Name: st, Params: ps, Stats: fx.Stats[st], Draws: drawsOf(ps)})
 	}
 	f.Verdict.Trustworthy = fx.Verdict[0] == "trustworthy"
 	for _, line := range fx.Verdict[1:] {
@@ -485,4 +473,24 @@ func sumIn(weeks []time.Time, v []float64, w window.Window) float64 {
 		}
 	}
 	return s
+}
+
+// drawsOf returns a small draws.csv for the parameters ps, so that the
+// folder is complete; the charts do not need it.
+func drawsOf(ps []fitfolder.Param) *mcmc.Fit {
+	chains := make([]mcmc.Chain, 2)
+	for c := range chains {
+		m := mat.NewDense(5, len(ps), nil)
+		for it := range 5 {
+			for j, p := range ps {
+				m.Set(it, j, p.Mean+p.SD*float64(it-2)/2)
+			}
+		}
+		chains[c] = mcmc.Chain{Draws: m}
+	}
+	names := make([]string, len(ps))
+	for j, p := range ps {
+		names[j] = p.Name
+	}
+	return &mcmc.Fit{Names: names, Chains: chains}
 }
