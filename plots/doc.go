@@ -6,7 +6,7 @@
 //
 // Build (or Chart for one) returns Figures that keep the numbers each panel
 // drew (Series), so tests and the report check numbers, not pixels; PNG
-// renders a Figure; Render and WriteCharts render every chart of Names.
+// renders a Figure; Render and WriteCharts render every chart of NamesOf(f).
 // WriteCharts and WriteFileAtomic write through a temporary file in the
 // target folder and a rename, so an error leaves no half-written file.
 //

@@ -14,8 +14,9 @@ import (
 	"spillway/plots/marks"
 )
 
-// Names lists the charts Build makes, in the order the report shows them;
-// each is written as NAME.png.
+// Names lists the charts Build makes for every fit, in the order the report
+// shows them; each is written as NAME.png. A panel of regions has one more
+// (NamesOf).
 var Names = []string{"split", "borrowed", "curves", "weekly", "fit", "sensitivity", "diagnostics"}
 
 // builders maps each chart name to its function.
@@ -27,6 +28,7 @@ var builders = map[string]func(*review) (*Figure, error){
 	"fit":         (*review).fit,
 	"sensitivity": (*review).sensitivity,
 	"diagnostics": (*review).diagnostics,
+	"regions":     (*review).regions,
 }
 
 // review is what every chart needs: the fit, the window under review and
@@ -48,16 +50,17 @@ func newReview(f *fitfolder.Fit, window string) (*review, error) {
 	return &review{f: f, w: w, whole: f.Whole(), outcome: lab.Outcome(), lab: lab}, nil
 }
 
-// Build returns every chart of Names for the window (see fitfolder.Fit.Window:
-// empty means the last full quarter). The error is a *fitfolder.WindowError
-// when the window is not in effects.csv.
+// Build returns every chart of NamesOf(f) for the window (see
+// fitfolder.Fit.Window: empty means the last full quarter). The error is a
+// *fitfolder.WindowError when the window is not in effects.csv.
 func Build(f *fitfolder.Fit, window string) ([]*Figure, error) {
 	r, err := newReview(f, window)
 	if err != nil {
 		return nil, err
 	}
-	figs := make([]*Figure, 0, len(Names))
-	for _, n := range Names {
+	names := NamesOf(f)
+	figs := make([]*Figure, 0, len(names))
+	for _, n := range names {
 		fig, err := builders[n](r)
 		if err != nil {
 			return nil, fmt.Errorf("chart %s: %w", n, err)
@@ -69,7 +72,7 @@ func Build(f *fitfolder.Fit, window string) ([]*Figure, error) {
 	return figs, nil
 }
 
-// Chart returns the one chart called name (one of Names) for the window.
+// Chart returns the one chart called name (one of NamesOf(f)) for the window.
 func Chart(f *fitfolder.Fit, window, name string) (*Figure, error) {
 	b, ok := builders[name]
 	if !ok {

@@ -9,7 +9,7 @@ import (
 )
 
 // Render builds every chart for the window and encodes each as PNG. It
-// returns the PNGs by chart name (the keys are Names). Nothing is written.
+// returns the PNGs by chart name (the keys are NamesOf(f)). Nothing is written.
 func Render(f *fitfolder.Fit, window string) (map[string][]byte, error) {
 	figs, err := Build(f, window)
 	if err != nil {
@@ -31,7 +31,7 @@ func Render(f *fitfolder.Fit, window string) (map[string][]byte, error) {
 // before anything is written, and each file is written to a temporary file
 // in outDir and renamed into place, so a failure leaves no partial PNG: a
 // chart file is either the old one or the new one. It returns the paths
-// written, in the order of Names.
+// written, in the order of NamesOf(f).
 func WriteCharts(f *fitfolder.Fit, window string, outDir string) ([]string, error) {
 	pngs, err := Render(f, window)
 	if err != nil {
@@ -41,7 +41,7 @@ func WriteCharts(f *fitfolder.Fit, window string, outDir string) ([]string, erro
 		return nil, err
 	}
 	var paths []string
-	for _, n := range Names {
+	for _, n := range NamesOf(f) {
 		path := filepath.Join(outDir, n+".png")
 		if err := WriteFileAtomic(path, pngs[n]); err != nil {
 			return paths, err

@@ -91,6 +91,8 @@ review as 1600x900 PNGs, sized for a slide, into FIT/charts (or --out):
   fit.png          actual against fitted, both stages, 90% predictive band
   sensitivity.png  the via-search effect against the error correlation rho
   diagnostics.png  R-hat and effective sample size of every parameter
+  regions.png      a panel of regions only: each region's share via search
+                   with its 90% interval, sorted, against the pooled share
 Each title states the finding; each caption names the data window and the
 interval level. The colours stay distinct for protanopia, deuteranopia and
 tritanopia. The window is one of effects.csv's: all, a quarter or a FROM:TO
@@ -128,7 +130,7 @@ func runChart(ctx context.Context, o *reviewOptions, args []string, stdout, stde
 		return usagef("cannot write charts into %s: it is a file", out)
 	}
 	if !o.force {
-		for _, n := range plots.Names {
+		for _, n := range plots.NamesOf(f) {
 			if p := filepath.Join(out, n+".png"); reviewOutputExists(p) {
 				return usagef("%s already exists; use --force to replace the charts", p)
 			}
@@ -143,13 +145,13 @@ func runChart(ctx context.Context, o *reviewOptions, args []string, stdout, stde
 		return err
 	}
 	files := make(map[string][]byte, len(pngs))
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesOf(f) {
 		files[base+"/"+n+".png"] = pngs[n]
 	}
 	if err := updateInPlace(parent, files); err != nil {
 		return err
 	}
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesOf(f) {
 		fmt.Fprintln(stdout, filepath.Join(out, n+".png"))
 	}
 	return nil

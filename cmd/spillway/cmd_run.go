@@ -157,7 +157,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err != nil {
 		return err
 	}
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesOf(f) {
 		if err := od.WriteFile("charts/"+n+".png", pngs[n]); err != nil {
 			return err
 		}

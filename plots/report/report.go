@@ -19,7 +19,7 @@ import (
 
 // Write writes the quarterly-review report for the window (see
 // fitfolder.Fit.Window: empty means the last full quarter) to w as one
-// self-contained HTML page. charts maps chart names (plots.Names) to PNG
+// self-contained HTML page. charts maps chart names (plots.NamesOf) to PNG
 // bytes, embedded as data URIs; a nil map renders them with plots.Render.
 // A chart missing from a non-nil map is left out. Nothing is written to w
 // when an error is returned. The error is a *fitfolder.WindowError when the
@@ -158,6 +158,7 @@ var chartTitles = map[string][2]string{
 	"weekly":      {"Weekly contributions", "Weekly direct and via-search contributions of each channel over time, with 90% bands and the review window shaded."},
 	"fit":         {"Fit against actuals", "Actual and fitted weekly branded queries and outcome with the 90% predictive band."},
 	"sensitivity": {"Sensitivity to an unmeasured common cause", "Via-search effect against the assumed error correlation rho, with its 90% band, the zero line and the rho at which it reaches zero."},
+	"regions":     {"Share via branded search by region", "Each region's share of each upper-funnel channel's effect that runs through branded search over the whole period, with 90% intervals, sorted, against the pooled share of all regions summed."},
 	"diagnostics": {"Convergence checks", "R-hat and effective sample size of every parameter against the thresholds 1.01 and 400."},
 }
 
@@ -354,7 +355,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	}
 
 	// Charts.
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesOf(f) {
 		b, ok := charts[n]
 		if !ok {
 			continue
