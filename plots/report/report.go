@@ -85,6 +85,8 @@ type view struct {
 	Rebuild      string // rebuilds this page from the fit folder
 	Validation   *validationView
 	Plan         *planView
+	// Regions is the Regions section of a panel of regions; nil otherwise.
+	Regions *regionsView
 }
 
 type chartView struct {
@@ -455,6 +457,16 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 			"(the interval is the return's, turned over). Marginal return: the extra weekly %s per extra unit of weekly spend "+
 			"at the channel's current weekly spend (its mean over the data), the slope of the steady-state response curve there, shown %s; "+
 			"below the return on spend, extra spend buys less than the spend so far did.", outcome, perLabel, outcome, outcome, perLabel)
+	}
+
+	// Regions.
+	var regionFinding string
+	if v.Regions, regionFinding = regionsSection(f, k, perLabel); v.Regions != nil {
+		if regionFinding != "" {
+			v.Findings = append(v.Findings, regionFinding)
+		}
+		v.Cautions = append(v.Cautions, "Regional answers lean on the other regions (partial pooling) and, among many regions, "+
+			"a few look different by chance: confirm a regional difference with a regional lift test before moving budget between regions.")
 	}
 
 	// Data summary.

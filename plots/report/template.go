@@ -129,6 +129,21 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 {{end}}
 
+{{with .Regions}}
+<h2>Regions</h2>
+<p id="regions-intro">{{.Intro}}</p>
+<ul class="findings" id="regions-findings">{{range .Findings}}
+<li>{{.}}</li>{{end}}
+</ul>
+<table id="regions">
+<thead><tr><th>Channel</th><th>Region</th><th>Measure</th><th class="num">Region</th><th class="num">Pooled</th><th class="num">Difference (90% interval)</th><th class="num">Probability beyond the stated amount</th><th>Larger than its uncertainty?</th></tr></thead>
+<tbody>{{range .Rows}}
+<tr data-region="{{.Region}}" data-measure="{{.Measure}}"><td>{{.Channel}}</td><td>{{.Region}}</td><td>{{if eq .Measure "mediated_share"}}share via search{{else}}return on spend{{end}}</td><td class="num">{{.Value}}</td><td class="num">{{.Pooled}}</td><td class="num">{{.Difference}} ({{.Interval}})</td><td class="num">{{.Beyond}}</td><td{{if .Clear}} class="clear"{{end}}>{{.Verdict}}</td></tr>{{end}}
+</tbody>
+</table>
+<p class="note">{{.Note}}</p>
+{{end}}
+
 <h2>Demand borrowed by paid search</h2>
 <p class="note">{{.BorrowedNote}}</p>
 <table id="borrowed">

@@ -1,0 +1,106 @@
+package report_test
+
+import (
+	"bytes"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/fitfolder/fitfoldertest"
+	"spillway/plots"
+	"spillway/plots/report"
+)
+
+// TestReportRegions checks the Regions section of a panel's report: it
+// names the region that differs clearly from the pooled share (the
+// fixture's second region sends far more of video's effect through
+// search), with the numbers of region_differences.csv, says that this
+// difference is larger than its uncertainty and that the others are not,
+// puts it among the headline findings, embeds the regions chart, and keeps
+// the table short with 40 regions.
+func TestReportRegions(t *testing.T) {
+	for _, n := range []int{6, 40} {
+		dir := filepath.Join(t.TempDir(), "fit")
+		pn, err := fitfoldertest.WritePanel(dir, fitfoldertest.PanelOptions{Options: fitfoldertest.Options{Draws: 200}, Regions: n})
+		if err != nil {
+			t.Fatal(err)
+		}
+		f, err := fitfolder.Load(dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var buf bytes.Buffer
+		if err := report.Write(&buf, f, "all", nil); err != nil {
+			t.Fatal(err)
+		}
+		page := parse(t, buf.Bytes())
+		if page.byID("chart-regions") == nil {
+			t.Errorf("%d regions: no regions chart", n)
+		}
+		tab := page.byID("regions")
+		if tab == nil {
+			t.Fatalf("%d regions: no Regions table", n)
+		}
+		odd := pn.Regions[1]
+		d, ok := f.RegionDifferenceOf(odd, "video_spend", fitfolder.MeasureMediatedShare, "all")
+		if !ok || d.PBeyond < plots.ClearProbability {
+			t.Fatalf("%d regions: the fixture's %s does not differ clearly: %+v", n, odd, d)
+		}
+		var found bool
+		rows := tab.all("tr")[1:]
+		for _, tr := range rows {
+			if tr.attr["data-region"] != odd || tr.attr["data-measure"] != fitfolder.MeasureMediatedShare || !strings.HasPrefix(tr.fullText(), "video") {
+				continue
+			}
+			found = true
+			text := tr.fullText()
+			for _, want := range []string{plots.Percent(d.RegionMean), plots.Percent(d.PooledMean), plots.Points(d.Mean),
+				plots.Percent(d.PBeyond), "yes: differs by more than 10 pts"} {
+				if !strings.Contains(text, want) {
+					t.Errorf("%d regions: %s's row %q lacks %q", n, odd, text, want)
+				}
+			}
+		}
+		if !found {
+			t.Errorf("%d regions: the table has no video share row for %s", n, odd)
+		}
+		// every row that is not clear says so; the table stays short:
+		// per channel and measure three regions and the clear ones
+		clear := 0
+		for _, d := range f.RegionDifferences {
+			if d.Window == "all" && d.PBeyond >= plots.ClearProbability {
+				clear++
+			}
+		}
+		if len(rows) > 2*2*3+clear {
+			t.Errorf("%d regions: %d rows, want at most %d", n, len(rows), 2*2*3+clear)
+		}
+		for _, tr := range rows {
+			text := tr.fullText()
+			if yes := strings.Contains(text, "yes: "); yes != (tr.all("td")[7].attr["class"] == "clear") {
+				t.Errorf("%d regions: row %q: verdict and emphasis disagree", n, text)
+			}
+		}
+		findings := page.byID("regions-findings").fullText()
+		if !strings.Contains(findings, odd) || !strings.Contains(findings, "probability at least 90%") {
+			t.Errorf("%d regions: findings %q do not name %s as clearly different", n, findings, odd)
+		}
+		if h := page.byID("findings").fullText(); !strings.Contains(h, "differs clearly from the pooled one in") || !strings.Contains(h, odd) {
+			t.Errorf("%d regions: headline findings %q do not mention %s", n, h, odd)
+		}
+		if c := page.byID("cautions").fullText(); !strings.Contains(c, "regional lift test") {
+			t.Errorf("%d regions: cautions %q lack the regional caution", n, c)
+		}
+	}
+}
+
+// TestReportNationalHasNoRegions: a national fit's report has no Regions
+// section.
+func TestReportNationalHasNoRegions(t *testing.T) {
+	x := load(t, false)
+	page := parse(t, write(t, x, ""))
+	if page.byID("regions") != nil || page.byID("chart-regions") != nil {
+		t.Error("a national report has a Regions section or chart")
+	}
+}
