@@ -35,6 +35,7 @@ type samplingFlags struct {
 	quiet                 bool
 	targetAccept          float64
 	labels                labelFlags // fit and run only
+	national              bool       // fit and run only
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
@@ -43,6 +44,7 @@ func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	fs.Float64Var(&s.targetAccept, "target-accept", pipeline.DefaultTargetAccept, "the acceptance rate the step size adapts to during warm-up; raise it (0.95) if the verdict reports divergent transitions")
 	fs.StringVar(&s.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data: channel,start,end,estimate,se[,metric,region]")
 	s.labels.addFlags(fs)
+	fs.BoolVar(&s.national, "national", false, "fit regional data (--region) as their national sum, one series, as national data are fitted")
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -133,7 +135,8 @@ whether the data support the media effects at all: the outcome stage must
 predict left-out weeks better than the same stage without any media term
 (PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
 adds which effects the data cannot tell from zero or from the prior.
-Regional data are fitted as their national sum.
+Regional data are fitted as their national sum; --national says so
+explicitly and is recorded in spec.json.
 
 With --drift, the named channels' effectiveness may change over time: each
 coefficient is multiplied by a smooth function of the week that averages 1
@@ -215,6 +218,9 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 			return nil, err
 		}
 	}
+	if opts.national && ds.Spec.Region == "" {
+		return nil, usagef("--national fits the national sum of regional data, but the data have no region column; name it with --region, or leave out --national")
+	}
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
 	}
@@ -246,7 +252,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}
 	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels}
+		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels, National: opts.national}
 	verb := "fit"
 	if demo != "" {
 		verb = "run"

@@ -122,6 +122,9 @@ func rerunCommand(verb string, fs *fitfolder.Run, out string) string {
 	}
 	add("baseline", fs.Baseline)
 	add("lifts", fs.Lifts)
+	if fs.National {
+		parts = append(parts, "--national")
+	}
 	add("seed", strconv.FormatUint(fs.Seed, 10))
 	add("chains", strconv.Itoa(fs.Chains))
 	add("warmup", strconv.Itoa(fs.Warmup))

@@ -23,9 +23,12 @@ type Run struct {
 	Drift    []string  `json:"drift,omitempty"`    // spend columns (or all) whose effectiveness drifts
 	Baseline string    `json:"baseline,omitempty"` // "smooth" for a baseline that moves
 	Lifts    string    `json:"lifts,omitempty"`    // the lift-test file given; copied into the folder as LiftTestsFile
-	Command  string    `json:"command"`
-	DataFile string    `json:"data_file"`
-	Version  string    `json:"version"`
+	// National is set when regional data were fitted as their national sum
+	// on request (--national).
+	National bool   `json:"national,omitempty"`
+	Command  string `json:"command"`
+	DataFile string `json:"data_file"`
+	Version  string `json:"version"`
 	// Labels are the display names the charts and the report use; zero
 	// means names made from the column names.
 	Labels Labels `json:"labels,omitzero"`
