@@ -1,6 +1,7 @@
 package mediation
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
@@ -159,4 +160,38 @@ func find(rows []fitfolder.RegionDifference, region, measure string) (fitfolder.
 		}
 	}
 	return fitfolder.RegionDifference{}, false
+}
+
+// BenchmarkRegionTables builds the region tables of 40 regions, two upper
+// channels, five windows and 4,000 draws: what a panel's split adds to the
+// national one.
+func BenchmarkRegionTables(b *testing.B) {
+	const regions, draws = 40, 4000
+	windows := []string{"all", "2025Q1", "2025Q2", "2025Q3", "2025Q4"}
+	names := make([]string, regions)
+	results := make([]*Result, regions)
+	for g := range results {
+		names[g] = fmt.Sprintf("region%02d", g)
+		r := &Result{}
+		for _, ch := range []string{"video", "audio"} {
+			for w, wn := range windows {
+				via, dir := make([]float64, draws), make([]float64, draws)
+				for d := range via {
+					via[d] = 50 + float64((d*7+g*13+w)%31)
+					dir[d] = 40 + float64((d*11+g*5+w)%29)
+				}
+				r.Effects = append(r.Effects, upperResult(ch, wn, via, dir, 1000+float64(g)).Effects...)
+			}
+		}
+		results[g] = r
+	}
+	pooled := sumResults(results...)
+	b.ReportAllocs()
+	b.ResetTimer()
+	for range b.N {
+		_ = RegionEffectsTable(names, results)
+		if _, err := RegionDifferences(names, results, pooled); err != nil {
+			b.Fatal(err)
+		}
+	}
 }

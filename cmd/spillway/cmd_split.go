@@ -140,6 +140,7 @@ type splitResult struct {
 	unit  string
 	// notes are the effects the data do not carry (mediation.SupportNotes)
 	notes []string
+	upper []string // the upper channels, for the regions' lines
 }
 
 // splitFit computes the effects of ff for every quarter, the whole period
@@ -218,7 +219,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 			Curves:      curves,
 			Returns:     returns,
 		},
-		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes,
+		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes, upper: ff.Run.Spec.Upper,
 	}, nil
 }
 
@@ -243,6 +244,7 @@ func (s *splitResult) print(stdout io.Writer) error {
 			fmt.Fprintf(stdout, "  %s\n", n)
 		}
 	}
+	printRegions(stdout, &s.Split, s.upper)
 	return nil
 }
 
