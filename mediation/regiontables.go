@@ -56,7 +56,9 @@ func RegionBorrowedTable(regions []string, results []*Result) []fitfolder.Region
 // (the sum over regions) have spend on the channel, how far the region's
 // mediated share and return on spend are from the pooled ones, per
 // posterior draw (draw d of every region pairs with draw d of pooled, as
-// the split pairs the stages' draws). The difference region - pooled is
+// the split pairs the stages' draws): the share is via_search / total and
+// the return total / spend of each result, so pooled needs only the summed
+// via-search and total effects and spend. The difference region - pooled is
 // summarised by its mean and 5/50/95% quantiles, with the posterior
 // probability that it exceeds the threshold in size (ShareThreshold; for
 // the return, ReturnThreshold times the pooled return's mean) and that it
@@ -65,15 +67,15 @@ func RegionBorrowedTable(regions []string, results []*Result) []fitfolder.Region
 func RegionDifferences(regions []string, results []*Result, pooled *Result) ([]fitfolder.RegionDifference, error) {
 	checkRegions(regions, results)
 	type key struct{ channel, window string }
-	type pair struct{ share, total *Effect }
+	type pair struct{ via, total *Effect }
 	index := func(r *Result) map[key]pair {
 		m := map[key]pair{}
 		for i := range r.Effects {
 			e := &r.Effects[i]
 			p := m[key{e.Channel, e.Window}]
 			switch e.Path {
-			case "mediated_share":
-				p.share = e
+			case "via_search":
+				p.via = e
 			case "total":
 				p.total = e
 			}
@@ -99,19 +101,22 @@ func RegionDifferences(regions []string, results []*Result, pooled *Result) ([]f
 		own := index(r)
 		for _, k := range keys {
 			p, q := pool[k], own[k]
-			if p.share == nil || p.total == nil || q.share == nil || q.total == nil {
-				return nil, fmt.Errorf("mediation: region %s or the pooled result has no share or total for %s in window %s", regions[g], k.channel, k.window)
+			if p.via == nil || p.total == nil || q.via == nil || q.total == nil {
+				return nil, fmt.Errorf("mediation: region %s or the pooled result has no via-search or total effect of %s in window %s", regions[g], k.channel, k.window)
 			}
-			if len(q.total.Draws) != nd || len(q.share.Draws) != nd || len(p.share.Draws) != nd {
+			if len(q.total.Draws) != nd || len(q.via.Draws) != nd || len(p.via.Draws) != nd {
 				return nil, fmt.Errorf("mediation: region %s has %d draws of %s's total in window %s, the pooled result %d; regions pair draws by index",
 					regions[g], len(q.total.Draws), k.channel, k.window, nd)
 			}
 			if !(q.total.Spend > 0) || !(p.total.Spend > 0) {
 				continue
 			}
-			// the mediated share
-			copy(rv, q.share.Draws)
-			copy(pv, p.share.Draws)
+			// the mediated share, of the region and of the sum (via over
+			// total, both additive over regions)
+			for i := range rv {
+				rv[i] = q.via.Draws[i] / q.total.Draws[i]
+				pv[i] = p.via.Draws[i] / p.total.Draws[i]
+			}
 			if row, ok := difference(d, rv, pv, ShareThreshold); ok {
 				row.Region, row.Channel, row.Measure, row.Window = regions[g], k.channel, fitfolder.MeasureMediatedShare, k.window
 				rows = append(rows, row)

@@ -3,9 +3,12 @@ package mediation
 import (
 	"fmt"
 	"math"
+	"slices"
 	"testing"
 
 	"spillway/funnel/fitfolder"
+	"spillway/funnel/model"
+	"spillway/funnel/window"
 )
 
 // upperResult is a Result of one upper channel over one window with the
@@ -40,20 +43,23 @@ func sumResults(rs ...*Result) *Result {
 		}
 		out.Effects = append(out.Effects, s)
 	}
-	// the share of the sum is the summed via over the summed total
-	var via, tot []float64
+	// the share of the sum is the summed via over the summed total, per
+	// channel and window
+	type key struct{ ch, win string }
+	via, tot := map[key][]float64{}, map[key][]float64{}
 	for _, e := range out.Effects {
 		switch e.Path {
 		case "via_search":
-			via = e.Draws
+			via[key{e.Channel, e.Window}] = e.Draws
 		case "total":
-			tot = e.Draws
+			tot[key{e.Channel, e.Window}] = e.Draws
 		}
 	}
 	for i, e := range out.Effects {
 		if e.Path == "mediated_share" {
+			k := key{e.Channel, e.Window}
 			for d := range e.Draws {
-				out.Effects[i].Draws[d] = via[d] / tot[d]
+				out.Effects[i].Draws[d] = via[k][d] / tot[k][d]
 			}
 		}
 	}
@@ -193,5 +199,72 @@ func BenchmarkRegionTables(b *testing.B) {
 		if _, err := RegionDifferences(names, results, pooled); err != nil {
 			b.Fatal(err)
 		}
+	}
+}
+
+// TestRegionTablesOfSplit runs the split on two synthetic regions (three
+// paired draws each) and checks the region tables against the split's own
+// effects: one effects_by_region row per region and effects row, and
+// differences that are, draw by draw, the region's via/total minus the
+// summed via over the summed total.
+func TestRegionTablesOfSplit(t *testing.T) {
+	var results []*Result
+	for _, seed := range []uint64{1, 2} {
+		sc, st1, st2, _, _ := synth(t, 104, seed, model.Options{})
+		var r1, r2 [][]float64
+		for d := range 3 {
+			_, _, _, v1, v2 := synth(t, 104, 10*seed+uint64(d), model.Options{})
+			r1, r2 = append(r1, v1), append(r2, v2)
+		}
+		in := &Inputs{Data: sc, Demand: st1, Outcome: st2,
+			DemandDraws: Draws{Names: st1.Names(), Rows: r1}, OutcomeDraws: Draws{Names: st2.Names(), Rows: r2}}
+		res, err := Split(in, window.Quarters(sc.Weeks))
+		if err != nil {
+			t.Fatal(err)
+		}
+		results = append(results, res)
+	}
+	names := []string{"east", "west"}
+	rows := RegionEffectsTable(names, results)
+	if want := len(results[0].Effects) + len(results[1].Effects); len(rows) != want {
+		t.Fatalf("effects_by_region: %d rows, want %d", len(rows), want)
+	}
+	if b := RegionBorrowedTable(names, results); len(b) != len(results[0].Borrowed)+len(results[1].Borrowed) || b[0].Region != "east" {
+		t.Fatalf("borrowed_by_region: %d rows", len(b))
+	}
+	pooled := sumResults(results...)
+	diffs, err := RegionDifferences(names, results, pooled)
+	if err != nil {
+		t.Fatal(err)
+	}
+	get := func(r *Result, ch, path, win string) Effect {
+		for _, e := range r.Effects {
+			if e.Channel == ch && e.Path == path && e.Window == win {
+				return e
+			}
+		}
+		t.Fatalf("no %s %s %s", ch, path, win)
+		return Effect{}
+	}
+	checked := 0
+	for _, d := range diffs {
+		if d.Measure != fitfolder.MeasureMediatedShare {
+			continue
+		}
+		g := slices.Index(names, d.Region)
+		var want []float64
+		for i := range 3 {
+			rv, rt := get(results[g], d.Channel, "via_search", d.Window).Draws[i], get(results[g], d.Channel, "total", d.Window).Draws[i]
+			sv := get(results[0], d.Channel, "via_search", d.Window).Draws[i] + get(results[1], d.Channel, "via_search", d.Window).Draws[i]
+			st := get(results[0], d.Channel, "total", d.Window).Draws[i] + get(results[1], d.Channel, "total", d.Window).Draws[i]
+			want = append(want, rv/rt-sv/st)
+		}
+		if m := (want[0] + want[1] + want[2]) / 3; math.Abs(d.Mean-m) > 1e-12 {
+			t.Errorf("%s %s %s: difference mean %v, want %v", d.Region, d.Channel, d.Window, d.Mean, m)
+		}
+		checked++
+	}
+	if checked < 2*2*4 {
+		t.Errorf("only %d share differences checked", checked)
 	}
 }
