@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -165,6 +166,12 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if !found {
 		wins = append(wins, asked)
 	}
+	// a stated return's window, for the prior predictive check
+	for _, r := range ff.stages[1].Returns {
+		if !slices.ContainsFunc(wins, func(w window.Window) bool { return w.Name == r.Window.Name }) {
+			wins = append(wins, r.Window)
+		}
+	}
 	in := pipeline.Pair(ff.scaled, ff.stages, ff.fits)
 	res, err := mediation.Split(in, wins)
 	if err != nil {
@@ -173,6 +180,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	// the same effects under the priors: how much the data moved each one
 	var sup map[mediation.Key]mediation.Support
 	var notes []string
+	var prior *mediation.Result
 	priorIn, err := mediation.PriorInputs(in, mediation.PriorDraws, ff.Run.Seed)
 	switch {
 	case errors.Is(err, model.ErrImproper):
@@ -180,7 +188,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	case err != nil:
 		return nil, err
 	default:
-		prior, err := mediation.Split(priorIn, wins)
+		prior, err = mediation.Split(priorIn, wins)
 		if err != nil {
 			return nil, fmt.Errorf("the effects under the priors: %w", err)
 		}
@@ -217,6 +225,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 			Fitted:      fitted,
 			Curves:      curves,
 			Returns:     returns,
+			Implied:     mediation.ImpliedTable(in, res, prior),
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes,
 	}, nil

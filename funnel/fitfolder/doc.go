@@ -20,6 +20,7 @@
 //	fitted.csv            Fitted
 //	curves.csv            Curve
 //	returns.csv           Return (absent in folders written before it existed)
+//	priors_implied.csv    Implied: each return as stated, under the priors and under the posterior (absent in older folders)
 //	plan.csv              PlanChannel: the budget plan `spillway allocate` wrote, one row per channel
 //	plan_weekly.csv       PlanWeek: the plan's spend per week and channel
 //	plan.json             PlanSummary: totals, the gain with its interval, marginal returns, the check

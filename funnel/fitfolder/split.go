@@ -28,6 +28,10 @@ type Split struct {
 	// Returns is returns.csv; it is absent (nil) in fit folders written
 	// before the file existed.
 	Returns []Return
+	// Implied is priors_implied.csv (implied.go), the returns as stated,
+	// under the priors and under the posterior; nil in fit folders written
+	// before the file existed.
+	Implied []Implied
 }
 
 // Paths of effects.csv.
@@ -284,6 +288,11 @@ func (s *Split) Files() (map[string][]byte, error) {
 			return nil, err
 		}
 	}
+	if s.Implied != nil {
+		if err := add("priors_implied.csv", impliedRows(s.Implied)); err != nil {
+			return nil, err
+		}
+	}
 	for _, t := range []struct {
 		name string
 		rows any
@@ -482,6 +491,10 @@ func readSplit(dir string, run Run) (Split, error) {
 			}
 			s.Returns = append(s.Returns, Return{r.Channel, r.Window, r.Measure, float64(r.Mean), float64(r.Q05), float64(r.Q50), float64(r.Q95)})
 		}
+	}
+
+	if s.Implied, err = readImplied(p("priors_implied.csv"), spec.Upper); err != nil {
+		return s, err
 	}
 
 	path = p("curves.csv")
