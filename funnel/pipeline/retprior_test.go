@@ -117,6 +117,59 @@ func TestReturnPriorThroughSplit(t *testing.T) {
 	}
 }
 
+// TestImpliedTable checks priors_implied.csv's rows on prior draws: one
+// whole-period row per upper channel (per 1,000 for video, whose stated
+// return is per 1,000), one per stated return with its stated quantiles,
+// and, the draws being the priors', prior and "posterior" columns alike
+// and within Monte Carlo error of the stated median.
+func TestImpliedTable(t *testing.T) {
+	sc, o, q := demoReturns(t)
+	st, err := Stages(sc, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	in := &mediation.Inputs{Data: sc, Demand: st[0], Outcome: st[1], Naive: st[2]}
+	pin, err := mediation.PriorInputs(in, 2000, 9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := mediation.Split(pin, append(window.Quarters(sc.Weeks)[:1], o.Returns[0].Window))
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows := mediation.ImpliedTable(pin, res, res)
+	type key struct{ ch, path, win, measure string }
+	var got []key
+	for _, r := range rows {
+		got = append(got, key{r.Channel, r.Path, r.Window, r.Measure})
+	}
+	want := []key{{"video_spend", "total", "all", "return_on_spend"}, {"video_spend", "total", q, "return_on_spend"},
+		{"audio_spend", "total", "all", "return_on_spend"}, {"audio_spend", "direct", "all", "incremental"}}
+	if len(got) != len(want) {
+		t.Fatalf("rows %v, want %v", got, want)
+	}
+	for i := range want {
+		if got[i] != want[i] {
+			t.Errorf("row %d: %v, want %v", i, got[i], want[i])
+		}
+	}
+	if rows[0].Per != 1000 || rows[0].Stated() || rows[2].Per != 1 {
+		t.Errorf("whole-period rows: %+v %+v", rows[0], rows[2])
+	}
+	for i, r := range []*model.ReturnPrior{o.Returns[0], o.Returns[1]} {
+		row := rows[2*i+1]
+		if row.StatedQ05 != r.Quantile(0.05) || row.StatedQ95 != r.Quantile(0.95) || row.PriorQ50 != row.PostQ50 {
+			t.Errorf("%s: %+v", r.Name(), row)
+		}
+		// the median of 2,000 draws: within 4 sd of the stated one on the
+		// log scale, sd = sqrt(0.25 / n) / density of log R at its median
+		sd := math.Sqrt(0.25/2000) * r.Sigma * math.Sqrt(2*math.Pi)
+		if d := math.Log(row.PriorQ50 / row.StatedQ50); math.Abs(d) > 4*sd {
+			t.Errorf("%s: prior median %v, stated %v", r.Name(), row.PriorQ50, row.StatedQ50)
+		}
+	}
+}
+
 // TestReturnPriorFit fits the demo with return priors (short chains): the
 // demand and outcome stages as one joint target, every draw finite and
 // the covered coefficients positive.
