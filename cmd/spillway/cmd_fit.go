@@ -60,7 +60,7 @@ func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.IntVar(&s.chains, "chains", d.chains, "number of "+d.chainsWhat+", run in parallel")
 	fs.IntVar(&s.warmup, "warmup", d.warmup, "warm-up "+d.iterWhat)
 	fs.IntVar(&s.draws, "draws", d.draws, "kept draws per chain"+strings.TrimPrefix(d.iterWhat, "iterations per chain"))
-	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
+	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2; with the columns window,per also priors on returns, e.g. return[video_spend],lognormal90,0.5,3,2025Q3,1000")
 	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
 	fs.StringSliceVar(&s.drift, "drift", nil, "spend `COLUMNS` (or all) whose effectiveness drifts smoothly over time, on every path they have")
 	fs.StringVar(&s.baseline, "baseline", "", "the baseline: line (a trend line plus seasons, the default) or smooth (a smooth function of time in place of the line)")

@@ -74,6 +74,9 @@ It writes into the fit folder:
   returns.csv       return on spend and cost per incremental outcome per
                     channel and window, and the marginal return at the
                     current weekly spend, with 90% intervals
+  priors_implied.csv each upper channel's return as stated in the priors
+                    file (if it was), under the priors alone (a prior
+                    predictive check) and under the posterior
 and prints the table for WINDOW.
 
 EXAMPLE
