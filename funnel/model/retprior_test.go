@@ -223,14 +223,19 @@ func TestReturnPriorDraw(t *testing.T) {
 // each stated quantile within 4 sd of its level, the sd from the quantile's
 // effective sample size, Vehtari et al. 2021), and gamma must keep its
 // own prior, HalfNormal(0.5) (the term is a normalised conditional density,
-// so the other parameters' marginal prior is unchanged).
+// so the other parameters' marginal prior is unchanged). With -short, the
+// total path only.
 func TestReturnPriorReproduced(t *testing.T) {
 	sc := retScaled(70, 7)
 	sc.Mask = make([]bool, sc.T)
 	for i := range sc.Mask {
 		sc.Mask[i] = true
 	}
-	for _, path := range []ReturnPath{ReturnTotal, ReturnViaSearch} {
+	paths := []ReturnPath{ReturnTotal, ReturnViaSearch}
+	if testing.Short() {
+		paths = paths[:1]
+	}
+	for _, path := range paths {
 		r := newRet(t, sc, path, ReturnOnSpend)
 		o := Options{Returns: []*ReturnPrior{r}}
 		d, _ := Demand(sc, o)
