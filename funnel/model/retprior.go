@@ -111,8 +111,18 @@ type ReturnPrior struct {
 	gamma int
 }
 
-// Quantile returns the stated prior's p quantile of R.
+// Quantile returns the stated prior's p quantile of R; the 5% and 95%
+// quantiles of a lognormal90 are its numbers as written (exp(log x) may
+// miss x by a bit).
 func (r *ReturnPrior) Quantile(p float64) float64 {
+	if r.Stated.Family == LogNormal90 {
+		switch p {
+		case 0.05:
+			return r.Stated.P1
+		case 0.95:
+			return r.Stated.P2
+		}
+	}
 	return math.Exp(r.Mu + r.Sigma*math.Sqrt2*math.Erfinv(2*p-1))
 }
 

@@ -303,9 +303,14 @@ func TestNewReturnPrior(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// exact: the 5% and 95% quantiles are the stated ones
-	if math.Abs(r.Quantile(0.05)-0.5) > 1e-12 || math.Abs(r.Quantile(0.95)-3) > 1e-12 {
+	// the 5% and 95% quantiles are the stated ones, from mu and sigma too
+	if r.Quantile(0.05) != 0.5 || r.Quantile(0.95) != 3 {
 		t.Errorf("lognormal90(0.5, 3): quantiles %v %v", r.Quantile(0.05), r.Quantile(0.95))
+	}
+	for _, c := range []struct{ p, want float64 }{{0.05, 0.5}, {0.95, 3}} {
+		if q := math.Exp(r.Mu + r.Sigma*math.Sqrt2*math.Erfinv(2*c.p-1)); math.Abs(q-c.want) > 1e-12 {
+			t.Errorf("lognormal90(0.5, 3): mu, sigma give the %g quantile %v", c.p, q)
+		}
 	}
 	spend := 0.0
 	for _, v := range sc.RawUpper[0] {
