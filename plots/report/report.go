@@ -895,7 +895,11 @@ func impliedView(f *fitfolder.Fit, lab plots.Labels, k float64, perLabel, outcom
 		if r.Measure == fitfolder.ImpliedReturnOnSpend {
 			measure = "return " + perLabel
 			if r.Per != 1 {
-				measure = fmt.Sprintf("return per %s of spend", plots.Number(r.Per))
+				cur := ""
+				if c := lab.Currency(); c != "" {
+					cur = c + " "
+				}
+				measure = fmt.Sprintf("return per %s%s of spend", cur, plots.Number(r.Per))
 			} else {
 				scale = k
 			}
