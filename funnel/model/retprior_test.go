@@ -354,3 +354,31 @@ func TestNewReturnPrior(t *testing.T) {
 		}
 	}
 }
+
+// TestReturnPriorWithLift ties the stages by a lift test and a return
+// prior at once: the joint density is the stages' plus both terms, and its
+// gradient passes the finite-difference check.
+func TestReturnPriorWithLift(t *testing.T) {
+	sc := retScaled(70, 8)
+	r := newRet(t, sc, ReturnTotal, ReturnOnSpend)
+	st, lift := liftStages(sc, Options{Returns: []*ReturnPrior{r}}, LiftOutcome)
+	term := r.Term(0, 1)
+	j, err := NewJoint(st, lift, term)
+	if err != nil {
+		t.Fatal(err)
+	}
+	mcmctest.CheckGradient(t, j, 1e-6, &mcmctest.GradSettings{Seed: 13, Points: 4, Radius: 1, Step: 1e-5})
+	plain, _ := NewJoint(st)
+	onlyLift, _ := NewJoint(st, lift.Clone())
+	onlyRet, _ := NewJoint(st, r.Term(0, 1))
+	rng := rand.New(rand.NewPCG(8, 8))
+	x := make([]float64, j.Dim())
+	for i := range x {
+		x[i] = rng.Float64()*2 - 1
+	}
+	g := make([]float64, j.Dim())
+	both, p := j.LogProbGrad(g, x), plain.LogProbGrad(g, x)
+	if want := (onlyLift.LogProbGrad(g, x) - p) + (onlyRet.LogProbGrad(g, x) - p); math.Abs(both-p-want) > 1e-9*max(1, math.Abs(want)) {
+		t.Errorf("lift and return prior together add %v, apart %v", both-p, want)
+	}
+}
