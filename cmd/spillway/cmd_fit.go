@@ -147,6 +147,15 @@ two stages, which are then fitted as one. FOLDER/lifts.csv puts each test
 beside the model's posterior, and a line on standard output names any test
 the rest of the data contradict.
 
+A --priors file with the header parameter,family,p1,p2,window,per also takes
+priors on returns: return[COL] (incremental outcome per PER of spend in
+WINDOW) or incremental[COL], optionally _via_search or _direct, family
+lognormal90 (p1, p2 the 5% and 95% quantiles) or lognormal (mean, sd). The
+stated return becomes the prior of the channel's coefficients given the
+other parameters, the two stages are fitted as one, and 'spillway split'
+writes priors_implied.csv: each return as stated, under the priors and
+under the posterior.
+
 EXAMPLE
   spillway fit --data sales.csv --date week --upper video,audio --search search \
     --queries brand_queries --outcome orders --controls price --out fit1
