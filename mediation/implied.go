@@ -1,7 +1,9 @@
 package mediation
 
 import (
+	"fmt"
 	"math"
+	"strconv"
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/model"
@@ -87,4 +89,40 @@ func impliedOf(r *Result, row fitfolder.Implied) (Summary, bool) {
 		return Summarise(x), true
 	}
 	return Summary{}, false
+}
+
+// ImpliedNotes returns one plain line per stated return whose posterior
+// median lies outside the stated 90% range: the data pull the return away
+// from what the user stated, although the stated prior pulls the posterior
+// towards itself, so the statement deserves a second look.
+func ImpliedNotes(rows []fitfolder.Implied) []string {
+	var out []string
+	for _, r := range rows {
+		if !r.Stated() || math.IsNaN(r.PostQ50) || (r.PostQ50 >= r.StatedQ05 && r.PostQ50 <= r.StatedQ95) {
+			continue
+		}
+		what := "return per " + fmtG(r.Per) + " of spend"
+		if r.Per == 1 {
+			what = "return per unit of spend"
+		}
+		if r.Measure == fitfolder.ImpliedIncremental {
+			what = "incremental outcome"
+		}
+		side := "above"
+		if r.PostQ50 < r.StatedQ05 {
+			side = "below"
+		}
+		out = append(out, fmt.Sprintf("%s's %s %s (%s): the posterior median %s lies %s the stated 90%% range %s to %s; the data disagree with the statement, check it (a lift test is a firmer source than memory)",
+			r.Channel, r.Path, what, r.Window, fmtG(r.PostQ50), side, fmtG(r.StatedQ05), fmtG(r.StatedQ95)))
+	}
+	return out
+}
+
+// fmtG formats a number with three significant digits, or as a whole
+// number from 100 up.
+func fmtG(x float64) string {
+	if math.Abs(x) >= 100 {
+		return strconv.FormatFloat(x, 'f', 0, 64)
+	}
+	return strconv.FormatFloat(x, 'g', 3, 64)
 }

@@ -144,6 +144,9 @@ type splitResult struct {
 	unit  string
 	// notes are the effects the data do not carry (mediation.SupportNotes)
 	notes []string
+	// stated are the stated returns the data disagree with
+	// (mediation.ImpliedNotes)
+	stated []string
 }
 
 // splitFit computes the effects of ff for every quarter, the whole period
@@ -217,6 +220,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if err != nil {
 		return nil, err
 	}
+	implied := mediation.ImpliedTable(in, res, prior)
 	return &splitResult{
 		Split: fitfolder.Split{
 			Effects:     mediation.EffectsTable(res, sup),
@@ -228,9 +232,10 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 			Fitted:      fitted,
 			Curves:      curves,
 			Returns:     returns,
-			Implied:     mediation.ImpliedTable(in, res, prior),
+			Implied:     implied,
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes,
+		stated: mediation.ImpliedNotes(implied),
 	}, nil
 }
 
@@ -252,6 +257,13 @@ func (s *splitResult) print(stdout io.Writer) error {
 		fmt.Fprintln(stdout)
 		fmt.Fprintln(stdout, "What the data cannot tell (whole period):")
 		for _, n := range s.notes {
+			fmt.Fprintf(stdout, "  %s\n", n)
+		}
+	}
+	if len(s.stated) > 0 {
+		fmt.Fprintln(stdout)
+		fmt.Fprintln(stdout, "Stated returns the data disagree with:")
+		for _, n := range s.stated {
 			fmt.Fprintf(stdout, "  %s\n", n)
 		}
 	}

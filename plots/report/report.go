@@ -919,5 +919,8 @@ func impliedView(f *fitfolder.Fit, lab plots.Labels, k float64, perLabel, outcom
 		"as the model's priors imply it (draws from the priors run through the same counterfactual simulation as the posterior, with no data: " +
 		"a prior predictive check) and as the posterior has it. A stated prior can dominate weak data: where the posterior stays close to the prior, " +
 		"the data added little and the number is the assumption, not a finding."
+	for _, n := range mediation.ImpliedNotes(f.Implied) {
+		note += " " + strings.ToUpper(n[:1]) + n[1:] + "."
+	}
 	return rows, note
 }
