@@ -18,7 +18,8 @@ import (
 // demoReturns returns the demo's scaled data and the options of a priors
 // file stating video's total return per thousand spent in the last full
 // quarter (0.5 to 3 conversions, a 90% range), audio's direct incremental
-// outcome over the whole period (mean 20,000, sd 10,000) and one ordinary
+// outcome over the whole period (mean 20,000, sd 10,000), audio's
+// via-search incremental outcome in 2024Q2 (500 to 3,000) and one ordinary
 // prior.
 func demoReturns(t *testing.T) (*model.Scaled, model.Options, string) {
 	t.Helper()
@@ -35,6 +36,7 @@ func demoReturns(t *testing.T) (*model.Scaled, model.Options, string) {
 	text := "parameter,family,p1,p2,window,per\n" +
 		"return[video_spend],lognormal90,0.5,3," + q.Name + ",1000\n" +
 		"incremental_direct[audio_spend],lognormal,20000,10000,,\n" +
+		"incremental_via_search[audio_spend],lognormal90,500,3000,2024Q2,\n" +
 		"K[video_spend],gamma,3,3,,\n"
 	if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
 		t.Fatal(err)
@@ -43,8 +45,8 @@ func demoReturns(t *testing.T) (*model.Scaled, model.Options, string) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(o.Returns) != 2 {
-		t.Fatalf("%d return priors, want 2", len(o.Returns))
+	if len(o.Returns) != 3 {
+		t.Fatalf("%d return priors, want 3", len(o.Returns))
 	}
 	return sc, o, q.Name
 }
@@ -133,7 +135,7 @@ func TestImpliedTable(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	res, err := mediation.Split(pin, append(window.Quarters(sc.Weeks)[:1], o.Returns[0].Window))
+	res, err := mediation.Split(pin, append(window.Quarters(sc.Weeks)[:1], o.Returns[0].Window, o.Returns[2].Window))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -144,7 +146,8 @@ func TestImpliedTable(t *testing.T) {
 		got = append(got, key{r.Channel, r.Path, r.Window, r.Measure})
 	}
 	want := []key{{"video_spend", "total", "all", "return_on_spend"}, {"video_spend", "total", q, "return_on_spend"},
-		{"audio_spend", "total", "all", "return_on_spend"}, {"audio_spend", "direct", "all", "incremental"}}
+		{"audio_spend", "total", "all", "return_on_spend"}, {"audio_spend", "direct", "all", "incremental"},
+		{"audio_spend", "via_search", "2024Q2", "incremental"}}
 	if len(got) != len(want) {
 		t.Fatalf("rows %v, want %v", got, want)
 	}
@@ -156,8 +159,8 @@ func TestImpliedTable(t *testing.T) {
 	if rows[0].Per != 1000 || rows[0].Stated() || rows[2].Per != 1 {
 		t.Errorf("whole-period rows: %+v %+v", rows[0], rows[2])
 	}
-	for i, r := range []*model.ReturnPrior{o.Returns[0], o.Returns[1]} {
-		row := rows[2*i+1]
+	for i, r := range o.Returns {
+		row := rows[[]int{1, 3, 4}[i]]
 		if row.StatedQ05 != r.Quantile(0.05) || row.StatedQ95 != r.Quantile(0.95) || row.PriorQ50 != row.PostQ50 {
 			t.Errorf("%s: %+v", r.Name(), row)
 		}
