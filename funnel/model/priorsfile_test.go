@@ -161,3 +161,15 @@ func TestReadPriorFileReturns(t *testing.T) {
 		t.Errorf("no data: error %v", err)
 	}
 }
+
+// TestReadPriorFileNarrowReturn reads a return row from a four-column
+// file: the window is all and per 1.
+func TestReadPriorFileNarrowReturn(t *testing.T) {
+	f, err := ReadPriorFile(strings.NewReader("parameter,family,p1,p2\nreturn[video],lognormal90,0.001,0.004\n"), "p.csv", stageCheck(t), retScaled(60, 1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(f.Returns) != 1 || f.Returns[0].Window.Name != "all" || f.Returns[0].Per != 1 || f.Returns[0].Line != 2 {
+		t.Errorf("got %+v", f.Returns)
+	}
+}
