@@ -48,6 +48,17 @@ func PriorInputs(in *Inputs, n int, seed uint64) (*Inputs, error) {
 	if out.OutcomeDraws, err = draw(in.Outcome); err != nil {
 		return nil, err
 	}
+	// coefficients under a return prior are drawn given the rest of the
+	// pair (model.ReturnPrior.Draw)
+	rps, err := model.ReturnDraws(in.Demand, in.Outcome)
+	if err != nil {
+		return nil, err
+	}
+	for d := range n {
+		for _, r := range rps {
+			r.Draw(out.DemandDraws.Rows[d], out.OutcomeDraws.Rows[d], rng)
+		}
+	}
 	out.NaiveDraws = Draws{}
 	if in.Naive != nil && len(in.NaiveDraws.Rows) > 0 {
 		if out.NaiveDraws, err = draw(in.Naive); err != nil {

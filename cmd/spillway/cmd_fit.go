@@ -62,7 +62,7 @@ func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.IntVar(&s.chains, "chains", d.chains, "number of "+d.chainsWhat+", run in parallel")
 	fs.IntVar(&s.warmup, "warmup", d.warmup, "warm-up "+d.iterWhat)
 	fs.IntVar(&s.draws, "draws", d.draws, "kept draws per chain"+strings.TrimPrefix(d.iterWhat, "iterations per chain"))
-	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2")
+	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2; with the columns window,per also priors on returns, e.g. return[video_spend],lognormal90,0.5,3,2025Q3,1000")
 	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
 	fs.StringSliceVar(&s.drift, "drift", nil, "spend `COLUMNS` (or all) whose effectiveness drifts smoothly over time, on every path they have")
 	fs.StringVar(&s.baseline, "baseline", "", "the baseline: line (a trend line plus seasons, the default) or smooth (a smooth function of time in place of the line)")
@@ -149,6 +149,15 @@ the metric summed over those weeks by estimate; an outcome test ties the
 two stages, which are then fitted as one. FOLDER/lifts.csv puts each test
 beside the model's posterior, and a line on standard output names any test
 the rest of the data contradict.
+
+A --priors file with the header parameter,family,p1,p2,window,per also takes
+priors on returns: return[COL] (incremental outcome per PER of spend in
+WINDOW) or incremental[COL], optionally _via_search or _direct, family
+lognormal90 (p1, p2 the 5% and 95% quantiles) or lognormal (mean, sd). The
+stated return becomes the prior of the channel's coefficients given the
+other parameters, the two stages are fitted as one, and 'spillway split'
+writes priors_implied.csv: each return as stated, under the priors and
+under the posterior.
 
 EXAMPLE
   spillway fit --data sales.csv --date week --upper video,audio --search search \

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -73,6 +74,9 @@ It writes into the fit folder:
   returns.csv       return on spend and cost per incremental outcome per
                     channel and window, and the marginal return at the
                     current weekly spend, with 90% intervals
+  priors_implied.csv each upper channel's return as stated in the priors
+                    file (if it was), under the priors alone (a prior
+                    predictive check) and under the posterior
 and prints the table for WINDOW.
 
 EXAMPLE
@@ -141,6 +145,9 @@ type splitResult struct {
 	// notes are the effects the data do not carry (mediation.SupportNotes)
 	notes []string
 	upper []string // the upper channels, for the regions' lines
+	// stated are the stated returns the data disagree with
+	// (mediation.ImpliedNotes)
+	stated []string
 }
 
 // splitFit computes the effects of ff for every quarter, the whole period
@@ -166,6 +173,12 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if !found {
 		wins = append(wins, asked)
 	}
+	// a stated return's window, for the prior predictive check
+	for _, r := range ff.stages[1].Returns {
+		if !slices.ContainsFunc(wins, func(w window.Window) bool { return w.Name == r.Window.Name }) {
+			wins = append(wins, r.Window)
+		}
+	}
 	in := pipeline.Pair(ff.scaled, ff.stages, ff.fits)
 	res, err := mediation.Split(in, wins)
 	if err != nil {
@@ -174,6 +187,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	// the same effects under the priors: how much the data moved each one
 	var sup map[mediation.Key]mediation.Support
 	var notes []string
+	var prior *mediation.Result
 	priorIn, err := mediation.PriorInputs(in, mediation.PriorDraws, ff.Run.Seed)
 	switch {
 	case errors.Is(err, model.ErrImproper):
@@ -181,7 +195,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	case err != nil:
 		return nil, err
 	default:
-		prior, err := mediation.Split(priorIn, wins)
+		prior, err = mediation.Split(priorIn, wins)
 		if err != nil {
 			return nil, fmt.Errorf("the effects under the priors: %w", err)
 		}
@@ -207,6 +221,7 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if err != nil {
 		return nil, err
 	}
+	implied := mediation.ImpliedTable(in, res, prior)
 	return &splitResult{
 		Split: fitfolder.Split{
 			Effects:     mediation.EffectsTable(res, sup),
@@ -218,8 +233,10 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 			Fitted:      fitted,
 			Curves:      curves,
 			Returns:     returns,
+			Implied:     implied,
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes, upper: ff.Run.Spec.Upper,
+		stated: mediation.ImpliedNotes(implied),
 	}, nil
 }
 
@@ -245,6 +262,13 @@ func (s *splitResult) print(stdout io.Writer) error {
 		}
 	}
 	printRegions(stdout, &s.Split, s.upper)
+	if len(s.stated) > 0 {
+		fmt.Fprintln(stdout)
+		fmt.Fprintln(stdout, "Stated returns the data disagree with:")
+		for _, n := range s.stated {
+			fmt.Fprintf(stdout, "  %s\n", n)
+		}
+	}
 	return nil
 }
 

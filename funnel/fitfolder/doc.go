@@ -23,6 +23,7 @@
 //	effects_by_region.csv RegionEffect: effects.csv per region (a panel of regions only)
 //	borrowed_by_region.csv RegionBorrowed: borrowed.csv per region (a panel only)
 //	region_differences.csv RegionDifference: each region against the sum over regions, per draw (a panel only)
+//	priors_implied.csv    Implied: each return as stated, under the priors and under the posterior (absent in older folders)
 //	plan.csv              PlanChannel: the budget plan `spillway allocate` wrote, one row per channel
 //	plan_weekly.csv       PlanWeek: the plan's spend per week and channel
 //	plan.json             PlanSummary: totals, the gain with its interval, marginal returns, the check

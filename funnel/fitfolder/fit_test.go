@@ -74,6 +74,20 @@ func TestLoadRoundTrip(t *testing.T) {
 	if !slices.Equal(f.Returns, fx.Returns) || len(fx.Returns) == 0 {
 		t.Errorf("returns.csv: %d rows read, %d written, or they differ", len(f.Returns), len(fx.Returns))
 	}
+	// priors_implied.csv reads back as written, NaN for no stated prior
+	if len(f.Implied) != len(fx.Implied) || len(fx.Implied) != 3 {
+		t.Fatalf("priors_implied.csv: %d rows read, %d written, want 3", len(f.Implied), len(fx.Implied))
+	}
+	for i, r := range fx.Implied {
+		g := f.Implied[i]
+		if g.Channel != r.Channel || g.Window != r.Window || g.Per != r.Per || g.Stated() != r.Stated() ||
+			!sameOrBothNaN(g.StatedQ50, r.StatedQ50) || g.PriorQ95 != r.PriorQ95 || g.PostQ05 != r.PostQ05 {
+			t.Errorf("priors_implied.csv row %d: got %+v, want %+v", i, g, r)
+		}
+	}
+	if n := len(f.ImpliedFor("video_spend")); n != 2 {
+		t.Errorf("video's implied rows: %d, want 2", n)
+	}
 	if r, ok := f.ReturnMeasure("video_spend", "all", "marginal_return"); !ok || r.Mean <= 0 {
 		t.Errorf("marginal return of video: %v %v", r, ok)
 	}
@@ -151,6 +165,8 @@ func TestLoadErrors(t *testing.T) {
 		{"data.csv", "2023-01-09", "2023-01-9", []string{"data.csv line 3, column week", "2023-01-9"}},
 		{"weekly.csv", "video_spend,direct", "tv_spend,direct", []string{"weekly.csv line 2, column channel", "tv_spend"}},
 		{"outcome/summary.csv", "gamma,", "gamma,x", []string{"summary.csv line", "column mean"}},
+		{"priors_implied.csv", "video_spend,total,all,return_on_spend", "video_spend,both,all,return_on_spend", []string{"priors_implied.csv line 2, column path", `"both"`}},
+		{"priors_implied.csv", "audio_spend,total,all,return_on_spend,1000", "audio_spend,total,all,return_on_spend,0", []string{"priors_implied.csv line", "column per"}},
 	} {
 		dir := filepath.Join(t.TempDir(), "fit")
 		if _, err := fitfoldertest.Write(dir, fitfoldertest.Options{Draws: 10}); err != nil {

@@ -35,6 +35,10 @@ type Split struct {
 	RegionEffects     []RegionEffect
 	RegionBorrowed    []RegionBorrowed
 	RegionDifferences []RegionDifference
+	// Implied is priors_implied.csv (implied.go), the returns as stated,
+	// under the priors and under the posterior; nil in fit folders written
+	// before the file existed.
+	Implied []Implied
 }
 
 // Paths of effects.csv.
@@ -294,6 +298,11 @@ func (s *Split) Files() (map[string][]byte, error) {
 	if err := s.regionFiles(add); err != nil {
 		return nil, err
 	}
+	if s.Implied != nil {
+		if err := add("priors_implied.csv", impliedRows(s.Implied)); err != nil {
+			return nil, err
+		}
+	}
 	for _, t := range []struct {
 		name string
 		rows any
@@ -492,6 +501,10 @@ func readSplit(dir string, run Run) (Split, error) {
 			}
 			s.Returns = append(s.Returns, Return{r.Channel, r.Window, r.Measure, float64(r.Mean), float64(r.Q05), float64(r.Q50), float64(r.Q95)})
 		}
+	}
+
+	if s.Implied, err = readImplied(p("priors_implied.csv"), spec.Upper); err != nil {
+		return s, err
 	}
 
 	path = p("curves.csv")

@@ -47,5 +47,10 @@
 // and direct, with the drifting coefficients of the test's weeks): cross
 // terms add to the natural-value gradients between the two halves. A lift
 // test on the queries is a cross term of a joint target of the demand stage
-// alone. Stages nothing ties are fitted separately, which is exact.
+// alone. A ReturnPrior (retprior.go) is a cross term too: a stated prior on
+// a channel's return over a window, the conditional prior of the
+// coefficients it covers given every other parameter (a change of
+// variables with its Jacobian), those coefficients carrying the flat
+// Conditional family in their stage. Stages nothing ties are fitted
+// separately, which is exact.
 package model

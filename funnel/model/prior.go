@@ -18,6 +18,15 @@ const (
 	Flat       Family = "flat"       // improper uniform: on the real line for a coefficient, else on the parameter's support
 	Jeffreys   Family = "jeffreys"   // improper 1/x on x > 0 (flat on log x; for a scale)
 	Fixed      Family = "fixed"      // the parameter is held at P1 and not sampled
+	// LogNormal90 and LogNormal are the families of a stated return
+	// (retprior.go), not of a parameter: by the 5% and 95% quantiles, or
+	// by the mean and sd of the return itself.
+	LogNormal90 Family = "lognormal90"
+	LogNormal   Family = "lognormal"
+	// Conditional marks a coefficient whose prior is a return prior's
+	// term in a Joint target, conditional on the other parameters: flat
+	// on x > 0 in the stage itself. A priors file cannot name it.
+	Conditional Family = "conditional"
 )
 
 // Support is where a parameter lives.
@@ -69,7 +78,7 @@ func (p Prior) LogPdf(x float64) (lp, d float64) {
 		}
 		lg, _ := math.Lgamma(p.P1)
 		return p.P1*math.Log(p.P2) - lg - (p.P1+1)*math.Log(x) - p.P2/x, (p.P2/x - (p.P1 + 1)) / x
-	case Flat, Fixed:
+	case Flat, Fixed, Conditional:
 		return 0, 0
 	case Jeffreys:
 		if x <= 0 {
@@ -86,7 +95,7 @@ func (p Prior) Support(def Support) Support {
 	switch p.Family {
 	case Normal:
 		return Real
-	case HalfNormal, Gamma, InvGamma, Jeffreys:
+	case HalfNormal, Gamma, InvGamma, Jeffreys, Conditional:
 		return PositiveReal
 	case Beta:
 		return UnitInterval
@@ -117,7 +126,7 @@ func (f Family) Arity() int {
 		return 2
 	case HalfNormal, Fixed:
 		return 1
-	case Flat, Jeffreys:
+	case Flat, Jeffreys, Conditional:
 		return 0
 	}
 	return -1

@@ -16,7 +16,8 @@ var ErrImproper = errors.New("improper prior")
 // PriorDraw writes one draw of the stage's parameters from their priors
 // into dst (Stage.Names order; a dst of another length is replaced) and
 // returns it. Parameters are independent a priori (DESIGN.md); a fixed
-// prior gives its value. A flat or Jeffreys prior has no distribution: the
+// prior gives its value; a Conditional coefficient is NaN, for the
+// return prior's Draw to fill once both stages are drawn. A flat or Jeffreys prior has no distribution: the
 // error wraps ErrImproper and names the parameter.
 func (s *Stage) PriorDraw(dst []float64, rng *rand.Rand) ([]float64, error) {
 	names := s.Names()
@@ -73,6 +74,9 @@ func drawPrior(p Prior, rng *rand.Rand) (float64, error) {
 		return 1 / distuv.Gamma{Alpha: p.P1, Beta: p.P2, Src: rng}.Rand(), nil
 	case Fixed:
 		return p.P1, nil
+	case Conditional:
+		// drawn after the whole draw, by the return prior (ReturnPrior.Draw)
+		return math.NaN(), nil
 	case Flat, Jeffreys:
 		return 0, fmt.Errorf("%w %s", ErrImproper, p.Family)
 	}

@@ -102,3 +102,74 @@ func TestPriorLogPdf(t *testing.T) {
 		t.Error("halfnormal outside its support must be -Inf")
 	}
 }
+
+// TestReadPriorFileReturns checks return rows: the six-column header,
+// each measure and path, the defaults (window all, per 1), and every bad
+// row located at its line and column.
+func TestReadPriorFileReturns(t *testing.T) {
+	check := stageCheck(t)
+	sc := retScaled(60, 1)
+	good := "parameter,family,p1,p2,window,per\n" +
+		"return[video],lognormal90,0.5,3,2023Q2,1000\n" +
+		"incremental_via_search[audio],lognormal,400,300,,\n" +
+		"return_direct[audio],lognormal90,0.001,0.01,all,\n" +
+		"K[video],gamma,2,4,,\n"
+	f, err := ReadPriorFile(strings.NewReader(good), "p.csv", check, sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(f.Returns) != 3 || f.Priors["K[video]"] != (Prior{Gamma, 2, 4}) {
+		t.Fatalf("got %+v", f)
+	}
+	r := f.Returns[0]
+	if r.Name() != "return[video]" || r.Path != ReturnTotal || r.Measure != ReturnOnSpend || r.Per != 1000 || r.Window.Name != "2023Q2" || r.Line != 2 {
+		t.Errorf("row 2: %+v", r)
+	}
+	if r := f.Returns[1]; r.Path != ReturnViaSearch || r.Measure != Incremental || r.Window.Name != "all" || r.Per != 1 || r.Stated != (Prior{LogNormal, 400, 300}) {
+		t.Errorf("row 3: %+v", r)
+	}
+	if r := f.Returns[2]; r.Path != ReturnDirect || r.Window.From != 0 || r.Window.To != 59 {
+		t.Errorf("row 4: %+v", r)
+	}
+	h := "parameter,family,p1,p2,window,per\n"
+	for _, c := range []struct{ text, want string }{
+		{h + "return[search],lognormal90,1,2,,\n", "p.csv:2:1: return[search]: search is not an upper-funnel column"},
+		{h + "return[video],normal,1,2,,\n", "p.csv:2:2: return[video]: a return takes family lognormal90"},
+		{h + "return[video],lognormal90,1,,,\n", "p.csv:2:4: return[video]: lognormal90 takes two numbers, p1 and p2; p2 is empty"},
+		{h + "return[video],lognormal90,3,2,,\n", "p.csv:2:4: return[video]: lognormal90 takes the 5% and 95% quantiles, p1 < p2"},
+		{h + "return[video],lognormal,0,2,,\n", "p.csv:2:3: return[video]: lognormal takes two numbers > 0"},
+		{h + "return[video],lognormal90,1,2,2030Q1,\n", "p.csv:2:5: return[video]: window \"2030Q1\""},
+		{h + "return[video],lognormal90,1,2,,-5\n", "p.csv:2:6: return[video]: per must be a number of spend units > 0"},
+		{h + "incremental[video],lognormal90,1,2,,1000\n", "p.csv:2:6: incremental[video]: per applies to a return on spend"},
+		{h + "return[video],lognormal90,1,2,,\nreturn[video],lognormal90,1,3,,\n", "p.csv:3:1: return[video] already has a prior on line 2"},
+		{h + "alpha[video],halfnormal,1,,,\nreturn[video],lognormal90,1,2,,\n", "p.csv:3:1: return[video] sets the prior of alpha[video], which has its own prior on line 2"},
+		{h + "return_direct[video],lognormal90,1,2,,\nreturn[video],lognormal90,1,3,,\n", "p.csv:3:1: return[video] and return_direct[video] on line 2 both set the prior of delta[video]"},
+		{h + "gamma,halfnormal,1,,2023Q2,\n", "p.csv:2:5: gamma: window is for a return row"},
+		{h + "gamma,halfnormal,1,,,3\n", "p.csv:2:6: gamma: per is for a return row"},
+		{h + "gamma,lognormal90,1,2,,\n", "p.csv:2:2: gamma: lognormal90 is for a return row"},
+		{h + "gamma,conditional,,,,\n", "p.csv:2:2: gamma: unknown family \"conditional\""},
+		{h + "return[video],lognormal90,1,2,,x\n", "p.csv:2:6: per \"x\" is not a number"},
+		{"parameter,family,p1,p2,window\n", "p.csv:1: header has 5 columns"},
+	} {
+		_, err := ReadPriorFile(strings.NewReader(c.text), "p.csv", check, sc)
+		if err == nil || !strings.HasPrefix(err.Error(), c.want) {
+			t.Errorf("%q: error %v, want %q", c.text, err, c.want)
+		}
+	}
+	// without the data, a return row cannot be resolved
+	if _, err := ReadPriors(strings.NewReader(h+"return[video],lognormal90,1,2,,\n"), "p.csv", check); err == nil || !strings.HasPrefix(err.Error(), "p.csv:2:1: return[video]: a return prior needs the data") {
+		t.Errorf("no data: error %v", err)
+	}
+}
+
+// TestReadPriorFileNarrowReturn reads a return row from a four-column
+// file: the window is all and per 1.
+func TestReadPriorFileNarrowReturn(t *testing.T) {
+	f, err := ReadPriorFile(strings.NewReader("parameter,family,p1,p2\nreturn[video],lognormal90,0.001,0.004\n"), "p.csv", stageCheck(t), retScaled(60, 1))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(f.Returns) != 1 || f.Returns[0].Window.Name != "all" || f.Returns[0].Per != 1 || f.Returns[0].Line != 2 {
+		t.Errorf("got %+v", f.Returns)
+	}
+}

@@ -73,6 +73,11 @@ type Stage struct {
 	// the week added to the linear predictor (drift.go). Its parameters come
 	// after sigma, before the channels' drifts.
 	Baseline *Smooth
+	// Returns are the stated return priors of the demand and the outcome
+	// stage (retprior.go): the coefficients they cover carry the
+	// Conditional family here, and their prior is the return prior's term
+	// in a Joint target of both stages. Nil without return priors.
+	Returns []*ReturnPrior
 }
 
 // Names returns the stage's constrained parameter names in draw order:

@@ -32,6 +32,11 @@ type Options struct {
 	// Baseline is "" for the default trend line, or BaselineSmooth for a
 	// baseline that moves: a smooth function of the week in its place.
 	Baseline string
+	// Returns are stated priors on upper-funnel channels' returns
+	// (retprior.go); the coefficients they cover get the Conditional
+	// family in the demand and the outcome stage, and the stages must be
+	// fitted as one Joint target with the priors as cross terms.
+	Returns []*ReturnPrior
 }
 
 // BaselineSmooth is the Options.Baseline of a baseline that moves.
@@ -71,7 +76,9 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 	for c, col := range sc.UpperNames {
 		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o, sc.Mask))
 	}
-	return finish(st, o)
+	st, err := finish(st, o)
+	applyReturns(st, o.Returns, true)
+	return st, err
 }
 
 // Outcome returns stage 2: y~[t] on trend, seasonality, controls, gamma q~,
@@ -81,7 +88,9 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 	st := outcomeBase("outcome", sc, o)
 	st.Regressors = append(st.Regressors, Regressor{Name: QueryCoef, X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
-	return finish(withChannels(st, sc, o), o)
+	st, err := finish(withChannels(st, sc, o), o)
+	applyReturns(st, o.Returns, false)
+	return st, err
 }
 
 // Naive returns stage 2 without the query term: what a model that ignores

@@ -27,7 +27,7 @@ import (
 // draws are split back into one fit per stage, paired by index, so
 // everything downstream reads them as always. No tests: Fit itself.
 func FitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook) (*Fitted, error) {
-	if len(tests) == 0 {
+	if len(tests) == 0 && len(o.Returns) == 0 {
 		return Fit(ctx, sc, o, s, hook)
 	}
 	return fitLifts(ctx, sc, o, tests, s, hook, true)
@@ -48,12 +48,18 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 			break
 		}
 	}
+	if len(o.Returns) > 0 && len(joint) == 1 {
+		joint = append(joint, st[1]) // a return prior ties alpha to gamma and delta
+	}
 	for _, t := range tests {
 		f.Lifts = append(f.Lifts, t.Term(sc, 0, 1))
 	}
 	cross := make([]model.CrossTerm, len(f.Lifts))
 	for i, l := range f.Lifts {
 		cross[i] = l
+	}
+	for _, r := range o.Returns {
+		cross = append(cross, r.Term(0, 1))
 	}
 	j, err := model.NewJoint(joint, cross...)
 	if err != nil {

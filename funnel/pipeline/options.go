@@ -92,9 +92,11 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 	if err != nil {
 		return o, err
 	}
-	if o.Priors, err = model.LoadPriors(c.Priors, CheckPrior(st)); err != nil {
+	pf, err := model.LoadPriorFile(c.Priors, CheckPrior(st), sc)
+	if err != nil {
 		return o, err
 	}
+	o.Priors, o.Returns = pf.Priors, pf.Returns
 	if st, err = Stages(sc, o); err != nil {
 		return o, err
 	}

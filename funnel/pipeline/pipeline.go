@@ -83,7 +83,14 @@ type StageHook func(stage string) (mcmc.Recorder, func())
 // Fit runs the three stages with settings s (chains in parallel, stages one
 // after another). Stage k uses seed s.Seed + k so the fits draw independent
 // streams; a zero s.TargetAccept means DefaultTargetAccept. hook may be nil.
+//
+// With return priors (o.Returns) the demand and the outcome stage are
+// fitted as one joint target with the priors as its cross terms, as
+// FitLifts does.
 func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings, hook StageHook) (*Fitted, error) {
+	if len(o.Returns) > 0 {
+		return fitLifts(ctx, sc, o, nil, s, hook, true)
+	}
 	st, err := Stages(sc, o)
 	if err != nil {
 		return nil, err

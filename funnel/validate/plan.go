@@ -244,6 +244,12 @@ func New(in Input, s Settings) (*Sweep, error) {
 	if T < 2 {
 		return nil, fmt.Errorf("validate: the data have %d weeks", T)
 	}
+	if len(in.Options.Returns) > 0 {
+		// a return prior is resolved against the fitted data's spend and
+		// outcome scale and needs a joint fit; the sweep refits stages
+		// one by one on other data
+		return nil, fmt.Errorf("validate: the fit has priors on returns (%s); validation does not refit them yet: validate a fit without them", in.Options.Returns[0].Name())
+	}
 	sw := &Sweep{in: in, set: set}
 	sw.base = model.Scale(in.Series, in.Spec)
 	if sw.stages[0], err = model.Demand(sw.base, in.Options); err != nil {

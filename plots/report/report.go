@@ -76,6 +76,8 @@ type view struct {
 	BorrowedNote string
 	Returns      []returnRow
 	ReturnsNote  string
+	Implied      []impliedRow
+	ImpliedNote  string
 	Assumptions  []string
 	Sensitivity  []string
 	Cautions     []string
@@ -111,6 +113,14 @@ type borrowedRow struct {
 type compareView struct {
 	Window, Prev, Year string
 	Rows               []compareRow
+}
+
+// impliedRow is a row of the prior predictive check of the returns: a
+// median and 90% interval as stated, under the priors and under the
+// posterior.
+type impliedRow struct {
+	Column, Channel, Path, Window, Measure string
+	Stated, Prior, Posterior               string
 }
 
 type returnRow struct {
@@ -467,6 +477,18 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 		}
 		v.Cautions = append(v.Cautions, "Regional answers lean on the other regions (partial pooling) and, among many regions, "+
 			"a few look different by chance: confirm a regional difference with a regional lift test before moving budget between regions.")
+	}
+	v.Implied, v.ImpliedNote = impliedView(f, lab, k, perLabel, outcome)
+	var stated []string
+	for _, r := range f.Implied {
+		if r.Stated() && !slices.Contains(stated, lab.Channel(r.Channel)) {
+			stated = append(stated, lab.Channel(r.Channel))
+		}
+	}
+	if len(stated) > 0 {
+		v.Cautions = append(v.Cautions, fmt.Sprintf("The priors file states a prior on the return of %s. A stated prior can dominate weak data: "+
+			"the table \"What the priors assumed\" shows it beside the posterior; where the two agree and the data moved little, the number is the assumption, not a finding.",
+			strings.Join(stated, ", ")))
 	}
 
 	// Data summary.
@@ -870,4 +892,47 @@ func mediaSupported(v fitfolder.Verdict) bool {
 		}
 	}
 	return true
+}
+
+// impliedView returns the rows of the prior predictive check of the
+// returns (priors_implied.csv) and its note; none in folders without it.
+// A return on spend stated per unit is shown per k units, as the effects.
+func impliedView(f *fitfolder.Fit, lab plots.Labels, k float64, perLabel, outcome string) ([]impliedRow, string) {
+	if len(f.Implied) == 0 {
+		return nil, ""
+	}
+	var rows []impliedRow
+	for _, r := range f.Implied {
+		scale, measure := 1.0, "incremental "+outcome
+		if r.Measure == fitfolder.ImpliedReturnOnSpend {
+			measure = "return " + perLabel
+			if r.Per != 1 {
+				cur := ""
+				if c := lab.Currency(); c != "" {
+					cur = c + " "
+				}
+				measure = fmt.Sprintf("return per %s%s of spend", cur, plots.Number(r.Per))
+			} else {
+				scale = k
+			}
+		}
+		med := func(lo, mid, hi float64) string {
+			if math.IsNaN(mid) {
+				return "–"
+			}
+			return plots.Number(mid*scale) + " (" + interval(lo*scale, hi*scale) + ")"
+		}
+		path := map[string]string{fitfolder.PathTotal: "total", fitfolder.PathViaSearch: "via search", fitfolder.PathDirect: "direct"}[r.Path]
+		rows = append(rows, impliedRow{Column: r.Channel, Channel: lab.Channel(r.Channel), Path: path, Window: r.Window, Measure: measure,
+			Stated: med(r.StatedQ05, r.StatedQ50, r.StatedQ95), Prior: med(r.PriorQ05, r.PriorQ50, r.PriorQ95),
+			Posterior: med(r.PostQ05, r.PostQ50, r.PostQ95)})
+	}
+	note := "Median and 90% interval of each channel's return: as stated in the priors file (\"–\" where none was stated), " +
+		"as the model's priors imply it (draws from the priors run through the same counterfactual simulation as the posterior, with no data: " +
+		"a prior predictive check) and as the posterior has it. A stated prior can dominate weak data: where the posterior stays close to the prior, " +
+		"the data added little and the number is the assumption, not a finding."
+	for _, n := range mediation.ImpliedNotes(f.Implied) {
+		note += " " + strings.ToUpper(n[:1]) + n[1:] + "."
+	}
+	return rows, note
 }

@@ -706,3 +706,64 @@ func TestReportUnsupportedMedia(t *testing.T) {
 		t.Error("no sentence saying that no change is clear")
 	}
 }
+
+// TestReportImplied checks the table of what the priors assumed: a row per
+// priors_implied.csv row with the stated, prior and posterior medians and
+// intervals in the row's units, "–" where nothing was stated, the caution
+// on a stated prior, and no table (nor caution) without the file.
+func TestReportImplied(t *testing.T) {
+	x := load(t, false)
+	root := parse(t, write(t, x, "2025Q3"))
+	tab := root.byID("priors-implied")
+	if tab == nil {
+		t.Fatal("no priors-implied table")
+	}
+	var rows []string
+	for _, tr := range tab.all("tr") {
+		if tr.attr["data-channel"] != "" {
+			rows = append(rows, tr.fullText())
+		}
+	}
+	if len(rows) != len(x.f.Implied) || len(rows) != 3 {
+		t.Fatalf("%d rows, want one per priors_implied.csv row (%d)", len(rows), len(x.f.Implied))
+	}
+	for i, r := range x.f.Implied {
+		want := []string{plots.Number(r.PostQ50), interval90(r.PostQ05, r.PostQ95), plots.Number(r.PriorQ50), r.Window, "per 1,000 of spend"}
+		if r.Stated() {
+			want = append(want, plots.Number(r.StatedQ50), interval90(r.StatedQ05, r.StatedQ95))
+		} else {
+			want = append(want, "–")
+		}
+		for _, w := range want {
+			if !strings.Contains(rows[i], w) {
+				t.Errorf("row %d %q lacks %q", i, rows[i], w)
+			}
+		}
+	}
+	if c := root.byID("cautions"); c == nil || !strings.Contains(c.fullText(), "A stated prior can dominate weak data") {
+		t.Error("no caution on the stated return prior")
+	}
+
+	// an older fit folder: no priors_implied.csv
+	dir := t.TempDir()
+	fx, err := fitfoldertest.Write(filepath.Join(dir, "fit"), fitfoldertest.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Remove(filepath.Join(fx.Dir, "priors_implied.csv")); err != nil {
+		t.Fatal(err)
+	}
+	f, err := fitfolder.Load(fx.Dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var buf bytes.Buffer
+	if err := report.Write(&buf, f, "2025Q3", x.charts); err != nil {
+		t.Fatal(err)
+	}
+	if p := parse(t, buf.Bytes()); p.byID("priors-implied") != nil || strings.Contains(p.byID("cautions").fullText(), "stated prior") {
+		t.Error("a priors-implied table or caution without priors_implied.csv")
+	}
+}
+
+func interval90(lo, hi float64) string { return plots.Number(lo) + " to " + plots.Number(hi) }

@@ -143,6 +143,16 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 </table>
 <p class="note">{{.Note}}</p>
 {{end}}
+{{if .Implied}}
+<h2>What the priors assumed</h2>
+<p class="note">{{.ImpliedNote}}</p>
+<table id="priors-implied">
+<thead><tr><th>Channel</th><th>Path</th><th>Window</th><th>Measure</th><th class="num">Stated</th><th class="num">Implied by the priors</th><th class="num">Posterior</th></tr></thead>
+<tbody>{{range .Implied}}
+<tr data-channel="{{.Column}}"><td>{{.Channel}}</td><td>{{.Path}}</td><td>{{.Window}}</td><td>{{.Measure}}</td><td class="num">{{.Stated}}</td><td class="num">{{.Prior}}</td><td class="num">{{.Posterior}}</td></tr>{{end}}
+</tbody>
+</table>
+{{end}}
 
 <h2>Demand borrowed by paid search</h2>
 <p class="note">{{.BorrowedNote}}</p>

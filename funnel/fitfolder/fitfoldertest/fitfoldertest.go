@@ -55,9 +55,14 @@ type Fixture struct {
 	Fitted        []fitfolder.Fitted
 	Curves        []fitfolder.Curve
 	Returns       []fitfolder.Return
-	Params        map[string][]fitfolder.Param
-	Stats         map[string]fitfolder.Stats
-	Verdict       []string
+	// Implied is priors_implied.csv: each upper channel's whole-period
+	// return per 1,000 of spend under the priors and the posterior (the
+	// posterior's from returns.csv), and a stated return of video over
+	// CustomWindow.
+	Implied []fitfolder.Implied
+	Params  map[string][]fitfolder.Param
+	Stats   map[string]fitfolder.Stats
+	Verdict []string
 	// Fit is the folder as values, as the fit folder's writer was given it.
 	Fit *fitfolder.Fit
 }
@@ -320,6 +325,24 @@ func Write(dir string, o Options) (*Fixture, error) {
 		}
 	}
 
+	// priors_implied.csv
+	nan := math.NaN()
+	for _, ch := range Upper {
+		for _, r := range fx.Returns {
+			if r.Channel == ch && r.Measure == "return_on_spend" && (r.Window == "all" || ch == "video_spend" && r.Window == CustomWindow) {
+				row := fitfolder.Implied{Channel: ch, Path: fitfolder.PathTotal, Window: r.Window, Measure: fitfolder.ImpliedReturnOnSpend, Per: 1000,
+					StatedQ05: nan, StatedQ50: nan, StatedQ95: nan,
+					PriorQ05: 100 * r.Q05, PriorQ50: 1000 * r.Q50, PriorQ95: 6000 * r.Q95,
+					PostQ05: 1000 * r.Q05, PostQ50: 1000 * r.Q50, PostQ95: 1000 * r.Q95}
+				if r.Window != "all" {
+					row.StatedQ05, row.StatedQ50, row.StatedQ95 = 0.5, 1.2247448713915889, 3
+					row.PriorQ05, row.PriorQ50, row.PriorQ95 = 0.49, 1.23, 3.02
+				}
+				fx.Implied = append(fx.Implied, row)
+			}
+		}
+	}
+
 	// curves.csv: saturating steady-state response per path.
 	for _, ch := range Upper {
 		cur := stat.Mean(fx.Columns[ch])
@@ -443,7 +466,7 @@ func (fx *Fixture) write() error {
 	}
 	f.Split = fitfolder.Split{Effects: fx.Effects, EffectDraws: map[fitfolder.DrawKey]fitfolder.DrawSeries{},
 		Borrowed: fx.Borrowed, Weekly: fx.Weekly, Sensitivity: fx.Sensitivity, Breakeven: fx.Breakeven,
-		Fitted: fx.Fitted, Curves: fx.Curves, Returns: fx.Returns}
+		Fitted: fx.Fitted, Curves: fx.Curves, Returns: fx.Returns, Implied: fx.Implied}
 	for k, v := range fx.Draws {
 		d := make([]int, len(v))
 		for i := range d {
