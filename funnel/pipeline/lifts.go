@@ -48,9 +48,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 			break
 		}
 	}
-	for _, t := range tests {
-		f.Lifts = append(f.Lifts, t.Term(sc, 0, 1))
-	}
+	f.Lifts = liftTerms(sc, tests)
 	cross := make([]model.CrossTerm, len(f.Lifts))
 	for i, l := range f.Lifts {
 		cross[i] = l
@@ -86,6 +84,32 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, st[k].Name); err != nil {
 			return nil, err
 		}
+	}
+	return f, nil
+}
+
+// liftTerms are the lift tests' terms in the likelihood, bound to the
+// demand (0) and outcome (1) stages.
+func liftTerms(sc *model.Scaled, tests []lifts.Test) []*model.LiftTest {
+	var out []*model.LiftTest
+	for _, t := range tests {
+		out = append(out, t.Term(sc, 0, 1))
+	}
+	return out
+}
+
+// Assemble is the Fitted of fits sampled elsewhere, such as the chains of
+// one fit sampled as separate jobs and put together: the stages of sc and
+// o, the lift tests' terms, and the fits and wall times as given. Given the
+// same chains, it equals what FitLifts returned.
+func Assemble(sc *model.Scaled, o model.Options, tests []lifts.Test, fits [3]*mcmc.Fit, wall [3]float64) (*Fitted, error) {
+	st, err := Stages(sc, o)
+	if err != nil {
+		return nil, err
+	}
+	f := &Fitted{Data: sc, Stages: st, Fits: fits, Wall: wall}
+	if len(tests) > 0 {
+		f.Tests, f.Lifts = tests, liftTerms(sc, tests)
 	}
 	return f, nil
 }
