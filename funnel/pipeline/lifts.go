@@ -41,19 +41,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 		return nil, err
 	}
 	f := &Fitted{Data: sc, Stages: st, Tests: tests}
-	joint := []*model.Stage{st[0]}
-	for _, t := range tests {
-		if t.Metric == model.LiftOutcome {
-			joint = append(joint, st[1])
-			break
-		}
-	}
-	f.Lifts = liftTerms(sc, tests)
-	cross := make([]model.CrossTerm, len(f.Lifts))
-	for i, l := range f.Lifts {
-		cross[i] = l
-	}
-	j, err := model.NewJoint(joint, cross...)
+	joint, j, err := bindLifts(f)
 	if err != nil {
 		return nil, err
 	}
@@ -88,14 +76,29 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 	return f, nil
 }
 
-// liftTerms are the lift tests' terms in the likelihood, bound to the
-// demand (0) and outcome (1) stages.
-func liftTerms(sc *model.Scaled, tests []lifts.Test) []*model.LiftTest {
-	var out []*model.LiftTest
-	for _, t := range tests {
-		out = append(out, t.Term(sc, 0, 1))
+// bindLifts sets f.Lifts, the terms of f.Tests in the likelihood, bound
+// to f's stages in the joint target they are sampled in: the demand stage,
+// and the outcome stage too when a test of the outcome ties them. It
+// returns the stages of that target and the target.
+func bindLifts(f *Fitted) ([]*model.Stage, *model.Joint, error) {
+	st := f.Stages
+	joint := []*model.Stage{st[0]}
+	for _, t := range f.Tests {
+		if t.Metric == model.LiftOutcome {
+			joint = append(joint, st[1])
+			break
+		}
 	}
-	return out
+	f.Lifts = nil
+	for _, t := range f.Tests {
+		f.Lifts = append(f.Lifts, t.Term(f.Data, 0, 1))
+	}
+	cross := make([]model.CrossTerm, len(f.Lifts))
+	for i, l := range f.Lifts {
+		cross[i] = l
+	}
+	j, err := model.NewJoint(joint, cross...)
+	return joint, j, err
 }
 
 // Assemble is the Fitted of fits sampled elsewhere, such as the chains of
@@ -109,7 +112,10 @@ func Assemble(sc *model.Scaled, o model.Options, tests []lifts.Test, fits [3]*mc
 	}
 	f := &Fitted{Data: sc, Stages: st, Fits: fits, Wall: wall}
 	if len(tests) > 0 {
-		f.Tests, f.Lifts = tests, liftTerms(sc, tests)
+		f.Tests = tests
+		if _, _, err := bindLifts(f); err != nil {
+			return nil, err
+		}
 	}
 	return f, nil
 }
