@@ -149,9 +149,19 @@ two stages, which are then fitted as one. FOLDER/lifts.csv puts each test
 beside the model's posterior, and a line on standard output names any test
 the rest of the data contradict.
 
+With --chain I/N it samples only chain I of N of every stage (bit for bit
+chain I of a run of N chains with the same seed) into FOLDER, a shard
+folder: that chain's draws, the data and what the merge checks, nothing a
+reader could take for a fit. Run one job per chain on a batch engine, then
+'spillway fit --merge FOLDER... --out FOLDER' checks that the shards are
+the chains of one fit, each once, and writes the fit folder one run of N
+chains writes, byte for byte but for recorded times.
+
 EXAMPLE
   spillway fit --data sales.csv --date week --upper video,audio --search search \
     --queries brand_queries --outcome orders --controls price --out fit1
+  spillway fit --data sales.csv ... --chain 2/4 --out chains/chain2   # one job per chain
+  spillway fit --merge chains/chain* --out fit1
 
 ` + exitStatusHelp,
 		flags: fs,

@@ -56,10 +56,17 @@ The steps are also commands of their own: fit, split, chart and report. With
 'spillway help allocate'; a plan rests on the model's assumptions: confirm
 large moves with a controlled experiment).
 
+With --chain I/N it samples only chain I of N (see 'spillway help fit')
+and writes that shard folder alone, no charts or report; 'spillway run
+--merge FOLDER... --out FOLDER' puts the chains together and writes the
+whole folder, charts and report included, as one run would (the review
+options --window, --negligible and --allocate are the shards').
+
 EXAMPLE
   spillway run --out demo-out
   spillway run --data sales.csv --date week --upper video,audio --search search \
     --queries brand_queries --outcome orders --controls price --out q3-review
+  spillway run --merge chains/chain* --out q3-review   # after run --chain I/N jobs
 
 ` + exitStatusHelp,
 		flags: fs,
