@@ -5,12 +5,15 @@ import (
 	"encoding/json"
 	"io/fs"
 	"os"
+	"os/exec"
 	"path/filepath"
 	"reflect"
 	"regexp"
 	"slices"
 	"strings"
+	"syscall"
 	"testing"
+	"time"
 
 	"spillway/funnel/fitfolder"
 )
@@ -256,5 +259,36 @@ func editFile(t *testing.T, path, old, new string) {
 	}
 	if err := os.WriteFile(path, bytes.Replace(b, []byte(old), []byte(new), 1), 0o644); err != nil {
 		t.Fatal(err)
+	}
+}
+
+// TestSignalLeavesNoShard stops a one-chain job while it samples: it exits
+// with 128 + SIGTERM and leaves neither the shard folder nor its temporary
+// folder, like any other run.
+func TestSignalLeavesNoShard(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds the command; skipped with -short")
+	}
+	bin := buildSpillway(t)
+	out := filepath.Join(t.TempDir(), "chain2")
+	c := exec.Command(bin, "run", "--chain", "2/2", "--warmup", "5000", "--draws", "5000", "--quiet", "--out", out)
+	var stderr strings.Builder
+	c.Stderr = &stderr
+	if err := c.Start(); err != nil {
+		t.Fatal(err)
+	}
+	waitTemp(t, out)
+	time.Sleep(200 * time.Millisecond)
+	if err := c.Process.Signal(syscall.SIGTERM); err != nil {
+		t.Fatal(err)
+	}
+	if code := exitOf(t, c); code != 128+int(syscall.SIGTERM) {
+		t.Errorf("exit %d, want %d; stderr:\n%s", code, 128+int(syscall.SIGTERM), stderr.String())
+	}
+	if left := tempLeft(t, out); left != "" {
+		t.Errorf("%s left behind", left)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Errorf("the shard folder exists after the signal (err %v)", err)
 	}
 }
