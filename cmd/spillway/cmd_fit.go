@@ -36,6 +36,7 @@ type samplingFlags struct {
 	targetAccept          float64
 	labels                labelFlags // fit and run only
 	national              bool       // fit and run only
+	shard                 shardFlags // fit and run only
 }
 
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
@@ -45,6 +46,7 @@ func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&s.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data: channel,start,end,estimate,se[,metric,region]")
 	s.labels.addFlags(fs)
 	fs.BoolVar(&s.national, "national", false, "fit regional data (--region) as their national sum, one series, as national data are fitted")
+	s.shard.addFlags(fs)
 }
 
 // samplingDefaults are the defaults and help words that differ between the
@@ -159,9 +161,19 @@ other parameters, the two stages are fitted as one, and 'spillway split'
 writes priors_implied.csv: each return as stated, under the priors and
 under the posterior.
 
+With --chain I/N it samples only chain I of N of every stage (bit for bit
+chain I of a run of N chains with the same seed) into FOLDER, a shard
+folder: that chain's draws, the data and what the merge checks, nothing a
+reader could take for a fit. Run one job per chain on a batch engine, then
+'spillway fit --merge FOLDER... --out FOLDER' checks that the shards are
+the chains of one fit, each once, and writes the fit folder one run of N
+chains writes, byte for byte but for recorded times.
+
 EXAMPLE
   spillway fit --data sales.csv --date week --upper video,audio --search search \
     --queries brand_queries --outcome orders --controls price --out fit1
+  spillway fit --data sales.csv ... --chain 2/4 --out chains/chain2   # one job per chain
+  spillway fit --merge chains/chain* --out fit1
 
 ` + exitStatusHelp,
 		flags: fs,
@@ -173,16 +185,23 @@ EXAMPLE
 
 // runFitCommand fits the data and commits the fit folder.
 func runFitCommand(ctx context.Context, o *fitOptions, args []string, stdout, stderr io.Writer) error {
+	if o.sampling.shard.merge {
+		return mergeFit(ctx, "fit", &o.sampling, args, stdout, stderr)
+	}
 	if err := noArgs(args); err != nil {
 		return err
 	}
-	od, err := runFit(ctx, &o.roles, &o.sampling, "", stdout, stderr)
+	od, err := runFit(ctx, &o.roles, &o.sampling, "", nil, stdout, stderr)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
 	if err := od.Commit(); err != nil {
 		return err
+	}
+	if od.chain != "" {
+		printShardWritten(stdout, od, "fit")
+		return nil
 	}
 	fmt.Fprintf(stdout, "fit written to %s\n", od.Final())
 	return nil
@@ -193,14 +212,22 @@ func runFitCommand(ctx context.Context, o *fitOptions, args []string, stdout, st
 type fitRun struct {
 	*outDir
 	fit *fitFolder
+	// chain is "I/N" when the folder is one chain's shard folder.
+	chain string
 }
 
 // runFit fits and writes the fit folder into a temporary output folder.
 // With demo set, the data are that built-in scenario and roles are ignored.
 // Each of checks is run on the loaded data before any sampling (run checks
-// its --window there), so that a mistake costs no fit.
-func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, stdout, stderr io.Writer, checks ...func(*data.Dataset) error) (_ *fitRun, err error) {
+// its --window there), so that a mistake costs no fit. With --chain it
+// samples that chain alone and writes the shard folder instead (fitRun's
+// chain set, fit nil); review is what run records in it.
+func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo string, review *fitfolder.Review, stdout, stderr io.Writer, checks ...func(*data.Dataset) error) (_ *fitRun, err error) {
 	if err := opts.validate(); err != nil {
+		return nil, err
+	}
+	only, err := opts.shard.chains(opts)
+	if err != nil {
 		return nil, err
 	}
 	out, err := newOutDir(opts.out, opts.force, append(roles.inputs(), opts.priors)...)
@@ -214,7 +241,47 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		}
 	}()
 	od := out
+	p, err := planFit(roles, opts, demo, stderr, checks...)
+	if err != nil {
+		return nil, err
+	}
+	p.set.Only = only
+	fitted, err := pipeline.FitLifts(ctx, p.sc, p.o, p.tests, p.set, progressHook(ctx, opts, len(only), stderr))
+	if err != nil {
+		return nil, err
+	}
+	base, bf, err := pipeline.FitBaseline(ctx, p.sc, p.o, p.set)
+	if err != nil {
+		return nil, err
+	}
+	if only != nil {
+		return writeShard(od, p, fitted, bf, review, stdout)
+	}
+	ff, err := finishFit(od, p, fitted, base, bf, stdout, stderr)
+	if err != nil {
+		return nil, err
+	}
+	return &fitRun{outDir: od, fit: ff}, nil
+}
+
+// fitPlan is a fit ready to sample, or whose chains are sampled: the
+// checked data, the model options and lift tests, what spec.json records
+// and the sampler's settings.
+type fitPlan struct {
+	run        fitfolder.Run
+	ds         *data.Dataset
+	sc         *model.Scaled
+	o          model.Options
+	priorBytes []byte
+	liftBytes  []byte
+	tests      []lifts.Test
+	set        mcmc.Settings
+}
+
+// planFit loads and checks the data and the options of a fit.
+func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Writer, checks ...func(*data.Dataset) error) (*fitPlan, error) {
 	var ds *data.Dataset
+	var err error
 	if demo != "" {
 		if ds, err = demoData(demo); err != nil {
 			return nil, err
@@ -240,49 +307,51 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if err != nil {
 		return nil, err
 	}
-	sc := model.Scale(ds.National(), ds.Spec)
-	o, err := modelOptions(sc, opts)
-	if err != nil {
+	p := &fitPlan{ds: ds, sc: model.Scale(ds.National(), ds.Spec)}
+	if p.o, err = modelOptions(p.sc, opts); err != nil {
 		return nil, err
 	}
-	var priorBytes, liftBytes []byte
 	if opts.priors != "" {
-		if priorBytes, err = os.ReadFile(opts.priors); err != nil {
+		if p.priorBytes, err = os.ReadFile(opts.priors); err != nil {
 			return nil, badData(err)
 		}
 	}
-	var tests []lifts.Test
 	if opts.lifts != "" {
-		if tests, err = lifts.Load(opts.lifts, ds); err != nil {
+		if p.tests, err = lifts.Load(opts.lifts, ds); err != nil {
 			return nil, badData(err)
 		}
-		if liftBytes, err = os.ReadFile(opts.lifts); err != nil {
+		if p.liftBytes, err = os.ReadFile(opts.lifts); err != nil {
 			return nil, badData(err)
 		}
 	}
-	fs := &fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels, National: opts.national}
-	verb := "fit"
-	if demo != "" {
-		verb = "run"
+	p.run = fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
+		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: p.o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels, National: opts.national}
+	p.run.Command = rerunCommand(rerunVerb(&p.run), &p.run, opts.out)
+	p.set = mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
+	return p, nil
+}
+
+// rerunVerb is the command spec.json's command line names: run for the
+// built-in demo (which only run has), fit otherwise.
+func rerunVerb(r *fitfolder.Run) string {
+	if r.Demo != "" {
+		return "run"
 	}
-	fs.Command = rerunCommand(verb, fs, opts.out)
-	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	fitted, err := pipeline.FitLifts(ctx, sc, o, tests, set, progressHook(ctx, opts, stderr))
-	if err != nil {
-		return nil, err
-	}
-	f, reps := newFit(*fs, ds, priorBytes, fitted)
-	sup, err := pipeline.CheckSupport(ctx, fitted, o, set)
-	if err != nil {
-		return nil, err
-	}
+	return "fit"
+}
+
+// finishFit writes the fit folder of a fit whose chains are all sampled
+// (fitted, and the support check's baseline stage base with its fit bf)
+// into od, prints the summary and returns the fit with its model.
+func finishFit(od *outDir, p *fitPlan, fitted *pipeline.Fitted, base *model.Stage, bf *mcmc.Fit, stdout, stderr io.Writer) (*fitFolder, error) {
+	f, reps := newFit(p.run, p.ds, p.priorBytes, fitted)
+	sup := pipeline.CompareSupport(fitted, base, bf)
 	addSupport(&f.Verdict, sup)
 	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
 	}
-	liftChecks, err := driftFiles(files, fitted, liftBytes)
+	liftChecks, err := driftFiles(files, fitted, p.liftBytes)
 	if err != nil {
 		return nil, err
 	}
@@ -296,22 +365,26 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
-	return &fitRun{od, &fitFolder{Fit: f, scaled: sc, stages: fitted.Stages, fits: fitted.Fits, options: o}}, nil
+	return &fitFolder{Fit: f, scaled: p.sc, stages: fitted.Stages, fits: fitted.Fits, options: p.o}, nil
 }
 
 // progressHook returns the per-stage progress display: a bar when stderr
 // is a terminal, a plain line every few seconds otherwise, none with --quiet.
 // A stage stopped by ctx (Ctrl-C) ends its display with "interrupted".
-func progressHook(ctx context.Context, opts *samplingFlags, stderr io.Writer) pipeline.StageHook {
+func progressHook(ctx context.Context, opts *samplingFlags, only int, stderr io.Writer) pipeline.StageHook {
 	if opts.quiet {
 		return nil
+	}
+	chains := opts.chains
+	if only > 0 {
+		chains = only // the chains of a shard
 	}
 	tty := false
 	if f, ok := stderr.(*os.File); ok {
 		tty = term.IsTerminal(int(f.Fd()))
 	}
 	return func(stage string) (mcmc.Recorder, func()) {
-		p := progress.New(progress.Options{Writer: stderr, Terminal: tty, Label: stage, Chains: opts.chains, Iterations: opts.warmup + opts.draws})
+		p := progress.New(progress.Options{Writer: stderr, Terminal: tty, Label: stage, Chains: chains, Iterations: opts.warmup + opts.draws})
 		return p, func() {
 			if ctx.Err() != nil {
 				_ = p.Interrupt()

@@ -56,10 +56,17 @@ The steps are also commands of their own: fit, split, chart and report. With
 'spillway help allocate'; a plan rests on the model's assumptions: confirm
 large moves with a controlled experiment).
 
+With --chain I/N it samples only chain I of N (see 'spillway help fit')
+and writes that shard folder alone, no charts or report; 'spillway run
+--merge FOLDER... --out FOLDER' puts the chains together and writes the
+whole folder, charts and report included, as one run would (the review
+options --window, --negligible and --allocate are the shards').
+
 EXAMPLE
   spillway run --out demo-out
   spillway run --data sales.csv --date week --upper video,audio --search search \
     --queries brand_queries --outcome orders --controls price --out q3-review
+  spillway run --merge chains/chain* --out q3-review   # after run --chain I/N jobs
 
 ` + exitStatusHelp,
 		flags: fs,
@@ -74,6 +81,9 @@ EXAMPLE
 // and the report are drawn from the fit and split in memory; the files are
 // written for the user.
 func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io.Writer) error {
+	if o.sampling.shard.merge {
+		return mergeFit(ctx, "run", &o.sampling, args, stdout, stderr)
+	}
 	if err := noArgs(args); err != nil {
 		return err
 	}
@@ -101,15 +111,30 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 		}
 		return nil
 	}
-	od, err := runFit(ctx, &o.roles, &o.sampling, demo, stdout, stderr, checkWindow)
+	review := &fitfolder.Review{Window: o.window, Negligible: o.negligible, Allocate: o.allocate}
+	od, err := runFit(ctx, &o.roles, &o.sampling, demo, review, stdout, stderr, checkWindow)
 	if err != nil {
 		return err
 	}
 	defer od.Abort()
+	if od.chain != "" {
+		if err := od.Commit(); err != nil {
+			return err
+		}
+		printShardWritten(stdout, od, "run")
+		return nil
+	}
+	return finishRun(ctx, od, review, stdout, stderr)
+}
+
+// finishRun is what run does after the fit, in the same output folder:
+// the split, the budget plan with --allocate, the charts and the report; it
+// commits the folder.
+func finishRun(ctx context.Context, od *fitRun, o *fitfolder.Review, stdout, stderr io.Writer) error {
 	// the review window of the table, the charts and the report: checked
 	// against the data before the fit (checkWindow)
 	fmt.Fprintln(stdout)
-	s, err := splitFit(ctx, od.fit, o.window, o.negligible)
+	s, err := splitFit(ctx, od.fit, o.Window, o.Negligible)
 	if err != nil {
 		return err
 	}
@@ -133,7 +158,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	f := od.fit.Fit
 	f.Split = s.Split
 	f.Dir = od.Final()
-	if o.allocate {
+	if o.Allocate {
 		fmt.Fprintln(stdout)
 		pf := planFlags{weeks: allocate.DefaultWeeks, pattern: "last"}
 		files, err := planFiles(ctx, od.fit, &pf, "spillway allocate --fit "+shellQuote(od.Final()), stdout, stderr)

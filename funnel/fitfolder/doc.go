@@ -29,6 +29,10 @@
 //	plan.json             PlanSummary: totals, the gain with its interval, marginal returns, the check
 //	plan.png              the plan's chart (PlanChart)
 //
+// A shard folder (shard.go) holds one chain of a fit sampled as a job of its
+// own (`--chain I/N`): shard.json, data.csv, the input copies and each
+// stage's draws; Open refuses it, ReadShard reads it for the merge.
+//
 // The tables are fixed-schema CSV read and written by package table, so
 // every error names the file, the line and the column at fault (*Error).
 // Open reads what split needs (spec, data, priors), ReadDraws the draws,

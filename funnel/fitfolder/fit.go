@@ -44,6 +44,9 @@ func Open(dir string) (*Fit, error) {
 	if !st.IsDir() {
 		return nil, fmt.Errorf("fit folder %s is not a folder", dir)
 	}
+	if IsShard(dir) {
+		return nil, notAShard(dir)
+	}
 	f := &Fit{Dir: dir}
 	if f.Run, err = readRun(filepath.Join(dir, "spec.json")); err != nil {
 		return nil, err

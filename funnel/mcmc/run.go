@@ -16,7 +16,8 @@ import (
 
 // Recorder receives progress from the chains. Record is called after every
 // iteration of every chain, from that chain's goroutine, so implementations
-// must be safe for concurrent use. chain is 0-based; iter counts from 1 to
+// must be safe for concurrent use. chain is the chain's 0-based position in
+// Fit.Chains (its number unless Settings.Only picks chains); iter counts from 1 to
 // Warmup+Draws within the chain; warmup reports whether the iteration was a
 // warm-up iteration. A non-nil error stops the run, and Run returns it.
 type Recorder interface {
@@ -42,6 +43,12 @@ type Settings struct {
 	// MaxTreeDepth caps the trajectory at 2^MaxTreeDepth leapfrog steps.
 	// Zero means 10.
 	MaxTreeDepth int
+	// Only, if not nil, runs just these chains of the Chains (0-based,
+	// increasing, each below Chains); Fit.Chains holds them in this order.
+	// Each keeps the random stream and Init of the same chain in a run of
+	// all Chains, so its draws are bit for bit that chain's: the chains of
+	// one run can be sampled as separate jobs and put together.
+	Only []int
 	// Recorder, if not nil, receives progress after each iteration.
 	Recorder Recorder
 	// Init, if not nil, writes chain's initial unconstrained point into dst
@@ -103,6 +110,13 @@ func (s *Settings) resolved() (Settings, error) {
 		return r, fmt.Errorf("mcmc: target acceptance %v, want in (0, 1)", r.TargetAccept)
 	case r.MaxTreeDepth < 0 || r.MaxTreeDepth > 30:
 		return r, fmt.Errorf("mcmc: max tree depth %d, want in [1, 30]", r.MaxTreeDepth)
+	case r.Only != nil && len(r.Only) == 0:
+		return r, errors.New("mcmc: Only lists no chain")
+	}
+	for i, c := range r.Only {
+		if c < 0 || c >= r.Chains || i > 0 && c <= r.Only[i-1] {
+			return r, fmt.Errorf("mcmc: Only = %v, want increasing chains from 0 to %d", r.Only, r.Chains-1)
+		}
 	}
 	return r, nil
 }
@@ -208,21 +222,28 @@ func Run(ctx context.Context, t Target, s *Settings) (*Fit, error) {
 	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
-	fit := &Fit{Names: append([]string(nil), names...), Chains: make([]Chain, set.Chains)}
-	errs := make([]error, set.Chains)
+	chains := set.Only
+	if chains == nil {
+		chains = make([]int, set.Chains)
+		for c := range chains {
+			chains[c] = c
+		}
+	}
+	fit := &Fit{Names: append([]string(nil), names...), Chains: make([]Chain, len(chains))}
+	errs := make([]error, len(chains))
 	var wg sync.WaitGroup
-	for c := range set.Chains {
+	for i, c := range chains {
 		tc := t.Clone()
 		wg.Add(1)
 		go func() {
 			defer wg.Done()
-			ch, err := runChain(ctx, tc, c, &set, len(names))
+			ch, err := runChain(ctx, tc, c, i, &set, len(names))
 			if err != nil {
-				errs[c] = err
+				errs[i] = err
 				cancel()
 				return
 			}
-			fit.Chains[c] = ch
+			fit.Chains[i] = ch
 		}()
 	}
 	wg.Wait()
@@ -242,8 +263,9 @@ func Run(ctx context.Context, t Target, s *Settings) (*Fit, error) {
 	return fit, nil
 }
 
-// runChain runs chain c (0-based) of set on t.
-func runChain(ctx context.Context, t Target, c int, set *Settings, nNames int) (Chain, error) {
+// runChain runs chain c (0-based) of set on t; pos is its position in the
+// Fit, for the Recorder.
+func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames int) (Chain, error) {
 	rng := rand.New(rand.NewPCG(set.Seed, uint64(c)))
 	dim := t.Dim()
 	s := newNUTS(t, rng, set.MaxTreeDepth)
@@ -303,7 +325,7 @@ func runChain(ctx context.Context, t Target, c int, set *Settings, nNames int) (
 			da.Restart()
 		}
 		if set.Recorder != nil {
-			if err := set.Recorder.Record(c, it+1, true); err != nil {
+			if err := set.Recorder.Record(pos, it+1, true); err != nil {
 				return Chain{}, err
 			}
 		}
@@ -335,7 +357,7 @@ func runChain(ctx context.Context, t Target, c int, set *Settings, nNames int) (
 		energy[it] = s.energy
 		t.Constrain(raw.Data[it*raw.Stride:it*raw.Stride+nNames], s.z.q)
 		if set.Recorder != nil {
-			if err := set.Recorder.Record(c, set.Warmup+it+1, false); err != nil {
+			if err := set.Recorder.Record(pos, set.Warmup+it+1, false); err != nil {
 				return Chain{}, err
 			}
 		}

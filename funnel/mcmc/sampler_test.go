@@ -5,12 +5,15 @@ import (
 	"context"
 	"errors"
 	"math"
+	"reflect"
 	"runtime"
 	"slices"
 	"strings"
+	"sync"
 	"sync/atomic"
 	"testing"
 
+	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/mathext"
 
 	"spillway/funnel/mcmc"
@@ -268,6 +271,71 @@ func TestReproducible(t *testing.T) {
 	if bytes.Equal(a, run(4, 43)) {
 		t.Errorf("draws equal for seeds 42 and 43")
 	}
+}
+
+// TestOnlySomeChains runs chains of a four-chain run as separate runs
+// (Settings.Only) and requires each chain's draws and sampler statistics,
+// timings aside, to be bit for bit those of the same chain in the whole
+// run; the Recorder sees positions in the Fit.
+func TestOnlySomeChains(t *testing.T) {
+	set := mcmc.Settings{Chains: 4, Seed: 7, Warmup: 150, Draws: 100}
+	whole, err := mcmc.Run(context.Background(), correlated2{1, 3, 0.9}, &set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, only := range [][]int{{0}, {2}, {3}, {1, 3}} {
+		s := set
+		s.Only = only
+		rec := &countRecorder{}
+		s.Recorder = rec
+		part, err := mcmc.Run(context.Background(), correlated2{1, 3, 0.9}, &s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(part.Chains) != len(only) {
+			t.Fatalf("Only %v: %d chains", only, len(part.Chains))
+		}
+		for i, c := range only {
+			got, want := part.Chains[i], whole.Chains[c]
+			if !mat.Equal(got.Draws, want.Draws) {
+				t.Errorf("Only %v: chain %d's draws differ from the whole run's", only, c)
+			}
+			gs, ws := got.Stats, want.Stats
+			gs.WarmupSeconds, gs.SamplingSeconds, ws.WarmupSeconds, ws.SamplingSeconds = 0, 0, 0, 0
+			if !reflect.DeepEqual(gs, ws) {
+				t.Errorf("Only %v: chain %d's statistics %+v, whole run's %+v", only, c, gs, ws)
+			}
+		}
+		if max := rec.maxChain(); max != len(only)-1 {
+			t.Errorf("Only %v: Recorder saw chain positions up to %d", only, max)
+		}
+	}
+	for _, only := range [][]int{{}, {4}, {-1}, {2, 1}, {1, 1}} {
+		s := set
+		s.Only = only
+		if _, err := mcmc.Run(context.Background(), correlated2{1, 3, 0.9}, &s); err == nil {
+			t.Errorf("Only %v: got nil error", only)
+		}
+	}
+}
+
+// countRecorder remembers the largest chain position it was given.
+type countRecorder struct {
+	mu  sync.Mutex
+	max int
+}
+
+func (r *countRecorder) Record(chain, iter int, warmup bool) error {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	r.max = max(r.max, chain)
+	return nil
+}
+
+func (r *countRecorder) maxChain() int {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	return r.max
 }
 
 // TestDrawsRoundTrip writes and reads a fit: names, shape and every value

@@ -41,27 +41,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 		return nil, err
 	}
 	f := &Fitted{Data: sc, Stages: st, Tests: tests}
-	joint := []*model.Stage{st[0]}
-	for _, t := range tests {
-		if t.Metric == model.LiftOutcome {
-			joint = append(joint, st[1])
-			break
-		}
-	}
-	if len(o.Returns) > 0 && len(joint) == 1 {
-		joint = append(joint, st[1]) // a return prior ties alpha to gamma and delta
-	}
-	for _, t := range tests {
-		f.Lifts = append(f.Lifts, t.Term(sc, 0, 1))
-	}
-	cross := make([]model.CrossTerm, len(f.Lifts))
-	for i, l := range f.Lifts {
-		cross[i] = l
-	}
-	for _, r := range o.Returns {
-		cross = append(cross, r.Term(0, 1))
-	}
-	j, err := model.NewJoint(joint, cross...)
+	joint, j, err := bindLifts(f, o)
 	if err != nil {
 		return nil, err
 	}
@@ -90,6 +70,56 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 			return nil, fmt.Errorf("%s stage: %w", st[k].Name, err)
 		}
 		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, st[k].Name); err != nil {
+			return nil, err
+		}
+	}
+	return f, nil
+}
+
+// bindLifts sets f.Lifts, the terms of f.Tests in the likelihood, bound
+// to f's stages in the joint target they are sampled in: the demand stage,
+// and the outcome stage too when a test of the outcome ties them. It
+// returns the stages of that target and the target.
+func bindLifts(f *Fitted, o model.Options) ([]*model.Stage, *model.Joint, error) {
+	st := f.Stages
+	joint := []*model.Stage{st[0]}
+	for _, t := range f.Tests {
+		if t.Metric == model.LiftOutcome {
+			joint = append(joint, st[1])
+			break
+		}
+	}
+	if len(o.Returns) > 0 && len(joint) == 1 {
+		joint = append(joint, st[1]) // a return prior ties alpha to gamma and delta
+	}
+	f.Lifts = nil
+	for _, t := range f.Tests {
+		f.Lifts = append(f.Lifts, t.Term(f.Data, 0, 1))
+	}
+	cross := make([]model.CrossTerm, len(f.Lifts))
+	for i, l := range f.Lifts {
+		cross[i] = l
+	}
+	for _, r := range o.Returns {
+		cross = append(cross, r.Term(0, 1))
+	}
+	j, err := model.NewJoint(joint, cross...)
+	return joint, j, err
+}
+
+// Assemble is the Fitted of fits sampled elsewhere, such as the chains of
+// one fit sampled as separate jobs and put together: the stages of sc and
+// o, the lift tests' terms, and the fits and wall times as given. Given the
+// same chains, it equals what FitLifts returned.
+func Assemble(sc *model.Scaled, o model.Options, tests []lifts.Test, fits [3]*mcmc.Fit, wall [3]float64) (*Fitted, error) {
+	st, err := Stages(sc, o)
+	if err != nil {
+		return nil, err
+	}
+	f := &Fitted{Data: sc, Stages: st, Fits: fits, Wall: wall}
+	if len(tests) > 0 || len(o.Returns) > 0 {
+		f.Tests = tests
+		if _, _, err := bindLifts(f, o); err != nil {
 			return nil, err
 		}
 	}

@@ -73,32 +73,44 @@ func (s *Support) Note() string {
 	return fmt.Sprintf("the leave-one-out estimate is unreliable for %d week(s) (Pareto k > 0.7): an influential week; read the support check with care", n)
 }
 
-// CheckSupport fits the baseline stage (seed s.Seed + 3, after the three
-// stages of Fit, so the fit's draws are unchanged) and compares it with the
-// fitted outcome stage by PSIS-LOO.
+// CheckSupport fits the baseline stage (FitBaseline) and compares it with
+// the fitted outcome stage (CompareSupport).
 func CheckSupport(ctx context.Context, f *Fitted, o model.Options, s mcmc.Settings) (*Support, error) {
-	base, err := model.Baseline(f.Data, o)
+	base, bf, err := FitBaseline(ctx, f.Data, o, s)
 	if err != nil {
 		return nil, err
 	}
+	return CompareSupport(f, base, bf), nil
+}
+
+// FitBaseline fits the baseline stage, the outcome stage without any media
+// term, with seed s.Seed + 3 (after the three stages of Fit, so the fit's
+// draws are unchanged) and the chains s asks for.
+func FitBaseline(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings) (*model.Stage, *mcmc.Fit, error) {
+	base, err := model.Baseline(sc, o)
+	if err != nil {
+		return nil, nil, err
+	}
 	tg, err := base.Target()
 	if err != nil {
-		return nil, fmt.Errorf("baseline stage: %w", err)
+		return nil, nil, fmt.Errorf("baseline stage: %w", err)
 	}
-	set := s
-	set.Seed = s.Seed + 3
+	set := settings(s, 3)
 	set.Recorder = nil
-	if set.TargetAccept == 0 {
-		set.TargetAccept = DefaultTargetAccept
-	}
 	bf, err := mcmc.Run(ctx, tg, &set)
 	if err != nil {
-		return nil, fmt.Errorf("baseline stage: %w", err)
+		return nil, nil, fmt.Errorf("baseline stage: %w", err)
 	}
+	return base, bf, nil
+}
+
+// CompareSupport compares the fitted outcome stage with the baseline stage
+// base and its fit bf by PSIS-LOO.
+func CompareSupport(f *Fitted, base *model.Stage, bf *mcmc.Fit) *Support {
 	out := &Support{Outcome: PSISOf(f.Stages[1], f.Fits[1]), Baseline: PSISOf(base, bf)}
 	out.Diff, out.SE = loo.Compare(out.Outcome, out.Baseline)
 	out.Weeks = len(out.Outcome.Pointwise)
-	return out, nil
+	return out
 }
 
 // PSISOf returns the PSIS-LOO estimate of a stage from its fit.
