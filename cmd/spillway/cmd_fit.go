@@ -253,7 +253,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	}
 	fs.Command = rerunCommand(verb, fs, opts.out)
 	set := mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
-	fitted, err := pipeline.FitLifts(ctx, sc, o, tests, set, progressHook(ctx, opts, stderr))
+	hook := progressHook(ctx, opts, stderr)
+	fitted, err := pipeline.FitLifts(ctx, sc, o, tests, set, hook)
 	if err != nil {
 		return nil, err
 	}
@@ -267,7 +268,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if err != nil {
 		return nil, err
 	}
-	liftChecks, err := driftFiles(files, fitted, liftBytes)
+	liftChecks, err := driftFiles(ctx, files, fitted, liftBytes, hook)
 	if err != nil {
 		return nil, err
 	}

@@ -27,6 +27,12 @@ type Fit struct {
 	// Plan is the budget plan `spillway allocate` wrote into the folder
 	// (plan.csv, plan_weekly.csv, plan.json); nil when there is none.
 	Plan *Plan
+	// Drift is drift.csv (each drifting coefficient's weekly multiplier)
+	// and Lifts lifts.csv (each lift test beside the model), read by Load
+	// when the fit had drifting channels or lift tests; nil otherwise.
+	Drift       []Drift
+	DriftChange []DriftChange // drift_change.csv, with Drift
+	Lifts       []Lift
 }
 
 // Open reads what a fit folder needs to be refitted or split: spec.json,
@@ -107,6 +113,19 @@ func Load(dir string) (*Fit, error) {
 	}
 	if HasPlan(dir) {
 		if f.Plan, err = ReadPlan(dir); err != nil {
+			return nil, err
+		}
+	}
+	if len(f.Run.Drift) > 0 {
+		if f.Drift, err = readDrift(filepath.Join(dir, DriftFileName), f.Run); err != nil {
+			return nil, err
+		}
+		if f.DriftChange, err = readDriftChange(filepath.Join(dir, DriftChangeFileName), f.Run); err != nil {
+			return nil, err
+		}
+	}
+	if f.Run.Lifts != "" {
+		if f.Lifts, err = readLifts(filepath.Join(dir, LiftsFileName), f.Run); err != nil {
 			return nil, err
 		}
 	}
