@@ -27,6 +27,7 @@ var builders = map[string]func(*review) (*Figure, error){
 	"fit":         (*review).fit,
 	"sensitivity": (*review).sensitivity,
 	"diagnostics": (*review).diagnostics,
+	DriftName:     (*review).drift,
 }
 
 // review is what every chart needs: the fit, the window under review and
@@ -56,8 +57,9 @@ func Build(f *fitfolder.Fit, window string) ([]*Figure, error) {
 	if err != nil {
 		return nil, err
 	}
-	figs := make([]*Figure, 0, len(Names))
-	for _, n := range Names {
+	names := NamesFor(f)
+	figs := make([]*Figure, 0, len(names))
+	for _, n := range names {
 		fig, err := builders[n](r)
 		if err != nil {
 			return nil, fmt.Errorf("chart %s: %w", n, err)

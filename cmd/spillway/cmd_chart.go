@@ -128,7 +128,7 @@ func runChart(ctx context.Context, o *reviewOptions, args []string, stdout, stde
 		return usagef("cannot write charts into %s: it is a file", out)
 	}
 	if !o.force {
-		for _, n := range plots.Names {
+		for _, n := range plots.NamesFor(f) {
 			if p := filepath.Join(out, n+".png"); reviewOutputExists(p) {
 				return usagef("%s already exists; use --force to replace the charts", p)
 			}
@@ -143,13 +143,13 @@ func runChart(ctx context.Context, o *reviewOptions, args []string, stdout, stde
 		return err
 	}
 	files := make(map[string][]byte, len(pngs))
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesFor(f) {
 		files[base+"/"+n+".png"] = pngs[n]
 	}
 	if err := updateInPlace(parent, files); err != nil {
 		return err
 	}
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesFor(f) {
 		fmt.Fprintln(stdout, filepath.Join(out, n+".png"))
 	}
 	return nil

@@ -132,6 +132,9 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	}
 	f := od.fit.Fit
 	f.Split = s.Split
+	if err := f.ReadDrift(od.Path()); err != nil {
+		return err
+	}
 	f.Dir = od.Final()
 	if o.allocate {
 		fmt.Fprintln(stdout)
@@ -157,7 +160,7 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 	if err != nil {
 		return err
 	}
-	for _, n := range plots.Names {
+	for _, n := range plots.NamesFor(f) {
 		if err := od.WriteFile("charts/"+n+".png", pngs[n]); err != nil {
 			return err
 		}

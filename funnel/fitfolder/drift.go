@@ -3,6 +3,7 @@ package fitfolder
 import (
 	"fmt"
 	"math"
+	"path/filepath"
 	"time"
 
 	"spillway/funnel/table"
@@ -213,6 +214,28 @@ func (r Run) channelOf(col string) (ok, search bool) {
 		}
 	}
 	return false, false
+}
+
+// ReadDrift reads into f what a fit with drifting coefficients or lift
+// tests writes besides the fit folder (drift.csv, drift_change.csv,
+// lifts.csv) from folder dir, as f.Run says the fit had them; Load calls
+// it, and run calls it on its folder before the charts.
+func (f *Fit) ReadDrift(dir string) error {
+	var err error
+	if len(f.Run.Drift) > 0 {
+		if f.Drift, err = readDrift(filepath.Join(dir, DriftFileName), f.Run); err != nil {
+			return err
+		}
+		if f.DriftChange, err = readDriftChange(filepath.Join(dir, DriftChangeFileName), f.Run); err != nil {
+			return err
+		}
+	}
+	if f.Run.Lifts != "" {
+		if f.Lifts, err = readLifts(filepath.Join(dir, LiftsFileName), f.Run); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // readDrift reads drift.csv: every row a spend column of the fit on a path

@@ -116,18 +116,8 @@ func Load(dir string) (*Fit, error) {
 			return nil, err
 		}
 	}
-	if len(f.Run.Drift) > 0 {
-		if f.Drift, err = readDrift(filepath.Join(dir, DriftFileName), f.Run); err != nil {
-			return nil, err
-		}
-		if f.DriftChange, err = readDriftChange(filepath.Join(dir, DriftChangeFileName), f.Run); err != nil {
-			return nil, err
-		}
-	}
-	if f.Run.Lifts != "" {
-		if f.Lifts, err = readLifts(filepath.Join(dir, LiftsFileName), f.Run); err != nil {
-			return nil, err
-		}
+	if err := f.ReadDrift(dir); err != nil {
+		return nil, err
 	}
 	return f, nil
 }
