@@ -34,6 +34,13 @@ func FitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 	return fitLifts(ctx, sc, o, tests, s, hook, true)
 }
 
+// FitStages is FitLifts without the naive stage (Fits[2] is nil): the
+// demand and outcome stages with the lift tests, for refits that need only
+// the two (validation).
+func FitStages(ctx context.Context, sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook) (*Fitted, error) {
+	return fitLifts(ctx, sc, o, tests, s, hook, false)
+}
+
 // fitLifts is FitLifts with or without the naive stage (Fits[2] nil
 // without), with or without tests.
 func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook, naive bool) (*Fitted, error) {
