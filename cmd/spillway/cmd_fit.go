@@ -136,16 +136,20 @@ adds which effects the data cannot tell from zero or from the prior.
 Regional data are fitted as their national sum.
 
 With --drift, the named channels' effectiveness may change over time: each
-coefficient is multiplied by a smooth function of the week that averages 1
-over the data, its smoothness learned; FOLDER/drift.csv holds each weekly
-multiplier with its 90% interval. --baseline smooth puts a smooth function
+coefficient is multiplied by a smooth function of the week whose logarithm
+averages 0 over the data, its smoothness learned (the cross-check refit
+without the query term does not drift); FOLDER/drift.csv holds each weekly
+multiplier with its 90% interval and FOLDER/drift_change.csv the last full
+quarter's against the first's. --baseline smooth puts a smooth function
 of time in place of the trend line. --lifts FILE adds lift tests as data
 (channel,start,end,estimate,se and optionally metric, outcome or queries):
 removing the channel's spend from start to end (week start dates) lowered
 the metric summed over those weeks by estimate; an outcome test ties the
 two stages, which are then fitted as one. FOLDER/lifts.csv puts each test
-beside the model's posterior, and a line on standard output names any test
-the rest of the data contradict.
+beside the model's posterior and checks it against the rest of the data
+(the test left out by reweighting the draws, or by a refit without it when
+that is unreliable); a line on standard output names any test the rest of
+the data contradict.
 
 EXAMPLE
   spillway fit --data sales.csv --date week --upper video,audio --search search \
