@@ -243,7 +243,7 @@ func quarterly(t *testing.T, label string, f *Fitted, tm truthModel) (in, n int,
 // the divergences over the fits.
 func converged(f *Fitted) (rhat, ess float64, div int) {
 	ess = math.Inf(1)
-	for _, fit := range f.Fits {
+	for k, fit := range f.Fits {
 		if fit == nil {
 			continue
 		}
@@ -253,6 +253,9 @@ func converged(f *Fitted) (rhat, ess float64, div int) {
 			}
 			rhat = math.Max(rhat, s.Rhat)
 			ess = math.Min(ess, math.Min(s.ESSBulk, s.ESSTail))
+		}
+		if k == 1 && f.Wall[1] == 0 {
+			continue // the joint fit's second stage: the same chains, counted with the first
 		}
 		for _, c := range fit.Chains {
 			div += c.Stats.Divergences

@@ -311,6 +311,7 @@ func predictive(t lifts.Test, draws, w []float64) (mean, sd, z, p float64) {
 	}
 	sd = math.Sqrt(v)
 	z = (t.Estimate - m) / math.Sqrt(v+t.SE*t.SE)
-	p = 2 * math.Min(F, 1-F)
-	return m, sd, z, math.Min(p, 1)
+	// clamped: the weights' sum can miss 1 in the last bits
+	p = math.Max(0, math.Min(1, 2*math.Min(F, 1-F)))
+	return m, sd, z, p
 }
