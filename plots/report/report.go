@@ -154,14 +154,14 @@ var pathLabels = map[string]string{
 
 // chartTitles describes each chart for its heading and alt text.
 var chartTitles = map[string][2]string{
-	"split":         {"Direct and via-search effect of each upper-funnel channel", "Stacked bars of direct and via-search incremental outcome per upper-funnel channel, for the review window and the whole period, with 90% intervals."},
-	"borrowed":      {"Demand paid search borrows from the upper funnel", "Horizontal bars of paid search's apparent and controlled incremental outcome, the borrowed share, and the refit without queries as a cross-check."},
-	"curves":        {"Response curves", "Weekly incremental outcome against weekly spend for each upper-funnel channel, direct, via search and total, with 90% bands and the current spend marked."},
-	"weekly":        {"Weekly contributions", "Weekly direct and via-search contributions of each channel over time, with 90% bands and the review window shaded."},
-	"fit":           {"Fit against actuals", "Actual and fitted weekly branded queries and outcome with the 90% predictive band."},
-	"sensitivity":   {"Sensitivity to an unmeasured common cause", "Via-search effect against the assumed error correlation rho, with its 90% band, the zero line and the rho at which it reaches zero."},
-	"diagnostics":   {"Convergence checks", "R-hat and effective sample size of every parameter against the thresholds 1.01 and 400."},
-	plots.DriftName: {"Effectiveness over time", "Each drifting channel's multiplier on each path by week with its 90% band and the line at its average, and the lift tests drawn across their weeks as the multipliers they imply."},
+	"split":       {"Direct and via-search effect of each upper-funnel channel", "Stacked bars of direct and via-search incremental outcome per upper-funnel channel, for the review window and the whole period, with 90% intervals."},
+	"borrowed":    {"Demand paid search borrows from the upper funnel", "Horizontal bars of paid search's apparent and controlled incremental outcome, the borrowed share, and the refit without queries as a cross-check."},
+	"curves":      {"Response curves", "Weekly incremental outcome against weekly spend for each upper-funnel channel, direct, via search and total, with 90% bands and the current spend marked."},
+	"weekly":      {"Weekly contributions", "Weekly direct and via-search contributions of each channel over time, with 90% bands and the review window shaded."},
+	"fit":         {"Fit against actuals", "Actual and fitted weekly branded queries and outcome with the 90% predictive band."},
+	"sensitivity": {"Sensitivity to an unmeasured common cause", "Via-search effect against the assumed error correlation rho, with its 90% band, the zero line and the rho at which it reaches zero."},
+	"diagnostics": {"Convergence checks", "R-hat and effective sample size of every parameter against the thresholds 1.01 and 400."},
+	"drift":       {"Effectiveness over time", "Each drifting channel's multiplier on each path by week with its 90% band and the line at its average, and the lift tests drawn across their weeks as the multipliers they imply."}, // plots.DriftName
 }
 
 // perScale chooses how per-unit-spend values are shown: per unit, or per
