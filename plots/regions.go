@@ -16,14 +16,18 @@ import (
 )
 
 // NamesOf lists the charts Build makes for f, in the order the report shows
-// them: Names, and "regions" after "split" when f is a panel of regions
-// (its split holds the region tables).
+// them: Names, "regions" after "split" when f is a panel of regions (its
+// split holds the region tables), and DriftName last when the fit has
+// drifting coefficients (drift.csv).
 func NamesOf(f *fitfolder.Fit) []string {
-	if !f.HasRegions() {
-		return Names
-	}
 	out := slices.Clone(Names)
-	return slices.Insert(out, slices.Index(out, "split")+1, "regions")
+	if f.HasRegions() {
+		out = slices.Insert(out, slices.Index(out, "split")+1, "regions")
+	}
+	if len(f.Drift) > 0 {
+		out = append(out, DriftName)
+	}
+	return out
 }
 
 // ClearProbability is the posterior probability above which a region's

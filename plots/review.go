@@ -29,6 +29,7 @@ var builders = map[string]func(*review) (*Figure, error){
 	"sensitivity": (*review).sensitivity,
 	"diagnostics": (*review).diagnostics,
 	"regions":     (*review).regions,
+	DriftName:     (*review).drift,
 }
 
 // review is what every chart needs: the fit, the window under review and

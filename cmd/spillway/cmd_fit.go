@@ -141,16 +141,20 @@ Regional data are fitted as their national sum; --national says so
 explicitly and is recorded in spec.json.
 
 With --drift, the named channels' effectiveness may change over time: each
-coefficient is multiplied by a smooth function of the week that averages 1
-over the data, its smoothness learned; FOLDER/drift.csv holds each weekly
-multiplier with its 90% interval. --baseline smooth puts a smooth function
+coefficient is multiplied by a smooth function of the week whose logarithm
+averages 0 over the data, its smoothness learned (the cross-check refit
+without the query term does not drift); FOLDER/drift.csv holds each weekly
+multiplier with its 90% interval and FOLDER/drift_change.csv the last full
+quarter's against the first's. --baseline smooth puts a smooth function
 of time in place of the trend line. --lifts FILE adds lift tests as data
 (channel,start,end,estimate,se and optionally metric, outcome or queries):
 removing the channel's spend from start to end (week start dates) lowered
 the metric summed over those weeks by estimate; an outcome test ties the
 two stages, which are then fitted as one. FOLDER/lifts.csv puts each test
-beside the model's posterior, and a line on standard output names any test
-the rest of the data contradict.
+beside the model's posterior and checks it against the rest of the data
+(the test left out by reweighting the draws, or by a refit without it when
+that is unreliable); a line on standard output names any test the rest of
+the data contradict.
 
 A --priors file with the header parameter,family,p1,p2,window,per also takes
 priors on returns: return[COL] (incremental outcome per PER of spend in
@@ -246,7 +250,8 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		return nil, err
 	}
 	p.set.Only = only
-	fitted, err := pipeline.FitLifts(ctx, p.sc, p.o, p.tests, p.set, progressHook(ctx, opts, len(only), stderr))
+	hook := progressHook(ctx, opts, len(only), stderr)
+	fitted, err := pipeline.FitLifts(ctx, p.sc, p.o, p.tests, p.set, hook)
 	if err != nil {
 		return nil, err
 	}
@@ -257,7 +262,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	if only != nil {
 		return writeShard(od, p, fitted, bf, review, stdout)
 	}
-	ff, err := finishFit(od, p, fitted, base, bf, stdout, stderr)
+	ff, err := finishFit(ctx, od, p, fitted, base, bf, hook, stdout, stderr)
 	if err != nil {
 		return nil, err
 	}
@@ -343,7 +348,7 @@ func rerunVerb(r *fitfolder.Run) string {
 // finishFit writes the fit folder of a fit whose chains are all sampled
 // (fitted, and the support check's baseline stage base with its fit bf)
 // into od, prints the summary and returns the fit with its model.
-func finishFit(od *outDir, p *fitPlan, fitted *pipeline.Fitted, base *model.Stage, bf *mcmc.Fit, stdout, stderr io.Writer) (*fitFolder, error) {
+func finishFit(ctx context.Context, od *outDir, p *fitPlan, fitted *pipeline.Fitted, base *model.Stage, bf *mcmc.Fit, hook pipeline.StageHook, stdout, stderr io.Writer) (*fitFolder, error) {
 	f, reps := newFit(p.run, p.ds, p.priorBytes, fitted)
 	sup := pipeline.CompareSupport(fitted, base, bf)
 	addSupport(&f.Verdict, sup)
@@ -351,7 +356,7 @@ func finishFit(od *outDir, p *fitPlan, fitted *pipeline.Fitted, base *model.Stag
 	if err != nil {
 		return nil, err
 	}
-	liftChecks, err := driftFiles(files, fitted, p.liftBytes)
+	liftChecks, err := driftFiles(ctx, files, fitted, p.liftBytes, hook)
 	if err != nil {
 		return nil, err
 	}

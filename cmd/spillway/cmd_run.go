@@ -157,6 +157,9 @@ func finishRun(ctx context.Context, od *fitRun, o *fitfolder.Review, stdout, std
 	}
 	f := od.fit.Fit
 	f.Split = s.Split
+	if err := f.ReadDrift(od.Path()); err != nil {
+		return err
+	}
 	f.Dir = od.Final()
 	if o.Allocate {
 		fmt.Fprintln(stdout)

@@ -17,6 +17,8 @@ import (
 	"golang.org/x/term"
 
 	"spillway/funnel/data"
+	"spillway/funnel/fitfolder"
+	"spillway/funnel/lifts"
 	"spillway/funnel/model"
 	"spillway/funnel/scenario"
 	"spillway/funnel/validate"
@@ -55,6 +57,7 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 	fs.BoolVar(&o.merge, "merge", false, "merge the shard folders given as arguments into --out")
 	o.sampling.addFlagsWith(fs, samplingDefaults{validate.DefaultChains, validate.DefaultWarmup, validate.DefaultDraws,
 		"random seed of the sweep; every job's seed derives from it and the job's number", "chains per refit", "iterations per chain of each refit"})
+	fs.StringVar(&o.sampling.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data in every refit (each fit takes the tests of the weeks it fits; recovery simulates them)")
 }
 
 // newValidateCommand builds spillway validate.
@@ -172,10 +175,10 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 			return usagef("--shard: %v", err)
 		}
 	}
-	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0 || len(o.sampling.drift) > 0 || o.sampling.baseline != "") {
-		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors, --linear, --drift and --baseline")
+	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0 || len(o.sampling.drift) > 0 || o.sampling.baseline != "" || o.sampling.lifts != "") {
+		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors, --linear, --drift, --baseline and --lifts")
 	}
-	od, err := newOutDir(o.sampling.out, o.sampling.force, append(o.roles.inputs(), o.sampling.priors, o.truth, o.fitDir)...)
+	od, err := newOutDir(o.sampling.out, o.sampling.force, append(o.roles.inputs(), o.sampling.priors, o.truth, o.fitDir, o.sampling.lifts)...)
 	if err != nil {
 		return err
 	}
@@ -183,6 +186,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	dropNote(stderr, od)
 
 	in := validate.Input{Tool: "spillway " + spillwayVersion()}
+	liftFile := o.sampling.lifts
 	var ds *data.Dataset
 	switch {
 	case o.fitDir != "":
@@ -193,6 +197,9 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		ds = ff.Data.Dataset
 		in.Options = ff.options
 		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}
+		if ff.Run.Lifts != "" {
+			liftFile = filepath.Join(o.fitDir, fitfolder.LiftTestsFile)
+		}
 	case o.roles.given():
 		if ds, err = o.roles.load(); err != nil {
 			return err
@@ -209,6 +216,11 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		fmt.Fprintf(stderr, "spillway: note: %d regions are validated as their national sum\n", len(ds.Regions))
 	}
 	in.Series, in.Spec = ds.National(), ds.Spec
+	if liftFile != "" {
+		if in.Lifts, err = lifts.Load(liftFile, ds); err != nil {
+			return err
+		}
+	}
 	if o.fitDir == "" {
 		if in.Options, err = modelOptions(model.Scale(ds.National(), ds.Spec), &o.sampling); err != nil {
 			return err

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"context"
 	"fmt"
 	"io"
 	"time"
@@ -12,9 +13,12 @@ import (
 // driftFiles adds to files what a fit with drifting effectiveness or lift
 // tests writes besides the fit folder: drift.csv (each drifting
 // coefficient's weekly multiplier), lifts.csv (each lift test beside the
-// model's posterior of the same quantity) and the copy of the lift-test
-// file. It returns the lift tests' checks.
-func driftFiles(files map[string][]byte, f *pipeline.Fitted, liftFile []byte) ([]pipeline.LiftCheck, error) {
+// model's posterior of the same quantity), drift_change.csv (whether
+// effectiveness changed from the first full quarter to the last) and the
+// copy of the lift-test file. It returns the lift tests' checks (a test the fit's draws cannot
+// leave out reliably is checked by a refit without it: hook shows its
+// progress).
+func driftFiles(ctx context.Context, files map[string][]byte, f *pipeline.Fitted, liftFile []byte, hook pipeline.StageHook) ([]pipeline.LiftCheck, error) {
 	if d := f.Drifts(); len(d) > 0 {
 		rows := make([]fitfolder.Drift, len(d))
 		for i, w := range d {
@@ -24,23 +28,35 @@ func driftFiles(files map[string][]byte, f *pipeline.Fitted, liftFile []byte) ([
 		if err != nil {
 			return nil, fmt.Errorf("drift.csv: %w", err)
 		}
-		files["drift.csv"] = b
+		files[fitfolder.DriftFileName] = b
+		ch := f.DriftChanges()
+		crow := make([]fitfolder.DriftChange, len(ch))
+		for i, c := range ch {
+			crow[i] = fitfolder.DriftChange{Channel: c.Channel, Path: c.Path, First: c.First, Last: c.Last, Mean: c.Mean, Q05: c.Q05, Q95: c.Q95,
+				Up: c.Up, Down: c.Down, Peak: c.Peak, Trough: c.Trough, PeakMean: c.PeakMean, TroughMean: c.TroughMean}
+		}
+		if files[fitfolder.DriftChangeFileName], err = fitfolder.DriftChangeFile(crow); err != nil {
+			return nil, fmt.Errorf("%s: %w", fitfolder.DriftChangeFileName, err)
+		}
 	}
 	if len(f.Tests) == 0 {
 		return nil, nil
 	}
-	checks := f.LiftChecks()
+	checks, err := f.CheckLifts(ctx, hook)
+	if err != nil {
+		return nil, err
+	}
 	rows := make([]fitfolder.Lift, len(checks))
 	for i, c := range checks {
 		t := c.Test
 		rows[i] = fitfolder.Lift{Channel: t.Channel, Metric: t.Metric.String(), Start: t.Start, End: t.End, Estimate: t.Estimate, SE: t.SE,
-			Mean: c.Mean, Q05: c.Q05, Q95: c.Q95, RestMean: c.Without, RestSD: c.WithoutSD, Z: c.Z, P: c.P, Verdict: c.Verdict()}
+			Mean: c.Mean, Q05: c.Q05, Q95: c.Q95, RestMean: c.Without, RestSD: c.WithoutSD, ParetoK: c.K, Refit: c.Refit, Z: c.Z, P: c.P, Verdict: c.Verdict()}
 	}
 	b, err := fitfolder.LiftsFile(rows)
 	if err != nil {
 		return nil, fmt.Errorf("lifts.csv: %w", err)
 	}
-	files["lifts.csv"] = b
+	files[fitfolder.LiftsFileName] = b
 	files[fitfolder.LiftTestsFile] = liftFile
 	return checks, nil
 }

@@ -133,7 +133,7 @@ func mergeFit(ctx context.Context, verb string, opts *samplingFlags, args []stri
 	if err != nil {
 		return err
 	}
-	fr, err := mergedFit(od, shards, stdout, stderr)
+	fr, err := mergedFit(ctx, od, shards, opts, stdout, stderr)
 	if err != nil {
 		return err
 	}
@@ -191,12 +191,13 @@ func readShards(verb string, dirs []string) ([]*fitfolder.ShardFolder, error) {
 
 // mergedFit puts the chains of shards (in chain order) together and writes
 // the fit folder into od as the single run of all chains would.
-func mergedFit(od *outDir, shards []*fitfolder.ShardFolder, stdout, stderr io.Writer) (*fitRun, error) {
+func mergedFit(ctx context.Context, od *outDir, shards []*fitfolder.ShardFolder, opts *samplingFlags, stdout, stderr io.Writer) (*fitRun, error) {
 	first := shards[0]
 	m := first.Manifest
 	p := &fitPlan{run: m.Run, ds: first.Data.Dataset, priorBytes: first.Priors, liftBytes: first.LiftTests}
 	p.run.Command = rerunCommand(rerunVerb(&p.run), &p.run, od.Final())
 	p.sc = model.Scale(p.ds.National(), p.ds.Spec)
+	p.set = mcmc.Settings{Chains: m.Run.Chains, Warmup: m.Run.Warmup, Draws: m.Run.Draws, Seed: m.Run.Seed, TargetAccept: m.Run.Accept}
 	c := pipeline.Choices{Linear: m.Run.Linear, Drift: m.Run.Drift, Baseline: m.Run.Baseline}
 	if first.Priors != nil {
 		c.Priors = filepath.Join(first.Dir, "priors.csv")
@@ -221,7 +222,7 @@ func mergedFit(od *outDir, shards []*fitfolder.ShardFolder, stdout, stderr io.Wr
 			wall[k] = max(wall[k], s.Manifest.Stages[k].WallSeconds)
 		}
 	}
-	fitted, err := pipeline.Assemble(p.sc, p.o, p.tests, [3]*mcmc.Fit(fits[:3]), [3]float64(wall[:3]))
+	fitted, err := pipeline.Assemble(p.sc, p.o, p.tests, p.set, [3]*mcmc.Fit(fits[:3]), [3]float64(wall[:3]))
 	if err != nil {
 		return nil, err
 	}
@@ -238,7 +239,7 @@ func mergedFit(od *outDir, shards []*fitfolder.ShardFolder, stdout, stderr io.Wr
 			}
 		}
 	}
-	ff, err := finishFit(od, p, fitted, base, fits[3], stdout, stderr)
+	ff, err := finishFit(ctx, od, p, fitted, base, fits[3], progressHook(ctx, opts, 0, stderr), stdout, stderr)
 	if err != nil {
 		return nil, err
 	}

@@ -27,6 +27,12 @@ type Fit struct {
 	// Plan is the budget plan `spillway allocate` wrote into the folder
 	// (plan.csv, plan_weekly.csv, plan.json); nil when there is none.
 	Plan *Plan
+	// Drift is drift.csv (each drifting coefficient's weekly multiplier)
+	// and Lifts lifts.csv (each lift test beside the model), read by Load
+	// when the fit had drifting channels or lift tests; nil otherwise.
+	Drift       []Drift
+	DriftChange []DriftChange // drift_change.csv, with Drift
+	Lifts       []Lift
 }
 
 // Open reads what a fit folder needs to be refitted or split: spec.json,
@@ -115,6 +121,9 @@ func Load(dir string) (*Fit, error) {
 		if f.Plan, err = ReadPlan(dir); err != nil {
 			return nil, err
 		}
+	}
+	if err := f.ReadDrift(dir); err != nil {
+		return nil, err
 	}
 	return f, nil
 }

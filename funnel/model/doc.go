@@ -20,6 +20,12 @@
 //     when the coefficient is positive. K and S then mostly shape the curve
 //     instead of trading off against the coefficient. With retention and K, S
 //     on logit/log scales, log|J| = log coef + log lam(1-lam) + log K + log S.
+//   - with drifting coefficients, the trend's slope is moved as the total
+//     slope u = b + sum_c coef_c beta_c, beta_c the least-squares slope on
+//     the trend line of what channel c's drift adds to its response
+//     (drift_trend.go): a slow drift of an always-on channel is nearly a
+//     trend of its own, and the two would otherwise trade off along a
+//     curved ridge. b = u - G(the rest) is a shear, Jacobian 1.
 //
 // Terms. A stage's log density is a sum of terms, each with its own forward
 // pass, gradient pass and finite-difference test (terms_test.go):

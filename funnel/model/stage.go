@@ -24,6 +24,9 @@ type Regressor struct {
 	// Default is the support of the default prior; a user prior of another
 	// family may change it (a normal prior frees the sign).
 	Default Support
+	// Trend marks the trend line (X is tau): with drifting coefficients its
+	// slope is sampled as the total slope (drift_trend.go).
+	Trend bool
 }
 
 // Channel is a media term coef * H(adstock(X; lam); K, S), or coef * X[t]
@@ -398,6 +401,15 @@ func (s *Stage) Target() (*Target, error) {
 	}
 	if base != nil {
 		t.terms = append(t.terms, base)
+	}
+	if !s.Plain {
+		for i, r := range s.Regressors {
+			if k := t.terms[i].(*regressorTerm).k; r.Trend && t.par[k].free >= 0 {
+				if sh := newTrendShear(k, r.X, t.terms); len(sh.drift) > 0 {
+					t.shear = sh
+				}
+			}
+		}
 	}
 	t.alloc()
 	return t, nil

@@ -49,7 +49,7 @@ func baseStage(name, suffix string, y []float64, sc *Scaled, o Options) *Stage {
 		b := NewBasis(sc.T, sc.Mask)
 		st.Baseline = &Smooth{Basis: b, Params: smoothParams("base_sd_"+suffix, "base_len_"+suffix, "base_z_"+suffix, PriorBaseSD, b.M)}
 	} else {
-		st.Regressors = append(st.Regressors, Regressor{Name: "b_" + suffix, X: sc.Tau, Prior: PriorTrend, Default: Real})
+		st.Regressors = append(st.Regressors, Regressor{Name: "b_" + suffix, X: sc.Tau, Prior: PriorTrend, Default: Real, Trend: true})
 	}
 	for k, nm := range []string{"c%s[1]", "c%s[2]", "d%s[1]", "d%s[2]"} {
 		st.Regressors = append(st.Regressors, Regressor{Name: fmt.Sprintf(nm, suffix), X: sc.Season[k], Prior: PriorSeason, Default: Real})

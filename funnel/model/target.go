@@ -16,6 +16,7 @@ type Target struct {
 	mu      int
 	sigma   int
 	terms   []predictor // the linear predictor's terms: regressors, then channels
+	shear   *trendShear // the trend's slope sampled as the total slope, with drift; nil otherwise
 	lik     observation // the weekly likelihood
 	centred bool
 	plain   bool
@@ -51,6 +52,9 @@ func (t *Target) clone() *Target {
 	c.terms = make([]predictor, len(t.terms))
 	for i, term := range t.terms {
 		c.terms[i] = term.clone()
+	}
+	if t.shear != nil {
+		c.shear = t.shear.clone(c.terms)
 	}
 	c.alloc()
 	return &c
@@ -91,6 +95,9 @@ func (t *Target) decode(x []float64, grad bool) bool {
 	ok := true
 	for _, term := range t.terms {
 		ok = term.prepare(t.nat, grad) && ok
+	}
+	if t.shear != nil && ok {
+		t.shear.apply(t.nat)
 	}
 	return ok
 }
@@ -142,6 +149,9 @@ func (t *Target) eval(x []float64, grad bool) (float64, bool) {
 		if grad {
 			g[i] += d
 		}
+	}
+	if grad && t.shear != nil {
+		t.shear.backward(g, nat)
 	}
 	return lp, true
 }
@@ -211,6 +221,9 @@ func (t *Target) Unconstrain(dst, v []float64) []float64 {
 	}
 	if p := t.par[t.mu]; p.free >= 0 {
 		dst[p.free] = m0
+	}
+	if t.shear != nil {
+		dst[t.par[t.shear.k].free] += t.shear.at(v)
 	}
 	return dst
 }

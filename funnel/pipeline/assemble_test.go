@@ -68,7 +68,7 @@ func TestChainsAssembled(t *testing.T) {
 		base.Names = bf.Names
 		base.Chains = append(base.Chains, bf.Chains...)
 	}
-	merged, err := Assemble(sc, o, tests, fits, whole.Wall)
+	merged, err := Assemble(sc, o, tests, set, fits, whole.Wall)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -89,7 +89,14 @@ func TestChainsAssembled(t *testing.T) {
 		same(name, whole.Fits[k], merged.Fits[k])
 	}
 	same("baseline", wholeBase, base)
-	a, b := whole.LiftChecks(), merged.LiftChecks()
+	a, err := whole.CheckLifts(ctx, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := merged.CheckLifts(ctx, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
 	// printed, so that NaN (a test the rest of the data cannot check)
 	// equals NaN
 	if fmt.Sprintf("%+v", a) != fmt.Sprintf("%+v", b) || len(a) != 2 || a[0].Mean == 0 {

@@ -5,6 +5,7 @@ import (
 	"time"
 
 	"spillway/funnel/stat"
+	"spillway/funnel/window"
 )
 
 // DriftWeek is the posterior of one drifting coefficient's multiplier
@@ -27,12 +28,18 @@ const (
 	DriftControlled = "controlled"
 )
 
-// Drifts returns every drifting coefficient's weekly multiplier, by
+// driftPath is one drifting coefficient and its multiplier per draw.
+type driftPath struct {
+	col, path string
+	draws     [][]float64 // [draw][week]
+}
+
+// driftPaths returns every drifting coefficient's weekly multipliers, by
 // channel in the data's order (upper funnel via search, then direct, then
-// paid search), week by week; nil when nothing drifts.
-func (f *Fitted) Drifts() []DriftWeek {
+// paid search).
+func (f *Fitted) driftPaths() []driftPath {
 	sc := f.Data
-	var out []DriftWeek
+	var out []driftPath
 	add := func(k int, col, path string) {
 		st := f.Stages[k]
 		j := st.ChannelIndex(col)
@@ -47,6 +54,26 @@ func (f *Fitted) Drifts() []DriftWeek {
 				draws = append(draws, l.View(c.Draws.RawRowView(i)).Multiplier(make([]float64, sc.T), j))
 			}
 		}
+		out = append(out, driftPath{col, path, draws})
+	}
+	for _, col := range sc.UpperNames {
+		add(0, col, DriftViaSearch)
+		add(1, col, DriftDirect)
+	}
+	for _, col := range sc.SearchNames {
+		add(1, col, DriftControlled)
+	}
+	return out
+}
+
+// Drifts returns every drifting coefficient's weekly multiplier, by
+// channel in the data's order (upper funnel via search, then direct, then
+// paid search), week by week; nil when nothing drifts.
+func (f *Fitted) Drifts() []DriftWeek {
+	sc := f.Data
+	var out []DriftWeek
+	for _, dp := range f.driftPaths() {
+		col, path, draws := dp.col, dp.path, dp.draws
 		w := make([]float64, len(draws))
 		for t := 0; t < sc.T; t++ {
 			for d := range draws {
@@ -57,12 +84,84 @@ func (f *Fitted) Drifts() []DriftWeek {
 			out = append(out, DriftWeek{Channel: col, Path: path, Week: sc.Weeks[t], Mean: m, Q05: stat.Quantile(w, 0.05), Q95: stat.Quantile(w, 0.95)})
 		}
 	}
-	for _, col := range sc.UpperNames {
-		add(0, col, DriftViaSearch)
-		add(1, col, DriftDirect)
+	return out
+}
+
+// DriftChange says whether a drifting coefficient's effectiveness changed
+// over the data: its mean multiplier in the last full quarter against the
+// first, per draw.
+type DriftChange struct {
+	Channel, Path string
+	// First and Last name the first and last quarters with at least
+	// FullQuarter weeks of data.
+	First, Last string
+	// Ratio summarises the last quarter's mean multiplier over the first's:
+	// its posterior mean and 90% interval.
+	Mean, Q05, Q95 float64
+	// Up and Down are the posterior probabilities that effectiveness rose
+	// or fell by more than Material (10%) from the first quarter to the
+	// last: P(ratio > 1.1) and P(ratio < 1/1.1).
+	Up, Down float64
+	// Peak and Trough name the quarters with the highest and the lowest
+	// posterior mean multiplier, PeakMean and TroughMean those means.
+	Peak, Trough         string
+	PeakMean, TroughMean float64
+}
+
+// FullQuarter is the fewest weeks of a quarter DriftChanges compares.
+const FullQuarter = 12
+
+// Material is the relative change in effectiveness DriftChange calls
+// material: 10%.
+const Material = 0.1
+
+// DriftChanges returns, for every drifting coefficient, how its
+// effectiveness moved between the first and the last full quarter; nil
+// when nothing drifts or the data hold fewer than two full quarters.
+func (f *Fitted) DriftChanges() []DriftChange {
+	var qs []window.Window
+	for _, q := range window.Quarters(f.Data.Weeks)[1:] {
+		if q.Weeks() >= FullQuarter {
+			qs = append(qs, q)
+		}
 	}
-	for _, col := range sc.SearchNames {
-		add(1, col, DriftControlled)
+	if len(qs) < 2 {
+		return nil
+	}
+	first, last := qs[0], qs[len(qs)-1]
+	mean := func(m []float64, q window.Window) float64 { return stat.Mean(m[q.From : q.To+1]) }
+	var out []DriftChange
+	for _, dp := range f.driftPaths() {
+		c := DriftChange{Channel: dp.col, Path: dp.path, First: first.Name, Last: last.Name}
+		ratio := make([]float64, len(dp.draws))
+		for d, m := range dp.draws {
+			ratio[d] = mean(m, last) / mean(m, first)
+			if ratio[d] > 1+Material {
+				c.Up++
+			}
+			if ratio[d] < 1/(1+Material) {
+				c.Down++
+			}
+		}
+		n := float64(len(ratio))
+		c.Up, c.Down = c.Up/n, c.Down/n
+		c.Mean = stat.Mean(ratio)
+		sort.Float64s(ratio)
+		c.Q05, c.Q95 = stat.Quantile(ratio, 0.05), stat.Quantile(ratio, 0.95)
+		for i, q := range qs {
+			s := 0.0
+			for _, m := range dp.draws {
+				s += mean(m, q)
+			}
+			s /= n
+			if i == 0 || s > c.PeakMean {
+				c.Peak, c.PeakMean = q.Name, s
+			}
+			if i == 0 || s < c.TroughMean {
+				c.Trough, c.TroughMean = q.Name, s
+			}
+		}
+		out = append(out, c)
 	}
 	return out
 }

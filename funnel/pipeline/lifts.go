@@ -11,6 +11,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 
 	"spillway/funnel/lifts"
+	"spillway/funnel/loo"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/stat"
@@ -33,6 +34,13 @@ func FitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 	return fitLifts(ctx, sc, o, tests, s, hook, true)
 }
 
+// FitStages is FitLifts without the naive stage (Fits[2] is nil): the
+// demand and outcome stages with the lift tests, for refits that need only
+// the two (validation).
+func FitStages(ctx context.Context, sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook) (*Fitted, error) {
+	return fitLifts(ctx, sc, o, tests, s, hook, false)
+}
+
 // fitLifts is FitLifts with or without the naive stage (Fits[2] nil
 // without), with or without tests.
 func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook, naive bool) (*Fitted, error) {
@@ -40,7 +48,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 	if err != nil {
 		return nil, err
 	}
-	f := &Fitted{Data: sc, Stages: st, Tests: tests}
+	f := &Fitted{Data: sc, Stages: st, Tests: tests, options: o, settings: s}
 	joint, j, err := bindLifts(f, o)
 	if err != nil {
 		return nil, err
@@ -110,13 +118,14 @@ func bindLifts(f *Fitted, o model.Options) ([]*model.Stage, *model.Joint, error)
 // Assemble is the Fitted of fits sampled elsewhere, such as the chains of
 // one fit sampled as separate jobs and put together: the stages of sc and
 // o, the lift tests' terms, and the fits and wall times as given. Given the
-// same chains, it equals what FitLifts returned.
-func Assemble(sc *model.Scaled, o model.Options, tests []lifts.Test, fits [3]*mcmc.Fit, wall [3]float64) (*Fitted, error) {
+// same chains, it equals what FitLifts returned with settings s (which a
+// lift test's refit without it, CheckLifts, reuses).
+func Assemble(sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Settings, fits [3]*mcmc.Fit, wall [3]float64) (*Fitted, error) {
 	st, err := Stages(sc, o)
 	if err != nil {
 		return nil, err
 	}
-	f := &Fitted{Data: sc, Stages: st, Fits: fits, Wall: wall}
+	f := &Fitted{Data: sc, Stages: st, Fits: fits, Wall: wall, options: o, settings: s}
 	if len(tests) > 0 || len(o.Returns) > 0 {
 		f.Tests = tests
 		if _, _, err := bindLifts(f, o); err != nil {
@@ -173,15 +182,24 @@ type LiftCheck struct {
 	// Mean, Q05 and Q95 summarise the model's posterior of the lift over
 	// the test's window (the fit includes the test).
 	Mean, Q05, Q95 float64
-	// Without and WithoutSD are the mean and sd the rest of the data (the
-	// other tests included) give the lift, in a normal approximation: the
-	// posterior's normal with this test's likelihood divided out. NaN when
-	// the rest of the data say nothing the test does not.
+	// Without and WithoutSD are the mean and sd of the lift given the rest
+	// of the data (the other tests included): the posterior with this test
+	// left out, by Pareto-smoothed importance sampling of the fit's draws
+	// or, when that is unreliable (K above MaxParetoK), by a refit without
+	// the test (Refit).
 	Without, WithoutSD float64
+	// K is the Pareto shape of the importance ratios that leave the test
+	// out; Refit reports that K was too large and the test was left out by
+	// fitting the model again without it.
+	K     float64
+	Refit bool
 	// Z is (estimate - Without) / sqrt(WithoutSD^2 + se^2), the test's
-	// standardised distance from what the rest of the data predict, and P
-	// its two-sided tail probability: how surprising the test is under the
-	// model. Z is 0 and P 1 when Without is NaN (Verdict says unchecked).
+	// standardised distance from what the rest of the data predict. P is
+	// the two-sided tail probability of the estimate under the posterior
+	// predictive distribution of the test from the rest of the data (the
+	// lift plus the test's own noise, Normal(0, se)): how surprising the
+	// test is under the model. It is computed from the draws, not from a
+	// normal approximation.
 	Z, P float64
 }
 
@@ -189,17 +207,27 @@ type LiftCheck struct {
 // model cannot reconcile with the rest of the data.
 const Unreconciled = 0.01
 
+// MaxParetoK is the Pareto shape above which leaving a test out by
+// importance sampling is unreliable (Vehtari, Simpson, Gelman, Yao and
+// Gabry 2024, "Pareto smoothed importance sampling", JMLR 25, section 3.2):
+// the test is then left out by a refit.
+const MaxParetoK = 0.7
+
+// Uninformed is how many times the test's own sd the rest of the data's sd
+// of the lift may reach before the test counts as unchecked: at 10 the
+// rest of the data hold under 1% of the test's precision.
+const Uninformed = 10
+
 // Verdicts of a lift test.
 const (
 	// LiftAgrees: the rest of the data predict the test (P >= Unreconciled).
 	LiftAgrees = "agrees"
 	// LiftContradicts: the rest of the data contradict it (P < Unreconciled).
 	LiftContradicts = "contradicts"
-	// LiftUnchecked: the posterior of the tested quantity is the test's own
-	// (the rest of the data hold under 1% of its precision): the model has
-	// taken the test in and nothing checks it. With drifting coefficients
-	// and a moving baseline, a test far from the truth can end here rather
-	// than as contradicted, so it is reported too.
+	// LiftUnchecked: the rest of the data say too little about the tested
+	// quantity to check the test (their sd of it above Uninformed times the
+	// test's se), and do not contradict it: the model has taken the test in
+	// and nothing checks it.
 	LiftUnchecked = "unchecked"
 )
 
@@ -207,10 +235,10 @@ const (
 // contradicts them, or could not be checked against them.
 func (c LiftCheck) Verdict() string {
 	switch {
-	case math.IsNaN(c.Without):
-		return LiftUnchecked
 	case c.P < Unreconciled:
 		return LiftContradicts
+	case !(c.WithoutSD <= Uninformed*c.Test.SE):
+		return LiftUnchecked
 	}
 	return LiftAgrees
 }
@@ -218,56 +246,109 @@ func (c LiftCheck) Verdict() string {
 // Reconciled reports whether the test agrees with the rest of the data.
 func (c LiftCheck) Reconciled() bool { return c.Verdict() == LiftAgrees }
 
-// LiftChecks returns, for each lift test of a FitLifts fit, the model's
-// posterior of the tested quantity and how surprising the test is under
-// the rest of the data.
-func (f *Fitted) LiftChecks() []LiftCheck {
+// CheckLifts returns, for each lift test of a FitLifts fit, the model's
+// posterior of the tested quantity and how surprising the test is given the
+// rest of the data: the fit's draws reweighted to leave the test out
+// (Pareto-smoothed importance sampling), or, for a test whose Pareto shape
+// is above MaxParetoK (typically one the model has bent to follow, so the
+// fit's draws say little about the posterior without it), a refit without
+// the test with the fit's options and settings (seed moved by 1000 times
+// the test's place). hook reports the refits' progress and may be nil.
+func (f *Fitted) CheckLifts(ctx context.Context, hook StageHook) ([]LiftCheck, error) {
 	out := make([]LiftCheck, len(f.Lifts))
-	for i, l := range f.Lifts {
-		t := f.Tests[i]
-		div := f.Data.OutcomeScale
-		if t.Metric == model.LiftQueries {
-			div = f.Data.QueriesScale
-		}
-		term := l.Clone().(*model.LiftTest)
-		var draws []float64
-		for c := range f.Fits[0].Chains {
-			d := f.Fits[0].Chains[c].Draws
-			var y *mat.Dense
-			if f.Fits[1] != nil {
-				y = f.Fits[1].Chains[c].Draws
+	for i := range f.Lifts {
+		draws := f.liftDraws(f, i)
+		c := loCheck(f.Tests[i], draws)
+		if c.K > MaxParetoK {
+			rest := append(append([]lifts.Test(nil), f.Tests[:i]...), f.Tests[i+1:]...)
+			set := f.settings
+			set.Seed += 1000 * uint64(i+1)
+			g, err := fitLifts(ctx, f.Data, f.options, rest, set, hook, false)
+			if err != nil {
+				return nil, fmt.Errorf("lift test (line %d) left out: %w", f.Tests[i].Line, err)
 			}
-			r, _ := d.Dims()
-			for k := 0; k < r; k++ {
-				var vy []float64
-				if y != nil {
-					vy = y.RawRowView(k)
-				}
-				draws = append(draws, div*term.Lift(d.RawRowView(k), vy))
-			}
+			pred := refitCheck(f.Tests[i], f.liftDraws(g, i))
+			c.Without, c.WithoutSD, c.Z, c.P, c.Refit = pred.Without, pred.WithoutSD, pred.Z, pred.P, true
 		}
-		out[i] = check(t, draws)
+		out[i] = c
 	}
-	return out
+	return out, nil
 }
 
-func check(t lifts.Test, draws []float64) LiftCheck {
+// liftDraws returns test i's lift (raw units) under every paired draw of
+// g's demand and outcome fits; g has f's stages (f itself, or a refit).
+func (f *Fitted) liftDraws(g *Fitted, i int) []float64 {
+	t := f.Tests[i]
+	div := f.Data.OutcomeScale
+	if t.Metric == model.LiftQueries {
+		div = f.Data.QueriesScale
+	}
+	term := f.Lifts[i].Clone().(*model.LiftTest)
+	var draws []float64
+	for c := range g.Fits[0].Chains {
+		d := g.Fits[0].Chains[c].Draws
+		var y *mat.Dense
+		if g.Fits[1] != nil {
+			y = g.Fits[1].Chains[c].Draws
+		}
+		r, _ := d.Dims()
+		for k := 0; k < r; k++ {
+			var vy []float64
+			if y != nil {
+				vy = y.RawRowView(k)
+			}
+			draws = append(draws, div*term.Lift(d.RawRowView(k), vy))
+		}
+	}
+	return draws
+}
+
+// loCheck summarises the draws of the lift under the fit with the test and
+// leaves the test out by Pareto-smoothed importance sampling: the ratio of
+// the posterior without the test to the posterior with it is, per draw,
+// 1 / Normal(estimate | L, se).
+func loCheck(t lifts.Test, draws []float64) LiftCheck {
 	c := LiftCheck{Test: t}
-	m, v1 := stat.Mean(draws), stat.Variance(draws)
 	sorted := append([]float64(nil), draws...)
 	sort.Float64s(sorted)
-	c.Mean, c.Q05, c.Q95 = m, stat.Quantile(sorted, 0.05), stat.Quantile(sorted, 0.95)
-	// normal posterior = rest N(m0, v0) times the test N(est | L, se^2)
-	se2 := t.SE * t.SE
-	p0 := 1/v1 - 1/se2
-	c.Without, c.WithoutSD, c.Z, c.P = math.NaN(), math.NaN(), 0, 1
-	if !(p0 > 0.01/se2) { // the rest of the data hold under 1% of the test's precision
-		return c
+	c.Mean, c.Q05, c.Q95 = stat.Mean(draws), stat.Quantile(sorted, 0.05), stat.Quantile(sorted, 0.95)
+	lw := make([]float64, len(draws))
+	for s, L := range draws {
+		z := (t.Estimate - L) / t.SE
+		lw[s] = 0.5 * z * z
 	}
-	v0 := 1 / p0
-	c.Without = v0 * (m/v1 - t.Estimate/se2)
-	c.WithoutSD = math.Sqrt(v0)
-	c.Z = (t.Estimate - c.Without) / math.Sqrt(v0+se2)
-	c.P = 2 * distuv.UnitNormal.CDF(-math.Abs(c.Z))
+	w, k := loo.Weights(lw)
+	c.K = k
+	c.Without, c.WithoutSD, c.Z, c.P = predictive(t, draws, w)
 	return c
+}
+
+// refitCheck is the check of a test against the draws of a fit without it.
+func refitCheck(t lifts.Test, draws []float64) LiftCheck {
+	w := make([]float64, len(draws))
+	for s := range w {
+		w[s] = 1 / float64(len(draws))
+	}
+	c := LiftCheck{Test: t}
+	c.Without, c.WithoutSD, c.Z, c.P = predictive(t, draws, w)
+	return c
+}
+
+// predictive returns the weighted mean and sd of the lift draws, the
+// test's standardised distance from them and its two-sided tail
+// probability under the predictive mixture sum_s w_s Normal(L_s, se).
+func predictive(t lifts.Test, draws, w []float64) (mean, sd, z, p float64) {
+	var m, v, F float64
+	for s, L := range draws {
+		m += w[s] * L
+		F += w[s] * distuv.UnitNormal.CDF((t.Estimate-L)/t.SE)
+	}
+	for s, L := range draws {
+		v += w[s] * (L - m) * (L - m)
+	}
+	sd = math.Sqrt(v)
+	z = (t.Estimate - m) / math.Sqrt(v+t.SE*t.SE)
+	// clamped: the weights' sum can miss 1 in the last bits
+	p = math.Max(0, math.Min(1, 2*math.Min(F, 1-F)))
+	return m, sd, z, p
 }

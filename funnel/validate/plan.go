@@ -9,6 +9,7 @@ import (
 	"math/rand/v2"
 	"slices"
 	"sort"
+	"spillway/funnel/lifts"
 	"strconv"
 	"strings"
 
@@ -195,6 +196,13 @@ type Input struct {
 	Spec   data.Spec
 	// Options are the model options every fit uses.
 	Options model.Options
+	// Lifts are lift tests fitted as data with Series (week indices into
+	// it): every fit takes the tests of the weeks it fits (a holdout fit
+	// those before its origin, a fit leaving a quarter out those outside
+	// it), and a recovery replicate the same tests simulated from its
+	// truth; placebo refits take none (their spend moved, the tests no
+	// longer describe it).
+	Lifts []lifts.Test
 	// Truth, if not nil, holds true parameter values in the model units of
 	// Series (as truth.json from a simulation has them); the recovery
 	// check then simulates every replicate from them instead of from

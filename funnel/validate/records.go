@@ -53,7 +53,7 @@ func (sw *Sweep) newManifest() Manifest {
 	spec.Data = "" // the path may differ between machines; Data fingerprints the content
 	m := Manifest{Format: Format, Tool: sw.in.Tool, Data: seriesID(sw.in.Series, sw.in.Spec), Spec: spec,
 		Weeks: len(sw.in.Series.Weeks), First: sw.in.Series.Weeks[0].Format(data.DateLayout),
-		Options: optionsID(sw.in.Options), Settings: sw.set, Jobs: sw.Jobs(), Skipped: sw.skipped}
+		Options: optionsID(sw.in.Options) + liftsID(sw.in.Lifts), Settings: sw.set, Jobs: sw.Jobs(), Skipped: sw.skipped}
 	if sw.gen != nil {
 		m.Generator = sw.gen.name
 	}

@@ -214,7 +214,7 @@ func (sw *Sweep) reference(ctx context.Context) (*fitted, error) {
 	if r := sw.in.Reference; r != nil {
 		return &fitted{sc: sw.base, st: sw.stages, fits: [2]*mcmc.Fit{r.Demand, r.Outcome}}, nil
 	}
-	f, err := sw.fit(ctx, sw.base, sw.set.Seed)
+	f, err := sw.fitTests(ctx, sw.base, sw.set.Seed, sw.in.Lifts)
 	if err != nil {
 		return nil, fmt.Errorf("validate: reference fit: %w", err)
 	}
@@ -306,7 +306,11 @@ func (sw *Sweep) recoveryJob(ctx context.Context, j Job, ref *fitted) ([]Record,
 	if err != nil {
 		return nil, err
 	}
-	f, err := sw.fit(ctx, rep.sc, j.Seed)
+	tests, err := sw.simulatedTests(rep, rng)
+	if err != nil {
+		return nil, err
+	}
+	f, err := sw.fitTests(ctx, rep.sc, j.Seed, tests)
 	if err != nil {
 		return nil, err
 	}
@@ -427,7 +431,7 @@ func (sw *Sweep) holdoutJob(ctx context.Context, j Job) ([]Record, error) {
 		train[t] = true
 	}
 	sc := model.ScaleTrain(s, sw.in.Spec, train)
-	f, err := sw.fit(ctx, sc, j.Seed)
+	f, err := sw.fitTests(ctx, sc, j.Seed, sw.testsBefore(j.Origin))
 	if err != nil {
 		return nil, err
 	}
@@ -612,7 +616,7 @@ func cutSeries(s data.Series, n int) data.Series {
 // stabilityJob refits without one quarter (masked out of the likelihood)
 // or with another seed, and keeps the effects over the whole data.
 func (sw *Sweep) stabilityJob(ctx context.Context, j Job, ref *fitted) ([]Record, error) {
-	sc := sw.base
+	sc, tests := sw.base, sw.in.Lifts
 	if j.Quarter != "" {
 		i := slices.IndexFunc(sw.windows, func(w window.Window) bool { return w.Name == j.Quarter })
 		q := sw.windows[i]
@@ -621,8 +625,9 @@ func (sw *Sweep) stabilityJob(ctx context.Context, j Job, ref *fitted) ([]Record
 			train[t] = t < q.From || t > q.To
 		}
 		sc = model.ScaleTrain(sw.in.Series, sw.in.Spec, train)
+		tests = sw.testsOutside(q.From, q.To)
 	}
-	f, err := sw.fit(ctx, sc, j.Seed)
+	f, err := sw.fitTests(ctx, sc, j.Seed, tests)
 	if err != nil {
 		return nil, err
 	}

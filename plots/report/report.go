@@ -44,6 +44,7 @@ func Write(w io.Writer, f *fitfolder.Fit, window string, charts map[string][]byt
 	if v.Plan, err = planSection(f); err != nil {
 		return fmt.Errorf("report: plan: %w", err)
 	}
+	v.Drift = driftSection(f)
 	var buf bytes.Buffer
 	if err := page.Execute(&buf, v); err != nil {
 		return fmt.Errorf("report: %w", err)
@@ -89,6 +90,7 @@ type view struct {
 	Plan         *planView
 	// Regions is the Regions section of a panel of regions; nil otherwise.
 	Regions *regionsView
+	Drift        *driftView
 }
 
 type chartView struct {
@@ -172,6 +174,7 @@ var chartTitles = map[string][2]string{
 	"sensitivity": {"Sensitivity to an unmeasured common cause", "Via-search effect against the assumed error correlation rho, with its 90% band, the zero line and the rho at which it reaches zero."},
 	"regions":     {"Share via branded search by region", "Each region's share of each upper-funnel channel's effect that runs through branded search over the whole period, with 90% intervals, sorted, against the pooled share of all regions summed."},
 	"diagnostics": {"Convergence checks", "R-hat and effective sample size of every parameter against the thresholds 1.01 and 400."},
+	"drift":       {"Effectiveness over time", "Each drifting channel's multiplier on each path by week with its 90% band and the line at its average, and the lift tests drawn across their weeks as the multipliers they imply."}, // plots.DriftName
 }
 
 // perScale chooses how per-unit-spend values are shown: per unit, or per

@@ -173,6 +173,26 @@ footer { color: var(--muted); font-size: 13px; margin-top: 40px; border-top: 1px
 <li>{{.}}</li>{{end}}
 </ul>
 
+{{with .Drift}}
+<h2>Effectiveness over time and lift tests</h2>
+{{if .Intro}}<p>{{.Intro}}</p>{{end}}
+{{if .Changes}}<table id="drift">
+<thead><tr><th>Channel</th><th>Path</th><th class="num">Last quarter / first</th><th class="num">90% interval</th><th class="num">P(up &gt; 10%)</th><th class="num">P(down &gt; 10%)</th><th>Highest quarter</th><th>Lowest quarter</th><th>Verdict</th></tr></thead>
+<tbody>{{range .Changes}}
+<tr><td>{{.Channel}}</td><td>{{.Path}}</td><td class="num">{{.Ratio}}</td><td class="num">{{.Interval}}</td><td class="num">{{.Up}}</td><td class="num">{{.Dn}}</td><td>{{.Peak}}</td><td>{{.Trough}}</td><td>{{.Verdict}}</td></tr>{{end}}
+</tbody>
+</table>{{end}}
+{{if .Lifts}}<table id="lifts">
+<thead><tr><th>Channel</th><th>Metric</th><th>Weeks</th><th class="num">Test (90% interval)</th><th class="num">Model with the test [90%]</th><th class="num">Rest of the data</th><th class="num">p</th><th>Verdict</th><th>Left out by</th></tr></thead>
+<tbody>{{range .Lifts}}
+<tr><td>{{.Channel}}</td><td>{{.Metric}}</td><td>{{.Weeks}}</td><td class="num">{{.Test}}</td><td class="num">{{.Model}}</td><td class="num">{{.Rest}}</td><td class="num">{{.P}}</td><td>{{.Verdict}}</td><td>{{.LeftOut}}</td></tr>{{end}}
+</tbody>
+</table>{{end}}
+<ul id="drift-notes">{{range .Notes}}
+<li>{{.}}</li>{{end}}
+</ul>
+{{end}}
+
 {{with .Validation}}
 <h2>Validation</h2>
 <p>From <code>spillway validate</code> on this fit: {{.Intro}}.</p>
