@@ -22,8 +22,8 @@ var ErrInfeasible = errors.New("ols: the inequality constraints admit no solutio
 // NNLS returns x minimising ‖a·x − b‖₂ subject to x ≥ 0 (Lawson and Hanson,
 // algorithm NNLS). Neither a nor b is modified. It panics if len(b) differs
 // from the rows of a, and returns an error if the iterations do not end
-// (3 × columns of a outer steps, the bound Lawson and Hanson's own code
-// uses) or the data hold NaN or ±Inf.
+// (3 × columns of a outer steps: the bound of Lawson and Hanson's published
+// code, from memory) or the data hold NaN or ±Inf.
 func NNLS(a *mat.Dense, b []float64) ([]float64, error) {
 	m, n := a.Dims()
 	if len(b) != m {
@@ -32,7 +32,7 @@ func NNLS(a *mat.Dense, b []float64) ([]float64, error) {
 	if err := checkFinite(a, b); err != nil {
 		return nil, err
 	}
-	// tolerance on the dual: scipy's and Lawson-Hanson's 10·eps·‖a‖₁·max(m, n)
+	// tolerance on the dual, 10·eps·‖a‖₁·max(m, n) (scipy's nnls, from memory)
 	norm1 := 0.0
 	for j := 0; j < n; j++ {
 		s := 0.0
