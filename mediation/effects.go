@@ -14,7 +14,6 @@ import (
 	"spillway/funnel/stat"
 	"spillway/funnel/window"
 	"spillway/mediation/linear"
-	"spillway/mediation/ols"
 )
 
 // Inputs are what the split needs: the scaled data, the compiled stages, and
@@ -38,6 +37,9 @@ type Effect struct {
 type Result struct {
 	Effects  []Effect // upper channels: direct, via_search, total, mediated_share per window
 	Borrowed []Effect // search channels: controlled, apparent, naive, borrowed_share per window
+	// ApparentBound counts the draws whose apparent return the constraints
+	// of the stage without queries bound (see projection).
+	ApparentBound int
 	// Weekly[c] holds the weekly via-search and direct contributions of upper
 	// channel c: [path 0 via_search, 1 direct][draw][week].
 	Weekly [][2][][]float64
@@ -127,24 +129,22 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 	base := len(baseCols)
 	p := base + ns + nu
 	// The naive stage's priors on the same columns, as normal means and
-	// precisions: the apparent coefficient is what that stage, with those
-	// priors, would find (see naiveProjection).
-	pm, prec := make([]float64, 0, p), make([]float64, 0, p)
-	addPrior := func(pr model.Prior) {
-		m, k := pr.NormalApprox()
-		pm, prec = append(pm, m), append(prec, k)
-	}
+	// precisions, and their signs: the apparent coefficient is what that
+	// stage, with those priors, would find (see projection).
+	proj := projection{T: T, search: base, ns: ns}
 	if !isFixed(in.Outcome.MuPrior) {
-		addPrior(in.Outcome.MuPrior)
+		proj.add(in.Outcome.MuPrior, model.Real)
 	}
 	for i, r := range in.Outcome.Regressors {
 		if i != qi && !isFixed(r.Prior) {
-			addPrior(r.Prior)
+			proj.add(r.Prior, r.Default)
 		}
 	}
 	for _, col := range append(append([]string(nil), sc.SearchNames...), sc.UpperNames...) {
-		addPrior(in.Outcome.Channels[in.Outcome.ChannelIndex(col)].Params[0].Prior)
+		prm := in.Outcome.Channels[in.Outcome.ChannelIndex(col)].Params[0]
+		proj.add(prm.Prior, prm.Default)
 	}
+	bound := make([]bool, nd)
 	workers := runtime.GOMAXPROCS(0)
 	var wg sync.WaitGroup
 	errs := make([]error, workers)
@@ -156,10 +156,10 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 			var cf forward.Upper
 			var cfx []float64
 			X := mat.NewDense(T+p, p, nil)
-			yaug := make([]float64, T+p)
+			ws := proj.workspace()
 			theta := make([]float64, p)
-			solver := ols.NewSolver(T+p, p)
 			coef := make([]float64, p)
+			var run forward.Run
 			hs := make([]forward.Path, ns)
 			var hn, cfs, cfn forward.Path
 			for d := wkr; d < nd; d += workers {
@@ -223,10 +223,13 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 					k++
 				}
 				sy, sq := dr.Outcome.Sigma(), dr.Demand.Sigma()
-				if err := naiveProjection(coef, solver, X, yaug, theta, sc.Queries, gamma, sy*sy+gamma*gamma*sq*sq, pm, prec); err != nil {
+				sim.Fit(&run, dr) // the draw's expected outcome, for what X leaves out
+				b, err := proj.solve(coef, ws, X, theta, sc.Queries, run.Outcome, gamma, sy*sy+gamma*gamma*sq*sq)
+				if err != nil {
 					errs[wkr] = fmt.Errorf("mediation: draw %d: projecting the outcome on the stage's regressors without queries: %w", d+1, err)
 					return
 				}
+				bound[d] = b
 				for s := 0; s < ns; s++ {
 					m, _ := dr.Outcome.Channel(sc.SearchNames[s])
 					beta := m.Coef
@@ -245,9 +248,9 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 						b := bor[s][w]
 						b.ctl[d] = forward.Effect(hs[s], cfs, win.From)
 						b.app[d] = forward.Effect(apparent, cfs, win.From)
-						// the share of the apparent return that is borrowed
-						// is a ratio of coefficients: the same in every window
-						b.shr[d] = (bApp - beta) / bApp
+						// the borrowed share is a ratio of coefficients:
+						// the same in every window
+						b.shr[d] = BorrowedShare(bApp, beta)
 						if hasNaive {
 							naive.Search(&cfn, nd, s, cfx)
 							b.nai[d] = forward.Effect(hn, cfn, win.From)
@@ -261,6 +264,11 @@ func Split(in *Inputs, windows []window.Window) (*Result, error) {
 	for _, err := range errs {
 		if err != nil {
 			return nil, err
+		}
+	}
+	for _, b := range bound {
+		if b {
+			res.ApparentBound++
 		}
 	}
 	for c, col := range sc.UpperNames {
@@ -411,45 +419,3 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 }
 
 func isFixed(p model.Prior) bool { return p.Family == model.Fixed }
-
-// naiveProjection writes into coef the coefficients that the outcome stage
-// without its query term would find, at its posterior mean, if the outcome
-// were this draw's expected outcome Xθ + γq:
-//
-//	b = argmin ||Xθ + γq - Xb||² + s2 Σ_k prec_k (b_k - pm_k)²
-//	  = θ + (XᵀX + s2 P)⁻¹ (γ Xᵀq + s2 P (pm - θ)),
-//
-// with X the first T rows of x (the stage's regressors at this draw's
-// transforms), pm and prec the normal approximations of that stage's priors
-// and s2 = σ_y² + γ²σ_q², the noise such a stage would see. With prec = 0 it
-// is the omitted-variable identity b = θ + γd, d the least-squares
-// coefficients of q on X (Wooldridge, Introductory Econometrics, ch. 3). The
-// priors matter only where the data cannot place a column: when paid
-// search's response barely moves (a saturated draw, nearly collinear with
-// the intercept), d alone is unbounded (572 against a typical 0.5 in one
-// draw of a short demo fit, crediting paid search with 71 million
-// conversions) while the stage without queries would fall back on its
-// priors, as this does. x (T+p rows) and yaug are
-// scratch; the solve is least squares on the data stacked over the prior
-// rows, by QR.
-func naiveProjection(coef []float64, solver *ols.Solver, x *mat.Dense, yaug, theta, q []float64, gamma, s2 float64, pm, prec []float64) error {
-	T := len(q)
-	p := len(theta)
-	for i := 0; i < T; i++ {
-		v := gamma * q[i]
-		for k := 0; k < p; k++ {
-			v += x.At(i, k) * theta[k]
-		}
-		yaug[i] = v
-	}
-	for k := 0; k < p; k++ {
-		w := math.Sqrt(s2 * prec[k])
-		for j := 0; j < p; j++ {
-			x.Set(T+k, j, 0)
-		}
-		x.Set(T+k, k, w)
-		yaug[T+k] = w * pm[k]
-	}
-	_, err := solver.Coef(coef, x, yaug)
-	return err
-}

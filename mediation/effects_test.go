@@ -170,6 +170,9 @@ func TestBorrowedIdentity(t *testing.T) {
 	}
 	for _, o := range []model.Options{flat, {}} {
 		sc, st1, st2, v1, v2 := synth(t, 120, 2, o)
+		// an intercept that keeps the outcome without paid search positive
+		// in every week, so that no constraint of the projection binds
+		v2[0] = 2
 		// make the outcome exactly the stage-2 predictor at v2
 		sc.Outcome = st2.Predict(nil, v2)
 		in := &Inputs{Data: sc, Demand: st1, Outcome: st2,

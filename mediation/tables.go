@@ -177,7 +177,7 @@ func Table(w io.Writer, r *Result, window string, unit string) error {
 		b := bk[c+"/borrowed_share"]
 		fmt.Fprintf(w, "%-*s %-*s %-*s %.0f%% [%.0f%%, %.0f%%]\n", cw, c, iw, iv(bk[c+"/controlled"]), iw, iv(bk[c+"/apparent"]), 100*b.Mean, 100*b.Q05, 100*b.Q95)
 	}
-	fmt.Fprintln(w, "borrowed share: per posterior draw, (apparent - controlled) / apparent; its mean and 90% interval.")
+	fmt.Fprintln(w, "borrowed share: per posterior draw, (apparent - controlled) / apparent (divided by controlled where apparent is smaller); its mean and 90% interval.")
 	for _, n := range NaiveCheck(whole) {
 		fmt.Fprintln(w, n)
 	}

@@ -32,7 +32,7 @@ func (r *review) borrowed() (*Figure, error) {
 			{"90% interval", Ink, SwatchWhisker, nil},
 		},
 		Caption: "Whole period: " + r.weeksText(r.whole) + ". Bars are posterior means, whiskers 90% credible intervals. " +
-			"Borrowed share: per posterior draw, (apparent - controlled) / apparent, the part of paid search's apparent " +
+			"Borrowed share: per posterior draw, (apparent - controlled) / apparent (by controlled where apparent is smaller), the part of paid search's apparent " +
 			"return that is demand the upper funnel created; its mean and 90% interval.",
 	}
 	cats := []string{"refit without\nqueries", "controlled", "apparent"}

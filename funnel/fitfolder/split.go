@@ -112,8 +112,9 @@ type effectDrawRow struct {
 // Borrowed is one row of borrowed.csv: a paid-search channel's measure
 // over a window (as in effects.csv). Measure is "controlled", "apparent",
 // "naive" (outcome units from the window's spend, carryover included) or
-// "borrowed_share" (a fraction 0..1, per draw (apparent - controlled) /
-// apparent; the same in every window unless effects drift).
+// "borrowed_share" (a fraction -1..1, per draw mediation.BorrowedShare:
+// (apparent - controlled) / apparent, or / controlled where that is the
+// larger; the same in every window unless effects drift).
 type Borrowed struct {
 	Channel, Measure, Window string
 	Mean, Q05, Q50, Q95      float64

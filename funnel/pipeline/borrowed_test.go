@@ -46,9 +46,10 @@ func userData(t *testing.T) *data.Dataset {
 
 // TestApparentReturnHoldsUp: on the demo (full and short chains, two seeds)
 // and on userData, paid search's apparent return has its posterior mean
-// inside its own 90% interval, its 95% quantile stays below the whole
-// outcome of the data (and fewer than 1% of draws exceed it), and the refit
-// without queries agrees with it within their 90% intervals.
+// inside its own 90% interval, no draw of it exceeds the whole outcome of
+// the data (before the constrained projection, 9 of 4000 draws on userData
+// did, by up to 17%), and the refit without queries agrees with it within
+// their 90% intervals.
 func TestApparentReturnHoldsUp(t *testing.T) {
 	if testing.Short() {
 		t.Skip("four fits; skipped with -short")
@@ -100,14 +101,14 @@ func TestApparentReturnHoldsUp(t *testing.T) {
 						over++
 					}
 				}
-				// Not yet every draw: on userData 9 of 4000 draws (gamma near
-				// 0.7, paid search's response nearly saturated) exceed the
-				// outcome by up to 17%; the least-squares identity gave 71
-				// million in one draw.
-				if s.Q95 > total || float64(over) > 0.01*float64(len(e.Draws)) {
-					t.Errorf("%s: apparent q95 %.0f, %d draws above the whole outcome %.0f", c.name, s.Q95, over, total)
+				// every draw: the projection keeps the outcome the stage
+				// without queries expects without paid search non-negative
+				// (mediation projection), so paid search cannot take more
+				// than the whole outcome
+				if over > 0 {
+					t.Errorf("%s: %d draws of the apparent return above the whole outcome %.0f (largest %.0f)", c.name, over, total, most)
 				}
-				t.Logf("%s: apparent %.0f [%.0f, %.0f], largest draw %.0f (%d above the outcome %.0f)", c.name, s.Mean, s.Q05, s.Q95, most, over, total)
+				t.Logf("%s: apparent %.0f [%.0f, %.0f], largest draw %.0f (%d above the outcome %.0f), the constraints bound %d draws", c.name, s.Mean, s.Q05, s.Q95, most, over, total, res.ApparentBound)
 			case "naive":
 				nai = s
 				t.Logf("%s: refit without queries %.0f [%.0f, %.0f]", c.name, s.Mean, s.Q05, s.Q95)

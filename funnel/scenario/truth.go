@@ -88,7 +88,7 @@ func (s *Scenario) Truth(r *Result) (*Truth, error) {
 		t.Borrowed = append(t.Borrowed,
 			TrueEffect{Channel: ch, Path: "controlled", Window: win, Value: ctl},
 			TrueEffect{Channel: ch, Path: "apparent", Window: win, Value: app},
-			TrueEffect{Channel: ch, Path: "borrowed_share", Window: win, Value: (app - ctl) / app})
+			TrueEffect{Channel: ch, Path: "borrowed_share", Window: win, Value: mediation.BorrowedShare(app, ctl)})
 	}
 	for _, e := range append(append([]TrueEffect(nil), t.Effects...), t.Borrowed...) {
 		if math.IsNaN(e.Value) || math.IsInf(e.Value, 0) {

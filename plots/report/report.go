@@ -438,7 +438,7 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 	v.BorrowedNote = fmt.Sprintf("Incremental %s over the whole period (%s). The apparent figure is what paid search "+
 		"would be credited with if the model left branded queries out (per posterior draw, the estimate of a model without "+
 		"the query term, with its priors); the difference is demand that the upper funnel created and paid search captured. "+
-		"The borrowed share is, per posterior draw, (apparent - controlled) / apparent; the table gives its mean and 90%% "+
+		"The borrowed share is, per posterior draw, (apparent - controlled) / apparent (divided by the controlled figure on a draw where the apparent one is smaller); the table gives its mean and 90%% "+
 		"interval, as do the chart and the headline. The separate refit without queries is a cross-check of the apparent figure.",
 		outcome, weeksText(f, whole))
 	for _, n := range mediation.NaiveCheck(f.Borrowed) {
