@@ -136,10 +136,7 @@ func demoData(name string) (*data.Dataset, error) {
 	if err != nil {
 		return nil, err
 	}
-	spec := scenario.Spec
-	if sc.Regions > 0 {
-		spec = scenario.RegionSpec
-	}
+	spec := sc.Roles()
 	spec.Data = "demo:" + name
 	return data.Read(bytes.NewReader(csv), spec.Data, spec)
 }

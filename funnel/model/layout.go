@@ -33,6 +33,10 @@ type ChannelSlots struct {
 	// Drift holds the positions of the smooth function the coefficient
 	// drifts by (Drift.Basis is nil when it does not drift).
 	Drift SmoothSlots
+	// Break is the position of the log factor of a measurement break in
+	// the channel's exposure (exposure.go), -1 when it has none; BreakAt
+	// is the break's week.
+	Break, BreakAt int
 }
 
 // SmoothSlots are the positions of a smooth function's parameters (model
@@ -78,7 +82,7 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for _, c := range s.Channels {
-		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}}
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1}
 		if !c.Linear {
 			cs.Lam, cs.K, cs.S = add(), add(), add()
 		}
@@ -102,6 +106,11 @@ func (s *Stage) Layout() *Layout {
 	for j, c := range s.Channels {
 		if c.Drift != nil {
 			l.channels[j].Drift = smooth(c.Drift)
+		}
+	}
+	for j, c := range s.Channels {
+		if c.Break != nil {
+			l.channels[j].Break, l.channels[j].BreakAt = add(), c.Break.At
 		}
 	}
 	return l
@@ -316,6 +325,9 @@ func (p Params) ChannelAt(j int) Media {
 	if !m.Linear {
 		m.Lam, m.K, m.S = p.v[c.Lam], p.v[c.K], p.v[c.S]
 	}
+	if c.Break >= 0 {
+		m.Before, m.Factor = c.BreakAt, math.Exp(p.v[c.Break])
+	}
 	return m
 }
 
@@ -359,12 +371,23 @@ func (p Params) Rescaled(k, kGamma float64) []float64 {
 type Media struct {
 	Coef, Lam, K, S float64
 	Linear          bool
+	// Before and Factor are a measurement break in the channel's exposure
+	// (exposure.go): the input of weeks 0..Before-1, counted from the
+	// data's first week, is multiplied by Factor before the adstock.
+	// Before is 0 when the channel has no break.
+	Before int
+	Factor float64
 }
 
 // Response writes the coefficient-free response H(adstock(x; Lam); K, S) of
 // the spend series x (scaled units) into dst and returns it (x itself for a
-// linear channel); a dst too short is replaced.
+// linear channel); a dst too short is replaced. With a measurement break, x
+// starts at the data's first week and its weeks before the break are
+// multiplied by Factor first.
 func (m Media) Response(dst, x []float64) []float64 {
+	if m.Before > 0 {
+		return m.responseBroken(dst, x)
+	}
 	dst = resizeTo(dst, len(x))
 	if m.Linear {
 		copy(dst, x)
@@ -378,7 +401,9 @@ func (m Media) Response(dst, x []float64) []float64 {
 }
 
 // Steady returns the response to a constant weekly spend x held for ever:
-// normalised adstock then equals x, so it is H(x; K, S) (x when linear).
+// normalised adstock then equals x, so it is H(x; K, S) (x when linear). A
+// measurement break's factor does not enter: spend from now on is measured
+// the newest way, the reference.
 func (m Media) Steady(x float64) float64 {
 	if m.Linear {
 		return x

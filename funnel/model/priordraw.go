@@ -56,6 +56,13 @@ func (s *Stage) PriorDraw(dst []float64, rng *rand.Rand) ([]float64, error) {
 			}
 		}
 	}
+	for _, c := range s.Channels {
+		if c.Break != nil {
+			if err := draw(c.Break.Param.Prior); err != nil {
+				return nil, err
+			}
+		}
+	}
 	return dst, nil
 }
 

@@ -39,6 +39,10 @@ type Channel struct {
 	// exp(f(t)), f this smooth function (drift.go). Its parameters come
 	// after sigma in the stage's draws.
 	Drift *Smooth
+	// Break, if not nil, is a measurement break in the channel's exposure
+	// (exposure.go). Its log factor comes last in the stage's draws, after
+	// the smooth functions' parameters.
+	Break *Break
 }
 
 // mediaParams returns a channel's parameters named coef[col], lam[col],
@@ -95,6 +99,11 @@ func (s *Stage) Names() []string {
 			names = append(names, p.Name)
 		}
 	}
+	for _, c := range s.Channels {
+		if c.Break != nil {
+			names = append(names, c.Break.Param.Name)
+		}
+	}
 	return names
 }
 
@@ -146,6 +155,12 @@ func (s *Stage) SetPrior(name string, p Prior) bool {
 			}
 		}
 	}
+	for i := range s.Channels {
+		if b := s.Channels[i].Break; b != nil && b.Param.Name == name {
+			b.Param.Prior = p
+			return true
+		}
+	}
 	return false
 }
 
@@ -172,6 +187,10 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 	for _, c := range s.Channels {
 		sk += len(c.Params)
 	}
+	bk := sk // past the smooths: the breaks' log factors
+	for _, sm := range s.smooths() {
+		bk += len(sm.Params)
+	}
 	if b := s.Baseline; b != nil {
 		f := b.Eval(nil, v[sk:])
 		sk += len(b.Params)
@@ -182,6 +201,10 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 	for _, c := range s.Channels {
 		m := media(c, v[k:])
 		k += len(c.Params)
+		if c.Break != nil {
+			m.Before, m.Factor = c.Break.At, math.Exp(v[bk])
+			bk++
+		}
 		h = m.Response(h, c.X)
 		if c.Drift == nil {
 			for i, hi := range h {
@@ -203,11 +226,7 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 // channel) and returns dst and the coefficient. x is any spend series in the
 // channel's scaled units (e.g. a counterfactual).
 func (s *Stage) Response(dst []float64, j int, v, x []float64) ([]float64, float64) {
-	k := 1 + len(s.Regressors)
-	for _, c := range s.Channels[:j] {
-		k += len(c.Params)
-	}
-	m := media(s.Channels[j], v[k:])
+	m := s.Layout().View(v).ChannelAt(j)
 	return m.Response(dst, x), m.Coef
 }
 
@@ -273,6 +292,11 @@ func (s *Stage) support(name string) (def Support, coefficient, ok bool) {
 			if q.Name == name {
 				return q.Default, false, true
 			}
+		}
+	}
+	for _, c := range s.Channels {
+		if c.Break != nil && c.Break.Param.Name == name {
+			return c.Break.Param.Default, false, true
 		}
 	}
 	return 0, false, false
@@ -393,6 +417,22 @@ func (s *Stage) Target() (*Target, error) {
 	}
 	if base != nil {
 		t.terms = append(t.terms, base)
+	}
+	// the breaks' log factors come last (Names)
+	for i := range s.Channels {
+		b := s.Channels[i].Break
+		if b == nil {
+			continue
+		}
+		kb, err := add(b.Param.Name, b.Param.Prior, b.Param.Default)
+		if err != nil {
+			return nil, err
+		}
+		ch, ok := t.terms[first+i].(*channelTerm)
+		if !ok || ch.linear {
+			return nil, fmt.Errorf("model: channel %s has a measurement break; it must saturate and must not drift", s.Channels[i].Column)
+		}
+		t.terms[first+i] = newBreakTerm(ch, b.At, kb)
 	}
 	t.alloc()
 	return t, nil

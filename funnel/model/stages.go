@@ -71,6 +71,9 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 	for c, col := range sc.UpperNames {
 		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o, sc.Mask))
 	}
+	if err := withBreaks(st, sc, "alpha"); err != nil {
+		return nil, err
+	}
 	return finish(st, o)
 }
 
@@ -81,13 +84,44 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 	st := outcomeBase("outcome", sc, o)
 	st.Regressors = append(st.Regressors, Regressor{Name: QueryCoef, X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
-	return finish(withChannels(st, sc, o), o)
+	st = withChannels(st, sc, o)
+	if err := withBreaks(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	return finish(st, o)
 }
 
 // Naive returns stage 2 without the query term: what a model that ignores
 // branded search demand would credit to paid search.
 func Naive(sc *Scaled, o Options) (*Stage, error) {
-	return finish(withChannels(outcomeBase("naive", sc, o), sc, o), o)
+	st := withChannels(outcomeBase("naive", sc, o), sc, o)
+	if err := withBreaks(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	return finish(st, o)
+}
+
+// withBreaks gives each upper-funnel channel of st with a measurement break
+// in its exposure (Scaled.Breaks) its log factor on the path whose
+// coefficient is coef, with the prior PriorBreak. A break needs a channel
+// that saturates and does not drift: a drift in effectiveness and a step in
+// the measurement's scale would explain the same weeks.
+func withBreaks(st *Stage, sc *Scaled, coef string) error {
+	for c, col := range sc.UpperNames {
+		at := sc.BreakAt(c)
+		if at == 0 {
+			continue
+		}
+		ch := &st.Channels[st.ChannelIndex(col)]
+		switch {
+		case ch.Linear:
+			return fmt.Errorf("model: channel %s has a measurement break in its exposure and is linear; a break needs the saturating channel", col)
+		case ch.Drift != nil:
+			return fmt.Errorf("model: channel %s has a measurement break in its exposure and drifts; the two would explain the same weeks: choose one", col)
+		}
+		ch.Break = &Break{At: at, Param: Param{Name: breakName(coef, col), Prior: PriorBreak, Default: Real}}
+	}
+	return nil
 }
 
 func outcomeBase(name string, sc *Scaled, o Options) *Stage {

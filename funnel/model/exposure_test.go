@@ -1,0 +1,136 @@
+package model
+
+import (
+	"math"
+	"testing"
+
+	"spillway/funnel/mcmc/mcmctest"
+	"spillway/funnel/transform"
+)
+
+// TestBreakTerm checks a channel with a measurement break in natural
+// coordinates: the gradient in lam, K, S and the log factor against
+// central finite differences of the forward pass, centred and not, with no
+// allocation per evaluation.
+func TestBreakTerm(t *testing.T) {
+	sc := testScaled(60, 2)
+	c := randomWeights(60, 5)
+	for _, centred := range []bool{false, true} {
+		ch := Channel{Column: "video", X: sc.Upper[0], Params: mediaParams("video", "alpha", "lam", "K", "S", false)}
+		par := []param{{name: "mu", free: 0}, {name: "alpha", sup: PositiveReal, free: -1},
+			{name: "lam", sup: UnitInterval, free: 1}, {name: "K", sup: PositiveReal, free: 2}, {name: "S", sup: PositiveReal, free: 3},
+			{name: "log_break", sup: Real, free: 4}}
+		k := []int{1, 2, 3, 4, 5}
+		base, scale := []float64{0.3, 0.5, 1, 2, 0.1}, []float64{0.2, 0.4, 0.5, 1, 0.6}
+		term := newBreakTerm(newChannelTerm(&ch, k[:4], par, false, centred), 25, 5)
+		f := predictorFunc(t, term, len(par), k, base, scale, c, -0.4)
+		mcmctest.CheckGradient(t, f, 1e-6, termGrad)
+		mcmctest.CheckNoAlloc(t, f, make([]float64, len(k)))
+	}
+}
+
+// TestBreakTarget checks a stage whose channel has a break in the sampling
+// coordinates (rescaled coefficient, centred intercept, the log factor's
+// prior), and that Constrain and Unconstrain invert each other.
+func TestBreakTarget(t *testing.T) {
+	sc := testScaled(60, 3)
+	sc.RawExposure = [][]float64{sc.Upper[0], nil}
+	sc.Breaks = []int{30, 0}
+	st, err := Demand(sc, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := st.Names()[len(st.Names())-1]; got != "log_break_alpha[video]" {
+		t.Fatalf("last parameter %s, want log_break_alpha[video]", got)
+	}
+	tg, err := st.Target()
+	if err != nil {
+		t.Fatal(err)
+	}
+	mcmctest.CheckGradient(t, tg, 1e-6, termGrad)
+	mcmctest.CheckNoAlloc(t, tg, make([]float64, tg.Dim()))
+	x := randomWeights(tg.Dim(), 9)
+	for i := range x {
+		x[i] *= 0.3
+	}
+	v := tg.Constrain(nil, x)
+	back := tg.Unconstrain(nil, v)
+	for i := range x {
+		if math.Abs(back[i]-x[i]) > 1e-9 {
+			t.Fatalf("coordinate %d: unconstrain(constrain(x)) = %v, x = %v", i, back[i], x[i])
+		}
+	}
+}
+
+// TestBreakPredict checks that the stage's linear predictor with a break
+// is the default one run on the exposure with the weeks before the break
+// multiplied by the factor (computed here by hand), and that the layout's
+// Media gives the same response.
+func TestBreakPredict(t *testing.T) {
+	sc := testScaled(52, 4)
+	sc.RawExposure = [][]float64{sc.Upper[0], nil}
+	sc.Breaks = []int{20, 0}
+	st, err := Demand(sc, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := st.Layout()
+	cs, _ := l.Channel("video")
+	v := make([]float64, l.Len())
+	for i := range v {
+		v[i] = 0.5
+	}
+	v[cs.Break] = math.Log(1.7)
+	got := st.Predict(nil, v)
+	// by hand: 0.5 + regressors + channels, video on the old weeks times 1.7
+	x := append([]float64(nil), sc.Upper[0]...)
+	for i := 0; i < 20; i++ {
+		x[i] *= 1.7
+	}
+	a := transform.Adstock(nil, x, 0.5)
+	noBreak := st.Channels[0]
+	noBreak.Break = nil
+	plain := *st
+	plain.Channels = []Channel{noBreak, st.Channels[1]}
+	vp := v[:len(v)-1]
+	base := plain.Predict(nil, vp)
+	h0 := Media{Lam: 0.5, K: 0.5, S: 0.5}.Response(nil, sc.Upper[0])
+	for i := range got {
+		want := base[i] + 0.5*(transform.Hill(a[i], 0.5, 0.5)-h0[i])
+		if math.Abs(got[i]-want) > 1e-12 {
+			t.Fatalf("week %d: predictor %v, want %v", i, got[i], want)
+		}
+	}
+	m := l.View(v).ChannelAt(0)
+	if m.Before != 20 || math.Abs(m.Factor-1.7) > 1e-12 {
+		t.Fatalf("media break %d x %v, want 20 x 1.7", m.Before, m.Factor)
+	}
+	// Carry then ResponseFrom continue Response bit for bit
+	full := m.Response(nil, append(append([]float64(nil), sc.Upper[0]...), 0.4, 0.9))
+	tail := m.ResponseFrom(nil, []float64{0.4, 0.9}, m.Carry(sc.Upper[0], 0))
+	if full[52] != tail[0] || full[53] != tail[1] {
+		t.Fatalf("ResponseFrom after Carry %v, Response %v", tail, full[52:])
+	}
+}
+
+// TestBreakChoices checks that a break on a drifting or a linear channel is
+// refused, and that the default stages have no break parameter.
+func TestBreakChoices(t *testing.T) {
+	sc := testScaled(52, 5)
+	st, _ := Demand(sc, Options{})
+	for _, n := range st.Names() {
+		if len(n) > 9 && n[:9] == "log_break" {
+			t.Fatalf("default stage has %s", n)
+		}
+	}
+	sc.RawExposure = [][]float64{sc.Upper[0], nil}
+	sc.Breaks = []int{20, 0}
+	for _, o := range []Options{{Drift: map[string]bool{"video": true}}, {Linear: map[string]bool{"video": true}}} {
+		if _, err := Demand(sc, o); err == nil {
+			t.Errorf("%+v: no error for a break on that channel", o)
+		}
+		if _, err := Outcome(sc, o); err == nil {
+			t.Errorf("%+v: no error for a break on that channel (outcome)", o)
+		}
+	}
+}

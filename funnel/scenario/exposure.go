@@ -1,0 +1,83 @@
+package scenario
+
+import (
+	"math"
+	"math/rand/v2"
+
+	"spillway/funnel/data"
+	"spillway/funnel/model"
+)
+
+// ExposureColumn is the video impressions column of the exposure scenarios.
+const ExposureColumn = "video_impressions"
+
+// Exposure makes video's impressions, not its spend, what the audience
+// sees: the true response runs on impressions, bought at a cost per
+// thousand that rises by CostRise over the period (linearly, with weekly
+// noise of sd CostNoise on the log scale), so the same spend buys less
+// exposure at the end than at the start. With Break > 0, the impressions
+// are reported a new way from week Break on: BreakScale times the old
+// way's units (a vendor that counts more generously).
+type Exposure struct {
+	CostRise, CostNoise float64
+	Break               int
+	BreakScale          float64
+}
+
+// CostPerThousand is the exposure scenarios' video cost per thousand
+// impressions in the first week (currency units).
+const CostPerThousand = 12.0
+
+// Roles returns the role declaration of the scenario's data: Spec, with the
+// region columns for a regional scenario, and with video's impressions as
+// its exposure (and its break) for an exposure scenario.
+func (s *Scenario) Roles() data.Spec {
+	spec := Spec
+	if s.Regions > 0 {
+		spec = RegionSpec
+	}
+	if e := s.Exposure; e != nil {
+		m := data.Exposure{Spend: spec.Upper[0], Column: ExposureColumn}
+		if e.Break > 0 {
+			m.Break = s.Start.AddDate(0, 0, 7*e.Break).Format(data.DateLayout)
+		}
+		spec.Exposure = []data.Exposure{m}
+	}
+	return spec
+}
+
+// impressions returns the reported impressions that video spend bought
+// and the model's input they give, in the newest measurement's units over
+// the mean reported impressions (weeks before a break times BreakScale):
+// what the fitted model sees at the true log factor.
+func (e *Exposure) impressions(rng *rand.Rand, spend []float64) (shown, input []float64) {
+	T := len(spend)
+	shown = make([]float64, T)
+	truth := make([]float64, T)
+	for t, s := range spend {
+		cpm := CostPerThousand * (1 + e.CostRise*float64(t)/float64(T-1)) * math.Exp(e.CostNoise*rng.NormFloat64())
+		if s <= 0 {
+			continue
+		}
+		truth[t] = math.Round(1000 * s / cpm)
+		shown[t] = truth[t]
+		if e.Break > 0 && t >= e.Break {
+			shown[t] = math.Round(truth[t] * e.BreakScale)
+		}
+	}
+	input = divide(shown, model.SpendScale(shown))
+	if e.Break > 0 {
+		for t := 0; t < e.Break; t++ {
+			input[t] *= e.BreakScale
+		}
+	}
+	return shown, input
+}
+
+// logBreak returns the true log factor of the break (0 when none).
+func (e *Exposure) logBreak() float64 {
+	if e == nil || e.Break == 0 {
+		return 0
+	}
+	return math.Log(e.BreakScale)
+}
