@@ -13,6 +13,9 @@ import (
 type roleFlags struct {
 	spec     data.Spec // from the flags; spec-file values fill what is empty
 	specFile string
+	// exposure and breaks are the --exposure SPEND=COLUMN and
+	// --exposure-break COLUMN=DATE flags as given (exposure.go)
+	exposure, breaks []string
 }
 
 // addFlags adds --data --date --region --population --upper --search
@@ -28,6 +31,8 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&r.spec.Outcome, "outcome", "", "the outcome `COLUMN` (conversions or revenue)")
 	fs.StringSliceVar(&r.spec.Controls, "controls", nil, "control `COLUMNS`, comma-separated (price, promotion, holidays)")
 	fs.StringVar(&r.specFile, "spec", "", "a JSON spec `FILE` naming the roles; the flags above override it")
+	fs.StringArrayVar(&r.exposure, "exposure", nil, "`SPEND=COLUMN`: the upper-funnel channel SPEND runs on the exposure COLUMN (impressions, rating points); repeatable")
+	fs.StringArrayVar(&r.breaks, "exposure-break", nil, "`COLUMN=YYYY-MM-DD`: the exposure of channel COLUMN is measured a new way from that week on; the model learns how the two compare; repeatable")
 }
 
 // given reports whether any role flag or a spec file was given (cmd run uses
@@ -35,7 +40,8 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 func (r *roleFlags) given() bool {
 	s := r.spec
 	return r.specFile != "" || s.Data != "" || s.Date != "" || s.Region != "" || s.Population != "" ||
-		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0
+		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0 ||
+		len(r.exposure) > 0 || len(r.breaks) > 0
 }
 
 // inputs returns the files the role flags read: the spec file and the
@@ -63,7 +69,15 @@ func (r *roleFlags) resolve() (data.Spec, error) {
 		}
 		spec = s
 	}
-	spec = spec.Override(r.spec)
+	flags := r.spec
+	var err error
+	if flags.Exposure, err = exposureFlags(r.exposure); err != nil {
+		return data.Spec{}, err
+	}
+	spec = spec.Override(flags)
+	if spec.Exposure, err = breakFlags(spec.Exposure, r.breaks); err != nil {
+		return data.Spec{}, err
+	}
 	if spec.Data == "" {
 		return data.Spec{}, usagef("no data file: name it with --data FILE (or \"data\" in the spec file)")
 	}

@@ -244,7 +244,7 @@ func costJumps(d *Dataset, nat Series) []Warning {
 			continue
 		}
 		ws = append(ws, Warning{KindCostJump, e.Column, fmt.Sprintf(
-			"the cost per unit of %s (%s / %s) jumps by %+.0f%% around the week of %s (%.1f times the weekly noise); a change in how the exposure is measured? If so, give it with --exposure-break %s=%s",
+			"the cost per unit of %s (%s / %s) jumps by %+.0f%% around the week of %s (%.3g times the weekly noise); a change in how the exposure is measured? If so, give it with --exposure-break %s=%s",
 			e.Column, col, e.Column, 100*(math.Exp(step)-1), d.Weeks[at[k]].Format(DateLayout), math.Abs(step)/sd, col, d.Weeks[at[k]].Format(DateLayout))})
 	}
 	return ws
@@ -265,16 +265,27 @@ func CostJump(L []float64) (k int, step, sd float64) {
 	}
 	sd = madToSD * mad(diff) / math.Sqrt2
 	k = -1
+	D := make([]float64, len(L)+1)
 	for j := w; j+w <= len(L); j++ {
-		d := median(L[j:j+w]) - median(L[j-w:j])
-		if math.Abs(d) > math.Abs(step) {
-			k, step = j, d
+		D[j] = median(L[j:j+w]) - median(L[j-w:j])
+		if math.Abs(D[j]) > math.Abs(step) {
+			k, step = j, D[j]
 		}
 	}
 	if k < 0 || math.Abs(step) <= CostJumpLog || math.Abs(step) <= CostJumpSDs*sd {
 		return -1, step, sd
 	}
-	return k, step, sd
+	// a clean step gives a plateau of windows that straddle it as fully
+	// (medians of w weeks ignore up to w/2-1 weeks of the other level):
+	// the jump is at the plateau's middle
+	lo, hi := k, k
+	for lo > w && D[lo-1]*step >= 0.9*step*step {
+		lo--
+	}
+	for hi+w < len(L) && D[hi+1]*step >= 0.9*step*step {
+		hi++
+	}
+	return (lo + hi + 1) / 2, step, sd
 }
 
 // mad returns the median absolute deviation from the median of x.

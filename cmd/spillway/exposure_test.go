@@ -1,0 +1,106 @@
+package main
+
+import (
+	"path/filepath"
+	"slices"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// exposureFrame is cmdFrame with a column video_imp (file column 8):
+// video's impressions at a cost per thousand of 12, then 15 from week 30
+// (a step that the cost-per-unit warning catches).
+func exposureFrame(n int) *cmdTable {
+	f := cmdFrame(n)
+	f.header = append(f.header, "video_imp")
+	for t := range f.rows {
+		v, _ := strconv.ParseFloat(f.rows[t][1], 64)
+		cpm := 12.0
+		if t >= 30 {
+			cpm = 15
+		}
+		f.rows[t] = append(f.rows[t], strconv.FormatFloat(1000*v/cpm, 'f', 0, 64))
+	}
+	return f
+}
+
+// TestExposureBadInput runs bad exposure mappings through inspect and fit:
+// exit status 2, one message naming FILE:LINE:COLUMN or the flag, and no
+// output folder left behind.
+func TestExposureBadInput(t *testing.T) {
+	for _, test := range []struct {
+		name  string
+		text  func() string
+		flags []string
+		want  string // after "spillway CMD: "; FILE is replaced by the data file's path
+	}{
+		{"exposure zero where spend is positive", func() string { return exposureFrame(60).set(12, "video_imp", "0").csv() },
+			[]string{"--exposure", "video=video_imp"}, `FILE:14:8: column "video_imp": exposure is 0 in a week where video spends`},
+		{"exposure where there is no spend", func() string { return exposureFrame(60).set(12, "video", "0").csv() },
+			[]string{"--exposure", "video=video_imp"}, `FILE:14:8: column "video_imp": exposure is `},
+		{"negative exposure", func() string { return exposureFrame(60).set(3, "video_imp", "-4").csv() },
+			[]string{"--exposure", "video=video_imp"}, `FILE:5:8: column "video_imp": -4 is negative; exposure cannot be negative`},
+		{"exposure column missing", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_impressions"}, `FILE:1: column "video_impressions": not in the header (asked for by --exposure)`},
+		{"exposure on paid search", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "search=video_imp"}, `--exposure search=video_imp: "search" is a paid-search column`},
+		{"exposure not a mapping", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video"}, `--exposure "video": expected SPEND=COLUMN`},
+		{"exposure column with another role", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=audio"}, `column "audio" is given to both --upper and --exposure`},
+		{"break after the data", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=2030-01-07"}, `--exposure-break video=2030-01-07: after the data`},
+		{"break before the data", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=2022-01-03"}, `--exposure-break video=2022-01-03: before the data`},
+		{"break on the first week", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=2023-01-02"}, `--exposure-break video=2023-01-02: the data's first week`},
+		{"break not a week start", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=2023-08-02"}, `--exposure-break video=2023-08-02: not a week start`},
+		{"break not a date", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=31/07/2023"}, `--exposure-break video=31/07/2023: "31/07/2023" is not a date`},
+		{"break without exposure", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure-break", "audio=2023-07-31"}, `--exposure-break "audio=2023-07-31": audio has no exposure column`},
+		{"two breaks on one channel", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=2023-07-31", "--exposure-break", "video_imp=2023-08-07"},
+			`--exposure-break "video_imp=2023-08-07": channel video already has a break`},
+	} {
+		t.Run(test.name, func(t *testing.T) {
+			dir := t.TempDir()
+			path := writeFileIn(t, dir, "data.csv", test.text())
+			want := strings.ReplaceAll(test.want, "FILE", path)
+			code, out, errs := runCmd(t, inspectArgs(path, test.flags...)...)
+			if code != exitUsage || out != "" || !strings.HasPrefix(errs, "spillway inspect: "+want) {
+				t.Errorf("inspect: got %d, stdout %q, stderr %q; want 2 and a message starting %q", code, out, errs, want)
+			}
+			args := append([]string{"fit", "--quiet", "--out", filepath.Join(dir, "results")}, inspectArgs(path, test.flags...)[1:]...)
+			code, _, errs = runCmd(t, args...)
+			if code != exitUsage || !strings.HasPrefix(errs, "spillway fit: "+want) {
+				t.Errorf("fit: got %d, stderr %q", code, errs)
+			}
+			if names := dirNames(t, dir); !slices.Equal(names, []string{"data.csv"}) {
+				t.Errorf("fit left %v behind", names)
+			}
+		})
+	}
+}
+
+// TestExposureInspect checks a good mapping: inspect succeeds, and the
+// step in video's cost per thousand from 12 to 15 in week 30 (2023-07-31)
+// is warned about with the flag that would declare it.
+func TestExposureInspect(t *testing.T) {
+	path := writeFileIn(t, t.TempDir(), "data.csv", exposureFrame(60).csv())
+	code, _, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp")...)
+	if code != 0 {
+		t.Fatalf("got %d: %s", code, errs)
+	}
+	if want := "the cost per unit of video_imp (video / video_imp) jumps by +25% around the week of 2023-07-31"; !strings.Contains(errs, want) ||
+		!strings.Contains(errs, "--exposure-break video=2023-07-31") {
+		t.Errorf("stderr %q; want the warning %q", errs, want)
+	}
+	// with the break declared, inspect still runs (the warning stays: the
+	// cost per unit did jump)
+	if code, _, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp", "--exposure-break", "video_imp=2023-07-31")...); code != 0 {
+		t.Fatalf("with the break: got %d: %s", code, errs)
+	}
+}
