@@ -1,6 +1,7 @@
 package main
 
 import (
+	"strconv"
 	"strings"
 
 	"spillway/funnel/data"
@@ -29,16 +30,38 @@ func exposureFlags(flags []string) ([]data.Exposure, error) {
 // a usage error naming the flag; Spec.Validate checks the date's form and
 // data.Read that it is a week of the data.
 func breakFlags(ms []data.Exposure, flags []string) ([]data.Exposure, error) {
+	return measureFlags(ms, flags, "--exposure-break", "COLUMN=YYYY-MM-DD, a channel with an exposure column and the first week of its new measurement", "break",
+		func(m *data.Exposure, v string) error { m.Break = v; return nil })
+}
+
+// errorFlags puts the --exposure-error COLUMN=SD flags on the mappings as
+// breakFlags does; SD must be a number (Spec.Validate checks its range).
+func errorFlags(ms []data.Exposure, flags []string) ([]data.Exposure, error) {
+	return measureFlags(ms, flags, "--exposure-error", "COLUMN=SD, a channel with an exposure column and the sd of its log error, like video_spend=0.15", "error size",
+		func(m *data.Exposure, v string) error {
+			sd, err := strconv.ParseFloat(v, 64)
+			if err != nil {
+				return err
+			}
+			m.Error = sd
+			return nil
+		})
+}
+
+// measureFlags applies flags of the form COLUMN=VALUE, named flag, to the
+// mapping of COLUMN (its spend or exposure column) with set; want says
+// what the flag expects and what its value is.
+func measureFlags(ms []data.Exposure, flags []string, flag, want, what string, set func(*data.Exposure, string) error) ([]data.Exposure, error) {
 	if len(flags) == 0 {
 		return ms, nil
 	}
 	ms = append([]data.Exposure(nil), ms...)
-	set := map[int]bool{}
+	done := map[int]bool{}
 	for _, f := range flags {
-		col, date, ok := strings.Cut(f, "=")
-		col, date = strings.TrimSpace(col), strings.TrimSpace(date)
-		if !ok || col == "" || date == "" {
-			return nil, usagef("--exposure-break %q: expected COLUMN=YYYY-MM-DD, a channel with an exposure column and the first week of its new measurement", f)
+		col, v, ok := strings.Cut(f, "=")
+		col, v = strings.TrimSpace(col), strings.TrimSpace(v)
+		if !ok || col == "" || v == "" {
+			return nil, usagef("%s %q: expected %s", flag, f, want)
 		}
 		i := -1
 		for k, m := range ms {
@@ -48,12 +71,14 @@ func breakFlags(ms []data.Exposure, flags []string) ([]data.Exposure, error) {
 		}
 		switch {
 		case i < 0:
-			return nil, usagef("--exposure-break %q: %s has no exposure column; a measurement break is in a channel's exposure (give --exposure SPEND=COLUMN first)", f, col)
-		case set[i]:
-			return nil, usagef("--exposure-break %q: channel %s already has a break; one break per channel is supported", f, ms[i].Spend)
+			return nil, usagef("%s %q: %s has no exposure column; a measurement %s is in a channel's exposure (give --exposure SPEND=COLUMN first)", flag, f, col, what)
+		case done[i]:
+			return nil, usagef("%s %q: channel %s already has one; one %s per channel is supported", flag, f, ms[i].Spend, what)
 		}
-		set[i] = true
-		ms[i].Break = date
+		done[i] = true
+		if err := set(&ms[i], v); err != nil {
+			return nil, usagef("%s %q: expected %s", flag, f, want)
+		}
 	}
 	return ms, nil
 }

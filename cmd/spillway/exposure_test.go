@@ -60,10 +60,16 @@ func TestExposureBadInput(t *testing.T) {
 		{"break not a date", func() string { return exposureFrame(60).csv() },
 			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=31/07/2023"}, `--exposure-break video=31/07/2023: "31/07/2023" is not a date`},
 		{"break without exposure", func() string { return exposureFrame(60).csv() },
-			[]string{"--exposure-break", "audio=2023-07-31"}, `--exposure-break "audio=2023-07-31": audio has no exposure column`},
+			[]string{"--exposure-break", "audio=2023-07-31"}, `--exposure-break "audio=2023-07-31": audio has no exposure column; a measurement break is in a channel's exposure`},
 		{"two breaks on one channel", func() string { return exposureFrame(60).csv() },
 			[]string{"--exposure", "video=video_imp", "--exposure-break", "video=2023-07-31", "--exposure-break", "video_imp=2023-08-07"},
-			`--exposure-break "video_imp=2023-08-07": channel video already has a break`},
+			`--exposure-break "video_imp=2023-08-07": channel video already has one; one break per channel is supported`},
+		{"error not a number", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-error", "video=15%"}, `--exposure-error "video=15%": expected COLUMN=SD`},
+		{"error too large", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure", "video=video_imp", "--exposure-error", "video=15"}, `--exposure-error video=15: expected the sd of the log error, a number from 0 to 2`},
+		{"error without exposure", func() string { return exposureFrame(60).csv() },
+			[]string{"--exposure-error", "audio=0.1"}, `--exposure-error "audio=0.1": audio has no exposure column`},
 	} {
 		t.Run(test.name, func(t *testing.T) {
 			dir := t.TempDir()

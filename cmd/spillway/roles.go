@@ -13,9 +13,10 @@ import (
 type roleFlags struct {
 	spec     data.Spec // from the flags; spec-file values fill what is empty
 	specFile string
-	// exposure and breaks are the --exposure SPEND=COLUMN and
-	// --exposure-break COLUMN=DATE flags as given (exposure.go)
-	exposure, breaks []string
+	// exposure, breaks and errors are the --exposure SPEND=COLUMN,
+	// --exposure-break COLUMN=DATE and --exposure-error COLUMN=SD flags as
+	// given (exposure.go)
+	exposure, breaks, errors []string
 }
 
 // addFlags adds --data --date --region --population --upper --search
@@ -33,6 +34,7 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&r.specFile, "spec", "", "a JSON spec `FILE` naming the roles; the flags above override it")
 	fs.StringArrayVar(&r.exposure, "exposure", nil, "`SPEND=COLUMN`: the upper-funnel channel SPEND runs on the exposure COLUMN (impressions, rating points); repeatable")
 	fs.StringArrayVar(&r.breaks, "exposure-break", nil, "`COLUMN=YYYY-MM-DD`: the exposure of channel COLUMN is measured a new way from that week on; the model learns how the two compare; repeatable")
+	fs.StringArrayVar(&r.errors, "exposure-error", nil, "`COLUMN=SD`: the exposure of channel COLUMN is observed with multiplicative error of sd SD on the log scale (0.15 for about 15%); repeatable")
 }
 
 // given reports whether any role flag or a spec file was given (cmd run uses
@@ -41,7 +43,7 @@ func (r *roleFlags) given() bool {
 	s := r.spec
 	return r.specFile != "" || s.Data != "" || s.Date != "" || s.Region != "" || s.Population != "" ||
 		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0 ||
-		len(r.exposure) > 0 || len(r.breaks) > 0
+		len(r.exposure) > 0 || len(r.breaks) > 0 || len(r.errors) > 0
 }
 
 // inputs returns the files the role flags read: the spec file and the
@@ -76,6 +78,9 @@ func (r *roleFlags) resolve() (data.Spec, error) {
 	}
 	spec = spec.Override(flags)
 	if spec.Exposure, err = breakFlags(spec.Exposure, r.breaks); err != nil {
+		return data.Spec{}, err
+	}
+	if spec.Exposure, err = errorFlags(spec.Exposure, r.errors); err != nil {
 		return data.Spec{}, err
 	}
 	if spec.Data == "" {

@@ -24,6 +24,11 @@ type Exposure struct {
 	// the ratio of the old measurement's scale to the new one's instead of
 	// assuming them equal.
 	Break string `json:"break,omitempty"`
+	// Error, if above 0, says the exposure is observed with multiplicative
+	// error: observed = true exp(e), e ~ Normal(0, Error^2) by week (0.15
+	// for about 15%); the model then treats each week's true exposure as
+	// unknown.
+	Error float64 `json:"error,omitempty"`
 }
 
 // ExposureOf returns the exposure mapping of spend column col, if any.
@@ -74,6 +79,9 @@ func (s Spec) validateExposure() error {
 			return fail("--exposure: %q is given two exposure columns; expected one per channel", e.Spend)
 		}
 		seen[e.Spend] = true
+		if e.Error < 0 || e.Error > 2 || math.IsNaN(e.Error) {
+			return fail("--exposure-error %s=%g: expected the sd of the log error, a number from 0 to 2 (0.15 for about 15%%)", e.Spend, e.Error)
+		}
 		if e.Break != "" {
 			if _, err := time.Parse(DateLayout, e.Break); err != nil {
 				return fail("--exposure-break %s=%s: %q is not a date; expected YYYY-MM-DD, the first week of the new measurement", e.Spend, e.Break, e.Break)

@@ -5,13 +5,13 @@ import "spillway/funnel/transform"
 // Carry returns the channel's adstock in the last week of x when x follows
 // weeks whose adstock ended at a0 (0 for a linear channel, which carries
 // nothing over): the state from which ResponseFrom continues. With a
-// measurement break x starts at the data's first week (a0 = 0), and its
-// weeks before the break count Factor times, as in Response.
+// measurement break or error x starts at the data's first week (a0 = 0)
+// and goes through the measurement first, as in Response.
 func (m Media) Carry(x []float64, a0 float64) float64 {
 	if m.Linear {
 		return 0
 	}
-	if m.Before > 0 {
+	if m.Before > 0 || m.ErrSD > 0 {
 		x = m.measured(nil, x)
 	}
 	return transform.AdstockEnd(x, m.Lam, a0)

@@ -1,6 +1,7 @@
 package model
 
 import (
+	"fmt"
 	"math"
 
 	"spillway/funnel/data"
@@ -11,6 +12,10 @@ import (
 // log kappa ~ Normal(0, 0.5): a factor between 0.44 and 2.7 with 95%
 // probability, centred on "the two measurements agree".
 var PriorBreak = Prior{Normal, 0, 0.5}
+
+// PriorLatent is the prior of a latent error z[t] of exposure observed
+// with error: the standard normal of a non-centred parameterisation.
+var PriorLatent = Prior{Normal, 0, 1}
 
 // Break is a known change in how a channel's exposure is measured (a vendor
 // or method change) at week At (0-based, At >= 1): the exposure of the weeks
@@ -31,137 +36,182 @@ type Break struct {
 // break on the path whose coefficient is coef ("alpha", "delta").
 func breakName(coef, col string) string { return "log_break_" + coef + "[" + col + "]" }
 
-// breakTerm is a media channel with a measurement break: coef * H(adstock(
-// x_kappa; lam); K, S), x_kappa[t] = kappa x[t] before the break and x[t]
-// from it on, kappa = exp(nat[kb]). The adstock is linear in x, so
-// a = a_old kappa + a_new and d a/d kappa = a_old, the adstock of the old
-// weeks' exposure alone; the response's derivative in kappa is
-// dH/da a_old = S H (1 - H) a_old / a. It is a channelTerm running on
-// x_kappa (its x points at the scratch xs) with one more parameter.
-type breakTerm struct {
-	*channelTerm
-	x0     []float64 // the observed scaled exposure
-	at     int       // first week of the new measurement
-	kb     int       // position of log kappa
-	xs     []float64 // x_kappa, what the channel term reads
-	aold   []float64 // adstock of the old weeks' exposure
-	hb     []float64 // d H/d log kappa
-	hbbar  float64   // its mean
-	kappa  float64
-	gkappa float64 // scratch
+// Error is exposure observed with multiplicative error (errors in
+// variables): observed x[t] = true x[t] exp(e[t]), e[t] ~ Normal(0, SD^2)
+// independently by week, SD stated by the user. The true exposure of each
+// week with exposure, x[t] exp(-SD z[t]), is latent, sampled non-centred
+// with z[t] ~ Normal(0, 1), one parameter per such week (Params, in the
+// order of Weeks), so the intervals carry the doubt about the exposure. As
+// with a break, each stage has its own latent weeks.
+type Error struct {
+	SD     float64
+	Weeks  []int // weeks with exposure > 0, the ones with a latent value
+	Params []Param
 }
 
-func newBreakTerm(ch *channelTerm, at, kb int) *breakTerm {
-	if ch.linear || at < 1 || at >= len(ch.x) {
-		panic("model: a measurement break needs a saturating channel and a week inside the data after its first")
+// errorName returns the parameter name of the latent error of week t
+// (0-based) of channel col's exposure on the path whose coefficient is
+// coef.
+func errorName(coef, col string, t int) string {
+	return fmt.Sprintf("xerr_%s[%s,%d]", coef, col, t+1)
+}
+
+// measureParams returns the parameters of channel c's exposure measurement,
+// in draw order: a break's log factor, then the latent errors.
+func (c *Channel) measureParams() []*Param {
+	var out []*Param
+	if c.Break != nil {
+		out = append(out, &c.Break.Param)
 	}
-	b := &breakTerm{channelTerm: ch, x0: ch.x, at: at, kb: kb}
-	b.alloc()
-	return b
+	if c.Error != nil {
+		for i := range c.Error.Params {
+			out = append(out, &c.Error.Params[i])
+		}
+	}
+	return out
 }
 
-func (b *breakTerm) alloc() {
-	T := len(b.x0)
-	b.xs, b.aold, b.hb = make([]float64, T), make([]float64, T), make([]float64, T)
-	b.channelTerm.x = b.xs
+// measuredTerm is a media channel whose exposure is measured with doubt:
+// coef * H(adstock(x~; lam); K, S) on the input
+//
+//	x~[t] = x[t] kappa^[t < at] exp(-sd z[t])
+//
+// with kappa = exp(nat[kb]) a measurement break's factor (kb < 0: none) and
+// z[t] the latent errors (nat[zk+i] for week weeks[i]; sd 0: none). It is a
+// channelTerm running on x~ (its x points at the scratch xs), which gives
+// the gradient in coef, lam, K and S; the gradient in the input comes back
+// through the adstock, which is linear in x~: with r[t] = d lp/d a[t],
+// d lp/d x~[t] = (1 - lam) sum_{u >= t} lam^(u-t) r[u], one backward
+// recursion. Then d x~[t]/d log kappa = x~[t] before the break and
+// d x~[t]/d z[t] = -sd x~[t].
+type measuredTerm struct {
+	*channelTerm
+	x0    []float64 // the observed scaled exposure
+	at    int       // first week of the new measurement (0: no break)
+	kb    int       // position of log kappa, -1
+	sd    float64   // the error's sd (0: none)
+	zk    int       // position of the first latent error
+	weeks []int     // weeks with a latent error
+	xs    []float64 // x~, what the channel term reads
+	dh    []float64 // dH/da
+	gx    []float64 // scratch: d lp/d x~
 }
 
-func (b *breakTerm) clone() predictor {
-	c := *b
-	c.channelTerm = b.channelTerm.clone().(*channelTerm)
+func newMeasuredTerm(ch *channelTerm, at, kb int, sd float64, zk int, weeks []int) *measuredTerm {
+	if ch.linear || kb >= 0 && (at < 1 || at >= len(ch.x)) {
+		panic("model: a measured exposure needs a saturating channel, and a break a week inside the data after its first")
+	}
+	m := &measuredTerm{channelTerm: ch, x0: ch.x, at: at, kb: kb, sd: sd, zk: zk, weeks: weeks}
+	m.alloc()
+	return m
+}
+
+func (m *measuredTerm) alloc() {
+	T := len(m.x0)
+	m.xs, m.dh, m.gx = make([]float64, T), make([]float64, T), make([]float64, T)
+	m.channelTerm.x = m.xs
+}
+
+func (m *measuredTerm) clone() predictor {
+	c := *m
+	c.channelTerm = m.channelTerm.clone().(*channelTerm)
 	c.alloc()
 	return &c
 }
 
-// scaleOld writes x0 with the weeks before the break times kappa into xs.
-func (b *breakTerm) scaleOld(kappa float64) {
-	for t, v := range b.x0 {
-		if t < b.at {
-			v *= kappa
+// input writes x~ at the natural values v into xs.
+func (m *measuredTerm) input(v []float64) {
+	copy(m.xs, m.x0)
+	if m.kb >= 0 {
+		kappa := math.Exp(v[m.kb])
+		for t := range m.at {
+			m.xs[t] *= kappa
 		}
-		b.xs[t] = v
+	}
+	if m.sd > 0 {
+		for i, t := range m.weeks {
+			m.xs[t] *= math.Exp(-m.sd * v[m.zk+i])
+		}
 	}
 }
 
-func (b *breakTerm) prepare(nat []float64, grad bool) bool {
-	b.kappa = math.Exp(nat[b.kb])
-	b.scaleOld(b.kappa)
-	ok := b.channelTerm.prepare(nat, grad)
-	if !grad {
-		return ok
-	}
-	// d a/d log kappa = kappa a_old: the adstock of x_kappa's old weeks
-	lam, s := nat[b.k[1]], nat[b.k[3]]
-	prev, sum := 0.0, 0.0
-	for t := range b.xs {
-		v := 0.0
-		if t < b.at {
-			v = b.xs[t]
+func (m *measuredTerm) prepare(nat []float64, grad bool) bool {
+	m.input(nat)
+	ok := m.channelTerm.prepare(nat, grad)
+	if grad {
+		s := nat[m.k[3]]
+		for t, h := range m.h {
+			m.dh[t] = 0
+			if a := m.a[t]; a > 0 {
+				m.dh[t] = s * h * (1 - h) / a
+			}
 		}
-		prev = (1-lam)*v + lam*prev
-		b.aold[t] = prev
-		h, a := b.h[t], b.a[t]
-		d := 0.0
-		if a > 0 {
-			d = s * h * (1 - h) / a * prev
-		}
-		b.hb[t] = d
-		sum += d
 	}
-	b.hbbar = sum / float64(len(b.xs))
-	return ok && !notFinite(b.hbbar)
+	return ok
 }
 
-func (b *breakTerm) backward(g, nat, w []float64, sw, gmu float64) {
-	b.channelTerm.backward(g, nat, w, sw, gmu)
-	cb := 0.0
-	if b.centred {
-		cb = 1
+func (m *measuredTerm) backward(g, nat, w []float64, sw, gmu float64) {
+	m.channelTerm.backward(g, nat, w, sw, gmu)
+	b, lam := nat[m.k[0]], nat[m.k[1]]
+	off := 0.0
+	if m.centred {
+		off = (sw + gmu) / float64(len(w))
 	}
-	s := 0.0
-	for t, d := range b.hb {
-		s += w[t] * d
+	u := 0.0
+	for t := len(w) - 1; t >= 0; t-- {
+		u = b*(w[t]-off)*m.dh[t] + lam*u
+		m.gx[t] = (1 - lam) * u * m.xs[t] // d lp/d log x~[t]
 	}
-	g[b.kb] += nat[b.k[0]] * (s - cb*b.hbbar*sw - gmu*cb*b.hbbar)
+	if m.kb >= 0 {
+		s := 0.0
+		for t := range m.at {
+			s += m.gx[t]
+		}
+		g[m.kb] += s
+	}
+	for i, t := range m.weeks {
+		g[m.zk+i] -= m.sd * m.gx[t]
+	}
 }
 
 // unconstrain writes the coefficient's sampling coordinate at the natural
-// values v (the response run on x_kappa) and returns what shift would.
-func (b *breakTerm) unconstrain(dst, v []float64, par []param) float64 {
-	b.scaleOld(math.Exp(v[b.kb]))
-	return b.channelTerm.unconstrain(dst, v, par)
+// values v (the response run on x~) and returns what shift would.
+func (m *measuredTerm) unconstrain(dst, v []float64, par []param) float64 {
+	m.input(v)
+	return m.channelTerm.unconstrain(dst, v, par)
 }
 
-var _ predictor = (*breakTerm)(nil)
+var _ predictor = (*measuredTerm)(nil)
 
-// scaleBefore writes x with weeks 0..at-1 multiplied by f into dst and
-// returns it (x copied when at is 0); a dst too short is replaced.
-func scaleBefore(dst, x []float64, at int, f float64) []float64 {
+// measured returns m's input series for the exposure x observed from the
+// data's first week: x with the weeks before a measurement break times the
+// break's factor and each week with a latent error times exp(-ErrSD z),
+// written into dst; x itself when the channel has neither. Weeks past the
+// data are taken as given.
+func (m Media) measured(dst, x []float64) []float64 {
+	if m.Before <= 0 && m.ErrSD == 0 {
+		return x
+	}
 	dst = resizeTo(dst, len(x))
-	for t, v := range x {
-		if t < at {
-			v *= f
+	copy(dst, x)
+	for t := range min(m.Before, len(x)) {
+		dst[t] *= m.Factor
+	}
+	if m.ErrSD > 0 {
+		for i, t := range m.ErrWeeks {
+			if t < len(x) {
+				dst[t] *= math.Exp(-m.ErrSD * m.ErrZ[i])
+			}
 		}
-		dst[t] = v
 	}
 	return dst
 }
 
-// measured returns m's input series for the exposure x observed from the
-// data's first week: x with the weeks before a measurement break times the
-// break's factor (Media.Before, Media.Factor), written into dst, or x itself
-// when the channel has no break.
-func (m Media) measured(dst, x []float64) []float64 {
-	if m.Before <= 0 {
-		return x
-	}
-	return scaleBefore(dst, x, m.Before, m.Factor)
-}
-
-// responseBroken is Response for a channel with a measurement break: x
-// from the data's first week, the weeks before the break times the factor.
-func (m Media) responseBroken(dst, x []float64) []float64 {
-	dst = scaleBefore(dst, x, m.Before, m.Factor)
+// responseMeasured is Response for a channel whose exposure is measured
+// with a break or an error: x from the data's first week, through
+// measured first.
+func (m Media) responseMeasured(dst, x []float64) []float64 {
+	dst = m.measured(dst, x)
 	if m.Linear {
 		return dst
 	}
@@ -181,7 +231,7 @@ func (sc *Scaled) useExposure(s data.Series, spec data.Spec, in func(int) bool) 
 	n := len(s.Upper)
 	sc.RawExposure, sc.ExposureScale = make([][]float64, n), make([]float64, n)
 	for c, x := range s.Exposure {
-		if x == nil {
+		if _, ok := spec.ExposureOf(spec.Upper[c]); !ok || x == nil {
 			continue
 		}
 		sum, k := 0.0, 0
@@ -194,6 +244,12 @@ func (sc *Scaled) useExposure(s data.Series, spec data.Spec, in func(int) bool) 
 		d := sum / float64(k)
 		sc.RawExposure[c], sc.ExposureScale[c] = x, d
 		sc.Upper[c] = scaled(x, d)
+		if m, _ := spec.ExposureOf(spec.Upper[c]); m.Error > 0 {
+			if sc.Errors == nil {
+				sc.Errors = make([]float64, n)
+			}
+			sc.Errors[c] = m.Error
+		}
 		if at := spec.BreakWeek(spec.Upper[c], sc.Weeks); at > 0 {
 			if sc.Breaks == nil {
 				sc.Breaks = make([]int, n)
@@ -227,6 +283,15 @@ const RecentWeeks = 13
 // Exposed reports whether upper-funnel channel c runs on an exposure column.
 func (sc *Scaled) Exposed(c int) bool {
 	return sc.RawExposure != nil && sc.RawExposure[c] != nil
+}
+
+// ErrorSD returns the sd of upper-funnel channel c's exposure error, on the
+// log scale (0 when it is taken as measured).
+func (sc *Scaled) ErrorSD(c int) float64 {
+	if sc.Errors == nil {
+		return 0
+	}
+	return sc.Errors[c]
 }
 
 // BreakAt returns upper-funnel channel c's measurement break week (0 when

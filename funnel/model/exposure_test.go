@@ -8,40 +8,69 @@ import (
 	"spillway/funnel/transform"
 )
 
-// TestBreakTerm checks a channel with a measurement break in natural
-// coordinates: the gradient in lam, K, S and the log factor against
-// central finite differences of the forward pass, centred and not, with no
-// allocation per evaluation.
-func TestBreakTerm(t *testing.T) {
+// TestMeasuredTerm checks a channel whose exposure has a measurement break,
+// latent errors, or both, in natural coordinates: the gradient in lam, K,
+// S, the log factor and the latent errors against central finite
+// differences of the forward pass, centred and not, with no allocation per
+// evaluation.
+func TestMeasuredTerm(t *testing.T) {
 	sc := testScaled(60, 2)
 	c := randomWeights(60, 5)
-	for _, centred := range []bool{false, true} {
-		ch := Channel{Column: "video", X: sc.Upper[0], Params: mediaParams("video", "alpha", "lam", "K", "S", false)}
-		par := []param{{name: "mu", free: 0}, {name: "alpha", sup: PositiveReal, free: -1},
-			{name: "lam", sup: UnitInterval, free: 1}, {name: "K", sup: PositiveReal, free: 2}, {name: "S", sup: PositiveReal, free: 3},
-			{name: "log_break", sup: Real, free: 4}}
-		k := []int{1, 2, 3, 4, 5}
-		base, scale := []float64{0.3, 0.5, 1, 2, 0.1}, []float64{0.2, 0.4, 0.5, 1, 0.6}
-		term := newBreakTerm(newChannelTerm(&ch, k[:4], par, false, centred), 25, 5)
-		f := predictorFunc(t, term, len(par), k, base, scale, c, -0.4)
-		mcmctest.CheckGradient(t, f, 1e-6, termGrad)
-		mcmctest.CheckNoAlloc(t, f, make([]float64, len(k)))
+	var weeks []int
+	for w, x := range sc.Upper[0] {
+		if x > 0 && len(weeks) < 12 {
+			weeks = append(weeks, w)
+		}
+	}
+	for _, kind := range []string{"break", "error", "both"} {
+		for _, centred := range []bool{false, true} {
+			ch := Channel{Column: "video", X: sc.Upper[0], Params: mediaParams("video", "alpha", "lam", "K", "S", false)}
+			par := []param{{name: "mu", free: 0}, {name: "alpha", sup: PositiveReal, free: -1},
+				{name: "lam", sup: UnitInterval, free: 1}, {name: "K", sup: PositiveReal, free: 2}, {name: "S", sup: PositiveReal, free: 3}}
+			k := []int{1, 2, 3, 4}
+			base, scale := []float64{0.3, 0.5, 1, 2}, []float64{0.2, 0.4, 0.5, 1}
+			kb, sd, zk, ws := -1, 0.0, -1, []int(nil)
+			if kind != "error" {
+				kb = len(par)
+				par = append(par, param{name: "log_break", sup: Real, free: len(k)})
+				k, base, scale = append(k, kb), append(base, 0.1), append(scale, 0.6)
+			}
+			if kind != "break" {
+				sd, zk, ws = 0.2, len(par), weeks
+				for i := range ws {
+					par = append(par, param{name: "z", sup: Real, free: len(k)})
+					k, base, scale = append(k, zk+i), append(base, 0.1*float64(i%3)), append(scale, 1)
+				}
+			}
+			term := newMeasuredTerm(newChannelTerm(&ch, k[:4], par, false, centred), 25, kb, sd, zk, ws)
+			f := predictorFunc(t, term, len(par), k, base, scale, c, -0.4)
+			mcmctest.CheckGradient(t, f, 1e-6, termGrad)
+			mcmctest.CheckNoAlloc(t, f, make([]float64, len(k)))
+		}
 	}
 }
 
-// TestBreakTarget checks a stage whose channel has a break in the sampling
-// coordinates (rescaled coefficient, centred intercept, the log factor's
-// prior), and that Constrain and Unconstrain invert each other.
+// TestBreakTarget checks a stage whose channel has a break and latent
+// errors in the sampling coordinates (rescaled coefficient, centred
+// intercept, the priors of the log factor and the errors), and that
+// Constrain and Unconstrain invert each other.
 func TestBreakTarget(t *testing.T) {
 	sc := testScaled(60, 3)
 	sc.RawExposure = [][]float64{sc.Upper[0], nil}
 	sc.Breaks = []int{30, 0}
+	sc.Errors = []float64{0.15, 0}
 	st, err := Demand(sc, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if got := st.Names()[len(st.Names())-1]; got != "log_break_alpha[video]" {
-		t.Fatalf("last parameter %s, want log_break_alpha[video]", got)
+	names := st.Names()
+	l := st.Layout()
+	cs, _ := l.Channel("video")
+	if names[cs.Break] != "log_break_alpha[video]" || cs.ErrZ != cs.Break+1 || len(names) != cs.ErrZ+len(cs.ErrWeeks) {
+		t.Fatalf("the break's factor at %d (%s), the errors from %d: want them last", cs.Break, names[cs.Break], cs.ErrZ)
+	}
+	if want := errorName("alpha", "video", cs.ErrWeeks[0]); names[cs.ErrZ] != want {
+		t.Fatalf("first latent error %s, want %s", names[cs.ErrZ], want)
 	}
 	tg, err := st.Target()
 	if err != nil {
@@ -131,6 +160,51 @@ func TestBreakChoices(t *testing.T) {
 		}
 		if _, err := Outcome(sc, o); err == nil {
 			t.Errorf("%+v: no error for a break on that channel (outcome)", o)
+		}
+	}
+}
+
+// TestErrorResponse checks that the layout's Media of a channel with latent
+// errors runs on x[t] exp(-sd z[t]) (computed here by hand) in the weeks
+// with exposure, that Predict uses the same response, and that past the
+// data's weeks the exposure is taken as given.
+func TestErrorResponse(t *testing.T) {
+	sc := testScaled(52, 6)
+	sc.RawExposure = [][]float64{sc.Upper[0], nil}
+	sc.Errors = []float64{0.3, 0}
+	st, err := Demand(sc, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	l := st.Layout()
+	v := make([]float64, l.Len())
+	for i := range v {
+		v[i] = 0.5
+	}
+	cs, _ := l.Channel("video")
+	for i := range cs.ErrWeeks {
+		v[cs.ErrZ+i] = math.Sin(float64(i))
+	}
+	x := append(append([]float64(nil), sc.Upper[0]...), 0.7)
+	want := append([]float64(nil), x...)
+	for i, w := range cs.ErrWeeks {
+		want[w] *= math.Exp(-0.3 * math.Sin(float64(i)))
+	}
+	a := transform.Adstock(nil, want, 0.5)
+	m := l.View(v).ChannelAt(0)
+	got := m.Response(nil, x)
+	for i := range got {
+		if h := transform.Hill(a[i], 0.5, 0.5); math.Abs(got[i]-h) > 1e-12 {
+			t.Fatalf("week %d: response %v, want %v", i, got[i], h)
+		}
+	}
+	n := st.Predict(nil, v)
+	v2 := append([]float64(nil), v...)
+	v2[cs.Coef] = 0 // without video
+	n0 := st.Predict(nil, v2)
+	for i := range n {
+		if d := n[i] - n0[i]; math.Abs(d-0.5*got[i]) > 1e-12 {
+			t.Fatalf("week %d: video adds %v to the predictor, want %v", i, d, 0.5*got[i])
 		}
 	}
 }

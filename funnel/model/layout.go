@@ -37,6 +37,12 @@ type ChannelSlots struct {
 	// the channel's exposure (exposure.go), -1 when it has none; BreakAt
 	// is the break's week.
 	Break, BreakAt int
+	// ErrZ is the position of the first latent error of the channel's
+	// exposure, -1 when it has none; ErrSD is the error's sd and ErrWeeks
+	// the weeks with a latent error, one each from ErrZ on.
+	ErrZ     int
+	ErrSD    float64
+	ErrWeeks []int
 }
 
 // SmoothSlots are the positions of a smooth function's parameters (model
@@ -82,7 +88,7 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for _, c := range s.Channels {
-		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1}
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1, ErrZ: -1}
 		if !c.Linear {
 			cs.Lam, cs.K, cs.S = add(), add(), add()
 		}
@@ -109,8 +115,15 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for j, c := range s.Channels {
+		cs := &l.channels[j]
 		if c.Break != nil {
-			l.channels[j].Break, l.channels[j].BreakAt = add(), c.Break.At
+			cs.Break, cs.BreakAt = add(), c.Break.At
+		}
+		if e := c.Error; e != nil {
+			cs.ErrZ, cs.ErrSD, cs.ErrWeeks = k, e.SD, e.Weeks
+			name, _, _ := strings.Cut(l.names[k], ",")
+			l.blocks = append(l.blocks, Block{Name: name + "]", Start: k, Len: len(e.Weeks)})
+			k += len(e.Weeks)
 		}
 	}
 	return l
@@ -328,6 +341,9 @@ func (p Params) ChannelAt(j int) Media {
 	if c.Break >= 0 {
 		m.Before, m.Factor = c.BreakAt, math.Exp(p.v[c.Break])
 	}
+	if c.ErrZ >= 0 {
+		m.ErrSD, m.ErrWeeks, m.ErrZ = c.ErrSD, c.ErrWeeks, p.v[c.ErrZ:c.ErrZ+len(c.ErrWeeks)]
+	}
 	return m
 }
 
@@ -377,16 +393,24 @@ type Media struct {
 	// Before is 0 when the channel has no break.
 	Before int
 	Factor float64
+	// ErrSD, ErrWeeks and ErrZ are exposure observed with error
+	// (exposure.go): the input of week ErrWeeks[i] is multiplied by
+	// exp(-ErrSD ErrZ[i]), the latent true exposure. ErrSD is 0 when the
+	// exposure is taken as measured.
+	ErrSD    float64
+	ErrWeeks []int
+	ErrZ     []float64
 }
 
 // Response writes the coefficient-free response H(adstock(x; Lam); K, S) of
 // the spend series x (scaled units) into dst and returns it (x itself for a
-// linear channel); a dst too short is replaced. With a measurement break, x
-// starts at the data's first week and its weeks before the break are
-// multiplied by Factor first.
+// linear channel); a dst too short is replaced. With a measurement break or
+// error, x starts at the data's first week and goes through the
+// measurement first (weeks before the break times Factor, the latent true
+// exposure of weeks with an error).
 func (m Media) Response(dst, x []float64) []float64 {
-	if m.Before > 0 {
-		return m.responseBroken(dst, x)
+	if m.Before > 0 || m.ErrSD > 0 {
+		return m.responseMeasured(dst, x)
 	}
 	dst = resizeTo(dst, len(x))
 	if m.Linear {

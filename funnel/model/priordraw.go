@@ -56,9 +56,9 @@ func (s *Stage) PriorDraw(dst []float64, rng *rand.Rand) ([]float64, error) {
 			}
 		}
 	}
-	for _, c := range s.Channels {
-		if c.Break != nil {
-			if err := draw(c.Break.Param.Prior); err != nil {
+	for i := range s.Channels {
+		for _, p := range s.Channels[i].measureParams() {
+			if err := draw(p.Prior); err != nil {
 				return nil, err
 			}
 		}

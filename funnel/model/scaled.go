@@ -41,6 +41,9 @@ type Scaled struct {
 	// Breaks holds each upper-funnel channel's measurement break week
 	// (0 when none; nil when no channel has one).
 	Breaks []int
+	// Errors holds each upper-funnel channel's exposure error sd (0 when
+	// taken as measured; nil when no channel has one).
+	Errors []float64
 	// QueriesScale and OutcomeScale are mean(q) and mean(y), in raw units.
 	QueriesScale, OutcomeScale float64
 	ControlMean, ControlSD     []float64

@@ -43,6 +43,9 @@ type Channel struct {
 	// (exposure.go). Its log factor comes last in the stage's draws, after
 	// the smooth functions' parameters.
 	Break *Break
+	// Error, if not nil, says the channel's exposure is observed with
+	// error (exposure.go). Its latent errors follow the break's factor.
+	Error *Error
 }
 
 // mediaParams returns a channel's parameters named coef[col], lam[col],
@@ -99,9 +102,9 @@ func (s *Stage) Names() []string {
 			names = append(names, p.Name)
 		}
 	}
-	for _, c := range s.Channels {
-		if c.Break != nil {
-			names = append(names, c.Break.Param.Name)
+	for i := range s.Channels {
+		for _, p := range s.Channels[i].measureParams() {
+			names = append(names, p.Name)
 		}
 	}
 	return names
@@ -156,9 +159,11 @@ func (s *Stage) SetPrior(name string, p Prior) bool {
 		}
 	}
 	for i := range s.Channels {
-		if b := s.Channels[i].Break; b != nil && b.Param.Name == name {
-			b.Param.Prior = p
-			return true
+		for _, q := range s.Channels[i].measureParams() {
+			if q.Name == name {
+				q.Prior = p
+				return true
+			}
 		}
 	}
 	return false
@@ -187,7 +192,7 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 	for _, c := range s.Channels {
 		sk += len(c.Params)
 	}
-	bk := sk // past the smooths: the breaks' log factors
+	bk := sk // past the smooths: the exposures' measurement parameters
 	for _, sm := range s.smooths() {
 		bk += len(sm.Params)
 	}
@@ -204,6 +209,10 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 		if c.Break != nil {
 			m.Before, m.Factor = c.Break.At, math.Exp(v[bk])
 			bk++
+		}
+		if e := c.Error; e != nil {
+			m.ErrSD, m.ErrWeeks, m.ErrZ = e.SD, e.Weeks, v[bk:bk+len(e.Weeks)]
+			bk += len(e.Weeks)
 		}
 		h = m.Response(h, c.X)
 		if c.Drift == nil {
@@ -294,9 +303,11 @@ func (s *Stage) support(name string) (def Support, coefficient, ok bool) {
 			}
 		}
 	}
-	for _, c := range s.Channels {
-		if c.Break != nil && c.Break.Param.Name == name {
-			return c.Break.Param.Default, false, true
+	for i := range s.Channels {
+		for _, q := range s.Channels[i].measureParams() {
+			if q.Name == name {
+				return q.Default, false, true
+			}
 		}
 	}
 	return 0, false, false
@@ -418,21 +429,36 @@ func (s *Stage) Target() (*Target, error) {
 	if base != nil {
 		t.terms = append(t.terms, base)
 	}
-	// the breaks' log factors come last (Names)
+	// the exposures' measurement parameters come last (Names)
 	for i := range s.Channels {
-		b := s.Channels[i].Break
-		if b == nil {
+		c := &s.Channels[i]
+		ps := c.measureParams()
+		if len(ps) == 0 {
 			continue
 		}
-		kb, err := add(b.Param.Name, b.Param.Prior, b.Param.Default)
-		if err != nil {
-			return nil, err
+		k := make([]int, len(ps))
+		for q, p := range ps {
+			if k[q], err = add(p.Name, p.Prior, p.Default); err != nil {
+				return nil, err
+			}
 		}
 		ch, ok := t.terms[first+i].(*channelTerm)
 		if !ok || ch.linear {
-			return nil, fmt.Errorf("model: channel %s has a measurement break; it must saturate and must not drift", s.Channels[i].Column)
+			return nil, fmt.Errorf("model: channel %s has a measured exposure (a break or an error); it must saturate and must not drift", c.Column)
 		}
-		t.terms[first+i] = newBreakTerm(ch, b.At, kb)
+		kb, at, sd, zk, weeks := -1, 0, 0.0, -1, []int(nil)
+		if c.Break != nil {
+			kb, at, k = k[0], c.Break.At, k[1:]
+		}
+		if c.Error != nil {
+			sd, zk, weeks = c.Error.SD, k[0], c.Error.Weeks
+			for q := range k {
+				if k[q] != zk+q {
+					panic("model: latent errors are consecutive")
+				}
+			}
+		}
+		t.terms[first+i] = newMeasuredTerm(ch, at, kb, sd, zk, weeks)
 	}
 	t.alloc()
 	return t, nil

@@ -71,7 +71,7 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 	for c, col := range sc.UpperNames {
 		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o, sc.Mask))
 	}
-	if err := withBreaks(st, sc, "alpha"); err != nil {
+	if err := withMeasurement(st, sc, "alpha"); err != nil {
 		return nil, err
 	}
 	return finish(st, o)
@@ -85,7 +85,7 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 	st.Regressors = append(st.Regressors, Regressor{Name: QueryCoef, X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
 	st = withChannels(st, sc, o)
-	if err := withBreaks(st, sc, "delta"); err != nil {
+	if err := withMeasurement(st, sc, "delta"); err != nil {
 		return nil, err
 	}
 	return finish(st, o)
@@ -95,31 +95,44 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 // branded search demand would credit to paid search.
 func Naive(sc *Scaled, o Options) (*Stage, error) {
 	st := withChannels(outcomeBase("naive", sc, o), sc, o)
-	if err := withBreaks(st, sc, "delta"); err != nil {
+	if err := withMeasurement(st, sc, "delta"); err != nil {
 		return nil, err
 	}
 	return finish(st, o)
 }
 
-// withBreaks gives each upper-funnel channel of st with a measurement break
-// in its exposure (Scaled.Breaks) its log factor on the path whose
-// coefficient is coef, with the prior PriorBreak. A break needs a channel
-// that saturates and does not drift: a drift in effectiveness and a step in
-// the measurement's scale would explain the same weeks.
-func withBreaks(st *Stage, sc *Scaled, coef string) error {
+// withMeasurement gives each upper-funnel channel of st whose exposure has a
+// measurement break (Scaled.Breaks) its log factor on the path whose
+// coefficient is coef, with the prior PriorBreak, and each whose exposure
+// is observed with error (Scaled.Errors) its latent errors. Either needs a
+// channel that saturates and does not drift: a drift in effectiveness and
+// a change in the measurement would explain the same weeks.
+func withMeasurement(st *Stage, sc *Scaled, coef string) error {
 	for c, col := range sc.UpperNames {
-		at := sc.BreakAt(c)
-		if at == 0 {
+		at, sd := sc.BreakAt(c), sc.ErrorSD(c)
+		if at == 0 && sd == 0 {
 			continue
 		}
 		ch := &st.Channels[st.ChannelIndex(col)]
 		switch {
 		case ch.Linear:
-			return fmt.Errorf("model: channel %s has a measurement break in its exposure and is linear; a break needs the saturating channel", col)
+			return fmt.Errorf("model: channel %s's exposure has a measurement break or error and the channel is linear; that needs the saturating channel", col)
 		case ch.Drift != nil:
-			return fmt.Errorf("model: channel %s has a measurement break in its exposure and drifts; the two would explain the same weeks: choose one", col)
+			return fmt.Errorf("model: channel %s's exposure has a measurement break or error and the channel drifts; the two would explain the same weeks: choose one", col)
 		}
-		ch.Break = &Break{At: at, Param: Param{Name: breakName(coef, col), Prior: PriorBreak, Default: Real}}
+		if at > 0 {
+			ch.Break = &Break{At: at, Param: Param{Name: breakName(coef, col), Prior: PriorBreak, Default: Real}}
+		}
+		if sd > 0 {
+			e := &Error{SD: sd}
+			for t, x := range ch.X {
+				if x > 0 {
+					e.Weeks = append(e.Weeks, t)
+					e.Params = append(e.Params, Param{Name: errorName(coef, col, t), Prior: PriorLatent, Default: Real})
+				}
+			}
+			ch.Error = e
+		}
 	}
 	return nil
 }
