@@ -11,9 +11,9 @@ import (
 	"spillway/funnel/model"
 	"spillway/funnel/scenario"
 	"spillway/funnel/stat"
+	"spillway/funnel/validate/score"
 	"spillway/funnel/window"
 	"spillway/mediation"
-	"spillway/funnel/validate/score"
 )
 
 // exposureWindows returns the whole period, the first and the last 52
