@@ -104,9 +104,8 @@ func TestExposureInspect(t *testing.T) {
 		!strings.Contains(errs, "--exposure-break video=2023-07-31") {
 		t.Errorf("stderr %q; want the warning %q", errs, want)
 	}
-	// with the break declared, inspect still runs (the warning stays: the
-	// cost per unit did jump)
-	if code, _, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp", "--exposure-break", "video_imp=2023-07-31")...); code != 0 {
-		t.Fatalf("with the break: got %d: %s", code, errs)
+	// with the break declared the warning has been acted on
+	if code, _, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp", "--exposure-break", "video_imp=2023-07-31")...); code != 0 || errs != "" {
+		t.Fatalf("with the break: got %d: %q", code, errs)
 	}
 }

@@ -229,9 +229,12 @@ const KindCostJump = "cost-jump"
 // weeks with spend): at each week k with CostJumpWindow such weeks on each
 // side, the step D[k] = median(L after k) - median(L before k) over those
 // windows; the noise sd is 1.4826 MAD(L[t] - L[t-1]) / sqrt(2), which one
-// jump hardly moves; the week of the largest |D[k]| warns when |D| exceeds
-// both CostJumpLog and CostJumpSDs noise sds. A steady drift moves the
-// medians of two adjacent windows apart by little, so it does not warn.
+// jump hardly moves; the largest |D[k]| warns when it exceeds both
+// CostJumpLog and CostJumpSDs noise sds, at the split around it that
+// leaves the least absolute deviation from the two sides' medians. A
+// steady drift moves the medians of two adjacent windows apart by little,
+// so it does not warn; a break declared within two weeks of the jump
+// silences it.
 func costJumps(d *Dataset, nat Series) []Warning {
 	var ws []Warning
 	for c, col := range d.Spec.Upper {
@@ -251,6 +254,9 @@ func costJumps(d *Dataset, nat Series) []Warning {
 		if k < 0 {
 			continue
 		}
+		if b, err := time.Parse(DateLayout, e.Break); err == nil && d.Weeks[at[k]].Sub(b).Abs() <= 2*week {
+			continue // declared: the model learns the step
+		}
 		ws = append(ws, Warning{KindCostJump, e.Column, fmt.Sprintf(
 			"the cost per unit of %s (%s / %s) jumps by %+.0f%% around the week of %s (%.3g times the weekly noise); a change in how the exposure is measured? If so, give it with --exposure-break %s=%s",
 			e.Column, col, e.Column, 100*(math.Exp(step)-1), d.Weeks[at[k]].Format(DateLayout), math.Abs(step)/sd, col, d.Weeks[at[k]].Format(DateLayout))})
@@ -259,7 +265,8 @@ func costJumps(d *Dataset, nat Series) []Warning {
 }
 
 // CostJump applies costJumps' rule to a series of log cost per unit L: it
-// returns the index of the first week after the largest jump that warns,
+// returns the index of the first week after the largest jump that warns
+// (placed by least absolute deviation around it),
 // the jump (median after minus median before) and the noise sd, or k = -1
 // when no jump warns.
 func CostJump(L []float64) (k int, step, sd float64) {
@@ -283,9 +290,10 @@ func CostJump(L []float64) (k int, step, sd float64) {
 	if k < 0 || math.Abs(step) <= CostJumpLog || math.Abs(step) <= CostJumpSDs*sd {
 		return -1, step, sd
 	}
-	// a clean step gives a plateau of windows that straddle it as fully
-	// (medians of w weeks ignore up to w/2-1 weeks of the other level):
-	// the jump is at the plateau's middle
+	// the windows that straddle the step fully give a plateau of D (a
+	// median of w weeks ignores up to w/2-1 weeks of the other level); the
+	// jump is the split of the plateau's span that leaves the least
+	// absolute deviation from the medians of the two sides
 	lo, hi := k, k
 	for lo > w && D[lo-1]*step >= 0.9*step*step {
 		lo--
@@ -293,7 +301,21 @@ func CostJump(L []float64) (k int, step, sd float64) {
 	for hi+w < len(L) && D[hi+1]*step >= 0.9*step*step {
 		hi++
 	}
-	return (lo + hi + 1) / 2, step, sd
+	span := L[lo-w : hi+w]
+	best := math.Inf(1)
+	for j := lo; j <= hi; j++ {
+		cost := 0.0
+		for _, part := range [][]float64{span[:j-lo+w], span[j-lo+w:]} {
+			m := median(part)
+			for _, v := range part {
+				cost += math.Abs(v - m)
+			}
+		}
+		if cost < best {
+			best, k = cost, j
+		}
+	}
+	return k, step, sd
 }
 
 // mad returns the median absolute deviation from the median of x.

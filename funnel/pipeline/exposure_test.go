@@ -207,12 +207,59 @@ func TestExposureBreakRecovery(t *testing.T) {
 	}
 }
 
-// TestExposureCoverage counts, over replicates of the two exposure
+// TestExposureErrorRecovery fits the exposure-error scenario (video's
+// reported impressions off by a factor exp(0.25 e), e standard normal, each
+// week) with the error stated (--exposure-error video_spend=0.25) and with
+// the impressions taken as measured: with the error stated, video's
+// effects have wider intervals, and they hold the truth.
+func TestExposureErrorRecovery(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two full fits")
+	}
+	s, err := scenario.Named("exposure-error", 5, 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := s.Simulate()
+	if err != nil {
+		t.Fatal(err)
+	}
+	asMeasured := s.Roles()
+	asMeasured.Exposure = []data.Exposure{{Spend: asMeasured.Exposure[0].Spend, Column: asMeasured.Exposure[0].Column}}
+	set := mcmc.Settings{Seed: 3, Warmup: 500, Draws: 500}
+	withErr, _, sc := exposureFit(t, res, s.Roles(), set)
+	without, _, _ := exposureFit(t, res, asMeasured, set)
+	wins := exposureWindows(t, sc)
+	truth := exposureTruth(t, s, res, wins)
+	t.Logf("video effects (conversions), truth | error stated: mean [90%%] width | taken as measured: mean [90%%] width:")
+	wider := 0
+	for _, path := range []string{"via_search", "direct", "total"} {
+		for _, w := range wins {
+			tv := truth["video_spend/"+path+"/"+w.Name]
+			e, _ := effectOf(withErr, "video_spend", path, w.Name)
+			p, _ := effectOf(without, "video_spend", path, w.Name)
+			se, sp := mediation.Summarise(e.Draws), mediation.Summarise(p.Draws)
+			t.Logf("  %-10s %-23s %8.0f | %8.0f [%8.0f, %8.0f] %6.0f | %8.0f [%8.0f, %8.0f] %6.0f", path, w.Name, tv,
+				se.Mean, se.Q05, se.Q95, se.Q95-se.Q05, sp.Mean, sp.Q05, sp.Q95, sp.Q95-sp.Q05)
+			if se.Q95-se.Q05 > sp.Q95-sp.Q05 {
+				wider++
+			}
+			if in90, _ := coverage(e.Draws, tv); !in90 && path == "total" {
+				t.Errorf("%s %s: 90%% interval [%.0f, %.0f] with the error stated misses the truth %.0f", path, w.Name, se.Q05, se.Q95, tv)
+			}
+		}
+	}
+	if wider < 7 {
+		t.Errorf("the error widens %d of 9 intervals of video's effects; want at least 7", wider)
+	}
+}
+
+// TestExposureCoverage counts, over replicates of the three exposure
 // scenarios, how often the 90% intervals of video's and audio's effects
 // (direct, via search, total; whole period and each year) and of the
 // break's log factors hold the truth, and prints the count beside its 95%
-// binomial range. Two replicates by default; SPILLWAY_LONG=1 runs twenty
-// and fails when the count falls outside the range.
+// binomial range. One replicate of each by default; SPILLWAY_LONG=1 runs
+// ten of each and fails when the count falls outside the range.
 func TestExposureCoverage(t *testing.T) {
 	if testing.Short() {
 		t.Skip("fits replicates")
@@ -222,7 +269,7 @@ func TestExposureCoverage(t *testing.T) {
 		reps = 10
 	}
 	n, in := 0, 0
-	for _, name := range []string{"exposure-rising", "exposure-break"} {
+	for _, name := range []string{"exposure-rising", "exposure-break", "exposure-error"} {
 		for rep := range reps {
 			s, err := scenario.Named(name, uint64(100+rep), 0, 0)
 			if err != nil {

@@ -8,8 +8,9 @@ import (
 	"spillway/funnel/model"
 )
 
-// ExposureColumn is the video impressions column of the exposure scenarios.
-const ExposureColumn = "video_impressions"
+// ExposureColumn is the video exposure column of the exposure scenarios, in
+// thousands of impressions.
+const ExposureColumn = "video_kimpressions"
 
 // Exposure makes video's impressions, not its spend, what the audience
 // sees: the true response runs on impressions, bought at a cost per
@@ -17,11 +18,16 @@ const ExposureColumn = "video_impressions"
 // noise of sd CostNoise on the log scale), so the same spend buys less
 // exposure at the end than at the start. With Break > 0, the impressions
 // are reported a new way from week Break on: BreakScale times the old
-// way's units (a vendor that counts more generously).
+// way's units (a vendor that counts more generously). With ErrorSD > 0
+// each week's reported impressions are off by a factor exp(ErrorSD e[t]),
+// e[t] standard normal (a survey-based or modelled count).
 type Exposure struct {
 	CostRise, CostNoise float64
 	Break               int
 	BreakScale          float64
+	ErrorSD             float64
+	// errs holds e[t] once simulated: the true latent errors.
+	errs []float64
 }
 
 // CostPerThousand is the exposure scenarios' video cost per thousand
@@ -37,7 +43,7 @@ func (s *Scenario) Roles() data.Spec {
 		spec = RegionSpec
 	}
 	if e := s.Exposure; e != nil {
-		m := data.Exposure{Spend: spec.Upper[0], Column: ExposureColumn}
+		m := data.Exposure{Spend: spec.Upper[0], Column: ExposureColumn, Error: e.ErrorSD}
 		if e.Break > 0 {
 			m.Break = s.Start.AddDate(0, 0, 7*e.Break).Format(data.DateLayout)
 		}
@@ -54,24 +60,36 @@ func (e *Exposure) impressions(rng *rand.Rand, spend []float64) (shown, input []
 	T := len(spend)
 	shown = make([]float64, T)
 	truth := make([]float64, T)
+	e.errs = make([]float64, T)
 	for t, s := range spend {
 		cpm := CostPerThousand * (1 + e.CostRise*float64(t)/float64(T-1)) * math.Exp(e.CostNoise*rng.NormFloat64())
 		if s <= 0 {
 			continue
 		}
-		truth[t] = math.Round(1000 * s / cpm)
+		truth[t] = s / cpm // thousands of impressions
+		if e.Break > 0 {
+			truth[t] *= e.BreakScale // in the newest measurement's units
+		}
 		shown[t] = truth[t]
-		if e.Break > 0 && t >= e.Break {
-			shown[t] = math.Round(truth[t] * e.BreakScale)
+		if e.Break > 0 && t < e.Break {
+			shown[t] /= e.BreakScale
 		}
-	}
-	input = divide(shown, model.SpendScale(shown))
-	if e.Break > 0 {
-		for t := 0; t < e.Break; t++ {
-			input[t] *= e.BreakScale
+		if e.ErrorSD > 0 {
+			e.errs[t] = rng.NormFloat64()
+			shown[t] *= math.Exp(e.ErrorSD * e.errs[t])
 		}
+		shown[t] = math.Round(shown[t])
 	}
-	return shown, input
+	// the model divides the reported impressions by their mean
+	return shown, divide(truth, model.SpendScale(shown))
+}
+
+// latent returns the true latent error of week t (0 without errors).
+func (e *Exposure) latent(t int) float64 {
+	if e == nil || e.errs == nil {
+		return 0
+	}
+	return e.errs[t]
 }
 
 // logBreak returns the true log factor of the break (0 when none).

@@ -114,13 +114,15 @@ func Named(name string, seed uint64, weeks, regions int) (*Scenario, error) {
 		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03}
 	case "exposure-break":
 		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03, Break: 78, BreakScale: 1.6}
+	case "exposure-error":
+		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03, ErrorSD: 0.25}
 	case "direct-audio":
 		s.P.Demand = []Channel{{0.08, 0.3, 0.9, 1.2}, {0, 0.5, 1, 2}}
 		s.P.Direct = []Channel{{0.3, 0.25, 0.7, 1.6}, {0.2, 0.2, 0.5, 1.3}}
 		s.P.Gamma = 0.3
 		s.P.Search = Channel{0.2, 0.1, 0.8, 1.5}
 	default:
-		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn, direct-audio, exposure-rising or exposure-break", name)
+		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break or exposure-error", name)
 	}
 	if weeks > 0 {
 		s.Weeks = weeks
@@ -327,11 +329,11 @@ func (p Params) inModelUnits(s data.Series, spec data.Spec, mqs, mys float64, e 
 	for c, col := range Spec.Upper {
 		upper[col], direct[col] = p.Demand[c], p.Direct[c]
 	}
-	stage := stageTruth{mu: p.MuQ, trend: p.BQ, season: p.SeasonQ, control: p.PhiQ, sigma: p.SigmaQ, channels: upper, logBreak: e.logBreak()}
+	stage := stageTruth{mu: p.MuQ, trend: p.BQ, season: p.SeasonQ, control: p.PhiQ, sigma: p.SigmaQ, channels: upper, logBreak: e.logBreak(), exposure: e}
 	if dem, err = stage.named(sc, st1, mqs, 0); err != nil {
 		return nil, nil, err
 	}
-	stage = stageTruth{mu: p.MuY, trend: p.BY, season: p.SeasonY, control: p.PhiY, sigma: p.SigmaY, channels: direct, logBreak: e.logBreak()}
+	stage = stageTruth{mu: p.MuY, trend: p.BY, season: p.SeasonY, control: p.PhiY, sigma: p.SigmaY, channels: direct, logBreak: e.logBreak(), exposure: e}
 	if out, err = stage.named(sc, st2, mys, p.Gamma*mqs/mys); err != nil {
 		return nil, nil, err
 	}
@@ -344,6 +346,7 @@ type stageTruth struct {
 	season                    [4]float64
 	channels                  map[string]Channel // by data column
 	logBreak                  float64            // a measurement break's log factor
+	exposure                  *Exposure          // its latent errors, if any
 }
 
 // named writes t as a draw of st (built on sc) through its layout, the
@@ -381,6 +384,9 @@ func (t stageTruth) named(sc *model.Scaled, st *model.Stage, m, gamma float64) (
 		}
 		if cs.Break >= 0 {
 			v[cs.Break] = t.logBreak
+		}
+		for i, w := range cs.ErrWeeks {
+			v[cs.ErrZ+i] = t.exposure.latent(w)
 		}
 	}
 	named := map[string]float64{}
