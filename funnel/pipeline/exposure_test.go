@@ -64,8 +64,8 @@ func effectOf(r *mediation.Result, col, path, w string) (mediation.Effect, bool)
 	return mediation.Effect{}, false
 }
 
-// exposureTruth returns the true effects of channel col on every path and
-// window, by "path/window".
+// exposureTruth returns the true effects of every channel, path and
+// window, by "channel/path/window".
 func exposureTruth(t *testing.T, s *scenario.Scenario, res *scenario.Result, windows []window.Window) map[string]float64 {
 	t.Helper()
 	sc := model.Scale(res.Data.National(), s.Roles())
@@ -96,17 +96,14 @@ func exposureTruth(t *testing.T, s *scenario.Scenario, res *scenario.Result, win
 	return out
 }
 
-// TestExposureRecovery fits the exposure-rising scenario (video's response
+// exposureRising fits the exposure-rising scenario (video's response
 // runs on impressions; its cost per thousand rises 30% over three years)
 // twice: on video's impressions (--exposure) and on its spend, the default.
 // The exposure model recovers video's total effect in the first and the
 // last year within its 90% intervals, and the change in return per unit
 // spend between them; the spend model, which assumes a unit of spend buys
 // the same exposure throughout, misses that change. Both are printed.
-func TestExposureRecovery(t *testing.T) {
-	if testing.Short() {
-		t.Skip("two full fits")
-	}
+func exposureRising(t *testing.T, tally *tally) {
 	s, err := scenario.Named("exposure-rising", 5, 0, 0)
 	if err != nil {
 		t.Fatal(err)
@@ -117,11 +114,12 @@ func TestExposureRecovery(t *testing.T) {
 	}
 	spendSpec := s.Roles()
 	spendSpec.Exposure = nil
-	set := mcmc.Settings{Seed: 3, Warmup: 500, Draws: 500}
-	withExp, _, sc := exposureFit(t, res, s.Roles(), set)
+	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	withExp, fit, sc := exposureFit(t, res, s.Roles(), set)
 	withSpend, _, _ := exposureFit(t, res, spendSpec, set)
 	wins := exposureWindows(t, sc)
 	truth := exposureTruth(t, s, res, wins)
+	tally.add(t, s, withExp, fit, truth)
 	col := "video_spend"
 	ratio := func(r *mediation.Result) (mean float64, draws []float64) {
 		first, _ := effectOf(r, col, "total", wins[1].Name)
@@ -159,15 +157,12 @@ func TestExposureRecovery(t *testing.T) {
 	}
 }
 
-// TestExposureBreakRecovery fits the exposure-break scenario (from week 78
+// exposureBreak fits the exposure-break scenario (from week 78
 // the vendor reports 1.6 times the impressions it did) with the break
 // declared and without it: with it, both stages' log factors cover the
 // true log 1.6 and video's total effect in the first and last year are
 // covered; without it, the printed effects show what ignoring it costs.
-func TestExposureBreakRecovery(t *testing.T) {
-	if testing.Short() {
-		t.Skip("two full fits")
-	}
+func exposureBreak(t *testing.T, tally *tally) {
 	s, err := scenario.Named("exposure-break", 5, 0, 0)
 	if err != nil {
 		t.Fatal(err)
@@ -178,11 +173,12 @@ func TestExposureBreakRecovery(t *testing.T) {
 	}
 	noBreak := s.Roles()
 	noBreak.Exposure = []data.Exposure{{Spend: noBreak.Exposure[0].Spend, Column: noBreak.Exposure[0].Column}}
-	set := mcmc.Settings{Seed: 3, Warmup: 500, Draws: 500}
+	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
 	withBreak, fit, sc := exposureFit(t, res, s.Roles(), set)
 	without, _, _ := exposureFit(t, res, noBreak, set)
 	wins := exposureWindows(t, sc)
 	truth := exposureTruth(t, s, res, wins)
+	tally.add(t, s, withBreak, fit, truth)
 	want := math.Log(1.6)
 	for k := range 2 {
 		l := fit.Stages[k].Layout()
@@ -207,15 +203,12 @@ func TestExposureBreakRecovery(t *testing.T) {
 	}
 }
 
-// TestExposureErrorRecovery fits the exposure-error scenario (video's
+// exposureError fits the exposure-error scenario (video's
 // reported impressions off by a factor exp(0.25 e), e standard normal, each
 // week) with the error stated (--exposure-error video_spend=0.25) and with
 // the impressions taken as measured: with the error stated, video's
 // effects have wider intervals, and they hold the truth.
-func TestExposureErrorRecovery(t *testing.T) {
-	if testing.Short() {
-		t.Skip("two full fits")
-	}
+func exposureError(t *testing.T, tally *tally) {
 	s, err := scenario.Named("exposure-error", 5, 0, 0)
 	if err != nil {
 		t.Fatal(err)
@@ -226,11 +219,12 @@ func TestExposureErrorRecovery(t *testing.T) {
 	}
 	asMeasured := s.Roles()
 	asMeasured.Exposure = []data.Exposure{{Spend: asMeasured.Exposure[0].Spend, Column: asMeasured.Exposure[0].Column}}
-	set := mcmc.Settings{Seed: 3, Warmup: 500, Draws: 500}
-	withErr, _, sc := exposureFit(t, res, s.Roles(), set)
+	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	withErr, fit, sc := exposureFit(t, res, s.Roles(), set)
 	without, _, _ := exposureFit(t, res, asMeasured, set)
 	wins := exposureWindows(t, sc)
 	truth := exposureTruth(t, s, res, wins)
+	tally.add(t, s, withErr, fit, truth)
 	t.Logf("video effects (conversions), truth | error stated: mean [90%%] width | taken as measured: mean [90%%] width:")
 	wider := 0
 	for _, path := range []string{"via_search", "direct", "total"} {
@@ -254,23 +248,32 @@ func TestExposureErrorRecovery(t *testing.T) {
 	}
 }
 
-// TestExposureCoverage counts, over replicates of the three exposure
-// scenarios, how often the 90% intervals of video's and audio's effects
-// (direct, via search, total; whole period and each year) and of the
-// break's log factors hold the truth, and prints the count beside its 95%
-// binomial range. One replicate of each by default; SPILLWAY_LONG=1 runs
-// ten of each and fails when the count falls outside the range.
-func TestExposureCoverage(t *testing.T) {
+// TestExposureRecovery runs the three exposure recovery checks (rising cost
+// per unit, a measurement break, exposure with error; six fits) and prints
+// how many of the 90% intervals of the stated models (video's and audio's
+// effects on each path, whole period and each year, and the break's log
+// factors) hold the truth, beside the 95% binomial range.
+func TestExposureRecovery(t *testing.T) {
 	if testing.Short() {
-		t.Skip("fits replicates")
+		t.Skip("six full fits")
 	}
-	reps := 1
-	if os.Getenv("SPILLWAY_LONG") == "1" {
-		reps = 10
+	var tl tally
+	t.Run("rising", func(t *testing.T) { exposureRising(t, &tl) })
+	t.Run("break", func(t *testing.T) { exposureBreak(t, &tl) })
+	t.Run("error", func(t *testing.T) { exposureError(t, &tl) })
+	tl.log(t, false)
+}
+
+// TestExposureCoverage is the longer sweep: ten replicates of each exposure
+// scenario (thirty fits), the count of 90% intervals holding the truth
+// against its 95% binomial range. It runs with SPILLWAY_LONG=1.
+func TestExposureCoverage(t *testing.T) {
+	if os.Getenv("SPILLWAY_LONG") != "1" {
+		t.Skip("thirty fits; set SPILLWAY_LONG=1")
 	}
-	n, in := 0, 0
+	var tl tally
 	for _, name := range []string{"exposure-rising", "exposure-break", "exposure-error"} {
-		for rep := range reps {
+		for rep := range 10 {
 			s, err := scenario.Named(name, uint64(100+rep), 0, 0)
 			if err != nil {
 				t.Fatal(err)
@@ -280,38 +283,50 @@ func TestExposureCoverage(t *testing.T) {
 				t.Fatal(err)
 			}
 			split, fit, sc := exposureFit(t, res, s.Roles(), mcmc.Settings{Seed: uint64(rep + 1), Warmup: 400, Draws: 400})
-			wins := exposureWindows(t, sc)
-			truth := exposureTruth(t, s, res, wins)
-			for _, e := range split.Effects {
-				if e.Path == "mediated_share" {
-					continue
-				}
-				tv, ok := truth[e.Channel+"/"+e.Path+"/"+e.Window]
-				if !ok {
-					t.Fatalf("no truth for %s %s %s", e.Channel, e.Path, e.Window)
-				}
-				ok90, _ := coverage(e.Draws, tv)
-				n++
-				if ok90 {
-					in++
-				}
-			}
-			for k := range 2 {
-				l := fit.Stages[k].Layout()
-				if cs, _ := l.Channel("video_spend"); cs.Break >= 0 {
-					ok90, _ := coverage(stageDraws(fit, k, cs.Break), math.Log(s.Exposure.BreakScale))
-					n++
-					if ok90 {
-						in++
-					}
-				}
-			}
+			tl.add(t, s, split, fit, exposureTruth(t, s, res, exposureWindows(t, sc)))
 		}
 	}
-	lo, hi := score.BinomialRange(n, 0.9, 0.95)
-	t.Logf("90%% intervals holding the truth: %d of %d (%.1f%%); 95%% binomial range for independent checks %d to %d (the checks of one fit are not independent, so this is a guide)", in, n, 100*float64(in)/float64(n), lo, hi)
-	if reps > 1 && (in < lo || in > hi) {
-		t.Errorf("coverage %d of %d outside %d to %d", in, n, lo, hi)
+	tl.log(t, true)
+}
+
+// tally counts 90% intervals holding the truth.
+type tally struct{ n, in int }
+
+// add counts the effects of split (but mediated shares) against truth,
+// and the break's log factors of fit against the scenario's.
+func (tl *tally) add(t *testing.T, s *scenario.Scenario, split *mediation.Result, fit *Fitted, truth map[string]float64) {
+	t.Helper()
+	count := func(draws []float64, v float64) {
+		tl.n++
+		if ok, _ := coverage(draws, v); ok {
+			tl.in++
+		}
+	}
+	for _, e := range split.Effects {
+		if e.Path == "mediated_share" {
+			continue
+		}
+		tv, ok := truth[e.Channel+"/"+e.Path+"/"+e.Window]
+		if !ok {
+			t.Fatalf("no truth for %s %s %s", e.Channel, e.Path, e.Window)
+		}
+		count(e.Draws, tv)
+	}
+	for k := range 2 {
+		if cs, _ := fit.Stages[k].Layout().Channel("video_spend"); cs.Break >= 0 {
+			count(stageDraws(fit, k, cs.Break), math.Log(s.Exposure.BreakScale))
+		}
+	}
+}
+
+// log prints the count beside its 95% binomial range and, if strict,
+// fails outside it.
+func (tl *tally) log(t *testing.T, strict bool) {
+	lo, hi := score.BinomialRange(tl.n, 0.9, 0.95)
+	t.Logf("90%% intervals holding the truth: %d of %d (%.1f%%); 95%% binomial range for independent checks %d to %d (the checks of one fit are not independent, so it is a guide)",
+		tl.in, tl.n, 100*float64(tl.in)/float64(tl.n), lo, hi)
+	if strict && (tl.in < lo || tl.in > hi) {
+		t.Errorf("coverage %d of %d outside %d to %d", tl.in, tl.n, lo, hi)
 	}
 }
 
