@@ -7,16 +7,16 @@ import (
 	"spillway/funnel/data"
 )
 
-// exposureFlags turns the --exposure SPEND=COLUMN flags into mappings; a
-// flag not of that form is a usage error naming it. Given, they replace the
-// spec file's mappings.
-func exposureFlags(flags []string) ([]data.Exposure, error) {
+// exposureFlags turns the --exposure (or --reach, named by flag)
+// SPEND=COLUMN flags into mappings; a flag not of that form is a usage
+// error naming it. Given, they replace the spec file's mappings.
+func exposureFlags(flags []string, flag string) ([]data.Exposure, error) {
 	var out []data.Exposure
 	for _, f := range flags {
 		spend, col, ok := strings.Cut(f, "=")
 		spend, col = strings.TrimSpace(spend), strings.TrimSpace(col)
 		if !ok || spend == "" || col == "" {
-			return nil, usagef("--exposure %q: expected SPEND=COLUMN, an upper-funnel spend column and its exposure column, like video_spend=video_impressions", f)
+			return nil, usagef("%s %q: expected SPEND=COLUMN, an upper-funnel spend column and its %s column, like video_spend=video_%s", flag, f, flag[2:], map[string]string{"--exposure": "impressions", "--reach": "reach"}[flag])
 		}
 		out = append(out, data.Exposure{Spend: spend, Column: col})
 	}
@@ -46,6 +46,36 @@ func errorFlags(ms []data.Exposure, flags []string) ([]data.Exposure, error) {
 			m.Error = sd
 			return nil
 		})
+}
+
+// frequencyFlags puts the --frequency SPEND=COLUMN flags on the mappings
+// given with --reach (reach) and checks that each of those has one.
+func frequencyFlags(ms []data.Exposure, flags []string, reach []data.Exposure) ([]data.Exposure, error) {
+	isReach := map[string]bool{}
+	for _, m := range reach {
+		isReach[m.Spend] = true
+	}
+	for _, f := range flags {
+		col, _, _ := strings.Cut(f, "=")
+		if col = strings.TrimSpace(col); col != "" && !isReach[col] {
+			for _, m := range ms {
+				if (m.Spend == col || m.Column == col) && !isReach[m.Spend] {
+					return nil, usagef("--frequency %q: the exposure of %s is given with --exposure; a frequency goes with a reach column (--reach %s=COLUMN)", f, m.Spend, m.Spend)
+				}
+			}
+		}
+	}
+	ms, err := measureFlags(ms, flags, "--frequency", "SPEND=COLUMN, a channel given with --reach and its average frequency column", "frequency",
+		func(m *data.Exposure, v string) error { m.Frequency = v; return nil })
+	if err != nil {
+		return nil, err
+	}
+	for _, m := range ms {
+		if isReach[m.Spend] && m.Frequency == "" {
+			return nil, usagef("--reach %s=%s: no --frequency %s=COLUMN; a reach goes with its average frequency", m.Spend, m.Column, m.Spend)
+		}
+	}
+	return ms, nil
 }
 
 // measureFlags applies flags of the form COLUMN=VALUE, named flag, to the

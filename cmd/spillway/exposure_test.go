@@ -25,6 +25,24 @@ func exposureFrame(n int) *cmdTable {
 	return f
 }
 
+// rfFrame is cmdFrame, or cmdRegions with regions, with columns
+// video_reach (a tenth of video's spend, people) and video_freq (2.5).
+func rfFrame(n int, regions bool) *cmdTable {
+	f := cmdFrame(n)
+	if regions {
+		f = cmdRegions(n)
+	}
+	v := slices.Index(f.header, "video")
+	f.header = append(f.header, "video_reach", "video_freq")
+	for t := range f.rows {
+		x, _ := strconv.ParseFloat(f.rows[t][v], 64)
+		f.rows[t] = append(f.rows[t], strconv.FormatFloat(x/10, 'f', 0, 64), "2.5")
+	}
+	return f
+}
+
+var rfFlags = []string{"--reach", "video=video_reach", "--frequency", "video=video_freq"}
+
 // TestExposureBadInput runs bad exposure mappings through inspect and fit:
 // exit status 2, one message naming FILE:LINE:COLUMN or the flag, and no
 // output folder left behind.
@@ -70,6 +88,14 @@ func TestExposureBadInput(t *testing.T) {
 			[]string{"--exposure", "video=video_imp", "--exposure-error", "video=15"}, `--exposure-error video=15: expected the sd of the log error, a number from 0 to 2`},
 		{"error without exposure", func() string { return exposureFrame(60).csv() },
 			[]string{"--exposure-error", "audio=0.1"}, `--exposure-error "audio=0.1": audio has no exposure column`},
+		{"frequency below 1", func() string { return rfFrame(60, false).set(9, "video_freq", "0.5").csv() },
+			rfFlags, `FILE:11:9: column "video_freq": frequency 0.5 in a week with reach`},
+		{"reach above the population", func() string { return rfFrame(60, true).set(4, "video_reach", "5000").csv() },
+			append(append([]string(nil), regionFlags...), rfFlags...), `FILE:6:10: column "video_reach": reach 5000 is above the region's population 1000`},
+		{"reach without frequency", func() string { return rfFrame(60, false).csv() },
+			[]string{"--reach", "video=video_reach"}, `--reach video=video_reach: no --frequency video=COLUMN`},
+		{"frequency with impressions", func() string { return rfFrame(60, false).csv() },
+			[]string{"--exposure", "video=video_reach", "--frequency", "video=video_freq"}, `--frequency "video=video_freq": the exposure of video is given with --exposure`},
 	} {
 		t.Run(test.name, func(t *testing.T) {
 			dir := t.TempDir()
@@ -107,5 +133,21 @@ func TestExposureInspect(t *testing.T) {
 	// with the break declared the warning has been acted on
 	if code, _, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp", "--exposure-break", "video_imp=2023-07-31")...); code != 0 || errs != "" {
 		t.Fatalf("with the break: got %d: %q", code, errs)
+	}
+}
+
+// TestReachFrequencyInspect checks that a good reach and frequency mapping
+// is accepted, national and with regions (where the frequency sums as
+// impressions).
+func TestReachFrequencyInspect(t *testing.T) {
+	for _, regions := range []bool{false, true} {
+		path := writeFileIn(t, t.TempDir(), "data.csv", rfFrame(60, regions).csv())
+		more := rfFlags
+		if regions {
+			more = append(append([]string(nil), regionFlags...), rfFlags...)
+		}
+		if code, _, errs := runCmd(t, inspectArgs(path, more...)...); code != 0 {
+			t.Fatalf("regions %v: got %d: %s", regions, code, errs)
+		}
 	}
 }

@@ -17,6 +17,9 @@ type roleFlags struct {
 	// --exposure-break COLUMN=DATE and --exposure-error COLUMN=SD flags as
 	// given (exposure.go)
 	exposure, breaks, errors []string
+	// reach and frequency are the --reach SPEND=COLUMN and --frequency
+	// SPEND=COLUMN flags as given
+	reach, frequency []string
 }
 
 // addFlags adds --data --date --region --population --upper --search
@@ -34,6 +37,8 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&r.specFile, "spec", "", "a JSON spec `FILE` naming the roles; the flags above override it")
 	fs.StringArrayVar(&r.exposure, "exposure", nil, "`SPEND=COLUMN`: the upper-funnel channel SPEND runs on the exposure COLUMN (impressions, rating points); repeatable")
 	fs.StringArrayVar(&r.breaks, "exposure-break", nil, "`COLUMN=YYYY-MM-DD`: the exposure of channel COLUMN is measured a new way from that week on; the model learns how the two compare; repeatable")
+	fs.StringArrayVar(&r.reach, "reach", nil, "`SPEND=COLUMN`: the upper-funnel channel SPEND runs on its weekly reach COLUMN (people reached), with --frequency; repeatable")
+	fs.StringArrayVar(&r.frequency, "frequency", nil, "`SPEND=COLUMN`: the average frequency COLUMN (exposures per person reached) of a channel given with --reach; repeatable")
 	fs.StringArrayVar(&r.errors, "exposure-error", nil, "`COLUMN=SD`: the exposure of channel COLUMN is observed with multiplicative error of sd SD on the log scale (0.15 for about 15%); repeatable")
 }
 
@@ -43,7 +48,7 @@ func (r *roleFlags) given() bool {
 	s := r.spec
 	return r.specFile != "" || s.Data != "" || s.Date != "" || s.Region != "" || s.Population != "" ||
 		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0 ||
-		len(r.exposure) > 0 || len(r.breaks) > 0 || len(r.errors) > 0
+		len(r.exposure) > 0 || len(r.breaks) > 0 || len(r.errors) > 0 || len(r.reach) > 0 || len(r.frequency) > 0
 }
 
 // inputs returns the files the role flags read: the spec file and the
@@ -73,14 +78,22 @@ func (r *roleFlags) resolve() (data.Spec, error) {
 	}
 	flags := r.spec
 	var err error
-	if flags.Exposure, err = exposureFlags(r.exposure); err != nil {
+	if flags.Exposure, err = exposureFlags(r.exposure, "--exposure"); err != nil {
 		return data.Spec{}, err
 	}
+	reach, err := exposureFlags(r.reach, "--reach")
+	if err != nil {
+		return data.Spec{}, err
+	}
+	flags.Exposure = append(flags.Exposure, reach...)
 	spec = spec.Override(flags)
 	if spec.Exposure, err = breakFlags(spec.Exposure, r.breaks); err != nil {
 		return data.Spec{}, err
 	}
 	if spec.Exposure, err = errorFlags(spec.Exposure, r.errors); err != nil {
+		return data.Spec{}, err
+	}
+	if spec.Exposure, err = frequencyFlags(spec.Exposure, r.frequency, reach); err != nil {
 		return data.Spec{}, err
 	}
 	if spec.Data == "" {

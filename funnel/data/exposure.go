@@ -29,6 +29,24 @@ type Exposure struct {
 	// for about 15%); the model then treats each week's true exposure as
 	// unknown.
 	Error float64 `json:"error,omitempty"`
+	// Frequency, if not empty, makes Column the channel's weekly reach
+	// (people reached) and names the column of its average frequency
+	// (exposures per person reached): the model then treats reaching more
+	// people and reaching them more often differently (reach.go in
+	// funnel/model).
+	Frequency string `json:"frequency,omitempty"`
+}
+
+// frequencyColumns returns the frequency columns in the order of their
+// spend columns in Upper.
+func (s Spec) frequencyColumns() []string {
+	var out []string
+	for _, u := range s.Upper {
+		if e, ok := s.ExposureOf(u); ok && e.Frequency != "" {
+			out = append(out, e.Frequency)
+		}
+	}
+	return out
 }
 
 // ExposureOf returns the exposure mapping of spend column col, if any.
@@ -77,6 +95,8 @@ func (s Spec) validateExposure() error {
 			return fail("--exposure %s=%s: %q is not an upper-funnel spend column (--upper %s)", e.Spend, e.Column, e.Spend, strings.Join(s.Upper, ","))
 		case seen[e.Spend]:
 			return fail("--exposure: %q is given two exposure columns; expected one per channel", e.Spend)
+		case e.Frequency != "" && strings.TrimSpace(e.Frequency) == "":
+			return fail("--frequency %s=%q: expected a column name", e.Spend, e.Frequency)
 		}
 		seen[e.Spend] = true
 		if e.Error < 0 || e.Error > 2 || math.IsNaN(e.Error) {
@@ -127,8 +147,14 @@ func parseExposure(raw []byte) ([]Exposure, string) {
 // spend and no exposure, or exposure and no spend, cannot be what the
 // column measures (a gap in the exposure report, or the wrong column).
 // nums holds the row's numeric values by position in p.cols.
-func (p *parser) checkExposure(nums []float64, rec []string, line int) error {
+func (p *parser) checkExposure(nums []float64, rec []string, line int, pop float64) error {
 	for i, c := range p.cols {
+		if c.role == roleFrequency {
+			if err := p.checkFrequency(i, nums, line); err != nil {
+				return err
+			}
+			continue
+		}
 		if c.role != roleExposure {
 			continue
 		}
@@ -141,6 +167,9 @@ func (p *parser) checkExposure(nums []float64, rec []string, line int) error {
 		spend := nums[p.colOfName(e.Spend)]
 		v := nums[i]
 		j := p.idx[i]
+		if e.Frequency != "" && p.spec.Population != "" && v > pop {
+			return p.errAt(line, j+1, strings.TrimSpace(c.name), "reach %s is above the region's population %s; expected the number of people reached, at most the population", strings.TrimSpace(rec[j]), fmtNum(pop))
+		}
 		switch {
 		case v > 0 && spend > 0, v == 0 && spend == 0:
 			continue
@@ -149,6 +178,22 @@ func (p *parser) checkExposure(nums []float64, rec []string, line int) error {
 		default:
 			return p.errAt(line, j+1, strings.TrimSpace(c.name), "exposure is %s in a week where %s spends nothing; expected 0, or the spend that bought it", strings.TrimSpace(rec[j]), e.Spend)
 		}
+	}
+	return nil
+}
+
+// checkFrequency checks a frequency cell, at position i of p.cols: at
+// least 1 in a week with reach (a person reached saw the ad at least once).
+func (p *parser) checkFrequency(i int, nums []float64, line int) error {
+	c := p.cols[i]
+	var e Exposure
+	for _, m := range p.spec.Exposure {
+		if m.Frequency == c.name {
+			e = m
+		}
+	}
+	if reach := nums[p.colOfName(e.Column)]; reach > 0 && nums[i] < 1 {
+		return p.errAt(line, p.idx[i]+1, strings.TrimSpace(c.name), "frequency %s in a week with reach %s; expected the average number of exposures per person reached, at least 1", fmtNum(nums[i]), fmtNum(reach))
 	}
 	return nil
 }

@@ -121,3 +121,48 @@ func TestCostJump(t *testing.T) {
 		}
 	}
 }
+
+// TestFrequencyNational checks that the national frequency is the
+// reach-weighted mean of the regions' (impressions sum, reach sums), and
+// that reach and frequency round-trip through WriteCSV.
+func TestFrequencyNational(t *testing.T) {
+	f := regionFrame(60)
+	a := f.col("audio")
+	f.header = append(f.header, "aud_reach", "aud_freq")
+	for i, r := range f.rows {
+		v, _ := strconv.ParseFloat(r[a], 64)
+		fr := "2"
+		if r[1] == "south" {
+			fr = "3.5"
+		}
+		reach := "0"
+		if v > 0 {
+			reach = strconv.FormatFloat(math.Round(v/100), 'f', 0, 64)
+		}
+		f.rows[i] = append(f.rows[i], reach, fr)
+	}
+	spec := withSpec(func(s *Spec) {
+		s.Region, s.Population = "region", "population"
+		s.Exposure = []Exposure{{Spend: "audio", Column: "aud_reach", Frequency: "aud_freq"}}
+	})
+	d := mustRead(t, f.csv(), spec)
+	nat := d.National()
+	for w := range 60 {
+		imp, reach := 0.0, 0.0
+		for _, g := range d.Regions {
+			imp += g.Exposure[1][w] * g.Frequency[1][w]
+			reach += g.Exposure[1][w]
+		}
+		if reach > 0 && math.Abs(nat.Frequency[1][w]-imp/reach) > 1e-12 {
+			t.Fatalf("week %d: national frequency %v, want %v", w, nat.Frequency[1][w], imp/reach)
+		}
+	}
+	var buf bytes.Buffer
+	if err := WriteCSV(&buf, d); err != nil {
+		t.Fatal(err)
+	}
+	e, err := Read(bytes.NewReader(buf.Bytes()), "data.csv", spec)
+	if err != nil || !reflect.DeepEqual(d, e) {
+		t.Fatalf("Read(WriteCSV(d)) differs from d (%v)", err)
+	}
+}

@@ -276,7 +276,7 @@ func (p *parser) header(header []string, line int) error {
 		}
 		p.idx[i] = j
 		switch c.role {
-		case roleUpper, roleSearch, roleQueries, roleOutcome, roleControl, roleExposure:
+		case roleUpper, roleSearch, roleQueries, roleOutcome, roleControl, roleExposure, roleFrequency:
 			p.num = append(p.num, i)
 		}
 	}
@@ -369,11 +369,15 @@ func (p *parser) row(rec []string, line int) error {
 				if v < 0 {
 					return at("%s is negative; exposure cannot be negative", cell)
 				}
+			case roleFrequency:
+				if v < 0 {
+					return at("%s is negative; a frequency cannot be negative", cell)
+				}
 			}
 			nums[i] = v
 		}
 	}
-	if err := p.checkExposure(nums, rec, line); err != nil {
+	if err := p.checkExposure(nums, rec, line, pop); err != nil {
 		return err
 	}
 	b := p.byName[region]
@@ -603,6 +607,15 @@ func (p *parser) finish() (*Dataset, error) {
 			for c, col := range p.spec.Upper {
 				if _, ok := p.spec.ExposureOf(col); ok {
 					r.Exposure[c] = b.vals[k]
+					k++
+				}
+			}
+			for c, col := range p.spec.Upper {
+				if e, ok := p.spec.ExposureOf(col); ok && e.Frequency != "" {
+					if r.Frequency == nil {
+						r.Frequency = make([][]float64, nu)
+					}
+					r.Frequency[c] = b.vals[k]
 					k++
 				}
 			}

@@ -53,6 +53,7 @@ const (
 	roleOutcome
 	roleControl
 	roleExposure
+	roleFrequency
 )
 
 // roleInfo gives each role's flag, spec key and a plain description.
@@ -66,6 +67,7 @@ var roleInfo = [...]struct{ flag, key, what string }{
 	roleOutcome:    {"--outcome", "outcome", "outcome"},
 	roleControl:    {"--controls", "controls", "control"},
 	roleExposure:   {"--exposure", "exposure", "exposure"},
+	roleFrequency:  {"--frequency", "frequency", "frequency"},
 }
 
 // column is one column the spec uses, in the canonical order of columns().
@@ -101,6 +103,9 @@ func (s Spec) columns() []column {
 	}
 	for _, n := range s.exposureColumns() {
 		cs = append(cs, column{n, roleExposure})
+	}
+	for _, n := range s.frequencyColumns() {
+		cs = append(cs, column{n, roleFrequency})
 	}
 	return cs
 }

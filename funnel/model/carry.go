@@ -11,7 +11,7 @@ func (m Media) Carry(x []float64, a0 float64) float64 {
 	if m.Linear {
 		return 0
 	}
-	if m.Before > 0 || m.ErrSD > 0 {
+	if m.Before > 0 || m.ErrSD > 0 || m.Freq != nil {
 		x = m.measured(nil, x)
 	}
 	return transform.AdstockEnd(x, m.Lam, a0)
@@ -24,6 +24,14 @@ func (m Media) Carry(x []float64, a0 float64) float64 {
 // Response(past then x) bit for bit, at the cost of x's weeks alone. x
 // follows the data (weeks after a measurement break, taken as reported).
 func (m Media) ResponseFrom(dst, x []float64, a0 float64) []float64 {
+	if m.Freq != nil { // weeks after the data, at the frequency after it
+		g, _, _ := freqGain(m.FreqAfter, m.FreqK, m.FreqS)
+		dst = resizeTo(dst, len(x))
+		for i, v := range x {
+			dst[i] = v * g
+		}
+		x = dst
+	}
 	dst = resizeTo(dst, len(x))
 	if m.Linear {
 		copy(dst, x)

@@ -68,7 +68,29 @@ func (c *Channel) measureParams() []*Param {
 			out = append(out, &c.Error.Params[i])
 		}
 	}
+	if c.Freq != nil {
+		out = append(out, &c.Freq.Params[0], &c.Freq.Params[1])
+	}
 	return out
+}
+
+// measure sets m's measurement from v, the channel's measureParams values
+// in order, and returns how many it read.
+func (c *Channel) measure(m *Media, v []float64) int {
+	k := 0
+	if c.Break != nil {
+		m.Before, m.Factor = c.Break.At, math.Exp(v[k])
+		k++
+	}
+	if e := c.Error; e != nil {
+		m.ErrSD, m.ErrWeeks, m.ErrZ = e.SD, e.Weeks, v[k:k+len(e.Weeks)]
+		k += len(e.Weeks)
+	}
+	if f := c.Freq; f != nil {
+		m.Freq, m.FreqAfter, m.FreqK, m.FreqS = f.F, f.After, v[k], v[k+1]
+		k += 2
+	}
+	return k
 }
 
 // measuredTerm is a media channel whose exposure is measured with doubt:
@@ -92,16 +114,18 @@ type measuredTerm struct {
 	sd    float64   // the error's sd (0: none)
 	zk    int       // position of the first latent error
 	weeks []int     // weeks with a latent error
+	fk    int       // position of Kf (Sf next), -1: no frequency
+	freq  []float64 // the frequency of each week
 	xs    []float64 // x~, what the channel term reads
 	dh    []float64 // dH/da
 	gx    []float64 // scratch: d lp/d x~
 }
 
-func newMeasuredTerm(ch *channelTerm, at, kb int, sd float64, zk int, weeks []int) *measuredTerm {
-	if ch.linear || kb >= 0 && (at < 1 || at >= len(ch.x)) {
-		panic("model: a measured exposure needs a saturating channel, and a break a week inside the data after its first")
+func newMeasuredTerm(ch *channelTerm, at, kb int, sd float64, zk int, weeks []int, fk int, freq []float64) *measuredTerm {
+	if ch.linear || kb >= 0 && (at < 1 || at >= len(ch.x)) || fk >= 0 && len(freq) != len(ch.x) {
+		panic("model: a measured exposure needs a saturating channel, a break a week inside the data after its first, a frequency every week")
 	}
-	m := &measuredTerm{channelTerm: ch, x0: ch.x, at: at, kb: kb, sd: sd, zk: zk, weeks: weeks}
+	m := &measuredTerm{channelTerm: ch, x0: ch.x, at: at, kb: kb, sd: sd, zk: zk, weeks: weeks, fk: fk, freq: freq}
 	m.alloc()
 	return m
 }
@@ -131,6 +155,13 @@ func (m *measuredTerm) input(v []float64) {
 	if m.sd > 0 {
 		for i, t := range m.weeks {
 			m.xs[t] *= math.Exp(-m.sd * v[m.zk+i])
+		}
+	}
+	if m.fk >= 0 {
+		k, s := v[m.fk], v[m.fk+1]
+		for t, f := range m.freq {
+			g, _, _ := freqGain(f, k, s)
+			m.xs[t] *= g
 		}
 	}
 }
@@ -172,6 +203,17 @@ func (m *measuredTerm) backward(g, nat, w []float64, sw, gmu float64) {
 	for i, t := range m.weeks {
 		g[m.zk+i] -= m.sd * m.gx[t]
 	}
+	if m.fk >= 0 {
+		k, s := nat[m.fk], nat[m.fk+1]
+		var sk, ss float64
+		for t, f := range m.freq {
+			_, dk, ds := freqGain(f, k, s)
+			sk += m.gx[t] * dk
+			ss += m.gx[t] * ds
+		}
+		g[m.fk] += sk
+		g[m.fk+1] += ss
+	}
 }
 
 // unconstrain writes the coefficient's sampling coordinate at the natural
@@ -189,11 +231,17 @@ var _ predictor = (*measuredTerm)(nil)
 // written into dst; x itself when the channel has neither. Weeks past the
 // data are taken as given.
 func (m Media) measured(dst, x []float64) []float64 {
-	if m.Before <= 0 && m.ErrSD == 0 {
+	if m.Before <= 0 && m.ErrSD == 0 && m.Freq == nil {
 		return x
 	}
 	dst = resizeTo(dst, len(x))
 	copy(dst, x)
+	if m.Freq != nil {
+		for t := range dst {
+			g, _, _ := freqGain(m.freqAt(t), m.FreqK, m.FreqS)
+			dst[t] *= g
+		}
+	}
 	for t := range min(m.Before, len(x)) {
 		dst[t] *= m.Factor
 	}
@@ -271,6 +319,20 @@ func (sc *Scaled) useExposure(s data.Series, spec data.Spec, in func(int) bool) 
 			last = sc.T - 1
 		}
 		sc.UpperScale[c] = sc.costPerUnit(c, from, last, in)
+		if m, _ := spec.ExposureOf(spec.Upper[c]); m.Frequency != "" && s.Frequency != nil && s.Frequency[c] != nil {
+			if sc.Freq == nil {
+				sc.Freq, sc.FreqRecent = make([][]float64, n), make([]float64, n)
+			}
+			sc.Freq[c] = s.Frequency[c]
+			imp, reach := 0.0, 0.0
+			for t := from; t <= last; t++ {
+				if in(t) {
+					imp += x[t] * s.Frequency[c][t]
+					reach += x[t]
+				}
+			}
+			sc.FreqRecent[c] = imp / reach
+		}
 	}
 }
 

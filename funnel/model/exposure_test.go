@@ -9,8 +9,9 @@ import (
 )
 
 // TestMeasuredTerm checks a channel whose exposure has a measurement break,
-// latent errors, or both, in natural coordinates: the gradient in lam, K,
-// S, the log factor and the latent errors against central finite
+// latent errors, both, a frequency curve (reach and frequency), or all, in
+// natural coordinates: the gradient in lam, K, S, the log factor, the
+// latent errors and the frequency curve's Kf and Sf against central finite
 // differences of the forward pass, centred and not, with no allocation per
 // evaluation.
 func TestMeasuredTerm(t *testing.T) {
@@ -22,7 +23,11 @@ func TestMeasuredTerm(t *testing.T) {
 			weeks = append(weeks, w)
 		}
 	}
-	for _, kind := range []string{"break", "error", "both"} {
+	freq := make([]float64, 60)
+	for w := range freq {
+		freq[w] = 1 + 3*math.Abs(math.Sin(float64(w)/5))
+	}
+	for _, kind := range []string{"break", "error", "both", "frequency", "all"} {
 		for _, centred := range []bool{false, true} {
 			ch := Channel{Column: "video", X: sc.Upper[0], Params: mediaParams("video", "alpha", "lam", "K", "S", false)}
 			par := []param{{name: "mu", free: 0}, {name: "alpha", sup: PositiveReal, free: -1},
@@ -30,19 +35,25 @@ func TestMeasuredTerm(t *testing.T) {
 			k := []int{1, 2, 3, 4}
 			base, scale := []float64{0.3, 0.5, 1, 2}, []float64{0.2, 0.4, 0.5, 1}
 			kb, sd, zk, ws := -1, 0.0, -1, []int(nil)
-			if kind != "error" {
+			if kind == "break" || kind == "both" || kind == "all" {
 				kb = len(par)
 				par = append(par, param{name: "log_break", sup: Real, free: len(k)})
 				k, base, scale = append(k, kb), append(base, 0.1), append(scale, 0.6)
 			}
-			if kind != "break" {
+			if kind == "error" || kind == "both" || kind == "all" {
 				sd, zk, ws = 0.2, len(par), weeks
 				for i := range ws {
 					par = append(par, param{name: "z", sup: Real, free: len(k)})
 					k, base, scale = append(k, zk+i), append(base, 0.1*float64(i%3)), append(scale, 1)
 				}
 			}
-			term := newMeasuredTerm(newChannelTerm(&ch, k[:4], par, false, centred), 25, kb, sd, zk, ws)
+			fk, fr := -1, []float64(nil)
+			if kind == "frequency" || kind == "all" {
+				fk, fr = len(par), freq
+				par = append(par, param{name: "Kf", sup: PositiveReal, free: len(k)}, param{name: "Sf", sup: PositiveReal, free: len(k) + 1})
+				k, base, scale = append(k, fk, fk+1), append(base, 2, 1.5), append(scale, 0.8, 0.7)
+			}
+			term := newMeasuredTerm(newChannelTerm(&ch, k[:4], par, false, centred), 25, kb, sd, zk, ws, fk, fr)
 			f := predictorFunc(t, term, len(par), k, base, scale, c, -0.4)
 			mcmctest.CheckGradient(t, f, 1e-6, termGrad)
 			mcmctest.CheckNoAlloc(t, f, make([]float64, len(k)))
@@ -206,5 +217,68 @@ func TestErrorResponse(t *testing.T) {
 		if d := n[i] - n0[i]; math.Abs(d-0.5*got[i]) > 1e-12 {
 			t.Fatalf("week %d: video adds %v to the predictor, want %v", i, d, 0.5*got[i])
 		}
+	}
+}
+
+// TestFrequencyTarget checks a stage with a channel given as reach and
+// frequency in the sampling coordinates, its parameter names and layout,
+// and that the layout's Media runs on reach times g(frequency), computed
+// here by hand, with the frequency after the data past its weeks; and that
+// a steady week's response is H(x g(FreqAfter)).
+func TestFrequencyTarget(t *testing.T) {
+	sc := testScaled(52, 7)
+	sc.RawExposure = [][]float64{sc.Upper[0], nil}
+	f := make([]float64, 52)
+	for w := range f {
+		f[w] = 1.2 + float64(w%6)
+	}
+	sc.Freq, sc.FreqRecent = [][]float64{f, nil}, []float64{3.5, 0}
+	st, err := Demand(sc, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tg, err := st.Target()
+	if err != nil {
+		t.Fatal(err)
+	}
+	// 1e-5: the whole stage's log density is large at these points, and
+	// central differences lose about 1e-6 of it to rounding
+	mcmctest.CheckGradient(t, tg, 1e-5, termGrad)
+	mcmctest.CheckNoAlloc(t, tg, make([]float64, tg.Dim()))
+	l := st.Layout()
+	cs, _ := l.Channel("video")
+	names := l.Names()
+	if names[cs.FreqK] != "Kfreq_alpha[video]" || names[cs.FreqK+1] != "Sfreq_alpha[video]" || cs.FreqK+2 != len(names) {
+		t.Fatalf("frequency curve at %d: %v", cs.FreqK, names[cs.FreqK:])
+	}
+	v := make([]float64, l.Len())
+	for i := range v {
+		v[i] = 0.5
+	}
+	v[cs.FreqK], v[cs.FreqK+1] = 2.5, 1.8
+	gain := func(f float64) float64 { return math.Pow(f, 1.8) / (math.Pow(f, 1.8) + math.Pow(2.5, 1.8)) }
+	x := append(append([]float64(nil), sc.Upper[0]...), 0.8, 1.1)
+	want := make([]float64, len(x))
+	for w := range x {
+		fw := 3.5
+		if w < 52 {
+			fw = f[w]
+		}
+		want[w] = x[w] * gain(fw)
+	}
+	a := transform.Adstock(nil, want, 0.5)
+	m := l.View(v).ChannelAt(0)
+	got := m.Response(nil, x)
+	for w := range got {
+		if h := transform.Hill(a[w], 0.5, 0.5); math.Abs(got[w]-h) > 1e-12 {
+			t.Fatalf("week %d: response %v, want %v", w, got[w], h)
+		}
+	}
+	tail := m.ResponseFrom(nil, x[52:], m.Carry(x[:52], 0))
+	if tail[0] != got[52] || tail[1] != got[53] {
+		t.Fatalf("ResponseFrom after Carry %v, Response %v", tail, got[52:])
+	}
+	if s, want := m.Steady(0.9), transform.Hill(0.9*gain(3.5), 0.5, 0.5); math.Abs(s-want) > 1e-12 {
+		t.Fatalf("steady response %v, want %v", s, want)
 	}
 }

@@ -43,6 +43,13 @@ type ChannelSlots struct {
 	ErrZ     int
 	ErrSD    float64
 	ErrWeeks []int
+	// FreqK is the position of the frequency curve's Kf (Sf follows), -1
+	// unless the channel is given as reach and frequency (reach.go); Freq
+	// and FreqAfter are its weekly frequency and the frequency after the
+	// data.
+	FreqK     int
+	Freq      []float64
+	FreqAfter float64
 }
 
 // SmoothSlots are the positions of a smooth function's parameters (model
@@ -88,7 +95,7 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for _, c := range s.Channels {
-		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1, ErrZ: -1}
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1, ErrZ: -1, FreqK: -1}
 		if !c.Linear {
 			cs.Lam, cs.K, cs.S = add(), add(), add()
 		}
@@ -124,6 +131,11 @@ func (s *Stage) Layout() *Layout {
 			name, _, _ := strings.Cut(l.names[k], ",")
 			l.blocks = append(l.blocks, Block{Name: name + "]", Start: k, Len: len(e.Weeks)})
 			k += len(e.Weeks)
+		}
+		if f := c.Freq; f != nil {
+			cs.FreqK, cs.Freq, cs.FreqAfter = k, f.F, f.After
+			add()
+			add()
 		}
 	}
 	return l
@@ -344,6 +356,9 @@ func (p Params) ChannelAt(j int) Media {
 	if c.ErrZ >= 0 {
 		m.ErrSD, m.ErrWeeks, m.ErrZ = c.ErrSD, c.ErrWeeks, p.v[c.ErrZ:c.ErrZ+len(c.ErrWeeks)]
 	}
+	if c.FreqK >= 0 {
+		m.Freq, m.FreqAfter, m.FreqK, m.FreqS = c.Freq, c.FreqAfter, p.v[c.FreqK], p.v[c.FreqK+1]
+	}
 	return m
 }
 
@@ -400,6 +415,13 @@ type Media struct {
 	ErrSD    float64
 	ErrWeeks []int
 	ErrZ     []float64
+	// Freq, FreqAfter, FreqK and FreqS are a channel given as reach and
+	// frequency (reach.go): the input of week t is multiplied by the
+	// frequency curve g(f) at Freq[t], FreqAfter past the data. Freq is
+	// nil otherwise.
+	Freq         []float64
+	FreqAfter    float64
+	FreqK, FreqS float64
 }
 
 // Response writes the coefficient-free response H(adstock(x; Lam); K, S) of
@@ -409,7 +431,7 @@ type Media struct {
 // measurement first (weeks before the break times Factor, the latent true
 // exposure of weeks with an error).
 func (m Media) Response(dst, x []float64) []float64 {
-	if m.Before > 0 || m.ErrSD > 0 {
+	if m.Before > 0 || m.ErrSD > 0 || m.Freq != nil {
 		return m.responseMeasured(dst, x)
 	}
 	dst = resizeTo(dst, len(x))
@@ -429,6 +451,10 @@ func (m Media) Response(dst, x []float64) []float64 {
 // measurement break's factor does not enter: spend from now on is measured
 // the newest way, the reference.
 func (m Media) Steady(x float64) float64 {
+	if m.Freq != nil {
+		g, _, _ := freqGain(m.FreqAfter, m.FreqK, m.FreqS)
+		x *= g
+	}
 	if m.Linear {
 		return x
 	}

@@ -44,6 +44,13 @@ type Scaled struct {
 	// Errors holds each upper-funnel channel's exposure error sd (0 when
 	// taken as measured; nil when no channel has one).
 	Errors []float64
+	// Freq holds the average frequency of each upper-funnel channel given
+	// as reach and frequency (Upper then holds its scaled reach; nil rows
+	// otherwise, nil when none), and FreqRecent the frequency of its latest
+	// RecentWeeks weeks with spend (reach-weighted), which weeks after the
+	// data are taken to have.
+	Freq       [][]float64
+	FreqRecent []float64
 	// QueriesScale and OutcomeScale are mean(q) and mean(y), in raw units.
 	QueriesScale, OutcomeScale float64
 	ControlMean, ControlSD     []float64

@@ -46,6 +46,9 @@ type Channel struct {
 	// Error, if not nil, says the channel's exposure is observed with
 	// error (exposure.go). Its latent errors follow the break's factor.
 	Error *Error
+	// Freq, if not nil, says X is the channel's reach and gives its
+	// frequency (reach.go). Its Kf and Sf follow the latent errors.
+	Freq *Frequency
 }
 
 // mediaParams returns a channel's parameters named coef[col], lam[col],
@@ -206,14 +209,7 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 	for _, c := range s.Channels {
 		m := media(c, v[k:])
 		k += len(c.Params)
-		if c.Break != nil {
-			m.Before, m.Factor = c.Break.At, math.Exp(v[bk])
-			bk++
-		}
-		if e := c.Error; e != nil {
-			m.ErrSD, m.ErrWeeks, m.ErrZ = e.SD, e.Weeks, v[bk:bk+len(e.Weeks)]
-			bk += len(e.Weeks)
-		}
+		bk += c.measure(&m, v[bk:])
 		h = m.Response(h, c.X)
 		if c.Drift == nil {
 			for i, hi := range h {
@@ -446,19 +442,18 @@ func (s *Stage) Target() (*Target, error) {
 		if !ok || ch.linear {
 			return nil, fmt.Errorf("model: channel %s has a measured exposure (a break or an error); it must saturate and must not drift", c.Column)
 		}
-		kb, at, sd, zk, weeks := -1, 0, 0.0, -1, []int(nil)
+		kb, at, sd, zk, weeks, fk, freq := -1, 0, 0.0, -1, []int(nil), -1, []float64(nil)
 		if c.Break != nil {
 			kb, at, k = k[0], c.Break.At, k[1:]
 		}
 		if c.Error != nil {
 			sd, zk, weeks = c.Error.SD, k[0], c.Error.Weeks
-			for q := range k {
-				if k[q] != zk+q {
-					panic("model: latent errors are consecutive")
-				}
-			}
+			k = k[len(weeks):]
 		}
-		t.terms[first+i] = newMeasuredTerm(ch, at, kb, sd, zk, weeks)
+		if c.Freq != nil {
+			fk, freq = k[0], c.Freq.F
+		}
+		t.terms[first+i] = newMeasuredTerm(ch, at, kb, sd, zk, weeks, fk, freq)
 	}
 	t.alloc()
 	return t, nil

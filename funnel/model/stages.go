@@ -74,6 +74,9 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 	if err := withMeasurement(st, sc, "alpha"); err != nil {
 		return nil, err
 	}
+	if err := withFrequency(st, sc, "alpha"); err != nil {
+		return nil, err
+	}
 	return finish(st, o)
 }
 
@@ -88,6 +91,9 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 	if err := withMeasurement(st, sc, "delta"); err != nil {
 		return nil, err
 	}
+	if err := withFrequency(st, sc, "delta"); err != nil {
+		return nil, err
+	}
 	return finish(st, o)
 }
 
@@ -96,6 +102,9 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 func Naive(sc *Scaled, o Options) (*Stage, error) {
 	st := withChannels(outcomeBase("naive", sc, o), sc, o)
 	if err := withMeasurement(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	if err := withFrequency(st, sc, "delta"); err != nil {
 		return nil, err
 	}
 	return finish(st, o)

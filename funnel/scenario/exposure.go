@@ -26,8 +26,51 @@ type Exposure struct {
 	Break               int
 	BreakScale          float64
 	ErrorSD             float64
+	// RF, if true, reports video as weekly reach (ReachColumn, people) and
+	// average frequency (FrequencyColumn) instead of impressions; the true
+	// response runs on reach times the Hill curve g(f; Kf, Sf) in
+	// frequency (funnel/model reach.go). Frequency rises with the week's
+	// spend, as heavier weeks buy repeat exposures.
+	RF     bool
+	Kf, Sf float64
 	// errs holds e[t] once simulated: the true latent errors.
 	errs []float64
+}
+
+// ReachColumn and FrequencyColumn are the video reach and average
+// frequency columns of the reach-and-frequency scenario.
+const (
+	ReachColumn     = "video_reach"
+	FrequencyColumn = "video_frequency"
+)
+
+// reachFrequency splits video's impressions (thousands) into reach and
+// average frequency and returns them with the model's input: reach over
+// its mean times g(f).
+func (e *Exposure) reachFrequency(rng *rand.Rand, spend, imp []float64) (reach, freq, input []float64) {
+	T := len(spend)
+	reach, freq = make([]float64, T), make([]float64, T)
+	top := 0.0
+	for _, s := range spend {
+		top = math.Max(top, s)
+	}
+	for t, s := range spend {
+		if s <= 0 {
+			continue
+		}
+		f := 1.2 + 4.5*math.Pow(s/top, 1.5)*math.Exp(0.25*rng.NormFloat64())
+		freq[t] = math.Round(100*f) / 100
+		reach[t] = math.Round(1000 * imp[t] / freq[t])
+	}
+	scale := model.SpendScale(reach)
+	input = make([]float64, T)
+	for t, r := range reach {
+		if r > 0 {
+			g := math.Pow(freq[t], e.Sf) / (math.Pow(freq[t], e.Sf) + math.Pow(e.Kf, e.Sf))
+			input[t] = r / scale * g
+		}
+	}
+	return reach, freq, input
 }
 
 // CostPerThousand is the exposure scenarios' video cost per thousand
@@ -44,6 +87,9 @@ func (s *Scenario) Roles() data.Spec {
 	}
 	if e := s.Exposure; e != nil {
 		m := data.Exposure{Spend: spec.Upper[0], Column: ExposureColumn, Error: e.ErrorSD}
+		if e.RF {
+			m.Column, m.Frequency = ReachColumn, FrequencyColumn
+		}
 		if e.Break > 0 {
 			m.Break = s.Start.AddDate(0, 0, 7*e.Break).Format(data.DateLayout)
 		}

@@ -116,13 +116,15 @@ func Named(name string, seed uint64, weeks, regions int) (*Scenario, error) {
 		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03, Break: 78, BreakScale: 1.6}
 	case "exposure-error":
 		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03, ErrorSD: 0.25}
+	case "reach-frequency":
+		s.Exposure = &Exposure{CostNoise: 0.03, RF: true, Kf: 2, Sf: 2.5}
 	case "direct-audio":
 		s.P.Demand = []Channel{{0.08, 0.3, 0.9, 1.2}, {0, 0.5, 1, 2}}
 		s.P.Direct = []Channel{{0.3, 0.25, 0.7, 1.6}, {0.2, 0.2, 0.5, 1.3}}
 		s.P.Gamma = 0.3
 		s.P.Search = Channel{0.2, 0.1, 0.8, 1.5}
 	default:
-		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break or exposure-error", name)
+		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break, exposure-error or reach-frequency", name)
 	}
 	if weeks > 0 {
 		s.Weeks = weeks
@@ -229,10 +231,15 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	for c, x := range upperRaw {
 		upper[c] = divide(x, model.SpendScale(x))
 	}
-	var exposure [][]float64
+	var exposure, frequency [][]float64
 	if s.Exposure != nil {
 		var shown []float64
 		shown, upper[0] = s.Exposure.impressions(rng, video)
+		if s.Exposure.RF {
+			var freq []float64
+			shown, freq, upper[0] = s.Exposure.reachFrequency(rng, video, shown)
+			frequency = [][]float64{freq, nil}
+		}
 		exposure = [][]float64{shown, nil}
 	}
 	z := standardise(price)
@@ -302,7 +309,7 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	mys = stat.Mean(outcome) / s.OutcomeBase
 	reg := data.Region{Name: name, Population: pop, Series: data.Series{
 		Weeks: weeks, Upper: upperRaw, Search: [][]float64{search}, Queries: queries, Outcome: outcome,
-		Controls: [][]float64{price}, Exposure: exposure}}
+		Controls: [][]float64{price}, Exposure: exposure, Frequency: frequency}}
 	dem, out, err := p.inModelUnits(reg.Series, s.Roles(), mqs, mys, s.Exposure)
 	if err != nil {
 		return data.Region{}, nil, nil, err
@@ -387,6 +394,9 @@ func (t stageTruth) named(sc *model.Scaled, st *model.Stage, m, gamma float64) (
 		}
 		for i, w := range cs.ErrWeeks {
 			v[cs.ErrZ+i] = t.exposure.latent(w)
+		}
+		if cs.FreqK >= 0 {
+			v[cs.FreqK], v[cs.FreqK+1] = t.exposure.Kf, t.exposure.Sf
 		}
 	}
 	named := map[string]float64{}
