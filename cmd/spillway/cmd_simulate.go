@@ -24,7 +24,7 @@ type simulateOptions struct {
 }
 
 func (o *simulateOptions) addFlags(fs *pflag.FlagSet) {
-	fs.StringVar(&o.scenario, "scenario", "demo", "the `SCENARIO`: demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break or exposure-error")
+	fs.StringVar(&o.scenario, "scenario", "demo", "the `SCENARIO`: demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break, exposure-error or reach-frequency")
 	fs.Uint64Var(&o.seed, "seed", DemoSeed, "random seed")
 	fs.IntVar(&o.weeks, "weeks", 0, "number of weeks (0: the scenario's own, 156)")
 	fs.IntVar(&o.regions, "regions", 0, "number of regions (0: the scenario's own; demo-regions has 24)")
@@ -64,6 +64,11 @@ volume, as auction spend does, so a model without queries over-credits search.
   exposure-error   as exposure-rising, each week's impressions off by a
                    factor exp(0.25 e), e standard normal; add
                    --exposure-error video_spend=0.25
+  reach-frequency  video given as weekly reach (video_reach) and average
+                   frequency (video_frequency); the response per person
+                   reached levels off after about 2 exposures; fit with
+                   --reach video_spend=video_reach
+                   --frequency video_spend=video_frequency
 
 EXAMPLE
   spillway simulate --scenario demo-regions --seed 7 --out sim7

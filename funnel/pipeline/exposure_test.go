@@ -37,7 +37,14 @@ func exposureWindows(t *testing.T, sc *model.Scaled) []window.Window {
 // over the windows.
 func exposureFit(t *testing.T, res *scenario.Result, spec data.Spec, set mcmc.Settings) (*mediation.Result, *Fitted, *model.Scaled) {
 	t.Helper()
-	sc := model.Scale(res.Data.National(), spec)
+	return seriesFit(t, res.Data.National(), spec, set)
+}
+
+// seriesFit fits the national series s with spec's roles and returns the
+// split over the windows.
+func seriesFit(t *testing.T, s data.Series, spec data.Spec, set mcmc.Settings) (*mediation.Result, *Fitted, *model.Scaled) {
+	t.Helper()
+	sc := model.Scale(s, spec)
 	fit, err := Fit(context.Background(), sc, model.Options{}, set, nil)
 	if err != nil {
 		t.Fatal(err)
@@ -248,31 +255,107 @@ func exposureError(t *testing.T, tally *tally) {
 	}
 }
 
-// TestExposureRecovery runs the three exposure recovery checks (rising cost
-// per unit, a measurement break, exposure with error; six fits) and prints
+// exposureRF fits the reach-frequency scenario (video's response runs on
+// reach times g(f) = f^2.5/(f^2.5 + 2^2.5), frequency from 1.2 to about 6)
+// on reach and frequency, and on impressions (reach times frequency, one
+// exposure column): with reach and frequency, the frequency curve's Kf
+// and video's total effects in each year are covered, and the posterior
+// says that doubling the frequency adds less than doubling the reach; both
+// fits are printed.
+func exposureRF(t *testing.T, tl *tally) {
+	s, err := scenario.Named("reach-frequency", 5, 0, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	res, err := s.Simulate()
+	if err != nil {
+		t.Fatal(err)
+	}
+	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	withRF, fit, sc := exposureFit(t, res, s.Roles(), set)
+	nat := res.Data.National()
+	imp := make([]float64, len(nat.Weeks))
+	for w := range imp {
+		imp[w] = nat.Exposure[0][w] * nat.Frequency[0][w]
+	}
+	nat.Exposure = [][]float64{imp, nil}
+	impSpec := s.Roles()
+	impSpec.Exposure = []data.Exposure{{Spend: impSpec.Upper[0], Column: "video_impressions"}}
+	withImp, _, _ := seriesFit(t, nat, impSpec, set)
+	wins := exposureWindows(t, sc)
+	truth := exposureTruth(t, s, res, wins)
+	tl.add(t, s, withRF, fit, truth)
+	for k := range 2 {
+		l := fit.Stages[k].Layout()
+		cs, _ := l.Channel("video_spend")
+		for q, want := range []float64{s.Exposure.Kf, s.Exposure.Sf} {
+			draws := stageDraws(fit, k, cs.FreqK+q)
+			sm := mediation.Summarise(draws)
+			t.Logf("%s stage: %s mean %.2f [%.2f, %.2f], truth %.2f", StageNames[k], l.Names()[cs.FreqK+q], sm.Mean, sm.Q05, sm.Q95, want)
+			if q == 0 && k == 0 {
+				if in90, _ := coverage(draws, want); !in90 {
+					t.Errorf("%s: 90%% interval misses the truth %.2f", l.Names()[cs.FreqK], want)
+				}
+			}
+		}
+		if k == 0 {
+			// doubling frequency against doubling reach at the recent
+			// frequency: g(2f)/g(f) per draw, against 2
+			kd, sd := stageDraws(fit, 0, cs.FreqK), stageDraws(fit, 0, cs.FreqK+1)
+			ratio := make([]float64, len(kd))
+			f := cs.FreqAfter
+			for d := range ratio {
+				g := func(x float64) float64 { return 1 / (1 + math.Pow(kd[d]/x, sd[d])) }
+				ratio[d] = g(2*f) / g(f)
+			}
+			sm := mediation.Summarise(ratio)
+			tg := func(x float64) float64 { return 1 / (1 + math.Pow(s.Exposure.Kf/x, s.Exposure.Sf)) }
+			t.Logf("doubling the frequency (from %.2f) multiplies the effective exposure by %.2f [%.2f, %.2f] (truth %.2f); doubling the reach by 2", f, sm.Mean, sm.Q05, sm.Q95, tg(2*f)/tg(f))
+			if sm.Q95 >= 2 {
+				t.Errorf("the posterior does not say that frequency saturates sooner than reach (doubling it: 90%% up to %.2f)", sm.Q95)
+			}
+		}
+	}
+	t.Logf("video total effect (conversions), truth | reach and frequency | impressions:")
+	for _, w := range wins {
+		tv := truth["video_spend/total/"+w.Name]
+		e, _ := effectOf(withRF, "video_spend", "total", w.Name)
+		p, _ := effectOf(withImp, "video_spend", "total", w.Name)
+		se, sp := mediation.Summarise(e.Draws), mediation.Summarise(p.Draws)
+		t.Logf("  %-23s %8.0f | %8.0f [%8.0f, %8.0f] | %8.0f [%8.0f, %8.0f]", w.Name, tv, se.Mean, se.Q05, se.Q95, sp.Mean, sp.Q05, sp.Q95)
+		if in90, _ := coverage(e.Draws, tv); !in90 {
+			t.Errorf("%s: 90%% interval [%.0f, %.0f] misses the truth %.0f", w.Name, se.Q05, se.Q95, tv)
+		}
+	}
+}
+
+// TestExposureRecovery runs the four exposure recovery checks (rising cost
+// per unit, a measurement break, exposure with error, reach and frequency;
+// eight fits) and prints
 // how many of the 90% intervals of the stated models (video's and audio's
 // effects on each path, whole period and each year, and the break's log
 // factors) hold the truth, beside the 95% binomial range.
 func TestExposureRecovery(t *testing.T) {
 	if testing.Short() {
-		t.Skip("six full fits")
+		t.Skip("eight full fits")
 	}
 	var tl tally
 	t.Run("rising", func(t *testing.T) { exposureRising(t, &tl) })
 	t.Run("break", func(t *testing.T) { exposureBreak(t, &tl) })
 	t.Run("error", func(t *testing.T) { exposureError(t, &tl) })
+	t.Run("reach-frequency", func(t *testing.T) { exposureRF(t, &tl) })
 	tl.log(t, false)
 }
 
 // TestExposureCoverage is the longer sweep: ten replicates of each exposure
-// scenario (thirty fits), the count of 90% intervals holding the truth
+// scenario (forty fits), the count of 90% intervals holding the truth
 // against its 95% binomial range. It runs with SPILLWAY_LONG=1.
 func TestExposureCoverage(t *testing.T) {
 	if os.Getenv("SPILLWAY_LONG") != "1" {
-		t.Skip("thirty fits; set SPILLWAY_LONG=1")
+		t.Skip("forty fits; set SPILLWAY_LONG=1")
 	}
 	var tl tally
-	for _, name := range []string{"exposure-rising", "exposure-break", "exposure-error"} {
+	for _, name := range []string{"exposure-rising", "exposure-break", "exposure-error", "reach-frequency"} {
 		for rep := range 10 {
 			s, err := scenario.Named(name, uint64(100+rep), 0, 0)
 			if err != nil {
@@ -313,8 +396,13 @@ func (tl *tally) add(t *testing.T, s *scenario.Scenario, split *mediation.Result
 		count(e.Draws, tv)
 	}
 	for k := range 2 {
-		if cs, _ := fit.Stages[k].Layout().Channel("video_spend"); cs.Break >= 0 {
+		cs, _ := fit.Stages[k].Layout().Channel("video_spend")
+		if cs.Break >= 0 {
 			count(stageDraws(fit, k, cs.Break), math.Log(s.Exposure.BreakScale))
+		}
+		if cs.FreqK >= 0 {
+			count(stageDraws(fit, k, cs.FreqK), s.Exposure.Kf)
+			count(stageDraws(fit, k, cs.FreqK+1), s.Exposure.Sf)
 		}
 	}
 }
