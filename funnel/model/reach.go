@@ -16,8 +16,9 @@ import (
 // had and levels off after a few (effective frequency: Krugman 1972, "Why
 // three exposures may be enough", Journal of Advertising Research 12(6);
 // Naples 1979, "Effective Frequency", Association of National
-// Advertisers), while reach enters at full weight, saturating only through
-// the channel's own adstock and Hill curve in x~. So more frequency
+// Advertisers; both cited from memory), while reach enters at full weight,
+// saturating only through the channel's own adstock and Hill curve in x~.
+// So more frequency
 // saturates sooner than more reach whenever Kf is a few exposures, and the
 // data say how many. Each stage learns its own Kf and Sf.
 //
