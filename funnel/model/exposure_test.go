@@ -3,6 +3,9 @@ package model
 import (
 	"math"
 	"testing"
+	"time"
+
+	"spillway/funnel/data"
 
 	"spillway/funnel/mcmc/mcmctest"
 	"spillway/funnel/transform"
@@ -280,5 +283,56 @@ func TestFrequencyTarget(t *testing.T) {
 	}
 	if s, want := m.Steady(0.9), transform.Hill(0.9*gain(3.5), 0.5, 0.5); math.Abs(s-want) > 1e-12 {
 		t.Fatalf("steady response %v, want %v", s, want)
+	}
+}
+
+// TestCostPerUnit checks the one rule by which spend becomes exposure: with
+// a cost per unit of 10 in weeks 0-39 and 13 from week 40 on (exposure 0
+// in the weeks without spend), UpperScale is the spend per scaled unit at
+// 13 (the latest 13 weeks with spend), CostPerUnit over weeks 0-39 at 10,
+// and with a break at week 40 any window is priced from the break on; a
+// channel run on spend keeps its divisor.
+func TestCostPerUnit(t *testing.T) {
+	const T = 60
+	weeks := make([]time.Time, T)
+	spend, exp, other := make([]float64, T), make([]float64, T), make([]float64, T)
+	for w := range T {
+		weeks[w] = time.Date(2024, 1, 1, 0, 0, 0, 0, time.UTC).AddDate(0, 0, 7*w)
+		other[w] = 50 + float64(w%7)
+		if w%5 == 3 {
+			continue // no spend, no exposure
+		}
+		spend[w] = 1000 + 100*float64(w%4)
+		cpu := 10.0
+		if w >= 40 {
+			cpu = 13
+		}
+		exp[w] = spend[w] / cpu
+	}
+	s := data.Series{Weeks: weeks, Upper: [][]float64{spend, other}, Search: [][]float64{other},
+		Queries: other, Outcome: other, Exposure: [][]float64{exp, nil}}
+	spec := data.Spec{Date: "week", Upper: []string{"video", "audio"}, Search: []string{"search"}, Queries: "q", Outcome: "y",
+		Exposure: []data.Exposure{{Spend: "video", Column: "video_imp"}}}
+	sc := Scale(s, spec)
+	d := sc.ExposureScale[0] // raw exposure per scaled unit
+	for _, c := range []struct {
+		name     string
+		got, cpu float64
+	}{
+		{"UpperScale (latest 13 weeks)", sc.UpperScale[0], 13},
+		{"weeks 0-39", sc.CostPerUnit(0, 0, 39), 10},
+		{"weeks 40-59", sc.CostPerUnit(0, 40, 59), 13},
+	} {
+		if want := c.cpu * d; math.Abs(c.got-want) > 1e-9*want {
+			t.Errorf("%s: %v per scaled unit, want %v (cost per unit %v)", c.name, c.got, want, c.cpu)
+		}
+	}
+	if sc.UpperScale[1] != SpendScale(other) || sc.CostPerUnit(1, 0, 10) != sc.UpperScale[1] {
+		t.Errorf("a spend channel's divisor changed: %v", sc.UpperScale[1])
+	}
+	spec.Exposure[0].Break = weeks[40].Format(data.DateLayout)
+	sc = Scale(s, spec)
+	if got, want := sc.CostPerUnit(0, 0, 39), 13*d; math.Abs(got-want) > 1e-9*want {
+		t.Errorf("with a break at week 40, weeks 0-39 are priced at %v, want the new measurement's %v", got, want)
 	}
 }
