@@ -1,6 +1,7 @@
 package main
 
 import (
+	"os"
 	"path/filepath"
 	"slices"
 	"strconv"
@@ -148,6 +149,67 @@ func TestReachFrequencyInspect(t *testing.T) {
 		}
 		if code, _, errs := runCmd(t, inspectArgs(path, more...)...); code != 0 {
 			t.Fatalf("regions %v: got %d: %s", regions, code, errs)
+		}
+	}
+}
+
+// TestExposureFitSplit fits simulated data with a break, an error and reach
+// and frequency through the commands (short chains), then splits the fit
+// folder again: spec.json keeps the measurement, data.csv the exposure
+// columns, and the split of the folder read back reproduces the effects,
+// curves and returns byte for byte.
+func TestExposureFitSplit(t *testing.T) {
+	if testing.Short() {
+		t.Skip("fits")
+	}
+	dir := t.TempDir()
+	sim := filepath.Join(dir, "sim")
+	if code, _, errs := runCmd(t, "simulate", "--scenario", "reach-frequency", "--out", sim); code != 0 {
+		t.Fatalf("simulate: %d %s", code, errs)
+	}
+	out := filepath.Join(dir, "fit")
+	args := append([]string{"run", "--data", filepath.Join(sim, "data.csv"), "--date", "week", "--upper", "video_spend,audio_spend",
+		"--search", "search_spend", "--queries", "branded_queries", "--outcome", "conversions", "--controls", "price",
+		"--reach", "video_spend=video_reach", "--frequency", "video_spend=video_frequency",
+		"--exposure-break", "video_spend=2024-07-01", "--exposure-error", "video_spend=0.1", "--out", out}, quick...)
+	if code, _, errs := runCmd(t, args...); code != 0 {
+		t.Fatalf("run: %d %s", code, errs)
+	}
+	spec, err := os.ReadFile(filepath.Join(out, "spec.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := `"exposure": [
+      {
+        "spend": "video_spend",
+        "column": "video_reach",
+        "break": "2024-07-01",
+        "error": 0.1,
+        "frequency": "video_frequency"
+      }
+    ]`; !strings.Contains(string(spec), want) {
+		t.Errorf("spec.json lacks the measurement %s:\n%s", want, spec)
+	}
+	header, err := os.ReadFile(filepath.Join(out, "data.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if h, _, _ := strings.Cut(string(header), "\n"); !strings.HasSuffix(h, ",price,video_reach,video_frequency") {
+		t.Errorf("data.csv header %q", h)
+	}
+	before := map[string][]byte{}
+	for _, f := range []string{"effects.csv", "curves.csv", "returns.csv"} {
+		if before[f], err = os.ReadFile(filepath.Join(out, f)); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if code, _, errs := runCmd(t, "split", "--fit", out); code != 0 {
+		t.Fatalf("split: %d %s", code, errs)
+	}
+	for f, b := range before {
+		a, err := os.ReadFile(filepath.Join(out, f))
+		if err != nil || !slices.Equal(a, b) {
+			t.Errorf("%s differs after the split of the folder read back (%v)", f, err)
 		}
 	}
 }

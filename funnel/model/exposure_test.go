@@ -336,3 +336,35 @@ func TestCostPerUnit(t *testing.T) {
 		t.Errorf("with a break at week 40, weeks 0-39 are priced at %v, want the new measurement's %v", got, want)
 	}
 }
+
+// BenchmarkMeasuredLogProbGrad is BenchmarkLogProbGrad's outcome stage with
+// video measured in every way at once (a break, a latent error every week
+// with exposure, reach and frequency): the cost of the measured-exposure
+// term against the default stage.
+func BenchmarkMeasuredLogProbGrad(b *testing.B) {
+	sc := testScaled(156, 3)
+	sc.RawExposure = [][]float64{sc.Upper[0], nil}
+	sc.Breaks, sc.Errors = []int{80, 0}, []float64{0.15, 0}
+	f := make([]float64, 156)
+	for w := range f {
+		f[w] = 1.5 + float64(w%4)
+	}
+	sc.Freq, sc.FreqRecent = [][]float64{f, nil}, []float64{3, 0}
+	st, err := Outcome(sc, Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	tg, err := st.Target()
+	if err != nil {
+		b.Fatal(err)
+	}
+	x := make([]float64, tg.Dim())
+	for i := range x {
+		x[i] = 0.1 * float64(i%5)
+	}
+	g := make([]float64, tg.Dim())
+	b.ReportAllocs()
+	for b.Loop() {
+		tg.LogProbGrad(g, x)
+	}
+}
