@@ -35,11 +35,11 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&r.spec.Outcome, "outcome", "", "the outcome `COLUMN` (conversions or revenue)")
 	fs.StringSliceVar(&r.spec.Controls, "controls", nil, "control `COLUMNS`, comma-separated (price, promotion, holidays)")
 	fs.StringVar(&r.specFile, "spec", "", "a JSON spec `FILE` naming the roles; the flags above override it")
-	fs.StringArrayVar(&r.exposure, "exposure", nil, "`SPEND=COLUMN`: the upper-funnel channel SPEND runs on the exposure COLUMN (impressions, rating points); repeatable")
-	fs.StringArrayVar(&r.breaks, "exposure-break", nil, "`COLUMN=YYYY-MM-DD`: the exposure of channel COLUMN is measured a new way from that week on; the model learns how the two compare; repeatable")
-	fs.StringArrayVar(&r.reach, "reach", nil, "`SPEND=COLUMN`: the upper-funnel channel SPEND runs on its weekly reach COLUMN (people reached), with --frequency; repeatable")
-	fs.StringArrayVar(&r.frequency, "frequency", nil, "`SPEND=COLUMN`: the average frequency COLUMN (exposures per person reached) of a channel given with --reach; repeatable")
-	fs.StringArrayVar(&r.errors, "exposure-error", nil, "`COLUMN=SD`: the exposure of channel COLUMN is observed with multiplicative error of sd SD on the log scale (0.15 for about 15%); repeatable")
+	fs.StringArrayVar(&r.exposure, "exposure", nil, "`SPEND=COL`: the upper-funnel channel SPEND runs on the exposure COL (impressions, rating points); repeatable")
+	fs.StringArrayVar(&r.breaks, "exposure-break", nil, "`COL=DATE`: the exposure of channel COL is measured a new way from the week DATE (YYYY-MM-DD) on; the model learns how the two compare; repeatable")
+	fs.StringArrayVar(&r.reach, "reach", nil, "`SPEND=COL`: the upper-funnel channel SPEND runs on its weekly reach COL (people reached), with --frequency; repeatable")
+	fs.StringArrayVar(&r.frequency, "frequency", nil, "`SPEND=COL`: the average frequency COL (exposures per person reached) of a channel given with --reach; repeatable")
+	fs.StringArrayVar(&r.errors, "exposure-error", nil, "`COL=SD`: the exposure of channel COL is observed with multiplicative error of sd SD on the log scale (0.15 for about 15%); repeatable")
 }
 
 // given reports whether any role flag or a spec file was given (cmd run uses
