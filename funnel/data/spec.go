@@ -203,7 +203,8 @@ func (s Spec) Validate() error {
 
 // LoadSpec reads a JSON spec file: an object whose keys are those of Spec
 // ("data", "date", "region", "population", "upper", "search", "queries",
-// "outcome", "controls"). A list key also accepts a single string, and null
+// "outcome", "controls", "exposure"; exposure.go gives the last one's two
+// forms). A list key also accepts a single string, and null
 // means the key is absent. A relative "data" path is taken relative to the
 // spec file's folder. Errors are *DataError values: an unknown or repeated key
 // is named, and JSON syntax errors give FILE:LINE:COL.
