@@ -416,8 +416,8 @@ func TestExposureCoverage(t *testing.T) {
 		t.Skip("forty fits; set SPILLWAY_LONG=1")
 	}
 	var tl tally
-	for _, name := range []string{"exposure-rising", "exposure-break", "exposure-error", "reach-frequency"} {
-		for rep := range 10 {
+	for rep := range 10 {
+		for _, name := range []string{"exposure-rising", "exposure-break", "exposure-error", "reach-frequency"} {
 			s, err := scenario.Named(name, uint64(100+rep), 0, 0)
 			if err != nil {
 				t.Fatal(err)
@@ -428,6 +428,7 @@ func TestExposureCoverage(t *testing.T) {
 			}
 			split, fit, sc := exposureFit(t, res, s.Roles(), mcmc.Settings{Seed: uint64(rep + 1), Warmup: 400, Draws: 400})
 			tl.add(t, s, split, fit, exposureTruth(t, s, res, exposureWindows(t, sc)))
+			t.Logf("replicate %d, %s: %d of %d so far", rep+1, name, tl.in, tl.n)
 		}
 	}
 	tl.log(t, true)
