@@ -9,7 +9,7 @@ import (
 )
 
 // PriorBreak is the default prior of a measurement break's log factor,
-// log kappa ~ Normal(0, 0.5): a factor between 0.44 and 2.7 with 95%
+// log kappa ~ Normal(0, 0.5): a factor between 0.38 and 2.7 with 95%
 // probability, centred on "the two measurements agree".
 var PriorBreak = Prior{Normal, 0, 0.5}
 
@@ -57,7 +57,8 @@ func errorName(coef, col string, t int) string {
 }
 
 // measureParams returns the parameters of channel c's exposure measurement,
-// in draw order: a break's log factor, then the latent errors.
+// in draw order: a break's log factor, the latent errors, then the
+// frequency curve's Kf and Sf.
 func (c *Channel) measureParams() []*Param {
 	var out []*Param
 	if c.Break != nil {
