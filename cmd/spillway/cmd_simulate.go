@@ -24,7 +24,7 @@ type simulateOptions struct {
 }
 
 func (o *simulateOptions) addFlags(fs *pflag.FlagSet) {
-	fs.StringVar(&o.scenario, "scenario", "demo", "the `SCENARIO`: demo, demo-regions, slow-burn or direct-audio")
+	fs.StringVar(&o.scenario, "scenario", "demo", "the `SCENARIO`: demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break, exposure-error or reach-frequency")
 	fs.Uint64Var(&o.seed, "seed", DemoSeed, "random seed")
 	fs.IntVar(&o.weeks, "weeks", 0, "number of weeks (0: the scenario's own, 156)")
 	fs.IntVar(&o.regions, "regions", 0, "number of regions (0: the scenario's own; demo-regions has 24)")
@@ -50,10 +50,25 @@ by the same code that computes fitted effects.
 The scenarios are invented: Quillmere Bikes, a fictional brand, buys video,
 audio and paid search; its paid-search spend partly follows branded query
 volume, as auction spend does, so a model without queries over-credits search.
-  demo          156 weeks, national (the data 'spillway run' uses by default)
-  demo-regions  the demo across 24 regions with populations
-  slow-burn     long carryover, strong saturation, mostly mediated video
-  direct-audio  audio works with no mediation at all; video about 7% mediated
+  demo             156 weeks, national (the data 'spillway run' uses by default)
+  demo-regions     the demo across 24 regions with populations
+  slow-burn        long carryover, strong saturation, mostly mediated video
+  direct-audio     audio works with no mediation at all; video about 7% mediated
+  exposure-rising  video works through its impressions (video_kimpressions,
+                   thousands), whose cost per thousand rises 30% over the
+                   three years; fit with
+                   --exposure video_spend=video_kimpressions
+  exposure-break   as exposure-rising, and from week 79 the impressions are
+                   counted 1.6 times as generously (a new way of measuring);
+                   add --exposure-break video_spend=2024-07-01
+  exposure-error   as exposure-rising, each week's impressions off by a
+                   factor exp(0.25 e), e standard normal; add
+                   --exposure-error video_spend=0.25
+  reach-frequency  video given as weekly reach (video_reach) and average
+                   frequency (video_frequency); the response per person
+                   reached levels off after about 2 exposures; fit with
+                   --reach video_spend=video_reach
+                   --frequency video_spend=video_frequency
 
 EXAMPLE
   spillway simulate --scenario demo-regions --seed 7 --out sim7
@@ -136,10 +151,7 @@ func demoData(name string) (*data.Dataset, error) {
 	if err != nil {
 		return nil, err
 	}
-	spec := scenario.Spec
-	if sc.Regions > 0 {
-		spec = scenario.RegionSpec
-	}
+	spec := sc.Roles()
 	spec.Data = "demo:" + name
 	return data.Read(bytes.NewReader(csv), spec.Data, spec)
 }

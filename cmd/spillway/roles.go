@@ -13,6 +13,13 @@ import (
 type roleFlags struct {
 	spec     data.Spec // from the flags; spec-file values fill what is empty
 	specFile string
+	// exposure, breaks and errors are the --exposure SPEND=COLUMN,
+	// --exposure-break COLUMN=DATE and --exposure-error COLUMN=SD flags as
+	// given (exposure.go)
+	exposure, breaks, errors []string
+	// reach and frequency are the --reach SPEND=COLUMN and --frequency
+	// SPEND=COLUMN flags as given
+	reach, frequency []string
 }
 
 // addFlags adds --data --date --region --population --upper --search
@@ -28,6 +35,11 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 	fs.StringVar(&r.spec.Outcome, "outcome", "", "the outcome `COLUMN` (conversions or revenue)")
 	fs.StringSliceVar(&r.spec.Controls, "controls", nil, "control `COLUMNS`, comma-separated (price, promotion, holidays)")
 	fs.StringVar(&r.specFile, "spec", "", "a JSON spec `FILE` naming the roles; the flags above override it")
+	fs.StringArrayVar(&r.exposure, "exposure", nil, "`SPEND=COL`: the upper-funnel channel SPEND runs on the exposure COL (impressions, rating points); repeatable")
+	fs.StringArrayVar(&r.breaks, "exposure-break", nil, "`COL=DATE`: the exposure of channel COL is measured a new way from the week DATE (YYYY-MM-DD) on; the model learns how the two compare; repeatable")
+	fs.StringArrayVar(&r.reach, "reach", nil, "`SPEND=COL`: the upper-funnel channel SPEND runs on its weekly reach COL (people reached), with --frequency; repeatable")
+	fs.StringArrayVar(&r.frequency, "frequency", nil, "`SPEND=COL`: the average frequency COL (exposures per person reached) of a channel given with --reach; repeatable")
+	fs.StringArrayVar(&r.errors, "exposure-error", nil, "`COL=SD`: the exposure of channel COL is observed with multiplicative error of sd SD on the log scale (0.15 for about 15%); repeatable")
 }
 
 // given reports whether any role flag or a spec file was given (cmd run uses
@@ -35,7 +47,8 @@ func (r *roleFlags) addFlags(fs *pflag.FlagSet) {
 func (r *roleFlags) given() bool {
 	s := r.spec
 	return r.specFile != "" || s.Data != "" || s.Date != "" || s.Region != "" || s.Population != "" ||
-		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0
+		len(s.Upper) > 0 || len(s.Search) > 0 || s.Queries != "" || s.Outcome != "" || len(s.Controls) > 0 ||
+		len(r.exposure) > 0 || len(r.breaks) > 0 || len(r.errors) > 0 || len(r.reach) > 0 || len(r.frequency) > 0
 }
 
 // inputs returns the files the role flags read: the spec file and the
@@ -63,7 +76,26 @@ func (r *roleFlags) resolve() (data.Spec, error) {
 		}
 		spec = s
 	}
-	spec = spec.Override(r.spec)
+	flags := r.spec
+	var err error
+	if flags.Exposure, err = exposureFlags(r.exposure, "--exposure"); err != nil {
+		return data.Spec{}, err
+	}
+	reach, err := exposureFlags(r.reach, "--reach")
+	if err != nil {
+		return data.Spec{}, err
+	}
+	flags.Exposure = append(flags.Exposure, reach...)
+	spec = spec.Override(flags)
+	if spec.Exposure, err = breakFlags(spec.Exposure, r.breaks); err != nil {
+		return data.Spec{}, err
+	}
+	if spec.Exposure, err = errorFlags(spec.Exposure, r.errors); err != nil {
+		return data.Spec{}, err
+	}
+	if spec.Exposure, err = frequencyFlags(spec.Exposure, r.frequency, reach); err != nil {
+		return data.Spec{}, err
+	}
 	if spec.Data == "" {
 		return data.Spec{}, usagef("no data file: name it with --data FILE (or \"data\" in the spec file)")
 	}

@@ -162,6 +162,10 @@ func New(in Inputs, s Settings) (*Problem, error) {
 	if err != nil {
 		return nil, err
 	}
+	for c := range sc.UpperNames {
+		// a channel run on exposure buys it at its pattern weeks' cost per unit
+		scale[c] = sc.CostPerUnit(c, from, to)
+	}
 	for c := range p.names {
 		w, amount := pattern(raw[c][from:to+1], s.Weeks, s.Pattern == "even")
 		p.pattern = append(p.pattern, w)

@@ -23,6 +23,14 @@ type Series struct {
 	// Controls holds the controls, [control][week], in the order of
 	// Spec.Controls; nil when there are none.
 	Controls [][]float64
+	// Exposure holds each upper-funnel channel's exposure, [channel][week]
+	// in the order of Spec.Upper, nil for a channel without an exposure
+	// column; Exposure itself is nil when no channel has one.
+	Exposure [][]float64
+	// Frequency holds, for a channel whose exposure is its reach, the
+	// average frequency (exposures per person reached), [channel][week] in
+	// the order of Spec.Upper; nil rows and nil as for Exposure.
+	Frequency [][]float64
 }
 
 // Region is the Series of one region with its name and population.
@@ -69,6 +77,22 @@ func (d *Dataset) National() Series {
 	if len(first.Controls) > 0 {
 		s.Controls = zeros(len(first.Controls), n)
 	}
+	if first.Frequency != nil {
+		s.Frequency = make([][]float64, len(first.Frequency))
+		for c, x := range first.Frequency {
+			if x != nil {
+				s.Frequency[c] = make([]float64, n)
+			}
+		}
+	}
+	if first.Exposure != nil {
+		s.Exposure = make([][]float64, len(first.Exposure))
+		for c, x := range first.Exposure {
+			if x != nil {
+				s.Exposure[c] = make([]float64, n)
+			}
+		}
+	}
 	// Weights relative to the largest population, so that the sum cannot
 	// overflow.
 	weights := make([]float64, len(d.Regions))
@@ -93,12 +117,36 @@ func (d *Dataset) National() Series {
 		addTo(s.Upper, r.Upper, 1)
 		addTo(s.Search, r.Search, 1)
 		addTo(s.Controls, r.Controls, weights[g]/total)
+		addTo(s.Exposure, r.Exposure, 1)
+		addWeighted(s.Frequency, r.Frequency, r.Exposure)
 		for t := range n {
 			s.Queries[t] += r.Queries[t]
 			s.Outcome[t] += r.Outcome[t]
 		}
 	}
+	// a frequency sums as impressions (reach times frequency); back to
+	// exposures per person reached nationally
+	for c, f := range s.Frequency {
+		for t := range f {
+			if r := s.Exposure[c][t]; r > 0 {
+				f[t] /= r
+			}
+		}
+	}
 	return s
+}
+
+// addWeighted adds w*src to dst, row by row (rows that are nil in dst
+// skipped): frequency times reach, which sums over regions.
+func addWeighted(dst, src, w [][]float64) {
+	for i := range dst {
+		if dst[i] == nil {
+			continue
+		}
+		for t, v := range src[i] {
+			dst[i][t] += w[i][t] * v
+		}
+	}
 }
 
 func zeros(rows, n int) [][]float64 {
@@ -112,6 +160,9 @@ func zeros(rows, n int) [][]float64 {
 // addTo adds w*src to dst, row by row.
 func addTo(dst, src [][]float64, w float64) {
 	for i := range dst {
+		if dst[i] == nil {
+			continue // a channel without exposure
+		}
 		for t, v := range src[i] {
 			dst[i][t] += w * v
 		}
@@ -120,6 +171,7 @@ func addTo(dst, src [][]float64, w float64) {
 
 // WriteCSV writes d as a CSV file with the spec's column names, in the order
 // date, [region, [population]], upper, search, queries, outcome, controls,
+// exposure,
 // one row per region and week (region by region). Numbers are formatted with
 // strconv 'g' and the shortest exact precision, so Read of the output with
 // d.Spec gives back d.
@@ -148,6 +200,16 @@ func WriteCSV(w io.Writer, d *Dataset) error {
 			rec = append(rec, fmtNum(r.Queries[t]), fmtNum(r.Outcome[t]))
 			for _, x := range r.Controls {
 				rec = append(rec, fmtNum(x[t]))
+			}
+			for _, x := range r.Exposure {
+				if x != nil {
+					rec = append(rec, fmtNum(x[t]))
+				}
+			}
+			for _, x := range r.Frequency {
+				if x != nil {
+					rec = append(rec, fmtNum(x[t]))
+				}
 			}
 			if err := cw.Write(rec); err != nil {
 				return err

@@ -276,7 +276,7 @@ func (p *parser) header(header []string, line int) error {
 		}
 		p.idx[i] = j
 		switch c.role {
-		case roleUpper, roleSearch, roleQueries, roleOutcome, roleControl:
+		case roleUpper, roleSearch, roleQueries, roleOutcome, roleControl, roleExposure, roleFrequency:
 			p.num = append(p.num, i)
 		}
 	}
@@ -365,9 +365,20 @@ func (p *parser) row(rec []string, line int) error {
 				if v < 0 {
 					return at("%s is negative; the outcome cannot be negative", cell)
 				}
+			case roleExposure:
+				if v < 0 {
+					return at("%s is negative; exposure cannot be negative", cell)
+				}
+			case roleFrequency:
+				if v < 0 {
+					return at("%s is negative; a frequency cannot be negative", cell)
+				}
 			}
 			nums[i] = v
 		}
+	}
+	if err := p.checkExposure(nums, rec, line, pop); err != nil {
+		return err
 	}
 	b := p.byName[region]
 	if b == nil {
@@ -588,7 +599,26 @@ func (p *parser) finish() (*Dataset, error) {
 		r.Queries = b.vals[nu+ns]
 		r.Outcome = b.vals[nu+ns+1]
 		if nc > 0 {
-			r.Controls = b.vals[nu+ns+2:]
+			r.Controls = b.vals[nu+ns+2 : nu+ns+2+nc : nu+ns+2+nc]
+		}
+		if len(p.spec.Exposure) > 0 {
+			r.Exposure = make([][]float64, nu)
+			k := nu + ns + 2 + nc
+			for c, col := range p.spec.Upper {
+				if _, ok := p.spec.ExposureOf(col); ok {
+					r.Exposure[c] = b.vals[k]
+					k++
+				}
+			}
+			for c, col := range p.spec.Upper {
+				if e, ok := p.spec.ExposureOf(col); ok && e.Frequency != "" {
+					if r.Frequency == nil {
+						r.Frequency = make([][]float64, nu)
+					}
+					r.Frequency[c] = b.vals[k]
+					k++
+				}
+			}
 		}
 		d.Regions = append(d.Regions, r)
 	}
@@ -605,7 +635,13 @@ func (p *parser) finish() (*Dataset, error) {
 			}
 		}
 	}
+	if err := checkBreaks(p.spec, d.Weeks); err != nil {
+		return nil, err
+	}
 	d.Warnings = warnings(d)
+	if len(p.spec.Exposure) > 0 {
+		d.Warnings = append(d.Warnings, costJumps(d, d.National())...)
+	}
 	for _, tw := range p.caseTwins {
 		d.Warnings = append(d.Warnings, Warning{KindNames, tw[0] + "," + tw[1],
 			fmt.Sprintf("columns %q and %q differ only in case; check that the flags name the one you mean", Excerpt(tw[0]), Excerpt(tw[1]))})

@@ -34,6 +34,10 @@ type Spec struct {
 	Outcome string `json:"outcome"`
 	// Controls lists control columns (price, promotion, holidays); optional.
 	Controls []string `json:"controls,omitempty"`
+	// Exposure maps upper-funnel spend columns to the exposure columns
+	// (impressions, rating points) their adstock and saturation run on
+	// (exposure.go); optional. The spend column stays the channel's cost.
+	Exposure []Exposure `json:"exposure,omitempty"`
 }
 
 // role is the part a column plays.
@@ -48,6 +52,8 @@ const (
 	roleQueries
 	roleOutcome
 	roleControl
+	roleExposure
+	roleFrequency
 )
 
 // roleInfo gives each role's flag, spec key and a plain description.
@@ -60,6 +66,8 @@ var roleInfo = [...]struct{ flag, key, what string }{
 	roleQueries:    {"--queries", "queries", "branded query volume"},
 	roleOutcome:    {"--outcome", "outcome", "outcome"},
 	roleControl:    {"--controls", "controls", "control"},
+	roleExposure:   {"--exposure", "exposure", "exposure"},
+	roleFrequency:  {"--frequency", "frequency", "frequency"},
 }
 
 // column is one column the spec uses, in the canonical order of columns().
@@ -69,8 +77,9 @@ type column struct {
 }
 
 // columns returns the columns the spec names in canonical order: date,
-// region, population, upper, search, queries, outcome, controls. Empty names
-// of optional roles are left out.
+// region, population, upper, search, queries, outcome, controls, then the
+// exposure columns in the order of their spend columns in Upper. Empty
+// names of optional roles are left out.
 func (s Spec) columns() []column {
 	var cs []column
 	add := func(name string, r role) {
@@ -92,12 +101,18 @@ func (s Spec) columns() []column {
 	for _, n := range s.Controls {
 		cs = append(cs, column{n, roleControl})
 	}
+	for _, n := range s.exposureColumns() {
+		cs = append(cs, column{n, roleExposure})
+	}
+	for _, n := range s.frequencyColumns() {
+		cs = append(cs, column{n, roleFrequency})
+	}
 	return cs
 }
 
 // Columns returns the names of the columns the spec uses, in the order
 // WriteCSV writes them: date, region, population, upper, search, queries,
-// outcome, controls (absent optional roles left out).
+// outcome, controls, exposure (absent optional roles left out).
 func (s Spec) Columns() []string {
 	cs := s.columns()
 	names := make([]string, len(cs))
@@ -135,6 +150,9 @@ func (s Spec) Override(flags Spec) Spec {
 	str(&s.Queries, flags.Queries)
 	str(&s.Outcome, flags.Outcome)
 	list(&s.Controls, flags.Controls)
+	if len(flags.Exposure) > 0 {
+		s.Exposure = append([]Exposure(nil), flags.Exposure...)
+	}
 	return s
 }
 
@@ -180,12 +198,13 @@ func (s Spec) Validate() error {
 		}
 		seen[name] = c.role
 	}
-	return nil
+	return s.validateExposure()
 }
 
 // LoadSpec reads a JSON spec file: an object whose keys are those of Spec
 // ("data", "date", "region", "population", "upper", "search", "queries",
-// "outcome", "controls"). A list key also accepts a single string, and null
+// "outcome", "controls", "exposure"; exposure.go gives the last one's two
+// forms). A list key also accepts a single string, and null
 // means the key is absent. A relative "data" path is taken relative to the
 // spec file's folder. Errors are *DataError values: an unknown or repeated key
 // is named, and JSON syntax errors give FILE:LINE:COL.
@@ -209,7 +228,7 @@ func LoadSpec(path string) (Spec, error) {
 }
 
 // specKeys lists the keys of a spec file, in Spec's order.
-var specKeys = []string{"data", "date", "region", "population", "upper", "search", "queries", "outcome", "controls"}
+var specKeys = []string{"data", "date", "region", "population", "upper", "search", "queries", "outcome", "controls", "exposure"}
 
 // ParseSpec parses the JSON text of a spec file; file names it in errors.
 // Paths are returned as written. See LoadSpec for the format.
@@ -258,7 +277,7 @@ func ParseSpec(b []byte, file string) (Spec, error) {
 	fields := map[string]any{
 		"data": &s.Data, "date": &s.Date, "region": &s.Region, "population": &s.Population,
 		"upper": &s.Upper, "search": &s.Search, "queries": &s.Queries, "outcome": &s.Outcome,
-		"controls": &s.Controls,
+		"controls": &s.Controls, "exposure": &s.Exposure,
 	}
 	seen := map[string]bool{}
 	for dec.More() {
@@ -304,6 +323,12 @@ func ParseSpec(b []byte, file string) (Spec, error) {
 			if err := json.Unmarshal(raw, p); err != nil {
 				return s, at(valOff, "%q must be a list of column names, like [\"video_spend\", \"audio_spend\"]; got %s", key, jsonKind(raw, true))
 			}
+		case *[]Exposure:
+			e, msg := parseExposure(raw)
+			if msg != "" {
+				return s, at(valOff, "%s", msg)
+			}
+			*p = e
 		}
 	}
 	if _, err := dec.Token(); err != nil { // the closing brace

@@ -65,6 +65,9 @@ func ScaleTrain(s data.Series, spec data.Spec, train []bool) *Scaled {
 		d := SpendScale(pick(x))
 		sc.Upper, sc.UpperScale = append(sc.Upper, scaled(x, d)), append(sc.UpperScale, d)
 	}
+	if len(spec.Exposure) > 0 && s.Exposure != nil {
+		sc.useExposure(s, spec, in)
+	}
 	for _, x := range s.Search {
 		d := SpendScale(pick(x))
 		sc.Search, sc.SearchScale = append(sc.Search, scaled(x, d)), append(sc.SearchScale, d)

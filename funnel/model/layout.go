@@ -33,6 +33,23 @@ type ChannelSlots struct {
 	// Drift holds the positions of the smooth function the coefficient
 	// drifts by (Drift.Basis is nil when it does not drift).
 	Drift SmoothSlots
+	// Break is the position of the log factor of a measurement break in
+	// the channel's exposure (exposure.go), -1 when it has none; BreakAt
+	// is the break's week.
+	Break, BreakAt int
+	// ErrZ is the position of the first latent error of the channel's
+	// exposure, -1 when it has none; ErrSD is the error's sd and ErrWeeks
+	// the weeks with a latent error, one each from ErrZ on.
+	ErrZ     int
+	ErrSD    float64
+	ErrWeeks []int
+	// FreqK is the position of the frequency curve's Kf (Sf follows), -1
+	// unless the channel is given as reach and frequency (reach.go); Freq
+	// and FreqAfter are its weekly frequency and the frequency after the
+	// data.
+	FreqK     int
+	Freq      []float64
+	FreqAfter float64
 }
 
 // SmoothSlots are the positions of a smooth function's parameters (model
@@ -78,7 +95,7 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for _, c := range s.Channels {
-		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}}
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1, ErrZ: -1, FreqK: -1}
 		if !c.Linear {
 			cs.Lam, cs.K, cs.S = add(), add(), add()
 		}
@@ -102,6 +119,23 @@ func (s *Stage) Layout() *Layout {
 	for j, c := range s.Channels {
 		if c.Drift != nil {
 			l.channels[j].Drift = smooth(c.Drift)
+		}
+	}
+	for j, c := range s.Channels {
+		cs := &l.channels[j]
+		if c.Break != nil {
+			cs.Break, cs.BreakAt = add(), c.Break.At
+		}
+		if e := c.Error; e != nil {
+			cs.ErrZ, cs.ErrSD, cs.ErrWeeks = k, e.SD, e.Weeks
+			name, _, _ := strings.Cut(l.names[k], ",")
+			l.blocks = append(l.blocks, Block{Name: name + "]", Start: k, Len: len(e.Weeks)})
+			k += len(e.Weeks)
+		}
+		if f := c.Freq; f != nil {
+			cs.FreqK, cs.Freq, cs.FreqAfter = k, f.F, f.After
+			add()
+			add()
 		}
 	}
 	return l
@@ -316,6 +350,15 @@ func (p Params) ChannelAt(j int) Media {
 	if !m.Linear {
 		m.Lam, m.K, m.S = p.v[c.Lam], p.v[c.K], p.v[c.S]
 	}
+	if c.Break >= 0 {
+		m.Before, m.Factor = c.BreakAt, math.Exp(p.v[c.Break])
+	}
+	if c.ErrZ >= 0 {
+		m.ErrSD, m.ErrWeeks, m.ErrZ = c.ErrSD, c.ErrWeeks, p.v[c.ErrZ:c.ErrZ+len(c.ErrWeeks)]
+	}
+	if c.FreqK >= 0 {
+		m.Freq, m.FreqAfter, m.FreqK, m.FreqS = c.Freq, c.FreqAfter, p.v[c.FreqK], p.v[c.FreqK+1]
+	}
 	return m
 }
 
@@ -359,12 +402,38 @@ func (p Params) Rescaled(k, kGamma float64) []float64 {
 type Media struct {
 	Coef, Lam, K, S float64
 	Linear          bool
+	// Before and Factor are a measurement break in the channel's exposure
+	// (exposure.go): the input of weeks 0..Before-1, counted from the
+	// data's first week, is multiplied by Factor before the adstock.
+	// Before is 0 when the channel has no break.
+	Before int
+	Factor float64
+	// ErrSD, ErrWeeks and ErrZ are exposure observed with error
+	// (exposure.go): the input of week ErrWeeks[i] is multiplied by
+	// exp(-ErrSD ErrZ[i]), the latent true exposure. ErrSD is 0 when the
+	// exposure is taken as measured.
+	ErrSD    float64
+	ErrWeeks []int
+	ErrZ     []float64
+	// Freq, FreqAfter, FreqK and FreqS are a channel given as reach and
+	// frequency (reach.go): the input of week t is multiplied by the
+	// frequency curve g(f) at Freq[t], FreqAfter past the data. Freq is
+	// nil otherwise.
+	Freq         []float64
+	FreqAfter    float64
+	FreqK, FreqS float64
 }
 
 // Response writes the coefficient-free response H(adstock(x; Lam); K, S) of
 // the spend series x (scaled units) into dst and returns it (x itself for a
-// linear channel); a dst too short is replaced.
+// linear channel); a dst too short is replaced. With a measurement break or
+// error, x starts at the data's first week and goes through the
+// measurement first (weeks before the break times Factor, the latent true
+// exposure of weeks with an error).
 func (m Media) Response(dst, x []float64) []float64 {
+	if m.Before > 0 || m.ErrSD > 0 || m.Freq != nil {
+		return m.responseMeasured(dst, x)
+	}
 	dst = resizeTo(dst, len(x))
 	if m.Linear {
 		copy(dst, x)
@@ -378,8 +447,14 @@ func (m Media) Response(dst, x []float64) []float64 {
 }
 
 // Steady returns the response to a constant weekly spend x held for ever:
-// normalised adstock then equals x, so it is H(x; K, S) (x when linear).
+// normalised adstock then equals x, so it is H(x; K, S) (x when linear). A
+// measurement break's factor does not enter: spend from now on is measured
+// the newest way, the reference.
 func (m Media) Steady(x float64) float64 {
+	if m.Freq != nil {
+		g, _, _ := freqGain(m.FreqAfter, m.FreqK, m.FreqS)
+		x *= g
+	}
 	if m.Linear {
 		return x
 	}

@@ -97,6 +97,11 @@ func (l *LiftTest) Bind(pts []Point) error {
 		p.alloc()
 		return p
 	}
+	for _, pt := range pts {
+		if j := pt.Stage.ChannelIndex(l.Column); j >= 0 && (pt.Stage.Channels[j].Break != nil || pt.Stage.Channels[j].Error != nil) {
+			return bad("the channel's exposure has a measurement break or error; lift tests on such a channel are not supported yet")
+		}
+	}
 	l.q, l.y, l.gamma = nil, nil, -1
 	switch l.Metric {
 	case LiftQueries:

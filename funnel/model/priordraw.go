@@ -57,6 +57,13 @@ func (s *Stage) PriorDraw(dst []float64, rng *rand.Rand) ([]float64, error) {
 			}
 		}
 	}
+	for i := range s.Channels {
+		for _, p := range s.Channels[i].measureParams() {
+			if err := draw(p.Prior); err != nil {
+				return nil, err
+			}
+		}
+	}
 	return dst, nil
 }
 

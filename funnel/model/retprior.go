@@ -557,9 +557,9 @@ func (r *ReturnPrior) Term(demand, outcome int) *ReturnPrior {
 // applyReturns gives the coefficients a return prior covers the
 // Conditional family in stage st (demand: alpha, else delta) and records
 // the priors on the stage.
-func applyReturns(st *Stage, rs []*ReturnPrior, demand bool) {
+func applyReturns(st *Stage, rs []*ReturnPrior, demand bool) error {
 	if len(rs) == 0 {
-		return
+		return nil
 	}
 	st.Returns = rs
 	for _, r := range rs {
@@ -567,7 +567,13 @@ func applyReturns(st *Stage, rs []*ReturnPrior, demand bool) {
 			continue
 		}
 		if j := st.ChannelIndex(r.Column); j >= 0 {
+			// the return's term runs the channel's input as given; a break,
+			// an error or a frequency curve would change it under the term
+			if c := st.Channels[j]; c.Break != nil || c.Error != nil || c.Freq != nil {
+				return fmt.Errorf("a return prior on %s: the channel's exposure has a measurement break, an error or a frequency curve; return priors on such a channel are not supported yet", r.Column)
+			}
 			st.Channels[j].Params[0].Prior = Prior{Family: Conditional}
 		}
 	}
+	return nil
 }

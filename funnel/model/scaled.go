@@ -17,7 +17,9 @@ type Scaled struct {
 	// for t = 1..T: the regressors of c[1], c[2], d[1], d[2].
 	Season [4][]float64
 	// Upper and Search are spend divided by its mean over weeks with spend > 0,
-	// [channel][week].
+	// [channel][week]; for an upper-funnel channel with an exposure column,
+	// Upper is the exposure divided by its mean over weeks with exposure
+	// > 0 (exposure.go).
 	Upper, Search [][]float64
 	// Queries and Outcome are divided by their means.
 	Queries, Outcome []float64
@@ -26,8 +28,29 @@ type Scaled struct {
 
 	UpperNames, SearchNames, ControlNames []string
 	// UpperScale and SearchScale are the divisors: the mean raw spend per
-	// week over weeks with spend > 0.
+	// week over weeks with spend > 0. For a channel with an exposure column
+	// UpperScale is the spend that buys one scaled unit of exposure at the
+	// latest cost per unit (CostPerUnit, RecentWeeks), so that spend / UpperScale[c] is
+	// still the channel's input in every what-if.
 	UpperScale, SearchScale []float64
+	// RawExposure holds each upper-funnel channel's raw exposure (nil for a
+	// channel without an exposure column; nil when none has one), and
+	// ExposureScale its divisor, the mean over weeks with exposure > 0.
+	RawExposure   [][]float64
+	ExposureScale []float64
+	// Breaks holds each upper-funnel channel's measurement break week
+	// (0 when none; nil when no channel has one).
+	Breaks []int
+	// Errors holds each upper-funnel channel's exposure error sd (0 when
+	// taken as measured; nil when no channel has one).
+	Errors []float64
+	// Freq holds the average frequency of each upper-funnel channel given
+	// as reach and frequency (Upper then holds its scaled reach; nil rows
+	// otherwise, nil when none), and FreqRecent the frequency of its latest
+	// RecentWeeks weeks with spend (reach-weighted), which weeks after the
+	// data are taken to have.
+	Freq       [][]float64
+	FreqRecent []float64
 	// QueriesScale and OutcomeScale are mean(q) and mean(y), in raw units.
 	QueriesScale, OutcomeScale float64
 	ControlMean, ControlSD     []float64

@@ -42,6 +42,16 @@ type Channel struct {
 	// exp(f(t)), f this smooth function (drift.go). Its parameters come
 	// after sigma in the stage's draws.
 	Drift *Smooth
+	// Break, if not nil, is a measurement break in the channel's exposure
+	// (exposure.go). Its log factor comes last in the stage's draws, after
+	// the smooth functions' parameters.
+	Break *Break
+	// Error, if not nil, says the channel's exposure is observed with
+	// error (exposure.go). Its latent errors follow the break's factor.
+	Error *Error
+	// Freq, if not nil, says X is the channel's reach and gives its
+	// frequency (reach.go). Its Kf and Sf follow the latent errors.
+	Freq *Frequency
 }
 
 // mediaParams returns a channel's parameters named coef[col], lam[col],
@@ -103,6 +113,11 @@ func (s *Stage) Names() []string {
 			names = append(names, p.Name)
 		}
 	}
+	for i := range s.Channels {
+		for _, p := range s.Channels[i].measureParams() {
+			names = append(names, p.Name)
+		}
+	}
 	return names
 }
 
@@ -154,6 +169,14 @@ func (s *Stage) SetPrior(name string, p Prior) bool {
 			}
 		}
 	}
+	for i := range s.Channels {
+		for _, q := range s.Channels[i].measureParams() {
+			if q.Name == name {
+				q.Prior = p
+				return true
+			}
+		}
+	}
 	return false
 }
 
@@ -180,6 +203,10 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 	for _, c := range s.Channels {
 		sk += len(c.Params)
 	}
+	bk := sk // past the smooths: the exposures' measurement parameters
+	for _, sm := range s.smooths() {
+		bk += len(sm.Params)
+	}
 	if b := s.Baseline; b != nil {
 		f := b.Eval(nil, v[sk:])
 		sk += len(b.Params)
@@ -190,6 +217,7 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 	for _, c := range s.Channels {
 		m := media(c, v[k:])
 		k += len(c.Params)
+		bk += c.measure(&m, v[bk:])
 		h = m.Response(h, c.X)
 		if c.Drift == nil {
 			for i, hi := range h {
@@ -211,11 +239,7 @@ func (s *Stage) Predict(dst, v []float64) []float64 {
 // channel) and returns dst and the coefficient. x is any spend series in the
 // channel's scaled units (e.g. a counterfactual).
 func (s *Stage) Response(dst []float64, j int, v, x []float64) ([]float64, float64) {
-	k := 1 + len(s.Regressors)
-	for _, c := range s.Channels[:j] {
-		k += len(c.Params)
-	}
-	m := media(s.Channels[j], v[k:])
+	m := s.Layout().View(v).ChannelAt(j)
 	return m.Response(dst, x), m.Coef
 }
 
@@ -278,6 +302,13 @@ func (s *Stage) support(name string) (def Support, coefficient, ok bool) {
 	}
 	for _, sm := range s.smooths() {
 		for _, q := range sm.Params {
+			if q.Name == name {
+				return q.Default, false, true
+			}
+		}
+	}
+	for i := range s.Channels {
+		for _, q := range s.Channels[i].measureParams() {
 			if q.Name == name {
 				return q.Default, false, true
 			}
@@ -401,6 +432,36 @@ func (s *Stage) Target() (*Target, error) {
 	}
 	if base != nil {
 		t.terms = append(t.terms, base)
+	}
+	// the exposures' measurement parameters come last (Names)
+	for i := range s.Channels {
+		c := &s.Channels[i]
+		ps := c.measureParams()
+		if len(ps) == 0 {
+			continue
+		}
+		k := make([]int, len(ps))
+		for q, p := range ps {
+			if k[q], err = add(p.Name, p.Prior, p.Default); err != nil {
+				return nil, err
+			}
+		}
+		ch, ok := t.terms[first+i].(*channelTerm)
+		if !ok || ch.linear {
+			return nil, fmt.Errorf("model: channel %s has a measured exposure (a break or an error); it must saturate and must not drift", c.Column)
+		}
+		kb, at, sd, zk, weeks, fk, freq := -1, 0, 0.0, -1, []int(nil), -1, []float64(nil)
+		if c.Break != nil {
+			kb, at, k = k[0], c.Break.At, k[1:]
+		}
+		if c.Error != nil {
+			sd, zk, weeks = c.Error.SD, k[0], c.Error.Weeks
+			k = k[len(weeks):]
+		}
+		if c.Freq != nil {
+			fk, freq = k[0], c.Freq.F
+		}
+		t.terms[first+i] = newMeasuredTerm(ch, at, kb, sd, zk, weeks, fk, freq)
 	}
 	if !s.Plain {
 		for i, r := range s.Regressors {

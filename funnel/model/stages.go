@@ -76,9 +76,20 @@ func Demand(sc *Scaled, o Options) (*Stage, error) {
 	for c, col := range sc.UpperNames {
 		st.Channels = append(st.Channels, channel(col, sc.Upper[c], "alpha", "lam", "K", "S", o, sc.Mask))
 	}
+	if err := withMeasurement(st, sc, "alpha"); err != nil {
+		return nil, err
+	}
+	if err := withFrequency(st, sc, "alpha"); err != nil {
+		return nil, err
+	}
 	st, err := finish(st, o)
-	applyReturns(st, o.Returns, true)
-	return st, err
+	if err != nil {
+		return nil, err
+	}
+	if err := applyReturns(st, o.Returns, true); err != nil {
+		return nil, err
+	}
+	return st, nil
 }
 
 // Outcome returns stage 2: y~[t] on trend, seasonality, controls, gamma q~,
@@ -88,15 +99,70 @@ func Outcome(sc *Scaled, o Options) (*Stage, error) {
 	st := outcomeBase("outcome", sc, o)
 	st.Regressors = append(st.Regressors, Regressor{Name: QueryCoef, X: sc.Queries, Prior: PriorCoef, Default: PositiveReal})
 	// keep gamma right after the controls, before the channels
-	st, err := finish(withChannels(st, sc, o), o)
-	applyReturns(st, o.Returns, false)
-	return st, err
+	st = withChannels(st, sc, o)
+	if err := withMeasurement(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	if err := withFrequency(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	st, err := finish(st, o)
+	if err != nil {
+		return nil, err
+	}
+	if err := applyReturns(st, o.Returns, false); err != nil {
+		return nil, err
+	}
+	return st, nil
 }
 
 // Naive returns stage 2 without the query term: what a model that ignores
 // branded search demand would credit to paid search.
 func Naive(sc *Scaled, o Options) (*Stage, error) {
-	return finish(withChannels(outcomeBase("naive", sc, o), sc, o), o)
+	st := withChannels(outcomeBase("naive", sc, o), sc, o)
+	if err := withMeasurement(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	if err := withFrequency(st, sc, "delta"); err != nil {
+		return nil, err
+	}
+	return finish(st, o)
+}
+
+// withMeasurement gives each upper-funnel channel of st whose exposure has a
+// measurement break (Scaled.Breaks) its log factor on the path whose
+// coefficient is coef, with the prior PriorBreak, and each whose exposure
+// is observed with error (Scaled.Errors) its latent errors. Either needs a
+// channel that saturates and does not drift: a drift in effectiveness and
+// a change in the measurement would explain the same weeks.
+func withMeasurement(st *Stage, sc *Scaled, coef string) error {
+	for c, col := range sc.UpperNames {
+		at, sd := sc.BreakAt(c), sc.ErrorSD(c)
+		if at == 0 && sd == 0 {
+			continue
+		}
+		ch := &st.Channels[st.ChannelIndex(col)]
+		switch {
+		case ch.Linear:
+			return fmt.Errorf("model: channel %s's exposure has a measurement break or error and the channel is linear; that needs the saturating channel", col)
+		case ch.Drift != nil:
+			return fmt.Errorf("model: channel %s's exposure has a measurement break or error and the channel drifts; the two would explain the same weeks: choose one", col)
+		}
+		if at > 0 {
+			ch.Break = &Break{At: at, Param: Param{Name: breakName(coef, col), Prior: PriorBreak, Default: Real}}
+		}
+		if sd > 0 {
+			e := &Error{SD: sd}
+			for t, x := range ch.X {
+				if x > 0 {
+					e.Weeks = append(e.Weeks, t)
+					e.Params = append(e.Params, Param{Name: errorName(coef, col, t), Prior: PriorLatent, Default: Real})
+				}
+			}
+			ch.Error = e
+		}
+	}
+	return nil
 }
 
 func outcomeBase(name string, sc *Scaled, o Options) *Stage {

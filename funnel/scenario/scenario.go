@@ -66,6 +66,9 @@ type Scenario struct {
 	// Spend levels: mean weekly spend when on, raw currency units.
 	VideoLevel, AudioLevel, SearchLevel float64
 	QueryBase, OutcomeBase              float64
+	// Exposure, if not nil, makes video's impressions its media input
+	// (exposure.go); nil: every channel runs on its spend.
+	Exposure *Exposure
 }
 
 // Spec is the role declaration of every simulated data set.
@@ -107,13 +110,21 @@ func Named(name string, seed uint64, weeks, regions int) (*Scenario, error) {
 		s.P.Demand = []Channel{{0.7, 0.8, 0.5, 2.2}, {0.15, 0.6, 0.9, 1.0}}
 		s.P.Direct = []Channel{{0.06, 0.75, 0.6, 2.0}, {0.2, 0.5, 1.1, 0.9}}
 		s.P.Gamma = 0.5
+	case "exposure-rising":
+		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03}
+	case "exposure-break":
+		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03, Break: 78, BreakScale: 1.6}
+	case "exposure-error":
+		s.Exposure = &Exposure{CostRise: 0.3, CostNoise: 0.03, ErrorSD: 0.25}
+	case "reach-frequency":
+		s.Exposure = &Exposure{CostNoise: 0.03, RF: true, Kf: 2, Sf: 2.5}
 	case "direct-audio":
 		s.P.Demand = []Channel{{0.08, 0.3, 0.9, 1.2}, {0, 0.5, 1, 2}}
 		s.P.Direct = []Channel{{0.3, 0.25, 0.7, 1.6}, {0.2, 0.2, 0.5, 1.3}}
 		s.P.Gamma = 0.3
 		s.P.Search = Channel{0.2, 0.1, 0.8, 1.5}
 	default:
-		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn or direct-audio", name)
+		return nil, fmt.Errorf("scenario: unknown scenario %q; expected demo, demo-regions, slow-burn, direct-audio, exposure-rising, exposure-break, exposure-error or reach-frequency", name)
 	}
 	if weeks > 0 {
 		s.Weeks = weeks
@@ -123,6 +134,9 @@ func Named(name string, seed uint64, weeks, regions int) (*Scenario, error) {
 	}
 	if s.Weeks < 52 {
 		return nil, fmt.Errorf("scenario: %d weeks is too few; the model needs at least 52", s.Weeks)
+	}
+	if e := s.Exposure; e != nil && (s.Regions > 0 || e.Break >= s.Weeks) {
+		return nil, fmt.Errorf("scenario: %s is national, with its break inside its weeks", name)
 	}
 	return s, nil
 }
@@ -154,11 +168,7 @@ func (s *Scenario) Simulate() (*Result, error) {
 	}
 	video, audio := s.videoSpend(rng), s.audioSpend(rng)
 	price := s.price(rng)
-	spec := Spec
-	if s.Regions > 0 {
-		spec = RegionSpec
-	}
-	ds := &data.Dataset{Spec: spec, Weeks: weeks}
+	ds := &data.Dataset{Spec: s.Roles(), Weeks: weeks}
 	res := &Result{Data: ds}
 	if s.Regions == 0 {
 		reg, dem, out, err := s.region(rng, "", 0, weeks, video, audio, price, s.P)
@@ -220,6 +230,17 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	upper := make([][]float64, 2)
 	for c, x := range upperRaw {
 		upper[c] = divide(x, model.SpendScale(x))
+	}
+	var exposure, frequency [][]float64
+	if s.Exposure != nil {
+		var shown []float64
+		shown, upper[0] = s.Exposure.impressions(rng, video)
+		if s.Exposure.RF {
+			var freq []float64
+			shown, freq, upper[0] = s.Exposure.reachFrequency(rng, video, shown)
+			frequency = [][]float64{freq, nil}
+		}
+		exposure = [][]float64{shown, nil}
 	}
 	z := standardise(price)
 	tau := make([]float64, T)
@@ -288,8 +309,8 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	mys = stat.Mean(outcome) / s.OutcomeBase
 	reg := data.Region{Name: name, Population: pop, Series: data.Series{
 		Weeks: weeks, Upper: upperRaw, Search: [][]float64{search}, Queries: queries, Outcome: outcome,
-		Controls: [][]float64{price}}}
-	dem, out, err := p.inModelUnits(reg.Series, mqs, mys)
+		Controls: [][]float64{price}, Exposure: exposure, Frequency: frequency}}
+	dem, out, err := p.inModelUnits(reg.Series, s.Roles(), mqs, mys, s.Exposure)
 	if err != nil {
 		return data.Region{}, nil, nil, err
 	}
@@ -300,8 +321,8 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 // outcome stages on series s, named as the model names them: the
 // generating units divided by mqs and mys, the means of q and y that the
 // model's scaling divides by (gamma by mys/mqs).
-func (p Params) inModelUnits(s data.Series, mqs, mys float64) (dem, out map[string]float64, err error) {
-	sc := model.Scale(s, Spec)
+func (p Params) inModelUnits(s data.Series, spec data.Spec, mqs, mys float64, e *Exposure) (dem, out map[string]float64, err error) {
+	sc := model.Scale(s, spec)
 	st1, err := model.Demand(sc, model.Options{})
 	if err != nil {
 		return nil, nil, err
@@ -315,11 +336,11 @@ func (p Params) inModelUnits(s data.Series, mqs, mys float64) (dem, out map[stri
 	for c, col := range Spec.Upper {
 		upper[col], direct[col] = p.Demand[c], p.Direct[c]
 	}
-	stage := stageTruth{mu: p.MuQ, trend: p.BQ, season: p.SeasonQ, control: p.PhiQ, sigma: p.SigmaQ, channels: upper}
+	stage := stageTruth{mu: p.MuQ, trend: p.BQ, season: p.SeasonQ, control: p.PhiQ, sigma: p.SigmaQ, channels: upper, logBreak: e.logBreak(), exposure: e}
 	if dem, err = stage.named(sc, st1, mqs, 0); err != nil {
 		return nil, nil, err
 	}
-	stage = stageTruth{mu: p.MuY, trend: p.BY, season: p.SeasonY, control: p.PhiY, sigma: p.SigmaY, channels: direct}
+	stage = stageTruth{mu: p.MuY, trend: p.BY, season: p.SeasonY, control: p.PhiY, sigma: p.SigmaY, channels: direct, logBreak: e.logBreak(), exposure: e}
 	if out, err = stage.named(sc, st2, mys, p.Gamma*mqs/mys); err != nil {
 		return nil, nil, err
 	}
@@ -331,6 +352,8 @@ type stageTruth struct {
 	mu, trend, control, sigma float64
 	season                    [4]float64
 	channels                  map[string]Channel // by data column
+	logBreak                  float64            // a measurement break's log factor
+	exposure                  *Exposure          // its latent errors, if any
 }
 
 // named writes t as a draw of st (built on sc) through its layout, the
@@ -365,6 +388,15 @@ func (t stageTruth) named(sc *model.Scaled, st *model.Stage, m, gamma float64) (
 		v[cs.Coef] = ch.Coef / m
 		if !cs.Linear() {
 			v[cs.Lam], v[cs.K], v[cs.S] = ch.Lam, ch.K, ch.S
+		}
+		if cs.Break >= 0 {
+			v[cs.Break] = t.logBreak
+		}
+		for i, w := range cs.ErrWeeks {
+			v[cs.ErrZ+i] = t.exposure.latent(w)
+		}
+		if cs.FreqK >= 0 {
+			v[cs.FreqK], v[cs.FreqK+1] = t.exposure.Kf, t.exposure.Sf
 		}
 	}
 	named := map[string]float64{}

@@ -273,9 +273,12 @@ func placeboRecord(job int, res *mediation.Result, col string) Record {
 func (sw *Sweep) placeboJob(ctx context.Context, j Job) ([]Record, error) {
 	s := sw.in.Series
 	moved := data.Series{Weeks: s.Weeks, Upper: append([][]float64(nil), s.Upper...), Search: append([][]float64(nil), s.Search...),
-		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls}
+		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls, Exposure: append([][]float64(nil), s.Exposure...)}
 	if c := slices.Index(sw.in.Spec.Upper, j.Channel); c >= 0 {
 		moved.Upper[c] = ShiftSpend(nil, s.Upper[c], j.Shift)
+		if s.Exposure != nil && s.Exposure[c] != nil { // the exposure moves with its spend
+			moved.Exposure[c] = ShiftSpend(nil, s.Exposure[c], j.Shift)
+		}
 	} else if c := slices.Index(sw.in.Spec.Search, j.Channel); c >= 0 {
 		moved.Search[c] = ShiftSpend(nil, s.Search[c], j.Shift)
 	} else {

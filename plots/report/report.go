@@ -90,7 +90,7 @@ type view struct {
 	Plan         *planView
 	// Regions is the Regions section of a panel of regions; nil otherwise.
 	Regions *regionsView
-	Drift        *driftView
+	Drift   *driftView
 }
 
 type chartView struct {
