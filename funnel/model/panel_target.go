@@ -17,24 +17,24 @@ import (
 // likelihood over region-weeks and the priors of the shared and hyper
 // parameters. panelcoords.go explains the sampling coordinates.
 type PanelTarget struct {
-	p        *Panel
-	names    []string
-	lay      *PanelLayout
-	G, T     int
-	dim      int
-	par      []param // the national-shaped part, in its Names order, then the spreads
-	own      []bool  // par[i]'s transform and Jacobian are done by a hierarchy term
-	sigma    int
-	regs     []*panelReg
-	chans    []*panelChannel
-	coefs    []*panelCoef // gamma, then each channel's coefficient
-	inter    *panelIntercept
-	y        [][]float64
-	mask     [][]bool
-	nObs     int
-	nat, gn  []float64 // natural values and gradients, len(names)
-	n, w     [][]float64
-	sw, gS   []float64 // per region: sum_t w, d lp / d S_g (the intercept's shear)
+	p       *Panel
+	names   []string
+	lay     *PanelLayout
+	G, T    int
+	dim     int
+	par     []param // the national-shaped part, in its Names order, then the spreads
+	own     []bool  // par[i]'s transform and Jacobian are done by a hierarchy term
+	sigma   int
+	regs    []*panelReg
+	chans   []*panelChannel
+	coefs   []*panelCoef // gamma, then each channel's coefficient
+	inter   *panelIntercept
+	y       [][]float64
+	mask    [][]bool
+	nObs    int
+	nat, gn []float64 // natural values and gradients, len(names)
+	n, w    [][]float64
+	sw, gS  []float64 // per region: sum_t w, d lp / d S_g (the intercept's shear)
 }
 
 var _ mcmc.Target = (*PanelTarget)(nil)
