@@ -213,3 +213,34 @@ func TestPanelSamePosterior(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkPanelLogProbGrad is the outcome panel's gradient at 10, 40 and
+// 160 regions of 156 weeks (two upper channels, one paid search, one
+// control): the cost per region-week should stay flat, with no allocation.
+func BenchmarkPanelLogProbGrad(b *testing.B) {
+	for _, G := range []int{10, 40, 160} {
+		b.Run(fmt.Sprintf("regions=%d", G), func(b *testing.B) {
+			p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
+			for g := 0; g < G; g++ {
+				st, _ := Outcome(testScaled(156, uint64(20+g)), Options{})
+				p.Stages = append(p.Stages, st)
+				p.Regions = append(p.Regions, fmt.Sprintf("r%d", g+1))
+			}
+			p.Coords = p.Uniform(0.5)
+			tg, err := p.Target()
+			if err != nil {
+				b.Fatal(err)
+			}
+			x := make([]float64, tg.Dim())
+			for i := range x {
+				x[i] = 0.1 * float64(i%5)
+			}
+			g := make([]float64, tg.Dim())
+			b.ReportAllocs()
+			for b.Loop() {
+				tg.LogProbGrad(g, x)
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(G*156), "ns/region-week")
+		})
+	}
+}

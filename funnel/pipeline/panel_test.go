@@ -1,0 +1,185 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"strconv"
+	"testing"
+	"time"
+
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/funnel/scenario"
+	"spillway/funnel/window"
+	"spillway/mediation"
+)
+
+// fitDiag is one stage's convergence in one line.
+type fitDiag struct {
+	stage                 string
+	wall                  float64
+	rhat, essBulk, essTai float64
+	worst                 string
+	div                   int
+	steps, step           float64 // mean leapfrog steps per draw and step size over chains
+}
+
+func (d fitDiag) String() string {
+	return fmt.Sprintf("%-8s wall %6.1f s  max R-hat %.3f  min bulk ESS %5.0f  min tail ESS %5.0f (worst %s)  divergences %d  steps/draw %.0f  step %.3g",
+		d.stage, d.wall, d.rhat, d.essBulk, d.essTai, d.worst, d.div, d.steps, d.step)
+}
+
+func diagnose(stage string, f *mcmc.Fit, wall float64) fitDiag {
+	d := fitDiag{stage: stage, wall: wall, essBulk: math.Inf(1), essTai: math.Inf(1)}
+	for _, s := range mcmc.Summarize(f) {
+		if s.Constant() {
+			continue
+		}
+		if s.Rhat > d.rhat {
+			d.rhat, d.worst = s.Rhat, s.Parameter
+		}
+		d.essBulk = math.Min(d.essBulk, s.ESSBulk)
+		d.essTai = math.Min(d.essTai, s.ESSTail)
+	}
+	for _, c := range f.Chains {
+		d.div += c.Stats.Divergences
+		d.steps += c.Stats.MeanLeapfrogs / float64(len(f.Chains))
+		d.step += c.Stats.StepSize / float64(len(f.Chains))
+	}
+	return d
+}
+
+// TestPanelOneRegion checks that the region model on one region is the
+// national model on that region: every parameter's posterior mean and
+// every effect's agree within their Monte Carlo error (4 MCSE of the
+// difference), fitting the same data both ways.
+func TestPanelOneRegion(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two full fits")
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: 1, Weeks: 104, Seed: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set := mcmc.Settings{Chains: 4, Warmup: 500, Draws: 500, Seed: 21}
+	pf, err := FitPanel(context.Background(), ps, model.Options{}, set, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set.Seed = 77
+	nf, err := Fit(context.Background(), ps.Scaled[0], model.Options{}, set, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := range nf.Fits {
+		ns, pss := mcmc.Summarize(nf.Fits[k]), mcmc.Summarize(pf.Fits[k])
+		if len(ns) != len(pss) {
+			t.Fatalf("%s: %d national parameters, %d panel ones", StageNames[k], len(ns), len(pss))
+		}
+		t.Logf("%v", diagnose(StageNames[k], pf.Fits[k], pf.Wall[k]))
+		for i, a := range ns {
+			b := pss[i]
+			if a.Parameter != b.Parameter {
+				t.Fatalf("parameter %d: national %s, panel %s", i, a.Parameter, b.Parameter)
+			}
+			tol := 4 * math.Hypot(a.MCSEMean, b.MCSEMean)
+			if math.Abs(a.Mean-b.Mean) > tol {
+				t.Errorf("%s %s: national mean %.5g, panel %.5g, beyond 4 MCSE (%.3g)", StageNames[k], a.Parameter, a.Mean, b.Mean, tol)
+			}
+		}
+	}
+	// the effects through the region split against the national split
+	wins := window.Quarters(ps.Scaled[0].Weeks)[:1]
+	pr, err := mediation.SplitPanel(pf.Inputs(), wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	nr, err := mediation.Split(nf.Inputs(), wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, e := range nr.Effects {
+		p := pr.Total.Effects[i]
+		if p.Channel != e.Channel || p.Path != e.Path {
+			t.Fatalf("effect %d: %s %s against %s %s", i, p.Channel, p.Path, e.Channel, e.Path)
+		}
+		a, b := mediation.Summarise(e.Draws), mediation.Summarise(p.Draws)
+		// Monte Carlo error of a mean from about 1000 effective draws
+		tol := 4 * math.Hypot(sdOf(e.Draws), sdOf(p.Draws)) / math.Sqrt(1000)
+		if math.Abs(a.Mean-b.Mean) > tol {
+			t.Errorf("%s %s: national %.4g, panel %.4g (tolerance %.3g)", e.Channel, e.Path, a.Mean, b.Mean, tol)
+		}
+	}
+}
+
+func sdOf(x []float64) float64 {
+	m := 0.0
+	for _, v := range x {
+		m += v
+	}
+	m /= float64(len(x))
+	s := 0.0
+	for _, v := range x {
+		s += (v - m) * (v - m)
+	}
+	return math.Sqrt(s / float64(len(x)-1))
+}
+
+// TestPanelExplore fits a simulated panel and prints its convergence
+// (SPILLWAY_PANEL=G,T,warmup,draws to run; for measurements only).
+func TestPanelExplore(t *testing.T) {
+	spec := os.Getenv("SPILLWAY_PANEL")
+	if spec == "" {
+		t.Skip("set SPILLWAY_PANEL=G,T,warmup,draws")
+	}
+	var v [4]int
+	rest := spec
+	for i := range v {
+		var part string
+		part, rest, _ = cut(rest, ",")
+		v[i], _ = strconv.Atoi(part)
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: v[0], Weeks: v[1], Seed: 5, Dark: v[0] / 8, Big: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set := mcmc.Settings{Chains: 4, Warmup: v[2], Draws: v[3], Seed: 1}
+	pf := fitPanelStages(t, ps, set)
+	for k := range pf.Fits {
+		t.Logf("%v", diagnose(StageNames[k], pf.Fits[k], pf.Wall[k]))
+		c := pf.Coords[k]
+		t.Logf("  coords: tau_mu %.3g, tau_coef %.3g; lam mu %.2f, coef %.2f", c.TauMu, c.TauCoef, c.Mu, c.Coef)
+	}
+}
+
+func cut(s, sep string) (string, string, bool) {
+	for i := 0; i+len(sep) <= len(s); i++ {
+		if s[i:i+len(sep)] == sep {
+			return s[:i], s[i+len(sep):], true
+		}
+	}
+	return s, "", false
+}
+
+// fitPanelStages is FitPanel logging each stage as it ends.
+func fitPanelStages(t *testing.T, ps *model.PanelScaled, set mcmc.Settings) *PanelFitted {
+	t.Helper()
+	pf, err := FitPanel(context.Background(), ps, model.Options{}, set, func(stage string) (mcmc.Recorder, func()) {
+		t0 := time.Now()
+		return nil, func() { t.Logf("%s stage done in %.1f s", stage, time.Since(t0).Seconds()) }
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return pf
+}
