@@ -183,3 +183,129 @@ func fitPanelStages(t *testing.T, ps *model.PanelScaled, set mcmc.Settings) *Pan
 	}
 	return pf
 }
+
+// TestPanelRecovery fits panels simulated from the region model (different
+// numbers of regions, the last regions never running audio, the first ten
+// times the others' size) and prints the coverage of the true per-region and
+// summed effects (window all: via search, direct and total of each upper
+// channel, paid search's controlled effect) by the 90% intervals, with the
+// range a calibrated posterior would give 95% of the time (binomial). Runs
+// with SPILLWAY_LONG=1 (several full panel fits).
+func TestPanelRecovery(t *testing.T) {
+	if os.Getenv("SPILLWAY_LONG") != "1" {
+		t.Skip("set SPILLWAY_LONG=1: several full panel fits")
+	}
+	var hit, n, hitSum, nSum int
+	for i, o := range []scenario.PanelOptions{
+		{Regions: 4, Weeks: 104, Seed: 31, Dark: 1},
+		{Regions: 8, Weeks: 104, Seed: 32, Dark: 2, Big: true},
+		{Regions: 12, Weeks: 156, Seed: 33, Dark: 1, Big: true},
+	} {
+		sim, err := scenario.SimulatePanel(o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ps, err := model.ScalePanel(sim.Data, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		pf := fitPanelStages(t, ps, mcmc.Settings{Seed: 50 + uint64(i), Warmup: 500, Draws: 500})
+		for k := 0; k < 2; k++ {
+			t.Logf("%d regions: %v", o.Regions, diagnose(StageNames[k], pf.Fits[k], pf.Wall[k]))
+		}
+		wins := window.Quarters(ps.Scaled[0].Weeks)[:1]
+		res, err := mediation.SplitPanel(pf.Inputs(), wins)
+		if err != nil {
+			t.Fatal(err)
+		}
+		truth, err := sim.TrueEffects(wins)
+		if err != nil {
+			t.Fatal(err)
+		}
+		cover := func(got, want *mediation.Result) (h, m int) {
+			all := append(append([]mediation.Effect(nil), got.Effects...), got.Borrowed...)
+			tru := append(append([]mediation.Effect(nil), want.Effects...), want.Borrowed...)
+			for j, e := range all {
+				switch e.Path {
+				case "via_search", "direct", "total", "controlled":
+				default:
+					continue
+				}
+				if e.Spend == 0 {
+					continue // exactly zero in every draw and in truth
+				}
+				s := mediation.Summarise(e.Draws)
+				v := tru[j].Draws[0]
+				m++
+				if v >= s.Q05 && v <= s.Q95 {
+					h++
+				}
+			}
+			return h, m
+		}
+		for g, r := range res.Regions {
+			h, m := cover(r.Result, truth.Regions[g].Result)
+			hit, n = hit+h, n+m
+		}
+		h, m := cover(res.Total, truth.Total)
+		hitSum, nSum = hitSum+h, nSum+m
+	}
+	lo, hi := binomialRange(n, 0.9)
+	t.Logf("per-region effects: %d of %d inside their 90%% intervals (%.1f%%; a calibrated posterior gives %d to %d)", hit, n, 100*float64(hit)/float64(n), lo, hi)
+	los, his := binomialRange(nSum, 0.9)
+	t.Logf("summed effects: %d of %d inside their 90%% intervals (a calibrated posterior gives %d to %d)", hitSum, nSum, los, his)
+	if hit < lo {
+		t.Errorf("per-region coverage %d of %d is below the binomial range [%d, %d]", hit, n, lo, hi)
+	}
+}
+
+// BenchmarkPanelFit fits the demand and outcome stages of a panel simulated
+// from the region model, SPILLWAY_PANEL_BENCH=G,T regions x weeks (default
+// 40 x 156: two upper channels, one paid search, one control; the last of
+// every eight regions never runs audio, the first is ten times the others'
+// size), 4 chains x (1000 + 1000), and reports each stage's wall and CPU
+// seconds, worst R-hat, least bulk and tail ESS, divergences, leapfrog steps
+// per draw, step size and gradient evaluations.
+func BenchmarkPanelFit(b *testing.B) {
+	G, T := 40, 156
+	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
+		a, c, _ := cut(s, ",")
+		G, _ = strconv.Atoi(a)
+		T, _ = strconv.Atoi(c)
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: 40, Dark: G / 8, Big: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	panels, err := model.PanelStages(ps, model.Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		wall, grads := 0.0, 0
+		for k := 0; k < 2; k++ {
+			tg, err := panels[k].Target()
+			if err != nil {
+				b.Fatal(err)
+			}
+			set := mcmc.Settings{Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
+			t0 := time.Now()
+			fit, err := mcmc.Run(context.Background(), tg, &set)
+			if err != nil {
+				b.Fatal(err)
+			}
+			w := time.Since(t0).Seconds()
+			wall += w
+			for _, c := range fit.Chains {
+				grads += c.Stats.GradientEvaluations
+			}
+			b.Logf("%d x %d: %v", G, T, diagnose(StageNames[k], fit, w))
+		}
+		b.ReportMetric(wall, "wall-s")
+		b.ReportMetric(float64(grads), "gradients")
+	}
+}
