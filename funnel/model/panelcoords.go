@@ -70,7 +70,8 @@ const (
 // coefficient's estimate and standard error s[g]; the method of moments
 // across regions, var(estimates) - mean(s^2), gives the spread tau the data
 // imply (on the log scale for a coefficient, dividing by the
-// precision-weighted mean estimate); lam[g] = tau^2 / (tau^2 + s[g]^2). A
+// precision-weighted mean estimate); lam[g] = tau^2 / (tau^2 + s[g]^2) at a
+// low plausible tau, rounded to 0 or 1 (see weight below). A
 // region's intercept, given the slopes, is pinned to its residual sd over
 // sqrt(weeks); a channel a region never runs has s = +Inf (lam 0). A
 // failing least squares (too few weeks) gives centred weights.
@@ -143,10 +144,20 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 		}
 		c.SEMu[g] = resSD / math.Sqrt(float64(n))
 	}
+	// The spread is estimated from G regions: a low plausible value, the
+	// estimate times 1 - 1.64/sqrt(2(G-1)) (the one-sided 95% bound of a
+	// normal sd from G values, by its standard error sd/sqrt(2(G-1))),
+	// guards against centring a block whose spread may be smaller than
+	// its regions' standard errors, the funnel a centred block falls into.
+	// The weights are then rounded to 0 or 1: intermediate weights made
+	// the sampler take more steps than either end on simulated panels
+	// (the tau^(1-lam) scaling bends the coordinate with tau).
+	low := math.Max(1-1.64/math.Sqrt(2*float64(G-1)), 0.25)
 	weight := func(tau float64, s []float64) []float64 {
 		out := make([]float64, len(s))
+		t := tau * low
 		for g, sg := range s {
-			out[g] = tau * tau / (tau*tau + sg*sg)
+			out[g] = math.Round(t * t / (t*t + sg*sg))
 			if math.IsInf(sg, 1) {
 				out[g] = 0
 			}

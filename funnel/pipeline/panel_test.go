@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"strconv"
+	"strings"
 	"testing"
 	"time"
 
@@ -131,12 +132,15 @@ func sdOf(x []float64) float64 {
 	return math.Sqrt(s / float64(len(x)-1))
 }
 
-// TestPanelExplore fits a simulated panel and prints its convergence
-// (SPILLWAY_PANEL=G,T,warmup,draws to run; for measurements only).
+// TestPanelExplore fits a simulated panel and prints its convergence, for
+// measurements only: SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]] with
+// stages a string of stage numbers (012: demand, outcome, naive) and coords
+// chosen (the default), nc (every weight 0), c (every weight 1) or round
+// (the chosen weights rounded to 0 or 1).
 func TestPanelExplore(t *testing.T) {
 	spec := os.Getenv("SPILLWAY_PANEL")
 	if spec == "" {
-		t.Skip("set SPILLWAY_PANEL=G,T,warmup,draws")
+		t.Skip("set SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]]")
 	}
 	var v [4]int
 	rest := spec
@@ -144,6 +148,10 @@ func TestPanelExplore(t *testing.T) {
 		var part string
 		part, rest, _ = cut(rest, ",")
 		v[i], _ = strconv.Atoi(part)
+	}
+	stages, coords, _ := cut(rest, ",")
+	if stages == "" {
+		stages = "012"
 	}
 	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: v[0], Weeks: v[1], Seed: 5, Dark: v[0] / 8, Big: true})
 	if err != nil {
@@ -153,12 +161,51 @@ func TestPanelExplore(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	set := mcmc.Settings{Chains: 4, Warmup: v[2], Draws: v[3], Seed: 1}
-	pf := fitPanelStages(t, ps, set)
-	for k := range pf.Fits {
-		t.Logf("%v", diagnose(StageNames[k], pf.Fits[k], pf.Wall[k]))
-		c := pf.Coords[k]
-		t.Logf("  coords: tau_mu %.3g, tau_coef %.3g; lam mu %.2f, coef %.2f", c.TauMu, c.TauCoef, c.Mu, c.Coef)
+	panels, err := model.PanelStages(ps, model.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, ch := range stages {
+		k := int(ch - '0')
+		p := panels[k]
+		c, err := model.ChooseCoordinates(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		switch coords {
+		case "nc":
+			c = p.Uniform(0)
+		case "c":
+			c = p.Uniform(1)
+		case "round":
+			for _, w := range append([][]float64{c.Mu}, c.Coef...) {
+				for g := range w {
+					w[g] = math.Round(w[g])
+				}
+			}
+		}
+		p.Coords = c
+		tg, err := p.Target()
+		if err != nil {
+			t.Fatal(err)
+		}
+		set := mcmc.Settings{Chains: 4, Warmup: v[2], Draws: v[3], Seed: 1, TargetAccept: DefaultTargetAccept}
+		t0 := time.Now()
+		fit, err := mcmc.Run(context.Background(), tg, &set)
+		if err != nil {
+			t.Fatal(err)
+		}
+		grads := 0
+		for _, c := range fit.Chains {
+			grads += c.Stats.GradientEvaluations
+		}
+		t.Logf("%v  gradients %d", diagnose(StageNames[k], fit, time.Since(t0).Seconds()), grads)
+		t.Logf("  coords %s: tau_mu %.3g, tau_coef %.3g; lam mu %.2f, coef %.2f", coords, c.TauMu, c.TauCoef, c.Mu, c.Coef)
+		for _, s := range mcmc.Summarize(fit) {
+			if strings.HasPrefix(s.Parameter, "tau_") {
+				t.Logf("  %s mean %.3g [%.3g, %.3g] R-hat %.3f bulk ESS %.0f", s.Parameter, s.Mean, s.Q05, s.Q95, s.Rhat, s.ESSBulk)
+			}
+		}
 	}
 }
 

@@ -22,6 +22,7 @@ script_dir <- local({
 setwd(script_dir)
 if (!file.exists(rstan_options("boost_lib")) && file.exists("/usr/include/boost"))
   rstan_options(boost_lib = "/usr/include")
+rstan_options(auto_write = TRUE)         # keep the compiled program (panel_stage.rds) between runs
 
 SEED <- 20261202L      # demand SEED + 1, outcome SEED + 2
 CHAINS <- 4L
@@ -57,10 +58,14 @@ y_mean <- sapply(reg, function(x) mean(x$conversions))
 X_of <- function(cols) lapply(cols, function(c) lapply(reg, function(x) spend_scale(x[[c]])))
 
 stage_data <- function(response, cols, has_q) {
-  X <- X_of(cols)
+  Xl <- X_of(cols)
+  X <- array(0, dim = c(length(cols), G, T))                # X[c, g] is a vector over weeks
+  for (c in seq_along(cols)) for (g in seq_len(G)) X[c, g, ] <- Xl[[c]][[g]]
+  Za <- array(0, dim = c(G, T, length(controls)))
+  for (g in seq_len(G)) Za[g, , ] <- Z[[g]]
   list(G = G, T = T, C = length(cols), P = length(controls), HAS_Q = has_q,
-       y = response, q = q_t, tau = tau, cosm = cosm, sinm = sinm, Z = Z,
-       X = X, mu_loc = 0.5, mu_sd = 0.5)
+       y = do.call(rbind, response), q = do.call(rbind, q_t), tau = tau, cosm = cosm, sinm = sinm,
+       Z = Za, X = X, mu_loc = 0.5, mu_sd = 0.5)
 }
 stages <- list(
   demand = list(data = stage_data(q_t, upper, 0L), seed = SEED + 1L, sfx = "q",
