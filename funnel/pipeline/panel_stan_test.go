@@ -76,7 +76,7 @@ func TestPanelAgainstStan(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		set := mcmc.Settings{Seed: 40 + uint64(k), Draws: 2500, TargetAccept: DefaultTargetAccept}
+		set := mcmc.Settings{Seed: 40 + uint64(k), TargetAccept: DefaultTargetAccept}
 		t0 := time.Now()
 		if fits[k], err = mcmc.Run(context.Background(), tg, &set); err != nil {
 			t.Fatal(err)
