@@ -244,3 +244,43 @@ func BenchmarkPanelLogProbGrad(b *testing.B) {
 		})
 	}
 }
+
+// TestPanelRegionDraw checks that a region's national draw holds the
+// shared values and that region's intercept and coefficients, read by
+// meaning through each layout.
+func TestPanelRegionDraw(t *testing.T) {
+	p := testPanel(t, 3, 20, Outcome, false)
+	l := p.Layout()
+	v := make([]float64, l.Len())
+	for i := range v {
+		v[i] = float64(i)
+	}
+	for g := range p.Regions {
+		r := l.Region(nil, v, g)
+		rl := p.Stages[g].Layout()
+		pr := rl.View(r)
+		if got, want := pr.Intercept(), v[l.Intercepts().Start+g]; got != want {
+			t.Errorf("region %d intercept %v, want %v", g, got, want)
+		}
+		if got, want := pr.Sigma(), v[l.Base().SigmaSlot()]; got != want {
+			t.Errorf("region %d sigma %v, want %v", g, got, want)
+		}
+		for _, c := range l.Coefs() {
+			want := v[c.Block.Start+g]
+			if c.Column == "" {
+				if pr.Gamma() != want {
+					t.Errorf("region %d gamma %v, want %v", g, pr.Gamma(), want)
+				}
+				continue
+			}
+			m, _ := pr.Channel(c.Column)
+			if m.Coef != want {
+				t.Errorf("region %d %s coefficient %v, want %v", g, c.Name, m.Coef, want)
+			}
+			cs, _ := rl.Channel(c.Column)
+			if r[cs.Lam] != v[cs.Lam] {
+				t.Errorf("region %d %s retention not shared", g, c.Name)
+			}
+		}
+	}
+}
