@@ -36,8 +36,8 @@
 //     baseline that moves, f(t) in place of the trend line; f is a smooth
 //     function of the week with mean zero over the fitted weeks
 //     (smooth.go). Each adds its part minus its mean to n[t] and its mean
-//     to the centring of the intercept; a coefficient per region will be a
-//     term of the same shape.
+//     to the centring of the intercept (the region panel's terms, below,
+//     do the same over region-weeks).
 //   - the observation term: y[t] ~ Normal(n[t], sigma) over the weeks not
 //     masked. It returns d lp/d n[t], which the predictor terms pull back.
 //   - a prior term per parameter, with its transform from the sampling
@@ -59,4 +59,16 @@
 // variables with its Jacobian), those coefficients carrying the flat
 // Conditional family in their stage. Stages nothing ties are fitted
 // separately, which is exact.
+//
+// Region panel (panel.go, panel_target.go, panelcoords.go). A Panel holds one
+// stage of the national shape per region, each on that region's data scaled
+// by its own means; its PanelTarget is a sum of panel terms (shared
+// regressors, channels with shared transforms and a coefficient per region,
+// the hierarchies of the intercepts and coefficients, the likelihood over
+// region-weeks). Each region's intercept and coefficients are sampled
+// centred or non-centred, chosen per region from least squares before
+// sampling; a centred intercept is sampled as the region's predictor mean
+// (a shear, unit Jacobian), which removes the ridge between a region's
+// intercept and its gamma. PanelLayout.Region turns a panel draw into a
+// region's national draw, which every national computation reads.
 package model

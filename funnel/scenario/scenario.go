@@ -229,7 +229,11 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 	upperRaw := [][]float64{video, audio}
 	upper := make([][]float64, 2)
 	for c, x := range upperRaw {
-		upper[c] = divide(x, model.SpendScale(x))
+		if d := model.SpendScale(x); d > 0 {
+			upper[c] = divide(x, d)
+		} else {
+			upper[c] = make([]float64, T) // a region that never runs the channel
+		}
 	}
 	var exposure, frequency [][]float64
 	if s.Exposure != nil {

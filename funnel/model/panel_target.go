@@ -1,0 +1,821 @@
+package model
+
+import (
+	"fmt"
+	"math"
+
+	"spillway/funnel/mcmc"
+	"spillway/funnel/stat"
+	"spillway/funnel/transform"
+)
+
+// PanelTarget is a compiled Panel: an mcmc.Target on the unconstrained
+// space whose log density is the sum of the panel's terms: the shared
+// regressors (panelReg), the channels with shared transforms and a
+// coefficient per region (panelChannel), the coefficients' hierarchies
+// (panelCoef), the intercepts' hierarchy (panelIntercept), the weekly
+// likelihood over region-weeks and the priors of the shared and hyper
+// parameters. panelcoords.go explains the sampling coordinates.
+type PanelTarget struct {
+	p       *Panel
+	names   []string
+	lay     *PanelLayout
+	G, T    int
+	dim     int
+	par     []param // the national-shaped part, in its Names order, then the spreads
+	own     []bool  // par[i]'s transform and Jacobian are done by a hierarchy term
+	sigma   int
+	regs    []*panelReg
+	chans   []*panelChannel
+	coefs   []*panelCoef // gamma, then each channel's coefficient
+	inter   *panelIntercept
+	y       [][]float64
+	mask    [][]bool
+	nObs    int
+	nat, gn []float64 // natural values and gradients, len(names)
+	n, w    [][]float64
+	sw, gS  []float64 // per region: sum_t w, d lp / d S_g (the intercept's shear)
+}
+
+var _ mcmc.Target = (*PanelTarget)(nil)
+
+// Target compiles the panel. It returns an error when a prior does not fit
+// its parameter; a coefficient that varies by region must be positive (its
+// spread is on the log scale).
+func (p *Panel) Target() (*PanelTarget, error) {
+	if len(p.Stages) != len(p.Regions) || len(p.Stages) == 0 {
+		panic("model: a panel has one stage per region")
+	}
+	nt, err := p.Stages[0].Target() // checks every prior against its parameter
+	if err != nil {
+		return nil, err
+	}
+	st0 := p.Stages[0]
+	t := &PanelTarget{p: p, names: p.Names(), lay: p.Layout(), G: len(p.Regions), T: len(st0.Y),
+		dim: nt.dim, sigma: nt.sigma}
+	t.par = append(t.par, nt.par...)
+	t.own = make([]bool, len(t.par))
+	coords := p.Coords
+	if coords == nil {
+		if coords, err = ChooseCoordinates(p); err != nil {
+			return nil, err
+		}
+	}
+	pooled := p.pooled()
+	addTau := func(name string, pr Prior) (int, error) {
+		if _, _, err := st0.fit(name, pr, PositiveReal, false); err != nil {
+			return 0, err
+		}
+		if pr.Support(PositiveReal) != PositiveReal {
+			return 0, fmt.Errorf("prior for %s: a spread needs a positive prior, not %s", name, pr.Family)
+		}
+		pp := param{name: name, prior: pr, sup: PositiveReal, free: -1}
+		if pr.Family != Fixed {
+			pp.free = t.dim
+			t.dim++
+		}
+		t.par = append(t.par, pp)
+		t.own = append(t.own, false)
+		return len(t.par) - 1, nil
+	}
+	block := func() int {
+		start := t.dim
+		t.dim += t.G
+		return start
+	}
+	for _, st := range p.Stages {
+		t.y = append(t.y, st.Y)
+		t.mask = append(t.mask, st.Mask)
+		for i := range st.Y {
+			if st.Mask == nil || !st.Mask[i] {
+				t.nObs++
+			}
+		}
+	}
+	// the intercepts
+	mu := nt.mu
+	t.inter = &panelIntercept{mu: mu, free: nt.par[mu].free, pooled: pooled, tauPos: -1}
+	if !pooled {
+		if _, err = addTau(t.names[t.lay.tauMu], p.TauMu); err != nil {
+			return nil, err
+		}
+		t.inter.tauPos = t.lay.tauMu
+		t.inter.lam = coords.Mu
+		t.inter.block = block()
+	}
+	// shared regressors and the coefficients that vary by region
+	bl := nt.st.Layout()
+	hier := p.hier()
+	for i, r := range st0.Regressors {
+		if r.Name == QueryCoef {
+			continue
+		}
+		pr := &panelReg{k: bl.RegressorSlot(i), x: make([][]float64, t.G), bar: make([]float64, t.G)}
+		for g, st := range p.Stages {
+			pr.x[g] = st.Regressors[i].X
+			pr.bar[g] = stat.Mean(st.Regressors[i].X)
+		}
+		t.regs = append(t.regs, pr)
+	}
+	for j := range st0.Channels {
+		cs := bl.Channels()[j]
+		pc := &panelChannel{k: [4]int{cs.Coef, cs.Lam, cs.K, cs.S}, linear: cs.Linear(), series: make([]panelSeries, t.G)}
+		if !pc.linear {
+			pc.kFree, pc.sFree = t.par[cs.K].free, t.par[cs.S].free
+		}
+		ref, nref := 0.0, 0
+		for g, st := range p.Stages {
+			s := &pc.series[g]
+			s.x = st.Channels[j].X
+			s.hbar = stat.Mean(s.x)
+			if s.hbar > 0 {
+				ref += s.hbar
+				nref++
+			}
+			if !pc.linear {
+				T := len(s.x)
+				s.a, s.da = make([]float64, T), make([]float64, T)
+				s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
+			}
+		}
+		pc.abar = 1
+		if nref > 0 {
+			pc.abar = ref / float64(nref)
+		}
+		t.chans = append(t.chans, pc)
+	}
+	for k, h := range hier {
+		hyper := bl.GammaSlot()
+		var ch *panelChannel
+		if h.channel >= 0 {
+			ch = t.chans[h.channel]
+			hyper = ch.k[0]
+		}
+		hp := t.par[hyper]
+		if hp.sup != PositiveReal {
+			return nil, fmt.Errorf("prior for %s: a coefficient that varies by region needs a positive prior (its spread is on the log scale), not %s", h.name, hp.prior.Family)
+		}
+		pc := &panelCoef{hyper: hyper, free: hp.free, pooled: pooled, ch: ch, tauPos: -1,
+			v: make([]float64, t.G), g: make([]float64, t.G), bar: make([]float64, t.G)}
+		pc.rescale = ch != nil && hp.free >= 0
+		if ch == nil {
+			for g, st := range p.Stages {
+				pc.q = append(pc.q, st.Regressors[h.reg].X)
+				pc.bar[g] = stat.Mean(st.Regressors[h.reg].X)
+			}
+		}
+		if !pooled {
+			pl := t.lay.coefs[k]
+			if _, err = addTau(t.names[pl.Tau], p.TauCoef); err != nil {
+				return nil, err
+			}
+			pc.tauPos = pl.Tau
+			pc.lam = coords.Coef[k]
+			pc.block = block()
+			pc.slot = pl.Block.Start
+		}
+		t.own[hyper] = true
+		t.coefs = append(t.coefs, pc)
+	}
+	// the spreads follow the national part in the names; par holds them in
+	// the same order (tau_mu, then each coefficient's), so their slots are
+	// the layout's.
+	t.alloc()
+	return t, nil
+}
+
+func (t *PanelTarget) alloc() {
+	t.nat = make([]float64, len(t.names))
+	t.gn = make([]float64, len(t.names))
+	t.n, t.w = make([][]float64, t.G), make([][]float64, t.G)
+	for g := range t.n {
+		t.n[g], t.w[g] = make([]float64, t.T), make([]float64, t.T)
+	}
+	t.sw, t.gS = make([]float64, t.G), make([]float64, t.G)
+	t.inter.alloc(t.G)
+}
+
+// natSlot returns the position in a draw of par[i].
+func (t *PanelTarget) natSlot(i int) int {
+	nb := t.lay.base.Len()
+	if i < nb {
+		return i
+	}
+	// spreads: tau_mu, then each coefficient's, as in the layout
+	if i == nb {
+		return t.lay.tauMu
+	}
+	return t.lay.coefs[i-nb-1].Tau
+}
+
+// Dim returns the number of free (sampled) parameters.
+func (t *PanelTarget) Dim() int { return t.dim }
+
+// Names returns the constrained parameter names.
+func (t *PanelTarget) Names() []string { return t.names }
+
+// Panel returns the panel the target was compiled from.
+func (t *PanelTarget) Panel() *Panel { return t.p }
+
+// Clone returns an independent copy with its own scratch buffers.
+func (t *PanelTarget) Clone() mcmc.Target {
+	c := *t
+	c.chans = make([]*panelChannel, len(t.chans))
+	for i, ch := range t.chans {
+		c.chans[i] = ch.clone()
+	}
+	c.coefs = make([]*panelCoef, len(t.coefs))
+	for i, pc := range t.coefs {
+		d := *pc
+		d.v, d.g = make([]float64, t.G), make([]float64, t.G)
+		if pc.ch != nil {
+			for j, ch := range t.chans {
+				if ch == pc.ch {
+					d.ch = c.chans[j]
+				}
+			}
+		}
+		c.coefs[i] = &d
+	}
+	in := *t.inter
+	c.inter = &in
+	c.alloc()
+	return &c
+}
+
+// LogProbGrad returns the log posterior density at x (up to a constant) and
+// writes its gradient into grad.
+func (t *PanelTarget) LogProbGrad(grad, x []float64) float64 {
+	if len(x) != t.dim || len(grad) != t.dim {
+		panic("model: dimension mismatch")
+	}
+	return t.eval(grad, x)
+}
+
+// LogProb returns the log posterior density at x.
+func (t *PanelTarget) LogProb(x []float64) float64 {
+	if len(x) != t.dim {
+		panic("model: dimension mismatch")
+	}
+	return t.eval(nil, x)
+}
+
+// decode computes the natural values: the scalar parameters, each
+// channel's transformed series, the coefficients per region and the
+// intercepts per region. It returns false where the density is not
+// defined.
+func (t *PanelTarget) decode(x []float64, grad bool) bool {
+	nat := t.nat
+	for i := range t.par {
+		nat[t.natSlot(i)] = t.par[i].value(x)
+	}
+	for i := range t.par {
+		if notFinite(nat[t.natSlot(i)]) {
+			return false
+		}
+	}
+	ok := true
+	for _, c := range t.chans {
+		ok = c.prepare(nat, grad) && ok
+	}
+	if !ok {
+		return false
+	}
+	for _, c := range t.coefs {
+		if !c.values(nat, x) {
+			return false
+		}
+	}
+	// S_g, the mean of region g's predictor without its intercept
+	for g := 0; g < t.G; g++ {
+		s := 0.0
+		for _, r := range t.regs {
+			s += nat[r.k] * r.bar[g]
+		}
+		for _, c := range t.coefs {
+			if c.ch == nil {
+				s += c.v[g] * c.bar[g]
+			} else {
+				s += c.v[g] * c.ch.series[g].hbar
+			}
+		}
+		t.inter.s[g] = s
+	}
+	return t.inter.values(nat, x)
+}
+
+func (t *PanelTarget) eval(grad, x []float64) float64 {
+	if !t.decode(x, grad != nil) {
+		return math.Inf(-1)
+	}
+	nat, gn := t.nat, t.gn
+	clear(gn)
+	// linear predictor, region by region
+	for g := 0; g < t.G; g++ {
+		n := t.n[g]
+		m := t.inter.v[g]
+		for i := range n {
+			n[i] = m
+		}
+		for _, r := range t.regs {
+			b := nat[r.k]
+			for i, v := range r.x[g] {
+				n[i] += b * v
+			}
+		}
+		for _, c := range t.coefs {
+			b := c.v[g]
+			var h []float64
+			if c.ch == nil {
+				h = c.q[g]
+			} else {
+				h = c.ch.series[g].response()
+			}
+			for i, v := range h {
+				n[i] += b * v
+			}
+		}
+	}
+	// likelihood
+	sigma := nat[t.sigma]
+	inv2 := 1 / (sigma * sigma)
+	ss := 0.0
+	for g := 0; g < t.G; g++ {
+		sw := 0.0
+		mask := t.mask[g]
+		w := t.w[g]
+		for i, y := range t.y[g] {
+			if mask != nil && mask[i] {
+				w[i] = 0
+				continue
+			}
+			e := y - t.n[g][i]
+			ss += e * e
+			w[i] = e * inv2
+			sw += w[i]
+		}
+		t.sw[g] = sw
+	}
+	lp := -float64(t.nObs)*math.Log(sigma) - 0.5*ss*inv2
+	gn[t.sigma] += -float64(t.nObs)/sigma + ss*inv2/sigma
+	// priors of the shared, hyper and spread parameters (the intercept's
+	// hyperparameter: on mu, a natural value)
+	for i := range t.par {
+		p := &t.par[i]
+		if p.free < 0 {
+			continue
+		}
+		k := t.natSlot(i)
+		l, d := p.prior.LogPdf(nat[k])
+		lp += l
+		gn[k] += d
+	}
+	if grad == nil {
+		lp += t.inter.prior(nat, nil)
+		for _, c := range t.coefs {
+			lp += c.prior(nat, nil, nil)
+		}
+		return t.finish(nil, lp)
+	}
+	// natural gradients from the likelihood
+	for _, r := range t.regs {
+		s := 0.0
+		for g := 0; g < t.G; g++ {
+			for i, v := range r.x[g] {
+				s += t.w[g][i] * v
+			}
+		}
+		gn[r.k] += s
+	}
+	for _, c := range t.coefs {
+		for g := 0; g < t.G; g++ {
+			var h []float64
+			if c.ch == nil {
+				h = c.q[g]
+			} else {
+				h = c.ch.series[g].response()
+			}
+			s := 0.0
+			for i, v := range h {
+				s += t.w[g][i] * v
+			}
+			c.g[g] = s
+		}
+		if c.ch != nil {
+			c.ch.backward(gn, c.v, t.w)
+		}
+	}
+	// the intercepts: their hierarchy, then the shear back to what S_g
+	// depends on
+	lp += t.inter.prior(nat, gn)
+	t.inter.backward(grad, nat, gn, t.sw, t.gS)
+	for g, gs := range t.gS {
+		if gs == 0 {
+			continue
+		}
+		for _, r := range t.regs {
+			gn[r.k] += gs * r.bar[g]
+		}
+		for _, c := range t.coefs {
+			if c.ch == nil {
+				c.g[g] += gs * c.bar[g]
+				continue
+			}
+			s := &c.ch.series[g]
+			c.g[g] += gs * s.hbar
+			if !c.ch.linear {
+				b := c.v[g] * gs
+				gn[c.ch.k[1]] += b * s.hlbar
+				gn[c.ch.k[2]] += b * s.hkbar
+				gn[c.ch.k[3]] += b * s.hsbar
+			}
+		}
+	}
+	// the coefficients' hierarchies, through to the sampling coordinates
+	for _, c := range t.coefs {
+		lp += c.prior(nat, gn, grad)
+	}
+	return t.finish(grad, lp)
+}
+
+// finish adds the per-parameter transforms' log-Jacobians and, unless grad
+// is nil, the chain rule for the parameters no hierarchy term owns.
+func (t *PanelTarget) finish(grad []float64, lp float64) float64 {
+	if notFinite(lp) {
+		return math.Inf(-1)
+	}
+	nat, gn := t.nat, t.gn
+	for i := range t.par {
+		p := &t.par[i]
+		if p.free < 0 || t.own[i] {
+			continue
+		}
+		k := t.natSlot(i)
+		if grad != nil {
+			grad[p.free] = p.chainGrad(gn[k], nat[k])
+		}
+		if p.sup != Real {
+			lp += p.logJac(nat[k])
+		}
+	}
+	for _, c := range t.coefs {
+		lp = c.finish(grad, nat, gn, lp)
+	}
+	if grad != nil {
+		for _, c := range t.coefs {
+			if c.ch != nil && c.rescale {
+				c.ch.pullback(grad, nat, c.gref)
+			}
+		}
+	}
+	return lp
+}
+
+// Constrain writes the DESIGN.md parameter values at the unconstrained x
+// into dst (len(Names())) and returns it.
+func (t *PanelTarget) Constrain(dst, x []float64) []float64 {
+	if dst == nil {
+		dst = make([]float64, len(t.names))
+	}
+	t.decode(x, false)
+	copy(dst, t.nat)
+	if !t.inter.pooled {
+		copy(dst[t.lay.mu.Start:], t.inter.v)
+	} else {
+		dst[t.inter.mu] = t.inter.v[0]
+	}
+	for _, c := range t.coefs {
+		if !c.pooled {
+			copy(dst[c.slot:], c.v)
+		}
+	}
+	return dst
+}
+
+// panelReg is a shared regressor over the regions: coef * x[g][t] (trend,
+// a season, a control).
+type panelReg struct {
+	k   int         // position of coef
+	x   [][]float64 // [region][week]
+	bar []float64   // mean_t x[g][t]: its part of S_g
+}
+
+// panelSeries is one region's series of a channel: its spend and, unless
+// the channel is linear, its response with derivatives and their means.
+type panelSeries struct {
+	x                         []float64
+	a, da, h, hl, hk, hs      []float64
+	hbar, hlbar, hkbar, hsbar float64
+}
+
+func (s *panelSeries) response() []float64 {
+	if s.h == nil {
+		return s.x
+	}
+	return s.h
+}
+
+// panelChannel is a media channel with transforms shared by the regions:
+// H(adstock(x[g]; lam); K, S) in region g. Its coefficients are a
+// panelCoef's; like the national channel it rescales the hyper
+// coefficient by href = H(abar; K, S), the response at the regions' mean
+// scaled spend (doc.go).
+type panelChannel struct {
+	k            [4]int // coef, lam, K, S
+	kFree, sFree int
+	linear       bool
+	abar         float64
+	series       []panelSeries
+	href         float64
+	hrefK, hrefS float64
+}
+
+func (c *panelChannel) clone() *panelChannel {
+	d := *c
+	d.series = append([]panelSeries(nil), c.series...)
+	if !c.linear {
+		for g := range d.series {
+			s := &d.series[g]
+			T := len(s.x)
+			s.a, s.da = make([]float64, T), make([]float64, T)
+			s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
+		}
+	}
+	return &d
+}
+
+// prepare computes every region's response (with derivatives when grad)
+// and href.
+func (c *panelChannel) prepare(nat []float64, grad bool) bool {
+	if c.linear {
+		c.href, c.hrefK, c.hrefS = c.abar, 0, 0
+		return true
+	}
+	lam, k, s := nat[c.k[1]], nat[c.k[2]], nat[c.k[3]]
+	for g := range c.series {
+		r := &c.series[g]
+		T := float64(len(r.x))
+		if grad {
+			transform.AdstockGrad(r.a, r.da, r.x, lam)
+			sh, shl, shk, shs := hillSeries(r.h, r.hl, r.hk, r.hs, r.a, r.da, k, s)
+			r.hbar, r.hlbar, r.hkbar, r.hsbar = sh/T, shl/T, shk/T, shs/T
+			continue
+		}
+		transform.Adstock(r.a, r.x, lam)
+		sh := 0.0
+		for i, a := range r.a {
+			r.h[i] = transform.Hill(a, k, s)
+			sh += r.h[i]
+		}
+		r.hbar = sh / T
+	}
+	if grad {
+		c.href, _, c.hrefK, c.hrefS = transform.HillGrad(c.abar, k, s)
+	} else {
+		c.href = transform.Hill(c.abar, k, s)
+	}
+	return c.href > 0 && !math.IsNaN(c.href)
+}
+
+// backward adds the likelihood's gradient in lam, K and S given the
+// coefficient per region b and w[g][t] = d lp/d n[g][t].
+func (c *panelChannel) backward(gn, b []float64, w [][]float64) {
+	if c.linear {
+		return
+	}
+	var gl, gk, gs float64
+	for g := range c.series {
+		r := &c.series[g]
+		var sl, sk, ss float64
+		for i, wi := range w[g] {
+			sl += wi * r.hl[i]
+			sk += wi * r.hk[i]
+			ss += wi * r.hs[i]
+		}
+		gl += b[g] * sl
+		gk += b[g] * sk
+		gs += b[g] * ss
+	}
+	gn[c.k[1]] += gl
+	gn[c.k[2]] += gk
+	gn[c.k[3]] += gs
+}
+
+// pullback adds href's dependence on K and S: gref = d lp / d log href.
+func (c *panelChannel) pullback(grad, nat []float64, gref float64) {
+	if c.linear {
+		return
+	}
+	if c.kFree >= 0 {
+		grad[c.kFree] += gref * c.hrefK / c.href * nat[c.k[2]]
+	}
+	if c.sFree >= 0 {
+		grad[c.sFree] += gref * c.hrefS / c.href * nat[c.k[3]]
+	}
+}
+
+// panelCoef is a coefficient that varies by region, gamma or a channel's:
+// theta[g] = theta exp(tau eta[g]), eta ~ Normal(0, 1), so log theta[g] ~
+// Normal(log theta, tau). With rescale (a channel whose hyperparameter is
+// sampled) it works on the log of the contribution at mean spend,
+// l[g] = log(theta[g] href), a shift that leaves the hierarchy unchanged.
+// Region g's sampling coordinate v[g] is partially non-centred with weight
+// lam[g] (panelcoords.go):
+//
+//	l[g] = (1 - lam[g]) lu + tau^(1 - lam[g]) v[g],  lu = log(theta href),
+//
+// whose log-Jacobian is (1 - lam[g]) log tau. With one region (pooled)
+// theta[1] is theta.
+type panelCoef struct {
+	hyper, free int // position and sampling coordinate of theta
+	tauPos      int // draw position of the spread tau, -1 when pooled
+	block, slot int // first sampling coordinate and draw position of theta[g]
+	lam         []float64
+	pooled      bool
+	rescale     bool
+	ch          *panelChannel // nil for gamma
+	q           [][]float64   // gamma's regressor per region (queries)
+	bar         []float64     // gamma's: mean_t q[g][t]
+	v, g        []float64     // theta[g] and d lp/d theta[g]
+	x           []float64     // the point being evaluated (not owned)
+	lu          float64
+	gref        float64 // d lp / d log href
+	glu         float64
+}
+
+// values sets theta (dividing by href when rescaled) and theta[g].
+func (c *panelCoef) values(nat, x []float64) bool {
+	c.x = x
+	href := 1.0
+	if c.rescale {
+		href = c.ch.href
+		nat[c.hyper] /= href
+	}
+	th := nat[c.hyper]
+	c.lu = math.Log(th * href)
+	if c.pooled {
+		for g := range c.v {
+			c.v[g] = th
+		}
+		return true
+	}
+	tau := nat[c.tauPos]
+	for g := range c.v {
+		l := (1-c.lam[g])*c.lu + math.Pow(tau, 1-c.lam[g])*x[c.block+g]
+		c.v[g] = math.Exp(l) / href
+		if notFinite(c.v[g]) || c.v[g] == 0 {
+			return false
+		}
+	}
+	return true
+}
+
+// prior returns the hierarchy's log density of log theta[g] given theta
+// and tau plus the coordinates' log-Jacobians and, unless grad is nil,
+// pulls the gradient of theta[g] (c.g, from the data) back to v[g] (into
+// grad), tau (into gn) and lu and log href (kept for finish).
+func (c *panelCoef) prior(nat, gn, grad []float64) float64 {
+	c.gref, c.glu = 0, 0
+	if c.pooled {
+		if grad != nil {
+			s := 0.0
+			for _, v := range c.g {
+				s += v
+			}
+			gn[c.hyper] += s
+		}
+		return 0
+	}
+	tau := nat[c.tauPos]
+	ltau := math.Log(tau)
+	lth := math.Log(nat[c.hyper])
+	lp, gtau := 0.0, 0.0
+	for g, v := range c.v {
+		d := math.Log(v) - lth // l[g] - lu
+		z := d / tau
+		lam := c.lam[g]
+		lp += -0.5*z*z - lam*ltau // -log tau from the density, (1-lam) log tau the Jacobian
+		if grad == nil {
+			continue
+		}
+		glik := c.g[g] * v // d lp / d log theta[g] from the data
+		gl := glik - z/tau
+		pw := math.Pow(tau, 1-lam)
+		grad[c.block+g] = gl * pw
+		c.glu += gl*(1-lam) + z/tau
+		gtau += gl*(1-lam)*pw/tau*c.x[c.block+g] + z*z/tau - lam/tau
+		c.gref -= glik
+	}
+	if grad != nil {
+		gn[c.tauPos] += gtau
+	}
+	return lp
+}
+
+// finish does the hyperparameter's chain rule: theta = exp(lu)/href with
+// log-Jacobian log theta.
+func (c *panelCoef) finish(grad, nat, gn []float64, lp float64) float64 {
+	if c.free < 0 {
+		return lp
+	}
+	th := nat[c.hyper]
+	lp += math.Log(th)
+	if grad != nil {
+		d := gn[c.hyper]*th + 1
+		grad[c.free] = d + c.glu
+		if c.rescale {
+			c.gref -= d
+		}
+	}
+	return lp
+}
+
+// panelIntercept holds the region intercepts, mu[g] ~ Normal(mu, tau_mu),
+// sampled with the same partial non-centring as panelCoef and a shear that
+// takes lam[g] times region g's predictor mean S_g off (unit Jacobian):
+//
+//	mu[g] = (1 - lam[g]) mu + tau^(1 - lam[g]) v[g] - lam[g] S_g.
+//
+// With lam[g] = 1, v[g] is region g's predictor mean, which the data pin
+// down, instead of an intercept that mirrors gamma. With one region
+// (pooled) mu[1] is mu, sampled as mu + S_1 like the national intercept.
+type panelIntercept struct {
+	mu, free int // position and sampling coordinate of mu
+	tauPos   int // draw position of tau_mu, -1 when pooled
+	block    int
+	lam      []float64
+	pooled   bool
+	v, s, gv []float64 // mu[g], S_g, d prior / d mu[g]
+	x        []float64
+}
+
+func (c *panelIntercept) alloc(G int) {
+	c.v, c.s, c.gv = make([]float64, G), make([]float64, G), make([]float64, G)
+}
+
+func (c *panelIntercept) values(nat, x []float64) bool {
+	c.x = x
+	if c.pooled {
+		if c.free >= 0 {
+			nat[c.mu] -= c.s[0] // the sampled m0 is mu + S_1
+		}
+		c.v[0] = nat[c.mu]
+		return true
+	}
+	mu, tau := nat[c.mu], nat[c.tauPos]
+	for g := range c.v {
+		lam := c.lam[g]
+		c.v[g] = (1-lam)*mu + math.Pow(tau, 1-lam)*x[c.block+g] - lam*c.s[g]
+	}
+	return true
+}
+
+// prior returns the intercepts' hierarchy and Jacobians; with gn it adds
+// their gradients in mu and tau_mu and keeps d/d mu[g] for backward.
+func (c *panelIntercept) prior(nat, gn []float64) float64 {
+	if c.pooled {
+		return 0
+	}
+	mu, tau := nat[c.mu], nat[c.tauPos]
+	ltau := math.Log(tau)
+	lp, gmu, gtau := 0.0, 0.0, 0.0
+	for g, v := range c.v {
+		z := (v - mu) / tau
+		lp += -0.5*z*z - c.lam[g]*ltau
+		c.gv[g] = -z / tau
+		gmu += z / tau
+		gtau += z*z/tau - c.lam[g]/tau
+	}
+	if gn != nil {
+		gn[c.mu] += gmu
+		gn[c.tauPos] += gtau
+	}
+	return lp
+}
+
+// backward pulls d lp/d mu[g] (the likelihood's sw[g] plus the prior's)
+// back to v[g] (into grad), mu and tau_mu (into gn), and writes
+// gS[g] = d lp/d S_g for the terms S_g depends on.
+func (c *panelIntercept) backward(grad, nat, gn, sw, gS []float64) {
+	if c.pooled {
+		gn[c.mu] += sw[0]
+		gS[0] = 0
+		if c.free >= 0 {
+			gS[0] = -gn[c.mu]
+		}
+		return
+	}
+	tau := nat[c.tauPos]
+	gmu, gtau := 0.0, 0.0
+	for g := range c.v {
+		lam := c.lam[g]
+		G := sw[g] + c.gv[g]
+		pw := math.Pow(tau, 1-lam)
+		grad[c.block+g] = G * pw
+		gmu += G * (1 - lam)
+		gtau += G * (1 - lam) * pw / tau * c.x[c.block+g]
+		gS[g] = -lam * G
+	}
+	gn[c.mu] += gmu
+	gn[c.tauPos] += gtau
+}

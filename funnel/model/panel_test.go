@@ -1,0 +1,286 @@
+package model
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/mcmc/mcmctest"
+)
+
+// testPanel returns a panel of G regions of T weeks built by build (Demand,
+// Outcome or Naive), each region's data from testScaled with its own seed;
+// with dark, region 1 never runs the first upper channel.
+func testPanel(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, error), dark bool) *Panel {
+	t.Helper()
+	p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
+	for g := 0; g < G; g++ {
+		sc := testScaled(T, uint64(20+g))
+		if dark && g == 1 {
+			for i := range sc.Upper[0] {
+				sc.Upper[0][i] = 0
+			}
+		}
+		st, err := build(sc, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		p.Stages = append(p.Stages, st)
+		p.Regions = append(p.Regions, fmt.Sprintf("r%d", g+1))
+	}
+	p.Name = p.Stages[0].Name
+	return p
+}
+
+// randomCoords returns weights drawn uniformly in [0, 1], with some at the
+// ends.
+func randomCoords(p *Panel, seed uint64) *Coords {
+	rng := rand.New(rand.NewPCG(seed, 3))
+	c := p.Uniform(0)
+	pick := func() float64 {
+		switch rng.IntN(4) {
+		case 0:
+			return 0
+		case 1:
+			return 1
+		}
+		return rng.Float64()
+	}
+	for g := range c.Mu {
+		c.Mu[g] = pick()
+	}
+	for k := range c.Coef {
+		for g := range c.Coef[k] {
+			c.Coef[k][g] = pick()
+		}
+	}
+	return c
+}
+
+type panelBuild struct {
+	name  string
+	build func(*Scaled, Options) (*Stage, error)
+}
+
+var panelBuilds = []panelBuild{{"demand", Demand}, {"outcome", Outcome}, {"naive", Naive}}
+
+// TestPanelGradient checks the whole panel density's gradient against
+// central finite differences, for each stage, with mixed coordinates, a
+// region that never runs a channel, and one region (pooled), and that an
+// evaluation allocates nothing.
+func TestPanelGradient(t *testing.T) {
+	for _, b := range panelBuilds {
+		for _, G := range []int{1, 4} {
+			p := testPanel(t, G, 30, b.build, G > 1)
+			p.Coords = randomCoords(p, uint64(G))
+			tg, err := p.Target()
+			if err != nil {
+				t.Fatal(err)
+			}
+			t.Run(fmt.Sprintf("%s G=%d", b.name, G), func(t *testing.T) {
+				r := mcmctest.CheckGradient(t, tg, 1e-5, &mcmctest.GradSettings{Seed: 5, Points: 6, Radius: 1})
+				if r.Checked < 4 {
+					t.Fatalf("only %d points had a finite density", r.Checked)
+				}
+				x := make([]float64, tg.Dim())
+				for i := range x {
+					x[i] = 0.1 * float64(i%5)
+				}
+				mcmctest.CheckNoAlloc(t, tg, x)
+			})
+		}
+	}
+}
+
+// panelReference is the log posterior density of the region model on
+// DESIGN.md's parameters, written plainly from the panel's layout and each
+// region's national stage (Stage.Predict): the priors of the shared and
+// hyper parameters, mu[g] ~ Normal(mu, tau_mu), theta[c,g] ~
+// LogNormal(log theta[c], tau) (density in theta[c,g]), and each region's
+// weekly normal likelihood. Constants dropped.
+func panelReference(p *Panel, v []float64) float64 {
+	l := p.Layout()
+	st := p.Stages[0]
+	lp := 0.0
+	base := st.Names()
+	prior := map[string]Prior{st.Intercept: st.MuPrior, st.Sigma: st.SigmaPrior}
+	for _, r := range st.Regressors {
+		prior[r.Name] = r.Prior
+	}
+	for _, c := range st.Channels {
+		for _, q := range c.Params {
+			prior[q.Name] = q.Prior
+		}
+	}
+	for i, n := range base {
+		d, _ := prior[n].LogPdf(v[i])
+		lp += d
+	}
+	if l.TauMu() >= 0 {
+		tmu := v[l.TauMu()]
+		d, _ := p.TauMu.LogPdf(tmu)
+		lp += d
+		mu := v[l.Base().InterceptSlot()]
+		for g := range p.Regions {
+			z := (v[l.Intercepts().Start+g] - mu) / tmu
+			lp += -0.5*z*z - math.Log(tmu)
+		}
+		for _, c := range l.Coefs() {
+			tau := v[c.Tau]
+			d, _ := p.TauCoef.LogPdf(tau)
+			lp += d
+			for g := range p.Regions {
+				th := v[c.Block.Start+g]
+				z := (math.Log(th) - math.Log(v[c.Hyper])) / tau
+				lp += -0.5*z*z - math.Log(tau) - math.Log(th)
+			}
+		}
+	}
+	for g, sg := range p.Stages {
+		rv := l.Region(nil, v, g)
+		n := sg.Predict(nil, rv)
+		sigma := rv[sg.Layout().SigmaSlot()]
+		for i, y := range sg.Y {
+			e := (y - n[i]) / sigma
+			lp += -0.5*e*e - math.Log(sigma)
+		}
+	}
+	return lp
+}
+
+// logDetJacobian returns log |det dC/dx| of the target's Constrain at x, by
+// central differences.
+func logDetJacobian(tg *PanelTarget, x []float64) float64 {
+	n := tg.Dim()
+	J := mat.NewDense(n, n, nil)
+	xp := append([]float64(nil), x...)
+	const h = 1e-6
+	for j := 0; j < n; j++ {
+		xp[j] = x[j] + h
+		up := tg.Constrain(nil, xp)
+		xp[j] = x[j] - h
+		dn := tg.Constrain(nil, xp)
+		xp[j] = x[j]
+		for i := 0; i < n; i++ {
+			J.Set(i, j, (up[i]-dn[i])/(2*h))
+		}
+	}
+	var lu mat.LU
+	lu.Factorize(J)
+	ld, _ := lu.LogDet()
+	return ld
+}
+
+// TestPanelSamePosterior checks that the sampling coordinates (any weights,
+// the shear, the rescaled coefficients) leave the posterior on DESIGN.md's
+// parameters as written in panelReference: by the change of variables
+// formula, lp(x) - log|det dC/dx| - reference(C(x)) must be one constant
+// over points and coordinates.
+func TestPanelSamePosterior(t *testing.T) {
+	for _, c := range []struct {
+		b panelBuild
+		G int
+	}{{panelBuilds[0], 3}, {panelBuilds[1], 3}, {panelBuilds[1], 1}} {
+		b := c.b
+		p := testPanel(t, c.G, 25, b.build, c.G > 1)
+		rng := rand.New(rand.NewPCG(9, 9))
+		var c0 float64
+		for rep := 0; rep < 6; rep++ {
+			p.Coords = randomCoords(p, uint64(rep))
+			if rep == 0 {
+				p.Coords = p.Uniform(1)
+			}
+			tg, err := p.Target()
+			if err != nil {
+				t.Fatal(err)
+			}
+			x := make([]float64, tg.Dim())
+			for i := range x {
+				x[i] = rng.Float64() - 0.5
+			}
+			v := tg.Constrain(nil, x)
+			got := tg.LogProb(x) - logDetJacobian(tg, x) - panelReference(p, v)
+			if rep == 0 {
+				c0 = got
+				continue
+			}
+			if math.Abs(got-c0) > 1e-5*math.Max(1, math.Abs(c0)) {
+				t.Errorf("%s rep %d: lp - log|J| - reference = %.9g, first point %.9g", b.name, rep, got, c0)
+			}
+		}
+	}
+}
+
+// BenchmarkPanelLogProbGrad is the outcome panel's gradient at 10, 40 and
+// 160 regions of 156 weeks (two upper channels, one paid search, one
+// control): the cost per region-week should stay flat, with no allocation.
+func BenchmarkPanelLogProbGrad(b *testing.B) {
+	for _, G := range []int{10, 40, 160} {
+		b.Run(fmt.Sprintf("regions=%d", G), func(b *testing.B) {
+			p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
+			for g := 0; g < G; g++ {
+				st, _ := Outcome(testScaled(156, uint64(20+g)), Options{})
+				p.Stages = append(p.Stages, st)
+				p.Regions = append(p.Regions, fmt.Sprintf("r%d", g+1))
+			}
+			p.Coords = p.Uniform(0.5)
+			tg, err := p.Target()
+			if err != nil {
+				b.Fatal(err)
+			}
+			x := make([]float64, tg.Dim())
+			for i := range x {
+				x[i] = 0.1 * float64(i%5)
+			}
+			g := make([]float64, tg.Dim())
+			b.ReportAllocs()
+			for b.Loop() {
+				tg.LogProbGrad(g, x)
+			}
+			b.ReportMetric(float64(b.Elapsed().Nanoseconds())/float64(b.N)/float64(G*156), "ns/region-week")
+		})
+	}
+}
+
+// TestPanelRegionDraw checks that a region's national draw holds the
+// shared values and that region's intercept and coefficients, read by
+// meaning through each layout.
+func TestPanelRegionDraw(t *testing.T) {
+	p := testPanel(t, 3, 20, Outcome, false)
+	l := p.Layout()
+	v := make([]float64, l.Len())
+	for i := range v {
+		v[i] = float64(i)
+	}
+	for g := range p.Regions {
+		r := l.Region(nil, v, g)
+		rl := p.Stages[g].Layout()
+		pr := rl.View(r)
+		if got, want := pr.Intercept(), v[l.Intercepts().Start+g]; got != want {
+			t.Errorf("region %d intercept %v, want %v", g, got, want)
+		}
+		if got, want := pr.Sigma(), v[l.Base().SigmaSlot()]; got != want {
+			t.Errorf("region %d sigma %v, want %v", g, got, want)
+		}
+		for _, c := range l.Coefs() {
+			want := v[c.Block.Start+g]
+			if c.Column == "" {
+				if pr.Gamma() != want {
+					t.Errorf("region %d gamma %v, want %v", g, pr.Gamma(), want)
+				}
+				continue
+			}
+			m, _ := pr.Channel(c.Column)
+			if m.Coef != want {
+				t.Errorf("region %d %s coefficient %v, want %v", g, c.Name, m.Coef, want)
+			}
+			cs, _ := rl.Channel(c.Column)
+			if r[cs.Lam] != v[cs.Lam] {
+				t.Errorf("region %d %s retention not shared", g, c.Name)
+			}
+		}
+	}
+}

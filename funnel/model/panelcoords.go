@@ -1,0 +1,270 @@
+package model
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/stat"
+	"spillway/funnel/transform"
+)
+
+// Coords are a panel's sampling coordinates: for each hierarchical block
+// (the intercepts, then gamma and each channel's coefficient in the
+// panel's order) and region, the weight lam in [0, 1] of its partially
+// non-centred coordinate (panelCoef, panelIntercept): 1 is centred (the
+// sampler moves the region's own value), 0 non-centred (it moves eta). Any
+// weights give the same posterior on DESIGN.md's parameters (the
+// Jacobians are in the density); they only change how easily NUTS moves.
+//
+// For a normal likelihood that pins a region's value to s and a
+// population spread tau, the weight lam = tau^2 / (tau^2 + s^2) makes the
+// region's coordinate independent of the population mean a posteriori
+// (Papaspiliopoulos, Roberts and Sköld 2007, "A general framework for the
+// parametrization of hierarchical models", Statistical Science 22(1),
+// section 3; the tau^(1-lam) scaling as in Gorinova, Moore and Hoffman
+// 2020, "Automatic reparameterisation of probabilistic programs", ICML):
+// centred where the data speak, non-centred where the prior does.
+type Coords struct {
+	Mu   []float64   // per region, the intercepts
+	Coef [][]float64 // [coefficient][region]
+	// Estimates behind the weights (ChooseCoordinates): the spreads implied
+	// by the data (tau_mu; each coefficient's on the log scale) and each
+	// region's standard error (log scale for coefficients; +Inf where the
+	// region never runs the channel).
+	TauMu   float64
+	TauCoef []float64
+	SEMu    []float64
+	SECoef  [][]float64
+}
+
+// Uniform returns coordinates with every weight lam: 1 centred, 0
+// non-centred.
+func (p *Panel) Uniform(lam float64) *Coords {
+	G := len(p.Regions)
+	fill := func() []float64 {
+		x := make([]float64, G)
+		for i := range x {
+			x[i] = lam
+		}
+		return x
+	}
+	c := &Coords{Mu: fill()}
+	for range p.hier() {
+		c.Coef = append(c.Coef, fill())
+	}
+	return c
+}
+
+// Spread floors: below them the moment estimate cannot be told from zero
+// with weekly data of a few years, and the weights would all be 0.
+const (
+	minTauMu   = 0.01 // scaled units
+	minTauCoef = 0.02 // log scale
+)
+
+// ChooseCoordinates picks the weights of Coords from the data before any
+// sampling, so the target is fixed: per region, least squares of the
+// stage's response on its regressors with every channel's transform at the
+// centre of its prior (retention 0.5, half-saturation 1, shape 2) gives each
+// coefficient's estimate and standard error s[g]; the method of moments
+// across regions, var(estimates) - mean(s^2), gives the spread tau the data
+// imply (on the log scale for a coefficient, dividing by the
+// precision-weighted mean estimate); lam[g] = tau^2 / (tau^2 + s[g]^2) at a
+// low plausible tau, rounded to 0 or 1 (see weight below). A
+// region's intercept, given the slopes, is pinned to its residual sd over
+// sqrt(weeks); a channel a region never runs has s = +Inf (lam 0). A
+// failing least squares (too few weeks) gives centred weights.
+func ChooseCoordinates(p *Panel) (*Coords, error) {
+	c := p.Uniform(1)
+	if p.pooled() {
+		return c, nil
+	}
+	hier := p.hier()
+	G := len(p.Regions)
+	muHat, muSE := make([]float64, G), make([]float64, G)
+	c.SEMu = make([]float64, G)
+	est := make([][]float64, len(hier))
+	se := make([][]float64, len(hier))
+	for k := range hier {
+		est[k], se[k] = make([]float64, G), make([]float64, G)
+	}
+	for g, st := range p.Stages {
+		cols := [][]float64{}
+		ones := make([]float64, len(st.Y))
+		for i := range ones {
+			ones[i] = 1
+		}
+		cols = append(cols, ones)
+		hierCol := make([]int, len(hier)) // column of each hier coefficient, -1 if absent
+		for _, r := range st.Regressors {
+			if r.Name != QueryCoef {
+				cols = append(cols, r.X)
+			}
+		}
+		for k, h := range hier {
+			var x []float64
+			if h.reg >= 0 {
+				x = st.Regressors[h.reg].X
+			} else {
+				ch := st.Channels[h.channel]
+				if ch.Linear {
+					x = ch.X
+				} else {
+					a := transform.Adstock(nil, ch.X, 0.5)
+					for i, v := range a {
+						a[i] = transform.Hill(v, 1, 2)
+					}
+					x = a
+				}
+			}
+			if _, sd := stat.MeanSD(x); !(sd > 0) {
+				hierCol[k] = -1
+				continue
+			}
+			hierCol[k] = len(cols)
+			cols = append(cols, x)
+		}
+		b, cov, resSD, ok := leastSquares(cols, st.Y, st.Mask)
+		for k := range hier {
+			est[k][g], se[k][g] = math.NaN(), math.Inf(1)
+			if ok && hierCol[k] >= 0 {
+				est[k][g], se[k][g] = b[hierCol[k]], math.Sqrt(cov[hierCol[k]])
+			}
+		}
+		if !ok {
+			return p.Uniform(1), nil
+		}
+		muHat[g], muSE[g] = b[0], math.Sqrt(cov[0])
+		n := 0
+		for i := range st.Y {
+			if st.Mask == nil || !st.Mask[i] {
+				n++
+			}
+		}
+		c.SEMu[g] = resSD / math.Sqrt(float64(n))
+	}
+	// The spread is estimated from G regions: a low plausible value, the
+	// estimate times 1 - 1.64/sqrt(2(G-1)) (the one-sided 95% bound of a
+	// normal sd from G values, by its standard error sd/sqrt(2(G-1))),
+	// guards against centring a block whose spread may be smaller than
+	// its regions' standard errors, the funnel a centred block falls into.
+	// The weights are then rounded to 0 or 1: intermediate weights made
+	// the sampler take more steps than either end on simulated panels
+	// (the tau^(1-lam) scaling bends the coordinate with tau).
+	low := math.Max(1-1.64/math.Sqrt(2*float64(G-1)), 0.25)
+	weight := func(tau float64, s []float64) []float64 {
+		out := make([]float64, len(s))
+		t := tau * low
+		for g, sg := range s {
+			out[g] = math.Round(t * t / (t*t + sg*sg))
+			if math.IsInf(sg, 1) {
+				out[g] = 0
+			}
+		}
+		return out
+	}
+	c.TauMu = math.Max(momentSpread(muHat, muSE), minTauMu)
+	c.Mu = weight(c.TauMu, c.SEMu)
+	c.TauCoef = make([]float64, len(hier))
+	c.SECoef = make([][]float64, len(hier))
+	for k := range hier {
+		// precision-weighted mean estimate: the log scale's unit
+		var num, den float64
+		for g := range est[k] {
+			if s := se[k][g]; !math.IsInf(s, 1) && s > 0 {
+				num += est[k][g] / (s * s)
+				den += 1 / (s * s)
+			}
+		}
+		slog := make([]float64, G)
+		for g := range slog {
+			slog[g] = math.Inf(1)
+		}
+		if den == 0 || num/den <= 0 {
+			// the data do not place the coefficient: non-centred everywhere
+			c.TauCoef[k], c.SECoef[k] = minTauCoef, slog
+			c.Coef[k] = weight(minTauCoef, slog)
+			continue
+		}
+		m := num / den
+		var e, s []float64
+		for g := range est[k] {
+			if !math.IsInf(se[k][g], 1) {
+				e, s = append(e, est[k][g]), append(s, se[k][g])
+				slog[g] = se[k][g] / m
+			}
+		}
+		c.TauCoef[k] = math.Max(momentSpread(e, s)/m, minTauCoef)
+		c.SECoef[k] = slog
+		c.Coef[k] = weight(c.TauCoef[k], slog)
+	}
+	return c, nil
+}
+
+// momentSpread returns the method-of-moments spread of the true values
+// behind estimates e with standard errors s: sqrt(max(var(e) - mean(s^2), 0)).
+func momentSpread(e, s []float64) float64 {
+	if len(e) < 2 {
+		return 0
+	}
+	_, sd := stat.MeanSD(e)
+	ms := 0.0
+	for _, v := range s {
+		ms += v * v
+	}
+	return math.Sqrt(math.Max(sd*sd-ms/float64(len(s)), 0))
+}
+
+// leastSquares regresses y on the columns over the weeks not masked and
+// returns the coefficients, their variances and the residual sd; ok is
+// false when the fit is singular or has no residual degrees of freedom.
+func leastSquares(cols [][]float64, y []float64, mask []bool) (b, vars []float64, resSD float64, ok bool) {
+	var rows []int
+	for i := range y {
+		if mask == nil || !mask[i] {
+			rows = append(rows, i)
+		}
+	}
+	n, p := len(rows), len(cols)
+	if n <= p {
+		return nil, nil, 0, false
+	}
+	X := mat.NewDense(n, p, nil)
+	Y := mat.NewVecDense(n, nil)
+	for r, i := range rows {
+		for j, c := range cols {
+			X.Set(r, j, c[i])
+		}
+		Y.SetVec(r, y[i])
+	}
+	var xtx mat.SymDense
+	xtx.SymOuterK(1, X.T())
+	var ch mat.Cholesky
+	if !ch.Factorize(&xtx) {
+		return nil, nil, 0, false
+	}
+	var xty, beta mat.VecDense
+	xty.MulVec(X.T(), Y)
+	if err := ch.SolveVecTo(&beta, &xty); err != nil {
+		return nil, nil, 0, false
+	}
+	var fit mat.VecDense
+	fit.MulVec(X, &beta)
+	rss := 0.0
+	for r := 0; r < n; r++ {
+		e := Y.AtVec(r) - fit.AtVec(r)
+		rss += e * e
+	}
+	s2 := rss / float64(n-p)
+	var inv mat.SymDense
+	if err := ch.InverseTo(&inv); err != nil {
+		return nil, nil, 0, false
+	}
+	b, vars = make([]float64, p), make([]float64, p)
+	for j := range b {
+		b[j] = beta.AtVec(j)
+		vars[j] = s2 * inv.At(j, j)
+	}
+	return b, vars, math.Sqrt(s2), true
+}

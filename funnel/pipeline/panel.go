@@ -1,0 +1,78 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/mediation"
+)
+
+// PanelFitted holds the three fits of a region panel (DESIGN.md "Region
+// panel").
+type PanelFitted struct {
+	Data   *model.PanelScaled
+	Panels [3]*model.Panel
+	Fits   [3]*mcmc.Fit
+	// Coords are the sampling coordinates each stage used (chosen from
+	// the data before sampling).
+	Coords [3]*model.Coords
+	// Wall is each stage's wall time in seconds.
+	Wall [3]float64
+}
+
+// FitPanel runs the region model's three stages (demand, outcome, naive)
+// with settings s, as Fit does for one series: chains in parallel, stages
+// one after another, stage k with seed s.Seed + k, a zero TargetAccept
+// meaning DefaultTargetAccept. hook may be nil.
+func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
+	panels, err := model.PanelStages(ps, o)
+	if err != nil {
+		return nil, err
+	}
+	f := &PanelFitted{Data: ps, Panels: panels}
+	for k, p := range panels {
+		if p.Coords == nil {
+			if p.Coords, err = model.ChooseCoordinates(p); err != nil {
+				return nil, fmt.Errorf("%s stage: %w", p.Name, err)
+			}
+		}
+		f.Coords[k] = p.Coords
+		tg, err := p.Target()
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
+		}
+		set := s
+		set.Seed = s.Seed + uint64(k)
+		if set.TargetAccept == 0 {
+			set.TargetAccept = DefaultTargetAccept
+		}
+		var done func()
+		if hook != nil {
+			set.Recorder, done = hook(p.Name)
+		}
+		t0 := time.Now()
+		fit, err := mcmc.Run(ctx, tg, &set)
+		if done != nil {
+			done()
+		}
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
+		}
+		f.Fits[k] = fit
+		f.Wall[k] = time.Since(t0).Seconds()
+	}
+	return f, nil
+}
+
+// Inputs pairs the fits' draws for the split by region.
+func (f *PanelFitted) Inputs() *mediation.PanelInputs {
+	in := &mediation.PanelInputs{Data: f.Data, Demand: f.Panels[0], Outcome: f.Panels[1], Naive: f.Panels[2],
+		DemandDraws: mediation.FromFit(f.Fits[0]), OutcomeDraws: mediation.FromFit(f.Fits[1])}
+	if f.Fits[2] != nil {
+		in.NaiveDraws = mediation.FromFit(f.Fits[2])
+	}
+	return in
+}

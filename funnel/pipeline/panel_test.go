@@ -1,0 +1,358 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/funnel/scenario"
+	"spillway/funnel/window"
+	"spillway/mediation"
+)
+
+// fitDiag is one stage's convergence in one line.
+type fitDiag struct {
+	stage                 string
+	wall                  float64
+	rhat, essBulk, essTai float64
+	worst                 string
+	div                   int
+	steps, step           float64 // mean leapfrog steps per draw and step size over chains
+}
+
+func (d fitDiag) String() string {
+	return fmt.Sprintf("%-8s wall %6.1f s  max R-hat %.3f  min bulk ESS %5.0f  min tail ESS %5.0f (worst %s)  divergences %d  steps/draw %.0f  step %.3g",
+		d.stage, d.wall, d.rhat, d.essBulk, d.essTai, d.worst, d.div, d.steps, d.step)
+}
+
+func diagnose(stage string, f *mcmc.Fit, wall float64) fitDiag {
+	d := fitDiag{stage: stage, wall: wall, essBulk: math.Inf(1), essTai: math.Inf(1)}
+	for _, s := range mcmc.Summarize(f) {
+		if s.Constant() {
+			continue
+		}
+		if s.Rhat > d.rhat {
+			d.rhat, d.worst = s.Rhat, s.Parameter
+		}
+		d.essBulk = math.Min(d.essBulk, s.ESSBulk)
+		d.essTai = math.Min(d.essTai, s.ESSTail)
+	}
+	for _, c := range f.Chains {
+		d.div += c.Stats.Divergences
+		d.steps += c.Stats.MeanLeapfrogs / float64(len(f.Chains))
+		d.step += c.Stats.StepSize / float64(len(f.Chains))
+	}
+	return d
+}
+
+// TestPanelOneRegion checks that the region model on one region is the
+// national model on that region: every parameter's posterior mean and
+// every effect's agree within their Monte Carlo error (4 MCSE of the
+// difference), fitting the same data both ways.
+func TestPanelOneRegion(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two full fits")
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: 1, Weeks: 104, Seed: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set := mcmc.Settings{Chains: 4, Warmup: 500, Draws: 500, Seed: 21}
+	pf, err := FitPanel(context.Background(), ps, model.Options{}, set, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	set.Seed = 77
+	nf, err := Fit(context.Background(), ps.Scaled[0], model.Options{}, set, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for k := range nf.Fits {
+		ns, pss := mcmc.Summarize(nf.Fits[k]), mcmc.Summarize(pf.Fits[k])
+		if len(ns) != len(pss) {
+			t.Fatalf("%s: %d national parameters, %d panel ones", StageNames[k], len(ns), len(pss))
+		}
+		t.Logf("%v", diagnose(StageNames[k], pf.Fits[k], pf.Wall[k]))
+		for i, a := range ns {
+			b := pss[i]
+			if a.Parameter != b.Parameter {
+				t.Fatalf("parameter %d: national %s, panel %s", i, a.Parameter, b.Parameter)
+			}
+			tol := 4 * math.Hypot(a.MCSEMean, b.MCSEMean)
+			if math.Abs(a.Mean-b.Mean) > tol {
+				t.Errorf("%s %s: national mean %.5g, panel %.5g, beyond 4 MCSE (%.3g)", StageNames[k], a.Parameter, a.Mean, b.Mean, tol)
+			}
+		}
+	}
+	// the effects through the region split against the national split
+	wins := window.Quarters(ps.Scaled[0].Weeks)[:1]
+	pr, err := mediation.SplitPanel(pf.Inputs(), wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	nr, err := mediation.Split(nf.Inputs(), wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for i, e := range nr.Effects {
+		p := pr.Total.Effects[i]
+		if p.Channel != e.Channel || p.Path != e.Path {
+			t.Fatalf("effect %d: %s %s against %s %s", i, p.Channel, p.Path, e.Channel, e.Path)
+		}
+		a, b := mediation.Summarise(e.Draws), mediation.Summarise(p.Draws)
+		// Monte Carlo error of a mean from about 1000 effective draws
+		tol := 4 * math.Hypot(sdOf(e.Draws), sdOf(p.Draws)) / math.Sqrt(1000)
+		if math.Abs(a.Mean-b.Mean) > tol {
+			t.Errorf("%s %s: national %.4g, panel %.4g (tolerance %.3g)", e.Channel, e.Path, a.Mean, b.Mean, tol)
+		}
+	}
+}
+
+func sdOf(x []float64) float64 {
+	m := 0.0
+	for _, v := range x {
+		m += v
+	}
+	m /= float64(len(x))
+	s := 0.0
+	for _, v := range x {
+		s += (v - m) * (v - m)
+	}
+	return math.Sqrt(s / float64(len(x)-1))
+}
+
+// TestPanelExplore fits a simulated panel and prints its convergence, for
+// measurements only: SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]] with
+// stages a string of stage numbers (012: demand, outcome, naive) and coords
+// chosen (the default), nc (every weight 0), c (every weight 1) or round
+// (the chosen weights rounded to 0 or 1).
+func TestPanelExplore(t *testing.T) {
+	spec := os.Getenv("SPILLWAY_PANEL")
+	if spec == "" {
+		t.Skip("set SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]]")
+	}
+	var v [4]int
+	rest := spec
+	for i := range v {
+		var part string
+		part, rest, _ = cut(rest, ",")
+		v[i], _ = strconv.Atoi(part)
+	}
+	stages, coords, _ := cut(rest, ",")
+	if stages == "" {
+		stages = "012"
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: v[0], Weeks: v[1], Seed: 5, Dark: v[0] / 8, Big: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	panels, err := model.PanelStages(ps, model.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, ch := range stages {
+		k := int(ch - '0')
+		p := panels[k]
+		c, err := model.ChooseCoordinates(p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		switch coords {
+		case "nc":
+			c = p.Uniform(0)
+		case "c":
+			c = p.Uniform(1)
+		case "round":
+			for _, w := range append([][]float64{c.Mu}, c.Coef...) {
+				for g := range w {
+					w[g] = math.Round(w[g])
+				}
+			}
+		}
+		p.Coords = c
+		tg, err := p.Target()
+		if err != nil {
+			t.Fatal(err)
+		}
+		set := mcmc.Settings{Chains: 4, Warmup: v[2], Draws: v[3], Seed: 1, TargetAccept: DefaultTargetAccept}
+		t0 := time.Now()
+		fit, err := mcmc.Run(context.Background(), tg, &set)
+		if err != nil {
+			t.Fatal(err)
+		}
+		grads := 0
+		for _, c := range fit.Chains {
+			grads += c.Stats.GradientEvaluations
+		}
+		t.Logf("%v  gradients %d", diagnose(StageNames[k], fit, time.Since(t0).Seconds()), grads)
+		t.Logf("  coords %s: tau_mu %.3g, tau_coef %.3g; lam mu %.2f, coef %.2f", coords, c.TauMu, c.TauCoef, c.Mu, c.Coef)
+		for _, s := range mcmc.Summarize(fit) {
+			if strings.HasPrefix(s.Parameter, "tau_") {
+				t.Logf("  %s mean %.3g [%.3g, %.3g] R-hat %.3f bulk ESS %.0f", s.Parameter, s.Mean, s.Q05, s.Q95, s.Rhat, s.ESSBulk)
+			}
+		}
+	}
+}
+
+func cut(s, sep string) (string, string, bool) {
+	for i := 0; i+len(sep) <= len(s); i++ {
+		if s[i:i+len(sep)] == sep {
+			return s[:i], s[i+len(sep):], true
+		}
+	}
+	return s, "", false
+}
+
+// fitPanelStages is FitPanel logging each stage as it ends.
+func fitPanelStages(t *testing.T, ps *model.PanelScaled, set mcmc.Settings) *PanelFitted {
+	t.Helper()
+	pf, err := FitPanel(context.Background(), ps, model.Options{}, set, func(stage string) (mcmc.Recorder, func()) {
+		t0 := time.Now()
+		return nil, func() { t.Logf("%s stage done in %.1f s", stage, time.Since(t0).Seconds()) }
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return pf
+}
+
+// TestPanelRecovery fits panels simulated from the region model (different
+// numbers of regions, the last regions never running audio, the first ten
+// times the others' size) and prints the coverage of the true per-region and
+// summed effects (window all: via search, direct and total of each upper
+// channel, paid search's controlled effect) by the 90% intervals, with the
+// range a calibrated posterior would give 95% of the time (binomial). Runs
+// with SPILLWAY_LONG=1 (several full panel fits).
+func TestPanelRecovery(t *testing.T) {
+	if os.Getenv("SPILLWAY_LONG") != "1" {
+		t.Skip("set SPILLWAY_LONG=1: several full panel fits")
+	}
+	var hit, n, hitSum, nSum int
+	for i, o := range []scenario.PanelOptions{
+		{Regions: 4, Weeks: 104, Seed: 31, Dark: 1},
+		{Regions: 8, Weeks: 104, Seed: 32, Dark: 2, Big: true},
+		{Regions: 12, Weeks: 156, Seed: 33, Dark: 1, Big: true},
+	} {
+		sim, err := scenario.SimulatePanel(o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ps, err := model.ScalePanel(sim.Data, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		pf := fitPanelStages(t, ps, mcmc.Settings{Seed: 50 + uint64(i), Warmup: 500, Draws: 500})
+		for k := 0; k < 2; k++ {
+			t.Logf("%d regions: %v", o.Regions, diagnose(StageNames[k], pf.Fits[k], pf.Wall[k]))
+		}
+		wins := window.Quarters(ps.Scaled[0].Weeks)[:1]
+		res, err := mediation.SplitPanel(pf.Inputs(), wins)
+		if err != nil {
+			t.Fatal(err)
+		}
+		truth, err := sim.TrueEffects(wins)
+		if err != nil {
+			t.Fatal(err)
+		}
+		cover := func(got, want *mediation.Result) (h, m int) {
+			all := append(append([]mediation.Effect(nil), got.Effects...), got.Borrowed...)
+			tru := append(append([]mediation.Effect(nil), want.Effects...), want.Borrowed...)
+			for j, e := range all {
+				switch e.Path {
+				case "via_search", "direct", "total", "controlled":
+				default:
+					continue
+				}
+				if e.Spend == 0 {
+					continue // exactly zero in every draw and in truth
+				}
+				s := mediation.Summarise(e.Draws)
+				v := tru[j].Draws[0]
+				m++
+				if v >= s.Q05 && v <= s.Q95 {
+					h++
+				}
+			}
+			return h, m
+		}
+		for g, r := range res.Regions {
+			h, m := cover(r.Result, truth.Regions[g].Result)
+			hit, n = hit+h, n+m
+		}
+		h, m := cover(res.Total, truth.Total)
+		hitSum, nSum = hitSum+h, nSum+m
+	}
+	lo, hi := binomialRange(n, 0.9)
+	t.Logf("per-region effects: %d of %d inside their 90%% intervals (%.1f%%; a calibrated posterior gives %d to %d)", hit, n, 100*float64(hit)/float64(n), lo, hi)
+	los, his := binomialRange(nSum, 0.9)
+	t.Logf("summed effects: %d of %d inside their 90%% intervals (a calibrated posterior gives %d to %d)", hitSum, nSum, los, his)
+	if hit < lo {
+		t.Errorf("per-region coverage %d of %d is below the binomial range [%d, %d]", hit, n, lo, hi)
+	}
+}
+
+// BenchmarkPanelFit fits the demand and outcome stages of a panel simulated
+// from the region model, SPILLWAY_PANEL_BENCH=G,T regions x weeks (default
+// 40 x 156: two upper channels, one paid search, one control; the last of
+// every eight regions never runs audio, the first is ten times the others'
+// size), 4 chains x (1000 + 1000), and reports each stage's wall and CPU
+// seconds, worst R-hat, least bulk and tail ESS, divergences, leapfrog steps
+// per draw, step size and gradient evaluations.
+func BenchmarkPanelFit(b *testing.B) {
+	G, T := 40, 156
+	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
+		a, c, _ := cut(s, ",")
+		G, _ = strconv.Atoi(a)
+		T, _ = strconv.Atoi(c)
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: 40, Dark: G / 8, Big: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	panels, err := model.PanelStages(ps, model.Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		wall, grads := 0.0, 0
+		for k := 0; k < 2; k++ {
+			tg, err := panels[k].Target()
+			if err != nil {
+				b.Fatal(err)
+			}
+			set := mcmc.Settings{Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
+			t0 := time.Now()
+			fit, err := mcmc.Run(context.Background(), tg, &set)
+			if err != nil {
+				b.Fatal(err)
+			}
+			w := time.Since(t0).Seconds()
+			wall += w
+			for _, c := range fit.Chains {
+				grads += c.Stats.GradientEvaluations
+			}
+			b.Logf("%d x %d: %v", G, T, diagnose(StageNames[k], fit, w))
+		}
+		b.ReportMetric(wall, "wall-s")
+		b.ReportMetric(float64(grads), "gradients")
+	}
+}

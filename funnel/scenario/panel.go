@@ -1,0 +1,135 @@
+package scenario
+
+import (
+	"fmt"
+	"math"
+	"math/rand/v2"
+	"time"
+
+	"spillway/funnel/data"
+	"spillway/funnel/model"
+	"spillway/funnel/window"
+	"spillway/mediation"
+)
+
+// PanelOptions describe a region panel simulated from DESIGN.md's region
+// model around the demo's parameters: each region with its own flights,
+// price and size, its own intercepts, and each coefficient (alpha, delta,
+// beta, gamma) the demo's times exp(tau eta), eta standard normal.
+type PanelOptions struct {
+	Regions, Weeks int
+	Seed           uint64
+	// Dark is the number of regions (the last ones) that never run audio.
+	Dark int
+	// Big makes the first region ten times the size of the others.
+	Big bool
+	// TauMu is the spread of the intercepts (generating units, before the
+	// model's scaling), TauCoef the spread of every coefficient's log.
+	// Zero means 0.08 and 0.2.
+	TauMu, TauCoef float64
+}
+
+// PanelResult is a simulated panel with its truth.
+type PanelResult struct {
+	*Result
+	// Effects holds the true effects of each region and their sum, by the
+	// same split as a fit (mediation.SplitPanel's regions on one "draw",
+	// the true parameters) over window.Quarters (all, then each quarter).
+	Effects *mediation.PanelResult
+}
+
+// SimulatePanel draws a region panel. The same options give the same data.
+func SimulatePanel(o PanelOptions) (*PanelResult, error) {
+	if o.Regions < 1 || o.Dark >= o.Regions && o.Regions > 1 {
+		return nil, fmt.Errorf("scenario: a panel of %d regions with %d dark ones", o.Regions, o.Dark)
+	}
+	if o.TauMu == 0 {
+		o.TauMu = 0.08
+	}
+	if o.TauCoef == 0 {
+		o.TauCoef = 0.2
+	}
+	s, err := Named("demo", o.Seed, o.Weeks, o.Regions)
+	if err != nil {
+		return nil, err
+	}
+	rng := rand.New(rand.NewPCG(o.Seed, 0x9a4e1))
+	weeks := make([]time.Time, s.Weeks)
+	for i := range weeks {
+		weeks[i] = s.Start.AddDate(0, 0, 7*i)
+	}
+	ds := &data.Dataset{Spec: RegionSpec, Weeks: weeks}
+	res := &PanelResult{Result: &Result{Data: ds}}
+	sizes := make([]float64, o.Regions)
+	total := 0.0
+	for g := range sizes {
+		sizes[g] = math.Exp(0.4 * rng.NormFloat64())
+		if o.Big && g == 0 {
+			sizes[g] = 10
+		}
+		total += sizes[g]
+	}
+	spread := func(c []Channel) []Channel { return scaleCoefs(c, rng, o.TauCoef) }
+	for g := 0; g < o.Regions; g++ {
+		share := sizes[g] / total
+		r := *s
+		r.VideoLevel, r.AudioLevel, r.SearchLevel = s.VideoLevel*share, s.AudioLevel*share, s.SearchLevel*share
+		r.QueryBase, r.OutcomeBase = s.QueryBase*share, s.OutcomeBase*share
+		video, audio, price := r.videoSpend(rng), r.audioSpend(rng), r.price(rng)
+		if g >= o.Regions-o.Dark {
+			audio = make([]float64, s.Weeks)
+		}
+		p := s.P
+		p.MuQ += o.TauMu * rng.NormFloat64()
+		p.MuY += o.TauMu * rng.NormFloat64()
+		p.Demand, p.Direct = spread(p.Demand), spread(p.Direct)
+		p.Gamma *= math.Exp(o.TauCoef * rng.NormFloat64())
+		p.Search.Coef *= math.Exp(o.TauCoef * rng.NormFloat64())
+		name := fmt.Sprintf("R%02d", g+1)
+		pop := math.Round(1e6 * share * float64(o.Regions))
+		reg, dem, out, err := r.region(rng, name, pop, weeks, video, audio, price, p)
+		if err != nil {
+			return nil, err
+		}
+		ds.Regions = append(ds.Regions, reg)
+		res.Regions = append(res.Regions, Region{Name: name, Population: pop, Demand: dem, Outcome: out})
+	}
+	if res.Effects, err = res.TrueEffects(window.Quarters(weeks)); err != nil {
+		return nil, err
+	}
+	return res, nil
+}
+
+// TrueEffects returns each region's true effects over windows (resolved
+// against the data's weeks, window.Quarters) and their sum, through the same split as a fit.
+func (r *PanelResult) TrueEffects(windows []window.Window) (*mediation.PanelResult, error) {
+	ps, err := model.ScalePanel(r.Data, nil)
+	if err != nil {
+		return nil, err
+	}
+	var regions []mediation.RegionResult
+	for g, sc := range ps.Scaled {
+		st1, err := model.Demand(sc, model.Options{})
+		if err != nil {
+			return nil, err
+		}
+		st2, err := model.Outcome(sc, model.Options{})
+		if err != nil {
+			return nil, err
+		}
+		d1, err := mediation.Point(st1.Names(), r.Regions[g].Demand)
+		if err != nil {
+			return nil, err
+		}
+		d2, err := mediation.Point(st2.Names(), r.Regions[g].Outcome)
+		if err != nil {
+			return nil, err
+		}
+		e, err := mediation.Split(&mediation.Inputs{Data: sc, Demand: st1, Outcome: st2, DemandDraws: d1, OutcomeDraws: d2}, windows)
+		if err != nil {
+			return nil, err
+		}
+		regions = append(regions, mediation.RegionResult{Region: ps.Regions[g], Result: e})
+	}
+	return mediation.SumRegions(regions)
+}
