@@ -3,7 +3,6 @@ package pipeline
 import (
 	"context"
 	"fmt"
-	"time"
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
@@ -44,25 +43,9 @@ func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcm
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
-		set := s
-		set.Seed = s.Seed + uint64(k)
-		if set.TargetAccept == 0 {
-			set.TargetAccept = DefaultTargetAccept
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, p.Name); err != nil {
+			return nil, err
 		}
-		var done func()
-		if hook != nil {
-			set.Recorder, done = hook(p.Name)
-		}
-		t0 := time.Now()
-		fit, err := mcmc.Run(ctx, tg, &set)
-		if done != nil {
-			done()
-		}
-		if err != nil {
-			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
-		}
-		f.Fits[k] = fit
-		f.Wall[k] = time.Since(t0).Seconds()
 	}
 	return f, nil
 }

@@ -3,7 +3,6 @@ package pipeline
 import (
 	"context"
 	"fmt"
-	"time"
 
 	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
@@ -117,25 +116,9 @@ func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", stage.Name, err)
 		}
-		set := s
-		set.Seed = s.Seed + uint64(k)
-		if set.TargetAccept == 0 {
-			set.TargetAccept = DefaultTargetAccept
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, stage.Name); err != nil {
+			return nil, err
 		}
-		var done func()
-		if hook != nil {
-			set.Recorder, done = hook(stage.Name)
-		}
-		t0 := time.Now()
-		fit, err := mcmc.Run(ctx, tg, &set)
-		if done != nil {
-			done()
-		}
-		if err != nil {
-			return nil, fmt.Errorf("%s stage: %w", stage.Name, err)
-		}
-		f.Fits[k] = fit
-		f.Wall[k] = time.Since(t0).Seconds()
 	}
 	return f, nil
 }
