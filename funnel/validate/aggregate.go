@@ -219,7 +219,7 @@ func Aggregate(res *Results) (*Report, error) {
 	if set.has(Placebo) {
 		rep.placebo(m, plac)
 	}
-	rep.convergence(m, fits)
+	rep.convergenceNotes(m)
 	rep.Caption = caption(m)
 	return rep, nil
 }
@@ -430,7 +430,7 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 		}
 	}
 	pc90, pc50 := pooledIn90/pooledN, pooledIn50/pooledN
-	unconverged, refits := rep.unconverged(m, Recovery)
+	conv := rep.refits(m, Recovery)
 	switch {
 	case worst != nil:
 		v.OK = false
@@ -445,13 +445,16 @@ func (rep *Report) recovery(m Manifest, eff map[effectKey]jobStats, order []effe
 		v.OK = false
 		v.Headline = "miscalibrated: " + strings.Join(miscal, ", ")
 	// A problem found is reported whatever the number of replicates; a
-	// clean bill of health needs enough of them, all converged.
+	// clean bill of health needs enough of them, nearly all converged
+	// (converge.go).
 	case R < MinReplicates:
 		v.OK = false
 		v.Headline = fmt.Sprintf("no claim: %s are too few to judge coverage (at least %d needed)", plural(R, "simulated data set"), MinReplicates)
-	case unconverged > 0:
+	case !enough(conv.bad, conv.n):
 		v.OK = false
-		v.Headline = fmt.Sprintf("no claim: %d of %s did not converge", unconverged, plural(refits, "refit"))
+		v.Headline = fmt.Sprintf("no claim: %d of %s did not converge (at most %.0f%% may)", conv.bad, plural(conv.n, "refit"), 100*(1-MinConvergedShare))
+	case conv.bad > 0:
+		v.Headline = fmt.Sprintf("recovers truth (%d of %d refits converged; coverage over all %d)", conv.n-conv.bad, conv.n, conv.n)
 	default:
 		v.Headline = "recovers truth"
 	}
@@ -752,15 +755,19 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 			ns++
 		}
 	}
-	unconv, refits := rep.unconverged(m, Stability)
-	if r, ok := rep.fits[refJob]; ok && !converged(r) {
-		unconv++
-		refits++
+	conv := rep.refits(m, Stability)
+	refBad := false
+	if r, ok := rep.fits[refJob]; ok && !rep.converged(m, r) {
+		refBad = true
 	}
 	switch {
-	case len(swing) == 0 && unconv > 0:
+	case len(swing) == 0 && refBad:
 		v.OK = false
-		v.Headline = fmt.Sprintf("no claim: %d of %s (with the reference) did not converge", unconv, plural(refits, "fit"))
+		v.Headline = "no claim: the reference fit did not converge"
+		v.Details = append(v.Details, fmt.Sprintf("No effect moved more than %.1f sd (largest: %s, %s), but every move is measured against the reference fit.", math.Ceil(best.Shift*10)/10, best.Label, best.Worst))
+	case len(swing) == 0 && !enough(conv.bad, conv.n):
+		v.OK = false
+		v.Headline = fmt.Sprintf("no claim: %d of %s did not converge (at most %.0f%% may)", conv.bad, plural(conv.n, "refit"), 100*(1-MinConvergedShare))
 		v.Details = append(v.Details, fmt.Sprintf("No effect moved more than %.1f sd (largest: %s, %s), but moves between unconverged fits say little.", math.Ceil(best.Shift*10)/10, best.Label, best.Worst))
 	case len(swing) == 0:
 		v.Headline = fmt.Sprintf("stable: no effect moved more than %.1f sd", math.Ceil(best.Shift*10)/10)
@@ -786,72 +793,6 @@ func beyond(stage string) string {
 		return " beyond the queries"
 	}
 	return ""
-}
-
-// converged reports whether a job's fits converged by the usual
-// standards: R-hat <= 1.01 and computable, no divergent transitions.
-func converged(s map[string]float64) bool {
-	r := math.Max(s["demand/rhat_max"], s["outcome/rhat_max"])
-	d := s["demand/divergences"] + s["outcome/divergences"]
-	return !math.IsNaN(s["demand/rhat_max"]) && !math.IsNaN(s["outcome/rhat_max"]) && r <= 1.01 && d == 0
-}
-
-// unconverged counts the refits of a check that did not converge, of all
-// its refits with fit records.
-func (rep *Report) unconverged(m Manifest, check string) (bad, n int) {
-	for _, j := range m.Jobs {
-		if j.Check != check {
-			continue
-		}
-		s, ok := rep.fits[j.Index]
-		if !ok {
-			continue
-		}
-		n++
-		if !converged(s) {
-			bad++
-		}
-	}
-	return bad, n
-}
-
-// convergence adds a note to each verdict whose refits did not converge
-// by the usual standards (R-hat <= 1.01, no divergences); refits are short,
-// so this is a caution rather than a failure.
-func (rep *Report) convergence(m Manifest, fits jobStats) {
-	for i := range rep.Verdicts {
-		v := &rep.Verdicts[i]
-		n, bad, div := 0, 0, 0
-		worst := 0.0
-		for _, j := range m.Jobs {
-			if j.Check != v.Check {
-				continue
-			}
-			s, ok := fits[j.Index]
-			if !ok {
-				continue
-			}
-			n++
-			r := math.Max(s["demand/rhat_max"], s["outcome/rhat_max"])
-			d := s["demand/divergences"] + s["outcome/divergences"]
-			if !converged(s) {
-				bad++
-			}
-			div += int(d)
-			if math.IsNaN(r) || math.IsNaN(worst) {
-				worst = math.NaN()
-			} else {
-				worst = math.Max(worst, r)
-			}
-		}
-		if bad > 0 {
-			w := "not computable"
-			if !math.IsNaN(worst) {
-				w = fmt.Sprintf("%.3f", worst)
-			}
-			v.Details = append(v.Details, fmt.Sprintf("Caution: %d of %s did not fully converge (worst R-hat %s, %s in all); longer chains (--warmup, --draws) make the check sharper.", bad, plural(n, "refit"), w, plural(div, "divergent transition")))
-		}
-	}
 }
 
 // dayOf converts a YYYY-MM-DD week to days since 1970-01-01.

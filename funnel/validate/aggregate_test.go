@@ -266,7 +266,7 @@ func zs(n1 int, z1 float64, n2 int, z2 float64, n3 int, z3 float64) []float64 {
 
 // TestRecoveryClaims: "recovers truth" only over enough replicates
 // (MinReplicates), with both coverages inside their binomial ranges and
-// every refit converged. A user's 'validate --replicates 2' said "recovers
+// at least MinConvergedShare of the refits converged (the others named). A user's 'validate --replicates 2' said "recovers
 // truth" with a 50% coverage of 28% and 2 of 2 refits unconverged.
 func TestRecoveryClaims(t *testing.T) {
 	// calibrated over 20: 10 truths inside the 50% interval (z 0.3), 8
@@ -283,7 +283,9 @@ func TestRecoveryClaims(t *testing.T) {
 		{"2 replicates, unconverged", recoveryResults([]float64{0.3, 1}, 0, 1), false, "no claim: 2 simulated data sets are too few", "recovers"},
 		{"2 replicates, converged", recoveryResults([]float64{0.3, 1}), false, "no claim: 2 simulated data sets are too few", "recovers"},
 		{"20 calibrated", recoveryResults(calibrated), true, "recovers truth", ""},
-		{"20 calibrated, one unconverged", recoveryResults(calibrated, 7), false, "no claim: 1 of 20 refits did not converge", "recovers"},
+		{"20 calibrated, one unconverged", recoveryResults(calibrated, 7), true, "recovers truth (19 of 20 refits converged; coverage over all 20)", ""},
+		{"20 calibrated, two unconverged", recoveryResults(calibrated, 7, 12), true, "recovers truth (18 of 20 refits converged", ""},
+		{"20 calibrated, three unconverged", recoveryResults(calibrated, 3, 7, 12), false, "no claim: 3 of 20 refits did not converge (at most 10% may)", "recovers"},
 		// 50% coverage 3/20: P(X <= 3 | Bin(20, 0.5)) = 0.0013 < 0.01/4
 		{"50% too narrow", recoveryResults(zs(3, 0.3, 15, 1, 2, 2)), false, "miscalibrated: video via search 50% intervals cover 15% (too narrow)", "recovers"},
 		// 50% coverage 19/20: P(X >= 19) = 2e-5
@@ -415,11 +417,14 @@ func TestStabilityClaims(t *testing.T) {
 	for _, c := range []struct {
 		mean62 float64
 		rhat   float64
+		refOK  bool // the reference fit converged whatever rhat says
 		want   string
 	}{
-		{51, 1.002, "stable: no effect moved more than 0.6 sd"},
-		{51, 1.05, "no claim: 2 of 3 fits (with the reference) did not converge"},
-		{62, 1.05, "unstable: video via search moved 2.4 sd (without 2023Q2)"},
+		{51, 1.002, false, "stable: no effect moved more than 0.6 sd"},
+		{51, 1.05, false, "no claim: the reference fit did not converge"},
+		// 1 of 2 refits unconverged: 50%, above the 10% allowed
+		{51, 1.05, true, "no claim: 1 of 2 refits did not converge (at most 10% may)"},
+		{62, 1.05, false, "unstable: video via search moved 2.4 sd (without 2023Q2)"},
 	} {
 		res := handResults()
 		for i, r := range res.Records {
@@ -429,7 +434,7 @@ func TestStabilityClaims(t *testing.T) {
 		}
 		for _, job := range []int{0, 12, 13} {
 			rhat := c.rhat
-			if job == 13 {
+			if job == 13 || (job == 0 && c.refOK) {
 				rhat = 1.001
 			}
 			for _, st := range []string{"demand", "outcome"} {
@@ -444,6 +449,64 @@ func TestStabilityClaims(t *testing.T) {
 			if v.Check == Stability && v.Headline != c.want {
 				t.Errorf("mean %v, R-hat %v: %q, want %q", c.mean62, c.rhat, v.Headline, c.want)
 			}
+		}
+	}
+}
+
+// TestConvergenceRule: what makes one refit converged (converge.go), for
+// 4 x 1000 kept draws (ESS bar 400, up to 4 divergent transitions).
+func TestConvergenceRule(t *testing.T) {
+	good := func() map[string]float64 {
+		s := map[string]float64{}
+		for _, st := range fitStages {
+			s[st+"/rhat_max"] = 1.004
+			s[st+"/ess_bulk_min"] = 1200
+			s[st+"/ess_tail_min"] = 900
+			s[st+"/divergences"] = 0
+		}
+		return s
+	}
+	for _, c := range []struct {
+		name string
+		set  func(map[string]float64)
+		want string
+	}{
+		{"clean", func(map[string]float64) {}, ""},
+		{"R-hat just at the bar", func(s map[string]float64) { s["outcome/rhat_max"] = 1.01 }, ""},
+		{"R-hat above", func(s map[string]float64) { s["outcome/rhat_max"] = 1.013 }, "R-hat 1.013"},
+		{"R-hat not computable", func(s map[string]float64) { s["demand/rhat_max"] = math.NaN() }, "R-hat not computable"},
+		{"bulk ESS low", func(s map[string]float64) { s["demand/ess_bulk_min"] = 399 }, "bulk ESS 399 < 400"},
+		{"tail ESS low", func(s map[string]float64) { s["outcome/ess_tail_min"] = 150 }, "tail ESS 150 < 400"},
+		{"ESS not computable", func(s map[string]float64) { s["demand/ess_bulk_min"] = math.NaN() }, "bulk ESS not computable < 400"},
+		{"4 divergences in 4,000 draws", func(s map[string]float64) { s["demand/divergences"] = 1; s["outcome/divergences"] = 3 }, ""},
+		{"5 divergences", func(s map[string]float64) { s["demand/divergences"] = 2; s["outcome/divergences"] = 3 }, "5 divergent transitions"},
+	} {
+		s := good()
+		c.set(s)
+		if got := convergence(s, 4, 1000); got != c.want {
+			t.Errorf("%s: %q, want %q", c.name, got, c.want)
+		}
+	}
+	// the bar scales with the draws: 2 x 500 needs ESS 100 and no divergence
+	s := good()
+	s["demand/ess_bulk_min"], s["demand/divergences"] = 120, 0
+	if got := convergence(s, 2, 500); got != "" {
+		t.Errorf("2 x 500, ESS 120: %q, want converged", got)
+	}
+	s["outcome/divergences"] = 1
+	if got := convergence(s, 2, 500); got != "" {
+		t.Errorf("2 x 500, 1 divergence: %q, want converged (1 of 1,000 allowed)", got)
+	}
+	s["outcome/divergences"] = 2
+	if got := convergence(s, 2, 500); got != "2 divergent transitions" {
+		t.Errorf("2 x 500, 2 divergences: %q", got)
+	}
+	for _, c := range []struct {
+		bad, n int
+		ok     bool
+	}{{0, 20, true}, {2, 20, true}, {3, 20, false}, {1, 14, true}, {2, 14, false}, {1, 2, false}, {0, 0, true}} {
+		if got := enough(c.bad, c.n); got != c.ok {
+			t.Errorf("enough(%d, %d) = %v, want %v", c.bad, c.n, got, c.ok)
 		}
 	}
 }

@@ -24,7 +24,7 @@ func demoInput(b *testing.B) Input {
 }
 
 // BenchmarkRefit measures one refit of the default sweep on the demo: the
-// demand and outcome stages, 2 chains x (500 + 500) each (chains in
+// demand and outcome stages, 4 chains x (500 + 1000) each (chains in
 // parallel). Run it with
 //
 //	go test ./funnel/validate/ -run '^$' -bench Refit -benchtime 3x
@@ -48,7 +48,7 @@ func BenchmarkRefit(b *testing.B) {
 
 // BenchmarkDefaultSweep runs the whole default sweep on the demo (20
 // replicates, 4 origins, 12 quarters, 2 seeds and the reference: 39 fits
-// of 2 chains x (500 + 500)). Run it with
+// of 4 chains x (500 + 1000)). Run it with
 //
 //	go test ./funnel/validate/ -run '^$' -bench DefaultSweep -benchtime 1x -timeout 60m
 func BenchmarkDefaultSweep(b *testing.B) {

@@ -18,10 +18,13 @@
 //     in time, and the permutation p-value of the real effect among them.
 //
 // A verdict claims only what its evidence carries: "recovers truth" needs
-// MinReplicates converged replicates with both coverages inside their
-// binomial ranges; "beats" needs a weekly score difference whose interval
-// over the effective number of weeks (AR(1), compare.go) excludes zero;
-// "stable" needs converged refits. A problem found is reported whatever
+// MinReplicates replicates with both coverages inside their binomial
+// ranges and at least MinConvergedShare of the refits converged
+// (converge.go: what converged means, and why coverage counts every
+// refit); "beats" needs a weekly score difference whose interval over the
+// effective number of weeks (AR(1), compare.go) excludes zero; "stable"
+// needs a converged reference and MinConvergedShare of the refits
+// converged. A problem found is reported whatever
 // the amount of evidence; its absence is not claimed without enough.
 //
 // A sweep is a fixed list of jobs (Plan): the reference fit, every
