@@ -173,6 +173,9 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if !found {
 		wins = append(wins, asked)
 	}
+	if ff.panel != nil {
+		return splitPanel(ctx, ff, wins, asked)
+	}
 	// a stated return's window, for the prior predictive check
 	for _, r := range ff.stages[1].Returns {
 		if !slices.ContainsFunc(wins, func(w window.Window) bool { return w.Name == r.Window.Name }) {
@@ -237,6 +240,70 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes, upper: ff.Run.Spec.Upper,
 		stated: mediation.ImpliedNotes(implied),
+	}, nil
+}
+
+// splitPanel is splitFit for a region panel: every region's effects by
+// counterfactual simulation on its own data and draws, summed over regions
+// draw by draw. effects.csv, borrowed.csv and the other national files hold
+// the sum over regions (the prior comparison of effects.csv is left out:
+// the panel's prior draws are not made yet); effects_by_region.csv,
+// borrowed_by_region.csv and region_differences.csv each region.
+func splitPanel(ctx context.Context, ff *fitFolder, wins []window.Window, asked window.Window) (*splitResult, error) {
+	in := ff.panel.Inputs()
+	pr, err := mediation.SplitPanel(in, wins)
+	if err != nil {
+		return nil, err
+	}
+	if ctx.Err() != nil {
+		return nil, ctx.Err()
+	}
+	names := make([]string, len(pr.Regions))
+	results := make([]*mediation.Result, len(pr.Regions))
+	for g, r := range pr.Regions {
+		names[g], results[g] = r.Region, r.Result
+	}
+	diffs, err := mediation.RegionDifferences(names, results, pr.Total)
+	if err != nil {
+		return nil, err
+	}
+	sens, err := mediation.SensitivitiesPanel(in, mediation.RhoGrid())
+	if err != nil {
+		return nil, err
+	}
+	fitted, err := mediation.FittedPanel(in, ff.Run.Seed)
+	if err != nil {
+		return nil, err
+	}
+	curves, err := mediation.CurvesPanel(in, 41)
+	if err != nil {
+		return nil, err
+	}
+	returns, err := mediation.ReturnsPanel(in, pr.Total)
+	if err != nil {
+		return nil, err
+	}
+	if ctx.Err() != nil {
+		return nil, ctx.Err()
+	}
+	res := pr.Total
+	return &splitResult{
+		Split: fitfolder.Split{
+			Effects:           mediation.EffectsTable(res, nil),
+			EffectDraws:       mediation.EffectDrawsTable(res),
+			Borrowed:          mediation.BorrowedTable(res),
+			Weekly:            mediation.WeeklyTable(res, ff.scaled.Weeks, ff.scaled.UpperNames),
+			Sensitivity:       mediation.SensitivityTable(sens),
+			Breakeven:         mediation.BreakevenTable(sens),
+			Fitted:            fitted,
+			Curves:            curves,
+			Returns:           returns,
+			RegionEffects:     mediation.RegionEffectsTable(names, results),
+			RegionBorrowed:    mediation.RegionBorrowedTable(names, results),
+			RegionDifferences: diffs,
+		},
+		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, upper: ff.Run.Spec.Upper,
+		notes: []string{"no comparison with the prior: the region panel's effects under its priors are not computed yet"},
 	}, nil
 }
 
