@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -137,8 +138,13 @@ whether the data support the media effects at all: the outcome stage must
 predict left-out weeks better than the same stage without any media term
 (PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
 adds which effects the data cannot tell from zero or from the prior.
-Regional data are fitted as their national sum; --national says so
-explicitly and is recorded in spec.json.
+With --region COL and more than one region, the stages are region panels:
+each region scaled by its own means, with its own intercept and query and
+media coefficients pooled towards the regions' typical values (their
+spreads, tau_..., are learned and printed); trend, seasons, controls,
+transforms and noise are shared. --national fits the regions' national sum
+instead, as one series (recorded in spec.json); --lifts, --drift,
+--baseline smooth, return priors and measured exposure need it for now.
 
 With --drift, the named channels' effectiveness may change over time: each
 coefficient is multiplied by a smooth function of the week whose logarithm
@@ -329,7 +335,7 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 	}
 	p := &fitPlan{ds: ds}
 	if len(ds.Regions) > 1 && !opts.national {
-		if err := panelChoices(opts); err != nil {
+		if err := panelChoices(opts, ds.Spec); err != nil {
 			return nil, err
 		}
 		if p.panel, err = model.ScalePanel(ds, nil); err != nil {
@@ -370,9 +376,24 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 }
 
 // panelChoices refuses the options the region panel does not have yet,
-// before any data are scaled: each names --national, which has them.
-func panelChoices(opts *samplingFlags) error {
+// before any data are scaled: each names --national, which has them. An
+// exposure column is a panel's channel input like spend; its measurement
+// break, error and frequency are terms of the national model only.
+func panelChoices(opts *samplingFlags, spec data.Spec) error {
 	var flags []string
+	for _, e := range spec.Exposure {
+		if e.Break != "" {
+			flags = append(flags, "--exposure-break")
+		}
+		if e.Error > 0 {
+			flags = append(flags, "--exposure-error")
+		}
+		if e.Frequency != "" {
+			flags = append(flags, "--frequency")
+		}
+	}
+	slices.Sort(flags)
+	flags = slices.Compact(flags)
 	if opts.lifts != "" {
 		flags = append(flags, "--lifts")
 	}

@@ -77,6 +77,11 @@ It writes into the fit folder:
   priors_implied.csv each upper channel's return as stated in the priors
                     file (if it was), under the priors alone (a prior
                     predictive check) and under the posterior
+For a region panel the files above hold the sum over regions (added draw
+by draw), and it also writes
+  effects_by_region.csv, borrowed_by_region.csv  each region's effects
+  region_differences.csv  each region's share via search and return on
+                    spend against the pooled ones, per posterior draw
 and prints the table for WINDOW.
 
 EXAMPLE
