@@ -16,7 +16,7 @@ import (
 // panelSettings are the shortest chains worth sampling a small panel with:
 // the tests check the plumbing and the arithmetic between files, not the
 // posterior.
-var panelSettings = []string{"--seed", "5", "--warmup", "40", "--draws", "30", "--quiet"}
+var panelSettings = []string{"--seed", "5", "--warmup", "30", "--draws", "20", "--quiet"}
 
 // panelData simulates a 3-region, 60-week panel from the region model
 // (simulate's demo-regions) and returns its data.csv and the role flags.
@@ -44,9 +44,10 @@ func TestPanelRun(t *testing.T) {
 	}
 	_, roles := panelData(t)
 	dir := t.TempDir()
-	outs := []string{filepath.Join(dir, "a"), filepath.Join(dir, "b")}
+	// the same --out twice (spec.json and the report name it)
+	out, first := filepath.Join(dir, "out"), filepath.Join(dir, "first")
 	var stdout string
-	for i, out := range outs {
+	for i := range 2 {
 		args := append(append(append([]string{"run"}, roles...), "--chains", "2", "--out", out), panelSettings...)
 		code, so, errs := runCmd(t, args...)
 		if code != 0 {
@@ -56,9 +57,13 @@ func TestPanelRun(t *testing.T) {
 			t.Errorf("stderr lacks the panel note: %s", errs)
 		}
 		stdout = so
+		if i == 0 {
+			if err := os.Rename(out, first); err != nil {
+				t.Fatal(err)
+			}
+		}
 	}
-	compareFolders(t, outs[0], outs[1])
-	out := outs[0]
+	compareFolders(t, first, out)
 	got := files(t, out)
 	for _, want := range []string{"spec.json", "data.csv", "verdict.txt", "demand/draws.csv", "outcome/summary.csv", "naive/stats.json",
 		"effects.csv", "effect_draws.csv", "borrowed.csv", "weekly.csv", "sensitivity.csv", "breakeven.csv", "fitted.csv", "curves.csv", "returns.csv",
@@ -175,12 +180,17 @@ func TestPanelChainsMerge(t *testing.T) {
 	}
 	_, roles := panelData(t)
 	dir := t.TempDir()
-	single := filepath.Join(dir, "single")
+	// the single run and the merge write the same --out (spec.json and the
+	// report name it)
+	out, single := filepath.Join(dir, "out"), filepath.Join(dir, "single")
 	args := func(extra ...string) []string {
 		return append(append(append([]string{"run"}, roles...), panelSettings...), extra...)
 	}
-	if code, _, errs := runCmd(t, args("--chains", "2", "--out", single)...); code != 0 {
+	if code, _, errs := runCmd(t, args("--chains", "2", "--out", out)...); code != 0 {
 		t.Fatalf("run: exit %d: %s", code, errs)
+	}
+	if err := os.Rename(out, single); err != nil {
+		t.Fatal(err)
 	}
 	var shards []string
 	for _, c := range []string{"1", "2"} {
@@ -193,7 +203,6 @@ func TestPanelChainsMerge(t *testing.T) {
 	if got, want := files(t, shards[0]), []string{".spillway.json", "data.csv", "demand/draws.csv", "naive/draws.csv", "outcome/draws.csv", "shard.json"}; !slices.Equal(got, want) {
 		t.Errorf("a panel's shard holds %v, want %v", got, want)
 	}
-	out := filepath.Join(dir, "merged")
 	if code, stdout, errs := runCmd(t, "run", "--merge", "--out", out, shards[1], shards[0]); code != 0 {
 		t.Fatalf("run --merge: exit %d\n%s\n%s", code, stdout, errs)
 	}
