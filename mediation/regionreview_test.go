@@ -1,11 +1,13 @@
 package mediation
 
 import (
+	"fmt"
 	"math"
 	"testing"
 
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/model"
+	"spillway/funnel/window"
 )
 
 // panelOf builds the region panel of the synthetic regions scs (synth) with
@@ -203,4 +205,44 @@ func mustFitted(t *testing.T, in *Inputs) []fitfolder.Fitted {
 		t.Fatal(err)
 	}
 	return f
+}
+
+// TestSplitPanelTables: the region tables made region by region, with the
+// running sum, are the tables of SplitPanel's whole result, value for
+// value.
+func TestSplitPanelTables(t *testing.T) {
+	in := panelOf(t, []*model.Scaled{scaled(t, 1), scaled(t, 2), scaled(t, 3)}, []uint64{1, 2, 3})
+	wins := window.Quarters(in.Data.Scaled[0].Weeks)
+	pr, err := SplitPanel(in, wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pt, err := SplitPanelTables(in, wins)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var names []string
+	var results []*Result
+	for _, r := range pr.Regions {
+		names, results = append(names, r.Region), append(results, r.Result)
+	}
+	diffs, err := RegionDifferences(names, results, pr.Total)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// printed with %v (shortest round-trip floats, NaN as NaN)
+	same := func(what string, a, b any) {
+		if x, y := fmt.Sprintf("%+v", a), fmt.Sprintf("%+v", b); x != y {
+			t.Errorf("%s differ (%d and %d characters)", what, len(x), len(y))
+		}
+	}
+	same("effects_by_region rows", RegionEffectsTable(names, results), pt.Effects)
+	same("borrowed_by_region rows", RegionBorrowedTable(names, results), pt.Borrowed)
+	same("region_differences rows", diffs, pt.Differences)
+	same("summed effects", EffectsTable(pr.Total, nil), EffectsTable(pt.Total, nil))
+	same("summed borrowed", BorrowedTable(pr.Total), BorrowedTable(pt.Total))
+	same("summed weekly", pr.Total.Weekly, pt.Total.Weekly)
+	if len(pt.Differences) == 0 || len(pt.Effects) == 0 {
+		t.Error("empty tables")
+	}
 }

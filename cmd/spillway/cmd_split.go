@@ -250,27 +250,19 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 
 // splitPanel is splitFit for a region panel: every region's effects by
 // counterfactual simulation on its own data and draws, summed over regions
-// draw by draw. effects.csv, borrowed.csv and the other national files hold
+// draw by draw (mediation.SplitPanelTables, which keeps only the draws the
+// region tables still need). effects.csv, borrowed.csv and the other national files hold
 // the sum over regions (the prior comparison of effects.csv is left out:
 // the panel's prior draws are not made yet); effects_by_region.csv,
 // borrowed_by_region.csv and region_differences.csv each region.
 func splitPanel(ctx context.Context, ff *fitFolder, wins []window.Window, asked window.Window) (*splitResult, error) {
 	in := ff.panel.Inputs()
-	pr, err := mediation.SplitPanel(in, wins)
+	pt, err := mediation.SplitPanelTables(in, wins)
 	if err != nil {
 		return nil, err
 	}
 	if ctx.Err() != nil {
 		return nil, ctx.Err()
-	}
-	names := make([]string, len(pr.Regions))
-	results := make([]*mediation.Result, len(pr.Regions))
-	for g, r := range pr.Regions {
-		names[g], results[g] = r.Region, r.Result
-	}
-	diffs, err := mediation.RegionDifferences(names, results, pr.Total)
-	if err != nil {
-		return nil, err
 	}
 	sens, err := mediation.SensitivitiesPanel(in, mediation.RhoGrid())
 	if err != nil {
@@ -284,14 +276,14 @@ func splitPanel(ctx context.Context, ff *fitFolder, wins []window.Window, asked 
 	if err != nil {
 		return nil, err
 	}
-	returns, err := mediation.ReturnsPanel(in, pr.Total)
+	returns, err := mediation.ReturnsPanel(in, pt.Total)
 	if err != nil {
 		return nil, err
 	}
 	if ctx.Err() != nil {
 		return nil, ctx.Err()
 	}
-	res := pr.Total
+	res := pt.Total
 	return &splitResult{
 		Split: fitfolder.Split{
 			Effects:           mediation.EffectsTable(res, nil),
@@ -303,9 +295,9 @@ func splitPanel(ctx context.Context, ff *fitFolder, wins []window.Window, asked 
 			Fitted:            fitted,
 			Curves:            curves,
 			Returns:           returns,
-			RegionEffects:     mediation.RegionEffectsTable(names, results),
-			RegionBorrowed:    mediation.RegionBorrowedTable(names, results),
-			RegionDifferences: diffs,
+			RegionEffects:     pt.Effects,
+			RegionBorrowed:    pt.Borrowed,
+			RegionDifferences: pt.Differences,
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, upper: ff.Run.Spec.Upper,
 		notes: []string{"no comparison with the prior: the region panel's effects under its priors are not computed yet"},
