@@ -332,6 +332,20 @@ type Sensitivity struct {
 	// Zero is the rho at which the posterior mean of the via-search effect
 	// is zero (NaN if it has no root in (-1, 1)).
 	Zero float64
+	// p and q are the sums over draws of the mean's closed form
+	// P - Q rho/sqrt(1-rho^2) (see Sensitivities): the regions' add up to
+	// their sum's (SumSensitivities).
+	p, q float64
+}
+
+// zeroOf returns the root in (-1, 1) of P - Q rho/sqrt(1-rho^2), NaN
+// when Q is zero.
+func zeroOf(P, Q float64) float64 {
+	if Q == 0 {
+		return math.NaN()
+	}
+	z := P / Q
+	return z / math.Sqrt(1+z*z)
 }
 
 // Sensitivities follows Imai, Keele and Yamamoto (2010): if the demand and
@@ -401,11 +415,7 @@ func Sensitivities(in *Inputs, rhos []float64) ([]Sensitivity, error) {
 			P += amp[c][d] * p.gamma
 			Q += amp[c][d] * p.k * math.Sqrt(1-p.r*p.r)
 		}
-		s.Zero = math.NaN()
-		if Q != 0 {
-			z := P / Q
-			s.Zero = z / math.Sqrt(1+z*z)
-		}
+		s.Zero, s.p, s.q = zeroOf(P, Q), P, Q
 		for i, rho := range rhos {
 			row := make([]float64, nd)
 			for d, p := range pd {

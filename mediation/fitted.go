@@ -3,8 +3,9 @@ package mediation
 import (
 	"fmt"
 	"math/rand/v2"
-	"spillway/funnel/fitfolder"
+	"time"
 
+	"spillway/funnel/fitfolder"
 	"spillway/funnel/forward"
 )
 
@@ -15,53 +16,87 @@ import (
 // noise of stage k comes from the PCG stream (seed, k), so the result is
 // reproducible.
 func Fitted(in *Inputs, seed uint64) ([]fitfolder.Fitted, error) {
+	acc := newFittedSum(in.Data.T, len(in.DemandDraws.Rows))
+	if err := acc.add(in, [2]*rand.Rand{rand.New(rand.NewPCG(seed, 0)), rand.New(rand.NewPCG(seed, 1))}); err != nil {
+		return nil, err
+	}
+	return acc.rows(in.Data.Weeks), nil
+}
+
+// fittedSum adds up, in absolute units, the observed series, the mean
+// expected values and the predictive draws of one or more series of the
+// same weeks (the regions of a panel, or one national series).
+type fittedSum struct {
+	actual, mean [2][]float64   // [stage][week]
+	pred         [2][][]float64 // [stage][week][draw]
+}
+
+func newFittedSum(T, nd int) *fittedSum {
+	f := &fittedSum{}
+	for k := range 2 {
+		f.actual[k], f.mean[k], f.pred[k] = make([]float64, T), make([]float64, T), make([][]float64, T)
+		for t := range f.pred[k] {
+			f.pred[k][t] = make([]float64, nd)
+		}
+	}
+	return f
+}
+
+// add runs in's paired draws through the forward simulator and adds its
+// series, the noise of stage k drawn from rngs[k].
+func (f *fittedSum) add(in *Inputs, rngs [2]*rand.Rand) error {
 	sc := in.Data
 	sim, err := forward.New(sc, in.Demand, in.Outcome)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	nd := len(in.DemandDraws.Rows)
 	if len(in.OutcomeDraws.Rows) != nd {
-		return nil, fmt.Errorf("mediation: %d demand draws but %d outcome draws; the stages pair draws by index", nd, len(in.OutcomeDraws.Rows))
+		return fmt.Errorf("mediation: %d demand draws but %d outcome draws; the stages pair draws by index", nd, len(in.OutcomeDraws.Rows))
 	}
-	stages := []struct {
-		name  string
-		scale float64
-		y     []float64
-		rng   *rand.Rand
-		pred  [][]float64 // [week][draw]
-		mean  []float64
-	}{{name: "demand", scale: sc.QueriesScale, y: sc.Queries}, {name: "outcome", scale: sc.OutcomeScale, y: sc.Outcome}}
-	for k := range stages {
-		st := &stages[k]
-		st.rng = rand.New(rand.NewPCG(seed, uint64(k)))
-		st.pred = make([][]float64, sc.T)
-		for t := range st.pred {
-			st.pred[t] = make([]float64, nd)
+	if len(f.actual[0]) != sc.T || len(f.pred[0][0]) != nd {
+		return fmt.Errorf("mediation: %d weeks and %d draws to add to %d weeks and %d draws", sc.T, nd, len(f.actual[0]), len(f.pred[0][0]))
+	}
+	scale := [2]float64{sc.QueriesScale, sc.OutcomeScale}
+	for k, y := range [2][]float64{sc.Queries, sc.Outcome} {
+		for t, v := range y {
+			f.actual[k][t] += v * scale[k]
 		}
-		st.mean = make([]float64, sc.T)
 	}
+	// each series' mean is summed over draws in its own units, then scaled
+	// (a national fit's values are then bit for bit those of one series)
+	mean := [2][]float64{make([]float64, sc.T), make([]float64, sc.T)}
 	var run forward.Run
 	for d := 0; d < nd; d++ {
 		dr := sim.Draw(in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d])
 		sim.Fit(&run, dr)
 		for k, n := range [][]float64{run.Queries, run.Outcome} {
-			st, sigma := &stages[k], dr.Demand.Sigma()
+			sigma := dr.Demand.Sigma()
 			if k == 1 {
 				sigma = dr.Outcome.Sigma()
 			}
 			for t := range n {
-				st.mean[t] += n[t] / float64(nd)
-				st.pred[t][d] = forward.Predictive(n[t], sigma, st.rng) * st.scale
+				mean[k][t] += n[t] / float64(nd)
+				f.pred[k][t][d] += forward.Predictive(n[t], sigma, rngs[k]) * scale[k]
 			}
 		}
 	}
-	var out []fitfolder.Fitted
-	for _, st := range stages {
-		for t, wk := range sc.Weeks {
-			s := Summarise(st.pred[t])
-			out = append(out, fitfolder.Fitted{Stage: st.name, Week: wk, Actual: st.y[t] * st.scale, Mean: st.mean[t] * st.scale, Q05: s.Q05, Q95: s.Q95})
+	for k := range mean {
+		for t, m := range mean[k] {
+			f.mean[k][t] += m * scale[k]
 		}
 	}
-	return out, nil
+	return nil
+}
+
+// rows returns fitted.csv's rows of the sum.
+func (f *fittedSum) rows(weeks []time.Time) []fitfolder.Fitted {
+	var out []fitfolder.Fitted
+	for k, name := range [2]string{"demand", "outcome"} {
+		for t, wk := range weeks {
+			s := Summarise(f.pred[k][t])
+			out = append(out, fitfolder.Fitted{Stage: name, Week: wk, Actual: f.actual[k][t], Mean: f.mean[k][t], Q05: s.Q05, Q95: s.Q95})
+		}
+	}
+	return out
 }

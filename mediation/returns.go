@@ -38,6 +38,16 @@ const marginalStep = 0.01
 // when draws of the total come near zero). An interval end is NaN when
 // the total's quantile is not positive.
 func Returns(in *Inputs, r *Result) ([]fitfolder.Return, error) {
+	marg, err := marginalReturns(in)
+	if err != nil {
+		return nil, err
+	}
+	return append(spendReturns(r), marg...), nil
+}
+
+// spendReturns returns the return on spend and cost per incremental
+// outcome rows of r.
+func spendReturns(r *Result) []fitfolder.Return {
 	var out []fitfolder.Return
 	for _, e := range r.Effects {
 		if e.Path != "total" || !(e.Spend > 0) {
@@ -59,11 +69,7 @@ func Returns(in *Inputs, r *Result) ([]fitfolder.Return, error) {
 		out = append(out, fitfolder.Return{Channel: e.Channel, Window: e.Window, Measure: CostPerIncremental,
 			Mean: inv(s.Mean), Q05: inv(s.Q95), Q50: inv(s.Q50), Q95: inv(s.Q05)})
 	}
-	marg, err := marginalReturns(in)
-	if err != nil {
-		return nil, err
-	}
-	return append(out, marg...), nil
+	return out
 }
 
 // marginalReturns returns the marginal return rows: per draw, the central

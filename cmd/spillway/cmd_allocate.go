@@ -167,6 +167,9 @@ func runAllocate(ctx context.Context, o *allocateOptions, stdout, stderr io.Writ
 	if err != nil {
 		return err
 	}
+	if ff.panel != nil {
+		return usagef("--fit %s: a region panel's budget plan is not made yet; plan on a fit of the regions' sum (fit --national)", o.fit)
+	}
 	cmd := allocateCommand(o)
 	files, err := planFiles(ctx, ff, &o.plan, cmd, stdout, stderr)
 	if err != nil {

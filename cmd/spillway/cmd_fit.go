@@ -7,6 +7,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -137,8 +138,13 @@ whether the data support the media effects at all: the outcome stage must
 predict left-out weeks better than the same stage without any media term
 (PSIS-LOO); if it does not, the fit is not trustworthy. 'spillway split'
 adds which effects the data cannot tell from zero or from the prior.
-Regional data are fitted as their national sum; --national says so
-explicitly and is recorded in spec.json.
+With --region COL and more than one region, the stages are region panels:
+each region scaled by its own means, with its own intercept and query and
+media coefficients pooled towards the regions' typical values (their
+spreads, tau_..., are learned and printed); trend, seasons, controls,
+transforms and noise are shared. --national fits the regions' national sum
+instead, as one series (recorded in spec.json); --lifts, --drift,
+--baseline smooth, return priors and measured exposure need it for now.
 
 With --drift, the named channels' effectiveness may change over time: each
 coefficient is multiplied by a smooth function of the week whose logarithm
@@ -251,6 +257,20 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	}
 	p.set.Only = only
 	hook := progressHook(ctx, opts, len(only), stderr)
+	if p.panel != nil {
+		pf, err := pipeline.FitPanel(ctx, p.panel, p.o, p.set, hook)
+		if err != nil {
+			return nil, err
+		}
+		if only != nil {
+			return writeShard(od, p, pf.Fits[:], pf.Wall[:], review, stdout)
+		}
+		ff, err := finishPanelFit(od, p, pf, stdout, stderr)
+		if err != nil {
+			return nil, err
+		}
+		return &fitRun{outDir: od, fit: ff}, nil
+	}
 	fitted, err := pipeline.FitLifts(ctx, p.sc, p.o, p.tests, p.set, hook)
 	if err != nil {
 		return nil, err
@@ -260,7 +280,7 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 		return nil, err
 	}
 	if only != nil {
-		return writeShard(od, p, fitted, bf, review, stdout)
+		return writeShard(od, p, append(fitted.Fits[:], bf), append(fitted.Wall[:], 0), review, stdout)
 	}
 	ff, err := finishFit(ctx, od, p, fitted, base, bf, hook, stdout, stderr)
 	if err != nil {
@@ -281,6 +301,10 @@ type fitPlan struct {
 	liftBytes  []byte
 	tests      []lifts.Test
 	set        mcmc.Settings
+	// panel is the data scaled region by region when they are fitted as
+	// a region panel (more than one region, no --national); sc is then its
+	// first region's, for the names and weeks every region shares.
+	panel *model.PanelScaled
 }
 
 // planFit loads and checks the data and the options of a fit.
@@ -305,16 +329,31 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
 	}
-	if len(ds.Regions) > 1 {
-		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum\n", len(ds.Regions))
-	}
 	labels, err := opts.labels.resolve(ds.Spec)
 	if err != nil {
 		return nil, err
 	}
-	p := &fitPlan{ds: ds, sc: model.Scale(ds.National(), ds.Spec)}
+	p := &fitPlan{ds: ds}
+	if len(ds.Regions) > 1 && !opts.national {
+		if err := panelChoices(opts, ds.Spec); err != nil {
+			return nil, err
+		}
+		if p.panel, err = model.ScalePanel(ds, nil); err != nil {
+			return nil, badData(fmt.Errorf("%s: %w", ds.File, err))
+		}
+		p.sc = p.panel.Scaled[0]
+		fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as a region panel (each region's own intercept and media coefficients, pooled towards the regions' typical values); --national fits their national sum instead\n", len(ds.Regions))
+	} else {
+		if len(ds.Regions) > 1 {
+			fmt.Fprintf(stderr, "spillway: note: %d regions are fitted as their national sum (--national)\n", len(ds.Regions))
+		}
+		p.sc = model.Scale(ds.National(), ds.Spec)
+	}
 	if p.o, err = modelOptions(p.sc, opts); err != nil {
 		return nil, err
+	}
+	if p.panel != nil && len(p.o.Returns) > 0 {
+		return nil, usagef("--priors %s: priors on returns are not part of the region panel yet; leave out the return rows, or add --national to fit the regions' sum", opts.priors)
 	}
 	if opts.priors != "" {
 		if p.priorBytes, err = os.ReadFile(opts.priors); err != nil {
@@ -336,6 +375,40 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 	return p, nil
 }
 
+// panelChoices refuses the options the region panel does not have yet,
+// before any data are scaled: each names --national, which has them. An
+// exposure column is a panel's channel input like spend; its measurement
+// break, error and frequency are terms of the national model only.
+func panelChoices(opts *samplingFlags, spec data.Spec) error {
+	var flags []string
+	for _, e := range spec.Exposure {
+		if e.Break != "" {
+			flags = append(flags, "--exposure-break")
+		}
+		if e.Error > 0 {
+			flags = append(flags, "--exposure-error")
+		}
+		if e.Frequency != "" {
+			flags = append(flags, "--frequency")
+		}
+	}
+	slices.Sort(flags)
+	flags = slices.Compact(flags)
+	if opts.lifts != "" {
+		flags = append(flags, "--lifts")
+	}
+	if len(opts.drift) > 0 {
+		flags = append(flags, "--drift")
+	}
+	if opts.baseline != "" && opts.baseline != "line" {
+		flags = append(flags, "--baseline "+opts.baseline)
+	}
+	if len(flags) > 0 {
+		return usagef("%s: not part of the region panel yet; add --national to fit the regions' national sum with %s", strings.Join(flags, ", "), strings.Join(flags, ", "))
+	}
+	return nil
+}
+
 // rerunVerb is the command spec.json's command line names: run for the
 // built-in demo (which only run has), fit otherwise.
 func rerunVerb(r *fitfolder.Run) string {
@@ -349,7 +422,7 @@ func rerunVerb(r *fitfolder.Run) string {
 // (fitted, and the support check's baseline stage base with its fit bf)
 // into od, prints the summary and returns the fit with its model.
 func finishFit(ctx context.Context, od *outDir, p *fitPlan, fitted *pipeline.Fitted, base *model.Stage, bf *mcmc.Fit, hook pipeline.StageHook, stdout, stderr io.Writer) (*fitFolder, error) {
-	f, reps := newFit(p.run, p.ds, p.priorBytes, fitted)
+	f, reps := newFit(p.run, p.ds, p.priorBytes, fitted.Fits, fitted.Wall)
 	sup := pipeline.CompareSupport(fitted, base, bf)
 	addSupport(&f.Verdict, sup)
 	files, err := f.FitFiles()
@@ -365,12 +438,62 @@ func finishFit(ctx context.Context, od *outDir, p *fitPlan, fitted *pipeline.Fit
 			return nil, err
 		}
 	}
-	printFitSummary(stdout, reps, fitted, sup)
+	printFitSummary(stdout, reps, fitted.Fits, fitted.Wall, nil, sup)
 	printLiftChecks(stdout, liftChecks)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}
 	return &fitFolder{Fit: f, scaled: p.sc, stages: fitted.Stages, fits: fitted.Fits, options: p.o}, nil
+}
+
+// finishPanelFit writes the fit folder of a region panel whose chains are
+// all sampled into od, prints the summary with the regions' spreads and
+// returns the fit with its model. The support check (PSIS-LOO against the
+// stage without media terms) is the national model's; the verdict says it
+// was not made.
+func finishPanelFit(od *outDir, p *fitPlan, pf *pipeline.PanelFitted, stdout, stderr io.Writer) (*fitFolder, error) {
+	f, reps := newFit(p.run, p.ds, p.priorBytes, pf.Fits, pf.Wall)
+	f.Verdict.Reasons = append(f.Verdict.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + panelSupportNote})
+	files, err := f.FitFiles()
+	if err != nil {
+		return nil, err
+	}
+	for name, b := range files {
+		if err := od.WriteFile(name, b); err != nil {
+			return nil, err
+		}
+	}
+	printFitSummary(stdout, reps, pf.Fits, pf.Wall, &pf.Panels, nil)
+	if !f.Verdict.Trustworthy {
+		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
+	}
+	return &fitFolder{Fit: f, scaled: p.sc, panel: pf, options: p.o}, nil
+}
+
+// panelSupportNote says why a region panel's verdict has no support check.
+const panelSupportNote = "the check that the media terms predict left-out weeks better than a model without them is made for national fits only; fit with --national for it"
+
+// printSpreads prints, for each stage of a region panel, how much the
+// regions' intercepts and coefficients spread (posterior mean and 90%
+// interval of each tau), read from the stage's summary through the panel's
+// layout.
+func printSpreads(w io.Writer, reps []stageReport, panels [3]*model.Panel) {
+	for k, r := range reps {
+		l := panels[k].Layout()
+		if l.TauMu() < 0 {
+			continue
+		}
+		pos := []int{l.TauMu()}
+		for _, c := range l.Coefs() {
+			pos = append(pos, c.Tau)
+		}
+		var parts []string
+		for _, i := range pos {
+			s := r.summary[i]
+			parts = append(parts, fmt.Sprintf("%s %.3g [%.3g, %.3g]", s.Parameter, s.Mean, s.Q05, s.Q95))
+		}
+		fmt.Fprintf(w, "%-8s region spread (posterior mean [90%% interval]): %s\n", r.name, strings.Join(parts, "; "))
+	}
 }
 
 // progressHook returns the per-stage progress display: a bar when stderr
@@ -400,21 +523,40 @@ func progressHook(ctx context.Context, opts *samplingFlags, only int, stderr io.
 	}
 }
 
-// printFitSummary prints one line per stage and the verdict.
-func printFitSummary(w io.Writer, reps []stageReport, f *pipeline.Fitted, sup *pipeline.Support) {
+// printFitSummary prints one line per stage, for a region panel (panels
+// set) each stage's spreads, and the verdict; sup is nil for a region
+// panel, which has no support check.
+func printFitSummary(w io.Writer, reps []stageReport, fits [3]*mcmc.Fit, wall [3]float64, panels *[3]*model.Panel, sup *pipeline.Support) {
 	for k, r := range reps {
 		maxR, minB, minT := mcmc.Worst(r.summary)
 		div, leap := 0, 0.0
-		for _, c := range f.Fits[k].Chains {
+		for _, c := range fits[k].Chains {
 			div += c.Stats.Divergences
-			leap += c.Stats.MeanLeapfrogs / float64(len(f.Fits[k].Chains))
+			leap += c.Stats.MeanLeapfrogs / float64(len(fits[k].Chains))
 		}
 		fmt.Fprintf(w, "%-8s %d chains x %d draws in %.1f s: max R-hat %s, min bulk ESS %s, min tail ESS %s, %d divergences, %.0f leapfrog steps per draw\n",
-			r.name, len(f.Fits[k].Chains), f.Fits[k].NumDraws()/len(f.Fits[k].Chains), f.Wall[k], diagText(maxR, "%.3f"), diagText(minB, "%.0f"), diagText(minT, "%.0f"), div, leap)
+			r.name, len(fits[k].Chains), fits[k].NumDraws()/len(fits[k].Chains), wall[k], diagText(maxR, "%.3f"), diagText(minB, "%.0f"), diagText(minT, "%.0f"), div, leap)
+	}
+	if panels != nil {
+		printSpreads(w, reps, *panels)
 	}
 	ok := true
 	for _, r := range reps {
 		ok = ok && r.verdict.Trustworthy
+	}
+	if sup == nil {
+		if ok {
+			fmt.Fprintln(w, "verdict: trustworthy (R-hat <= 1.01, ESS >= 400, no divergences, E-BFMI >= 0.3 in every stage)")
+		} else {
+			fmt.Fprintln(w, "verdict: NOT TRUSTWORTHY; do not use these numbers before fixing:")
+			for _, r := range reps {
+				for _, why := range r.verdict.Reasons {
+					fmt.Fprintf(w, "  %s: %s\n", r.name, why)
+				}
+			}
+		}
+		fmt.Fprintf(w, "support: note: %s\n", panelSupportNote)
+		return
 	}
 	if ok && sup.Supported() {
 		fmt.Fprintln(w, "verdict: trustworthy (R-hat <= 1.01, ESS >= 400, no divergences, E-BFMI >= 0.3 in every stage)")

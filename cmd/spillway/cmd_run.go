@@ -111,8 +111,16 @@ func runAll(ctx context.Context, o *runOptions, args []string, stdout, stderr io
 		}
 		return nil
 	}
+	// a region panel's budget plan is not made yet: say so before any
+	// sampling
+	checkAllocate := func(ds *data.Dataset) error {
+		if o.allocate && isPanel(fitfolder.Run{National: o.sampling.national}, ds) {
+			return usagef("--allocate: a region panel's budget plan is not made yet; leave out --allocate, or add --national to fit and plan the regions' sum")
+		}
+		return nil
+	}
 	review := &fitfolder.Review{Window: o.window, Negligible: o.negligible, Allocate: o.allocate}
-	od, err := runFit(ctx, &o.roles, &o.sampling, demo, review, stdout, stderr, checkWindow)
+	od, err := runFit(ctx, &o.roles, &o.sampling, demo, review, stdout, stderr, checkWindow, checkAllocate)
 	if err != nil {
 		return err
 	}

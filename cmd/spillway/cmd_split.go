@@ -77,6 +77,11 @@ It writes into the fit folder:
   priors_implied.csv each upper channel's return as stated in the priors
                     file (if it was), under the priors alone (a prior
                     predictive check) and under the posterior
+For a region panel the files above hold the sum over regions (added draw
+by draw), and it also writes
+  effects_by_region.csv, borrowed_by_region.csv  each region's effects
+  region_differences.csv  each region's share via search and return on
+                    spend against the pooled ones, per posterior draw
 and prints the table for WINDOW.
 
 EXAMPLE
@@ -173,6 +178,9 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 	if !found {
 		wins = append(wins, asked)
 	}
+	if ff.panel != nil {
+		return splitPanel(ctx, ff, wins, asked)
+	}
 	// a stated return's window, for the prior predictive check
 	for _, r := range ff.stages[1].Returns {
 		if !slices.ContainsFunc(wins, func(w window.Window) bool { return w.Name == r.Window.Name }) {
@@ -237,6 +245,62 @@ func splitFit(ctx context.Context, ff *fitFolder, windowName string, negligible 
 		},
 		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, notes: notes, upper: ff.Run.Spec.Upper,
 		stated: mediation.ImpliedNotes(implied),
+	}, nil
+}
+
+// splitPanel is splitFit for a region panel: every region's effects by
+// counterfactual simulation on its own data and draws, summed over regions
+// draw by draw (mediation.SplitPanelTables, which keeps only the draws the
+// region tables still need). effects.csv, borrowed.csv and the other national files hold
+// the sum over regions (the prior comparison of effects.csv is left out:
+// the panel's prior draws are not made yet); effects_by_region.csv,
+// borrowed_by_region.csv and region_differences.csv each region.
+func splitPanel(ctx context.Context, ff *fitFolder, wins []window.Window, asked window.Window) (*splitResult, error) {
+	in := ff.panel.Inputs()
+	pt, err := mediation.SplitPanelTables(in, wins)
+	if err != nil {
+		return nil, err
+	}
+	if ctx.Err() != nil {
+		return nil, ctx.Err()
+	}
+	sens, err := mediation.SensitivitiesPanel(in, mediation.RhoGrid())
+	if err != nil {
+		return nil, err
+	}
+	fitted, err := mediation.FittedPanel(in, ff.Run.Seed)
+	if err != nil {
+		return nil, err
+	}
+	curves, err := mediation.CurvesPanel(in, 41)
+	if err != nil {
+		return nil, err
+	}
+	returns, err := mediation.ReturnsPanel(in, pt.Total)
+	if err != nil {
+		return nil, err
+	}
+	if ctx.Err() != nil {
+		return nil, ctx.Err()
+	}
+	res := pt.Total
+	return &splitResult{
+		Split: fitfolder.Split{
+			Effects:           mediation.EffectsTable(res, nil),
+			EffectDraws:       mediation.EffectDrawsTable(res),
+			Borrowed:          mediation.BorrowedTable(res),
+			Weekly:            mediation.WeeklyTable(res, ff.scaled.Weeks, ff.scaled.UpperNames),
+			Sensitivity:       mediation.SensitivityTable(sens),
+			Breakeven:         mediation.BreakevenTable(sens),
+			Fitted:            fitted,
+			Curves:            curves,
+			Returns:           returns,
+			RegionEffects:     pt.Effects,
+			RegionBorrowed:    pt.Borrowed,
+			RegionDifferences: pt.Differences,
+		},
+		res: res, sens: sens, asked: asked, unit: ff.Run.Spec.Outcome, upper: ff.Run.Spec.Upper,
+		notes: []string{"no comparison with the prior: the region panel's effects under its priors are not computed yet"},
 	}, nil
 }
 

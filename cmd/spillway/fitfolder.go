@@ -32,17 +32,18 @@ type stageReport struct {
 	verdict mcmc.Verdict
 }
 
-// newFit assembles the fit folder of a finished fit: spec, data, priors
-// copy, per stage draws, summary and stats, and the verdict.
-func newFit(run fitfolder.Run, ds *data.Dataset, priors []byte, f *pipeline.Fitted) (*fitfolder.Fit, []stageReport) {
+// newFit assembles the fit folder of a finished fit (each stage's draws
+// and wall time, national or a region panel's): spec, data, priors copy,
+// per stage draws, summary and stats, and the verdict.
+func newFit(run fitfolder.Run, ds *data.Dataset, priors []byte, fits [3]*mcmc.Fit, wall [3]float64) (*fitfolder.Fit, []stageReport) {
 	ff := &fitfolder.Fit{Run: run, Data: &fitfolder.Data{Dataset: ds}, Priors: priors}
 	var reps []stageReport
 	var verdicts []mcmc.Verdict
 	for k, name := range fitfolder.StageNames {
-		fit := f.Fits[k]
+		fit := fits[k]
 		sum := mcmc.Summarize(fit)
 		ff.Stages = append(ff.Stages, &fitfolder.Stage{Name: name, Params: fitfolder.ParamsOf(sum),
-			Stats: fitfolder.StatsOf(fit, f.Wall[k]), Draws: fit})
+			Stats: fitfolder.StatsOf(fit, wall[k]), Draws: fit})
 		reps = append(reps, stageReport{name: name, summary: sum, verdict: mcmc.Judge(fit, sum)})
 		verdicts = append(verdicts, reps[k].verdict)
 	}
@@ -53,9 +54,13 @@ func newFit(run fitfolder.Run, ds *data.Dataset, priors []byte, f *pipeline.Fitt
 // fitFolder is a fit folder with the model it was fitted with.
 type fitFolder struct {
 	*fitfolder.Fit
+	// scaled, stages and fits are a national fit's; a region panel's
+	// scaled is its first region's (the weeks and column names every region
+	// shares), stages are nil and panel holds the model and draws.
 	scaled *model.Scaled
 	stages [3]*model.Stage
 	fits   [3]*mcmc.Fit
+	panel  *pipeline.PanelFitted
 
 	// options are the model options of the spec's choices.
 	options model.Options
@@ -72,6 +77,9 @@ func readFitFolder(dir string) (*fitFolder, error) {
 	if err := f.ReadDraws(); err != nil {
 		return nil, badData(err)
 	}
+	if isPanel(f.Run, f.Data.Dataset) {
+		return readPanelFolder(dir, f)
+	}
 	ff := &fitFolder{Fit: f, scaled: model.Scale(f.Data.National(), f.Data.Spec)}
 	if ff.options, err = choices(f).Options(ff.scaled); err != nil {
 		return nil, badData(err)
@@ -86,6 +94,40 @@ func readFitFolder(dir string) (*fitFolder, error) {
 				filepath.Join(dir, s.Name, "draws.csv"), s.Draws.Names, want))
 		}
 		ff.fits[k] = s.Draws
+	}
+	return ff, nil
+}
+
+// isPanel reports whether data fitted with run are fitted as a region
+// panel: more than one region, and no --national.
+func isPanel(run fitfolder.Run, ds *data.Dataset) bool {
+	return ds.Spec.Region != "" && len(ds.Regions) > 1 && !run.National
+}
+
+// readPanelFolder rebuilds the region panel of the fit folder f (its draws
+// read): each region scaled by its own means, the panel's stages from the
+// recorded choices, and each stage's draws checked against the panel's
+// parameters.
+func readPanelFolder(dir string, f *fitfolder.Fit) (*fitFolder, error) {
+	ps, err := model.ScalePanel(f.Data.Dataset, nil)
+	if err != nil {
+		return nil, badData(fmt.Errorf("%s: %w", filepath.Join(dir, "data.csv"), err))
+	}
+	ff := &fitFolder{Fit: f, scaled: ps.Scaled[0]}
+	if ff.options, err = choices(f).Options(ps.Scaled[0]); err != nil {
+		return nil, badData(err)
+	}
+	panels, err := model.PanelStages(ps, ff.options)
+	if err != nil {
+		return nil, badData(err)
+	}
+	ff.panel = &pipeline.PanelFitted{Data: ps, Panels: panels}
+	for k, s := range f.Stages {
+		if want := panels[k].Names(); !slices.Equal(s.Draws.Names, want) {
+			return nil, badData(fmt.Errorf("%s: parameters %v do not match the region panel's %v",
+				filepath.Join(dir, s.Name, "draws.csv"), s.Draws.Names, want))
+		}
+		ff.panel.Fits[k] = s.Draws
 	}
 	return ff, nil
 }

@@ -60,23 +60,27 @@ func (s *shardFlags) chains(opts *samplingFlags) ([]int, error) {
 
 // writeShard writes the shard folder of one chain into od: the fit's
 // record, the data and input copies, each stage's draws and statistics.
-func writeShard(od *outDir, p *fitPlan, fitted *pipeline.Fitted, bf *mcmc.Fit, review *fitfolder.Review, stdout io.Writer) (*fitRun, error) {
+// draws and walls are the chain's stages in the order of the shard's
+// StageNames: a national fit's three and the support check's baseline
+// (whose wall time pipeline does not report: give 0), or a region panel's
+// three.
+func writeShard(od *outDir, p *fitPlan, draws []*mcmc.Fit, walls []float64, review *fitfolder.Review, stdout io.Writer) (*fitRun, error) {
 	run := p.run
 	run.Command = ""
 	cmd := "fit"
 	if review != nil {
 		cmd = "run"
 	}
-	m := fitfolder.Shard{Tool: spillwayVersion(), Command: cmd, Chain: p.set.Only[0] + 1, Run: run, Review: review}
-	draws := append(fitted.Fits[:], bf)
-	walls := append(fitted.Wall[:], 0)
-	for k, name := range fitfolder.ShardStages {
+	m := fitfolder.Shard{Tool: spillwayVersion(), Command: cmd, Chain: p.set.Only[0] + 1, Run: run, Review: review, Panel: p.panel != nil}
+	for k, name := range m.StageNames() {
 		m.Stages = append(m.Stages, fitfolder.ShardStageOf(name, draws[k], walls[k]))
 	}
-	// the baseline stage's wall time is not reported by pipeline; its
-	// sampler's own times stand for it
-	b := m.Stages[len(m.Stages)-1]
-	m.Stages[len(m.Stages)-1].WallSeconds = b.WarmupSeconds + b.SamplingSeconds
+	if !m.Panel {
+		// the baseline stage's wall time is not reported by pipeline; its
+		// sampler's own times stand for it
+		b := m.Stages[len(m.Stages)-1]
+		m.Stages[len(m.Stages)-1].WallSeconds = b.WarmupSeconds + b.SamplingSeconds
+	}
 	sf, err := fitfolder.NewShardFolder(m, &fitfolder.Data{Dataset: p.ds}, p.priorBytes, p.liftBytes, draws)
 	if err != nil {
 		return nil, err
@@ -189,6 +193,58 @@ func readShards(verb string, dirs []string) ([]*fitfolder.ShardFolder, error) {
 	return shards, nil
 }
 
+// shardChains returns each stage's chains of shards in order, and each
+// stage's wall time: its slowest chain's, what the user waited with every
+// job running at once.
+func shardChains(shards []*fitfolder.ShardFolder) ([]*mcmc.Fit, []float64) {
+	first := shards[0]
+	names := first.Manifest.StageNames()
+	fits := make([]*mcmc.Fit, len(names))
+	wall := make([]float64, len(names))
+	for k := range names {
+		fits[k] = &mcmc.Fit{Names: first.Draws[k].Names}
+		for _, s := range shards {
+			fits[k].Chains = append(fits[k].Chains, s.Draws[k].Chains[0])
+			wall[k] = max(wall[k], s.Manifest.Stages[k].WallSeconds)
+		}
+	}
+	return fits, wall
+}
+
+// mergedPanel is mergedFit for the chains of a region panel.
+func mergedPanel(od *outDir, p *fitPlan, shards []*fitfolder.ShardFolder, stdout, stderr io.Writer) (*fitRun, error) {
+	first := shards[0]
+	var err error
+	if p.panel, err = model.ScalePanel(p.ds, nil); err != nil {
+		return nil, badData(fmt.Errorf("%s: %w", filepath.Join(first.Dir, "data.csv"), err))
+	}
+	p.sc = p.panel.Scaled[0]
+	c := pipeline.Choices{Linear: p.run.Linear, Drift: p.run.Drift, Baseline: p.run.Baseline}
+	if first.Priors != nil {
+		c.Priors = filepath.Join(first.Dir, "priors.csv")
+	}
+	if p.o, err = c.Options(p.sc); err != nil {
+		return nil, badData(err)
+	}
+	fits, wall := shardChains(shards)
+	for _, s := range shards {
+		for j := range fits {
+			if got, want := s.Draws[j].Names, fits[j].Names; !slices.Equal(got, want) {
+				return nil, badData(fmt.Errorf("%s: parameters %v differ from %s's %v", filepath.Join(s.Dir, fitfolder.PanelShardStages[j], "draws.csv"), got, first.Dir, want))
+			}
+		}
+	}
+	pf, err := pipeline.AssemblePanel(p.panel, p.o, [3]*mcmc.Fit(fits), [3]float64(wall))
+	if err != nil {
+		return nil, badData(fmt.Errorf("%s: %w", first.Dir, err))
+	}
+	ff, err := finishPanelFit(od, p, pf, stdout, stderr)
+	if err != nil {
+		return nil, err
+	}
+	return &fitRun{outDir: od, fit: ff}, nil
+}
+
 // mergedFit puts the chains of shards (in chain order) together and writes
 // the fit folder into od as the single run of all chains would.
 func mergedFit(ctx context.Context, od *outDir, shards []*fitfolder.ShardFolder, opts *samplingFlags, stdout, stderr io.Writer) (*fitRun, error) {
@@ -196,8 +252,14 @@ func mergedFit(ctx context.Context, od *outDir, shards []*fitfolder.ShardFolder,
 	m := first.Manifest
 	p := &fitPlan{run: m.Run, ds: first.Data.Dataset, priorBytes: first.Priors, liftBytes: first.LiftTests}
 	p.run.Command = rerunCommand(rerunVerb(&p.run), &p.run, od.Final())
-	p.sc = model.Scale(p.ds.National(), p.ds.Spec)
 	p.set = mcmc.Settings{Chains: m.Run.Chains, Warmup: m.Run.Warmup, Draws: m.Run.Draws, Seed: m.Run.Seed, TargetAccept: m.Run.Accept}
+	if m.Panel != isPanel(m.Run, p.ds) {
+		return nil, badData(fmt.Errorf("%s: the shard's panel setting does not match its data and settings", filepath.Join(first.Dir, fitfolder.ShardFile)))
+	}
+	if m.Panel {
+		return mergedPanel(od, p, shards, stdout, stderr)
+	}
+	p.sc = model.Scale(p.ds.National(), p.ds.Spec)
 	c := pipeline.Choices{Linear: m.Run.Linear, Drift: m.Run.Drift, Baseline: m.Run.Baseline}
 	if first.Priors != nil {
 		c.Priors = filepath.Join(first.Dir, "priors.csv")
@@ -211,17 +273,7 @@ func mergedFit(ctx context.Context, od *outDir, shards []*fitfolder.ShardFolder,
 			return nil, badData(err)
 		}
 	}
-	// each stage's chains in order; a stage's wall time is its slowest
-	// chain's, what the user waited with every job running at once
-	fits := make([]*mcmc.Fit, len(fitfolder.ShardStages))
-	wall := make([]float64, len(fitfolder.ShardStages))
-	for k := range fitfolder.ShardStages {
-		fits[k] = &mcmc.Fit{Names: first.Draws[k].Names}
-		for _, s := range shards {
-			fits[k].Chains = append(fits[k].Chains, s.Draws[k].Chains[0])
-			wall[k] = max(wall[k], s.Manifest.Stages[k].WallSeconds)
-		}
-	}
+	fits, wall := shardChains(shards)
 	fitted, err := pipeline.Assemble(p.sc, p.o, p.tests, p.set, [3]*mcmc.Fit(fits[:3]), [3]float64(wall[:3]))
 	if err != nil {
 		return nil, err

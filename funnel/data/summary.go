@@ -143,7 +143,7 @@ func (s Summary) WriteText(w io.Writer) error {
 	if len(s.Regions) == 0 {
 		fmt.Fprintf(ew, "Regions:  none (national data)\n")
 	} else {
-		fmt.Fprintf(ew, "Regions:  %d (fitted as their national sum)\n", len(s.Regions))
+		fmt.Fprintf(ew, "Regions:  %d (fit and run fit them as a region panel; --national fits their national sum)\n", len(s.Regions))
 	}
 	if len(s.Regions) > 0 {
 		fmt.Fprintln(ew)

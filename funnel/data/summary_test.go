@@ -106,7 +106,7 @@ func TestSummarizeRegions(t *testing.T) {
 	}
 	// one row per region, columns aligned; totals in the data's units
 	text := buf.String()
-	if want := "Regions:  3 (fitted as their national sum)\n\nregion  population   spend  share of spend  queries  outcome\nnorth         1000  150237           22.2%   360243   239730\n"; !strings.Contains(text, want) {
+	if want := "Regions:  3 (fit and run fit them as a region panel; --national fits their national sum)\n\nregion  population   spend  share of spend  queries  outcome\nnorth         1000  150237           22.2%   360243   239730\n"; !strings.Contains(text, want) {
 		t.Errorf("text lacks %q:\n%s", want, text)
 	}
 	lines := strings.Split(text, "\n")

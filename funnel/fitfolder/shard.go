@@ -37,6 +37,10 @@ const (
 // PSIS-LOO comparison.
 var ShardStages = []string{"demand", "outcome", "naive", "baseline"}
 
+// PanelShardStages are the stages a shard of a region panel holds: the
+// fit's three (the support check is not made for a panel).
+var PanelShardStages = ShardStages[:3:3]
+
 // Shard is shard.json.
 type Shard struct {
 	Format string `json:"format"`
@@ -60,9 +64,21 @@ type Shard struct {
 	Run Run `json:"run"`
 	// Review holds run's own options, for a chain sampled by run.
 	Review *Review `json:"review,omitempty"`
+	// Panel is set when the chain is one of a region panel's fit, whose
+	// stages are PanelShardStages.
+	Panel bool `json:"panel,omitempty"`
 	// Stages are the sampler's statistics of the chain, one per
-	// ShardStages entry.
+	// StageNames entry.
 	Stages []ShardStage `json:"stages"`
+}
+
+// StageNames returns the stages the shard holds: ShardStages, or
+// PanelShardStages for a region panel.
+func (m Shard) StageNames() []string {
+	if m.Panel {
+		return PanelShardStages
+	}
+	return ShardStages
 }
 
 // Review is what run does after the fit: the review window (empty: the
@@ -122,8 +138,8 @@ type ShardFolder struct {
 // NewShardFolder is the shard of manifest m (its hashes, format and about
 // filled in here) with the data, input copies and draws.
 func NewShardFolder(m Shard, d *Data, priors, liftTests []byte, draws []*mcmc.Fit) (*ShardFolder, error) {
-	if len(draws) != len(ShardStages) || len(m.Stages) != len(ShardStages) {
-		return nil, fmt.Errorf("fitfolder: a shard holds the stages %v", ShardStages)
+	if names := m.StageNames(); len(draws) != len(names) || len(m.Stages) != len(names) {
+		return nil, fmt.Errorf("fitfolder: a shard holds the stages %v", names)
 	}
 	b, err := d.file()
 	if err != nil {
@@ -160,7 +176,7 @@ func (s *ShardFolder) Files() (map[string][]byte, error) {
 	if files[ShardFile], err = jsonFile(s.Manifest); err != nil {
 		return nil, fmt.Errorf("%s: %w", ShardFile, err)
 	}
-	for k, name := range ShardStages {
+	for k, name := range s.Manifest.StageNames() {
 		var b bytes.Buffer
 		if err := mcmc.WriteDraws(&b, s.Draws[k]); err != nil {
 			return nil, err
@@ -204,10 +220,10 @@ func ReadShard(dir string) (*ShardFolder, error) {
 		return nil, &Error{File: path, Column: "format", Err: fmt.Errorf("%q, expected %q (a folder written by spillway fit --chain)", m.Format, ShardFormat)}
 	case m.Run.Chains < 1 || m.Chain < 1 || m.Chain > m.Run.Chains:
 		return nil, &Error{File: path, Column: "chain", Err: fmt.Errorf("chain %d of %d", m.Chain, m.Run.Chains)}
-	case len(m.Stages) != len(ShardStages):
-		return nil, &Error{File: path, Column: "stages", Err: fmt.Errorf("%d stages, expected %d", len(m.Stages), len(ShardStages))}
+	case len(m.Stages) != len(m.StageNames()):
+		return nil, &Error{File: path, Column: "stages", Err: fmt.Errorf("%d stages, expected %d", len(m.Stages), len(m.StageNames()))}
 	}
-	for k, name := range ShardStages {
+	for k, name := range m.StageNames() {
 		if m.Stages[k].Name != name {
 			return nil, &Error{File: path, Column: "stages", Err: fmt.Errorf("stage %d is %q, expected %q", k+1, m.Stages[k].Name, name)}
 		}
@@ -224,7 +240,7 @@ func ReadShard(dir string) (*ShardFolder, error) {
 	if s.LiftTests, err = readCopy(dir, LiftTestsFile, m.LiftTests); err != nil {
 		return nil, err
 	}
-	for k, name := range ShardStages {
+	for k, name := range m.StageNames() {
 		d, err := readDraws(filepath.Join(dir, name))
 		if err != nil {
 			return nil, err
@@ -301,6 +317,8 @@ func Same(a, b Shard) string {
 		return "the priors files differ"
 	case a.LiftTests != b.LiftTests:
 		return "the lift-test files differ"
+	case a.Panel != b.Panel:
+		return "one is a chain of a region panel, the other of a national fit"
 	}
 	ja, _ := json.Marshal(a.Run)
 	jb, _ := json.Marshal(b.Run)

@@ -3,6 +3,7 @@ package pipeline
 import (
 	"context"
 	"fmt"
+	"slices"
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
@@ -58,4 +59,21 @@ func (f *PanelFitted) Inputs() *mediation.PanelInputs {
 		in.NaiveDraws = mediation.FromFit(f.Fits[2])
 	}
 	return in
+}
+
+// AssemblePanel is the PanelFitted of a region panel whose stages' chains
+// were sampled apart (each as FitPanel samples it with Settings.Only) and
+// put together in chain order: the panels rebuilt from ps and o, each
+// stage's draws checked against its panel's parameters.
+func AssemblePanel(ps *model.PanelScaled, o model.Options, fits [3]*mcmc.Fit, wall [3]float64) (*PanelFitted, error) {
+	panels, err := model.PanelStages(ps, o)
+	if err != nil {
+		return nil, err
+	}
+	for k, p := range panels {
+		if got, want := fits[k].Names, p.Names(); !slices.Equal(got, want) {
+			return nil, fmt.Errorf("%s stage: parameters %v do not match the region panel's %v", p.Name, got, want)
+		}
+	}
+	return &PanelFitted{Data: ps, Panels: panels, Fits: fits, Wall: wall}, nil
 }
