@@ -8,6 +8,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"sync"
 	"time"
@@ -40,6 +41,9 @@ type validateOptions struct {
 	placebos   int
 	shard      string
 	merge      bool
+	// region panels (issue 12)
+	national    bool
+	leaveRegion []string
 }
 
 func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
@@ -57,6 +61,9 @@ func (o *validateOptions) addFlags(fs *pflag.FlagSet) {
 	fs.BoolVar(&o.merge, "merge", false, "merge the shard folders given as arguments into --out")
 	o.sampling.addFlagsWith(fs, samplingDefaults{validate.DefaultChains, validate.DefaultWarmup, validate.DefaultDraws,
 		"random seed of the sweep; every job's seed derives from it and the job's number", "chains per refit", "iterations per chain of each refit"})
+	// region panels (issue 12)
+	fs.BoolVar(&o.national, "national", false, "validate regional data (--region) as their national sum, one series, instead of the region model")
+	fs.StringSliceVar(&o.leaveRegion, "leave-out-regions", nil, "`REGIONS` the stability check of a region panel leaves out one at a time (default every region)")
 	fs.StringVar(&o.sampling.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data in every refit (each fit takes the tests of the weeks it fits; recovery simulates them)")
 }
 
@@ -105,6 +112,16 @@ least 90% of the refits converged (R-hat <= 1.01, bulk and tail ESS >= 10%
 of the draws, at most 0.1% of them divergent); coverage counts every
 refit, and the unconverged ones are named. Otherwise the verdict says "no
 claim" and why.
+
+REGIONS
+With --region COL the data are a panel of regions and every refit is the
+region model (per-region intercepts and coefficients, pooled): recovery
+simulates each region from a posterior draw of the reference panel fit,
+holdout forecasts each region and their sum, stability also leaves out each
+region in turn (--leave-out-regions). validation.csv judges the effects
+summed over regions; validation_by_region.csv has the same metrics for every
+region (region first). A panel sweep takes no --truth, --fit, --lifts or
+placebo check. --national validates the national sum instead.
 
 FOLDER gets validation.csv (check,effect,channel,metric,value),
 validation.png, verdict.txt (also printed), jobs.csv (every job's raw numbers
@@ -216,8 +233,28 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	for _, w := range ds.Warnings {
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
 	}
-	if len(ds.Regions) > 1 {
+	// region panels (issue 12): regional data are validated with the
+	// region model unless --national (or --fit, whose fit is national)
+	if o.national && ds.Spec.Region == "" {
+		return usagef("--national validates the national sum of regional data, but the data have no region column; name it with --region, or leave out --national")
+	}
+	panel := len(ds.Regions) > 1 && !o.national && o.fitDir == ""
+	if len(ds.Regions) > 1 && !panel {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are validated as their national sum\n", len(ds.Regions))
+	}
+	if panel {
+		switch {
+		case o.truth != "":
+			return usagef("--truth holds national true parameters; a region panel's recovery simulates from its reference fit (leave out --truth, or add --national)")
+		case liftFile != "":
+			return usagef("--lifts: lift tests are not part of the region model yet; leave them out, or add --national")
+		case slices.Contains(set.Checks, validate.Placebo):
+			return usagef("--checks placebo does not run on a region panel yet; leave it out, or add --national")
+		}
+		in.Panel = ds
+		set.LeaveOutRegions = o.leaveRegion
+	} else if len(o.leaveRegion) > 0 {
+		return usagef("--leave-out-regions needs a region panel (--region, without --national or --fit)")
 	}
 	in.Series, in.Spec = ds.National(), ds.Spec
 	if liftFile != "" {

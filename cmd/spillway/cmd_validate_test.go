@@ -148,3 +148,62 @@ func TestValidateFromFitFolder(t *testing.T) {
 		t.Errorf("--fit with --data: exit %d, stderr %q", code, errs)
 	}
 }
+
+// TestValidateRegionPanel validates a simulated 3-region panel with the
+// region model through the command (a reference and two stability refits,
+// one chain of 30 + 30: enough to exercise the command, not to converge)
+// and checks the region file and the verdict's region lines, then the
+// region flags' refusals (exit 2, nothing written).
+func TestValidateRegionPanel(t *testing.T) {
+	if testing.Short() {
+		t.Skip("three tiny panel fits")
+	}
+	dir := t.TempDir()
+	if code, _, errs := runCmd(t, "simulate", "--scenario", "demo-regions", "--regions", "3", "--weeks", "70", "--seed", "4", "--out", filepath.Join(dir, "sim")); code != 0 {
+		t.Fatalf("simulate: %d %s", code, errs)
+	}
+	args := func(extra ...string) []string {
+		a := []string{"validate", "--data", filepath.Join(dir, "sim", "data.csv"), "--date", "week", "--region", "region",
+			"--upper", "video_spend,audio_spend", "--search", "search_spend", "--queries", "branded_queries",
+			"--outcome", "conversions", "--controls", "price", "--chains", "1", "--warmup", "30", "--draws", "30", "--seed", "4", "--quiet"}
+		return append(a, extra...)
+	}
+	out := filepath.Join(dir, "val")
+	code, stdout, errs := runCmd(t, args("--checks", "stability", "--leave-out", "2023Q3", "--leave-out-regions", "R02", "--seeds", "0", "--out", out)...)
+	if code != 0 {
+		t.Fatalf("validate: exit %d\n%s", code, errs)
+	}
+	if !strings.Contains(stdout, "stability: ") || !strings.Contains(stdout, "By region: the largest move") {
+		t.Errorf("stdout lacks the stability verdict by region:\n%s", stdout)
+	}
+	b, err := os.ReadFile(filepath.Join(out, "validation_by_region.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.Split(strings.TrimSpace(string(b)), "\n")
+	if lines[0] != "region,check,effect,channel,metric,value" || len(lines) < 4 {
+		t.Fatalf("validation_by_region.csv:\n%s", b)
+	}
+	for _, g := range []string{"R01", "R02", "R03"} {
+		if !strings.Contains(string(b), "\n"+g+",stability,total,video_spend,max_shift_sd,") {
+			t.Errorf("validation_by_region.csv has no shift of %s's video total:\n%s", g, b)
+		}
+	}
+	for _, c := range []struct {
+		args []string
+		want string
+	}{
+		{args("--leave-out-regions", "R09", "--out", filepath.Join(dir, "x1")), `region "R09" is not in the data`},
+		{args("--truth", filepath.Join(dir, "sim", "truth.json"), "--out", filepath.Join(dir, "x2")), "--truth holds national true parameters"},
+		{args("--national", "--leave-out-regions", "R01", "--out", filepath.Join(dir, "x3")), "--leave-out-regions needs a region panel"},
+		{args("--checks", "placebo", "--out", filepath.Join(dir, "x4")), "placebo does not run on a region panel"},
+	} {
+		code, _, errs := runCmd(t, c.args...)
+		if code != 2 || !strings.Contains(errs, c.want) {
+			t.Errorf("%v: exit %d, stderr %q; want 2 and %q", c.args[len(c.args)-3:], code, errs, c.want)
+		}
+		if _, err := os.Stat(c.args[len(c.args)-1]); !os.IsNotExist(err) {
+			t.Errorf("%s was written", c.args[len(c.args)-1])
+		}
+	}
+}

@@ -68,8 +68,18 @@ type Report struct {
 	Replicates int
 	// Caption says how the sweep was run, for the chart.
 	Caption string
+	// Regions are a region panel's reports region by region (the
+	// verdicts and rows above are of the sums over regions); nil for a
+	// national sweep.
+	Regions []RegionReport
 	// fits are the jobs' convergence numbers ("demand/rhat_max", ...).
 	fits jobStats
+}
+
+// RegionReport is one region's aggregation of a region panel's sweep.
+type RegionReport struct {
+	Region string
+	*Report
 }
 
 // CoverageBar is one effect's interval coverage over the replicates.
@@ -161,6 +171,35 @@ func Aggregate(res *Results) (*Report, error) {
 		return nil, errors.New("validate: aggregation needs every job of the sweep; merge the shards first")
 	}
 	m := res.Manifest
+	// a region panel's per-region numbers are aggregated region by region
+	// (aggregateRegions); the rest, national or summed over regions, here
+	var main []Record
+	byRegion := map[string][]Record{}
+	for _, r := range res.Records {
+		if r.Region == "" {
+			main = append(main, r)
+			continue
+		}
+		if !slices.Contains(m.Regions, r.Region) {
+			return nil, fmt.Errorf("validate: job %d has numbers of region %q, which manifest.json does not list", r.Job, r.Region)
+		}
+		byRegion[r.Region] = append(byRegion[r.Region], r)
+	}
+	rep, err := aggregate(m, main)
+	if err != nil {
+		return nil, err
+	}
+	if len(byRegion) > 0 {
+		if err := rep.aggregateRegions(m, main, byRegion); err != nil {
+			return nil, err
+		}
+	}
+	return rep, nil
+}
+
+// aggregate computes the report of one set of records (a national sweep's,
+// a panel's sums, or one region's with the fit records).
+func aggregate(m Manifest, records []Record) (*Report, error) {
 	check := map[int]Job{}
 	for _, j := range m.Jobs {
 		check[j.Index] = j
@@ -173,7 +212,7 @@ func Aggregate(res *Results) (*Report, error) {
 	var fcOrder [][2]string
 	fits := jobStats{}
 	plac := placeboStats{}
-	for _, r := range res.Records {
+	for _, r := range records {
 		switch r.Kind {
 		case "effect":
 			k := effectKey{r.Name, r.Path, r.Window}
@@ -730,6 +769,11 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 			if !(ref["sd"] > 0) {
 				d = math.NaN()
 			}
+			if v, ok := s["shift_sd"]; ok {
+				// measured by the job against the reference over the same
+				// regions (a panel refit without a region, panel.go)
+				d = v
+			}
 			level := swingAt(jobs[j].Weeks, m.Weeks)
 			if d > sb.Shift || math.IsNaN(d) {
 				sb.Shift, sb.Worst, sb.Level = d, jobs[j].Label, level
@@ -747,11 +791,14 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 			best = sb
 		}
 	}
-	nq, ns := 0, 0
+	nq, ns, nr := 0, 0, 0
 	for _, j := range sjobs {
-		if jobs[j].Quarter != "" {
+		switch {
+		case jobs[j].Quarter != "":
 			nq++
-		} else {
+		case jobs[j].Region != "":
+			nr++
+		default:
 			ns++
 		}
 	}
@@ -778,7 +825,11 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 		v.Headline = fmt.Sprintf("unstable: %s moved %.1f sd (%s)", best.Label, best.Shift, best.Worst)
 		v.Details = append(v.Details, fmt.Sprintf("Effects that moved more than %.0f posterior sd: %s.", Swing, strings.Join(swing, "; ")))
 	}
-	v.Details = append(v.Details, fmt.Sprintf("Moves are in posterior sds of the reference fit, over %s leaving out one quarter and %s with other seeds. A move is flagged above %.0f sd, or, when a fraction f of the weeks is left out, above %.1f sqrt(f/(1-f)) sd if that is larger (%.2f sd for a 13-week quarter of these %d weeks): losing data moves an estimate by about sqrt(f/(1-f)) sd by chance alone.", plural(nq, "refit"), plural(ns, "refit"), Swing, LeaveOutZ, swingAt(13, m.Weeks), m.Weeks))
+	regionsOut := ""
+	if nr > 0 {
+		regionsOut = ", " + plural(nr, "refit") + " leaving out one region"
+	}
+	v.Details = append(v.Details, fmt.Sprintf("Moves are in posterior sds of the reference fit, over %s leaving out one quarter%s and %s with other seeds. A move is flagged above %.0f sd, or, when a fraction f of the weeks is left out, above %.1f sqrt(f/(1-f)) sd if that is larger (%.2f sd for a 13-week quarter of these %d weeks): losing data moves an estimate by about sqrt(f/(1-f)) sd by chance alone.", plural(nq, "refit"), regionsOut, plural(ns, "refit"), Swing, LeaveOutZ, swingAt(13, m.Weeks), m.Weeks))
 	for _, s := range m.Skipped {
 		v.Details = append(v.Details, "Note: "+s+".")
 	}

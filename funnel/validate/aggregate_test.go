@@ -28,7 +28,7 @@ func handResults() *Results {
 	}
 	res := &Results{Manifest: m}
 	add := func(job int, kind, name, path, window, stat string, v float64) {
-		res.Records = append(res.Records, Record{job, kind, name, path, window, stat, v})
+		res.Records = append(res.Records, Record{job, kind, name, path, window, stat, v, ""})
 	}
 	eff := func(job int, path string, truth, mean, sd float64) {
 		add(job, "effect", "video_spend", path, "all", "truth", truth)
@@ -220,7 +220,7 @@ func recoveryResults(z []float64, unconverged ...int) *Results {
 	for r, zr := range z {
 		res.Manifest.Ran = append(res.Manifest.Ran, r)
 		add := func(kind, name, path, window, stat string, v float64) {
-			res.Records = append(res.Records, Record{r, kind, name, path, window, stat, v})
+			res.Records = append(res.Records, Record{r, kind, name, path, window, stat, v, ""})
 		}
 		rhat := 1.002
 		for _, u := range unconverged {
@@ -331,7 +331,7 @@ func holdoutResults(origins, h int, crps, base, bare func(o, i int) float64, ins
 			}{{"actual", 100}, {"mean", 100}, {"q05", lo}, {"q50", 100}, {"q95", hi}, {"crps", crps(o, i)},
 				{"base", 100}, {"base_q05", 80}, {"base_q95", 120}, {"base_crps", base(o, i)},
 				{"bare_mean", 100}, {"bare_q05", 80}, {"bare_q95", 120}, {"bare_crps", bare(o, i)}} {
-				res.Records = append(res.Records, Record{o, "forecast", "demand", "", week, st.s, st.v})
+				res.Records = append(res.Records, Record{o, "forecast", "demand", "", week, st.s, st.v, ""})
 			}
 		}
 	}
@@ -438,7 +438,7 @@ func TestStabilityClaims(t *testing.T) {
 				rhat = 1.001
 			}
 			for _, st := range []string{"demand", "outcome"} {
-				res.Records = append(res.Records, Record{job, "fit", st, "", "", "rhat_max", rhat}, Record{job, "fit", st, "", "", "divergences", 0})
+				res.Records = append(res.Records, Record{job, "fit", st, "", "", "rhat_max", rhat, ""}, Record{job, "fit", st, "", "", "divergences", 0, ""})
 			}
 		}
 		rep, err := Aggregate(res)

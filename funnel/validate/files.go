@@ -4,8 +4,6 @@ import (
 	"bytes"
 	"encoding/csv"
 	"fmt"
-	"math"
-	"strconv"
 	"strings"
 )
 
@@ -16,7 +14,13 @@ const (
 	TableFile    = "validation.csv"
 	ChartFile    = "validation.png"
 	VerdictFile  = "verdict.txt"
+	// RegionTableFile is validation.csv region by region, written for a
+	// region panel only (validation.csv then holds the sums over regions).
+	RegionTableFile = "validation_by_region.csv"
 )
+
+// tableHeader is the header of validation.csv.
+var tableHeader = []string{"check", "effect", "channel", "metric", "value"}
 
 // ShardFiles renders the files of a shard's folder: the manifest and the
 // raw per-job records.
@@ -32,7 +36,8 @@ func ShardFiles(res *Results) (map[string][]byte, error) {
 }
 
 // Files renders the folder of a complete sweep: manifest.json, jobs.csv,
-// validation.csv and verdict.txt; validation.png (ChartFile) is drawn from
+// validation.csv and verdict.txt (and validation_by_region.csv for a
+// region panel); validation.png (ChartFile) is drawn from
 // the returned Report by spillway/plots/validation. To make a whole run and
 // a merge of shards produce the same bytes, the records are first written
 // as jobs.csv and read back, and everything is aggregated from what was
@@ -55,6 +60,11 @@ func Files(res *Results) (map[string][]byte, *Report, error) {
 		return nil, nil, err
 	}
 	files[VerdictFile] = []byte(rep.Text())
+	if len(rep.Regions) > 0 {
+		if files[RegionTableFile], err = rep.RegionCSV(); err != nil {
+			return nil, nil, err
+		}
+	}
 	return files, rep, nil
 }
 
@@ -63,15 +73,11 @@ func Files(res *Results) (map[string][]byte, *Report, error) {
 func (rep *Report) CSV() ([]byte, error) {
 	var b bytes.Buffer
 	w := csv.NewWriter(&b)
-	if err := w.Write([]string{"check", "effect", "channel", "metric", "value"}); err != nil {
+	if err := w.Write(tableHeader); err != nil {
 		return nil, err
 	}
 	for _, r := range rep.Rows {
-		v := "NA"
-		if !math.IsNaN(r.Value) && !math.IsInf(r.Value, 0) {
-			v = strconv.FormatFloat(r.Value, 'g', 6, 64)
-		}
-		if err := w.Write([]string{r.Check, r.Effect, r.Channel, r.Metric, v}); err != nil {
+		if err := w.Write(tableRow(r)); err != nil {
 			return nil, err
 		}
 	}

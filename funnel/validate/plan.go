@@ -87,6 +87,10 @@ type Settings struct {
 	// LeaveOut names the quarters ("2024Q2") the stability check leaves
 	// out one at a time; nil means every quarter of the data.
 	LeaveOut []string `json:"leave_out"`
+	// LeaveOutRegions names the regions the stability check of a region
+	// panel leaves out one at a time; nil means every region. Not used
+	// without a panel.
+	LeaveOutRegions []string `json:"leave_out_regions,omitempty"`
 	// Seeds is the number of extra refits of the whole data with other
 	// seeds (stability). Zero means DefaultSeeds; NoSeeds means none.
 	Seeds int `json:"seeds"`
@@ -157,6 +161,9 @@ func (s Settings) resolved() (Settings, error) {
 	if r.LeaveOut != nil {
 		r.LeaveOut = append([]string{}, r.LeaveOut...)
 	}
+	if r.LeaveOutRegions != nil {
+		r.LeaveOutRegions = append([]string{}, r.LeaveOutRegions...)
+	}
 	return r, nil
 }
 
@@ -188,8 +195,12 @@ type Job struct {
 	Origin int `json:"origin,omitempty"`
 	// Quarter is the quarter left out (stability); empty for a seed refit.
 	Quarter string `json:"quarter,omitempty"`
-	// Weeks is the number of weeks left out (stability).
+	// Weeks is the number of weeks left out (stability); for a region
+	// left out, the weeks whose share of the whole data matches the
+	// region's share of the region-weeks (panel.go).
 	Weeks int `json:"weeks,omitempty"`
+	// Region is the region left out (stability of a region panel).
+	Region string `json:"region,omitempty"`
 	// Channel is the spend column moved and Shift the weeks it is moved
 	// by (placebo).
 	Channel string `json:"channel,omitempty"`
@@ -219,6 +230,12 @@ type Input struct {
 	// instance a full fit read from a fit folder) to use as the posterior
 	// instead of fitting one with the sweep's settings.
 	Reference *Fits
+	// Panel, if not nil, is a region panel of at least 2 regions, to be
+	// validated with the region model (panel.go); Series must then be its
+	// national sum (Panel.National()), which the quarters, the holdout's
+	// summed forecasts and the manifest use. Truth, Reference, Lifts and
+	// the placebo check are not taken with a panel.
+	Panel *data.Dataset
 	// Tool names the program and its version in the manifest; shards of
 	// one sweep must agree on it.
 	Tool string
@@ -245,6 +262,7 @@ type Sweep struct {
 	skipped  []string
 	gen      *generator
 	manifest Manifest
+	pan      *panelSweep // nil for a national sweep
 }
 
 // New plans a sweep over in with settings s: it checks the settings
@@ -279,6 +297,11 @@ func New(in Input, s Settings) (*Sweep, error) {
 		}
 	}
 	sw.windows = window.Quarters(in.Series.Weeks)
+	if in.Panel != nil {
+		if sw.pan, err = newPanel(in, set); err != nil {
+			return nil, err
+		}
+	}
 	if in.Reference != nil {
 		for k, f := range []*mcmc.Fit{in.Reference.Demand, in.Reference.Outcome} {
 			if f == nil || strings.Join(f.Names, ",") != strings.Join(sw.stages[k].Names(), ",") {
@@ -287,7 +310,9 @@ func New(in Input, s Settings) (*Sweep, error) {
 		}
 	}
 	if set.has(Recovery) && set.Replicates > 0 {
-		if in.Truth != nil {
+		if sw.pan != nil {
+			sw.gen = &generator{name: "posterior draws of the reference panel fit", fromPosterior: true}
+		} else if in.Truth != nil {
 			sw.gen, err = truthGenerator(sw, in.Truth)
 			if err != nil {
 				return nil, err
@@ -307,7 +332,8 @@ func New(in Input, s Settings) (*Sweep, error) {
 // recovery from posterior draws, or stability with anything to refit.
 func (sw *Sweep) needsReference() bool {
 	s := sw.set
-	stab := s.has(Stability) && (s.LeaveOut == nil || len(s.LeaveOut) > 0 || s.Seeds > 0)
+	stab := s.has(Stability) && (s.LeaveOut == nil || len(s.LeaveOut) > 0 || s.Seeds > 0 ||
+		sw.pan != nil && (s.LeaveOutRegions == nil || len(s.LeaveOutRegions) > 0))
 	plac := s.has(Placebo) && s.Placebos > 0
 	return stab || plac || (sw.gen != nil && sw.gen.fromPosterior)
 }
@@ -380,6 +406,11 @@ func (sw *Sweep) plan() error {
 				continue
 			}
 			add(Job{Check: Stability, Label: "without " + name, Quarter: name, Weeks: q.To - q.From + 1})
+		}
+		if sw.pan != nil {
+			for _, j := range sw.pan.regionJobs(s, T) {
+				add(j)
+			}
 		}
 		for k := 1; k <= s.Seeds; k++ {
 			add(Job{Check: Stability, Label: fmt.Sprintf("seed %d", k)})

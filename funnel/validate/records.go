@@ -38,6 +38,9 @@ type Manifest struct {
 	// Reference fingerprints the reference fit's draws; empty in a shard
 	// that did not need it.
 	Reference string `json:"reference,omitempty"`
+	// Regions names a region panel's regions (panel.go); empty for a
+	// national sweep.
+	Regions []string `json:"regions,omitempty"`
 	// Jobs lists every job of the sweep.
 	Jobs []Job `json:"jobs"`
 	// Skipped lists quarters the stability check could not leave out.
@@ -56,6 +59,10 @@ func (sw *Sweep) newManifest() Manifest {
 		Options: optionsID(sw.in.Options) + liftsID(sw.in.Lifts), Settings: sw.set, Jobs: sw.Jobs(), Skipped: sw.skipped}
 	if sw.gen != nil {
 		m.Generator = sw.gen.name
+	}
+	if sw.pan != nil {
+		m.Regions = sw.pan.ps.Regions
+		m.Data = panelID(sw.pan.ds)
 	}
 	if sw.needsReference() {
 		m.ReferenceSource = "fitted"
@@ -88,10 +95,11 @@ func (r *Results) WriteManifest(w io.Writer) error {
 }
 
 // jobsHeader is the header of jobs.csv.
-var jobsHeader = []string{"job", "kind", "name", "path", "window", "stat", "value"}
+var jobsHeader = []string{"job", "kind", "name", "path", "window", "stat", "value", "region"}
 
 // WriteJobs writes the records as CSV with the columns
-// job,kind,name,path,window,stat,value, numbers in the shortest form that
+// job,kind,name,path,window,stat,value,region (region empty but for a
+// region panel's per-region numbers), numbers in the shortest form that
 // reads back exactly.
 func (r *Results) WriteJobs(w io.Writer) error {
 	cw := csv.NewWriter(w)
@@ -100,7 +108,7 @@ func (r *Results) WriteJobs(w io.Writer) error {
 	}
 	for _, rec := range r.Records {
 		if err := cw.Write([]string{strconv.Itoa(rec.Job), rec.Kind, rec.Name, rec.Path, rec.Window, rec.Stat,
-			strconv.FormatFloat(rec.Value, 'g', -1, 64)}); err != nil {
+			strconv.FormatFloat(rec.Value, 'g', -1, 64), rec.Region}); err != nil {
 			return err
 		}
 	}
@@ -125,12 +133,12 @@ func ReadResults(manifest, jobs io.Reader, name string) (*Results, error) {
 		return nil, fmt.Errorf("%s/manifest.json: format %q, expected %q (a folder written by spillway validate)", name, r.Manifest.Format, Format)
 	}
 	cr := csv.NewReader(jobs)
-	cr.FieldsPerRecord = len(jobsHeader)
 	head, err := cr.Read()
 	if err != nil {
 		return nil, fmt.Errorf("%s/jobs.csv: %w", name, err)
 	}
-	if !slices.Equal(head, jobsHeader) {
+	// a folder written before region panels has no region column
+	if !slices.Equal(head, jobsHeader) && !slices.Equal(head, jobsHeader[:len(jobsHeader)-1]) {
 		return nil, fmt.Errorf("%s/jobs.csv: header %s, expected %s", name, strings.Join(head, ","), strings.Join(jobsHeader, ","))
 	}
 	ran := map[int]bool{}
@@ -153,7 +161,11 @@ func ReadResults(manifest, jobs io.Reader, name string) (*Results, error) {
 		if !ran[job] {
 			return nil, fmt.Errorf("%s/jobs.csv line %d: job %d is not listed as run in manifest.json", name, line, job)
 		}
-		r.Records = append(r.Records, Record{Job: job, Kind: row[1], Name: row[2], Path: row[3], Window: row[4], Stat: row[5], Value: v})
+		rec := Record{Job: job, Kind: row[1], Name: row[2], Path: row[3], Window: row[4], Stat: row[5], Value: v}
+		if len(row) > 7 {
+			rec.Region = row[7]
+		}
+		r.Records = append(r.Records, rec)
 	}
 	return r, nil
 }
@@ -237,7 +249,7 @@ func manifestDiff(a, b Manifest) string {
 	jb, _ := json.Marshal(b)
 	_ = json.Unmarshal(ja, &ma)
 	_ = json.Unmarshal(jb, &mb)
-	for _, k := range []string{"format", "tool", "data", "spec", "weeks", "first_week", "options", "settings", "generator", "reference_source", "jobs", "skipped"} {
+	for _, k := range []string{"format", "tool", "data", "spec", "weeks", "first_week", "options", "settings", "generator", "reference_source", "regions", "jobs", "skipped"} {
 		if !bytes.Equal(ma[k], mb[k]) {
 			if k == "data" {
 				return "the data differ"

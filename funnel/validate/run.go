@@ -46,6 +46,9 @@ type Record struct {
 	// actual, crps, ...).
 	Stat  string
 	Value float64
+	// Region is the region of a region panel's per-region number; empty
+	// for a national sweep's numbers and a panel's sums over regions.
+	Region string
 }
 
 // effectStats are the summary numbers kept per effect and job.
@@ -84,6 +87,7 @@ func (sw *Sweep) Run(ctx context.Context, shard Shard, progress func(Progress)) 
 		man.Ran = append(man.Ran, j.Index)
 	}
 	var ref *fitted
+	var pref *panelFitted // the reference of a panel sweep
 	needRef := false
 	for _, j := range mine {
 		if j.Check == Reference || j.Check == Stability || (j.Check == Recovery && sw.gen.fromPosterior) {
@@ -97,12 +101,24 @@ func (sw *Sweep) Run(ctx context.Context, shard Shard, progress func(Progress)) 
 		// records
 		t0 := time.Now()
 		var err error
-		if ref, err = sw.reference(ctx); err != nil {
-			return nil, err
+		if sw.pan != nil {
+			if pref, err = sw.panelReference(ctx); err != nil {
+				return nil, err
+			}
+			man.Reference = fitID(pref.fits[0], pref.fits[1])
+		} else {
+			if ref, err = sw.reference(ctx); err != nil {
+				return nil, err
+			}
+			man.Reference = fitID(ref.fits[0], ref.fits[1])
 		}
-		man.Reference = fitID(ref.fits[0], ref.fits[1])
 		if len(mine) > 0 && mine[0].Check == Reference {
-			if refRecs, err = sw.referenceJob(mine[0], ref); err != nil {
+			if sw.pan != nil {
+				refRecs, err = sw.runPanelJob(ctx, mine[0], pref)
+			} else {
+				refRecs, err = sw.referenceJob(mine[0], ref)
+			}
+			if err != nil {
 				return nil, err
 			}
 			mine = mine[1:]
@@ -125,7 +141,13 @@ func (sw *Sweep) Run(ctx context.Context, shard Shard, progress func(Progress)) 
 			defer wg.Done()
 			for k := range next {
 				t0 := time.Now()
-				recs, err := sw.runJob(ctx, mine[k], ref)
+				var recs []Record
+				var err error
+				if sw.pan != nil {
+					recs, err = sw.runPanelJob(ctx, mine[k], pref)
+				} else {
+					recs, err = sw.runJob(ctx, mine[k], ref)
+				}
 				if err != nil {
 					errs[k] = fmt.Errorf("validate: %s (job %d): %w", mine[k].Label, mine[k].Index, err)
 					cancel()
@@ -405,19 +427,23 @@ func effectRecords(job int, e mediation.Effect, truth *float64) []Record {
 func fitRecords(job int, f *fitted) []Record {
 	var recs []Record
 	for k, fit := range f.fits {
-		rh, eb, et := mcmc.Worst(mcmc.Summarize(fit))
-		div := 0
-		for _, c := range fit.Chains {
-			div += c.Stats.Divergences
-		}
-		name := f.st[k].Name
-		recs = append(recs,
-			Record{Job: job, Kind: "fit", Name: name, Stat: "rhat_max", Value: rh},
-			Record{Job: job, Kind: "fit", Name: name, Stat: "ess_bulk_min", Value: eb},
-			Record{Job: job, Kind: "fit", Name: name, Stat: "ess_tail_min", Value: et},
-			Record{Job: job, Kind: "fit", Name: name, Stat: "divergences", Value: float64(div)})
+		recs = append(recs, stageRecords(job, f.st[k].Name, fit)...)
 	}
 	return recs
+}
+
+// stageRecords are one stage's worst convergence numbers.
+func stageRecords(job int, name string, fit *mcmc.Fit) []Record {
+	rh, eb, et := mcmc.Worst(mcmc.Summarize(fit))
+	div := 0
+	for _, c := range fit.Chains {
+		div += c.Stats.Divergences
+	}
+	return []Record{
+		{Job: job, Kind: "fit", Name: name, Stat: "rhat_max", Value: rh},
+		{Job: job, Kind: "fit", Name: name, Stat: "ess_bulk_min", Value: eb},
+		{Job: job, Kind: "fit", Name: name, Stat: "ess_tail_min", Value: et},
+		{Job: job, Kind: "fit", Name: name, Stat: "divergences", Value: float64(div)}}
 }
 
 // holdoutJob fits the weeks before the origin (the series cut after the
