@@ -233,6 +233,41 @@ func NewReturnPrior(sc *Scaled, col string, path ReturnPath, m ReturnMeasure, wi
 
 var _ CrossTerm = (*ReturnPrior)(nil)
 
+// On returns r restated on sc, a refit's data over the same weeks from
+// the same first week (a simulated replicate, spend moved in time, weeks
+// left out, or the data cut short): the same stated prior on the return
+// over the same weeks, with sc's spend in the window and sc's outcome
+// scale. It fails when sc lacks a week of the window, which a fit that ends
+// before the window cannot state, or when the channel has no spend in it.
+func (r *ReturnPrior) On(sc *Scaled) (*ReturnPrior, error) {
+	c := -1
+	for i, n := range sc.UpperNames {
+		if n == r.Column {
+			c = i
+		}
+	}
+	if c < 0 {
+		return nil, fmt.Errorf("%s: %s is not an upper-funnel column of the data", r.Name(), r.Column)
+	}
+	w, ok := r.Window.In(sc.Weeks)
+	if !ok || w.From != r.Window.From || w.To != r.Window.To {
+		return nil, fmt.Errorf("%s: the data do not hold every week of its window %s", r.Name(), r.Window.Name)
+	}
+	spend := 0.0
+	for t := w.From; t <= w.To; t++ {
+		spend += sc.RawUpper[c][t]
+	}
+	if !(spend > 0) {
+		return nil, fmt.Errorf("%s: %s has no spend in window %s", r.Name(), r.Column, w.Name)
+	}
+	out := r.Term(r.Demand, r.Outcome)
+	out.Window, out.Spend, out.Scale = w, spend, sc.OutcomeScale
+	if r.Measure == ReturnOnSpend {
+		out.Scale = sc.OutcomeScale * r.Per / spend
+	}
+	return out, nil
+}
+
 // effectPath is a channel's part in one stage for a return: its slots,
 // spend and scratch for the actual and counterfactual responses from the
 // window's first week to the data's last.
