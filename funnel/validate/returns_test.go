@@ -133,3 +133,49 @@ func TestSweepReturnPriors(t *testing.T) {
 		}
 	}
 }
+
+// TestSweepKeepsExposure checks that the data a sweep refits keep the
+// exposure and frequency columns: a recovery replicate of exposure-break
+// data runs video on its impressions with the break (the same scaled input
+// and a break factor in its layout), a holdout cut keeps the exposure of
+// its weeks, and reach-frequency's cut keeps the frequency.
+func TestSweepKeepsExposure(t *testing.T) {
+	for _, name := range []string{"exposure-break", "reach-frequency"} {
+		s, err := scenario.Named(name, 2, 0, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		res, err := s.Simulate()
+		if err != nil {
+			t.Fatal(err)
+		}
+		nat := res.Data.National()
+		in := Input{Series: nat, Spec: s.Roles(), Tool: "test", Truth: &Truth{res.Demand, res.Outcome}}
+		sw, err := New(in, recoverySettings(1, 1))
+		if err != nil {
+			t.Fatal(err)
+		}
+		rng := newRand(2)
+		v1, v2, err := sw.gen.draw(0, rng, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		rep, err := sw.simulate(sw.gen, v1, v2, rng)
+		if err != nil {
+			t.Fatal(err)
+		}
+		cs, _ := rep.st[0].Layout().Channel("video_spend")
+		if name == "exposure-break" && cs.Break < 0 || name == "reach-frequency" && cs.FreqK < 0 {
+			t.Errorf("%s: the replicate's video channel lost its measurement (break %d, frequency %d)", name, cs.Break, cs.FreqK)
+		}
+		for w, x := range rep.sc.Upper[0] {
+			if x != sw.base.Upper[0][w] {
+				t.Fatalf("%s week %d: the replicate's video input %v, the data's %v", name, w, x, sw.base.Upper[0][w])
+			}
+		}
+		cut := cutSeries(nat, 100)
+		if len(cut.Exposure[0]) != 100 || cut.Exposure[1] != nil || name == "reach-frequency" && len(cut.Frequency[0]) != 100 {
+			t.Errorf("%s: the cut series' exposure %d weeks, frequency %v", name, len(cut.Exposure[0]), cut.Frequency != nil)
+		}
+	}
+}
