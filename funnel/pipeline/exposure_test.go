@@ -7,6 +7,7 @@ import (
 	"os"
 	"sort"
 	"strconv"
+	"strings"
 	"testing"
 
 	"spillway/funnel/data"
@@ -427,13 +428,17 @@ func TestExposureRecovery(t *testing.T) {
 // quantity's count is below its binomial range at a level corrected for
 // the number of quantities, or when a scenario's share is clearly below
 // 90%. Replicates run outermost, so a sweep cut short has every scenario
-// equally far. It runs with SPILLWAY_LONG=1.
+// equally far. SPILLWAY_SCENARIOS=a,b picks scenarios (demo, where video
+// runs on its spend, is the control). It runs with SPILLWAY_LONG=1.
 func TestExposureCoverage(t *testing.T) {
 	if os.Getenv("SPILLWAY_LONG") != "1" {
 		t.Skip("thirty-two fits; set SPILLWAY_LONG=1")
 	}
 	reps, first := envInt(t, "SPILLWAY_REPLICATES", 8, 2), envInt(t, "SPILLWAY_FIRST", 0, 0)
 	names := []string{"exposure-rising", "exposure-break", "exposure-error", "reach-frequency"}
+	if v := os.Getenv("SPILLWAY_SCENARIOS"); v != "" {
+		names = strings.Split(v, ",") // e.g. demo, the spend-driven control
+	}
 	sweeps := make([]sweep, len(names))
 	for rep := first; rep < first+reps; rep++ {
 		for i, name := range names {
