@@ -451,7 +451,7 @@ func TestExposureCoverage(t *testing.T) {
 				t.Fatal(err)
 			}
 			sc := model.Scale(res.Data.National(), s.Roles())
-			fit, err := FitStages(context.Background(), sc, model.Options{}, nil, exposureCoverageSettings(rep), nil)
+			fit, err := FitStages(context.Background(), sc, model.Options{}, nil, exposureCoverageSettings(t, rep), nil)
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -487,9 +487,10 @@ func envInt(t *testing.T, name string, def, least int) int {
 	return n
 }
 
-// exposureCoverageSettings are the sampler settings of replicate rep.
-func exposureCoverageSettings(rep int) mcmc.Settings {
-	return mcmc.Settings{Seed: uint64(rep + 1), Warmup: 400, Draws: 400}
+// exposureCoverageSettings are the sampler settings of replicate rep:
+// 4 x (400 + 400), or SPILLWAY_WARMUP and SPILLWAY_DRAWS.
+func exposureCoverageSettings(t *testing.T, rep int) mcmc.Settings {
+	return mcmc.Settings{Seed: uint64(rep + 1), Warmup: envInt(t, "SPILLWAY_WARMUP", 400, 1), Draws: envInt(t, "SPILLWAY_DRAWS", 400, 1)}
 }
 
 // sweep holds, for each quantity, whether each replicate's 90% interval
