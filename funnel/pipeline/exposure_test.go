@@ -434,7 +434,7 @@ func TestExposureCoverage(t *testing.T) {
 	if os.Getenv("SPILLWAY_LONG") != "1" {
 		t.Skip("thirty-two fits; set SPILLWAY_LONG=1")
 	}
-	reps, first := envInt(t, "SPILLWAY_REPLICATES", 8, 2), envInt(t, "SPILLWAY_FIRST", 0, 0)
+	reps, first := envInt(t, "SPILLWAY_REPLICATES", 8, 1), envInt(t, "SPILLWAY_FIRST", 0, 0)
 	names := []string{"exposure-rising", "exposure-break", "exposure-error", "reach-frequency"}
 	if v := os.Getenv("SPILLWAY_SCENARIOS"); v != "" {
 		names = strings.Split(v, ",") // e.g. demo, the spend-driven control
