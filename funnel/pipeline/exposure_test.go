@@ -446,6 +446,13 @@ func TestExposureCoverage(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
+			if v := os.Getenv("SPILLWAY_SEARCH_FOLLOWS"); v != "" {
+				// how far paid-search spend follows the queries (0: not at
+				// all), to see whether that is what the misses come from
+				if s.SearchFollowsQueries, err = strconv.ParseFloat(v, 64); err != nil {
+					t.Fatal(err)
+				}
+			}
 			res, err := s.Simulate()
 			if err != nil {
 				t.Fatal(err)
