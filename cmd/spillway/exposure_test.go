@@ -3,6 +3,7 @@ package main
 import (
 	"os"
 	"path/filepath"
+	"regexp"
 	"slices"
 	"strconv"
 	"strings"
@@ -120,12 +121,19 @@ func TestExposureBadInput(t *testing.T) {
 
 // TestExposureInspect checks a good mapping: inspect succeeds, and the
 // step in video's cost per thousand from 12 to 15 in week 30 (2023-07-31)
-// is warned about with the flag that would declare it.
+// is warned about with the flag that would declare it, and the summary
+// lists the exposure column and the cost per unit.
 func TestExposureInspect(t *testing.T) {
 	path := writeFileIn(t, t.TempDir(), "data.csv", exposureFrame(60).csv())
-	code, _, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp")...)
+	code, out, errs := runCmd(t, inspectArgs(path, "--exposure", "video=video_imp")...)
 	if code != 0 {
 		t.Fatalf("got %d: %s", code, errs)
+	}
+	// the exposure column in the column table, and the cost per unit table
+	// with the first and last 13 weeks' medians (12 and 15 per thousand)
+	if !regexp.MustCompile(`(?m)^video_imp +exposure `).MatchString(out) ||
+		!regexp.MustCompile(`(?m)^video +video_imp +.* 0\.012 +0\.015 +\+25% +-$`).MatchString(out) {
+		t.Errorf("inspect's summary lacks the exposure column or its cost per unit:\n%s", out)
 	}
 	if want := "the cost per unit of video_imp (video / video_imp) jumps by +25% around the week of 2023-07-31"; !strings.Contains(errs, want) ||
 		!strings.Contains(errs, "--exposure-break video=2023-07-31") {

@@ -166,3 +166,53 @@ func TestFrequencyNational(t *testing.T) {
 		t.Fatalf("Read(WriteCSV(d)) differs from d (%v)", err)
 	}
 }
+
+// TestExposureSummary checks inspect's summary of an exposure channel:
+// audio's impressions bought at 20 per thousand in the first 30 weeks and
+// 25 after (a step of +25%, declared as a break so it does not warn) are
+// listed as an exposure column with their total, and the cost per unit
+// summary gives 20 over the first 13 weeks with spend, 25 over the last,
+// a median between, and the break.
+func TestExposureSummary(t *testing.T) {
+	f := baseFrame(60)
+	f.header = append(f.header, "aud_imp")
+	a, w := f.col("audio"), f.col("week")
+	want := 0.0
+	for i, r := range f.rows {
+		v, _ := strconv.ParseFloat(r[a], 64)
+		cpm := 20.0
+		if i >= 30 {
+			cpm = 25
+		}
+		f.rows[i] = append(f.rows[i], strconv.FormatFloat(1000*v/cpm, 'f', -1, 64))
+		want += 1000 * v / cpm
+	}
+	brk := f.rows[30][w]
+	spec := withSpec(func(s *Spec) { s.Exposure = []Exposure{{Spend: "audio", Column: "aud_imp", Break: brk}} })
+	s := Summarize(mustRead(t, f.csv(), spec))
+	last := s.Columns[len(s.Columns)-1]
+	if last.Name != "aud_imp" || last.Role != "exposure" || math.Abs(last.Total-want) > 1e-6*want {
+		t.Errorf("last column %+v, want aud_imp, exposure, total %v", last, want)
+	}
+	if len(s.Costs) != 1 {
+		t.Fatalf("Costs %+v, want one", s.Costs)
+	}
+	c := s.Costs[0]
+	near := func(a, b float64) bool { return math.Abs(a-b) < 1e-9 }
+	if c.Spend != "audio" || c.Column != "aud_imp" || c.Unit != "exposure" || c.Break != brk ||
+		!near(c.First, 0.02) || !near(c.Last, 0.025) || !near(c.Min, 0.02) || !near(c.Max, 0.025) {
+		t.Errorf("cost summary %+v, want audio per aud_imp, 0.02 first and min, 0.025 last and max, break %s", c, brk)
+	}
+	for _, wn := range s.Warnings {
+		if wn.Kind == KindCostJump {
+			t.Errorf("a declared break warned: %s", wn.Message)
+		}
+	}
+	var buf bytes.Buffer
+	if err := s.WriteText(&buf); err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(buf.String(), "Cost per unit") || !strings.Contains(buf.String(), "+25%") {
+		t.Errorf("summary text lacks the cost per unit table or its +25%% change:\n%s", buf.String())
+	}
+}

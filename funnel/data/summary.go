@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -32,9 +33,32 @@ type Summary struct {
 	// Correlation holds the Pearson correlations of the national weekly spend
 	// series; NaN where a series is constant.
 	Correlation [][]float64
+	// Costs summarise the cost per unit of each channel given with an
+	// exposure (or reach) column, in the order of Spec.Upper.
+	Costs []CostSummary
 	// Warnings are the dataset's warnings.
 	Warnings []Warning
 }
+
+// CostSummary is the national cost per unit (spend over exposure, or over
+// reach for a reach column) of one channel, over the weeks with spend.
+type CostSummary struct {
+	// Spend and Column are the spend and the exposure (or reach) column;
+	// Unit is "exposure" or "reach".
+	Spend, Column, Unit string
+	// Min, Median and Max are over the weeks with spend.
+	Min, Median, Max float64
+	// First and Last are the medians of the first and the last
+	// CostWeeks weeks with spend.
+	First, Last float64
+	// Break is the declared measurement break's first week ("" if none).
+	Break string
+}
+
+// CostWeeks is how many weeks with spend the first and last medians of a
+// cost-per-unit summary take (a quarter, as Scaled.CostPerUnit's latest
+// weeks).
+const CostWeeks = 13
 
 // RegionSummary is the name and population (0 when absent) of a region
 // and its totals over weeks: all spend columns together, queries and the
@@ -48,13 +72,14 @@ type RegionSummary struct {
 // ColumnSummary describes one column's national weekly series.
 type ColumnSummary struct {
 	// Name is the column name; Role is "upper", "search", "queries",
-	// "outcome" or "controls".
+	// "outcome", "controls", "exposure", "reach" or "frequency".
 	Name, Role string
 	// Min, Median and Max are taken over weeks, in the column's raw units.
 	Min, Median, Max float64
 	// ZeroWeeks counts the weeks whose value is zero.
 	ZeroWeeks int
-	// Total is the sum over weeks (and regions); for controls it is 0.
+	// Total is the sum over weeks (and regions); for controls, reach and
+	// frequencies it is 0.
 	Total float64
 	// Share is the column's part of all spend (Total over the sum of the
 	// spend columns' totals); 0 for other columns.
@@ -94,7 +119,7 @@ func Summarize(d *Dataset) Summary {
 			if v == 0 {
 				c.ZeroWeeks++
 			}
-			if role != "controls" {
+			if role != "controls" && role != "frequency" && role != "reach" {
 				c.Total += v
 			}
 		}
@@ -110,6 +135,33 @@ func Summarize(d *Dataset) Summary {
 	add(d.Spec.Outcome, "outcome", nat.Outcome)
 	for i, n := range d.Spec.Controls {
 		add(n, "controls", nat.Controls[i])
+	}
+	for c, col := range d.Spec.Upper {
+		e, ok := d.Spec.ExposureOf(col)
+		if !ok || c >= len(nat.Exposure) || nat.Exposure[c] == nil {
+			continue
+		}
+		unit := "exposure"
+		if e.Frequency != "" {
+			unit = "reach"
+		}
+		add(e.Column, unit, nat.Exposure[c])
+		if e.Frequency != "" && c < len(nat.Frequency) && nat.Frequency[c] != nil {
+			add(e.Frequency, "frequency", nat.Frequency[c])
+		}
+		var cost []float64
+		for t, x := range nat.Exposure[c] {
+			if sp := nat.Upper[c][t]; sp > 0 && x > 0 {
+				cost = append(cost, sp/x)
+			}
+		}
+		if len(cost) == 0 {
+			continue
+		}
+		k := min(CostWeeks, len(cost))
+		cs := CostSummary{Spend: col, Column: e.Column, Unit: unit, Min: slices.Min(cost), Median: median(cost), Max: slices.Max(cost),
+			First: median(cost[:k]), Last: median(cost[len(cost)-k:]), Break: e.Break}
+		s.Costs = append(s.Costs, cs)
 	}
 	spend := 0.0
 	nm := len(d.Spec.Upper) + len(d.Spec.Search)
@@ -174,7 +226,7 @@ func (s Summary) WriteText(w io.Writer) error {
 	rows := [][]string{{"column", "role", "min", "median", "max", "zero weeks", "total", "share of spend"}}
 	for _, c := range s.Columns {
 		total, share := "", ""
-		if c.Role != "controls" {
+		if c.Role != "controls" && c.Role != "frequency" && c.Role != "reach" {
 			total = human(c.Total)
 		}
 		if c.Role == "upper" || c.Role == "search" {
@@ -201,6 +253,20 @@ func (s Summary) WriteText(w io.Writer) error {
 			rows = append(rows, row)
 		}
 		writeTable(ew, rows, 1)
+	}
+	if len(s.Costs) > 0 {
+		fmt.Fprintf(ew, "\nCost per unit (spend over exposure or reach, weeks with spend):\n")
+		rows = [][]string{{"spend", "per unit of", "min", "median", "max", fmt.Sprintf("first %d weeks", CostWeeks), fmt.Sprintf("last %d weeks", CostWeeks), "change", "break"}}
+		for _, c := range s.Costs {
+			b := c.Break
+			if b == "" {
+				b = "-"
+			}
+			rows = append(rows, []string{c.Spend, c.Column, human(c.Min), human(c.Median), human(c.Max), human(c.First), human(c.Last),
+				fmt.Sprintf("%+.0f%%", 100*(c.Last/c.First-1)), b})
+		}
+		writeTable(ew, rows, 2)
+		fmt.Fprintf(ew, "A change in cost per unit means the same spend bought a different amount of exposure; a jump rather than a drift is warned about below.\n")
 	}
 	if len(s.Warnings) == 0 {
 		fmt.Fprintf(ew, "\nWarnings: none\n")

@@ -60,7 +60,9 @@ type LiftTest struct {
 type liftPath struct {
 	slots ChannelSlots
 	x     []float64
-	sm    *smoothEval // the drift, nil when the coefficient does not drift
+	sm    *smoothEval    // the drift, nil when the coefficient does not drift
+	meas  *measuredInput // the exposure's measurement, nil when taken as given
+	dx    []float64      // scratch: d/d x~ per week of a measured channel
 	// scratch, len T: adstock of the spend and its derivative in lam, the
 	// counterfactual's, responses and their derivatives, and per week the
 	// multiplier, the response difference and d lp/d f(t)
@@ -94,13 +96,9 @@ func (l *LiftTest) Bind(pts []Point) error {
 		if d := p.slots.Drift; d.Has() {
 			p.sm = newSmoothEval(d.Basis, d.SD, d.Len, d.Z)
 		}
+		p.meas = newMeasuredInput(p.slots, p.x)
 		p.alloc()
 		return p
-	}
-	for _, pt := range pts {
-		if j := pt.Stage.ChannelIndex(l.Column); j >= 0 && (pt.Stage.Channels[j].Break != nil || pt.Stage.Channels[j].Error != nil) {
-			return bad("the channel's exposure has a measurement break or error; lift tests on such a channel are not supported yet")
-		}
 	}
 	l.q, l.y, l.gamma = nil, nil, -1
 	switch l.Metric {
@@ -174,6 +172,9 @@ func (p *liftPath) alloc() {
 	if p.slots.Linear() {
 		return
 	}
+	if p.meas != nil {
+		p.dx = mk()
+	}
 	p.a, p.da, p.ac, p.dac = mk(), mk(), mk(), mk()
 	p.h, p.hl, p.hk, p.hs = mk(), mk(), mk(), mk()
 	p.hc, p.hlc, p.hkc, p.hsc = mk(), mk(), mk(), mk()
@@ -187,6 +188,7 @@ func (p *liftPath) clone() *liftPath {
 	if p.sm != nil {
 		c.sm = p.sm.clone()
 	}
+	c.meas = p.meas.clone()
 	c.alloc()
 	return &c
 }
@@ -284,11 +286,16 @@ func (p *liftPath) diff(v []float64, from, to int) {
 		return
 	}
 	lam := v[p.slots.Lam]
+	xs := p.x
+	if p.meas != nil {
+		xs = p.meas.input(v, to) // the measured exposure: x~
+	}
 	// the spend's adstock up to the window's end; the counterfactual's is
-	// the same before the window and decays inside it (no new spend)
+	// the same before the window and decays inside it (no new spend, so
+	// no exposure)
 	prev, dprev := 0.0, 0.0
 	for t := 0; t <= to; t++ {
-		x := p.x[t]
+		x := xs[t]
 		d := prev - x + lam*dprev
 		prev = (1-lam)*x + lam*prev
 		p.a[t], p.da[t] = prev, d
@@ -328,6 +335,9 @@ func (p *liftPath) addGrad(g, v []float64, r float64, from, to int) {
 		g[p.slots.K] += r * coef * p.d[2]
 		g[p.slots.S] += r * coef * p.d[3]
 	}
+	if p.meas != nil {
+		p.measuredGrad(g, v, r*coef, from, to)
+	}
 	if p.sm == nil {
 		return
 	}
@@ -336,4 +346,36 @@ func (p *liftPath) addGrad(g, v []float64, r float64, from, to int) {
 		p.r[t] = rc * p.mult[t] * p.dh[t] // d/d f(t) of coef m(t) dH(t)
 	}
 	p.sm.backward(g, v, p.r, from, to+1)
+}
+
+// measuredGrad adds r d(p.d[0])/dv for the measurement parameters of a
+// measured channel, after diff. With H' = dH/da = S H (1 - H) / a, the
+// window's sum depends on x~[u] through the actual adstock, for u up to
+// the window's end, and through the counterfactual's, for u before the
+// window:
+//
+//	d/d x~[u] = (1 - lam) (sum_{t >= max(u, from)} lam^(t-u) m(t) H'(a[t])
+//	           - [u < from] sum_{t >= from} lam^(t-u) m(t) H'(ac[t]))
+//
+// over t up to the window's end, two backward recursions.
+func (p *liftPath) measuredGrad(g, v []float64, r float64, from, to int) {
+	lam, s := v[p.slots.Lam], v[p.slots.S]
+	dhill := func(h, a float64) float64 {
+		if a > 0 {
+			return s * h * (1 - h) / a
+		}
+		return 0
+	}
+	var u, uc float64
+	for t := to; t >= 0; t-- {
+		if t >= from {
+			u = p.mult[t]*dhill(p.h[t], p.a[t]) + lam*u
+			uc = p.mult[t]*dhill(p.hc[t], p.ac[t]) + lam*uc
+			p.dx[t] = (1 - lam) * u
+		} else {
+			u, uc = lam*u, lam*uc
+			p.dx[t] = (1 - lam) * (u - uc)
+		}
+	}
+	p.meas.backward(g, v, p.dx, r, to)
 }

@@ -233,6 +233,41 @@ func NewReturnPrior(sc *Scaled, col string, path ReturnPath, m ReturnMeasure, wi
 
 var _ CrossTerm = (*ReturnPrior)(nil)
 
+// On returns r restated on sc, a refit's data over the same weeks from
+// the same first week (a simulated replicate, spend moved in time, weeks
+// left out, or the data cut short): the same stated prior on the return
+// over the same weeks, with sc's spend in the window and sc's outcome
+// scale. It fails when sc lacks a week of the window, which a fit that ends
+// before the window cannot state, or when the channel has no spend in it.
+func (r *ReturnPrior) On(sc *Scaled) (*ReturnPrior, error) {
+	c := -1
+	for i, n := range sc.UpperNames {
+		if n == r.Column {
+			c = i
+		}
+	}
+	if c < 0 {
+		return nil, fmt.Errorf("%s: %s is not an upper-funnel column of the data", r.Name(), r.Column)
+	}
+	w, ok := r.Window.In(sc.Weeks)
+	if !ok || w.From != r.Window.From || w.To != r.Window.To {
+		return nil, fmt.Errorf("%s: the data do not hold every week of its window %s", r.Name(), r.Window.Name)
+	}
+	spend := 0.0
+	for t := w.From; t <= w.To; t++ {
+		spend += sc.RawUpper[c][t]
+	}
+	if !(spend > 0) {
+		return nil, fmt.Errorf("%s: %s has no spend in window %s", r.Name(), r.Column, w.Name)
+	}
+	out := r.Term(r.Demand, r.Outcome)
+	out.Window, out.Spend, out.Scale = w, spend, sc.OutcomeScale
+	if r.Measure == ReturnOnSpend {
+		out.Scale = sc.OutcomeScale * r.Per / spend
+	}
+	return out, nil
+}
+
 // effectPath is a channel's part in one stage for a return: its slots,
 // spend and scratch for the actual and counterfactual responses from the
 // window's first week to the data's last.
@@ -240,6 +275,9 @@ type effectPath struct {
 	slots ChannelSlots
 	x     []float64
 	sm    *smoothEval
+	meas  *measuredInput // the exposure's measurement, nil when taken as given
+	dx    []float64      // scratch: d/d x~ per week of a measured channel
+	to    int            // the window's last week in the last diff
 	// scratch, len T (as liftPath)
 	a, da, ac, dac    []float64
 	h, hl, hk, hs     []float64
@@ -257,6 +295,7 @@ func newEffectPath(pt Point, col string) *effectPath {
 	if d := p.slots.Drift; d.Has() {
 		p.sm = newSmoothEval(d.Basis, d.SD, d.Len, d.Z)
 	}
+	p.meas = newMeasuredInput(p.slots, p.x)
 	p.alloc()
 	return p
 }
@@ -267,6 +306,9 @@ func (p *effectPath) alloc() {
 	p.mult, p.dh, p.r = mk(), mk(), mk()
 	if p.slots.Linear() {
 		return
+	}
+	if p.meas != nil {
+		p.dx = mk()
 	}
 	p.a, p.da, p.ac, p.dac = mk(), mk(), mk(), mk()
 	p.h, p.hl, p.hk, p.hs = mk(), mk(), mk(), mk()
@@ -281,6 +323,7 @@ func (p *effectPath) clone() *effectPath {
 	if p.sm != nil {
 		c.sm = p.sm.clone()
 	}
+	c.meas = p.meas.clone()
 	c.alloc()
 	return &c
 }
@@ -291,7 +334,7 @@ func (p *effectPath) clone() *effectPath {
 // effect of the window's spend, its carryover into later weeks included.
 func (p *effectPath) diff(v []float64, from, to int) {
 	T := len(p.x)
-	p.d = [4]float64{}
+	p.d, p.to = [4]float64{}, to
 	if p.sm != nil {
 		p.sm.eval(v, from, T)
 		for t := from; t < T; t++ {
@@ -313,9 +356,13 @@ func (p *effectPath) diff(v []float64, from, to int) {
 		return
 	}
 	lam := v[p.slots.Lam]
+	xs := p.x
+	if p.meas != nil {
+		xs = p.meas.input(v, T-1) // the measured exposure: x~
+	}
 	prev, dprev := 0.0, 0.0
 	for t := 0; t < T; t++ {
-		x := p.x[t]
+		x := xs[t]
 		d := prev - x + lam*dprev
 		prev = (1-lam)*x + lam*prev
 		p.a[t], p.da[t] = prev, d
@@ -328,7 +375,7 @@ func (p *effectPath) diff(v []float64, from, to int) {
 	for t := from; t < T; t++ {
 		x := 0.0
 		if t > to {
-			x = p.x[t]
+			x = xs[t]
 		}
 		d := prev - x + lam*dprev
 		prev = (1-lam)*x + lam*prev
@@ -358,6 +405,9 @@ func (p *effectPath) addGrad(g, v []float64, r float64, from int) {
 		g[p.slots.K] += r * coef * p.d[2]
 		g[p.slots.S] += r * coef * p.d[3]
 	}
+	if p.meas != nil {
+		p.measuredGrad(g, v, r*coef, from)
+	}
 	if p.sm == nil {
 		return
 	}
@@ -368,6 +418,43 @@ func (p *effectPath) addGrad(g, v []float64, r float64, from int) {
 	}
 	p.sm.backward(g, v, p.r, from, T)
 }
+
+// measuredGrad adds r d(p.d[0])/dv for the measurement parameters of a
+// measured channel, after diff (whose window it reads). With H' = dH/da =
+// S H (1 - H) / a, x~[u] enters the actual adstock from week u on and the
+// counterfactual's unless u is in the window:
+//
+//	d/d x~[u] = (1 - lam) sum_{t >= max(u, from)} lam^(t-u) m(t) (H'(a[t]) - [u not in window] H'(ac[t]))
+//
+// two backward recursions.
+func (p *effectPath) measuredGrad(g, v []float64, r float64, from int) {
+	lam, s := v[p.slots.Lam], v[p.slots.S]
+	dhill := func(h, a float64) float64 {
+		if a > 0 {
+			return s * h * (1 - h) / a
+		}
+		return 0
+	}
+	T := len(p.x)
+	var u, uc float64
+	for t := T - 1; t >= 0; t-- {
+		if t >= from {
+			u = p.mult[t]*dhill(p.h[t], p.a[t]) + lam*u
+			uc = p.mult[t]*dhill(p.hc[t], p.ac[t]) + lam*uc
+		} else {
+			u, uc = lam*u, lam*uc
+		}
+		p.dx[t] = (1 - lam) * u
+		if !p.inWindow(t, from) {
+			p.dx[t] -= (1 - lam) * uc
+		}
+	}
+	p.meas.backward(g, v, p.dx, r, T-1)
+}
+
+// inWindow reports whether week t is in the window from..to of the last
+// diff: a week from on whose counterfactual input was zero.
+func (p *effectPath) inWindow(t, from int) bool { return t >= from && t <= p.to }
 
 // Bind finds the channel in the stages its path involves, and gamma.
 func (r *ReturnPrior) Bind(pts []Point) error {
@@ -567,11 +654,6 @@ func applyReturns(st *Stage, rs []*ReturnPrior, demand bool) error {
 			continue
 		}
 		if j := st.ChannelIndex(r.Column); j >= 0 {
-			// the return's term runs the channel's input as given; a break,
-			// an error or a frequency curve would change it under the term
-			if c := st.Channels[j]; c.Break != nil || c.Error != nil || c.Freq != nil {
-				return fmt.Errorf("a return prior on %s: the channel's exposure has a measurement break, an error or a frequency curve; return priors on such a channel are not supported yet", r.Column)
-			}
 			st.Channels[j].Params[0].Prior = Prior{Family: Conditional}
 		}
 	}

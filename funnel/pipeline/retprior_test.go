@@ -61,6 +61,51 @@ func demoReturns(t *testing.T) (*model.Scaled, model.Options, string) {
 // must be the return prior term's own (model.ReturnPrior.Value).
 func TestReturnPriorThroughSplit(t *testing.T) {
 	sc, o, _ := demoReturns(t)
+	returnsThroughSplit(t, sc, o)
+}
+
+// TestReturnPriorMeasuredThroughSplit is TestReturnPriorThroughSplit on a
+// channel whose exposure is measured with doubt: video's return per
+// thousand in the last full quarter and its direct incremental outcome
+// over the whole period, stated on exposure-break data (a break and, with
+// --exposure-error, latent errors) and on reach-frequency data, pushed
+// through the measured input by the forward simulator, come back as
+// stated.
+func TestReturnPriorMeasuredThroughSplit(t *testing.T) {
+	for _, name := range []string{"exposure-break", "reach-frequency"} {
+		s, err := scenario.Named(name, 4, 0, 0)
+		if err != nil {
+			t.Fatal(err)
+		}
+		res, err := s.Simulate()
+		if err != nil {
+			t.Fatal(err)
+		}
+		spec := s.Roles()
+		if name == "exposure-break" {
+			spec.Exposure[0].Error = 0.2
+		}
+		sc := model.Scale(res.Data.National(), spec)
+		q, _ := window.LastFullQuarter(sc.Weeks)
+		p := filepath.Join(t.TempDir(), "priors.csv")
+		text := "parameter,family,p1,p2,window,per\n" +
+			"return[video_spend],lognormal90,0.5,3," + q.Name + ",1000\n" +
+			"incremental_direct[audio_spend],lognormal,20000,10000,,\n"
+		if err := os.WriteFile(p, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		o, err := Choices{Priors: p}.Options(sc)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		returnsThroughSplit(t, sc, o)
+	}
+}
+
+// returnsThroughSplit is TestReturnPriorThroughSplit's check of the
+// return priors of o on sc.
+func returnsThroughSplit(t *testing.T, sc *model.Scaled, o model.Options) {
+	t.Helper()
 	st, err := Stages(sc, o)
 	if err != nil {
 		t.Fatal(err)

@@ -544,6 +544,7 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 	}
 	if len(hjobs) == 0 {
 		v.Headline = "not run (no origins)"
+		skippedNotes(&v, m, "origin ")
 		rep.Verdicts = append(rep.Verdicts, v)
 		return
 	}
@@ -728,6 +729,7 @@ func (rep *Report) holdout(m Manifest, fc map[[2]string]jobStats, order [][2]str
 	}
 	v.Details = append(v.Details, "90% forecast intervals cover "+strings.Join(covs, "; ")+".")
 	v.Details = append(v.Details, fmt.Sprintf("Neighbouring forecast weeks are not independent: each comparison and coverage is judged on an effective number of weeks, n (1 - r) / (1 + r) with r the lag-1 autocorrelation within origins; a difference counts when its 95%% interval (Student t) excludes zero (a Diebold-Mariano comparison), a coverage when it leaves the central 95%% binomial range. The baseline is the same week a year earlier times the recent level (last %d training weeks over the same weeks a year before); the model without media is this model with every spend term removed (the outcome stage keeps the queries).", LevelWeeks))
+	skippedNotes(&v, m, "origin ")
 	rep.Verdicts = append(rep.Verdicts, v)
 }
 
@@ -830,9 +832,7 @@ func (rep *Report) stability(m Manifest, eff map[effectKey]jobStats, order []eff
 		regionsOut = ", " + plural(nr, "refit") + " leaving out one region"
 	}
 	v.Details = append(v.Details, fmt.Sprintf("Moves are in posterior sds of the reference fit, over %s leaving out one quarter%s and %s with other seeds. A move is flagged above %.0f sd, or, when a fraction f of the weeks is left out, above %.1f sqrt(f/(1-f)) sd if that is larger (%.2f sd for a 13-week quarter of these %d weeks): losing data moves an estimate by about sqrt(f/(1-f)) sd by chance alone.", plural(nq, "refit"), regionsOut, plural(ns, "refit"), Swing, LeaveOutZ, swingAt(13, m.Weeks), m.Weeks))
-	for _, s := range m.Skipped {
-		v.Details = append(v.Details, "Note: "+s+".")
-	}
+	skippedNotes(&v, m, "")
 	rep.Verdicts = append(rep.Verdicts, v)
 }
 

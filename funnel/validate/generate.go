@@ -115,7 +115,7 @@ func (sw *Sweep) simulate(g *generator, v1, v2 []float64, rng *rand.Rand) (*repl
 	}
 	s := sw.in.Series
 	rep := &replicate{series: data.Series{Weeks: s.Weeks, Upper: s.Upper, Search: s.Search, Controls: s.Controls,
-		Queries: make([]float64, T), Outcome: make([]float64, T)}}
+		Exposure: s.Exposure, Frequency: s.Frequency, Queries: make([]float64, T), Outcome: make([]float64, T)}}
 	for t := range q {
 		rep.series.Queries[t] = q[t] * base.QueriesScale
 		rep.series.Outcome[t] = y[t] * base.OutcomeScale

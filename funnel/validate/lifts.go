@@ -13,16 +13,21 @@ import (
 	"spillway/funnel/pipeline"
 )
 
-// fitTests is fit with lift tests as data (pipeline.FitStages: the two
-// stages as one joint target when a test is of the outcome); with no
-// tests, fit itself, so a sweep without tests is unchanged.
+// fitTests is fit with lift tests as data and the stated return priors
+// restated on sc (pipeline.FitStages: the two stages as one joint target
+// when a test is of the outcome or a return prior ties them); with
+// neither, fit itself, so a sweep without them is unchanged.
 func (sw *Sweep) fitTests(ctx context.Context, sc *model.Scaled, seed uint64, tests []lifts.Test) (*fitted, error) {
-	if len(tests) == 0 {
+	if len(tests) == 0 && len(sw.in.Options.Returns) == 0 {
 		return sw.fit(ctx, sc, seed)
+	}
+	o, err := sw.optionsFor(sc)
+	if err != nil {
+		return nil, err
 	}
 	set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed,
 		TargetAccept: pipeline.DefaultTargetAccept}
-	pf, err := pipeline.FitStages(ctx, sc, sw.in.Options, tests, set, nil)
+	pf, err := pipeline.FitStages(ctx, sc, o, tests, set, nil)
 	if err != nil {
 		return nil, err
 	}

@@ -110,6 +110,7 @@ func (rep *Report) placebo(m Manifest, ps placeboStats) {
 	}
 	if len(channels) == 0 || refJob < 0 {
 		v.Headline = "not run (no placebos)"
+		skippedNotes(&v, m, "placebo ")
 		rep.Verdicts = append(rep.Verdicts, v)
 		return
 	}
@@ -162,5 +163,6 @@ func (rep *Report) placebo(m Manifest, ps placeboStats) {
 		v.Details = append(v.Details, "Standing out (p <= 0.05): "+strings.Join(strong, ", ")+".")
 	}
 	v.Details = append(v.Details, "p = (1 + number of placebos at or above the real effect) / (1 + placebos); with no real effect it is roughly uniform, so a large p says the data cannot tell this effect from one the spend's timing could not have caused.")
+	skippedNotes(&v, m, "placebo ")
 	rep.Verdicts = append(rep.Verdicts, v)
 }

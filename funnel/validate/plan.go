@@ -277,12 +277,6 @@ func New(in Input, s Settings) (*Sweep, error) {
 	if T < 2 {
 		return nil, fmt.Errorf("validate: the data have %d weeks", T)
 	}
-	if len(in.Options.Returns) > 0 {
-		// a return prior is resolved against the fitted data's spend and
-		// outcome scale and needs a joint fit; the sweep refits stages
-		// one by one on other data
-		return nil, fmt.Errorf("validate: the fit has priors on returns (%s); validation does not refit them yet: validate a fit without them", in.Options.Returns[0].Name())
-	}
 	sw := &Sweep{in: in, set: set}
 	sw.base = model.Scale(in.Series, in.Spec)
 	if sw.stages[0], err = model.Demand(sw.base, in.Options); err != nil {
@@ -376,6 +370,10 @@ func (sw *Sweep) plan() error {
 			if why := trainable(in.Series, in.Spec, train); why != "" {
 				return fmt.Errorf("validate: the weeks before %s cannot be fitted: %s", in.Series.Weeks[origin].Format(data.DateLayout), why)
 			}
+			if why := sw.holdoutReturns(origin + s.Horizon); why != "" {
+				sw.skipped = append(sw.skipped, fmt.Sprintf("origin %s not run: %s", in.Series.Weeks[origin].Format(data.DateLayout), why))
+				continue
+			}
 			add(Job{Check: Holdout, Label: "origin " + in.Series.Weeks[origin].Format(data.DateLayout), Origin: origin})
 		}
 	}
@@ -419,6 +417,12 @@ func (sw *Sweep) plan() error {
 	if s.has(Placebo) {
 		for c, col := range append(append([]string(nil), in.Spec.Upper...), in.Spec.Search...) {
 			for _, k := range PlaceboShifts(JobSeed(s.Seed, -1-c), T, s.Placebos) {
+				if c < len(in.Spec.Upper) {
+					if why := sw.placeboReturns(c, col, k); why != "" {
+						sw.skipped = append(sw.skipped, fmt.Sprintf("placebo %s moved %d weeks not run: %s", col, k, why))
+						continue
+					}
+				}
 				add(Job{Check: Placebo, Label: fmt.Sprintf("placebo %s moved %d weeks", col, k), Channel: col, Shift: k})
 			}
 		}
@@ -577,6 +581,7 @@ func optionsID(o model.Options) string {
 	if o.Plain {
 		parts = append(parts, "plain")
 	}
+	parts = append(parts, returnsID(o)...)
 	if len(parts) == 0 {
 		return "default"
 	}

@@ -43,7 +43,8 @@ type Manifest struct {
 	Regions []string `json:"regions,omitempty"`
 	// Jobs lists every job of the sweep.
 	Jobs []Job `json:"jobs"`
-	// Skipped lists quarters the stability check could not leave out.
+	// Skipped lists quarters the stability check could not leave out, and
+	// holdout origins and placebos a stated return prior rules out.
 	Skipped []string `json:"skipped,omitempty"`
 	// Shard is "i/n" for a shard, empty for a whole sweep.
 	Shard string `json:"shard,omitempty"`

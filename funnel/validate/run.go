@@ -295,18 +295,22 @@ func placeboRecord(job int, res *mediation.Result, col string) Record {
 func (sw *Sweep) placeboJob(ctx context.Context, j Job) ([]Record, error) {
 	s := sw.in.Series
 	moved := data.Series{Weeks: s.Weeks, Upper: append([][]float64(nil), s.Upper...), Search: append([][]float64(nil), s.Search...),
-		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls, Exposure: append([][]float64(nil), s.Exposure...)}
+		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls, Exposure: append([][]float64(nil), s.Exposure...),
+		Frequency: append([][]float64(nil), s.Frequency...)}
 	if c := slices.Index(sw.in.Spec.Upper, j.Channel); c >= 0 {
 		moved.Upper[c] = ShiftSpend(nil, s.Upper[c], j.Shift)
 		if s.Exposure != nil && s.Exposure[c] != nil { // the exposure moves with its spend
 			moved.Exposure[c] = ShiftSpend(nil, s.Exposure[c], j.Shift)
+		}
+		if s.Frequency != nil && s.Frequency[c] != nil { // and so does its frequency
+			moved.Frequency[c] = ShiftSpend(nil, s.Frequency[c], j.Shift)
 		}
 	} else if c := slices.Index(sw.in.Spec.Search, j.Channel); c >= 0 {
 		moved.Search[c] = ShiftSpend(nil, s.Search[c], j.Shift)
 	} else {
 		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
 	}
-	f, err := sw.fit(ctx, model.Scale(moved, sw.in.Spec), j.Seed)
+	f, err := sw.fitTests(ctx, model.Scale(moved, sw.in.Spec), j.Seed, nil)
 	if err != nil {
 		return nil, err
 	}
@@ -634,12 +638,15 @@ func cutSeries(s data.Series, n int) data.Series {
 		}
 		out := make([][]float64, len(cols))
 		for i, c := range cols {
-			out[i] = c[:n]
+			if c != nil { // an exposure of a channel without one
+				out[i] = c[:n]
+			}
 		}
 		return out
 	}
 	return data.Series{Weeks: s.Weeks[:n], Upper: cut(s.Upper), Search: cut(s.Search),
-		Queries: s.Queries[:n], Outcome: s.Outcome[:n], Controls: cut(s.Controls)}
+		Queries: s.Queries[:n], Outcome: s.Outcome[:n], Controls: cut(s.Controls),
+		Exposure: cut(s.Exposure), Frequency: cut(s.Frequency)}
 }
 
 // stabilityJob refits without one quarter (masked out of the likelihood)
