@@ -80,9 +80,10 @@ func BenchmarkPanelFit(b *testing.B) {
 				g += c.Stats.GradientEvaluations
 			}
 			wall, cpu, grads = wall+w, cpu+c1-c0, grads+g
-			b.Logf("%d x %d, 4 x (%d + %d): %v", G, T, warm, draws, diagnose(StageNames[k], fit, w))
-			b.Logf("  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%.0f us cpu each), load average %s",
-				c1-c0, (c1-c0)/2, g, 1e6*(c1-c0)/float64(g), loadAverage())
+			line := fmt.Sprintf("%d x %d, 4 x (%d + %d): %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%.0f us cpu each), load average %s",
+				G, T, warm, draws, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, 1e6*(c1-c0)/float64(g), loadAverage())
+			b.Log(line)
+			fmt.Fprintln(os.Stderr, line) // at once: a long run's log lines otherwise wait for its end
 		}
 		_, peak := usage()
 		b.ReportMetric(wall, "wall-s")
