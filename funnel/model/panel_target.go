@@ -3,6 +3,7 @@ package model
 import (
 	"fmt"
 	"math"
+	"slices"
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/stat"
@@ -132,17 +133,13 @@ func (p *Panel) Target() (*PanelTarget, error) {
 				ref += s.hbar
 				nref++
 			}
-			if !pc.linear {
-				T := len(s.x)
-				s.a, s.da = make([]float64, T), make([]float64, T)
-				s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
-			}
 		}
+		pc.same = sameSeries(pc.series)
 		pc.abar = 1
 		if nref > 0 {
 			pc.abar = ref / float64(nref)
 		}
-		t.chans = append(t.chans, pc)
+		t.chans = append(t.chans, pc.clone()) // clone allocates the series' scratch
 	}
 	for k, h := range hier {
 		hyper := bl.GammaSlot()
@@ -526,6 +523,11 @@ type panelChannel struct {
 	linear       bool
 	abar         float64
 	series       []panelSeries
+	// same[g] is the first region whose spend series equals region g's
+	// (g itself if none before it): regions with the same scaled flights
+	// (a national buy split by size, regions that never run the channel)
+	// share one transformed series, computed once.
+	same         []int
 	href         float64
 	hrefK, hrefS float64
 }
@@ -536,12 +538,32 @@ func (c *panelChannel) clone() *panelChannel {
 	if !c.linear {
 		for g := range d.series {
 			s := &d.series[g]
+			if f := c.same[g]; f != g {
+				s.a, s.da, s.h, s.hl, s.hk, s.hs = d.series[f].a, d.series[f].da, d.series[f].h, d.series[f].hl, d.series[f].hk, d.series[f].hs
+				continue
+			}
 			T := len(s.x)
 			s.a, s.da = make([]float64, T), make([]float64, T)
 			s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
 		}
 	}
 	return &d
+}
+
+// sameSeries returns, for each region, the first region whose spend series
+// is equal to its own, value for value.
+func sameSeries(series []panelSeries) []int {
+	same := make([]int, len(series))
+	for g := range series {
+		same[g] = g
+		for f := 0; f < g; f++ {
+			if same[f] == f && slices.Equal(series[f].x, series[g].x) {
+				same[g] = f
+				break
+			}
+		}
+	}
+	return same
 }
 
 // prepare computes every region's response (with derivatives when grad)
@@ -554,6 +576,12 @@ func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 	lam, k, s := nat[c.k[1]], nat[c.k[2]], nat[c.k[3]]
 	for g := range c.series {
 		r := &c.series[g]
+		if f := c.same[g]; f != g {
+			// the same arrays as region f's (Target, clone): only the means
+			q := &c.series[f]
+			r.hbar, r.hlbar, r.hkbar, r.hsbar = q.hbar, q.hlbar, q.hkbar, q.hsbar
+			continue
+		}
 		T := float64(len(r.x))
 		if grad {
 			transform.AdstockGrad(r.a, r.da, r.x, lam)

@@ -135,8 +135,10 @@ func sdOf(x []float64) float64 {
 // TestPanelExplore fits a simulated panel and prints its convergence, for
 // measurements only: SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]] with
 // stages a string of stage numbers (012: demand, outcome, naive) and coords
-// chosen (the default), nc (every weight 0), c (every weight 1) or round
-// (the chosen weights rounded to 0 or 1).
+// chosen (the default), nc (every weight 0), c (every weight 1), munc (the
+// intercepts non-centred, the coefficients chosen), coefnc (the reverse) or
+// round (the chosen weights rounded to 0 or 1); SPILLWAY_PANEL_ACCEPT sets
+// the target acceptance.
 func TestPanelExplore(t *testing.T) {
 	spec := os.Getenv("SPILLWAY_PANEL")
 	if spec == "" {
@@ -177,6 +179,10 @@ func TestPanelExplore(t *testing.T) {
 			c = p.Uniform(0)
 		case "c":
 			c = p.Uniform(1)
+		case "munc": // intercepts non-centred, coefficients as chosen
+			c.Mu = p.Uniform(0).Mu
+		case "coefnc": // coefficients non-centred, intercepts as chosen
+			c.Coef = p.Uniform(0).Coef
 		case "round":
 			for _, w := range append([][]float64{c.Mu}, c.Coef...) {
 				for g := range w {
@@ -190,6 +196,9 @@ func TestPanelExplore(t *testing.T) {
 			t.Fatal(err)
 		}
 		set := mcmc.Settings{Chains: 4, Warmup: v[2], Draws: v[3], Seed: 1, TargetAccept: DefaultTargetAccept}
+		if a, err := strconv.ParseFloat(os.Getenv("SPILLWAY_PANEL_ACCEPT"), 64); err == nil {
+			set.TargetAccept = a
+		}
 		t0 := time.Now()
 		fit, err := mcmc.Run(context.Background(), tg, &set)
 		if err != nil {
