@@ -26,7 +26,9 @@ import (
 // two idle cores would take, the chains running two at a time) and the
 // peak resident memory. SPILLWAY_PANEL_BENCH=G,T[,warmup,draws] sets
 // another size or chain length (the 200 x 156 run:
-// SPILLWAY_PANEL_BENCH=200,156).
+// SPILLWAY_PANEL_BENCH=200,156); SPILLWAY_PANEL_STAGES=0 or 1 runs the
+// demand or the outcome stage alone (each stage has its own seed, so the
+// two run apart give the figures of one run of both).
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
@@ -43,6 +45,15 @@ func BenchmarkPanelFit(b *testing.B) {
 			*v[i] = n
 		}
 	}
+	stages := "01"
+	if s := os.Getenv("SPILLWAY_PANEL_STAGES"); s != "" {
+		for _, ch := range s {
+			if ch != '0' && ch != '1' {
+				b.Fatalf("SPILLWAY_PANEL_STAGES=%s: want stage numbers, 0 demand and 1 outcome", s)
+			}
+		}
+		stages = s
+	}
 	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: 40, Dark: G / 8, Big: true})
 	if err != nil {
 		b.Fatal(err)
@@ -57,7 +68,8 @@ func BenchmarkPanelFit(b *testing.B) {
 	}
 	for b.Loop() {
 		wall, cpu, grads := 0.0, 0.0, 0
-		for k := 0; k < 2; k++ {
+		for _, ch := range stages {
+			k := int(ch - '0')
 			p := panels[k]
 			if p.Coords, err = model.ChooseCoordinates(p); err != nil {
 				b.Fatal(err)
