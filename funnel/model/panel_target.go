@@ -103,6 +103,20 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		t.inter.tauPos = t.lay.tauMu
 		t.inter.lam = coords.Mu
 		t.inter.block = block()
+		if coords.MuConditional {
+			t.inter.cond = &condIntercept{sigma: t.sigma}
+			for g := range p.Stages {
+				n, sum := 0.0, 0.0
+				for i, y := range t.y[g] {
+					if t.mask[g] == nil || !t.mask[g][i] {
+						n++
+						sum += y
+					}
+				}
+				t.inter.cond.n = append(t.inter.cond.n, n)
+				t.inter.cond.ybar = append(t.inter.cond.ybar, sum/n)
+			}
+		}
 	}
 	// shared regressors and the coefficients that vary by region
 	bl := nt.st.Layout()
@@ -235,6 +249,10 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		c.coefs[i] = &d
 	}
 	in := *t.inter
+	if t.inter.cond != nil {
+		cd := *t.inter.cond
+		in.cond = &cd
+	}
 	c.inter = &in
 	c.alloc()
 	return &c
@@ -775,10 +793,34 @@ type panelIntercept struct {
 	pooled   bool
 	v, s, gv []float64 // mu[g], S_g, d prior / d mu[g]
 	x        []float64
+	cond     *condIntercept // the conditional coordinates, when chosen (lam unused)
 }
 
 func (c *panelIntercept) alloc(G int) {
 	c.v, c.s, c.gv = make([]float64, G), make([]float64, G), make([]float64, G)
+	if c.cond != nil {
+		c.cond.prec, c.cond.mean, c.cond.sd = make([]float64, G), make([]float64, G), make([]float64, G)
+	}
+}
+
+// condIntercept holds the intercepts' conditional coordinates: given every
+// other parameter, region g's intercept has the normal posterior of a
+// normal mean with n[g] observations of residual mean ybar[g] - S_g and
+// sd sigma, under the prior Normal(mu, tau_mu):
+//
+//	prec = n/sigma^2 + 1/tau^2,  mean = (n (ybar - S_g)/sigma^2 + mu/tau^2) / prec,
+//
+// and the sampler moves v[g] in mu[g] = mean + v[g]/sqrt(prec), with
+// log-Jacobian -log(prec)/2. The posterior of v[g] is then exactly
+// Normal(0, 1), independent of the other parameters: no funnel between the
+// intercepts and tau_mu whatever the data say, and no ridge between an
+// intercept and its region's coefficients (S_g). It is the limit of the
+// partial non-centring with lam[g] = (n/sigma^2)/prec chosen afresh at every
+// point (Papaspiliopoulos, Roberts and Sköld 2007, section 3).
+type condIntercept struct {
+	sigma          int       // position of sigma
+	n, ybar        []float64 // per region: observed weeks and their mean
+	prec, mean, sd []float64
 }
 
 func (c *panelIntercept) values(nat, x []float64) bool {
@@ -791,6 +833,18 @@ func (c *panelIntercept) values(nat, x []float64) bool {
 		return true
 	}
 	mu, tau := nat[c.mu], nat[c.tauPos]
+	if cd := c.cond; cd != nil {
+		sigma := nat[cd.sigma]
+		a0, b := 1/(sigma*sigma), 1/(tau*tau)
+		for g := range c.v {
+			a := cd.n[g] * a0
+			p := a + b
+			cd.prec[g], cd.sd[g] = p, 1/math.Sqrt(p)
+			cd.mean[g] = (a*(cd.ybar[g]-c.s[g]) + b*mu) / p
+			c.v[g] = cd.mean[g] + cd.sd[g]*x[c.block+g]
+		}
+		return true
+	}
 	for g := range c.v {
 		lam := c.lam[g]
 		c.v[g] = (1-lam)*mu + math.Pow(tau, 1-lam)*x[c.block+g] - lam*c.s[g]
@@ -809,10 +863,18 @@ func (c *panelIntercept) prior(nat, gn []float64) float64 {
 	lp, gmu, gtau := 0.0, 0.0, 0.0
 	for g, v := range c.v {
 		z := (v - mu) / tau
-		lp += -0.5*z*z - c.lam[g]*ltau
+		if c.cond != nil {
+			lp += -0.5*z*z - ltau - 0.5*math.Log(c.cond.prec[g])
+		} else {
+			lp += -0.5*z*z - c.lam[g]*ltau
+		}
 		c.gv[g] = -z / tau
 		gmu += z / tau
-		gtau += z*z/tau - c.lam[g]/tau
+		if c.cond != nil {
+			gtau += z*z/tau - 1/tau // the Jacobian's part: backward
+		} else {
+			gtau += z*z/tau - c.lam[g]/tau
+		}
 	}
 	if gn != nil {
 		gn[c.mu] += gmu
@@ -835,6 +897,34 @@ func (c *panelIntercept) backward(grad, nat, gn, sw, gS []float64) {
 	}
 	tau := nat[c.tauPos]
 	gmu, gtau := 0.0, 0.0
+	if cd := c.cond; cd != nil {
+		// mu[g] = mean + v sd: its derivatives in S_g, mu, and through
+		// a = n/sigma^2 and b = 1/tau^2 (prec = a + b) in sigma and tau, with
+		// the log-Jacobian -log(prec)/2's
+		sigma := nat[cd.sigma]
+		mu := nat[c.mu]
+		a0, b := 1/(sigma*sigma), 1/(tau*tau)
+		gsig := 0.0
+		for g := range c.v {
+			G := sw[g] + c.gv[g]
+			p, sd, m, v := cd.prec[g], cd.sd[g], cd.mean[g], c.x[c.block+g]
+			a := cd.n[g] * a0
+			w := a / p
+			grad[c.block+g] = G * sd
+			gmu += G * (1 - w)
+			gS[g] = -w * G
+			half := -0.5 * v * sd / p // d(v sd)/da, the same in b
+			jac := -0.5 / p           // d(-log(prec)/2)/da, the same in b
+			dA := G*((cd.ybar[g]-c.s[g]-m)/p+half) + jac
+			dB := G*((mu-m)/p+half) + jac
+			gsig += dA * (-2 * a / sigma)
+			gtau += dB * (-2 * b / tau)
+		}
+		gn[c.mu] += gmu
+		gn[c.tauPos] += gtau
+		gn[cd.sigma] += gsig
+		return
+	}
 	for g := range c.v {
 		lam := c.lam[g]
 		G := sw[g] + c.gv[g]

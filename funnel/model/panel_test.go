@@ -84,14 +84,19 @@ var panelBuilds = []panelBuild{{"demand", Demand}, {"outcome", Outcome}, {"naive
 // evaluation allocates nothing.
 func TestPanelGradient(t *testing.T) {
 	for _, b := range panelBuilds {
-		for _, G := range []int{1, 4} {
+		for _, c := range []struct {
+			G    int
+			cond bool
+		}{{1, false}, {4, false}, {4, true}} {
+			G := c.G
 			p := testPanel(t, G, 30, b.build, G > 1)
 			p.Coords = randomCoords(p, uint64(G))
+			p.Coords.MuConditional = c.cond
 			tg, err := p.Target()
 			if err != nil {
 				t.Fatal(err)
 			}
-			t.Run(fmt.Sprintf("%s G=%d", b.name, G), func(t *testing.T) {
+			t.Run(fmt.Sprintf("%s G=%d conditional=%v", b.name, G, c.cond), func(t *testing.T) {
 				r := mcmctest.CheckGradient(t, tg, 1e-5, &mcmctest.GradSettings{Seed: 5, Points: 6, Radius: 1})
 				if r.Checked < 4 {
 					t.Fatalf("only %d points had a finite density", r.Checked)
@@ -201,6 +206,7 @@ func TestPanelSamePosterior(t *testing.T) {
 		var c0 float64
 		for rep := 0; rep < 6; rep++ {
 			p.Coords = randomCoords(p, uint64(rep))
+			p.Coords.MuConditional = rep%2 == 1
 			if rep == 0 {
 				p.Coords = p.Uniform(1)
 			}

@@ -26,8 +26,11 @@ import (
 // 2020, "Automatic reparameterisation of probabilistic programs", ICML):
 // centred where the data speak, non-centred where the prior does.
 type Coords struct {
-	Mu   []float64   // per region, the intercepts
-	Coef [][]float64 // [coefficient][region]
+	Mu []float64 // per region, the intercepts
+	// MuConditional samples the intercepts in their conditional coordinates
+	// instead (condIntercept, panel_target.go; Mu is then unused).
+	MuConditional bool
+	Coef          [][]float64 // [coefficient][region]
 	// Estimates behind the weights (ChooseCoordinates): the spreads implied
 	// by the data (tau_mu; each coefficient's on the log scale) and each
 	// region's standard error (log scale for coefficients; +Inf where the

@@ -135,7 +135,8 @@ func sdOf(x []float64) float64 {
 // TestPanelExplore fits a simulated panel and prints its convergence, for
 // measurements only: SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]] with
 // stages a string of stage numbers (012: demand, outcome, naive) and coords
-// chosen (the default), nc (every weight 0), c (every weight 1), munc (the
+// chosen (the default), nc (every weight 0), c (every weight 1), cond (the
+// intercepts in their conditional coordinates), munc (the
 // intercepts non-centred, the coefficients chosen), coefnc (the reverse) or
 // round (the chosen weights rounded to 0 or 1); SPILLWAY_PANEL_ACCEPT sets
 // the target acceptance.
@@ -179,6 +180,8 @@ func TestPanelExplore(t *testing.T) {
 			c = p.Uniform(0)
 		case "c":
 			c = p.Uniform(1)
+		case "cond": // intercepts conditional, coefficients as chosen
+			c.MuConditional = true
 		case "munc": // intercepts non-centred, coefficients as chosen
 			c.Mu = p.Uniform(0).Mu
 		case "coefnc": // coefficients non-centred, intercepts as chosen
