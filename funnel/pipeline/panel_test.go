@@ -135,10 +135,12 @@ func sdOf(x []float64) float64 {
 // TestPanelExplore fits a simulated panel and prints its convergence, for
 // measurements only: SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]] with
 // stages a string of stage numbers (012: demand, outcome, naive) and coords
-// chosen (the default), nc (every weight 0), c (every weight 1), cond (the
-// intercepts in their conditional coordinates), munc (the
+// chosen (the default: conditional intercepts, coefficients by the weights),
+// nc (every weight 0), c (every weight 1), lammu (the intercepts by their
+// weights, not conditional), munc (the
 // intercepts non-centred, the coefficients chosen), coefnc (the reverse) or
-// round (the chosen weights rounded to 0 or 1); SPILLWAY_PANEL_ACCEPT sets
+// round (the chosen weights rounded to 0 or 1), or several joined by +
+// (lammu+munc); SPILLWAY_PANEL_ACCEPT sets
 // the target acceptance.
 func TestPanelExplore(t *testing.T) {
 	spec := os.Getenv("SPILLWAY_PANEL")
@@ -175,21 +177,23 @@ func TestPanelExplore(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		switch coords {
-		case "nc":
-			c = p.Uniform(0)
-		case "c":
-			c = p.Uniform(1)
-		case "cond": // intercepts conditional, coefficients as chosen
-			c.MuConditional = true
-		case "munc": // intercepts non-centred, coefficients as chosen
-			c.Mu = p.Uniform(0).Mu
-		case "coefnc": // coefficients non-centred, intercepts as chosen
-			c.Coef = p.Uniform(0).Coef
-		case "round":
-			for _, w := range append([][]float64{c.Mu}, c.Coef...) {
-				for g := range w {
-					w[g] = math.Round(w[g])
+		for _, coords := range strings.Split(coords, "+") {
+			switch coords {
+			case "nc":
+				c = p.Uniform(0)
+			case "c":
+				c = p.Uniform(1)
+			case "lammu": // intercepts by the weights Mu, not conditional
+				c.MuConditional = false
+			case "munc": // intercepts non-centred, coefficients as chosen
+				c.Mu, c.MuConditional = p.Uniform(0).Mu, false
+			case "coefnc": // coefficients non-centred, intercepts as chosen
+				c.Coef = p.Uniform(0).Coef
+			case "round":
+				for _, w := range append([][]float64{c.Mu}, c.Coef...) {
+					for g := range w {
+						w[g] = math.Round(w[g])
+					}
 				}
 			}
 		}
