@@ -28,7 +28,11 @@ import (
 // another size or chain length (the 200 x 156 run:
 // SPILLWAY_PANEL_BENCH=200,156); SPILLWAY_PANEL_STAGES=0 or 1 runs the
 // demand or the outcome stage alone (each stage has its own seed, so the
-// two run apart give the figures of one run of both).
+// two run apart give the figures of one run of both). SPILLWAY_PANEL_MEMORY=1
+// measures memory only: no warm-up and trajectories of at most two leapfrog
+// steps, so a run keeps as many draws as a real one (the draws, the summary
+// and the targets are what take memory) at a small fraction of its time;
+// its convergence figures mean nothing.
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
@@ -45,6 +49,7 @@ func BenchmarkPanelFit(b *testing.B) {
 			*v[i] = n
 		}
 	}
+	memOnly := os.Getenv("SPILLWAY_PANEL_MEMORY") == "1"
 	stages := "01"
 	if s := os.Getenv("SPILLWAY_PANEL_STAGES"); s != "" {
 		for _, ch := range s {
@@ -79,6 +84,9 @@ func BenchmarkPanelFit(b *testing.B) {
 				b.Fatal(err)
 			}
 			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
+			if memOnly {
+				set.Warmup, set.MaxTreeDepth = mcmc.NoWarmup, 1
+			}
 			c0, _ := usage()
 			t0 := time.Now()
 			fit, err := mcmc.Run(context.Background(), tg, &set)
