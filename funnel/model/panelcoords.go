@@ -77,7 +77,9 @@ const (
 // low plausible tau, rounded to 0 or 1 (see weight below). A
 // region's intercept, given the slopes, is pinned to its residual sd over
 // sqrt(weeks); a channel a region never runs has s = +Inf (lam 0). A
-// failing least squares (too few weeks) gives centred weights.
+// failing least squares (too few weeks) gives centred weights. The
+// intercepts are sampled in their conditional coordinates (MuConditional);
+// their weights Mu serve coordinates that turn that off.
 func ChooseCoordinates(p *Panel) (*Coords, error) {
 	c := p.Uniform(1)
 	if p.pooled() {
