@@ -65,10 +65,16 @@
 // by its own means; its PanelTarget is a sum of panel terms (shared
 // regressors, channels with shared transforms and a coefficient per region,
 // the hierarchies of the intercepts and coefficients, the likelihood over
-// region-weeks). Each region's intercept and coefficients are sampled
-// centred or non-centred, chosen per region from least squares before
-// sampling; a centred intercept is sampled as the region's predictor mean
-// (a shear, unit Jacobian), which removes the ridge between a region's
-// intercept and its gamma. PanelLayout.Region turns a panel draw into a
+// region-weeks). Each region's coefficients are sampled centred or
+// non-centred, chosen per region from least squares before sampling. Its
+// intercept is sampled in its conditional coordinates by default: the
+// exact normal conditional mean given every other parameter plus its
+// conditional sd times a standard normal coordinate (Jacobian included),
+// which removes both the ridge between a region's intercept and its gamma
+// and the funnel between the intercepts and their spread; the former
+// choice (centred, sampled as the region's predictor mean by a shear of
+// unit Jacobian, or non-centred) remains with Coords.MuConditional off. A
+// channel's transform is computed once for regions whose scaled flights
+// are equal. PanelLayout.Region turns a panel draw into a
 // region's national draw, which every national computation reads.
 package model

@@ -3,6 +3,7 @@ package model
 import (
 	"fmt"
 	"math"
+	"slices"
 
 	"spillway/funnel/mcmc"
 	"spillway/funnel/stat"
@@ -102,6 +103,20 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		t.inter.tauPos = t.lay.tauMu
 		t.inter.lam = coords.Mu
 		t.inter.block = block()
+		if coords.MuConditional {
+			t.inter.cond = &condIntercept{sigma: t.sigma}
+			for g := range p.Stages {
+				n, sum := 0.0, 0.0
+				for i, y := range t.y[g] {
+					if t.mask[g] == nil || !t.mask[g][i] {
+						n++
+						sum += y
+					}
+				}
+				t.inter.cond.n = append(t.inter.cond.n, n)
+				t.inter.cond.ybar = append(t.inter.cond.ybar, sum/n)
+			}
+		}
 	}
 	// shared regressors and the coefficients that vary by region
 	bl := nt.st.Layout()
@@ -132,17 +147,13 @@ func (p *Panel) Target() (*PanelTarget, error) {
 				ref += s.hbar
 				nref++
 			}
-			if !pc.linear {
-				T := len(s.x)
-				s.a, s.da = make([]float64, T), make([]float64, T)
-				s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
-			}
 		}
+		pc.same = sameSeries(pc.series)
 		pc.abar = 1
 		if nref > 0 {
 			pc.abar = ref / float64(nref)
 		}
-		t.chans = append(t.chans, pc)
+		t.chans = append(t.chans, pc.clone()) // clone allocates the series' scratch
 	}
 	for k, h := range hier {
 		hyper := bl.GammaSlot()
@@ -238,6 +249,10 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		c.coefs[i] = &d
 	}
 	in := *t.inter
+	if t.inter.cond != nil {
+		cd := *t.inter.cond
+		in.cond = &cd
+	}
 	c.inter = &in
 	c.alloc()
 	return &c
@@ -526,6 +541,11 @@ type panelChannel struct {
 	linear       bool
 	abar         float64
 	series       []panelSeries
+	// same[g] is the first region whose spend series equals region g's
+	// (g itself if none before it): regions with the same scaled flights
+	// (a national buy split by size, regions that never run the channel)
+	// share one transformed series, computed once.
+	same         []int
 	href         float64
 	hrefK, hrefS float64
 }
@@ -536,12 +556,32 @@ func (c *panelChannel) clone() *panelChannel {
 	if !c.linear {
 		for g := range d.series {
 			s := &d.series[g]
+			if f := c.same[g]; f != g {
+				s.a, s.da, s.h, s.hl, s.hk, s.hs = d.series[f].a, d.series[f].da, d.series[f].h, d.series[f].hl, d.series[f].hk, d.series[f].hs
+				continue
+			}
 			T := len(s.x)
 			s.a, s.da = make([]float64, T), make([]float64, T)
 			s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
 		}
 	}
 	return &d
+}
+
+// sameSeries returns, for each region, the first region whose spend series
+// is equal to its own, value for value.
+func sameSeries(series []panelSeries) []int {
+	same := make([]int, len(series))
+	for g := range series {
+		same[g] = g
+		for f := 0; f < g; f++ {
+			if same[f] == f && slices.Equal(series[f].x, series[g].x) {
+				same[g] = f
+				break
+			}
+		}
+	}
+	return same
 }
 
 // prepare computes every region's response (with derivatives when grad)
@@ -554,6 +594,12 @@ func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 	lam, k, s := nat[c.k[1]], nat[c.k[2]], nat[c.k[3]]
 	for g := range c.series {
 		r := &c.series[g]
+		if f := c.same[g]; f != g {
+			// the same arrays as region f's (Target, clone): only the means
+			q := &c.series[f]
+			r.hbar, r.hlbar, r.hkbar, r.hsbar = q.hbar, q.hlbar, q.hkbar, q.hsbar
+			continue
+		}
 		T := float64(len(r.x))
 		if grad {
 			transform.AdstockGrad(r.a, r.da, r.x, lam)
@@ -747,10 +793,34 @@ type panelIntercept struct {
 	pooled   bool
 	v, s, gv []float64 // mu[g], S_g, d prior / d mu[g]
 	x        []float64
+	cond     *condIntercept // the conditional coordinates, when chosen (lam unused)
 }
 
 func (c *panelIntercept) alloc(G int) {
 	c.v, c.s, c.gv = make([]float64, G), make([]float64, G), make([]float64, G)
+	if c.cond != nil {
+		c.cond.prec, c.cond.mean, c.cond.sd = make([]float64, G), make([]float64, G), make([]float64, G)
+	}
+}
+
+// condIntercept holds the intercepts' conditional coordinates: given every
+// other parameter, region g's intercept has the normal posterior of a
+// normal mean with n[g] observations of residual mean ybar[g] - S_g and
+// sd sigma, under the prior Normal(mu, tau_mu):
+//
+//	prec = n/sigma^2 + 1/tau^2,  mean = (n (ybar - S_g)/sigma^2 + mu/tau^2) / prec,
+//
+// and the sampler moves v[g] in mu[g] = mean + v[g]/sqrt(prec), with
+// log-Jacobian -log(prec)/2. The posterior of v[g] is then exactly
+// Normal(0, 1), independent of the other parameters: no funnel between the
+// intercepts and tau_mu whatever the data say, and no ridge between an
+// intercept and its region's coefficients (S_g). It is the limit of the
+// partial non-centring with lam[g] = (n/sigma^2)/prec chosen afresh at every
+// point (Papaspiliopoulos, Roberts and Sköld 2007, section 3).
+type condIntercept struct {
+	sigma          int       // position of sigma
+	n, ybar        []float64 // per region: observed weeks and their mean
+	prec, mean, sd []float64
 }
 
 func (c *panelIntercept) values(nat, x []float64) bool {
@@ -763,6 +833,18 @@ func (c *panelIntercept) values(nat, x []float64) bool {
 		return true
 	}
 	mu, tau := nat[c.mu], nat[c.tauPos]
+	if cd := c.cond; cd != nil {
+		sigma := nat[cd.sigma]
+		a0, b := 1/(sigma*sigma), 1/(tau*tau)
+		for g := range c.v {
+			a := cd.n[g] * a0
+			p := a + b
+			cd.prec[g], cd.sd[g] = p, 1/math.Sqrt(p)
+			cd.mean[g] = (a*(cd.ybar[g]-c.s[g]) + b*mu) / p
+			c.v[g] = cd.mean[g] + cd.sd[g]*x[c.block+g]
+		}
+		return true
+	}
 	for g := range c.v {
 		lam := c.lam[g]
 		c.v[g] = (1-lam)*mu + math.Pow(tau, 1-lam)*x[c.block+g] - lam*c.s[g]
@@ -781,10 +863,18 @@ func (c *panelIntercept) prior(nat, gn []float64) float64 {
 	lp, gmu, gtau := 0.0, 0.0, 0.0
 	for g, v := range c.v {
 		z := (v - mu) / tau
-		lp += -0.5*z*z - c.lam[g]*ltau
+		if c.cond != nil {
+			lp += -0.5*z*z - ltau - 0.5*math.Log(c.cond.prec[g])
+		} else {
+			lp += -0.5*z*z - c.lam[g]*ltau
+		}
 		c.gv[g] = -z / tau
 		gmu += z / tau
-		gtau += z*z/tau - c.lam[g]/tau
+		if c.cond != nil {
+			gtau += z*z/tau - 1/tau // the Jacobian's part: backward
+		} else {
+			gtau += z*z/tau - c.lam[g]/tau
+		}
 	}
 	if gn != nil {
 		gn[c.mu] += gmu
@@ -807,6 +897,34 @@ func (c *panelIntercept) backward(grad, nat, gn, sw, gS []float64) {
 	}
 	tau := nat[c.tauPos]
 	gmu, gtau := 0.0, 0.0
+	if cd := c.cond; cd != nil {
+		// mu[g] = mean + v sd: its derivatives in S_g, mu, and through
+		// a = n/sigma^2 and b = 1/tau^2 (prec = a + b) in sigma and tau, with
+		// the log-Jacobian -log(prec)/2's
+		sigma := nat[cd.sigma]
+		mu := nat[c.mu]
+		a0, b := 1/(sigma*sigma), 1/(tau*tau)
+		gsig := 0.0
+		for g := range c.v {
+			G := sw[g] + c.gv[g]
+			p, sd, m, v := cd.prec[g], cd.sd[g], cd.mean[g], c.x[c.block+g]
+			a := cd.n[g] * a0
+			w := a / p
+			grad[c.block+g] = G * sd
+			gmu += G * (1 - w)
+			gS[g] = -w * G
+			half := -0.5 * v * sd / p // d(v sd)/da, the same in b
+			jac := -0.5 / p           // d(-log(prec)/2)/da, the same in b
+			dA := G*((cd.ybar[g]-c.s[g]-m)/p+half) + jac
+			dB := G*((mu-m)/p+half) + jac
+			gsig += dA * (-2 * a / sigma)
+			gtau += dB * (-2 * b / tau)
+		}
+		gn[c.mu] += gmu
+		gn[c.tauPos] += gtau
+		gn[cd.sigma] += gsig
+		return
+	}
 	for g := range c.v {
 		lam := c.lam[g]
 		G := sw[g] + c.gv[g]

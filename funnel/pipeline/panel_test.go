@@ -137,8 +137,13 @@ func sdOf(x []float64) float64 {
 // TestPanelExplore fits a simulated panel and prints its convergence, for
 // measurements only: SPILLWAY_PANEL=G,T,warmup,draws[,stages[,coords]] with
 // stages a string of stage numbers (012: demand, outcome, naive) and coords
-// chosen (the default), nc (every weight 0), c (every weight 1) or round
-// (the chosen weights rounded to 0 or 1).
+// chosen (the default: conditional intercepts, coefficients by the weights),
+// nc (every weight 0), c (every weight 1), lammu (the intercepts by their
+// weights, not conditional), munc (the
+// intercepts non-centred, the coefficients chosen), coefnc (the reverse) or
+// round (the chosen weights rounded to 0 or 1), or several joined by +
+// (lammu+munc); SPILLWAY_PANEL_ACCEPT sets
+// the target acceptance.
 func TestPanelExplore(t *testing.T) {
 	spec := os.Getenv("SPILLWAY_PANEL")
 	if spec == "" {
@@ -174,15 +179,23 @@ func TestPanelExplore(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		switch coords {
-		case "nc":
-			c = p.Uniform(0)
-		case "c":
-			c = p.Uniform(1)
-		case "round":
-			for _, w := range append([][]float64{c.Mu}, c.Coef...) {
-				for g := range w {
-					w[g] = math.Round(w[g])
+		for _, coords := range strings.Split(coords, "+") {
+			switch coords {
+			case "nc":
+				c = p.Uniform(0)
+			case "c":
+				c = p.Uniform(1)
+			case "lammu": // intercepts by the weights Mu, not conditional
+				c.MuConditional = false
+			case "munc": // intercepts non-centred, coefficients as chosen
+				c.Mu, c.MuConditional = p.Uniform(0).Mu, false
+			case "coefnc": // coefficients non-centred, intercepts as chosen
+				c.Coef = p.Uniform(0).Coef
+			case "round":
+				for _, w := range append([][]float64{c.Mu}, c.Coef...) {
+					for g := range w {
+						w[g] = math.Round(w[g])
+					}
 				}
 			}
 		}
@@ -192,6 +205,9 @@ func TestPanelExplore(t *testing.T) {
 			t.Fatal(err)
 		}
 		set := mcmc.Settings{Chains: 4, Warmup: v[2], Draws: v[3], Seed: 1, TargetAccept: DefaultTargetAccept}
+		if a, err := strconv.ParseFloat(os.Getenv("SPILLWAY_PANEL_ACCEPT"), 64); err == nil {
+			set.TargetAccept = a
+		}
 		t0 := time.Now()
 		fit, err := mcmc.Run(context.Background(), tg, &set)
 		if err != nil {
@@ -380,55 +396,4 @@ func quantile(x []float64, p float64) float64 {
 	s := append([]float64(nil), x...)
 	sort.Float64s(s)
 	return stat.Quantile(s, p)
-}
-
-// BenchmarkPanelFit fits the demand and outcome stages of a panel simulated
-// from the region model, SPILLWAY_PANEL_BENCH=G,T regions x weeks (default
-// 40 x 156: two upper channels, one paid search, one control; the last of
-// every eight regions never runs audio, the first is ten times the others'
-// size), 4 chains x (1000 + 1000), and reports each stage's wall and CPU
-// seconds, worst R-hat, least bulk and tail ESS, divergences, leapfrog steps
-// per draw, step size and gradient evaluations.
-func BenchmarkPanelFit(b *testing.B) {
-	G, T := 40, 156
-	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
-		a, c, _ := cut(s, ",")
-		G, _ = strconv.Atoi(a)
-		T, _ = strconv.Atoi(c)
-	}
-	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: 40, Dark: G / 8, Big: true})
-	if err != nil {
-		b.Fatal(err)
-	}
-	ps, err := model.ScalePanel(sim.Data, nil)
-	if err != nil {
-		b.Fatal(err)
-	}
-	panels, err := model.PanelStages(ps, model.Options{})
-	if err != nil {
-		b.Fatal(err)
-	}
-	for b.Loop() {
-		wall, grads := 0.0, 0
-		for k := 0; k < 2; k++ {
-			tg, err := panels[k].Target()
-			if err != nil {
-				b.Fatal(err)
-			}
-			set := mcmc.Settings{Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
-			t0 := time.Now()
-			fit, err := mcmc.Run(context.Background(), tg, &set)
-			if err != nil {
-				b.Fatal(err)
-			}
-			w := time.Since(t0).Seconds()
-			wall += w
-			for _, c := range fit.Chains {
-				grads += c.Stats.GradientEvaluations
-			}
-			b.Logf("%d x %d: %v", G, T, diagnose(StageNames[k], fit, w))
-		}
-		b.ReportMetric(wall, "wall-s")
-		b.ReportMetric(float64(grads), "gradients")
-	}
 }

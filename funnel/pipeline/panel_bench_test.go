@@ -1,0 +1,129 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/funnel/scenario"
+)
+
+// BenchmarkPanelFit is issue 12's speed case: the demand and outcome stages
+// of a panel simulated from the region model, 40 regions x 156 weeks (two
+// upper channels, one paid search, one control; the last of every eight
+// regions never runs audio, the first is ten times the others' size), 4
+// chains x (1000 + 1000), the coordinates FitPanel chooses. Per stage it
+// logs wall and CPU (user + system) seconds, the load average beside them,
+// the worst R-hat and the least bulk and tail ESS over every parameter,
+// divergences, leapfrog steps per draw, step size and gradient evaluations;
+// it reports the total wall, the total CPU seconds, their half (the wall
+// two idle cores would take, the chains running two at a time) and the
+// peak resident memory. SPILLWAY_PANEL_BENCH=G,T[,warmup,draws] sets
+// another size or chain length (the 200 x 156 run:
+// SPILLWAY_PANEL_BENCH=200,156); SPILLWAY_PANEL_STAGES=0 or 1 runs the
+// demand or the outcome stage alone (each stage has its own seed, so the
+// two run apart give the figures of one run of both). SPILLWAY_PANEL_MEMORY=1
+// measures memory only: no warm-up and trajectories of at most two leapfrog
+// steps, so a run keeps as many draws as a real one (the draws, the summary
+// and the targets are what take memory) at a small fraction of its time;
+// its convergence figures mean nothing.
+func BenchmarkPanelFit(b *testing.B) {
+	G, T, warm, draws := 40, 156, 1000, 1000
+	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
+		f := strings.Split(s, ",")
+		v := []*int{&G, &T, &warm, &draws}
+		for i := range f {
+			if i >= len(v) {
+				break
+			}
+			n, err := strconv.Atoi(f[i])
+			if err != nil || n < 1 {
+				b.Fatalf("SPILLWAY_PANEL_BENCH=%s: want G,T[,warmup,draws]", s)
+			}
+			*v[i] = n
+		}
+	}
+	memOnly := os.Getenv("SPILLWAY_PANEL_MEMORY") == "1"
+	stages := "01"
+	if s := os.Getenv("SPILLWAY_PANEL_STAGES"); s != "" {
+		for _, ch := range s {
+			if ch != '0' && ch != '1' {
+				b.Fatalf("SPILLWAY_PANEL_STAGES=%s: want stage numbers, 0 demand and 1 outcome", s)
+			}
+		}
+		stages = s
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: 40, Dark: G / 8, Big: true})
+	if err != nil {
+		b.Fatal(err)
+	}
+	ps, err := model.ScalePanel(sim.Data, nil)
+	if err != nil {
+		b.Fatal(err)
+	}
+	panels, err := model.PanelStages(ps, model.Options{})
+	if err != nil {
+		b.Fatal(err)
+	}
+	for b.Loop() {
+		wall, cpu, grads := 0.0, 0.0, 0
+		for _, ch := range stages {
+			k := int(ch - '0')
+			p := panels[k]
+			if p.Coords, err = model.ChooseCoordinates(p); err != nil {
+				b.Fatal(err)
+			}
+			tg, err := p.Target()
+			if err != nil {
+				b.Fatal(err)
+			}
+			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
+			if memOnly {
+				set.Warmup, set.MaxTreeDepth = mcmc.NoWarmup, 1
+			}
+			c0, _ := usage()
+			t0 := time.Now()
+			fit, err := mcmc.Run(context.Background(), tg, &set)
+			if err != nil {
+				b.Fatal(err)
+			}
+			w := time.Since(t0).Seconds()
+			c1, _ := usage()
+			g := 0
+			for _, c := range fit.Chains {
+				g += c.Stats.GradientEvaluations
+			}
+			wall, cpu, grads = wall+w, cpu+c1-c0, grads+g
+			line := fmt.Sprintf("%d x %d, 4 x (%d + %d): %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%.0f us cpu each), load average %s",
+				G, T, warm, draws, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, 1e6*(c1-c0)/float64(g), loadAverage())
+			b.Log(line)
+			fmt.Fprintln(os.Stderr, line) // at once: a long run's log lines otherwise wait for its end
+		}
+		_, peak := usage()
+		b.ReportMetric(wall, "wall-s")
+		b.ReportMetric(cpu, "cpu-s")
+		b.ReportMetric(cpu/2, "cpu/2-s")
+		b.ReportMetric(float64(grads), "gradients")
+		b.ReportMetric(float64(peak)/(1<<20), "peak-MB")
+	}
+}
+
+// loadAverage returns the 1, 5 and 15 minute load averages, or "?" where
+// /proc/loadavg cannot be read.
+func loadAverage() string {
+	b, err := os.ReadFile("/proc/loadavg")
+	if err != nil {
+		return "?"
+	}
+	f := strings.Fields(string(b))
+	if len(f) < 3 {
+		return "?"
+	}
+	return fmt.Sprintf("%s %s %s", f[0], f[1], f[2])
+}
