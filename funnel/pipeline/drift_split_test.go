@@ -41,7 +41,7 @@ func oracleLS(t *testing.T, y []float64, cols [][]float64, j int) (b, se float64
 // z = (estimate - truth) / se. No prior, no sampler, no two-stage split
 // and no effect definition enter: only the replicate's data.
 func oracleZ(t *testing.T, seed uint64) (zGamma, zAlpha float64) {
-	_, tm := driftReplicate(t, "fixed", seed)
+	_, tm := driftReplicate(t, "fixed", seed, 0)
 	sc := tm.sc
 	one := make([]float64, sc.T)
 	for i := range one {

@@ -157,14 +157,15 @@ func spendOf(sc *model.Scaled, col string) []float64 {
 // refresh in week 78: video's lift of queries from 0.65x to 1.35x and its
 // direct effect from 0.8x to 1.2x).
 func driftScenario(t testing.TB, name string) (*scenario.Result, truthModel) {
-	return driftReplicate(t, name, 11)
+	return driftReplicate(t, name, 11, 0)
 }
 
-// driftReplicate is driftScenario with the demo scenario's seed given: the
-// same truth and drift, another draw of spend, noise and paid search.
-func driftReplicate(t testing.TB, name string, seed uint64) (*scenario.Result, truthModel) {
+// driftReplicate is driftScenario with the demo scenario's seed and length
+// given (weeks 0: its 156): the same truth and drift over the weeks
+// there are, another draw of spend, noise and paid search.
+func driftReplicate(t testing.TB, name string, seed uint64, weeks int) (*scenario.Result, truthModel) {
 	t.Helper()
-	s, err := scenario.Named("demo", seed, 0, 0)
+	s, err := scenario.Named("demo", seed, weeks, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
