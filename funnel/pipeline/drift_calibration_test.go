@@ -88,6 +88,20 @@ func calibReplicates(t *testing.T) int {
 	return 12
 }
 
+// calibFirstSeed is the seed of the sweep's first replicate:
+// SPILLWAY_DRIFT_FIRST_SEED, or 101 (a later batch of replicates can then
+// be run apart and pooled).
+func calibFirstSeed(t *testing.T) uint64 {
+	if v := os.Getenv("SPILLWAY_DRIFT_FIRST_SEED"); v != "" {
+		n, err := strconv.ParseUint(v, 10, 64)
+		if err != nil {
+			t.Fatalf("SPILLWAY_DRIFT_FIRST_SEED=%q: want a whole number", v)
+		}
+		return n
+	}
+	return 101
+}
+
 // calibWeeks is the length of the calibration sweep's replicates: two
 // years, as validate's recovery tests use, to keep 84 fits affordable.
 const calibWeeks = 104
@@ -115,7 +129,8 @@ const calibWeeks = 104
 // more than three cluster standard errors below 0.9. And the default
 // model's quarterly coverage under the smooth drift below the drift
 // model's. A sweep of 84 fits: on demand with SPILLWAY_LONG=1
-// (SPILLWAY_DRIFT_REPLICATES sets the number of replicates).
+// (SPILLWAY_DRIFT_REPLICATES sets the number of replicates,
+// SPILLWAY_DRIFT_FIRST_SEED the first one's seed).
 func TestDriftCalibration(t *testing.T) {
 	if testing.Short() || os.Getenv("SPILLWAY_LONG") == "" {
 		t.Skip("fits the drift and the default model to four scenarios per replicate; set SPILLWAY_LONG=1 to run it")
@@ -149,7 +164,7 @@ func TestDriftCalibration(t *testing.T) {
 	}
 	unconverged := 0
 	for r := 0; r < R; r++ {
-		seed := uint64(101 + r)
+		seed := calibFirstSeed(t) + uint64(r)
 		for _, c := range cases {
 			res, tm := driftReplicate(t, c.scen, seed, calibWeeks)
 			var tests []lifts.Test

@@ -528,12 +528,12 @@ func BenchmarkDriftFit(b *testing.B) {
 
 }
 
-// BenchmarkDriftFitAlone fits one side of BenchmarkDriftFit per
+// BenchmarkFitAlone fits one side of BenchmarkDriftFit per
 // sub-benchmark ("default": the default fit; "drift": every channel
 // drifting with the four lift tests, without the lift checks), so that the
 // two can be timed as separate processes, alternated, and their wall
 // times paired run by run on a machine whose load moves.
-func BenchmarkDriftFitAlone(b *testing.B) {
+func BenchmarkFitAlone(b *testing.B) {
 	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
 	if err != nil {
 		b.Fatal(err)
