@@ -1,8 +1,10 @@
 package main
 
 import (
+	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -103,5 +105,77 @@ func TestRunDrift(t *testing.T) {
 	}
 	if code, _, stderr := runCmd(t, "split", "--fit", out); code != 0 {
 		t.Errorf("split of the drift fit: exit %d: %s", code, stderr)
+	}
+}
+
+// TestValidateTruthWithDrift runs validate's recovery, holdout and
+// stability checks from a simulation's truth.json with every channel
+// drifting and a moving baseline, at short chains (not to converge: to
+// exercise the path end to end), beside the same recovery sweep with the
+// default model. The truth.json holds the default model's parameters; the
+// sweep carries them into the drift model with multipliers of 1 and the
+// trend line as the moving baseline, so each replicate's true effects
+// (jobs.csv) must be the default sweep's, up to the baseline's projection
+// on its smooth basis (within 1%). Paid search's borrowed share is left
+// out: it is defined by the fitted model's own regressors (what that model
+// without the query term would credit), and a moving baseline is another
+// set of regressors than the trend line.
+func TestValidateTruthWithDrift(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two short validation sweeps")
+	}
+	dir := t.TempDir()
+	if code, _, errs := runCmd(t, "simulate", "--weeks", "68", "--seed", "4", "--out", filepath.Join(dir, "sim")); code != 0 {
+		t.Fatalf("simulate: %d %s", code, errs)
+	}
+	truthFile := filepath.Join(dir, "sim", "truth.json")
+	sweep := func(out string, checks string, extra ...string) map[string][]float64 {
+		args := []string{"validate", "--data", filepath.Join(dir, "sim", "data.csv"), "--date", "week",
+			"--upper", "video_spend,audio_spend", "--search", "search_spend", "--queries", "branded_queries",
+			"--outcome", "conversions", "--controls", "price", "--checks", checks, "--replicates", "2",
+			"--origins", "1", "--leave-out", "2023Q3", "--seeds", "0", "--chains", "1", "--warmup", "30", "--draws", "30",
+			"--seed", "4", "--quiet", "--truth", truthFile, "--out", out}
+		code, stdout, errs := runCmd(t, append(args, extra...)...)
+		if code != 0 {
+			t.Fatalf("validate %v: exit %d\n%s", extra, code, errs)
+		}
+		for _, c := range strings.Split(checks, ",") {
+			if !strings.Contains(stdout, c+": ") {
+				t.Errorf("validate %v: stdout lacks the %s verdict:\n%s", extra, c, stdout)
+			}
+		}
+		b, err := os.ReadFile(filepath.Join(out, "jobs.csv"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		truth := map[string][]float64{} // effect/path/window: the replicates' true values in order
+		for _, line := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
+			f := strings.Split(line, ",") // job,kind,name,path,window,stat,value
+			if len(f) == 7 && f[1] == "effect" && f[5] == "truth" && f[3] != "borrowed_share" {
+				v, err := strconv.ParseFloat(f[6], 64)
+				if err != nil {
+					t.Fatal(err)
+				}
+				k := f[2] + "/" + f[3] + "/" + f[4]
+				truth[k] = append(truth[k], v)
+			}
+		}
+		return truth
+	}
+	t0 := sweep(filepath.Join(dir, "default"), "recovery")
+	t1 := sweep(filepath.Join(dir, "drift"), "recovery,holdout,stability", "--drift", "all", "--baseline", "smooth")
+	if len(t0) == 0 || len(t0) != len(t1) {
+		t.Fatalf("true effects: %d with the default model, %d with drift", len(t0), len(t1))
+	}
+	for k, v0 := range t0 {
+		v1 := t1[k]
+		if len(v1) != len(v0) || len(v0) != 2 {
+			t.Fatalf("%s: true values %v with the default model, %v with drift (want one per replicate)", k, v0, v1)
+		}
+		for i := range v0 {
+			if math.Abs(v1[i]-v0[i]) > 0.01*math.Abs(v0[i])+1e-9 {
+				t.Errorf("%s replicate %d: true value %g with drift, %g with the default model", k, i+1, v1[i], v0[i])
+			}
+		}
 	}
 }

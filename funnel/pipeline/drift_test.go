@@ -156,9 +156,16 @@ func spendOf(sc *model.Scaled, col string) []float64 {
 // from 1.3x to 0.75x, paid search's rising by a third) or "step" (a creative
 // refresh in week 78: video's lift of queries from 0.65x to 1.35x and its
 // direct effect from 0.8x to 1.2x).
-func driftScenario(t *testing.T, name string) (*scenario.Result, truthModel) {
+func driftScenario(t testing.TB, name string) (*scenario.Result, truthModel) {
+	return driftReplicate(t, name, 11, 0)
+}
+
+// driftReplicate is driftScenario with the demo scenario's seed and length
+// given (weeks 0: its 156): the same truth and drift over the weeks
+// there are, another draw of spend, noise and paid search.
+func driftReplicate(t testing.TB, name string, seed uint64, weeks int) (*scenario.Result, truthModel) {
 	t.Helper()
-	s, err := scenario.Named("demo", 11, 0, 0)
+	s, err := scenario.Named("demo", seed, weeks, 0)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -292,7 +299,9 @@ func binomialRange(n int, p float64) (lo, hi int) {
 //     range of 90% coverage, but not held to it: the quarters of one fit
 //     are not independent (on this replicate both models split video's
 //     effect towards via search, and every quarter of that path misses
-//     together), so only a sweep of replicates can judge it;
+//     together, because the replicate's data put gamma 1.8 standard errors
+//     high: TestSplitMissIsTheReplicate), so only a sweep of replicates
+//     can judge it (TestDriftCalibration);
 //   - with fixed effects, every multiplier's posterior mean within 0.8x to
 //     1.25x and the whole-period effects of the two models within each
 //     other's 90% intervals;
@@ -517,4 +526,55 @@ func BenchmarkDriftFit(b *testing.B) {
 		b.Logf("walls: default %v, drift %v", f0.Wall, f1.Wall)
 	}
 
+}
+
+// BenchmarkFitAlone fits one side of BenchmarkDriftFit per
+// sub-benchmark ("default": the default fit; "drift": every channel
+// drifting with the four lift tests, without the lift checks), so that the
+// two can be timed as separate processes, alternated, and their wall
+// times paired run by run on a machine whose load moves.
+func BenchmarkFitAlone(b *testing.B) {
+	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
+	if err != nil {
+		b.Fatal(err)
+	}
+	sc := model.Scale(ds.National(), ds.Spec)
+	s, err := scenario.Named("demo", 1, 0, 0)
+	if err != nil {
+		b.Fatal(err)
+	}
+	res, err := s.Simulate()
+	if err != nil {
+		b.Fatal(err)
+	}
+	tm := truthModel{sc: sc, dem: res.Demand, out: res.Outcome}
+	tests := simulatedLifts(ds, tm, []liftSpec{
+		{"video_spend", model.LiftOutcome, 14}, {"audio_spend", model.LiftOutcome, 53},
+		{"video_spend", model.LiftQueries, 80}, {"search_spend", model.LiftOutcome, 120},
+	}, 0.2, 1)
+	report := func(b *testing.B, f *Fitted) {
+		r, e, d := converged(f)
+		b.ReportMetric(f.Wall[0]+f.Wall[1]+f.Wall[2], "fit_s")
+		b.ReportMetric(r, "max_rhat")
+		b.ReportMetric(e, "min_ess")
+		b.ReportMetric(float64(d), "divergences")
+	}
+	b.Run("default", func(b *testing.B) {
+		for b.Loop() {
+			f, err := Fit(context.Background(), sc, model.Options{}, mcmc.Settings{Seed: 1}, nil)
+			if err != nil {
+				b.Fatal(err)
+			}
+			report(b, f)
+		}
+	})
+	b.Run("drift", func(b *testing.B) {
+		for b.Loop() {
+			f, err := FitLifts(context.Background(), sc, model.Options{Drift: allDrift(sc)}, tests, mcmc.Settings{Seed: 1}, nil)
+			if err != nil {
+				b.Fatal(err)
+			}
+			report(b, f)
+		}
+	})
 }

@@ -42,15 +42,10 @@ func posteriorGenerator(sw *Sweep) *generator {
 
 // truthGenerator simulates every replicate from the given true values.
 func truthGenerator(sw *Sweep, t *Truth) (*generator, error) {
-	d1, err := mediation.Point(sw.stages[0].Names(), t.Demand)
+	v1, v2, err := truthValues(sw, t)
 	if err != nil {
-		return nil, fmt.Errorf("validate: the truth's demand parameters: %w", err)
+		return nil, err
 	}
-	d2, err := mediation.Point(sw.stages[1].Names(), t.Outcome)
-	if err != nil {
-		return nil, fmt.Errorf("validate: the truth's outcome parameters: %w", err)
-	}
-	v1, v2 := d1.Rows[0], d2.Rows[0]
 	return &generator{name: "given true parameters (" + truthID(sw, v1, v2) + ")",
 		draw: func(int, *rand.Rand, *mediation.Inputs) ([]float64, []float64, error) { return v1, v2, nil }}, nil
 }

@@ -1,0 +1,328 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"sort"
+	"strconv"
+	"strings"
+	"testing"
+
+	"spillway/funnel/lifts"
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+	"spillway/funnel/stat"
+	"spillway/funnel/validate/score"
+	"spillway/funnel/window"
+	"spillway/mediation"
+)
+
+// calibCount counts, over replicates, the truths inside the 90% and the
+// 50% central intervals.
+type calibCount struct{ in90, in50, n int }
+
+func (c *calibCount) add(draws []float64, truth float64) (in90, in50 bool) {
+	s := append([]float64(nil), draws...)
+	sort.Float64s(s)
+	in90 = stat.Quantile(s, 0.05) <= truth && truth <= stat.Quantile(s, 0.95)
+	in50 = stat.Quantile(s, 0.25) <= truth && truth <= stat.Quantile(s, 0.75)
+	c.n++
+	if in90 {
+		c.in90++
+	}
+	if in50 {
+		c.in50++
+	}
+	return in90, in50
+}
+
+// clusterCoverage pools the quarterly coverage of replicates: each
+// replicate is one cluster of quarters that miss together (the quarters of
+// one path share its coefficient, and video's two paths share gamma), so
+// the spread of the pooled share is taken from the replicates, not from
+// the quarters: the ratio estimator's variance over clusters (Cochran,
+// Sampling Techniques, 3rd ed., 1977, sections 6.3 and 9.2; from memory).
+type clusterCoverage struct{ in90, in50, n []int }
+
+func (c *clusterCoverage) add(in90, in50, n int) {
+	c.in90, c.in50, c.n = append(c.in90, in90), append(c.in50, in50), append(c.n, n)
+}
+
+// share returns the pooled coverage of the 90% (level 0.9) or 50%
+// intervals and its standard error over clusters.
+func (c *clusterCoverage) share(level float64) (p, se float64) {
+	in := c.in90
+	if level == 0.5 {
+		in = c.in50
+	}
+	R := len(in)
+	var sin, sn float64
+	for r := range in {
+		sin += float64(in[r])
+		sn += float64(c.n[r])
+	}
+	if R < 2 || sn == 0 {
+		return sin / sn, math.NaN()
+	}
+	p = sin / sn
+	ss := 0.0
+	for r := range in {
+		d := float64(in[r]) - p*float64(c.n[r])
+		ss += d * d
+	}
+	return p, math.Sqrt(float64(R)/float64(R-1)*ss) / sn
+}
+
+// calibReplicates is the number of replicates of the calibration sweep:
+// SPILLWAY_DRIFT_REPLICATES, or 12.
+func calibReplicates(t *testing.T) int {
+	if v := os.Getenv("SPILLWAY_DRIFT_REPLICATES"); v != "" {
+		n, err := strconv.Atoi(v)
+		if err != nil || n < 2 {
+			t.Fatalf("SPILLWAY_DRIFT_REPLICATES=%q: want a whole number of at least 2", v)
+		}
+		return n
+	}
+	return 12
+}
+
+// calibFirstSeed is the seed of the sweep's first replicate:
+// SPILLWAY_DRIFT_FIRST_SEED, or 101 (a later batch of replicates can then
+// be run apart and pooled).
+func calibFirstSeed(t *testing.T) uint64 {
+	if v := os.Getenv("SPILLWAY_DRIFT_FIRST_SEED"); v != "" {
+		n, err := strconv.ParseUint(v, 10, 64)
+		if err != nil {
+			t.Fatalf("SPILLWAY_DRIFT_FIRST_SEED=%q: want a whole number", v)
+		}
+		return n
+	}
+	return 101
+}
+
+// calibWeeks is the length of the calibration sweep's replicates: two
+// years, as validate's recovery tests use, to keep 84 fits affordable.
+const calibWeeks = 104
+
+// TestDriftCalibration judges calibration over independent replicates.
+// Each replicate is the demo scenario at its own seed (its own spend,
+// noise and paid search, the same true parameters) over 104 weeks, drawn
+// with fixed effects, the smooth drift and the step of driftScenario, and
+// the step again with four lift tests of its own truth (se 15% of the
+// lift). The drift model (every channel drifting) is fitted to each, and
+// the default model to each but the one with lift tests, 2 chains x
+// (200 + 150), demand and outcome stages.
+//
+// A replicate gives one trial per quantity: the whole-period via-search
+// and direct effects of video and of audio, and gamma, each covered or not
+// by its 90% and its 50% interval; counts over replicates are binomial
+// (independent replicates), printed with their central 95% ranges. The
+// quarterly effects (8 quarters x 2 paths x 2 channels per fit) are
+// pooled with a standard error over replicates, not over quarters
+// (clusterCoverage).
+//
+// Asserted for the drift model in every scenario: no whole-period
+// quantity's 90% coverage below its binomial 0.1% tail, nor its 50%
+// coverage outside both 0.1% tails; pooled quarterly 90% coverage not
+// more than three cluster standard errors below 0.9. And the default
+// model's quarterly coverage under the smooth drift below the drift
+// model's.
+//
+// Run in two batches, seeds 101-106 (2548 s at load 29-36, niced) and
+// 107-110 (639 s at load 11-28), it passed. Beyond what is asserted, the
+// pooled 10 replicates showed the drift model conservative at 90%
+// (quarters 0.99 with fixed effects and 0.98 with the smooth drift, against
+// the default model's 0.66 under the smooth drift). With the step, gamma
+// was covered in 5 of 10 replicates by the drift model and 3 of 10 by the
+// default model: the smooth drift spreads the step over months and gamma
+// takes what it misses (issue 13's note).
+//
+// A sweep of 84 fits: on demand with SPILLWAY_LONG=1
+// (SPILLWAY_DRIFT_REPLICATES sets the number of replicates,
+// SPILLWAY_DRIFT_FIRST_SEED the first one's seed).
+func TestDriftCalibration(t *testing.T) {
+	if testing.Short() || os.Getenv("SPILLWAY_LONG") == "" {
+		t.Skip("fits the drift and the default model to four scenarios per replicate; set SPILLWAY_LONG=1 to run it")
+	}
+	R := calibReplicates(t)
+	ctx := context.Background()
+	type cas struct {
+		scen  string
+		lifts bool
+	}
+	cases := []cas{{"fixed", false}, {"smooth", false}, {"step", false}, {"step", true}}
+	label := func(c cas) string {
+		if c.lifts {
+			return c.scen + " + lift tests"
+		}
+		return c.scen
+	}
+	models := []string{"drift", "default"}
+	quantities := []string{"video_spend/via_search", "video_spend/direct", "audio_spend/via_search", "audio_spend/direct", "gamma"}
+	whole := map[string]*calibCount{}
+	quarters := map[string]*clusterCoverage{}
+	videoVia := map[string]*clusterCoverage{}
+	key := func(c cas, m string) string { return label(c) + "|" + m }
+	for _, c := range cases {
+		for _, m := range models {
+			quarters[key(c, m)], videoVia[key(c, m)] = &clusterCoverage{}, &clusterCoverage{}
+			for _, q := range quantities {
+				whole[key(c, m)+"|"+q] = &calibCount{}
+			}
+		}
+	}
+	unconverged := 0
+	for r := 0; r < R; r++ {
+		seed := calibFirstSeed(t) + uint64(r)
+		for _, c := range cases {
+			res, tm := driftReplicate(t, c.scen, seed, calibWeeks)
+			var tests []lifts.Test
+			if c.lifts {
+				tests = simulatedLifts(res.Data, tm, []liftSpec{
+					{"video_spend", model.LiftOutcome, 8}, {"video_spend", model.LiftOutcome, 40},
+					{"video_spend", model.LiftOutcome, 62}, {"video_spend", model.LiftQueries, 80},
+				}, 0.15, seed)
+			}
+			windows := window.Quarters(tm.sc.Weeks)
+			last := tm.sc.T - 1
+			truth := map[string]float64{}
+			for _, col := range tm.sc.UpperNames {
+				p := tm.paths(col, false)
+				for _, w := range windows {
+					truth[col+"/via_search/"+w.Name] = p[0].effect(w.From, w.To, last)
+					truth[col+"/direct/"+w.Name] = p[1].effect(w.From, w.To, last)
+				}
+			}
+			for _, m := range models {
+				if c.lifts && m == "default" {
+					continue // the default model with the tests: not needed to judge the drift model's
+				}
+				o := model.Options{}
+				if m == "drift" {
+					o.Drift = allDrift(tm.sc)
+				}
+				f, err := FitStages(ctx, tm.sc, o, tests, mcmc.Settings{Seed: seed, Chains: 2, Warmup: 200, Draws: 150}, nil)
+				if err != nil {
+					t.Fatal(err)
+				}
+				rh, ess, div := converged(f)
+				if rh > 1.05 || div > 0 {
+					unconverged++
+				}
+				split, err := mediation.Split(f.Inputs(), windows)
+				if err != nil {
+					t.Fatal(err)
+				}
+				k := key(c, m)
+				var qIn90, qIn50, qN, vIn90, vIn50, vN int
+				var misses, flags []string
+				for _, e := range split.Effects {
+					tv, ok := truth[e.Channel+"/"+e.Path+"/"+e.Window]
+					if !ok {
+						continue
+					}
+					if e.Window == windows[0].Name {
+						in90, in50 := whole[k+"|"+e.Channel+"/"+e.Path].add(e.Draws, tv)
+						flags = append(flags, fmt.Sprintf("%s %d%d", e.Channel+"/"+e.Path, b2i(in90), b2i(in50)))
+						if !in90 {
+							s := mediation.Summarise(e.Draws)
+							misses = append(misses, fmt.Sprintf("%s %s %.0f outside [%.0f, %.0f]", e.Channel, e.Path, tv, s.Q05, s.Q95))
+						}
+						continue
+					}
+					var one calibCount
+					in90, in50 := one.add(e.Draws, tv)
+					qN++
+					qIn90 += b2i(in90)
+					qIn50 += b2i(in50)
+					if e.Channel == "video_spend" && e.Path == "via_search" {
+						vN++
+						vIn90 += b2i(in90)
+						vIn50 += b2i(in50)
+					}
+				}
+				quarters[k].add(qIn90, qIn50, qN)
+				videoVia[k].add(vIn90, vIn50, vN)
+				g := gammaDraws(f)
+				in90, in50 := whole[k+"|gamma"].add(g, tm.out["gamma"])
+				flags = append(flags, fmt.Sprintf("gamma %d%d", b2i(in90), b2i(in50)))
+				if !in90 {
+					s := mediation.Summarise(g)
+					misses = append(misses, fmt.Sprintf("gamma %.3f outside [%.3f, %.3f]", tm.out["gamma"], s.Q05, s.Q95))
+				}
+				t.Logf("replicate %d, %s, %s model: quarters %d/%d (90%%), %d/%d (50%%); max R-hat %.3f, min ESS %.0f, %d divergences, wall %.0f s; whole period (in 90%%, in 50%%): %s; misses: %s",
+					seed, label(c), m, qIn90, qN, qIn50, qN, rh, ess, div, f.Wall[0]+f.Wall[1], strings.Join(flags, ", "), strings.Join(misses, "; "))
+			}
+		}
+	}
+	t.Logf("%d of %d fits with R-hat above 1.05 or a divergence", unconverged, R*(2*len(cases)-1))
+	lo90, hi90 := score.BinomialRange(R, 0.9, 0.95)
+	lo50, hi50 := score.BinomialRange(R, 0.5, 0.95)
+	t.Logf("whole-period effects and gamma, one trial per replicate (%d replicates; binomial 95%% range %d-%d at 90%%, %d-%d at 50%%):", R, lo90, hi90, lo50, hi50)
+	for _, c := range cases {
+		for _, m := range models {
+			k := key(c, m)
+			var cells []string
+			for _, q := range quantities {
+				n := whole[k+"|"+q]
+				cells = append(cells, fmt.Sprintf("%s %d/%d, %d/%d", q, n.in90, n.n, n.in50, n.n))
+				if m != "drift" {
+					continue
+				}
+				if p := score.BinomialLowerTail(float64(n.in90), n.n, 0.9); p < 0.001 {
+					t.Errorf("%s, drift model: %s covered by %d of %d 90%% intervals (P = %.2g)", label(c), q, n.in90, n.n, p)
+				}
+				if lo, hi := score.BinomialLowerTail(float64(n.in50), n.n, 0.5), score.BinomialUpperTail(float64(n.in50), n.n, 0.5); lo < 0.001 || hi < 0.001 {
+					t.Errorf("%s, drift model: %s covered by %d of %d 50%% intervals (tails %.2g, %.2g)", label(c), q, n.in50, n.n, lo, hi)
+				}
+			}
+			if whole[k+"|gamma"].n > 0 {
+				t.Logf("  %-20s %-7s (90%%, 50%%): %s", label(c), m, strings.Join(cells, "; "))
+			}
+		}
+	}
+	t.Logf("quarterly effects pooled over replicates (share, and its standard error over replicates):")
+	for _, c := range cases {
+		for _, m := range models {
+			k := key(c, m)
+			p90, se90 := quarters[k].share(0.9)
+			p50, se50 := quarters[k].share(0.5)
+			if len(quarters[k].n) == 0 {
+				continue
+			}
+			v90, vse90 := videoVia[k].share(0.9)
+			t.Logf("  %-20s %-7s all quarterly effects: 90%% %.3f (se %.3f), 50%% %.3f (se %.3f); video via search: 90%% %.3f (se %.3f)", label(c), m, p90, se90, p50, se50, v90, vse90)
+			if m == "drift" && p90+3*se90 < 0.9 {
+				t.Errorf("%s, drift model: quarterly 90%% coverage %.3f (se over replicates %.3f) is clearly below 0.9", label(c), p90, se90)
+			}
+		}
+	}
+	sm := cas{"smooth", false}
+	pd, _ := quarters[key(sm, "drift")].share(0.9)
+	po, _ := quarters[key(sm, "default")].share(0.9)
+	if pd <= po {
+		t.Errorf("smooth drift: the drift model covers %.3f of quarterly effects, the default model %.3f", pd, po)
+	}
+}
+
+func b2i(b bool) int {
+	if b {
+		return 1
+	}
+	return 0
+}
+
+// gammaDraws returns the outcome stage's draws of gamma, read by meaning.
+func gammaDraws(f *Fitted) []float64 {
+	l := f.Stages[1].Layout()
+	var g []float64
+	for _, c := range f.Fits[1].Chains {
+		r, _ := c.Draws.Dims()
+		for i := 0; i < r; i++ {
+			g = append(g, l.View(c.Draws.RawRowView(i)).Gamma())
+		}
+	}
+	return g
+}
