@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"strconv"
+	"strings"
 	"sync"
 	"testing"
 
@@ -38,7 +39,9 @@ func readReference(t *testing.T, path string) map[string]map[string]refRow {
 		t.Fatalf("the Stan reference is committed with the project: %v", err)
 	}
 	defer f.Close()
-	rows, err := csv.NewReader(f).ReadAll()
+	cr := csv.NewReader(f)
+	cr.FieldsPerRecord = -1
+	rows, err := cr.ReadAll()
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -48,6 +51,15 @@ func readReference(t *testing.T, path string) map[string]map[string]refRow {
 	}
 	out := map[string]map[string]refRow{}
 	for _, r := range rows[1:] {
+		// R's write.csv(quote = FALSE) leaves the commas of a name such as
+		// alpha[video_spend,R01] unquoted: the fields beyond the header's
+		// count belong to the name.
+		if extra := len(r) - len(rows[0]); extra > 0 {
+			n := col["name"]
+			r = append(append(append([]string(nil), r[:n]...), strings.Join(r[n:n+extra+1], ",")), r[n+extra+1:]...)
+		} else if extra < 0 {
+			t.Fatalf("%s: a row with %d fields, the header has %d", path, len(r), len(rows[0]))
+		}
 		num := func(k string) float64 {
 			v, err := strconv.ParseFloat(r[col[k]], 64)
 			if err != nil {
