@@ -150,8 +150,8 @@ func TestValidateTruthWithDrift(t *testing.T) {
 		}
 		truth := map[string][]float64{} // effect/path/window: the replicates' true values in order
 		for _, line := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
-			f := strings.Split(line, ",") // job,kind,name,path,window,stat,value
-			if len(f) == 7 && f[1] == "effect" && f[5] == "truth" && f[3] != "borrowed_share" {
+			f := strings.Split(line, ",") // job,kind,name,path,window,stat,value,region
+			if len(f) == 8 && f[7] == "" && f[1] == "effect" && f[5] == "truth" && f[3] != "borrowed_share" {
 				v, err := strconv.ParseFloat(f[6], 64)
 				if err != nil {
 					t.Fatal(err)
