@@ -81,10 +81,29 @@ func project(p *model.Panel, d Draws, g int, stage string) (Draws, error) {
 // region's are added to it and dropped as soon as the region is split, so
 // memory grows with the regions' effects, not with regions x draws x weeks.
 func SplitPanel(in *PanelInputs, windows []window.Window) (*PanelResult, error) {
+	var regions []RegionResult
+	weekly, err := eachRegion(in, windows, func(name string, r *Result) error {
+		regions = append(regions, RegionResult{Region: name, Result: r})
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	res, err := SumRegions(regions)
+	if err != nil {
+		return nil, err
+	}
+	res.Total.Weekly = weekly
+	return res, nil
+}
+
+// eachRegion splits every region of the panel in turn on its own data and
+// draws, adds its weekly contributions to the running sum it returns, and
+// hands the region's result, weekly draws dropped, to use.
+func eachRegion(in *PanelInputs, windows []window.Window, use func(name string, r *Result) error) ([][2][][]float64, error) {
 	if len(in.Data.Scaled) != len(in.Demand.Stages) || len(in.Data.Scaled) != len(in.Outcome.Stages) {
 		return nil, fmt.Errorf("mediation: the panel's data and stages have different regions")
 	}
-	var regions []RegionResult
 	var weekly [][2][][]float64
 	for g, name := range in.Data.Regions {
 		rin, err := in.Region(g)
@@ -97,14 +116,11 @@ func SplitPanel(in *PanelInputs, windows []window.Window) (*PanelResult, error) 
 		}
 		weekly = addWeekly(weekly, r.Weekly)
 		r.Weekly = nil
-		regions = append(regions, RegionResult{Region: name, Result: r})
+		if err := use(name, r); err != nil {
+			return nil, err
+		}
 	}
-	res, err := SumRegions(regions)
-	if err != nil {
-		return nil, err
-	}
-	res.Total.Weekly = weekly
-	return res, nil
+	return weekly, nil
 }
 
 // addWeekly adds src's weekly contributions to dst's (a copy of src when
@@ -463,36 +479,22 @@ type PanelTables struct {
 // sum. For 40 to 200 regions and thousands of draws this keeps about a
 // third of the per-region draws SplitPanel keeps (and no weekly draws).
 func SplitPanelTables(in *PanelInputs, windows []window.Window) (*PanelTables, error) {
-	if len(in.Data.Scaled) != len(in.Demand.Stages) || len(in.Data.Scaled) != len(in.Outcome.Stages) {
-		return nil, fmt.Errorf("mediation: the panel's data and stages have different regions")
-	}
 	out := &PanelTables{}
 	var kept []*Result
-	var weekly [][2][][]float64
-	for g, name := range in.Data.Regions {
-		rin, err := in.Region(g)
-		if err != nil {
-			return nil, err
-		}
-		r, err := Split(rin, windows)
-		if err != nil {
-			return nil, fmt.Errorf("region %s: %w", name, err)
-		}
-		weekly = addWeekly(weekly, r.Weekly)
-		r.Weekly = nil
+	weekly, err := eachRegion(in, windows, func(name string, r *Result) error {
 		one := []string{name}
 		out.Effects = append(out.Effects, RegionEffectsTable(one, []*Result{r})...)
 		out.Borrowed = append(out.Borrowed, RegionBorrowedTable(one, []*Result{r})...)
 		if out.Total == nil {
 			s, err := SumRegions([]RegionResult{{name, r}})
 			if err != nil {
-				return nil, err
+				return err
 			}
 			out.Total = s.Total
 		} else {
 			s, err := SumRegions([]RegionResult{{"", out.Total}, {name, r}})
 			if err != nil {
-				return nil, err
+				return err
 			}
 			out.Total = s.Total
 		}
@@ -503,9 +505,12 @@ func SplitPanelTables(in *PanelInputs, windows []window.Window) (*PanelTables, e
 			}
 		}
 		kept = append(kept, lean)
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
 	out.Total.Weekly = weekly
-	var err error
 	if out.Differences, err = RegionDifferences(in.Data.Regions, kept, out.Total); err != nil {
 		return nil, err
 	}
