@@ -320,8 +320,21 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 }
 
 func (t *PanelTarget) eval(grad, x []float64) float64 {
-	if !t.decode(x, grad != nil) {
+	lp, ok := t.evalData(grad, x)
+	if !ok {
 		return math.Inf(-1)
+	}
+	return t.evalFinish(grad, lp)
+}
+
+// evalData is eval up to the coefficients' hierarchies: the likelihood,
+// the priors of the shared, hyper and spread parameters and the intercepts'
+// hierarchy, with (grad not nil) the natural gradients and each region's
+// coefficient's data gradient, to which a PanelJoint's lift tests add
+// theirs before evalFinish.
+func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
+	if !t.decode(x, grad != nil) {
+		return 0, false
 	}
 	nat, gn := t.nat, t.gn
 	clear(gn)
@@ -386,11 +399,7 @@ func (t *PanelTarget) eval(grad, x []float64) float64 {
 		gn[k] += d
 	}
 	if grad == nil {
-		lp += t.inter.prior(nat, nil)
-		for _, c := range t.coefs {
-			lp += c.prior(nat, nil, nil)
-		}
-		return t.finish(nil, lp)
+		return lp + t.inter.prior(nat, nil), true
 	}
 	// natural gradients from the likelihood
 	for _, r := range t.regs {
@@ -446,9 +455,18 @@ func (t *PanelTarget) eval(grad, x []float64) float64 {
 			}
 		}
 	}
-	// the coefficients' hierarchies, through to the sampling coordinates
+	return lp, true
+}
+
+// evalFinish adds the coefficients' hierarchies, through to the sampling
+// coordinates, and the transforms' Jacobians and chain rule.
+func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
+	var gn []float64
+	if grad != nil {
+		gn = t.gn
+	}
 	for _, c := range t.coefs {
-		lp += c.prior(nat, gn, grad)
+		lp += c.prior(t.nat, gn, grad)
 	}
 	return t.finish(grad, lp)
 }
