@@ -11,6 +11,12 @@
 // carryover of spend before the window was kept. Every bad row is an error
 // naming FILE:LINE:COLUMN (a *data.DataError).
 //
+// On regional data fitted as a region panel (LoadPanel), a row may name a
+// region: the test removed the channel's spend in that region alone and
+// measured that region's metric; a row without a region removed it in every
+// region and measured the sum over the regions. Fitted as one national
+// series (Load), a region is refused.
+//
 // The file is read with encoding/csv: the project's fixed-schema table
 // package was not yet on the main branch when this one was written.
 package lifts
@@ -22,6 +28,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -54,18 +61,40 @@ const (
 
 var required = []string{ColChannel, ColStart, ColEnd, ColEstimate, ColSE}
 
-// Load reads the lift tests of file path against the data set ds.
+// Load reads the lift tests of file path against the data set ds, fitted
+// as one national series: a row naming a region is refused.
 func Load(path string, ds *data.Dataset) ([]Test, error) {
+	return load(path, ds, false)
+}
+
+// LoadPanel reads the lift tests of file path against regional data ds
+// fitted as a region panel: a row naming a region is that region's test
+// (its spend, its outcome or queries), a row without one a national test
+// (every region's spend removed, the metric summed over the regions).
+func LoadPanel(path string, ds *data.Dataset) ([]Test, error) {
+	return load(path, ds, true)
+}
+
+func load(path string, ds *data.Dataset, panel bool) ([]Test, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return nil, &data.DataError{File: path, Err: err}
 	}
 	defer f.Close()
-	return Read(f, path, ds)
+	return read(f, path, ds, panel)
 }
 
 // Read is Load on a reader; file names the source in errors.
 func Read(r io.Reader, file string, ds *data.Dataset) ([]Test, error) {
+	return read(r, file, ds, false)
+}
+
+// ReadPanel is LoadPanel on a reader.
+func ReadPanel(r io.Reader, file string, ds *data.Dataset) ([]Test, error) {
+	return read(r, file, ds, true)
+}
+
+func read(r io.Reader, file string, ds *data.Dataset, panel bool) ([]Test, error) {
 	at := func(line, col int, header, f string, args ...any) error {
 		return &data.DataError{File: file, Line: line, Column: col, Header: header, Err: fmt.Errorf(f, args...)}
 	}
@@ -150,11 +179,25 @@ func Read(r io.Reader, file string, ds *data.Dataset) ([]Test, error) {
 				return nil, at(line, mc, ColMetric, "unknown metric %q; expected outcome or queries", data.Excerpt(m))
 			}
 		}
-		if r, rc := cell(ColRegion); r != "" {
-			if len(ds.Regions) == 1 && ds.Regions[0].Name == "" {
+		series := national
+		r, rc := cell(ColRegion)
+		if r != "" {
+			switch {
+			case len(ds.Regions) == 1 && ds.Regions[0].Name == "":
 				return nil, at(line, rc, ColRegion, "region %q, but the data are national (no region column); leave it empty", data.Excerpt(r))
+			case !panel:
+				return nil, at(line, rc, ColRegion, "a lift test in one region needs the region panel, but the regions are fitted as their national sum; leave it empty for a national test, or fit the panel (no --national)")
 			}
-			return nil, at(line, rc, ColRegion, "a lift test in one region needs the region panel, which this version does not fit; leave it empty for a national test")
+			g := slices.IndexFunc(ds.Regions, func(reg data.Region) bool { return reg.Name == r })
+			if g < 0 {
+				names := make([]string, len(ds.Regions))
+				for i, reg := range ds.Regions {
+					names[i] = reg.Name
+				}
+				return nil, at(line, rc, ColRegion, "unknown region %q; expected one of the data's regions %s", data.Excerpt(r), data.Excerpt(strings.Join(names, ", ")))
+			}
+			t.Region = r
+			series = ds.Regions[g].Series
 		}
 		date := func(name string) (time.Time, int, int, error) {
 			s, c := cell(name)
@@ -178,14 +221,17 @@ func Read(r io.Reader, file string, ds *data.Dataset) ([]Test, error) {
 		if t.To < t.From {
 			return nil, at(line, ec, ColEnd, "the window ends (%s) before it starts (%s)", t.End.Format(time.DateOnly), t.Start.Format(time.DateOnly))
 		}
-		x := national.Upper
+		x := series.Upper
 		idx := upper[ch]
 		if isSearch {
-			x, idx = national.Search, search[ch]
+			x, idx = series.Search, search[ch]
 		}
 		spend := 0.0
 		for w := t.From; w <= t.To; w++ {
 			spend += x[idx][w]
+		}
+		if spend <= 0 && t.Region != "" {
+			return nil, at(line, rc, ColRegion, "%s has no spend in region %s from %s to %s: removing it cannot be tested there", ch, t.Region, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly))
 		}
 		if spend <= 0 {
 			return nil, at(line, sc, ColStart, "%s has no spend from %s to %s: removing it cannot be tested there", ch, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly))
@@ -235,4 +281,53 @@ func (t Test) Term(sc *model.Scaled, demand, outcome int) *model.LiftTest {
 	}
 	return &model.LiftTest{Column: t.Channel, Metric: t.Metric, Start: t.From, End: t.To,
 		Estimate: t.Estimate / div, SE: t.SE / div, Demand: demand, Outcome: outcome}
+}
+
+// PanelTerm returns the test as a term of the region panel ps (built from
+// the same data set), with demand and outcome the parts of the joint target
+// that hold those panels. A test in one region is in that region's scaled
+// units (estimate and se divided by the region's mean of the metric, as
+// Term does nationally); a national test is in units of the sum of the
+// regions' means, each region's lift weighted by its mean over that sum, so
+// that the model's value is the sum of the regions' lifts in the metric's
+// own units divided by the same number (PanelUnit).
+func (t Test) PanelTerm(ps *model.PanelScaled, demand, outcome int) *model.PanelLiftTest {
+	w := make([]float64, len(ps.Scaled))
+	for g, sc := range ps.Scaled {
+		switch {
+		case t.Region == "":
+			w[g] = t.scale(sc)
+		case ps.Regions[g] == t.Region:
+			w[g] = 1
+		}
+	}
+	u := t.PanelUnit(ps)
+	if t.Region == "" {
+		for g := range w {
+			w[g] /= u
+		}
+	}
+	return &model.PanelLiftTest{Column: t.Channel, Metric: t.Metric, Start: t.From, End: t.To,
+		Estimate: t.Estimate / u, SE: t.SE / u, Weights: w, Demand: demand, Outcome: outcome}
+}
+
+// PanelUnit returns the unit of PanelTerm's estimate in the metric's own
+// units: the region's mean of the metric for a test in one region, the sum
+// of the regions' means for a national test.
+func (t Test) PanelUnit(ps *model.PanelScaled) float64 {
+	u := 0.0
+	for g, sc := range ps.Scaled {
+		if t.Region == "" || ps.Regions[g] == t.Region {
+			u += t.scale(sc)
+		}
+	}
+	return u
+}
+
+// scale returns sc's mean of the test's metric.
+func (t Test) scale(sc *model.Scaled) float64 {
+	if t.Metric == model.LiftQueries {
+		return sc.QueriesScale
+	}
+	return sc.OutcomeScale
 }
