@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"slices"
 
+	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/mediation"
@@ -21,6 +22,13 @@ type PanelFitted struct {
 	Coords [3]*model.Coords
 	// Wall is each stage's wall time in seconds.
 	Wall [3]float64
+	// Tests are the lift tests fitted as data and Lifts their terms, bound
+	// to the joint target they were sampled in (FitPanelLifts); none
+	// without.
+	Tests    []lifts.Test
+	Lifts    []*model.PanelLiftTest
+	options  model.Options
+	settings mcmc.Settings
 }
 
 // FitPanel runs the region model's three stages (demand, outcome, naive)
@@ -66,6 +74,13 @@ func (f *PanelFitted) Inputs() *mediation.PanelInputs {
 // put together in chain order: the panels rebuilt from ps and o, each
 // stage's draws checked against its panel's parameters.
 func AssemblePanel(ps *model.PanelScaled, o model.Options, fits [3]*mcmc.Fit, wall [3]float64) (*PanelFitted, error) {
+	return AssemblePanelLifts(ps, o, nil, mcmc.Settings{}, fits, wall)
+}
+
+// AssemblePanelLifts is AssemblePanel for a fit with lift tests (as
+// FitPanelLifts samples it with settings s, which CheckLifts' refits
+// reuse): the tests' terms bound as the joint fit binds them.
+func AssemblePanelLifts(ps *model.PanelScaled, o model.Options, tests []lifts.Test, s mcmc.Settings, fits [3]*mcmc.Fit, wall [3]float64) (*PanelFitted, error) {
 	panels, err := model.PanelStages(ps, o)
 	if err != nil {
 		return nil, err
@@ -75,5 +90,11 @@ func AssemblePanel(ps *model.PanelScaled, o model.Options, fits [3]*mcmc.Fit, wa
 			return nil, fmt.Errorf("%s stage: parameters %v do not match the region panel's %v", p.Name, got, want)
 		}
 	}
-	return &PanelFitted{Data: ps, Panels: panels, Fits: fits, Wall: wall}, nil
+	f := &PanelFitted{Data: ps, Panels: panels, Fits: fits, Wall: wall, Tests: tests, options: o, settings: s}
+	if len(tests) > 0 {
+		if _, err := f.bindLifts(); err != nil {
+			return nil, err
+		}
+	}
+	return f, nil
 }

@@ -1,0 +1,150 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+
+	"gonum.org/v1/gonum/mat"
+
+	"spillway/funnel/lifts"
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
+)
+
+// FitPanelLifts is FitPanel with lift tests as data, as FitLifts is Fit: a
+// test of the outcome ties the demand and the outcome panel (region g's
+// via search needs alpha[c,g] and gamma[g]), so the two are then fitted as
+// one joint target (model.PanelJoint) with every test; with tests of the
+// queries alone, the demand panel is fitted with them and the outcome panel
+// on its own; the naive panel always on its own. The joint fit uses seed
+// s.Seed and its wall time is the demand stage's (the outcome's is 0); its
+// draws are split back into one fit per panel, paired by index. No tests:
+// FitPanel itself.
+func FitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
+	if len(tests) == 0 {
+		return FitPanel(ctx, ps, o, s, hook)
+	}
+	return fitPanelLifts(ctx, ps, o, tests, s, hook, true)
+}
+
+// fitPanelLifts is FitPanelLifts with or without the naive panel (Fits[2]
+// nil without).
+func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook, naive bool) (*PanelFitted, error) {
+	panels, err := model.PanelStages(ps, o)
+	if err != nil {
+		return nil, err
+	}
+	f := &PanelFitted{Data: ps, Panels: panels, Tests: tests, options: o, settings: s}
+	for k, p := range panels {
+		if p.Coords, err = model.ChooseCoordinates(p); err != nil {
+			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
+		}
+		f.Coords[k] = p.Coords
+	}
+	j, err := f.bindLifts()
+	if err != nil {
+		return nil, err
+	}
+	n := len(j.Names())
+	joint := 1
+	if n != len(panels[0].Names()) {
+		joint = 2
+	}
+	name := "demand"
+	if joint == 2 {
+		name = "demand and outcome"
+	}
+	fit, wall, err := run(ctx, j, settings(s, 0), hook, name)
+	if err != nil {
+		return nil, err
+	}
+	n0 := len(panels[0].Names())
+	f.Fits[0], f.Wall[0] = columns(fit, 0, n0), wall
+	if joint == 2 {
+		f.Fits[1] = columns(fit, n0, n)
+	}
+	last := 3
+	if !naive {
+		last = 2
+	}
+	for k := joint; k < last; k++ {
+		tg, err := panels[k].Target()
+		if err != nil {
+			return nil, fmt.Errorf("%s stage: %w", panels[k].Name, err)
+		}
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, panels[k].Name); err != nil {
+			return nil, err
+		}
+	}
+	return f, nil
+}
+
+// bindLifts sets f.Lifts, the terms of f.Tests, bound to the panels in the
+// joint target they are sampled in: the demand panel, and the outcome panel
+// too when a test of the outcome ties them. It returns that target.
+func (f *PanelFitted) bindLifts() (*model.PanelJoint, error) {
+	joint := []*model.Panel{f.Panels[0]}
+	for _, t := range f.Tests {
+		if t.Metric == model.LiftOutcome {
+			joint = append(joint, f.Panels[1])
+			break
+		}
+	}
+	f.Lifts = nil
+	for _, t := range f.Tests {
+		f.Lifts = append(f.Lifts, t.PanelTerm(f.Data, 0, 1))
+	}
+	return model.NewPanelJoint(joint, f.Lifts...)
+}
+
+// CheckLifts is Fitted.CheckLifts for a region panel fitted with lift
+// tests (FitPanelLifts or AssemblePanelLifts): each test beside the model's
+// posterior of the same quantity (in the metric's units: the region's for a
+// test in one region, the sum over the regions for a national test), left
+// out by Pareto-smoothed importance weights or, above MaxParetoK, by a refit
+// of the demand and outcome panels without it.
+func (f *PanelFitted) CheckLifts(ctx context.Context, hook StageHook) ([]LiftCheck, error) {
+	out := make([]LiftCheck, len(f.Lifts))
+	for i := range f.Lifts {
+		draws := f.liftDraws(f, i)
+		c := loCheck(f.Tests[i], draws)
+		if c.K > MaxParetoK {
+			rest := append(append([]lifts.Test(nil), f.Tests[:i]...), f.Tests[i+1:]...)
+			set := f.settings
+			set.Seed += 1000 * uint64(i+1)
+			g, err := fitPanelLifts(ctx, f.Data, f.options, rest, set, hook, false)
+			if err != nil {
+				return nil, fmt.Errorf("lift test (line %d) left out: %w", f.Tests[i].Line, err)
+			}
+			pred := refitCheck(f.Tests[i], f.liftDraws(g, i))
+			c.Without, c.WithoutSD, c.Z, c.P, c.Refit = pred.Without, pred.WithoutSD, pred.Z, pred.P, true
+		}
+		out[i] = c
+	}
+	return out, nil
+}
+
+// liftDraws returns test i's lift (the metric's units) under every paired
+// draw of g's demand and outcome fits; g has f's panels (f itself, or a
+// refit).
+func (f *PanelFitted) liftDraws(g *PanelFitted, i int) []float64 {
+	unit := f.Tests[i].PanelUnit(f.Data)
+	term := f.Lifts[i].Clone()
+	var draws []float64
+	for c := range g.Fits[0].Chains {
+		d := g.Fits[0].Chains[c].Draws
+		var y *mat.Dense
+		if g.Fits[1] != nil {
+			y = g.Fits[1].Chains[c].Draws
+		}
+		r, _ := d.Dims()
+		for k := 0; k < r; k++ {
+			var vy []float64
+			if y != nil {
+				vy = y.RawRowView(k)
+			}
+			draws = append(draws, unit*term.Lift(d.RawRowView(k), vy))
+		}
+	}
+	return draws
+}
