@@ -143,8 +143,11 @@ each region scaled by its own means, with its own intercept and query and
 media coefficients pooled towards the regions' typical values (their
 spreads, tau_..., are learned and printed); trend, seasons, controls,
 transforms and noise are shared. --national fits the regions' national sum
-instead, as one series (recorded in spec.json); --lifts, --drift,
---baseline smooth, return priors and measured exposure need it for now.
+instead, as one series (recorded in spec.json); --drift, --baseline
+smooth, return priors and measured exposure need it for now. On a panel a
+lift test may name a region (the column region): it removed the channel's
+spend in that region alone and measured that region's metric; a test
+without one removed it in every region and measured the sum.
 
 With --drift, the named channels' effectiveness may change over time: each
 coefficient is multiplied by a smooth function of the week whose logarithm
@@ -258,14 +261,14 @@ func runFit(ctx context.Context, roles *roleFlags, opts *samplingFlags, demo str
 	p.set.Only = only
 	hook := progressHook(ctx, opts, len(only), stderr)
 	if p.panel != nil {
-		pf, err := pipeline.FitPanel(ctx, p.panel, p.o, p.set, hook)
+		pf, err := pipeline.FitPanelLifts(ctx, p.panel, p.o, p.tests, p.set, hook)
 		if err != nil {
 			return nil, err
 		}
 		if only != nil {
 			return writeShard(od, p, pf.Fits[:], pf.Wall[:], review, stdout)
 		}
-		ff, err := finishPanelFit(od, p, pf, stdout, stderr)
+		ff, err := finishPanelFit(ctx, od, p, pf, hook, stdout, stderr)
 		if err != nil {
 			return nil, err
 		}
@@ -361,7 +364,11 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 		}
 	}
 	if opts.lifts != "" {
-		if p.tests, err = lifts.Load(opts.lifts, ds); err != nil {
+		load := lifts.Load
+		if p.panel != nil {
+			load = lifts.LoadPanel
+		}
+		if p.tests, err = load(opts.lifts, ds); err != nil {
 			return nil, badData(err)
 		}
 		if p.liftBytes, err = os.ReadFile(opts.lifts); err != nil {
@@ -394,9 +401,6 @@ func panelChoices(opts *samplingFlags, spec data.Spec) error {
 	}
 	slices.Sort(flags)
 	flags = slices.Compact(flags)
-	if opts.lifts != "" {
-		flags = append(flags, "--lifts")
-	}
 	if len(opts.drift) > 0 {
 		flags = append(flags, "--drift")
 	}
@@ -450,13 +454,23 @@ func finishFit(ctx context.Context, od *outDir, p *fitPlan, fitted *pipeline.Fit
 // all sampled into od, prints the summary with the regions' spreads and
 // returns the fit with its model. The support check (PSIS-LOO against the
 // stage without media terms) is the national model's; the verdict says it
-// was not made.
-func finishPanelFit(od *outDir, p *fitPlan, pf *pipeline.PanelFitted, stdout, stderr io.Writer) (*fitFolder, error) {
+// was not made. With lift tests it writes lifts.csv, each checked against
+// the rest of the data (a refit without it shows its progress on hook).
+func finishPanelFit(ctx context.Context, od *outDir, p *fitPlan, pf *pipeline.PanelFitted, hook pipeline.StageHook, stdout, stderr io.Writer) (*fitFolder, error) {
 	f, reps := newFit(p.run, p.ds, p.priorBytes, pf.Fits, pf.Wall)
 	f.Verdict.Reasons = append(f.Verdict.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + panelSupportNote})
 	files, err := f.FitFiles()
 	if err != nil {
 		return nil, err
+	}
+	var liftChecks []pipeline.LiftCheck
+	if len(pf.Tests) > 0 {
+		if liftChecks, err = pf.CheckLifts(ctx, hook); err != nil {
+			return nil, err
+		}
+		if err := liftFiles(files, liftChecks, p.liftBytes, true); err != nil {
+			return nil, err
+		}
 	}
 	for name, b := range files {
 		if err := od.WriteFile(name, b); err != nil {
@@ -464,6 +478,7 @@ func finishPanelFit(od *outDir, p *fitPlan, pf *pipeline.PanelFitted, stdout, st
 		}
 	}
 	printFitSummary(stdout, reps, pf.Fits, pf.Wall, &pf.Panels, nil)
+	printLiftChecks(stdout, liftChecks)
 	if !f.Verdict.Trustworthy {
 		fmt.Fprintf(stderr, "spillway: WARNING: the fit is NOT TRUSTWORTHY; see %s/verdict.txt\n", od.Final())
 	}

@@ -247,7 +247,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		case o.truth != "":
 			return usagef("--truth holds national true parameters; a region panel's recovery simulates from its reference fit (leave out --truth, or add --national)")
 		case liftFile != "":
-			return usagef("--lifts: lift tests are not part of the region model yet; leave them out, or add --national")
+			return usagef("--lifts: fit and run take lift tests on a region panel, but validate's panel refits do not yet; leave them out, or add --national")
 		case slices.Contains(set.Checks, validate.Placebo):
 			return usagef("--checks placebo does not run on a region panel yet; leave it out, or add --national")
 		}

@@ -46,19 +46,29 @@ func driftFiles(ctx context.Context, files map[string][]byte, f *pipeline.Fitted
 	if err != nil {
 		return nil, err
 	}
+	return checks, liftFiles(files, checks, liftFile, false)
+}
+
+// liftFiles adds lifts.csv (a region panel's, panel, with the region
+// column) and the copy of the lift-test file to files.
+func liftFiles(files map[string][]byte, checks []pipeline.LiftCheck, liftFile []byte, panel bool) error {
 	rows := make([]fitfolder.Lift, len(checks))
 	for i, c := range checks {
 		t := c.Test
-		rows[i] = fitfolder.Lift{Channel: t.Channel, Metric: t.Metric.String(), Start: t.Start, End: t.End, Estimate: t.Estimate, SE: t.SE,
+		rows[i] = fitfolder.Lift{Region: t.Region, Channel: t.Channel, Metric: t.Metric.String(), Start: t.Start, End: t.End, Estimate: t.Estimate, SE: t.SE,
 			Mean: c.Mean, Q05: c.Q05, Q95: c.Q95, RestMean: c.Without, RestSD: c.WithoutSD, ParetoK: c.K, Refit: c.Refit, Z: c.Z, P: c.P, Verdict: c.Verdict()}
 	}
-	b, err := fitfolder.LiftsFile(rows)
+	render := fitfolder.LiftsFile
+	if panel {
+		render = fitfolder.PanelLiftsFile
+	}
+	b, err := render(rows)
 	if err != nil {
-		return nil, fmt.Errorf("lifts.csv: %w", err)
+		return fmt.Errorf("%s: %w", fitfolder.LiftsFileName, err)
 	}
 	files[fitfolder.LiftsFileName] = b
 	files[fitfolder.LiftTestsFile] = liftFile
-	return checks, nil
+	return nil
 }
 
 // printLiftChecks prints a line for every lift test the model cannot
@@ -68,8 +78,12 @@ func printLiftChecks(w io.Writer, checks []pipeline.LiftCheck) {
 	bad := 0
 	for _, c := range checks {
 		t := c.Test
-		what := fmt.Sprintf("lift test (line %d) of %s on %s, %s to %s: %.4g (se %.3g)",
-			t.Line, t.Channel, t.Metric, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly), t.Estimate, t.SE)
+		where := ""
+		if t.Region != "" {
+			where = " in region " + t.Region
+		}
+		what := fmt.Sprintf("lift test (line %d) of %s%s on %s, %s to %s: %.4g (se %.3g)",
+			t.Line, t.Channel, where, t.Metric, t.Start.Format(time.DateOnly), t.End.Format(time.DateOnly), t.Estimate, t.SE)
 		switch c.Verdict() {
 		case pipeline.LiftContradicts:
 			fmt.Fprintf(w, "%s, but the rest of the data say %.4g (sd %.3g): p = %.2g; the model cannot reconcile them\n", what, c.Without, c.WithoutSD, c.P)

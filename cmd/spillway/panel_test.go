@@ -211,13 +211,21 @@ func TestPanelChainsMerge(t *testing.T) {
 }
 
 // TestPanelBadInput: a region column the data lack, a region with too few
-// weeks, regions of different lengths, and the options the panel does not
-// have yet are refused with the file, line and column (or the flag), exit
+// weeks, regions of different lengths, lift tests in a region the data lack
+// or that does not run the channel in the window (or in a region of data
+// fitted as their national sum), and the options the panel does not have
+// yet are refused with the file, line and column (or the flag), exit
 // status 2, before any sampling, and nothing is written.
 func TestPanelBadInput(t *testing.T) {
 	short := cmdRegions(60)
 	short.rows = short.rows[:len(short.rows)-1]
-	lifts := writeFile(t, "lifts.csv", "channel,start,end,estimate,se\nvideo,2023-04-10,2023-05-01,80,15\n")
+	// north (rows 0, 2, 4, ...) without video in its first 20 weeks
+	noVideo := cmdRegions(60)
+	for w := range 20 {
+		noVideo.set(2*w, "video", "0")
+	}
+	lifts := writeFile(t, "lifts.csv", "channel,start,end,estimate,se,region\nvideo,2023-04-10,2023-05-01,80,15,south\nvideo,2023-04-10,2023-05-01,80,15,east\n")
+	north := writeFile(t, "north.csv", "channel,start,end,estimate,se,region\nvideo,2023-04-10,2023-05-01,80,15,north\n")
 	for _, c := range []struct {
 		name  string
 		data  string
@@ -228,7 +236,9 @@ func TestPanelBadInput(t *testing.T) {
 		{"no such region column", cmdRegions(60).csv(), []string{"--region", "area"}, "fit", []string{":1: ", `column "area": not in the header (asked for by --region)`}},
 		{"regions with too few weeks", cmdRegions(40).csv(), regionFlags, "fit", []string{": only 40 weeks per region", "at least 52"}},
 		{"regions of different lengths", short.csv(), regionFlags, "fit", []string{fmt.Sprintf(":%d:1: ", 2*58+1+2), `region "south" ends on`}},
-		{"lift tests", cmdRegions(60).csv(), append([]string{"--lifts", lifts}, regionFlags...), "fit", []string{"--lifts", "not part of the region panel", "--national"}},
+		{"a lift test in an unknown region", cmdRegions(60).csv(), append([]string{"--lifts", lifts}, regionFlags...), "fit", []string{lifts + ":3:6: ", `unknown region "east"; expected one of the data's regions north, south`}},
+		{"a lift test in a region without the channel's spend", noVideo.csv(), append([]string{"--lifts", north}, regionFlags...), "fit", []string{north + ":2:6: ", "video has no spend in region north from 2023-04-10 to 2023-05-01"}},
+		{"a lift test in a region of the national sum", cmdRegions(60).csv(), append([]string{"--lifts", north, "--national"}, regionFlags...), "fit", []string{north + ":2:6: ", "fitted as their national sum"}},
 		{"drift", cmdRegions(60).csv(), append([]string{"--drift", "video"}, regionFlags...), "fit", []string{"--drift", "--national"}},
 		{"allocate", cmdRegions(60).csv(), append([]string{"--allocate"}, regionFlags...), "run", []string{"--allocate", "--national"}},
 	} {

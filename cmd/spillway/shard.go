@@ -212,7 +212,7 @@ func shardChains(shards []*fitfolder.ShardFolder) ([]*mcmc.Fit, []float64) {
 }
 
 // mergedPanel is mergedFit for the chains of a region panel.
-func mergedPanel(od *outDir, p *fitPlan, shards []*fitfolder.ShardFolder, stdout, stderr io.Writer) (*fitRun, error) {
+func mergedPanel(ctx context.Context, od *outDir, p *fitPlan, shards []*fitfolder.ShardFolder, opts *samplingFlags, stdout, stderr io.Writer) (*fitRun, error) {
 	first := shards[0]
 	var err error
 	if p.panel, err = model.ScalePanel(p.ds, nil); err != nil {
@@ -234,11 +234,16 @@ func mergedPanel(od *outDir, p *fitPlan, shards []*fitfolder.ShardFolder, stdout
 			}
 		}
 	}
-	pf, err := pipeline.AssemblePanel(p.panel, p.o, [3]*mcmc.Fit(fits), [3]float64(wall))
+	if first.LiftTests != nil {
+		if p.tests, err = lifts.LoadPanel(filepath.Join(first.Dir, fitfolder.LiftTestsFile), p.ds); err != nil {
+			return nil, badData(err)
+		}
+	}
+	pf, err := pipeline.AssemblePanelLifts(p.panel, p.o, p.tests, p.set, [3]*mcmc.Fit(fits), [3]float64(wall))
 	if err != nil {
 		return nil, badData(fmt.Errorf("%s: %w", first.Dir, err))
 	}
-	ff, err := finishPanelFit(od, p, pf, stdout, stderr)
+	ff, err := finishPanelFit(ctx, od, p, pf, progressHook(ctx, opts, 0, stderr), stdout, stderr)
 	if err != nil {
 		return nil, err
 	}
@@ -257,7 +262,7 @@ func mergedFit(ctx context.Context, od *outDir, shards []*fitfolder.ShardFolder,
 		return nil, badData(fmt.Errorf("%s: the shard's panel setting does not match its data and settings", filepath.Join(first.Dir, fitfolder.ShardFile)))
 	}
 	if m.Panel {
-		return mergedPanel(od, p, shards, stdout, stderr)
+		return mergedPanel(ctx, od, p, shards, opts, stdout, stderr)
 	}
 	p.sc = model.Scale(p.ds.National(), p.ds.Spec)
 	c := pipeline.Choices{Linear: m.Run.Linear, Drift: m.Run.Drift, Baseline: m.Run.Baseline}

@@ -1,9 +1,12 @@
 package fitfolder
 
 import (
+	"encoding/csv"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"spillway/funnel/table"
@@ -117,6 +120,10 @@ func DriftFile(rows []Drift) ([]byte, error) {
 // metric's units) and how surprising the test is given the rest of the
 // data.
 type Lift struct {
+	// Region is the region of a test in one region of a region panel; ""
+	// for a national test (on a panel: every region's spend removed, the
+	// metric summed over the regions).
+	Region          string
 	Channel, Metric string
 	Start, End      time.Time
 	Estimate, SE    float64
@@ -160,15 +167,59 @@ type liftRow struct {
 	Verdict  string        `csv:"verdict"`
 }
 
-// LiftsFile renders lifts.csv.
+// panelLiftRow is a row of a region panel's lifts.csv: liftRow's columns
+// after the region (empty for a national test). A national fit's file has
+// no region column and reads as before.
+type panelLiftRow struct {
+	Region   string        `csv:"region"`
+	Channel  string        `csv:"channel"`
+	Metric   string        `csv:"metric"`
+	Start    table.Date    `csv:"start"`
+	End      table.Date    `csv:"end"`
+	Estimate table.Float   `csv:"estimate"`
+	SE       table.Float   `csv:"se"`
+	Mean     table.Float   `csv:"model_mean"`
+	Q05      table.Float   `csv:"model_q05"`
+	Q95      table.Float   `csv:"model_q95"`
+	RestMean table.OptStat `csv:"rest_mean"`
+	RestSD   table.OptStat `csv:"rest_sd"`
+	ParetoK  table.OptStat `csv:"pareto_k"`
+	Refit    string        `csv:"left_out_by"`
+	Z        table.Float   `csv:"z"`
+	P        table.Float   `csv:"p"`
+	Verdict  string        `csv:"verdict"`
+}
+
+// liftRegion reads the region column of a region panel's lifts.csv.
+type liftRegion struct {
+	Region string `csv:"region"`
+}
+
+// LiftsFile renders a national fit's lifts.csv.
 func LiftsFile(rows []Lift) ([]byte, error) {
 	out := make([]liftRow, len(rows))
 	for i, r := range rows {
-		out[i] = liftRow{r.Channel, r.Metric, table.Date(r.Start), table.Date(r.End), table.Float(r.Estimate), table.Float(r.SE),
-			table.Float(r.Mean), table.Float(r.Q05), table.Float(r.Q95), table.OptStat(r.RestMean), table.OptStat(r.RestSD),
-			table.OptStat(r.ParetoK), leftOutBy(r.Refit), table.Float(r.Z), table.Float(r.P), r.Verdict}
+		out[i] = r.row()
 	}
 	return tableFile(out)
+}
+
+// PanelLiftsFile renders a region panel's lifts.csv, with the region
+// column.
+func PanelLiftsFile(rows []Lift) ([]byte, error) {
+	out := make([]panelLiftRow, len(rows))
+	for i, r := range rows {
+		l := r.row()
+		out[i] = panelLiftRow{r.Region, l.Channel, l.Metric, l.Start, l.End, l.Estimate, l.SE, l.Mean, l.Q05, l.Q95,
+			l.RestMean, l.RestSD, l.ParetoK, l.Refit, l.Z, l.P, l.Verdict}
+	}
+	return tableFile(out)
+}
+
+func (r Lift) row() liftRow {
+	return liftRow{r.Channel, r.Metric, table.Date(r.Start), table.Date(r.End), table.Float(r.Estimate), table.Float(r.SE),
+		table.Float(r.Mean), table.Float(r.Q05), table.Float(r.Q95), table.OptStat(r.RestMean), table.OptStat(r.RestSD),
+		table.OptStat(r.ParetoK), leftOutBy(r.Refit), table.Float(r.Z), table.Float(r.P), r.Verdict}
 }
 
 // How a lift test was left out, the left_out_by column of lifts.csv.
@@ -269,12 +320,20 @@ func readDrift(path string, run Run) ([]Drift, error) {
 	return out, nil
 }
 
-// readLifts reads lifts.csv.
+// readLifts reads lifts.csv, a region panel's with its region column.
 func readLifts(path string, run Run) ([]Lift, error) {
 	var rows []liftRow
 	lines, err := readTable(path, hintFit, &rows)
 	if err != nil {
 		return nil, err
+	}
+	regions := make([]liftRegion, len(rows))
+	if has, err := hasColumn(path, "region"); err != nil {
+		return nil, err
+	} else if has {
+		if _, err := readTable(path, hintFit, &regions); err != nil {
+			return nil, err
+		}
 	}
 	out := make([]Lift, len(rows))
 	for i, r := range rows {
@@ -304,9 +363,28 @@ func readLifts(path string, run Run) ([]Lift, error) {
 		if math.IsNaN(k) && r.Refit == LeftOutWeights {
 			return nil, bad("pareto_k", "no Pareto shape for a test left out by weights")
 		}
-		out[i] = Lift{Channel: r.Channel, Metric: r.Metric, Start: start, End: end, Estimate: float64(r.Estimate), SE: float64(r.SE),
+		out[i] = Lift{Region: regions[i].Region, Channel: r.Channel, Metric: r.Metric, Start: start, End: end, Estimate: float64(r.Estimate), SE: float64(r.SE),
 			Mean: float64(r.Mean), Q05: float64(r.Q05), Q95: float64(r.Q95), RestMean: float64(r.RestMean), RestSD: float64(r.RestSD),
 			ParetoK: k, Refit: r.Refit == LeftOutRefit, Z: float64(r.Z), P: float64(r.P), Verdict: r.Verdict}
 	}
 	return out, nil
+}
+
+// hasColumn reports whether the header of the CSV file at path names col.
+func hasColumn(path, col string) (bool, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return false, openError(path, hintFit, err)
+	}
+	defer f.Close()
+	head, err := csv.NewReader(f).Read()
+	if err != nil {
+		return false, &Error{File: path, Line: 1, Err: err}
+	}
+	for _, h := range head {
+		if strings.TrimSpace(strings.TrimPrefix(h, "\ufeff")) == col {
+			return true, nil
+		}
+	}
+	return false, nil
 }

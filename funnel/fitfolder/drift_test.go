@@ -21,8 +21,8 @@ func TestDriftFilesRoundTrip(t *testing.T) {
 	drift := []Drift{{"video", "via_search", day, 1.1, 0.9, 1.3}, {"search", "controlled", day, 0.95, 0.7, 1.2}}
 	change := []DriftChange{{"video", "direct", "2023Q1", "2025Q4", 1.4, 1.1, 1.8, 0.93, 0, "2025Q3", "2023Q1", 1.3, 0.85}}
 	lifts := []Lift{
-		{"video", "outcome", day, day.AddDate(0, 0, 21), 800, 150, 780, 600, 950, 770, 120, 0.21, false, 0.15, 0.88, "agrees"},
-		{"video", "outcome", day, day.AddDate(0, 0, 21), 9000, 300, 2100, 1800, 2500, 800, 200, math.Inf(1), true, 22, 1e-12, "contradicts"},
+		{"", "video", "outcome", day, day.AddDate(0, 0, 21), 800, 150, 780, 600, 950, 770, 120, 0.21, false, 0.15, 0.88, "agrees"},
+		{"", "video", "outcome", day, day.AddDate(0, 0, 21), 9000, 300, 2100, 1800, 2500, 800, 200, math.Inf(1), true, 22, 1e-12, "contradicts"},
 	}
 	dir := t.TempDir()
 	write := func(name string, b []byte, err error) string {
@@ -56,6 +56,29 @@ func TestDriftFilesRoundTrip(t *testing.T) {
 		t.Errorf("lifts.csv: %v, %+v", err, gl)
 	}
 
+	// a region panel's file: the region column first, empty for a
+	// national test; a national fit's file has none and reads with empty
+	// regions (above)
+	if b, _ := os.ReadFile(pl); strings.HasPrefix(string(b), "region,") {
+		t.Errorf("a national fit's lifts.csv has a region column: %q", b[:40])
+	}
+	panel := append([]Lift(nil), lifts...)
+	panel[0].Region = "North"
+	b, err = PanelLiftsFile(panel)
+	pp := write("panel-"+LiftsFileName, b, err)
+	if !strings.HasPrefix(string(b), "region,channel,metric,start,end,") || !strings.Contains(string(b), "\nNorth,video,") || !strings.Contains(string(b), "\n,video,") {
+		t.Errorf("a region panel's lifts.csv:\n%s", b)
+	}
+	gp, err := readLifts(pp, run)
+	if err != nil || len(gp) != 2 || gp[0].Region != "North" || gp[1].Region != "" || gp[0].Estimate != 800 || gp[1].Verdict != "contradicts" {
+		t.Errorf("a region panel's lifts.csv: %v, %+v", err, gp)
+	}
+	for i := range gl {
+		if gl[i].Region != "" {
+			t.Errorf("a national fit's test %d read with region %q", i, gl[i].Region)
+		}
+	}
+
 	spoil := []struct {
 		path, from, to, column string
 	}{
@@ -64,6 +87,7 @@ func TestDriftFilesRoundTrip(t *testing.T) {
 		{pc, ",0.93,", ",1.93,", "p_up_10pct"},
 		{pl, ",contradicts", ",maybe", "verdict"},
 		{pl, ",refit,", ",guess,", "left_out_by"},
+		{pp, ",contradicts", ",maybe", "verdict"},
 	}
 	for _, s := range spoil {
 		b, _ := os.ReadFile(s.path)
@@ -73,7 +97,7 @@ func TestDriftFilesRoundTrip(t *testing.T) {
 			t.Fatal(err)
 		}
 		var err error
-		switch filepath.Base(p) {
+		switch strings.TrimPrefix(filepath.Base(p), "panel-") {
 		case DriftFileName:
 			_, err = readDrift(p, run)
 		case DriftChangeFileName:
