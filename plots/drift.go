@@ -33,9 +33,12 @@ func (r *review) driftOf(ch, path string) []fitfolder.Drift {
 
 // liftOnPanel reports whether a lift test speaks to a channel's path: a
 // queries test to the upper-funnel channel's via-search path, an outcome
-// test to every path of its channel (it measured them together).
+// test to every path of its channel (it measured them together). A test in
+// one region of a region panel measured that region's coefficient, not the
+// multiplier every region shares: it is not drawn (lifts.csv and the
+// report's table hold it).
 func liftOnPanel(l fitfolder.Lift, ch, path string) bool {
-	if l.Channel != ch {
+	if l.Channel != ch || l.Region != "" {
 		return false
 	}
 	return l.Metric == "outcome" || path == "via_search"

@@ -77,6 +77,18 @@ func TestDriftChart(t *testing.T) {
 	if !found {
 		t.Error("the contradicting test is not drawn")
 	}
+	// a test in one region of a panel measured that region's coefficient,
+	// not the shared multiplier: not drawn
+	regional := f.Lifts[0]
+	regional.Region, regional.Start, regional.End = "R02", f.Data.Weeks[30], f.Data.Weeks[33]
+	f.Lifts = append(f.Lifts, regional)
+	rday := regional.Start.Format("2006-01-02")
+	for _, x := range build(t, f, "", plots.DriftName).Series {
+		if strings.HasSuffix(x.Name, "/lift "+rday) {
+			t.Errorf("the test in region R02 is drawn as %s", x.Name)
+		}
+	}
+	f.Lifts = f.Lifts[:len(f.Lifts)-1]
 	if !strings.Contains(fig.Title, "rose 40%") || !strings.Contains(fig.Title, "+20% to +60%") {
 		t.Errorf("title %q", fig.Title)
 	}

@@ -79,7 +79,11 @@ func driftSection(f *fitfolder.Fit) *driftView {
 		if l.Verdict == "contradicts" {
 			contradicted++
 		}
-		v.Lifts = append(v.Lifts, liftRow{Channel: lab.Channel(l.Channel), Metric: l.Metric,
+		metric := l.Metric
+		if l.Region != "" {
+			metric += " in " + l.Region
+		}
+		v.Lifts = append(v.Lifts, liftRow{Channel: lab.Channel(l.Channel), Metric: metric,
 			Weeks: l.Start.Format(time.DateOnly) + " to " + l.End.Format(time.DateOnly),
 			Test:  fmt.Sprintf("%s ± %s", plots.Number(l.Estimate), plots.Number(1.645*l.SE)),
 			Model: fmt.Sprintf("%s [%s, %s]", plots.Number(l.Mean), plots.Number(l.Q05), plots.Number(l.Q95)),
