@@ -80,8 +80,11 @@ func driftSection(f *fitfolder.Fit) *driftView {
 			contradicted++
 		}
 		metric := l.Metric
-		if l.Region != "" {
+		switch {
+		case l.Region != "":
 			metric += " in " + l.Region
+		case f.HasRegions():
+			metric += ", all regions"
 		}
 		v.Lifts = append(v.Lifts, liftRow{Channel: lab.Channel(l.Channel), Metric: metric,
 			Weeks: l.Start.Format(time.DateOnly) + " to " + l.End.Format(time.DateOnly),

@@ -92,6 +92,25 @@ func TestReportRegions(t *testing.T) {
 		if c := page.byID("cautions").fullText(); !strings.Contains(c, "regional lift test") {
 			t.Errorf("%d regions: cautions %q lack the regional caution", n, c)
 		}
+		// lift tests on a panel: the table names a test's region, or says
+		// a national test covers all regions
+		w := f.Data.Weeks
+		f.Lifts = []fitfolder.Lift{
+			{Region: odd, Channel: "video_spend", Metric: "outcome", Start: w[10], End: w[13], Estimate: 300, SE: 50, Mean: 310, Q05: 250, Q95: 370, RestMean: 320, RestSD: 60, ParetoK: 0.2, P: 0.8, Verdict: "agrees"},
+			{Channel: "audio_spend", Metric: "queries", Start: w[20], End: w[23], Estimate: 900, SE: 200, Mean: 950, Q05: 700, Q95: 1200, RestMean: 1000, RestSD: 250, ParetoK: 0.3, P: 0.7, Verdict: "agrees"},
+		}
+		buf.Reset()
+		if err := report.Write(&buf, f, "all", nil); err != nil {
+			t.Fatal(err)
+		}
+		lifts := parse(t, buf.Bytes()).byID("lifts")
+		if lifts == nil {
+			t.Fatalf("%d regions: no lift-test table", n)
+		}
+		lr := lifts.all("tr")[1:]
+		if len(lr) != 2 || !strings.Contains(lr[0].fullText(), "outcome in "+odd) || !strings.Contains(lr[1].fullText(), "queries, all regions") {
+			t.Errorf("%d regions: lift-test rows %q, %q do not name the region, or all regions", n, lr[0].fullText(), lr[len(lr)-1].fullText())
+		}
 	}
 }
 
