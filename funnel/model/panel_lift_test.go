@@ -137,3 +137,50 @@ func TestPanelLiftValue(t *testing.T) {
 		t.Error("a test of video in the region that never runs it was accepted")
 	}
 }
+
+// BenchmarkPanelJointLift measures the demand and outcome panels of 40
+// regions x 156 weeks as one joint target, without tests and with two
+// national outcome tests (video over 13 weeks, paid search over 8: every
+// region's lift each): the tests' share of a gradient, and 0 allocations.
+func BenchmarkPanelJointLift(b *testing.B) {
+	const G, T = 40, 156
+	var panels []*Panel
+	for _, build := range []func(*Scaled, Options) (*Stage, error){Demand, Outcome} {
+		p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
+		for g := 0; g < G; g++ {
+			st, _ := build(testScaled(T, uint64(20+g)), Options{})
+			p.Stages = append(p.Stages, st)
+			p.Regions = append(p.Regions, fmt.Sprintf("r%d", g+1))
+		}
+		p.Name = p.Stages[0].Name
+		p.Coords = p.Uniform(0.5)
+		panels = append(panels, p)
+	}
+	w := make([]float64, G)
+	for g := range w {
+		w[g] = 1.0 / G
+	}
+	for _, n := range []int{0, 2} {
+		b.Run(fmt.Sprintf("tests=%d", n), func(b *testing.B) {
+			tests := []*PanelLiftTest{
+				{Column: "video", Metric: LiftOutcome, Start: 60, End: 72, Estimate: 1, SE: 0.5, Weights: w, Demand: 0, Outcome: 1},
+				{Column: "search", Metric: LiftOutcome, Start: 100, End: 107, Estimate: 1, SE: 0.5, Weights: w, Demand: 0, Outcome: 1},
+			}[:n]
+			j, err := NewPanelJoint(panels, tests...)
+			if err != nil {
+				b.Fatal(err)
+			}
+			x := make([]float64, j.Dim())
+			for i := range x {
+				x[i] = 0.1 * float64(i%5)
+			}
+			g := make([]float64, j.Dim())
+			b.ReportAllocs()
+			cpu0 := cpuSeconds()
+			for b.Loop() {
+				j.LogProbGrad(g, x)
+			}
+			b.ReportMetric((cpuSeconds()-cpu0)*1e9/float64(b.N), "cpu-ns/op")
+		})
+	}
+}
