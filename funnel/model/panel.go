@@ -255,12 +255,14 @@ func ScalePanel(d *data.Dataset, train []bool) (*PanelScaled, error) {
 
 // PanelStages builds the demand, outcome and naive panels of ps: each
 // region's stage from build (Demand, Outcome or Naive) with options o.
-// Drifting coefficients and a moving baseline are not part of the region
+// A drifting coefficient drifts by one multiplier exp(f(t)) shared by
+// every region: each region's stage carries the same drift parameters,
+// once in the base layout. A moving baseline is not part of the region
 // model.
 func PanelStages(ps *PanelScaled, o Options) ([3]*Panel, error) {
 	var out [3]*Panel
-	if len(o.Drift) > 0 || o.Baseline != "" || o.Plain {
-		return out, fmt.Errorf("model: the region model has no drifting coefficients, moving baseline or plain coordinates")
+	if o.Baseline != "" || o.Plain {
+		return out, fmt.Errorf("model: the region model has no moving baseline or plain coordinates")
 	}
 	for k, build := range []func(*Scaled, Options) (*Stage, error){Demand, Outcome, Naive} {
 		p := &Panel{Regions: ps.Regions, TauMu: PriorTauMu, TauCoef: PriorTauCoef}

@@ -136,8 +136,12 @@ func (l *PanelLiftTest) bindPanel(parts []*PanelTarget) error {
 	}
 	path := func(t *PanelTarget, j, g int) *liftPath {
 		p := &liftPath{slots: t.lay.base.Channels()[j], x: t.p.Stages[g].Channels[j].X}
-		if p.slots.Drift.Has() || newMeasuredInput(p.slots, p.x) != nil {
-			return nil // the region model has neither (PanelStages)
+		if newMeasuredInput(p.slots, p.x) != nil {
+			return nil // the region model has none (PanelStages)
+		}
+		if d := p.slots.Drift; d.Has() {
+			// the multiplier all regions share, from the base layout's slots
+			p.sm = newSmoothEval(d.Basis, d.SD, d.Len, d.Z)
 		}
 		p.alloc()
 		return p
@@ -154,12 +158,12 @@ func (l *PanelLiftTest) bindPanel(parts []*PanelTarget) error {
 		r := panelLiftRegion{g: g, w: w}
 		if dem != nil {
 			if r.q = path(dem, jq, g); r.q == nil {
-				return bad("a drifting or measured channel is not part of the region model")
+				return bad("a measured channel is not part of the region model")
 			}
 		}
 		if out != nil {
 			if r.y = path(out, jy, g); r.y == nil {
-				return bad("a drifting or measured channel is not part of the region model")
+				return bad("a measured channel is not part of the region model")
 			}
 		}
 		x := r.path().x
@@ -262,11 +266,13 @@ func (l *PanelLiftTest) logDensity(parts []*PanelTarget, grad bool) float64 {
 			}
 			qc.g[g] += k * dq
 			r.q.transformGrad(dem.gn, k*alpha)
+			r.q.driftGrad(dem.gn, dem.nat, k*alpha, l.Start, l.End)
 		}
 		if r.y != nil {
 			yc := out.coefs[l.yc]
 			yc.g[g] += rg * r.y.d[0]
 			r.y.transformGrad(out.gn, rg*yc.v[g])
+			r.y.driftGrad(out.gn, out.nat, rg*yc.v[g], l.Start, l.End)
 		}
 	}
 	return -0.5 * z * z
@@ -280,6 +286,18 @@ func (p *liftPath) transformGrad(g []float64, r float64) {
 	g[p.slots.Lam] += r * p.d[1]
 	g[p.slots.K] += r * p.d[2]
 	g[p.slots.S] += r * p.d[3]
+}
+
+// driftGrad adds r d(p.d[0])/d f(t), pulled back to the drift's natural
+// values, to g, after diff (nothing when the channel does not drift).
+func (p *liftPath) driftGrad(g, nat []float64, r float64, from, to int) {
+	if p.sm == nil {
+		return
+	}
+	for t := from; t <= to; t++ {
+		p.r[t] = r * p.mult[t] * p.dh[t]
+	}
+	p.sm.backward(g, nat, p.r, from, to+1)
 }
 
 // Lift returns the model's value of the tested quantity (in the unit of

@@ -11,12 +11,13 @@ import (
 // panelLiftCase is a pair of demand and outcome panels of G regions (region
 // 1 never runs video when G > 1) with lift tests: video's outcome in region
 // 0, video's outcome summed over every region, audio's queries in the last
-// region, and paid search's outcome summed over the regions.
-func panelLiftCase(t *testing.T, G int, seed uint64) ([]*Panel, []*PanelLiftTest) {
+// region, and paid search's outcome summed over the regions. Each region's
+// stages are built with options o (testDrift: video and paid search drift).
+func panelLiftCase(t *testing.T, G int, seed uint64, o Options) ([]*Panel, []*PanelLiftTest) {
 	t.Helper()
 	var panels []*Panel
 	for k, build := range []func(*Scaled, Options) (*Stage, error){Demand, Outcome} {
-		p := testPanel(t, G, 30, build, G > 1)
+		p := testPanelOpts(t, G, 30, build, G > 1, o)
 		p.Coords = randomCoords(p, seed+uint64(k))
 		panels = append(panels, p)
 	}
@@ -41,11 +42,20 @@ func panelLiftCase(t *testing.T, G int, seed uint64) ([]*Panel, []*PanelLiftTest
 // TestPanelJointGradient checks the panel joint target with lift tests
 // against central finite differences in the sampling coordinates (the tests
 // reach the per-region coefficients through their hierarchies and the
-// shared transforms), with mixed coordinates, a region without video, and
-// one region, and that an evaluation allocates nothing.
+// shared transforms, and the shared drift of video and paid search), with
+// mixed coordinates, a region without video, and one region, and that an
+// evaluation allocates nothing.
 func TestPanelJointGradient(t *testing.T) {
-	for _, G := range []int{1, 4} {
-		panels, tests := panelLiftCase(t, G, 7)
+	for _, c := range []struct {
+		G     int
+		drift bool
+	}{{1, false}, {4, false}, {1, true}, {4, true}} {
+		G := c.G
+		o := Options{}
+		if c.drift {
+			o = testDrift
+		}
+		panels, tests := panelLiftCase(t, G, 7, o)
 		if G == 1 {
 			tests[2].Weights = []float64{1}
 		}
@@ -53,7 +63,10 @@ func TestPanelJointGradient(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		t.Run(fmt.Sprintf("G=%d", G), func(t *testing.T) {
+		if c.drift && tests[0].regs[0].y.sm == nil {
+			t.Fatal("video's outcome test does not see its drift")
+		}
+		t.Run(fmt.Sprintf("G=%d drift=%v", G, c.drift), func(t *testing.T) {
 			// step 1e-5: the tests' quadratic terms make the density large
 			// at random points, and central differences' rounding error
 			// grows with it (about 1e-5 scaled at the default step 1e-6)
@@ -78,7 +91,14 @@ func TestPanelJointGradient(t *testing.T) {
 // the term and Lift compute the same quantity. A region without spend in
 // the window is left out of a test; a test with none anywhere is refused.
 func TestPanelLiftValue(t *testing.T) {
-	panels, tests := panelLiftCase(t, 4, 9)
+	for _, o := range []Options{{}, testDrift} {
+		panelLiftValue(t, o)
+	}
+}
+
+func panelLiftValue(t *testing.T, o Options) {
+	t.Helper()
+	panels, tests := panelLiftCase(t, 4, 9, o)
 	j, err := NewPanelJoint(panels, tests...)
 	if err != nil {
 		t.Fatal(err)

@@ -149,6 +149,11 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			}
 		}
 		pc.same = sameSeries(pc.series)
+		if d := cs.Drift; d.Has() {
+			// the national drift's slots, once in the base layout: one
+			// multiplier for every region
+			pc.sm = newSmoothEval(d.Basis, d.SD, d.Len, d.Z)
+		}
 		pc.abar = 1
 		if nref > 0 {
 			pc.abar = ref / float64(nref)
@@ -455,6 +460,13 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 			}
 		}
 	}
+	// the drifting channels' smooth functions, through the likelihood
+	// and the intercepts' shear (S_g holds the drifted mean)
+	for _, c := range t.coefs {
+		if c.ch != nil && c.ch.sm != nil {
+			c.ch.driftBackward(gn, nat, c.v, t.w, t.gS)
+		}
+	}
 	return lp, true
 }
 
@@ -566,11 +578,32 @@ type panelChannel struct {
 	same         []int
 	href         float64
 	hrefK, hrefS float64
+	// sm is the drift (nil when the coefficient does not drift): every
+	// region's response is multiplied by mult[t] = exp(f(t)), one f shared
+	// by the regions (drift.go's multiplier, smooth.go's function); r is
+	// scratch for d lp / d f(t).
+	sm      *smoothEval
+	mult, r []float64
 }
 
 func (c *panelChannel) clone() *panelChannel {
 	d := *c
 	d.series = append([]panelSeries(nil), c.series...)
+	if c.sm != nil {
+		d.sm = c.sm.clone()
+		T := len(c.series[0].x)
+		d.mult, d.r = make([]float64, T), make([]float64, T)
+		if c.linear {
+			// the drifted response, never the data in place
+			for g := range d.series {
+				if f := c.same[g]; f != g {
+					d.series[g].h = d.series[f].h
+				} else {
+					d.series[g].h = make([]float64, T)
+				}
+			}
+		}
+	}
 	if !c.linear {
 		for g := range d.series {
 			s := &d.series[g]
@@ -607,6 +640,9 @@ func sameSeries(series []panelSeries) []int {
 func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 	if c.linear {
 		c.href, c.hrefK, c.hrefS = c.abar, 0, 0
+		if c.sm != nil {
+			return c.drift(nat, grad)
+		}
 		return true
 	}
 	lam, k, s := nat[c.k[1]], nat[c.k[2]], nat[c.k[3]]
@@ -638,7 +674,85 @@ func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 	} else {
 		c.href = transform.Hill(c.abar, k, s)
 	}
-	return c.href > 0 && !math.IsNaN(c.href)
+	ok := c.href > 0 && !math.IsNaN(c.href)
+	if c.sm != nil {
+		ok = c.drift(nat, grad) && ok
+	}
+	return ok
+}
+
+// drift multiplies every region's response (and, with grad, its
+// derivatives in lam, K and S) by exp(f(t)) and takes the means from the
+// drifted series, after the transforms: the likelihood, the intercepts'
+// shear and backward then read the drifted series unchanged. A linear
+// channel's drifted response goes to its own buffer (its response is
+// otherwise the data).
+func (c *panelChannel) drift(nat []float64, grad bool) bool {
+	T := len(c.mult)
+	c.sm.eval(nat, 0, T)
+	for t, f := range c.sm.f {
+		c.mult[t] = math.Exp(f)
+	}
+	mean := func(x []float64) float64 {
+		s := 0.0
+		for _, v := range x {
+			s += v
+		}
+		return s / float64(T)
+	}
+	scale := func(x []float64) float64 {
+		s := 0.0
+		for t, m := range c.mult {
+			x[t] *= m
+			s += x[t]
+		}
+		return s / float64(T)
+	}
+	ok := true
+	for g := range c.series {
+		r := &c.series[g]
+		if f := c.same[g]; f != g {
+			q := &c.series[f]
+			r.hbar, r.hlbar, r.hkbar, r.hsbar = q.hbar, q.hlbar, q.hkbar, q.hsbar
+			continue
+		}
+		if c.linear {
+			for t, m := range c.mult {
+				r.h[t] = m * r.x[t]
+			}
+			r.hbar = mean(r.h)
+		} else {
+			r.hbar = scale(r.h)
+			if grad {
+				r.hlbar, r.hkbar, r.hsbar = scale(r.hl), scale(r.hk), scale(r.hs)
+			}
+		}
+		ok = ok && !notFinite(r.hbar)
+	}
+	return ok
+}
+
+// driftBackward adds the gradient in the drift's smooth function: with
+// b[g] the region coefficients, w[g][t] = d lp/d n[g][t] and gS[g] =
+// d lp/d S_g (S_g holds b[g] times the mean drifted response),
+//
+//	d lp/d f(t) = sum_g b[g] (w[g][t] + gS[g]/T) exp(f(t)) H_g(t),
+//
+// pulled back to the smooth's natural values by smoothEval.backward.
+func (c *panelChannel) driftBackward(gn, nat, b []float64, w [][]float64, gS []float64) {
+	T := len(c.r)
+	clear(c.r)
+	for g := range c.series {
+		h := c.series[g].response()
+		bg, off := b[g], gS[g]/float64(T)
+		if bg == 0 {
+			continue
+		}
+		for t, wt := range w[g] {
+			c.r[t] += bg * (wt + off) * h[t]
+		}
+	}
+	c.sm.backward(gn, nat, c.r, 0, T)
 }
 
 // backward adds the likelihood's gradient in lam, K and S given the

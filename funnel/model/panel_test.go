@@ -19,6 +19,16 @@ import (
 // computes once).
 func testPanel(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, error), dark bool) *Panel {
 	t.Helper()
+	return testPanelOpts(t, G, T, build, dark, Options{})
+}
+
+// testDrift drifts video (saturating) and, linear, paid search: a drifting
+// channel of each kind, and in testPanel's dark region one that never runs.
+var testDrift = Options{Drift: map[string]bool{"video": true, "search": true}, Linear: map[string]bool{"search": true}}
+
+// testPanelOpts is testPanel with each region's stage built with options o.
+func testPanelOpts(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, error), dark bool, o Options) *Panel {
+	t.Helper()
 	p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
 	var first *Scaled
 	for g := 0; g < G; g++ {
@@ -35,7 +45,7 @@ func testPanel(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, err
 			copy(sc.Upper[0], first.Upper[0])
 			copy(sc.Search[0], first.Search[0])
 		}
-		st, err := build(sc, Options{})
+		st, err := build(sc, o)
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -80,23 +90,32 @@ var panelBuilds = []panelBuild{{"demand", Demand}, {"outcome", Outcome}, {"naive
 
 // TestPanelGradient checks the whole panel density's gradient against
 // central finite differences, for each stage, with mixed coordinates, a
-// region that never runs a channel, and one region (pooled), and that an
-// evaluation allocates nothing.
+// region that never runs a channel, one region (pooled), and drifting
+// channels (a saturating and a linear one, one multiplier for every
+// region), and that an evaluation allocates nothing.
 func TestPanelGradient(t *testing.T) {
 	for _, b := range panelBuilds {
 		for _, c := range []struct {
-			G    int
-			cond bool
-		}{{1, false}, {4, false}, {4, true}} {
+			G     int
+			cond  bool
+			drift bool
+		}{{1, false, false}, {4, false, false}, {4, true, false}, {1, false, true}, {4, true, true}, {4, false, true}} {
 			G := c.G
-			p := testPanel(t, G, 30, b.build, G > 1)
+			o := Options{}
+			if c.drift {
+				o = testDrift
+			}
+			p := testPanelOpts(t, G, 30, b.build, G > 1, o)
 			p.Coords = randomCoords(p, uint64(G))
 			p.Coords.MuConditional = c.cond
 			tg, err := p.Target()
 			if err != nil {
 				t.Fatal(err)
 			}
-			t.Run(fmt.Sprintf("%s G=%d conditional=%v", b.name, G, c.cond), func(t *testing.T) {
+			if c.drift && tg.chans[0].sm == nil {
+				t.Fatalf("%s: video does not drift", b.name)
+			}
+			t.Run(fmt.Sprintf("%s G=%d conditional=%v drift=%v", b.name, G, c.cond, c.drift), func(t *testing.T) {
 				r := mcmctest.CheckGradient(t, tg, 1e-5, &mcmctest.GradSettings{Seed: 5, Points: 6, Radius: 1})
 				if r.Checked < 4 {
 					t.Fatalf("only %d points had a finite density", r.Checked)
@@ -129,6 +148,11 @@ func panelReference(p *Panel, v []float64) float64 {
 	for _, c := range st.Channels {
 		for _, q := range c.Params {
 			prior[q.Name] = q.Prior
+		}
+		if c.Drift != nil {
+			for _, q := range c.Drift.Params {
+				prior[q.Name] = q.Prior
+			}
 		}
 	}
 	for i, n := range base {
@@ -197,11 +221,16 @@ func logDetJacobian(tg *PanelTarget, x []float64) float64 {
 // over points and coordinates.
 func TestPanelSamePosterior(t *testing.T) {
 	for _, c := range []struct {
-		b panelBuild
-		G int
-	}{{panelBuilds[0], 3}, {panelBuilds[1], 3}, {panelBuilds[1], 1}} {
+		b     panelBuild
+		G     int
+		drift bool
+	}{{panelBuilds[0], 3, false}, {panelBuilds[1], 3, false}, {panelBuilds[1], 1, false}, {panelBuilds[0], 3, true}, {panelBuilds[1], 3, true}, {panelBuilds[1], 1, true}} {
 		b := c.b
-		p := testPanel(t, c.G, 25, b.build, c.G > 1)
+		o := Options{}
+		if c.drift {
+			o = testDrift
+		}
+		p := testPanelOpts(t, c.G, 25, b.build, c.G > 1, o)
 		rng := rand.New(rand.NewPCG(9, 9))
 		var c0 float64
 		for rep := 0; rep < 6; rep++ {
