@@ -143,8 +143,9 @@ each region scaled by its own means, with its own intercept and query and
 media coefficients pooled towards the regions' typical values (their
 spreads, tau_..., are learned and printed); trend, seasons, controls,
 transforms and noise are shared. --national fits the regions' national sum
-instead, as one series (recorded in spec.json); --drift, --baseline
-smooth, return priors and measured exposure need it for now. On a panel a
+instead, as one series (recorded in spec.json); --baseline smooth, return
+priors and measured exposure need it for now. --drift on a panel drifts
+every region's coefficient by the same multiplier. On a panel a
 lift test may name a region (the column region): it removed the channel's
 spend in that region alone and measured that region's metric; a test
 without one removed it in every region and measured the sum.
@@ -401,9 +402,6 @@ func panelChoices(opts *samplingFlags, spec data.Spec) error {
 	}
 	slices.Sort(flags)
 	flags = slices.Compact(flags)
-	if len(opts.drift) > 0 {
-		flags = append(flags, "--drift")
-	}
 	if opts.baseline != "" && opts.baseline != "line" {
 		flags = append(flags, "--baseline "+opts.baseline)
 	}
@@ -461,6 +459,9 @@ func finishPanelFit(ctx context.Context, od *outDir, p *fitPlan, pf *pipeline.Pa
 	f.Verdict.Reasons = append(f.Verdict.Reasons, fitfolder.Reason{Stage: "support", Text: "note: " + panelSupportNote})
 	files, err := f.FitFiles()
 	if err != nil {
+		return nil, err
+	}
+	if err := driftTables(files, pf.Drifts(), pf.DriftChanges); err != nil {
 		return nil, err
 	}
 	var liftChecks []pipeline.LiftCheck

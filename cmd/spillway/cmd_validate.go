@@ -248,6 +248,8 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 			return usagef("--truth holds national true parameters; a region panel's recovery simulates from its reference fit (leave out --truth, or add --national)")
 		case liftFile != "":
 			return usagef("--lifts: fit and run take lift tests on a region panel, but validate's panel refits do not yet; leave them out, or add --national")
+		case len(o.sampling.drift) > 0:
+			return usagef("--drift: fit and run take drifting effectiveness on a region panel, but validate's panel refits do not yet; leave it out, or add --national")
 		case slices.Contains(set.Checks, validate.Placebo):
 			return usagef("--checks placebo does not run on a region panel yet; leave it out, or add --national")
 		}

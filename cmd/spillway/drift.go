@@ -19,25 +19,8 @@ import (
 // leave out reliably is checked by a refit without it: hook shows its
 // progress).
 func driftFiles(ctx context.Context, files map[string][]byte, f *pipeline.Fitted, liftFile []byte, hook pipeline.StageHook) ([]pipeline.LiftCheck, error) {
-	if d := f.Drifts(); len(d) > 0 {
-		rows := make([]fitfolder.Drift, len(d))
-		for i, w := range d {
-			rows[i] = fitfolder.Drift{Channel: w.Channel, Path: w.Path, Week: w.Week, Mean: w.Mean, Q05: w.Q05, Q95: w.Q95}
-		}
-		b, err := fitfolder.DriftFile(rows)
-		if err != nil {
-			return nil, fmt.Errorf("drift.csv: %w", err)
-		}
-		files[fitfolder.DriftFileName] = b
-		ch := f.DriftChanges()
-		crow := make([]fitfolder.DriftChange, len(ch))
-		for i, c := range ch {
-			crow[i] = fitfolder.DriftChange{Channel: c.Channel, Path: c.Path, First: c.First, Last: c.Last, Mean: c.Mean, Q05: c.Q05, Q95: c.Q95,
-				Up: c.Up, Down: c.Down, Peak: c.Peak, Trough: c.Trough, PeakMean: c.PeakMean, TroughMean: c.TroughMean}
-		}
-		if files[fitfolder.DriftChangeFileName], err = fitfolder.DriftChangeFile(crow); err != nil {
-			return nil, fmt.Errorf("%s: %w", fitfolder.DriftChangeFileName, err)
-		}
+	if err := driftTables(files, f.Drifts(), f.DriftChanges); err != nil {
+		return nil, err
 	}
 	if len(f.Tests) == 0 {
 		return nil, nil
@@ -47,6 +30,35 @@ func driftFiles(ctx context.Context, files map[string][]byte, f *pipeline.Fitted
 		return nil, err
 	}
 	return checks, liftFiles(files, checks, liftFile, false)
+}
+
+// driftTables adds drift.csv and drift_change.csv (changes, called only
+// when something drifts) to files; nothing when d is empty. A national fit
+// and a region panel (whose multiplier every region shares) write the same
+// files.
+func driftTables(files map[string][]byte, d []pipeline.DriftWeek, changes func() []pipeline.DriftChange) error {
+	if len(d) == 0 {
+		return nil
+	}
+	rows := make([]fitfolder.Drift, len(d))
+	for i, w := range d {
+		rows[i] = fitfolder.Drift{Channel: w.Channel, Path: w.Path, Week: w.Week, Mean: w.Mean, Q05: w.Q05, Q95: w.Q95}
+	}
+	b, err := fitfolder.DriftFile(rows)
+	if err != nil {
+		return fmt.Errorf("drift.csv: %w", err)
+	}
+	files[fitfolder.DriftFileName] = b
+	ch := changes()
+	crow := make([]fitfolder.DriftChange, len(ch))
+	for i, c := range ch {
+		crow[i] = fitfolder.DriftChange{Channel: c.Channel, Path: c.Path, First: c.First, Last: c.Last, Mean: c.Mean, Q05: c.Q05, Q95: c.Q95,
+			Up: c.Up, Down: c.Down, Peak: c.Peak, Trough: c.Trough, PeakMean: c.PeakMean, TroughMean: c.TroughMean}
+	}
+	if files[fitfolder.DriftChangeFileName], err = fitfolder.DriftChangeFile(crow); err != nil {
+		return fmt.Errorf("%s: %w", fitfolder.DriftChangeFileName, err)
+	}
+	return nil
 }
 
 // liftFiles adds lifts.csv (a region panel's, panel, with the region

@@ -257,8 +257,9 @@ func ScalePanel(d *data.Dataset, train []bool) (*PanelScaled, error) {
 // region's stage from build (Demand, Outcome or Naive) with options o.
 // A drifting coefficient drifts by one multiplier exp(f(t)) shared by
 // every region: each region's stage carries the same drift parameters,
-// once in the base layout. A moving baseline is not part of the region
-// model.
+// once in the base layout. The naive panel never drifts, as the national
+// naive stage (pipeline.Stages says why). A moving baseline is not part of
+// the region model.
 func PanelStages(ps *PanelScaled, o Options) ([3]*Panel, error) {
 	var out [3]*Panel
 	if o.Baseline != "" || o.Plain {
@@ -266,8 +267,12 @@ func PanelStages(ps *PanelScaled, o Options) ([3]*Panel, error) {
 	}
 	for k, build := range []func(*Scaled, Options) (*Stage, error){Demand, Outcome, Naive} {
 		p := &Panel{Regions: ps.Regions, TauMu: PriorTauMu, TauCoef: PriorTauCoef}
+		ok := o
+		if k == 2 {
+			ok.Drift = nil
+		}
 		for _, sc := range ps.Scaled {
-			st, err := build(sc, o)
+			st, err := build(sc, ok)
 			if err != nil {
 				return out, err
 			}

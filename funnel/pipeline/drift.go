@@ -4,6 +4,8 @@ import (
 	"sort"
 	"time"
 
+	"spillway/funnel/mcmc"
+	"spillway/funnel/model"
 	"spillway/funnel/stat"
 	"spillway/funnel/window"
 )
@@ -38,20 +40,30 @@ type driftPath struct {
 // channel in the data's order (upper funnel via search, then direct, then
 // paid search).
 func (f *Fitted) driftPaths() []driftPath {
-	sc := f.Data
+	return driftPathsOf(f.Data, [2]*model.Stage{f.Stages[0], f.Stages[1]}, [2]*mcmc.Fit{f.Fits[0], f.Fits[1]})
+}
+
+// driftPathsOf reads the multipliers from the demand and outcome fits'
+// draws through their stages' layouts: a draw's first Layout().Len()
+// values are the national-shaped part (all of a national draw; a region
+// panel's base, where the drift, shared by the regions, sits).
+func driftPathsOf(sc *model.Scaled, stages [2]*model.Stage, fits [2]*mcmc.Fit) []driftPath {
 	var out []driftPath
 	add := func(k int, col, path string) {
-		st := f.Stages[k]
+		st := stages[k]
+		if st == nil || fits[k] == nil {
+			return
+		}
 		j := st.ChannelIndex(col)
 		l := st.Layout()
-		if j < 0 || !l.Channels()[j].Drift.Has() || f.Fits[k] == nil {
+		if j < 0 || !l.Channels()[j].Drift.Has() {
 			return
 		}
 		var draws [][]float64 // [draw][week]
-		for _, c := range f.Fits[k].Chains {
+		for _, c := range fits[k].Chains {
 			r, _ := c.Draws.Dims()
 			for i := 0; i < r; i++ {
-				draws = append(draws, l.View(c.Draws.RawRowView(i)).Multiplier(make([]float64, sc.T), j))
+				draws = append(draws, l.View(c.Draws.RawRowView(i)[:l.Len()]).Multiplier(make([]float64, sc.T), j))
 			}
 		}
 		out = append(out, driftPath{col, path, draws})
@@ -69,10 +81,11 @@ func (f *Fitted) driftPaths() []driftPath {
 // Drifts returns every drifting coefficient's weekly multiplier, by
 // channel in the data's order (upper funnel via search, then direct, then
 // paid search), week by week; nil when nothing drifts.
-func (f *Fitted) Drifts() []DriftWeek {
-	sc := f.Data
+func (f *Fitted) Drifts() []DriftWeek { return drifts(f.driftPaths(), f.Data) }
+
+func drifts(paths []driftPath, sc *model.Scaled) []DriftWeek {
 	var out []DriftWeek
-	for _, dp := range f.driftPaths() {
+	for _, dp := range paths {
 		col, path, draws := dp.col, dp.path, dp.draws
 		w := make([]float64, len(draws))
 		for t := 0; t < sc.T; t++ {
@@ -118,9 +131,11 @@ const Material = 0.1
 // DriftChanges returns, for every drifting coefficient, how its
 // effectiveness moved between the first and the last full quarter; nil
 // when nothing drifts or the data hold fewer than two full quarters.
-func (f *Fitted) DriftChanges() []DriftChange {
+func (f *Fitted) DriftChanges() []DriftChange { return driftChanges(f.driftPaths(), f.Data.Weeks) }
+
+func driftChanges(paths []driftPath, weeks []time.Time) []DriftChange {
 	var qs []window.Window
-	for _, q := range window.Quarters(f.Data.Weeks)[1:] {
+	for _, q := range window.Quarters(weeks)[1:] {
 		if q.Weeks() >= FullQuarter {
 			qs = append(qs, q)
 		}
@@ -131,7 +146,7 @@ func (f *Fitted) DriftChanges() []DriftChange {
 	first, last := qs[0], qs[len(qs)-1]
 	mean := func(m []float64, q window.Window) float64 { return stat.Mean(m[q.From : q.To+1]) }
 	var out []DriftChange
-	for _, dp := range f.driftPaths() {
+	for _, dp := range paths {
 		c := DriftChange{Channel: dp.col, Path: dp.path, First: first.Name, Last: last.Name}
 		ratio := make([]float64, len(dp.draws))
 		for d, m := range dp.draws {
