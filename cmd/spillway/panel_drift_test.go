@@ -1,0 +1,89 @@
+package main
+
+import (
+	"math"
+	"path/filepath"
+	"slices"
+	"testing"
+	"time"
+
+	"spillway/funnel/fitfolder"
+)
+
+// TestPanelDrift fits a 3-region panel with video's effectiveness drifting
+// and the same panel without drift (short chains: the plumbing, not the
+// posterior), each folder split afterwards: drift.csv holds video's multiplier on its two paths for
+// every week, once (the multiplier every region shares), each row's
+// interval around its mean; drift_change.csv has a row per path; the
+// fit folder reads back; and effects.csv's quarterly effects of video
+// differ from the fit without drift (the split applies the multiplier).
+func TestPanelDrift(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two short panel fits; skipped with -short")
+	}
+	_, roles := panelData(t)
+	dir := t.TempDir()
+	fit := func(name string, extra ...string) *fitfolder.Fit {
+		out := filepath.Join(dir, name)
+		args := append(append(append([]string{"fit"}, roles...), "--chains", "2", "--out", out), append(panelSettings, extra...)...)
+		code, stdout, errs := runCmd(t, args...)
+		if code != 0 {
+			t.Fatalf("fit %s: exit %d\n%s\n%s", name, code, stdout, errs)
+		}
+		if code, so, errs := runCmd(t, "split", "--fit", out); code != 0 {
+			t.Fatalf("split %s: exit %d\n%s\n%s", name, code, so, errs)
+		}
+		f, err := fitfolder.Load(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return f
+	}
+	drift := fit("drift", "--drift", "video_spend")
+	plain := fit("plain")
+	if len(plain.Drift) != 0 {
+		t.Errorf("the fit without drift has %d drift rows", len(plain.Drift))
+	}
+
+	const weeks = 60
+	if len(drift.Drift) != 2*weeks {
+		t.Fatalf("drift.csv has %d rows, want %d (video on two paths, %d weeks)", len(drift.Drift), 2*weeks, weeks)
+	}
+	start := time.Date(2023, 1, 2, 0, 0, 0, 0, time.UTC)
+	for i, d := range drift.Drift {
+		path := []string{"via_search", "direct"}[i/weeks]
+		if want := start.AddDate(0, 0, 7*(i%weeks)); d.Channel != "video_spend" || d.Path != path || !d.Week.Equal(want) {
+			t.Fatalf("row %d: %s %s %s, want video_spend %s %s", i, d.Channel, d.Path, d.Week.Format(time.DateOnly), path, want.Format(time.DateOnly))
+		}
+		if !(d.Q05 > 0 && d.Q05 <= d.Mean && d.Mean <= d.Q95) || math.IsInf(d.Q95, 0) {
+			t.Errorf("row %d (%s %s): mean %v outside its interval [%v, %v]", i, d.Path, d.Week.Format(time.DateOnly), d.Mean, d.Q05, d.Q95)
+		}
+	}
+	if got := len(drift.DriftChange); got != 2 {
+		t.Errorf("drift_change.csv has %d rows, want 2", got)
+	}
+
+	quarters := 0
+	for _, w := range drift.Split.Windows() {
+		if w == "all" {
+			continue
+		}
+		for _, path := range []string{fitfolder.PathViaSearch, fitfolder.PathDirect} {
+			a, ok := drift.Split.Effect("video_spend", path, w)
+			b, ok2 := plain.Split.Effect("video_spend", path, w)
+			if !ok || !ok2 {
+				t.Fatalf("no %s effect of video in %s", path, w)
+			}
+			if a.Mean == b.Mean {
+				t.Errorf("video %s in %s: %v with drift and without", path, w, a.Mean)
+			}
+			quarters++
+		}
+	}
+	if quarters < 8 {
+		t.Errorf("only %d quarterly effects compared", quarters)
+	}
+	if !slices.Contains(drift.Run.Drift, "video_spend") {
+		t.Errorf("spec.json's drift %v", drift.Run.Drift)
+	}
+}
