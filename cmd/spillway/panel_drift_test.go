@@ -2,12 +2,15 @@ package main
 
 import (
 	"math"
+	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 	"testing"
 	"time"
 
 	"spillway/funnel/fitfolder"
+	htmlreport "spillway/plots/report"
 )
 
 // TestPanelDrift fits a 3-region panel with video's effectiveness drifting
@@ -16,7 +19,8 @@ import (
 // every week, once (the multiplier every region shares), each row's
 // interval around its mean; drift_change.csv has a row per path; the
 // fit folder reads back; and effects.csv's quarterly effects of video
-// differ from the fit without drift (the split applies the multiplier).
+// differ from the fit without drift (the split applies the multiplier); the
+// report's drift section says the multiplier is the regions' common one.
 func TestPanelDrift(t *testing.T) {
 	if testing.Short() {
 		t.Skip("two short panel fits; skipped with -short")
@@ -82,6 +86,12 @@ func TestPanelDrift(t *testing.T) {
 	}
 	if quarters < 8 {
 		t.Errorf("only %d quarterly effects compared", quarters)
+	}
+	if code, so, errs := runCmd(t, "report", "--fit", filepath.Join(dir, "drift")); code != 0 {
+		t.Fatalf("report: exit %d\n%s\n%s", code, so, errs)
+	}
+	if b, err := os.ReadFile(filepath.Join(dir, "drift", "report.html")); err != nil || !strings.Contains(string(b), htmlreport.PanelDriftNote) {
+		t.Errorf("report.html lacks the panel's drift note (%v)", err)
 	}
 	if !slices.Contains(drift.Run.Drift, "video_spend") {
 		t.Errorf("spec.json's drift %v", drift.Run.Drift)

@@ -31,6 +31,10 @@ type liftRow struct {
 	P, Verdict, LeftOut    string
 }
 
+// PanelDriftNote is the drift section's caution on a region panel, whose
+// multiplier every region shares.
+const PanelDriftNote = "On this region panel the multiplier is the same in every region (each region keeps its own average effectiveness): a change in one region alone is spread over all of them."
+
 var driftPathLabels = map[string]string{"via_search": "via branded search", "direct": "direct", "controlled": "own effect"}
 
 // driftSection builds the section from drift_change.csv and lifts.csv; nil
@@ -65,6 +69,9 @@ func driftSection(f *fitfolder.Fit) *driftView {
 			c.Last, c.First, clear, len(f.DriftChange))
 	} else if len(f.Drift) > 0 {
 		v.Intro = "The data hold fewer than two full quarters, so no change in effectiveness is compared."
+	}
+	if len(f.Drift) > 0 && f.HasRegions() {
+		v.Intro += " " + PanelDriftNote
 	}
 	contradicted := 0
 	for _, l := range f.Lifts {
