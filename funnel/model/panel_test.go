@@ -269,15 +269,23 @@ func TestPanelSamePosterior(t *testing.T) {
 // cpu-ns/region-week is the process's CPU time (user + system) per
 // region-week, the figure to quote on a loaded machine. national-regions gives every region region 1's flights (a national buy split
 // by region size): the channels' transforms are then computed once.
+// drift-regions has every channel drifting (one multiplier per channel,
+// shared by the regions): the drift's cost beside regions=40.
 func BenchmarkPanelLogProbGrad(b *testing.B) {
 	for _, c := range []struct {
 		G        int
 		national bool
-	}{{10, false}, {40, false}, {160, false}, {40, true}} {
+		drift    bool
+	}{{10, false, false}, {40, false, false}, {160, false, false}, {40, true, false}, {40, false, true}} {
 		G := c.G
 		name := fmt.Sprintf("regions=%d", G)
 		if c.national {
 			name = fmt.Sprintf("national-regions=%d", G)
+		}
+		o := Options{}
+		if c.drift {
+			name = fmt.Sprintf("drift-regions=%d", G)
+			o.Drift = map[string]bool{"video": true, "audio": true, "search": true}
 		}
 		b.Run(name, func(b *testing.B) {
 			p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
@@ -287,7 +295,7 @@ func BenchmarkPanelLogProbGrad(b *testing.B) {
 				if c.national {
 					sc.Upper, sc.Search = first.Upper, first.Search
 				}
-				st, _ := Outcome(sc, Options{})
+				st, _ := Outcome(sc, o)
 				p.Stages = append(p.Stages, st)
 				p.Regions = append(p.Regions, fmt.Sprintf("r%d", g+1))
 			}
@@ -349,6 +357,34 @@ func TestPanelRegionDraw(t *testing.T) {
 			cs, _ := rl.Channel(c.Column)
 			if r[cs.Lam] != v[cs.Lam] {
 				t.Errorf("region %d %s retention not shared", g, c.Name)
+			}
+		}
+	}
+}
+
+// TestPanelRegionDrift checks that with a drifting channel every region's
+// national-shaped draw carries the panel's one drift: the multiplier read
+// through each region's own stage layout (what the forward simulator
+// applies) is the base layout's, week for week, and not 1.
+func TestPanelRegionDrift(t *testing.T) {
+	p := testPanelOpts(t, 3, 20, Outcome, false, testDrift)
+	l := p.Layout()
+	v := make([]float64, l.Len())
+	for i := range v {
+		v[i] = 0.2 + 0.1*math.Sin(float64(i))
+	}
+	for _, col := range []string{"video", "search"} {
+		j := p.Stages[0].ChannelIndex(col)
+		base := l.Base().View(v[:l.Base().Len()]).Multiplier(make([]float64, 20), j)
+		if math.Abs(base[0]-1) < 1e-3 {
+			t.Fatalf("%s: multiplier %v in week 1, want one that moves", col, base[0])
+		}
+		for g := range p.Regions {
+			got := p.Stages[g].Layout().View(l.Region(nil, v, g)).Multiplier(make([]float64, 20), j)
+			for w := range base {
+				if got[w] != base[w] {
+					t.Fatalf("%s region %d week %d: multiplier %v, the panel's %v", col, g, w, got[w], base[w])
+				}
 			}
 		}
 	}
