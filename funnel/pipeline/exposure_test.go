@@ -114,6 +114,13 @@ func exposureTruth(t *testing.T, s *scenario.Scenario, res *scenario.Result, win
 // last year within its 90% intervals, and the change in return per unit
 // spend between them; the spend model, which assumes a unit of spend buys
 // the same exposure throughout, misses that change. Both are printed.
+// recoverySettings are the sampler settings of TestExposureRecovery's
+// fits: 4 x (200 + 200) keeps the eight fits in the test suite's time
+// (the coverage sweep, TestExposureCoverage, runs 4 x (400 + 400)); the
+// checks are on 90% intervals, whose Monte Carlo error at 800 draws is
+// small beside their width.
+var recoverySettings = mcmc.Settings{Seed: 3, Warmup: 200, Draws: 200}
+
 func exposureRising(t *testing.T, tally *tally) {
 	s, err := scenario.Named("exposure-rising", 5, 0, 0)
 	if err != nil {
@@ -125,7 +132,7 @@ func exposureRising(t *testing.T, tally *tally) {
 	}
 	spendSpec := s.Roles()
 	spendSpec.Exposure = nil
-	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	set := recoverySettings
 	withExp, fit, sc := exposureFit(t, res, s.Roles(), set)
 	withSpend, _, _ := exposureFit(t, res, spendSpec, set)
 	wins := exposureWindows(t, sc)
@@ -184,7 +191,7 @@ func exposureBreak(t *testing.T, tally *tally) {
 	}
 	noBreak := s.Roles()
 	noBreak.Exposure = []data.Exposure{{Spend: noBreak.Exposure[0].Spend, Column: noBreak.Exposure[0].Column}}
-	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	set := recoverySettings
 	withBreak, fit, sc := exposureFit(t, res, s.Roles(), set)
 	without, _, _ := exposureFit(t, res, noBreak, set)
 	wins := exposureWindows(t, sc)
@@ -232,7 +239,7 @@ func exposureError(t *testing.T, tally *tally) {
 	}
 	asMeasured := s.Roles()
 	asMeasured.Exposure = []data.Exposure{{Spend: asMeasured.Exposure[0].Spend, Column: asMeasured.Exposure[0].Column}}
-	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	set := recoverySettings
 	withErr, fit, sc := exposureFit(t, res, s.Roles(), set)
 	without, fit0, _ := exposureFit(t, res, asMeasured, set)
 	wins := exposureWindows(t, sc)
@@ -327,7 +334,7 @@ func exposureRF(t *testing.T, tl *tally) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	set := mcmc.Settings{Seed: 3, Warmup: 400, Draws: 400}
+	set := recoverySettings
 	withRF, fit, sc := exposureFit(t, res, s.Roles(), set)
 	nat := res.Data.National()
 	imp := make([]float64, len(nat.Weeks))

@@ -32,7 +32,9 @@ func coverage(draws []float64, truth float64) (in90, in99 bool) {
 // parameters and counts how many true effects fall inside their credible
 // intervals. Scenarios differ in carryover, saturation and mediated share
 // (demo about 50% and 40%; slow-burn mostly mediated video; direct-audio
-// with no mediation for audio and about 7% for video).
+// with no mediation for audio and about 7% for video). Chains of 4 x
+// (500 + 500) keep three scenarios in the suite's time; the checks are on
+// 90% and 99% intervals, wide beside their Monte Carlo error.
 func TestRecovery(t *testing.T) {
 	if testing.Short() {
 		t.Skip("fits three scenarios")
@@ -53,7 +55,7 @@ func TestRecovery(t *testing.T) {
 			t.Fatal(err)
 		}
 		scaled := model.Scale(res.Data.National(), res.Data.Spec)
-		fit, err := Fit(context.Background(), scaled, model.Options{}, mcmc.Settings{Seed: 3}, nil)
+		fit, err := Fit(context.Background(), scaled, model.Options{}, mcmc.Settings{Seed: 3, Warmup: 500, Draws: 500}, nil)
 		if err != nil {
 			t.Fatal(err)
 		}
