@@ -294,7 +294,8 @@ func TestPanelRecovery(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			in := fitPanelTwoStages(t, ps, mcmc.Settings{Chains: 4, Seed: o.Seed, Warmup: 500, Draws: 500})
+			in := fitPanelTwoStages(t, ps, mcmc.Settings{Chains: 4, Seed: o.Seed,
+				Warmup: envInt(t, "SPILLWAY_WARMUP", 500, 1), Draws: envInt(t, "SPILLWAY_DRAWS", 500, 1)})
 			wins := window.Quarters(ps.Scaled[0].Weeks)[:1]
 			res, err := mediation.SplitPanel(in, wins)
 			if err != nil {
@@ -304,7 +305,11 @@ func TestPanelRecovery(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			cover := func(got, want *mediation.Result, tl ...*tally) {
+			dark := map[string]bool{}
+			for g := o.Regions - o.Dark; g < o.Regions; g++ {
+				dark[ps.Regions[g]] = true
+			}
+			cover := func(where string, got, want *mediation.Result, tl ...*tally) {
 				all := append(append([]mediation.Effect(nil), got.Effects...), got.Borrowed...)
 				tru := append(append([]mediation.Effect(nil), want.Effects...), want.Borrowed...)
 				for j, e := range all {
@@ -322,6 +327,17 @@ func TestPanelRecovery(t *testing.T) {
 					sm := mediation.Summarise(e.Draws)
 					q25, q75 := quantile(e.Draws, 0.25), quantile(e.Draws, 0.75)
 					v := tru[j].Draws[0]
+					if v < sm.Q05 || v > sm.Q95 || os.Getenv("SPILLWAY_VERBOSE") == "1" {
+						// a miss: where it is and how far out the truth lies
+						below := 0
+						for _, d := range e.Draws {
+							if d < v {
+								below++
+							}
+						}
+						t.Logf("miss90=%v seed %d %s %s %s truth %.4g interval [%.4g, %.4g] P(draw<truth) %.3f",
+							v < sm.Q05 || v > sm.Q95, o.Seed, where, e.Channel, e.Path, v, sm.Q05, sm.Q95, float64(below)/float64(len(e.Draws)))
+					}
 					for _, x := range tl {
 						x.n++
 						if v >= sm.Q05 && v <= sm.Q95 {
@@ -335,9 +351,16 @@ func TestPanelRecovery(t *testing.T) {
 			}
 			var one [2]tally
 			for g, rr := range res.Regions {
-				cover(rr.Result, truth.Regions[g].Result, &region, &perShape[s][0], &one[0])
+				where := rr.Region
+				if g == 0 && o.Big {
+					where += "(big)"
+				}
+				if dark[rr.Region] {
+					where += "(dark)"
+				}
+				cover(where, rr.Result, truth.Regions[g].Result, &region, &perShape[s][0], &one[0])
 			}
-			cover(res.Total, truth.Total, &summed, &perShape[s][1], &one[1])
+			cover("summed", res.Total, truth.Total, &summed, &perShape[s][1], &one[1])
 			t.Logf("%d regions, seed %d: per region %d and %d of %d inside the 90%% and 50%% intervals; summed %d and %d of %d",
 				o.Regions, o.Seed, one[0].in90, one[0].in50, one[0].n, one[1].in90, one[1].in50, one[1].n)
 		}
