@@ -11,6 +11,8 @@ import (
 	"testing"
 	"time"
 
+	"gonum.org/v1/gonum/stat/distuv"
+
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/scenario"
@@ -248,8 +250,9 @@ func cut(s, sep string) (string, string, bool) {
 // other), and each miss with the truth's place among the draws. Effects of
 // one fit share its errors, so the count's true spread is wider than the
 // binomial's: the test judges each replicate's share covered, averaged over
-// the replicates, with twice its standard error over them (as
-// TestExposureCoverage does), and fails when that range lies below 0.9.
+// the replicates, with its central 95% range from the spread over them
+// (Student's t; TestExposureCoverage judges the same way), and fails when
+// that range lies below 0.9.
 // Runs with SPILLWAY_LONG=1 (each replicate a panel fit of 4 x (500 + 500)
 // of the demand and outcome stages, SPILLWAY_WARMUP and SPILLWAY_DRAWS);
 // SPILLWAY_REPLICATES=N sets the replicates per panel shape (default 4),
@@ -286,9 +289,10 @@ func TestPanelRecovery(t *testing.T) {
 	type tally struct{ n, in50, in90 int }
 	var region, summed tally
 	perShape := make([][2]tally, len(shapes))
-	// each replicate's shares covered, per shape, per region and summed:
-	// effects of one fit share its errors, so the spread of these shares
-	// over replicates, not the binomial, says how far coverage may stray
+	// each replicate's shares covered (90%, 50%), per shape, per region and
+	// summed: effects of one fit share its errors, so the spread of these
+	// shares over replicates, not the binomial, says how far coverage may
+	// stray
 	shares := make([][2][][2]float64, len(shapes))
 	// per region, by path and by kind of region (big, dark, other)
 	byClass := map[string]*tally{}
@@ -408,7 +412,10 @@ func TestPanelRecovery(t *testing.T) {
 			if len(sh) < 2 {
 				continue
 			}
-			var m, se [2]float64
+			// Student's t with R-1 degrees of freedom: with a handful of
+			// replicates their sd is itself uncertain
+			tq := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: float64(len(sh) - 1)}.Quantile(0.975)
+			var m, half [2]float64
 			for l := range m {
 				x := make([]float64, len(sh))
 				for r := range sh {
@@ -416,13 +423,13 @@ func TestPanelRecovery(t *testing.T) {
 				}
 				var sd float64
 				m[l], sd = stat.MeanSD(x)
-				se[l] = sd / math.Sqrt(float64(len(x)))
+				half[l] = tq * sd / math.Sqrt(float64(len(x)))
 			}
 			t.Logf("%s, share covered averaged over %d replicates: 90%% intervals %.3f (range %.3f to %.3f), 50%% intervals %.3f (range %.3f to %.3f)",
-				name, len(sh), m[0], m[0]-2*se[0], m[0]+2*se[0], m[1], m[1]-2*se[1], m[1]+2*se[1])
-			if m[0]+2*se[0] < 0.9 {
+				name, len(sh), m[0], m[0]-half[0], m[0]+half[0], m[1], m[1]-half[1], m[1]+half[1])
+			if m[0]+half[0] < 0.9 {
 				t.Errorf("%s: 90%% intervals cover %.3f of the true effects averaged over %d replicates; the range %.3f to %.3f lies below 0.9",
-					name, m[0], len(sh), m[0]-2*se[0], m[0]+2*se[0])
+					name, m[0], len(sh), m[0]-half[0], m[0]+half[0])
 			}
 		}
 	}
