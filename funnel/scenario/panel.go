@@ -13,9 +13,14 @@ import (
 )
 
 // PanelOptions describe a region panel simulated from DESIGN.md's region
-// model around the demo's parameters: each region with its own flights,
-// price and size, its own intercepts, and each coefficient (alpha, delta,
-// beta, gamma) the demo's times exp(tau eta), eta standard normal.
+// model around the demo's parameters, in the model's units (each region's
+// series divided by its own means): each region with its own flights,
+// price and size, each coefficient (alpha, delta, beta, gamma) the demo's
+// times exp(tau eta), eta standard normal, and transforms, trend, seasons,
+// control and sigma the demo's in every region. Its intercepts are what
+// makes its scaled queries and outcome average 1: with per-region scaling
+// the model's intercepts are fixed by the data that way, so they differ
+// between regions as much as their media's contributions do.
 type PanelOptions struct {
 	Regions, Weeks int
 	Seed           uint64
@@ -23,10 +28,8 @@ type PanelOptions struct {
 	Dark int
 	// Big makes the first region ten times the size of the others.
 	Big bool
-	// TauMu is the spread of the intercepts (generating units, before the
-	// model's scaling), TauCoef the spread of every coefficient's log.
-	// Zero means 0.08 and 0.2.
-	TauMu, TauCoef float64
+	// TauCoef is the spread of every coefficient's log. Zero means 0.2.
+	TauCoef float64
 }
 
 // PanelResult is a simulated panel with its truth.
@@ -42,9 +45,6 @@ type PanelResult struct {
 func SimulatePanel(o PanelOptions) (*PanelResult, error) {
 	if o.Regions < 1 || o.Dark >= o.Regions && o.Regions > 1 {
 		return nil, fmt.Errorf("scenario: a panel of %d regions with %d dark ones", o.Regions, o.Dark)
-	}
-	if o.TauMu == 0 {
-		o.TauMu = 0.08
 	}
 	if o.TauCoef == 0 {
 		o.TauCoef = 0.2
@@ -73,6 +73,7 @@ func SimulatePanel(o PanelOptions) (*PanelResult, error) {
 	for g := 0; g < o.Regions; g++ {
 		share := sizes[g] / total
 		r := *s
+		r.unitMeans = true
 		r.VideoLevel, r.AudioLevel, r.SearchLevel = s.VideoLevel*share, s.AudioLevel*share, s.SearchLevel*share
 		r.QueryBase, r.OutcomeBase = s.QueryBase*share, s.OutcomeBase*share
 		video, audio, price := r.videoSpend(rng), r.audioSpend(rng), r.price(rng)
@@ -80,8 +81,6 @@ func SimulatePanel(o PanelOptions) (*PanelResult, error) {
 			audio = make([]float64, s.Weeks)
 		}
 		p := s.P
-		p.MuQ += o.TauMu * rng.NormFloat64()
-		p.MuY += o.TauMu * rng.NormFloat64()
 		p.Demand, p.Direct = spread(p.Demand), spread(p.Direct)
 		p.Gamma *= math.Exp(o.TauCoef * rng.NormFloat64())
 		p.Search.Coef *= math.Exp(o.TauCoef * rng.NormFloat64())

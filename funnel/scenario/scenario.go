@@ -69,6 +69,12 @@ type Scenario struct {
 	// Exposure, if not nil, makes video's impressions its media input
 	// (exposure.go); nil: every channel runs on its spend.
 	Exposure *Exposure
+	// unitMeans makes each stage's series average exactly 1 before the
+	// query and outcome bases multiply it, by choosing the intercept: P's
+	// other parameters are then already in the fitted model's units, so
+	// trend, seasons, control and sigma are the same in every region of a
+	// panel, as the region model says (SimulatePanel).
+	unitMeans bool
 }
 
 // Spec is the role declaration of every simulated data set.
@@ -222,6 +228,15 @@ func scaleCoefs(cs []Channel, rng *rand.Rand, sd float64) []Channel {
 	return out
 }
 
+// shiftToMeanOne adds to x what makes its mean 1 and returns that shift.
+func shiftToMeanOne(x []float64) float64 {
+	d := 1 - stat.Mean(x)
+	for i := range x {
+		x[i] += d
+	}
+	return d
+}
+
 // region simulates one series from p and returns it with the true
 // parameters rescaled to the units the model fits in.
 func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time.Time, video, audio, price []float64, p Params) (data.Region, map[string]float64, map[string]float64, error) {
@@ -276,6 +291,9 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 			q[i] += ch.Coef * at(drift.Demand, c, i) * h[i]
 		}
 	}
+	if s.unitMeans {
+		p.MuQ += shiftToMeanOne(q)
+	}
 	// paid search spend partly follows query volume
 	mq := stat.Mean(q)
 	search := make([]float64, T)
@@ -300,6 +318,9 @@ func (s *Scenario) region(rng *rand.Rand, name string, pop float64, weeks []time
 		for i := range y {
 			y[i] += ch.Coef * at(drift.Direct, c, i) * h[i]
 		}
+	}
+	if s.unitMeans {
+		p.MuY += shiftToMeanOne(y)
 	}
 	// raw units; the model divides by the means, so the truth is rescaled by them
 	mqs, mys := stat.Mean(q), stat.Mean(y)
