@@ -41,9 +41,11 @@ const (
 )
 
 // PriorJumpSD is the scale of the jump weights: HalfNormal(0.1), median
-// 0.067; with t_3 weights about 1 candidate week in 40 has a jump above
-// 0.5 in the log multiplier a priori (P(|t_3| > 7.5) is 0.005 at the median
-// scale, 0.025 at the 95% point of the scale, 0.2).
+// 0.067. A jump above 0.5 in the log multiplier (x1.65) at a given
+// candidate week then has prior probability 0.005 at the median scale,
+// 0.015 at 0.1 and 0.084 at the scale's 95% point, 0.196 (two-sided t_3
+// tails, from the closed-form t_3 distribution function): over two years'
+// 25 candidate weeks, a sudden change is possible, not expected.
 var PriorJumpSD = Prior{HalfNormal, 0.1, 0}
 
 // PriorJump is the prior of each unit-scale jump weight u_k.
