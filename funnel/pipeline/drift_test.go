@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"sort"
+	"strconv"
 	"testing"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -577,10 +578,19 @@ func BenchmarkFitAlone(b *testing.B) {
 			report(b, f)
 		}
 	})
-	// the same with the drift that can jump (--drift-shape jumps)
+	// the same with the drift that can jump (--drift-shape jumps);
+	// SPILLWAY_BENCH_ACCEPT sets the target acceptance (default: the fit's)
 	b.Run("jumps", func(b *testing.B) {
+		set := mcmc.Settings{Seed: 1}
+		if v := os.Getenv("SPILLWAY_BENCH_ACCEPT"); v != "" {
+			a, err := strconv.ParseFloat(v, 64)
+			if err != nil {
+				b.Fatal(err)
+			}
+			set.TargetAccept = a
+		}
 		for b.Loop() {
-			f, err := FitLifts(context.Background(), sc, model.Options{Drift: allDrift(sc), DriftShape: model.DriftJumps}, tests, mcmc.Settings{Seed: 1}, nil)
+			f, err := FitLifts(context.Background(), sc, model.Options{Drift: allDrift(sc), DriftShape: model.DriftJumps}, tests, set, nil)
 			if err != nil {
 				b.Fatal(err)
 			}
