@@ -31,6 +31,7 @@ type samplingFlags struct {
 	priors                string
 	linear                []string
 	drift                 []string
+	driftShape            string
 	baseline              string
 	lifts                 string
 	quiet                 bool
@@ -68,6 +69,7 @@ func (s *samplingFlags) addFlagsWith(fs *pflag.FlagSet, d samplingDefaults) {
 	fs.StringVar(&s.priors, "priors", "", "a CSV `FILE` of prior overrides: parameter,family,p1,p2; with the columns window,per also priors on returns, e.g. return[video_spend],lognormal90,0.5,3,2025Q3,1000")
 	fs.StringSliceVar(&s.linear, "linear", nil, "spend `COLUMNS` whose effect is linear (no adstock, no saturation)")
 	fs.StringSliceVar(&s.drift, "drift", nil, "spend `COLUMNS` (or all) whose effectiveness drifts smoothly over time, on every path they have")
+	fs.StringVar(&s.driftShape, "drift-shape", "", "with --drift: smooth (the default) or jumps (smooth, plus sudden changes at about monthly candidate weeks)")
 	fs.StringVar(&s.baseline, "baseline", "", "the baseline: line (a trend line plus seasons, the default) or smooth (a smooth function of time in place of the line)")
 	fs.BoolVar(&s.quiet, "quiet", false, "no progress on standard error")
 }
@@ -92,7 +94,7 @@ func (s *samplingFlags) validate() error {
 // against the data before any sampling: an unknown --linear column is a
 // usage error, a bad priors file bad data.
 func modelOptions(sc *model.Scaled, s *samplingFlags) (model.Options, error) {
-	o, err := pipeline.Choices{Linear: s.linear, Priors: s.priors, Drift: s.drift, Baseline: s.baseline}.Options(sc)
+	o, err := pipeline.Choices{Linear: s.linear, Priors: s.priors, Drift: s.drift, DriftShape: s.driftShape, Baseline: s.baseline}.Options(sc)
 	var le *pipeline.LinearError
 	var ce *pipeline.ChoiceError
 	switch {
@@ -155,7 +157,9 @@ coefficient is multiplied by a smooth function of the week whose logarithm
 averages 0 over the data, its smoothness learned (the cross-check refit
 without the query term does not drift); FOLDER/drift.csv holds each weekly
 multiplier with its 90% interval and FOLDER/drift_change.csv the last full
-quarter's against the first's. --baseline smooth puts a smooth function
+quarter's against the first's. --drift-shape jumps lets the drift also
+jump, at candidate weeks about a month apart, for a sudden change such as
+a creative refresh, which a smooth drift spreads over months. --baseline smooth puts a smooth function
 of time in place of the trend line. --lifts FILE adds lift tests as data
 (channel,start,end,estimate,se and optionally metric, outcome or queries):
 removing the channel's spend from start to end (week start dates) lowered
@@ -377,7 +381,7 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 		}
 	}
 	p.run = fitfolder.Run{Spec: ds.Spec, Demo: demo, Seed: opts.seed, Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Accept: opts.targetAccept,
-		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, Baseline: p.o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels, National: opts.national}
+		Linear: opts.linear, Priors: opts.priors, Drift: opts.drift, DriftShape: p.o.DriftShape, Baseline: p.o.Baseline, Lifts: opts.lifts, DataFile: "data.csv", Version: spillwayVersion(), Labels: labels, National: opts.national}
 	p.run.Command = rerunCommand(rerunVerb(&p.run), &p.run, opts.out)
 	p.set = mcmc.Settings{Chains: opts.chains, Warmup: opts.warmup, Draws: opts.draws, Seed: opts.seed, TargetAccept: opts.targetAccept}
 	return p, nil

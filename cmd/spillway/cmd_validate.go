@@ -196,8 +196,8 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 			return usagef("--shard: %v", err)
 		}
 	}
-	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0 || len(o.sampling.drift) > 0 || o.sampling.baseline != "" || o.sampling.lifts != "") {
-		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors, --linear, --drift, --baseline and --lifts")
+	if o.fitDir != "" && (o.roles.given() || o.sampling.priors != "" || len(o.sampling.linear) > 0 || len(o.sampling.drift) > 0 || o.sampling.driftShape != "" || o.sampling.baseline != "" || o.sampling.lifts != "") {
+		return usagef("--fit takes the data and model options from the fit folder; leave out the data roles, --priors, --linear, --drift, --drift-shape, --baseline and --lifts")
 	}
 	od, err := newOutDir(o.sampling.out, o.sampling.force, append(o.roles.inputs(), o.sampling.priors, o.truth, o.fitDir, o.sampling.lifts)...)
 	if err != nil {

@@ -25,6 +25,8 @@ func TestDriftFlagErrors(t *testing.T) {
 	}{
 		{[]string{"--drift", "price"}, "--drift price: not an upper-funnel or paid-search column"},
 		{[]string{"--baseline", "wiggly"}, `--baseline "wiggly": expected line`},
+		{[]string{"--drift-shape", "jumps"}, "--drift-shape jumps: needs --drift"},
+		{[]string{"--drift", "all", "--drift-shape", "wiggly"}, `--drift-shape "wiggly": expected smooth`},
 		{[]string{"--lifts", bad}, bad + `:3:1: column "channel": unknown channel "radio_spend"`},
 		{[]string{"--lifts", filepath.Join(dir, "none.csv")}, "none.csv"},
 	} {
@@ -105,6 +107,36 @@ func TestRunDrift(t *testing.T) {
 	}
 	if code, _, stderr := runCmd(t, "split", "--fit", out); code != 0 {
 		t.Errorf("split of the drift fit: exit %d: %s", code, stderr)
+	}
+}
+
+// TestRunDriftJumps runs the demo with video's effectiveness drifting with
+// jumps (--drift-shape jumps, short chains): spec.json records the shape,
+// drift.csv has video's two paths over the 156 weeks, and split reads the
+// folder back with the same model (the fit folder's draws name the jump
+// parameters, which the rebuilt stages must have).
+func TestRunDriftJumps(t *testing.T) {
+	if testing.Short() {
+		t.Skip("end-to-end run of the demo with a drift that can jump; skipped with -short")
+	}
+	out := filepath.Join(t.TempDir(), "out")
+	code, _, stderr := runCmd(t, append([]string{"run", "--out", out, "--drift", "video_spend", "--drift-shape", "jumps"}, quick...)...)
+	if code != 0 {
+		t.Fatalf("run: exit %d\n%s", code, stderr)
+	}
+	spec, err := os.ReadFile(filepath.Join(out, "spec.json"))
+	if err != nil || !strings.Contains(string(spec), `"drift_shape": "jumps"`) {
+		t.Errorf("spec.json does not record the drift's shape (%v):\n%s", err, spec)
+	}
+	d, err := os.ReadFile(filepath.Join(out, "drift.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	if lines := strings.Split(strings.TrimSpace(string(d)), "\n"); len(lines) != 1+2*156 {
+		t.Errorf("drift.csv: %d lines; want video's 2 paths x 156 weeks", len(lines))
+	}
+	if code, _, stderr := runCmd(t, "split", "--fit", out); code != 0 {
+		t.Errorf("split of the fit with jumps: exit %d: %s", code, stderr)
 	}
 }
 

@@ -18,7 +18,7 @@ import (
 // choices are the model choices the fit folder's spec records; the priors
 // file is its copy in the folder.
 func choices(f *fitfolder.Fit) pipeline.Choices {
-	c := pipeline.Choices{Linear: f.Run.Linear, Drift: f.Run.Drift, Baseline: f.Run.Baseline}
+	c := pipeline.Choices{Linear: f.Run.Linear, Drift: f.Run.Drift, DriftShape: f.Run.DriftShape, Baseline: f.Run.Baseline}
 	if f.Priors != nil {
 		c.Priors = f.PriorsPath()
 	}
@@ -162,6 +162,7 @@ func rerunCommand(verb string, fs *fitfolder.Run, out string) string {
 	if len(fs.Drift) > 0 {
 		add("drift", strings.Join(fs.Drift, ","))
 	}
+	add("drift-shape", fs.DriftShape)
 	add("baseline", fs.Baseline)
 	add("lifts", fs.Lifts)
 	if fs.National {

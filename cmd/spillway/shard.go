@@ -219,7 +219,7 @@ func mergedPanel(ctx context.Context, od *outDir, p *fitPlan, shards []*fitfolde
 		return nil, badData(fmt.Errorf("%s: %w", filepath.Join(first.Dir, "data.csv"), err))
 	}
 	p.sc = p.panel.Scaled[0]
-	c := pipeline.Choices{Linear: p.run.Linear, Drift: p.run.Drift, Baseline: p.run.Baseline}
+	c := pipeline.Choices{Linear: p.run.Linear, Drift: p.run.Drift, DriftShape: p.run.DriftShape, Baseline: p.run.Baseline}
 	if first.Priors != nil {
 		c.Priors = filepath.Join(first.Dir, "priors.csv")
 	}
@@ -265,7 +265,7 @@ func mergedFit(ctx context.Context, od *outDir, shards []*fitfolder.ShardFolder,
 		return mergedPanel(ctx, od, p, shards, opts, stdout, stderr)
 	}
 	p.sc = model.Scale(p.ds.National(), p.ds.Spec)
-	c := pipeline.Choices{Linear: m.Run.Linear, Drift: m.Run.Drift, Baseline: m.Run.Baseline}
+	c := pipeline.Choices{Linear: m.Run.Linear, Drift: m.Run.Drift, DriftShape: m.Run.DriftShape, Baseline: m.Run.Baseline}
 	if first.Priors != nil {
 		c.Priors = filepath.Join(first.Dir, "priors.csv")
 	}

@@ -11,18 +11,20 @@ import (
 
 // Run is spec.json: everything needed to rerun a fit.
 type Run struct {
-	Spec     data.Spec `json:"spec"`
-	Demo     string    `json:"demo,omitempty"` // the scenario name when the data are the built-in demo
-	Seed     uint64    `json:"seed"`
-	Chains   int       `json:"chains"`
-	Warmup   int       `json:"warmup"`
-	Draws    int       `json:"draws"`
-	Accept   float64   `json:"target_accept"`
-	Linear   []string  `json:"linear,omitempty"`
-	Priors   string    `json:"priors,omitempty"`   // the priors file given; copied into the folder as priors.csv
-	Drift    []string  `json:"drift,omitempty"`    // spend columns (or all) whose effectiveness drifts
-	Baseline string    `json:"baseline,omitempty"` // "smooth" for a baseline that moves
-	Lifts    string    `json:"lifts,omitempty"`    // the lift-test file given; copied into the folder as LiftTestsFile
+	Spec   data.Spec `json:"spec"`
+	Demo   string    `json:"demo,omitempty"` // the scenario name when the data are the built-in demo
+	Seed   uint64    `json:"seed"`
+	Chains int       `json:"chains"`
+	Warmup int       `json:"warmup"`
+	Draws  int       `json:"draws"`
+	Accept float64   `json:"target_accept"`
+	Linear []string  `json:"linear,omitempty"`
+	Priors string    `json:"priors,omitempty"` // the priors file given; copied into the folder as priors.csv
+	Drift  []string  `json:"drift,omitempty"`  // spend columns (or all) whose effectiveness drifts
+	// DriftShape is "jumps" for a drift that can jump (empty: smooth).
+	DriftShape string `json:"drift_shape,omitempty"`
+	Baseline   string `json:"baseline,omitempty"` // "smooth" for a baseline that moves
+	Lifts      string `json:"lifts,omitempty"`    // the lift-test file given; copied into the folder as LiftTestsFile
 	// National is set when regional data were fitted as their national sum
 	// on request (--national).
 	National bool   `json:"national,omitempty"`

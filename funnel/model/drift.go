@@ -124,7 +124,7 @@ func (d *driftTerm) unconstrain(dst, v []float64, par []param) float64 {
 			h[t] = transform.Hill(a, v[d.k[2]], v[d.k[3]])
 		}
 	}
-	f := d.sm.b.Eval(nil, v[d.sm.sd], v[d.sm.ell], v[d.sm.z:d.sm.z+d.sm.b.M])
+	f := d.sm.full(v)
 	s := 0.0
 	for t, ht := range h {
 		s += math.Exp(f[t]) * ht
@@ -191,7 +191,7 @@ func (b *baselineTerm) unconstrain(_, v []float64, _ []param) float64 {
 		return 0
 	}
 	e := b.sm
-	return stat.Mean(e.b.Eval(nil, v[e.sd], v[e.ell], v[e.z:e.z+e.b.M]))
+	return stat.Mean(e.full(v))
 }
 
 var (

@@ -1,6 +1,7 @@
 package model
 
 import (
+	"fmt"
 	"math"
 	"math/rand/v2"
 	"slices"
@@ -21,6 +22,8 @@ var driftCases = []struct {
 	{"smooth baseline", Options{Baseline: BaselineSmooth}},
 	{"drift and baseline, plain", Options{Plain: true, Baseline: BaselineSmooth, Drift: map[string]bool{"audio": true}}},
 	{"drift, real coefficient", Options{Drift: map[string]bool{"video": true}, Priors: map[string]Prior{"alpha[video]": {Normal, 0, 1}, "drift_len_alpha[video]": {Fixed, 20, 0}}}},
+	{"jumps video and search", Options{Drift: map[string]bool{"video": true, "search": true}, DriftShape: DriftJumps}},
+	{"jumps linear audio, baseline", Options{Linear: map[string]bool{"audio": true}, Drift: map[string]bool{"audio": true}, DriftShape: DriftJumps, Baseline: BaselineSmooth}},
 }
 
 // TestBasis checks the smooth function's basis: M from the rule
@@ -155,8 +158,18 @@ func TestSmoothStages(t *testing.T) {
 					t.Fatalf("%s %s: %v", oc.name, st.Name, err)
 				}
 				// step 1e-5: central differences at 1e-6 lose eps |lp| / h,
-				// about 1e-6 at these stages' densities, to rounding
-				mcmctest.CheckGradient(t, tg, 1e-6, &mcmctest.GradSettings{Seed: 4, Points: 4, Radius: 1, Step: 1e-5})
+				// about 1e-6 at these stages' densities, to rounding. With
+				// jumps 3e-5: at the random points the jump weights make
+				// multipliers of e^several and gradients up to 4e9, and the
+				// largest scaled error over steps 1e-3, 3e-4, 1e-4, 3e-5,
+				// 1e-5, 3e-6 ran 4.5e-5, 4.1e-6, 4.5e-7, 2.8e-7, 1.7e-6,
+				// 3.0e-6 on the masked demand stage: truncation, then
+				// rounding, with no floor a wrong term would leave
+				step := 1e-5
+				if oc.o.DriftShape == DriftJumps {
+					step = 3e-5
+				}
+				mcmctest.CheckGradient(t, tg, 1e-6, &mcmctest.GradSettings{Seed: 4, Points: 4, Radius: 1, Step: step})
 				mcmctest.CheckNoAlloc(t, tg, make([]float64, tg.Dim()))
 				x := make([]float64, tg.Dim())
 				for i := range x {
@@ -199,6 +212,10 @@ func checkSmoothLayout(t *testing.T, st *Stage, v []float64) {
 		}
 		seen++
 		fam, _ := splitCoef(names[l.Channels()[j].Coef])
+		if J := c.Drift.Basis.J(); J > 0 && (d.Jump < 0 || names[d.Jump] != "drift_jump_sd_"+fam+"["+c.Column+"]" ||
+			names[d.Jump+J] != fmt.Sprintf("drift_jump_%s[%s,%d]", fam, c.Column, J)) {
+			t.Errorf("%s %s: jump slots %+v", st.Name, c.Column, d)
+		}
 		if names[d.SD] != "drift_sd_"+fam+"["+c.Column+"]" || names[d.Len] != "drift_len_"+fam+"["+c.Column+"]" ||
 			names[d.Z] != "drift_z_"+fam+"["+c.Column+",1]" {
 			t.Errorf("%s %s: drift slots %s %s %s", st.Name, c.Column, names[d.SD], names[d.Len], names[d.Z])
@@ -225,6 +242,12 @@ func checkSmoothLayout(t *testing.T, st *Stage, v []float64) {
 	bl := 0
 	for _, blk := range l.Blocks() {
 		if blk.Len > 1 {
+			if strings.HasPrefix(names[blk.Start], "drift_jump_") {
+				if blk.Len != NewJumpBasis(len(st.Y), nil).J() {
+					t.Errorf("%s: jump block %+v", st.Name, blk)
+				}
+				continue
+			}
 			bl++
 			if !strings.Contains(names[blk.Start], "_z_") || blk.Len != NewBasis(len(st.Y), nil).M {
 				t.Errorf("%s: block %+v", st.Name, blk)

@@ -123,7 +123,7 @@ func (s *trendShear) at(v []float64) float64 {
 				h[t] = transform.Hill(a, v[d.k[2]], v[d.k[3]])
 			}
 		}
-		f := d.sm.b.Eval(nil, v[d.sm.sd], v[d.sm.ell], v[d.sm.z:d.sm.z+d.sm.b.M])
+		f := d.sm.full(v)
 		b := 0.0
 		for t, ht := range h {
 			b += s.w[t] * (math.Exp(f[t]) - 1) * ht

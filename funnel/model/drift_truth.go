@@ -46,6 +46,12 @@ func (st *Stage) FromFixed(fixed *Stage, v []float64) (out []float64, maxDev flo
 		for j := 0; j < s.Basis.M; j++ {
 			set[s.Z+j] = true // 0
 		}
+		if s.Jump >= 0 {
+			out[s.Jump], set[s.Jump] = PriorJumpSD.P1, true
+			for k := 1; k <= s.Basis.J(); k++ {
+				set[s.Jump+k] = true // 0
+			}
+		}
 	}
 	for _, cs := range l.Channels() {
 		if cs.Drift.Has() {

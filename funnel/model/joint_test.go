@@ -76,7 +76,8 @@ func liftStages(sc *Scaled, o Options, m LiftMetric) ([]*Stage, *LiftTest) {
 var liftCases = []Options{{}, {Plain: true}, {Linear: map[string]bool{"video": true}},
 	{Priors: map[string]Prior{"alpha[video]": {Normal, 0, 1}, "K2[video]": {Fixed, 0.8, 0}}},
 	{Drift: map[string]bool{"video": true, "search": true}},
-	{Drift: map[string]bool{"video": true}, Linear: map[string]bool{"video": true}, Baseline: BaselineSmooth}}
+	{Drift: map[string]bool{"video": true}, Linear: map[string]bool{"video": true}, Baseline: BaselineSmooth},
+	{Drift: map[string]bool{"video": true, "search": true}, DriftShape: DriftJumps}}
 
 // wantLift is the model's lift of column col over weeks from..to at the
 // constrained draws v (per stage; nil for a stage the test leaves out),

@@ -53,10 +53,22 @@ type ChannelSlots struct {
 }
 
 // SmoothSlots are the positions of a smooth function's parameters (model
-// smooth.go): its sd, its length-scale and its Basis.M weights from Z.
+// smooth.go): its sd, its length-scale and its Basis.M weights from Z;
+// with jumps (jump.go), their scale at Jump and Basis.J() weights after it
+// (Jump -1 without).
 type SmoothSlots struct {
-	Basis      *Basis // nil: no such function
-	SD, Len, Z int
+	Basis            *Basis // nil: no such function
+	SD, Len, Z, Jump int
+}
+
+// at returns f(t) given the smooth part's weights c (Basis.coefs) at the
+// constrained draw v.
+func (s SmoothSlots) at(v []float64, t int, c []float64) float64 {
+	f := s.Basis.at(t, c)
+	if s.Jump >= 0 {
+		f += s.Basis.jumpAt(t, v[s.Jump], v[s.Jump+1:s.Jump+1+s.Basis.J()])
+	}
+	return f
 }
 
 // Has reports whether the function exists.
@@ -95,7 +107,7 @@ func (s *Stage) Layout() *Layout {
 		}
 	}
 	for _, c := range s.Channels {
-		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1}, Break: -1, ErrZ: -1, FreqK: -1}
+		cs := ChannelSlots{Column: c.Column, Coef: add(), Lam: -1, K: -1, S: -1, Drift: SmoothSlots{SD: -1, Len: -1, Z: -1, Jump: -1}, Break: -1, ErrZ: -1, FreqK: -1}
 		if !c.Linear {
 			cs.Lam, cs.K, cs.S = add(), add(), add()
 		}
@@ -103,16 +115,23 @@ func (s *Stage) Layout() *Layout {
 	}
 	l.sigma = add()
 	smooth := func(sm *Smooth) SmoothSlots {
-		ss := SmoothSlots{Basis: sm.Basis, SD: add(), Len: add(), Z: k}
-		name, _, _ := strings.Cut(l.names[k], "[")
-		if i := strings.LastIndexByte(l.names[k], ','); i > 0 {
-			name = l.names[k][:i] + "]" // "drift_z_alpha[video_spend,1]" gives "drift_z_alpha[video_spend]"
+		ss := SmoothSlots{Basis: sm.Basis, SD: add(), Len: add(), Z: k, Jump: -1}
+		block := func(n int) {
+			name, _, _ := strings.Cut(l.names[k], "[")
+			if i := strings.LastIndexByte(l.names[k], ','); i > 0 {
+				name = l.names[k][:i] + "]" // "drift_z_alpha[video_spend,1]" gives "drift_z_alpha[video_spend]"
+			}
+			l.blocks = append(l.blocks, Block{Name: name, Start: k, Len: n})
+			k += n
 		}
-		l.blocks = append(l.blocks, Block{Name: name, Start: k, Len: sm.Basis.M})
-		k += sm.Basis.M
+		block(sm.Basis.M)
+		if J := sm.Basis.J(); J > 0 {
+			ss.Jump = add()
+			block(J)
+		}
 		return ss
 	}
-	l.baseline = SmoothSlots{SD: -1, Len: -1, Z: -1}
+	l.baseline = SmoothSlots{SD: -1, Len: -1, Z: -1, Jump: -1}
 	if s.Baseline != nil {
 		l.baseline = smooth(s.Baseline)
 	}
@@ -288,13 +307,13 @@ func (p Params) ApplyDrift(h []float64, j int) {
 	T := d.Basis.T
 	for t := range h {
 		if t >= T {
-			last := math.Exp(d.Basis.at(T-1, c))
+			last := math.Exp(d.at(p.v, T-1, c))
 			for u := t; u < len(h); u++ {
 				h[u] *= last
 			}
 			return
 		}
-		h[t] *= math.Exp(d.Basis.at(t, c))
+		h[t] *= math.Exp(d.at(p.v, t, c))
 	}
 }
 
@@ -308,7 +327,7 @@ func (p Params) Last(j int) float64 {
 	}
 	var buf [64]float64
 	c := d.Basis.coefs(buf[:0], p.v[d.SD], p.v[d.Len], p.v[d.Z:d.Z+d.Basis.M])
-	return math.Exp(d.Basis.at(d.Basis.T-1, c))
+	return math.Exp(d.at(p.v, d.Basis.T-1, c))
 }
 
 // Baseline writes the moving baseline's f(t) (scaled units, averaging zero
@@ -336,7 +355,7 @@ func (p Params) AddBaseline(n []float64) {
 	c := b.Basis.coefs(buf[:0], p.v[b.SD], p.v[b.Len], p.v[b.Z:b.Z+b.Basis.M])
 	T := b.Basis.T
 	for t := range n {
-		n[t] += b.Basis.at(min(t, T-1), c)
+		n[t] += b.at(p.v, min(t, T-1), c)
 	}
 }
 

@@ -18,6 +18,7 @@ const (
 	Flat       Family = "flat"       // improper uniform: on the real line for a coefficient, else on the parameter's support
 	Jeffreys   Family = "jeffreys"   // improper 1/x on x > 0 (flat on log x; for a scale)
 	Fixed      Family = "fixed"      // the parameter is held at P1 and not sampled
+	StudentT   Family = "studentt"   // Student-t(df P1, scale P2) centred at 0 on the real line
 	// LogNormal90 and LogNormal are the families of a stated return
 	// (retprior.go), not of a parameter: by the 5% and 95% quantiles, or
 	// by the mean and sd of the return itself.
@@ -78,6 +79,10 @@ func (p Prior) LogPdf(x float64) (lp, d float64) {
 		}
 		lg, _ := math.Lgamma(p.P1)
 		return p.P1*math.Log(p.P2) - lg - (p.P1+1)*math.Log(x) - p.P2/x, (p.P2/x - (p.P1 + 1)) / x
+	case StudentT:
+		z := x / p.P2
+		q := 1 + z*z/p.P1
+		return -0.5*(p.P1+1)*math.Log(q) - math.Log(p.P2), -(p.P1 + 1) * z / (p.P1 * p.P2 * q)
 	case Flat, Fixed, Conditional:
 		return 0, 0
 	case Jeffreys:
@@ -93,7 +98,7 @@ func (p Prior) LogPdf(x float64) (lp, d float64) {
 // def, the support of the parameter's default prior.
 func (p Prior) Support(def Support) Support {
 	switch p.Family {
-	case Normal:
+	case Normal, StudentT:
 		return Real
 	case HalfNormal, Gamma, InvGamma, Jeffreys, Conditional:
 		return PositiveReal
@@ -118,11 +123,11 @@ func (p Prior) Check() error {
 const PriorLimit = 1e6
 
 // Arity returns how many of P1, P2 the family takes (normal, gamma,
-// invgamma and beta two; halfnormal and fixed one; flat and jeffreys none),
+// invgamma, beta and studentt two; halfnormal and fixed one; flat and jeffreys none),
 // or -1 for an unknown family.
 func (f Family) Arity() int {
 	switch f {
-	case Normal, Gamma, InvGamma, Beta:
+	case Normal, Gamma, InvGamma, Beta, StudentT:
 		return 2
 	case HalfNormal, Fixed:
 		return 1
@@ -137,7 +142,7 @@ func (f Family) Arity() int {
 func (p Prior) CheckAt() (which int, err error) {
 	bad := func(w int, f string, args ...any) (int, error) { return w, fmt.Errorf(f, args...) }
 	if p.Family.Arity() < 0 {
-		return bad(0, "unknown family %q; expected normal, halfnormal, gamma, invgamma, beta, flat, jeffreys or fixed", p.Family)
+		return bad(0, "unknown family %q; expected normal, halfnormal, gamma, invgamma, beta, studentt, flat, jeffreys or fixed", p.Family)
 	}
 	for i, v := range []float64{p.P1, p.P2} {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
@@ -181,6 +186,10 @@ func (p Prior) CheckAt() (which int, err error) {
 		if w, err = positive(1, p.P1, "shape p1"); err == nil {
 			w, err = positive(2, p.P2, "scale p2")
 		}
+	case StudentT:
+		if w, err = positive(1, p.P1, "degrees of freedom p1"); err == nil {
+			w, err = positive(2, p.P2, "scale p2")
+		}
 	case Fixed:
 		w, err = within(1, p.P1, "value p1")
 	}
@@ -192,7 +201,7 @@ func (p Prior) CheckAt() (which int, err error) {
 
 func (p Prior) String() string {
 	switch p.Family {
-	case Normal, Gamma, InvGamma, Beta:
+	case Normal, Gamma, InvGamma, Beta, StudentT:
 		return fmt.Sprintf("%s(%g, %g)", p.Family, p.P1, p.P2)
 	case HalfNormal, Fixed:
 		return fmt.Sprintf("%s(%g)", p.Family, p.P1)
@@ -217,6 +226,10 @@ func (p Prior) NormalApprox() (mean, prec float64) {
 	case Beta:
 		s := p.P1 + p.P2
 		return p.P1 / s, s * s * (s + 1) / (p.P1 * p.P2)
+	case StudentT:
+		if p.P1 > 2 {
+			return 0, (p.P1 - 2) / (p.P1 * p.P2 * p.P2)
+		}
 	case Fixed:
 		return p.P1, 0
 	}

@@ -79,6 +79,8 @@ func drawPrior(p Prior, rng *rand.Rand) (float64, error) {
 		return distuv.Beta{Alpha: p.P1, Beta: p.P2, Src: rng}.Rand(), nil
 	case InvGamma:
 		return 1 / distuv.Gamma{Alpha: p.P1, Beta: p.P2, Src: rng}.Rand(), nil
+	case StudentT:
+		return distuv.StudentsT{Mu: 0, Sigma: p.P2, Nu: p.P1, Src: rng}.Rand(), nil
 	case Fixed:
 		return p.P1, nil
 	case Conditional:

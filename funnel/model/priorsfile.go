@@ -214,7 +214,7 @@ func ReadPriorFile(r io.Reader, file string, check PriorCheck, sc *Scaled) (*Pri
 		case row.Per.set:
 			return nil, at(6, "%s: per is for a return row (return[...]); leave it empty", name)
 		case p.Family == LogNormal90 || p.Family == LogNormal:
-			return nil, at(2, "%s: %s is for a return row (return[...] or incremental[...]); a parameter takes normal, halfnormal, gamma, invgamma, beta, flat, jeffreys or fixed", name, p.Family)
+			return nil, at(2, "%s: %s is for a return row (return[...] or incremental[...]); a parameter takes normal, halfnormal, gamma, invgamma, beta, studentt, flat, jeffreys or fixed", name, p.Family)
 		}
 		n := p.Family.Arity()
 		if n < 0 || p.Family == Conditional {

@@ -80,7 +80,8 @@ func wantReturn(st []*Stage, v [][]float64, r *ReturnPrior) (u, w float64) {
 
 var retCases = []Options{{}, {Plain: true}, {Linear: map[string]bool{"video": true}},
 	{Drift: map[string]bool{"video": true}},
-	{Drift: map[string]bool{"video": true}, Linear: map[string]bool{"video": true}, Baseline: BaselineSmooth}}
+	{Drift: map[string]bool{"video": true}, Linear: map[string]bool{"video": true}, Baseline: BaselineSmooth},
+	{Drift: map[string]bool{"video": true}, DriftShape: DriftJumps}}
 
 // TestReturnPriorTerm checks the return prior's term for each path and
 // measure, with and without drift, linear or not: its gradient through the

@@ -94,6 +94,17 @@ type Basis struct {
 	L       float64   // half-width of the domain, weeks
 	sqrtLam []float64 // sqrt(lambda_j) = pi j / (2 L)
 	phi     []float64 // T x M, row t: phi~_j(t)
+	// jumps are the candidate weeks of a drift that can jump (jump.go),
+	// none for a smooth function; jmean[k] the share of the fitted weeks
+	// at or after jumps[k].
+	jumps []int
+	jmean []float64
+}
+
+// NewJumpBasis returns the basis over T weeks of a drift that can jump: the
+// smooth function's, and candidate weeks every JumpEvery weeks (jump.go).
+func NewJumpBasis(T int, mask []bool) *Basis {
+	return NewBasis(T, mask).withJumps(mask)
 }
 
 // NewBasis returns the basis over T weeks; the means are taken over the
@@ -217,7 +228,8 @@ func smoothParams(sd, ell, z string, sdPrior Prior, M int) []Param {
 
 // Smooth is a smooth function of the week in a stage: a drifting channel's
 // log-multiplier or a moving baseline. Its parameters are, in draw order,
-// the sd, the length-scale and the M basis weights.
+// the sd, the length-scale and the M basis weights, then, when its basis
+// has candidate jump weeks (jump.go), the jumps' scale and J weights.
 type Smooth struct {
 	Basis  *Basis
 	Params []Param
@@ -226,22 +238,32 @@ type Smooth struct {
 // Eval writes f(t) over the data's weeks at the smooth's constrained
 // values v (sd, length-scale, weights, as in Params) into dst.
 func (s *Smooth) Eval(dst, v []float64) []float64 {
-	return s.Basis.Eval(dst, v[0], v[1], v[2:2+s.Basis.M])
+	b := s.Basis
+	dst = b.Eval(dst, v[0], v[1], v[2:2+b.M])
+	if b.J() > 0 {
+		b.addJumps(dst, v[2+b.M], v[3+b.M:3+b.M+b.J()], 0, b.T)
+	}
+	return dst
 }
 
 // smoothEval evaluates a smooth function inside a target: its slots in the
-// natural values (sd, ell, then the M weights from z) and scratch.
+// natural values (sd, ell, then the M weights from z; with jumps, their
+// scale at z + M and the J weights after it) and scratch.
 type smoothEval struct {
 	b         *Basis
 	sd, ell   int // positions in the natural values
 	z         int // position of the first weight
+	jsd       int // position of the jumps' scale, -1 without jumps
 	s, ds, c  []float64
-	f, p      []float64
+	f, p, pj  []float64
 	sdv, ellv float64
 }
 
 func newSmoothEval(b *Basis, sd, ell, z int) *smoothEval {
-	e := &smoothEval{b: b, sd: sd, ell: ell, z: z}
+	e := &smoothEval{b: b, sd: sd, ell: ell, z: z, jsd: -1}
+	if b.J() > 0 {
+		e.jsd = z + b.M
+	}
 	e.alloc()
 	return e
 }
@@ -250,6 +272,17 @@ func (e *smoothEval) alloc() {
 	M := e.b.M
 	e.s, e.ds, e.c, e.p = make([]float64, M), make([]float64, M), make([]float64, M), make([]float64, M)
 	e.f = make([]float64, e.b.T)
+	e.pj = make([]float64, e.b.J())
+}
+
+// full returns f over every week at the natural values v (allocating: for
+// Unconstrain, not for the density).
+func (e *smoothEval) full(v []float64) []float64 {
+	f := e.b.Eval(nil, v[e.sd], v[e.ell], v[e.z:e.z+e.b.M])
+	if e.jsd >= 0 {
+		e.b.addJumps(f, v[e.jsd], v[e.jsd+1:e.jsd+1+e.b.J()], 0, e.b.T)
+	}
+	return f
 }
 
 func (e *smoothEval) clone() *smoothEval {
@@ -267,6 +300,9 @@ func (e *smoothEval) eval(nat []float64, lo, hi int) {
 		e.c[j] = s * z[j]
 	}
 	e.b.apply(e.f, e.c, lo, hi)
+	if e.jsd >= 0 {
+		e.b.addJumps(e.f, nat[e.jsd], nat[e.jsd+1:e.jsd+1+e.b.J()], lo, hi)
+	}
 }
 
 // backward adds to g the gradient of the log density with respect to the
@@ -296,4 +332,16 @@ func (e *smoothEval) backward(g, nat, r []float64, lo, hi int) {
 	}
 	g[e.sd] += gsd / e.sdv
 	g[e.ell] += gell
+	if e.jsd < 0 {
+		return
+	}
+	// w_k = jsd u_k: d lp / d u_k = jsd p_k, d lp / d jsd = sum_k u_k p_k
+	e.b.jumpGrad(e.pj, r, lo, hi)
+	jsd, u, gu := nat[e.jsd], nat[e.jsd+1:e.jsd+1+e.b.J()], g[e.jsd+1:e.jsd+1+e.b.J()]
+	gj := 0.0
+	for k, pk := range e.pj {
+		gu[k] += jsd * pk
+		gj += u[k] * pk
+	}
+	g[e.jsd] += gj
 }

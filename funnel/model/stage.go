@@ -400,8 +400,12 @@ func (s *Stage) Target() (*Target, error) {
 	}
 	// the smooth functions' parameters come after sigma (Names)
 	smooth := func(sm *Smooth) (*smoothEval, error) {
-		if len(sm.Params) != 2+sm.Basis.M || sm.Basis.T != t.T {
-			panic("model: a smooth function has an sd, a length-scale and one weight per basis function over the stage's weeks")
+		want := 2 + sm.Basis.M
+		if J := sm.Basis.J(); J > 0 {
+			want += 1 + J
+		}
+		if len(sm.Params) != want || sm.Basis.T != t.T {
+			panic("model: a smooth function has an sd, a length-scale and one weight per basis function over the stage's weeks (and, with jumps, their scale and one weight per candidate week)")
 		}
 		k := make([]int, len(sm.Params))
 		for q, p := range sm.Params {

@@ -29,6 +29,9 @@ type Options struct {
 	// beta for paid search): coef exp(f(t)), f smooth with mean zero over
 	// the fitted weeks (smooth.go, drift.go). Empty: no drift.
 	Drift map[string]bool
+	// DriftShape is "" (or DriftSmooth) for a smooth drift, or DriftJumps
+	// for a drift that can also jump at candidate weeks (jump.go).
+	DriftShape string
 	// Baseline is "" for the default trend line, or BaselineSmooth for a
 	// baseline that moves: a smooth function of the week in its place.
 	Baseline string
@@ -41,6 +44,9 @@ type Options struct {
 
 // BaselineSmooth is the Options.Baseline of a baseline that moves.
 const BaselineSmooth = "smooth"
+
+// DriftSmooth is the Options.DriftShape of a smooth drift (the default).
+const DriftSmooth = "smooth"
 
 func baseStage(name, suffix string, y []float64, sc *Scaled, o Options) *Stage {
 	st := &Stage{Name: name, Y: y, Mask: sc.Mask, Intercept: "mu_" + suffix, MuPrior: PriorMu,
@@ -63,8 +69,14 @@ func baseStage(name, suffix string, y []float64, sc *Scaled, o Options) *Stage {
 func channel(col string, x []float64, coef, lam, k, s string, o Options, mask []bool) Channel {
 	c := Channel{Column: col, X: x, Linear: o.Linear[col], Params: mediaParams(col, coef, lam, k, s, o.Linear[col])}
 	if o.Drift[col] {
-		b := NewBasis(len(x), mask)
-		c.Drift = &Smooth{Basis: b, Params: smoothParams("drift_sd_"+coef+"["+col+"]", "drift_len_"+coef+"["+col+"]", "drift_z_"+coef+"["+col+"]", PriorDriftSD, b.M)}
+		if o.DriftShape == DriftJumps {
+			b := NewJumpBasis(len(x), mask)
+			p := smoothParams("drift_sd_"+coef+"["+col+"]", "drift_len_"+coef+"["+col+"]", "drift_z_"+coef+"["+col+"]", PriorDriftSD, b.M)
+			c.Drift = &Smooth{Basis: b, Params: append(p, jumpParams("drift_jump_sd_"+coef+"["+col+"]", "drift_jump_"+coef+"["+col+"]", b.J())...)}
+		} else {
+			b := NewBasis(len(x), mask)
+			c.Drift = &Smooth{Basis: b, Params: smoothParams("drift_sd_"+coef+"["+col+"]", "drift_len_"+coef+"["+col+"]", "drift_z_"+coef+"["+col+"]", PriorDriftSD, b.M)}
+		}
 	}
 	return c
 }

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"os"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -139,6 +140,15 @@ const calibWeeks = 104
 // default model: the smooth drift spreads the step over months and gamma
 // takes what it misses (issue 13's note).
 //
+// The drift that can jump (model "jumps", --drift-shape jumps), on the step
+// scenarios alone over seeds 101-110 (2815 s at load 15-28, niced): quarterly
+// 90% coverage 0.881 (se 0.032) without and 0.884 (se 0.028) with the lift
+// tests, against the smooth drift's 0.866 and 0.869; gamma covered by 7 of
+// 10 90% intervals in both, but by 0 and 1 of 10 50% intervals, which fails
+// the 50% assertion: gamma still leans high (issue 13's jump note: the
+// outcome stage's learned transforms, not the drift's shape). All 20 of
+// those short fits had R-hat above 1.05.
+//
 // A sweep of 84 fits: on demand with SPILLWAY_LONG=1
 // (SPILLWAY_DRIFT_REPLICATES sets the number of replicates,
 // SPILLWAY_DRIFT_FIRST_SEED the first one's seed).
@@ -159,7 +169,22 @@ func TestDriftCalibration(t *testing.T) {
 		}
 		return c.scen
 	}
-	models := []string{"drift", "default"}
+	if v := os.Getenv("SPILLWAY_DRIFT_SCENARIOS"); v != "" {
+		var some []cas
+		for _, c := range cases {
+			if slices.Contains(strings.Split(v, ","), strings.ReplaceAll(label(c), " + lift tests", "+lifts")) {
+				some = append(some, c)
+			}
+		}
+		cases = some
+	}
+	// drift: the smooth drift; jumps: the drift that can jump
+	// (--drift-shape jumps); default: no drift
+	models := []string{"drift", "jumps", "default"}
+	if v := os.Getenv("SPILLWAY_DRIFT_MODELS"); v != "" {
+		models = strings.Split(v, ",")
+	}
+	drifting := func(m string) bool { return m == "drift" || m == "jumps" }
 	quantities := []string{"video_spend/via_search", "video_spend/direct", "audio_spend/via_search", "audio_spend/direct", "gamma"}
 	whole := map[string]*calibCount{}
 	quarters := map[string]*clusterCoverage{}
@@ -200,8 +225,11 @@ func TestDriftCalibration(t *testing.T) {
 					continue // the default model with the tests: not needed to judge the drift model's
 				}
 				o := model.Options{}
-				if m == "drift" {
+				if drifting(m) {
 					o.Drift = allDrift(tm.sc)
+				}
+				if m == "jumps" {
+					o.DriftShape = model.DriftJumps
 				}
 				f, err := FitStages(ctx, tm.sc, o, tests, mcmc.Settings{Seed: seed, Chains: 2, Warmup: 200, Draws: 150}, nil)
 				if err != nil {
@@ -257,7 +285,7 @@ func TestDriftCalibration(t *testing.T) {
 			}
 		}
 	}
-	t.Logf("%d of %d fits with R-hat above 1.05 or a divergence", unconverged, R*(2*len(cases)-1))
+	t.Logf("%d fits with R-hat above 1.05 or a divergence", unconverged)
 	lo90, hi90 := score.BinomialRange(R, 0.9, 0.95)
 	lo50, hi50 := score.BinomialRange(R, 0.5, 0.95)
 	t.Logf("whole-period effects and gamma, one trial per replicate (%d replicates; binomial 95%% range %d-%d at 90%%, %d-%d at 50%%):", R, lo90, hi90, lo50, hi50)
@@ -268,14 +296,14 @@ func TestDriftCalibration(t *testing.T) {
 			for _, q := range quantities {
 				n := whole[k+"|"+q]
 				cells = append(cells, fmt.Sprintf("%s %d/%d, %d/%d", q, n.in90, n.n, n.in50, n.n))
-				if m != "drift" {
+				if !drifting(m) {
 					continue
 				}
 				if p := score.BinomialLowerTail(float64(n.in90), n.n, 0.9); p < 0.001 {
-					t.Errorf("%s, drift model: %s covered by %d of %d 90%% intervals (P = %.2g)", label(c), q, n.in90, n.n, p)
+					t.Errorf("%s, %s model: %s covered by %d of %d 90%% intervals (P = %.2g)", label(c), m, q, n.in90, n.n, p)
 				}
 				if lo, hi := score.BinomialLowerTail(float64(n.in50), n.n, 0.5), score.BinomialUpperTail(float64(n.in50), n.n, 0.5); lo < 0.001 || hi < 0.001 {
-					t.Errorf("%s, drift model: %s covered by %d of %d 50%% intervals (tails %.2g, %.2g)", label(c), q, n.in50, n.n, lo, hi)
+					t.Errorf("%s, %s model: %s covered by %d of %d 50%% intervals (tails %.2g, %.2g)", label(c), m, q, n.in50, n.n, lo, hi)
 				}
 			}
 			if whole[k+"|gamma"].n > 0 {
@@ -294,12 +322,15 @@ func TestDriftCalibration(t *testing.T) {
 			}
 			v90, vse90 := videoVia[k].share(0.9)
 			t.Logf("  %-20s %-7s all quarterly effects: 90%% %.3f (se %.3f), 50%% %.3f (se %.3f); video via search: 90%% %.3f (se %.3f)", label(c), m, p90, se90, p50, se50, v90, vse90)
-			if m == "drift" && p90+3*se90 < 0.9 {
-				t.Errorf("%s, drift model: quarterly 90%% coverage %.3f (se over replicates %.3f) is clearly below 0.9", label(c), p90, se90)
+			if drifting(m) && p90+3*se90 < 0.9 {
+				t.Errorf("%s, %s model: quarterly 90%% coverage %.3f (se over replicates %.3f) is clearly below 0.9", label(c), m, p90, se90)
 			}
 		}
 	}
 	sm := cas{"smooth", false}
+	if !slices.Contains(cases, sm) || !slices.Contains(models, "drift") || !slices.Contains(models, "default") {
+		return
+	}
 	pd, _ := quarters[key(sm, "drift")].share(0.9)
 	po, _ := quarters[key(sm, "default")].share(0.9)
 	if pd <= po {

@@ -6,6 +6,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"sort"
+	"strconv"
 	"testing"
 
 	"gonum.org/v1/gonum/stat/distuv"
@@ -577,4 +578,48 @@ func BenchmarkFitAlone(b *testing.B) {
 			report(b, f)
 		}
 	})
+	// the same with the drift that can jump (--drift-shape jumps);
+	// SPILLWAY_BENCH_ACCEPT sets the target acceptance (default: the fit's)
+	b.Run("jumps", func(b *testing.B) {
+		set := mcmc.Settings{Seed: 1}
+		if v := os.Getenv("SPILLWAY_BENCH_ACCEPT"); v != "" {
+			a, err := strconv.ParseFloat(v, 64)
+			if err != nil {
+				b.Fatal(err)
+			}
+			set.TargetAccept = a
+		}
+		for b.Loop() {
+			f, err := FitLifts(context.Background(), sc, model.Options{Drift: allDrift(sc), DriftShape: model.DriftJumps}, tests, set, nil)
+			if err != nil {
+				b.Fatal(err)
+			}
+			report(b, f)
+			worst(b, f)
+		}
+	})
+}
+
+// worst logs the parameters of f with the largest R-hat and the smallest
+// bulk or tail ESS.
+func worst(b *testing.B, f *Fitted) {
+	for k, fit := range f.Fits {
+		if fit == nil || (k == 1 && f.Wall[1] == 0) {
+			continue
+		}
+		var rn, en string
+		var r, e float64 = 0, math.Inf(1)
+		for _, s := range mcmc.Summarize(fit) {
+			if s.Constant() {
+				continue
+			}
+			if s.Rhat > r {
+				r, rn = s.Rhat, s.Parameter
+			}
+			if m := math.Min(s.ESSBulk, s.ESSTail); m < e {
+				e, en = m, s.Parameter
+			}
+		}
+		b.Logf("stage %d: largest R-hat %.3f (%s), smallest ESS %.0f (%s)", k, r, rn, e, en)
+	}
 }

@@ -21,6 +21,10 @@ type Choices struct {
 	// Drift names spend columns whose coefficients drift by week (model
 	// Options.Drift); DriftAll among them means every spend column.
 	Drift []string
+	// DriftShape is "" or model.DriftSmooth (a smooth drift) or
+	// model.DriftJumps (a smooth drift that can also jump); only with
+	// Drift.
+	DriftShape string
 	// Baseline is "" (a trend line) or model.BaselineSmooth.
 	Baseline string
 }
@@ -77,6 +81,16 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 		default:
 			return o, &ChoiceError{Flag: "drift", Err: fmt.Errorf("%s: not an upper-funnel or paid-search column (%s), nor %s", col, strings.Join(spend, ", "), DriftAll)}
 		}
+	}
+	switch c.DriftShape {
+	case "", model.DriftSmooth:
+	case model.DriftJumps:
+		if len(o.Drift) == 0 {
+			return o, &ChoiceError{Flag: "drift-shape", Err: fmt.Errorf("%s: needs --drift (the channels whose effectiveness drifts)", c.DriftShape)}
+		}
+		o.DriftShape = model.DriftJumps
+	default:
+		return o, &ChoiceError{Flag: "drift-shape", Err: fmt.Errorf("%q: expected %s (a smooth drift, the default) or %s (a smooth drift that can also jump, about monthly)", c.DriftShape, model.DriftSmooth, model.DriftJumps)}
 	}
 	switch c.Baseline {
 	case "", "line":

@@ -95,6 +95,10 @@ func TestChoicesDrift(t *testing.T) {
 	if err != nil || len(o.Drift) != 3 || o.Baseline != "" {
 		t.Errorf("drift all: %+v, %v", o, err)
 	}
+	o, err = Choices{Drift: []string{"all"}, DriftShape: "jumps"}.Options(sc)
+	if err != nil || len(o.Drift) != 3 || o.DriftShape != model.DriftJumps {
+		t.Errorf("drift all with jumps: %+v, %v", o, err)
+	}
 	p := filepath.Join(t.TempDir(), "p.csv")
 	if err := os.WriteFile(p, []byte("parameter,family,p1,p2\ndrift_len_alpha[video_spend],invgamma,3,80\n"), 0o644); err != nil {
 		t.Fatal(err)
@@ -113,7 +117,8 @@ func TestChoicesDrift(t *testing.T) {
 	for _, c := range []struct {
 		ch   Choices
 		flag string
-	}{{Choices{Drift: []string{"price"}}, "drift"}, {Choices{Baseline: "wiggly"}, "baseline"}} {
+	}{{Choices{Drift: []string{"price"}}, "drift"}, {Choices{Baseline: "wiggly"}, "baseline"},
+		{Choices{DriftShape: model.DriftJumps}, "drift-shape"}, {Choices{Drift: []string{"all"}, DriftShape: "wiggly"}, "drift-shape"}} {
 		_, err := c.ch.Options(sc)
 		var ce *ChoiceError
 		if !errors.As(err, &ce) || ce.Flag != c.flag {
