@@ -66,6 +66,25 @@ func TestPanelDrift(t *testing.T) {
 	if got := len(drift.DriftChange); got != 2 {
 		t.Errorf("drift_change.csv has %d rows, want 2", got)
 	}
+	// the drift that can jump runs on a panel too: the same rows, its own
+	// multipliers (the jump part's steps are more parameters of the shared
+	// multiplier)
+	jumps := fit("jumps", "--drift", "video_spend", "--drift-shape", "jumps")
+	if len(jumps.Drift) != len(drift.Drift) {
+		t.Fatalf("--drift-shape jumps: drift.csv has %d rows, want %d", len(jumps.Drift), len(drift.Drift))
+	}
+	same := 0
+	for i, d := range jumps.Drift {
+		if d.Channel != drift.Drift[i].Channel || d.Path != drift.Drift[i].Path || !d.Week.Equal(drift.Drift[i].Week) {
+			t.Fatalf("--drift-shape jumps: row %d is %s %s %s, the smooth drift's %s %s", i, d.Channel, d.Path, d.Week.Format(time.DateOnly), drift.Drift[i].Channel, drift.Drift[i].Path)
+		}
+		if d.Mean == drift.Drift[i].Mean {
+			same++
+		}
+	}
+	if same == len(jumps.Drift) {
+		t.Error("--drift-shape jumps gave the smooth drift's multipliers")
+	}
 
 	quarters := 0
 	for _, w := range drift.Split.Windows() {
