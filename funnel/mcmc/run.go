@@ -62,7 +62,9 @@ type Settings struct {
 	// warm-up. Nil means the identity, Stan's start. A start near the
 	// posterior's scales spares the early warm-up the long trajectories an
 	// identity metric needs where coordinates differ in scale by orders of
-	// magnitude; the windows adapt it as usual.
+	// magnitude; the windows adapt it as usual, shrinking their estimates
+	// toward 1e-3 times it (Stan: 1e-3 times the identity) so that the
+	// shrinkage keeps the coordinates' relative scales.
 	InvMetric []float64
 }
 
@@ -367,7 +369,7 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 			wf.add(s.z.q)
 		}
 		if endWin {
-			wf.regularizedVariance(varBuf)
+			wf.regularizedVariance(varBuf, set.InvMetric)
 			for _, v := range varBuf {
 				if math.IsNaN(v) || math.IsInf(v, 0) {
 					return Chain{}, fmt.Errorf("mcmc: chain %d: numerical overflow in metric adaptation", c+1)

@@ -590,7 +590,8 @@ func TestSkewedGamma(t *testing.T) {
 // maximum tree depth until the first metric window ends; the start at the
 // true variances does not, and takes fewer warm-up gradients. Moments are
 // checked against the closed form in both runs. Explicit ones give the
-// identity's draws bit for bit.
+// identity's draws bit for bit (the windows' shrinkage toward 1e-3 times
+// the start metric is then Stan's).
 func TestInitialMetric(t *testing.T) {
 	const n = 20
 	mu, sigma, vars, ones := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
@@ -632,6 +633,21 @@ func TestInitialMetric(t *testing.T) {
 	}
 	if 2*gs > gi {
 		t.Errorf("warm-up gradients: start at the scales %d, want under half the identity's %d", gs, gi)
+	}
+	// The windows shrink toward 1e-3 times the start metric: from the start
+	// at the scales every adapted variance is σ² within a factor 3 (a
+	// window of a few hundred correlated draws), where Stan's shrinkage
+	// toward 1e-3 inflates the smallest (σ = 0.003) more.
+	for c, ch := range scaled.Chains {
+		for i, v := range ch.Stats.InvMetric {
+			if r := v / vars[i]; r < 1.0/3 || r > 3 {
+				t.Errorf("start at the scales, chain %d coordinate %d: adapted variance %.3g, want σ² = %.3g within a factor 3", c+1, i+1, v, vars[i])
+			}
+		}
+		t.Logf("chain %d, σ = 0.003: adapted variance / σ² %.2f from the identity start, %.2f from the scales", c+1, ident.Chains[c].Stats.InvMetric[0]/vars[0], ch.Stats.InvMetric[0]/vars[0])
+		if r := ident.Chains[c].Stats.InvMetric[0] / vars[0]; r < 3 {
+			t.Errorf("identity start, chain %d: smallest coordinate's adapted variance %.3g is σ² = %.3g times %.2f, want Stan's shrinkage to inflate it over 3", c+1, ident.Chains[c].Stats.InvMetric[0], vars[0], r)
+		}
 	}
 	withOnes := run(ones)
 	for c := range ident.Chains {
