@@ -342,14 +342,14 @@ func leastSquares(cols [][]float64, y []float64, mask []bool) (b, vars []float64
 // intercepts' coordinates exactly 1, sigma's log ~1/sqrt(2 region-weeks)),
 // so the early warm-up runs trajectories of the maximum length until its
 // first metric window ends. The estimates need only be the right order of
-// magnitude: the warm-up's windows replace them. Coordinates without an
-// estimate keep 1.
+// magnitude: the warm-up's windows replace them.
 //
 // No variance is above 1, the identity's: a coordinate the data leave to
 // its prior has about that scale (the default priors are of unit order on
 // the sampling coordinates). Per coordinate, with tau a block's spread and
-// s[g] region g's standard error (the normal approximations of a hierarchical normal model,
-// Gelman et al., Bayesian Data Analysis, 3rd ed., section 5.4):
+// s[g] region g's standard error (the normal approximations of the
+// hierarchical normal model, Gelman et al., Bayesian Data Analysis, 3rd
+// ed., chapter 5):
 //   - a region's coordinate in a block: centred, the precision-weighted
 //     variance 1/(1/s^2 + 1/tau^2); non-centred (eta), s^2/(s^2 + tau^2);
 //     a conditional intercept's, exactly 1;
