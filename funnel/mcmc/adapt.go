@@ -178,15 +178,23 @@ func (w *welford) add(q []float64) {
 }
 
 // regularizedVariance writes into dst Stan's regularised diagonal metric
-// (n/(n+5)) Var + 1e-3 (5/(n+5)) and returns dst.
-func (w *welford) regularizedVariance(dst []float64) []float64 {
+// (n/(n+5)) Var + 1e-3 (5/(n+5)) and returns dst. With a start metric
+// (Settings.InvMetric) the shrinkage target is 1e-3 times it instead of
+// 1e-3 times the identity: Stan's 1e-3 assumes coordinates of unit scale,
+// and on coordinates with sd ~0.001 it would dominate the estimate (after
+// a 25-draw window it adds 1.7e-4 to a variance of 1e-6).
+func (w *welford) regularizedVariance(dst, start []float64) []float64 {
 	n := float64(w.n)
 	for i := range dst {
 		v := 0.0
 		if w.n > 1 {
 			v = w.m2[i] / (n - 1)
 		}
-		dst[i] = (n/(n+5))*v + 1e-3*(5/(n+5))
+		base := 1e-3
+		if start != nil {
+			base *= start[i]
+		}
+		dst[i] = (n/(n+5))*v + base*(5/(n+5))
 	}
 	return dst
 }

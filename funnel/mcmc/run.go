@@ -56,6 +56,16 @@ type Settings struct {
 	// uniform in (−2, 2), redrawn up to InitTries times until the log density
 	// and its gradient are finite.
 	Init func(chain int, dst []float64) bool
+	// InvMetric, if not nil, is the diagonal inverse metric (a variance per
+	// unconstrained coordinate, len Dim(), each positive and finite) the
+	// warm-up starts from, and the one sampling uses when there is no
+	// warm-up. Nil means the identity, Stan's start. A start near the
+	// posterior's scales spares the early warm-up the long trajectories an
+	// identity metric needs where coordinates differ in scale by orders of
+	// magnitude; the windows adapt it as usual, shrinking their estimates
+	// toward 1e-3 times it (Stan: 1e-3 times the identity) so that the
+	// shrinkage keeps the coordinates' relative scales.
+	InvMetric []float64
 }
 
 // NoWarmup as Settings.Warmup asks for no warm-up at all: the step size comes
@@ -145,6 +155,13 @@ type ChainStats struct {
 	WarmupSeconds, SamplingSeconds float64
 	// GradientEvaluations counts calls of LogProbGrad, warm-up included.
 	GradientEvaluations int
+	// WarmupGradients counts the calls of LogProbGrad before the first kept
+	// draw (the initial point and step-size searches included).
+	WarmupGradients int
+	// Warmup describes the warm-up in stretches between metric updates (the
+	// first from the initial point to the end of the first slow window, the
+	// last the terminal buffer), in order; nil without warm-up.
+	Warmup []WarmupStretch
 	// Divergences counts divergent sampling iterations (energy error > 1000).
 	Divergences int
 	// TreeDepthHits counts sampling iterations that stopped at MaxTreeDepth.
@@ -163,6 +180,23 @@ type ChainStats struct {
 	// InvMetric is the adapted diagonal inverse metric (variance estimate of
 	// each unconstrained coordinate).
 	InvMetric []float64
+}
+
+// WarmupStretch is one stretch of a chain's warm-up between two metric
+// updates: where the warm-up's gradients went.
+type WarmupStretch struct {
+	// Start is the stretch's first warm-up iteration (0-based); Iterations
+	// how many it has.
+	Start, Iterations int
+	// Gradients counts the stretch's calls of LogProbGrad, the step-size
+	// search after its metric update included.
+	Gradients int
+	// MeanTreeDepth and MeanStepSize are the means over its iterations of
+	// the tree depth reached and of the step size used.
+	MeanTreeDepth, MeanStepSize float64
+	// TreeDepthHits counts its iterations that stopped at MaxTreeDepth;
+	// Divergences its divergent ones.
+	TreeDepthHits, Divergences int
 }
 
 // Column returns the draws of the named parameter per chain, as fresh slices
@@ -220,6 +254,16 @@ func Run(ctx context.Context, t Target, s *Settings) (*Fit, error) {
 	if len(names) == 0 {
 		return nil, errors.New("mcmc: target has no parameter names")
 	}
+	if m := set.InvMetric; m != nil {
+		if len(m) != t.Dim() {
+			return nil, fmt.Errorf("mcmc: initial metric has %d values, want %d", len(m), t.Dim())
+		}
+		for i, v := range m {
+			if !(v > 0) || math.IsInf(v, 1) {
+				return nil, fmt.Errorf("mcmc: initial metric: value %d is %v, want positive and finite", i, v)
+			}
+		}
+	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	chains := set.Only
@@ -269,6 +313,9 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 	rng := rand.New(rand.NewPCG(set.Seed, uint64(c)))
 	dim := t.Dim()
 	s := newNUTS(t, rng, set.MaxTreeDepth)
+	if set.InvMetric != nil {
+		s.setMetric(set.InvMetric)
+	}
 	q0 := make([]float64, dim)
 	if set.Init != nil {
 		if !set.Init(c, q0) {
@@ -298,19 +345,31 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 	wf := newWelford(dim)
 	varBuf := make([]float64, dim)
 
+	var stretches []WarmupStretch
+	cur := WarmupStretch{Start: 0}
+	gradsBefore := 0 // the initial point and step-size search count in the first stretch
 	start := time.Now()
 	for it := 0; it < set.Warmup; it++ {
 		if err := ctx.Err(); err != nil {
 			return Chain{}, err
 		}
+		cur.MeanStepSize += s.eps
 		s.transition()
+		cur.Iterations++
+		cur.MeanTreeDepth += float64(s.depth)
+		if s.depth >= set.MaxTreeDepth {
+			cur.TreeDepthHits++
+		}
+		if s.divergent {
+			cur.Divergences++
+		}
 		s.eps = da.Learn(s.accept)
 		inWin, endWin := sched.step()
 		if inWin {
 			wf.add(s.z.q)
 		}
 		if endWin {
-			wf.regularizedVariance(varBuf)
+			wf.regularizedVariance(varBuf, set.InvMetric)
 			for _, v := range varBuf {
 				if math.IsNaN(v) || math.IsInf(v, 0) {
 					return Chain{}, fmt.Errorf("mcmc: chain %d: numerical overflow in metric adaptation", c+1)
@@ -324,6 +383,14 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 			da.Mu = math.Log(10 * s.eps)
 			da.Restart()
 		}
+		if endWin || it == set.Warmup-1 {
+			cur.Gradients = s.gradEvals - gradsBefore
+			gradsBefore = s.gradEvals
+			cur.MeanTreeDepth /= float64(cur.Iterations)
+			cur.MeanStepSize /= float64(cur.Iterations)
+			stretches = append(stretches, cur)
+			cur = WarmupStretch{Start: it + 1}
+		}
 		if set.Recorder != nil {
 			if err := set.Recorder.Record(pos, it+1, true); err != nil {
 				return Chain{}, err
@@ -334,6 +401,7 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 		s.eps = da.Final()
 	}
 	warmSec := time.Since(start).Seconds()
+	warmGrads := s.gradEvals
 
 	draws := mat.NewDense(set.Draws, nNames, nil)
 	energy := make([]float64, set.Draws)
@@ -365,6 +433,8 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 	st.SamplingSeconds = time.Since(start).Seconds()
 	st.WarmupSeconds = warmSec
 	st.GradientEvaluations = s.gradEvals
+	st.WarmupGradients = warmGrads
+	st.Warmup = stretches
 	st.EBFMI = ebfmi(energy)
 	st.MeanLeapfrogs = float64(leapfrogs) / float64(set.Draws)
 	st.MeanAccept = acceptSum / float64(set.Draws)

@@ -582,3 +582,120 @@ func TestSkewedGamma(t *testing.T) {
 	checkMoment(t, "x^2", transformed(x, func(v float64) float64 { return v * v }), 0.75, 4)
 	checkMoment(t, "log x", transformed(x, math.Log), mathext.Digamma(0.5), 4)
 }
+
+// TestInitialMetric: a start metric at the target's scales keeps the
+// posterior and spares the warm-up the long trajectories of the identity
+// start. On 20 independent normals with sds from 0.003 to 3 (three orders of
+// magnitude, as a region panel's coordinates), the identity start hits the
+// maximum tree depth until the first metric window ends; the start at the
+// true variances does not, and takes fewer warm-up gradients. Moments are
+// checked against the closed form in both runs. Explicit ones give the
+// identity's draws bit for bit (the windows' shrinkage toward 1e-3 times
+// the start metric is then Stan's).
+func TestInitialMetric(t *testing.T) {
+	const n = 20
+	mu, sigma, vars, ones := make([]float64, n), make([]float64, n), make([]float64, n), make([]float64, n)
+	for i := range sigma {
+		sigma[i] = 0.003 * math.Pow(1000, float64(i)/(n-1))
+		mu[i] = float64(i) / 10
+		vars[i] = sigma[i] * sigma[i]
+		ones[i] = 1
+	}
+	m := &gaussian{mu: mu, sigma: sigma}
+	set := mcmc.Settings{Chains: 2, Warmup: 300, Draws: 500, Seed: 11}
+	run := func(inv []float64) *mcmc.Fit {
+		s := set
+		s.InvMetric = inv
+		fit, err := mcmc.Run(context.Background(), m, &s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, name := range fit.Names {
+			checkMoment(t, name, fit.Column(name), mu[i], 4)
+		}
+		return fit
+	}
+	warmGrads := func(f *mcmc.Fit) (g, hits int) {
+		for _, ch := range f.Chains {
+			g += ch.Stats.WarmupGradients
+			for _, w := range ch.Stats.Warmup {
+				hits += w.TreeDepthHits
+			}
+		}
+		return g, hits
+	}
+	ident, scaled := run(nil), run(vars)
+	gi, hi := warmGrads(ident)
+	gs, hs := warmGrads(scaled)
+	t.Logf("warm-up gradients: identity start %d (%d depth hits), start at the scales %d (%d depth hits)", gi, hi, gs, hs)
+	if hi == 0 || hs != 0 {
+		t.Errorf("tree-depth hits in warm-up: identity %d, want > 0; start at the scales %d, want 0", hi, hs)
+	}
+	if 2*gs > gi {
+		t.Errorf("warm-up gradients: start at the scales %d, want under half the identity's %d", gs, gi)
+	}
+	// The windows shrink toward 1e-3 times the start metric: from the start
+	// at the scales every adapted variance is σ² within a factor 3 (a
+	// window of a few hundred correlated draws), where Stan's shrinkage
+	// toward 1e-3 inflates the smallest (σ = 0.003) more.
+	for c, ch := range scaled.Chains {
+		for i, v := range ch.Stats.InvMetric {
+			if r := v / vars[i]; r < 1.0/3 || r > 3 {
+				t.Errorf("start at the scales, chain %d coordinate %d: adapted variance %.3g, want σ² = %.3g within a factor 3", c+1, i+1, v, vars[i])
+			}
+		}
+		t.Logf("chain %d, σ = 0.003: adapted variance / σ² %.2f from the identity start, %.2f from the scales", c+1, ident.Chains[c].Stats.InvMetric[0]/vars[0], ch.Stats.InvMetric[0]/vars[0])
+		if r := ident.Chains[c].Stats.InvMetric[0] / vars[0]; r < 3 {
+			t.Errorf("identity start, chain %d: smallest coordinate's adapted variance %.3g is σ² = %.3g times %.2f, want Stan's shrinkage to inflate it over 3", c+1, ident.Chains[c].Stats.InvMetric[0], vars[0], r)
+		}
+	}
+	withOnes := run(ones)
+	for c := range ident.Chains {
+		if !mat.Equal(ident.Chains[c].Draws, withOnes.Chains[c].Draws) {
+			t.Errorf("chain %d: explicit identity metric changed the draws", c+1)
+		}
+	}
+	for _, bad := range [][]float64{vars[:3], append(append([]float64(nil), vars[:n-1]...), 0), append(append([]float64(nil), vars[:n-1]...), math.Inf(1))} {
+		s := set
+		s.InvMetric = bad
+		if _, err := mcmc.Run(context.Background(), m, &s); err == nil {
+			t.Errorf("initial metric %v: got nil error", bad[len(bad)-1])
+		}
+	}
+}
+
+// TestWarmupStretches: the warm-up's stretches cover its iterations in
+// order, one per metric window plus the terminal buffer, and their
+// gradients add up to the warm-up's, which with the sampling's make the
+// chain's total.
+func TestWarmupStretches(t *testing.T) {
+	const warm = 300
+	fit, err := mcmc.Run(context.Background(), correlated2{1, 3, 0.5}, &mcmc.Settings{Chains: 1, Warmup: warm, Draws: 100, Seed: 3})
+	if err != nil {
+		t.Fatal(err)
+	}
+	st := fit.Chains[0].Stats
+	if got, want := len(st.Warmup), len(mcmc.Windows(warm))+1; got != want {
+		t.Fatalf("%d stretches, want %d (windows %v and the terminal buffer)", got, want, mcmc.Windows(warm))
+	}
+	next, grads := 0, 0
+	for i, w := range st.Warmup {
+		if w.Start != next || w.Iterations < 1 {
+			t.Errorf("stretch %d starts at %d with %d iterations, want start %d", i, w.Start, w.Iterations, next)
+		}
+		if i < len(st.Warmup)-1 && w.Start+w.Iterations-1 != mcmc.Windows(warm)[i] {
+			t.Errorf("stretch %d ends at %d, want the window end %d", i, w.Start+w.Iterations-1, mcmc.Windows(warm)[i])
+		}
+		if !(w.MeanTreeDepth >= 1) || !(w.MeanStepSize > 0) {
+			t.Errorf("stretch %d: mean depth %v, step %v", i, w.MeanTreeDepth, w.MeanStepSize)
+		}
+		next += w.Iterations
+		grads += w.Gradients
+	}
+	if next != warm || grads != st.WarmupGradients {
+		t.Errorf("stretches cover %d iterations and %d gradients, want %d and %d", next, grads, warm, st.WarmupGradients)
+	}
+	if sampling := st.GradientEvaluations - st.WarmupGradients; sampling < 100 {
+		t.Errorf("sampling gradients %d, want at least one per draw", sampling)
+	}
+}

@@ -21,6 +21,7 @@ type PanelTarget struct {
 	p       *Panel
 	names   []string
 	lay     *PanelLayout
+	coords  *Coords // the coordinates compiled in
 	G, T    int
 	dim     int
 	par     []param // the national-shaped part, in its Names order, then the spreads
@@ -62,6 +63,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			return nil, err
 		}
 	}
+	t.coords = coords
 	pooled := p.pooled()
 	addTau := func(name string, pr Prior) (int, error) {
 		if _, _, err := st0.fit(name, pr, PositiveReal, false); err != nil {
@@ -1068,4 +1070,34 @@ func (c *panelIntercept) backward(grad, nat, gn, sw, gS []float64) {
 	}
 	gn[c.mu] += gmu
 	gn[c.tauPos] += gtau
+}
+
+// CoordNames names each sampling coordinate (len Dim()): a shared or hyper
+// parameter's name for its unconstrained value, "v:NAME" for a region's
+// coordinate in a hierarchical block (its intercept's conditional or
+// partially non-centred coordinate, or its coefficient's), NAME being the
+// region's parameter in the draw.
+func (t *PanelTarget) CoordNames() []string {
+	out := make([]string, t.dim)
+	for i := range out {
+		out[i] = fmt.Sprintf("x[%d]", i)
+	}
+	for _, p := range t.par {
+		if p.free >= 0 {
+			out[p.free] = p.name
+		}
+	}
+	if t.inter.tauPos >= 0 {
+		for g := 0; g < t.G; g++ {
+			out[t.inter.block+g] = "v:" + t.names[t.lay.mu.Start+g]
+		}
+	}
+	for _, c := range t.coefs {
+		if c.tauPos >= 0 {
+			for g := 0; g < t.G; g++ {
+				out[c.block+g] = "v:" + t.names[c.slot+g]
+			}
+		}
+	}
+	return out
 }

@@ -405,3 +405,65 @@ func TestPanelRegionDrift(t *testing.T) {
 		}
 	}
 }
+
+// TestPanelStart: the start the panel offers the sampler (StartPoint,
+// StartMetric) on 6 regions of 104 weeks: the start point's log density is
+// above that of every one of 20 of the sampler's usual starts (uniform in
+// (-2, 2)); the conditional intercepts' coordinates have their exact
+// posterior variance 1 and sigma's log 1/(2 region-weeks); every variance
+// is in (0, 1]. With one region there is no start. (Whether the metric
+// pays is measured by BenchmarkPanelFit: warm-up gradients per stretch.)
+func TestPanelStart(t *testing.T) {
+	for _, b := range panelBuilds[:2] {
+		p := testPanel(t, 6, 104, b.build, true)
+		var err error
+		if p.Coords, err = ChooseCoordinates(p); err != nil {
+			t.Fatal(err)
+		}
+		tg, err := p.Target()
+		if err != nil {
+			t.Fatal(err)
+		}
+		x0 := make([]float64, tg.Dim())
+		if !tg.StartPoint(x0) {
+			t.Fatalf("%s: no start point", b.name)
+		}
+		lp0 := tg.LogProb(x0)
+		rng := rand.New(rand.NewPCG(7, 7))
+		x := make([]float64, tg.Dim())
+		for rep := 0; rep < 20; rep++ {
+			for i := range x {
+				x[i] = -2 + 4*rng.Float64()
+			}
+			if lp := tg.LogProb(x); !(lp0 > lp) {
+				t.Errorf("%s: log density %.6g at the start point, %.6g at a uniform start", b.name, lp0, lp)
+			}
+		}
+		m := tg.StartMetric()
+		if len(m) != tg.Dim() {
+			t.Fatalf("%s: start metric of %d values, want %d", b.name, len(m), tg.Dim())
+		}
+		names := tg.CoordNames()
+		for i, v := range m {
+			if !(v > 0 && v <= 1) {
+				t.Errorf("%s: %s start variance %v, want in (0, 1]", b.name, names[i], v)
+			}
+		}
+		for g := 0; g < tg.G; g++ {
+			if v := m[tg.inter.block+g]; v != 1 {
+				t.Errorf("%s: %s start variance %v, want 1", b.name, names[tg.inter.block+g], v)
+			}
+		}
+		if got, want := m[tg.par[tg.sigma].free], 1/(2*float64(tg.nObs)); math.Abs(got-want) > 1e-15 {
+			t.Errorf("%s: sigma's start variance %v, want %v", b.name, got, want)
+		}
+	}
+	p := testPanel(t, 1, 30, Demand, false)
+	tg, err := p.Target()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if m, ok := tg.StartMetric(), tg.StartPoint(make([]float64, tg.Dim())); m != nil || ok {
+		t.Errorf("one region: start metric %v and point %v, want none", m, ok)
+	}
+}

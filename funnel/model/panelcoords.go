@@ -2,6 +2,7 @@ package model
 
 import (
 	"math"
+	"slices"
 
 	"gonum.org/v1/gonum/mat"
 
@@ -39,6 +40,22 @@ type Coords struct {
 	TauCoef []float64
 	SEMu    []float64
 	SECoef  [][]float64
+	// SEReg holds, per regressor of a region's stage (Stage.Regressors'
+	// order; NaN for gamma's and where no region's least squares has it),
+	// the shared coefficient's standard error: the regions' least-squares
+	// errors combined by precision.
+	SEReg []float64
+	// The least-squares point behind them (StartPoint): the shared
+	// regressors' combined estimates (RegEst, as SEReg), the mean of the
+	// regions' intercepts (MuEst), the residual sd over every region
+	// (SigmaEst), and per coefficient the log of its precision-weighted
+	// mean (CoefMid) and of each region's estimate (CoefLog; NaN where a
+	// region's estimate is not positive or it never runs the channel).
+	RegEst   []float64
+	MuEst    float64
+	SigmaEst float64
+	CoefMid  []float64
+	CoefLog  [][]float64
 }
 
 // Uniform returns coordinates with every weight lam: 1 centred, 0
@@ -100,6 +117,9 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 	for k := range hier {
 		est[k], se[k] = make([]float64, G), make([]float64, G)
 	}
+	regPrec := make([]float64, len(p.Stages[0].Regressors))
+	regSum := make([]float64, len(regPrec))
+	ss, nss := 0.0, 0.0
 	for g, st := range p.Stages {
 		cols := [][]float64{}
 		ones := make([]float64, len(st.Y))
@@ -137,6 +157,16 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 			cols = append(cols, x)
 		}
 		b, cov, resSD, ok := leastSquares(cols, st.Y, st.Mask)
+		if ok {
+			j := 1
+			for i, r := range st.Regressors {
+				if r.Name != QueryCoef {
+					regPrec[i] += 1 / cov[j]
+					regSum[i] += b[j] / cov[j]
+					j++
+				}
+			}
+		}
 		for k := range hier {
 			est[k][g], se[k][g] = math.NaN(), math.Inf(1)
 			if ok && hierCol[k] >= 0 {
@@ -156,7 +186,11 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 			}
 		}
 		c.SEMu[g] = resSD / math.Sqrt(float64(n))
+		ss += resSD * resSD * float64(n)
+		nss += float64(n)
 	}
+	c.SigmaEst = math.Sqrt(ss / nss)
+	c.MuEst = stat.Mean(muHat)
 	// The spread is estimated from G regions: a low plausible value, the
 	// estimate times 1 - 1.64/sqrt(2(G-1)) (the one-sided 95% bound of a
 	// normal sd from G values, by its standard error sd/sqrt(2(G-1))),
@@ -177,11 +211,27 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 		}
 		return out
 	}
+	c.SEReg, c.RegEst = make([]float64, len(regPrec)), make([]float64, len(regPrec))
+	for i, pr := range regPrec {
+		c.SEReg[i], c.RegEst[i] = math.NaN(), math.NaN()
+		if pr > 0 {
+			c.SEReg[i], c.RegEst[i] = 1/math.Sqrt(pr), regSum[i]/pr
+		}
+	}
 	c.TauMu = math.Max(momentSpread(muHat, muSE), minTauMu)
 	c.Mu = weight(c.TauMu, c.SEMu)
 	c.TauCoef = make([]float64, len(hier))
 	c.SECoef = make([][]float64, len(hier))
+	c.CoefMid, c.CoefLog = make([]float64, len(hier)), make([][]float64, len(hier))
 	for k := range hier {
+		c.CoefMid[k] = math.NaN()
+		c.CoefLog[k] = make([]float64, G)
+		for g, e := range est[k] {
+			c.CoefLog[k][g] = math.NaN()
+			if e > 0 && !math.IsInf(se[k][g], 1) {
+				c.CoefLog[k][g] = math.Log(e)
+			}
+		}
 		// precision-weighted mean estimate: the log scale's unit
 		var num, den float64
 		for g := range est[k] {
@@ -201,6 +251,7 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 			continue
 		}
 		m := num / den
+		c.CoefMid[k] = math.Log(m)
 		var e, s []float64
 		for g := range est[k] {
 			if !math.IsInf(se[k][g], 1) {
@@ -281,3 +332,195 @@ func leastSquares(cols [][]float64, y []float64, mask []bool) (b, vars []float64
 	}
 	return b, vars, math.Sqrt(s2), true
 }
+
+// StartMetric returns a diagonal inverse metric for the warm-up to start
+// from (mcmc.Settings.InvMetric): each sampling coordinate's posterior
+// variance as the least squares behind the coordinates (ChooseCoordinates)
+// predict it, nil with one region (no estimates). The identity, the
+// sampler's usual start, is off by two orders of magnitude on a panel (a
+// centred region's log coefficient has sd ~0.05, the conditional
+// intercepts' coordinates exactly 1, sigma's log ~1/sqrt(2 region-weeks)),
+// so the early warm-up runs trajectories of the maximum length until its
+// first metric window ends. The estimates need only be the right order of
+// magnitude: the warm-up's windows replace them.
+//
+// No variance is above 1, the identity's: a coordinate the data leave to
+// its prior has about that scale (the default priors are of unit order on
+// the sampling coordinates). Per coordinate, with tau a block's spread and
+// s[g] region g's standard error (the normal approximations of the
+// hierarchical normal model, Gelman et al., Bayesian Data Analysis, 3rd
+// ed., chapter 5):
+//   - a region's coordinate in a block: centred, the precision-weighted
+//     variance 1/(1/s^2 + 1/tau^2); non-centred (eta), s^2/(s^2 + tau^2);
+//     a conditional intercept's, exactly 1;
+//   - a hyperparameter (the intercepts' mean, a coefficient's log median):
+//     1/sum_g 1/(tau^2 + s[g]^2);
+//   - a spread's log: 1/(2 n), n = sum_g tau^2/(tau^2 + s[g]^2) the regions
+//     that inform it (the large-sample variance of a log sd);
+//   - sigma's log: 1/(2 region-weeks);
+//   - a shared regressor's coefficient on the real line: its combined
+//     least-squares variance (Coords.SEReg);
+//   - any other (the transforms' parameters): 1 over the density's
+//     curvature in that coordinate at the start point (StartPoint), by
+//     central differences of the gradient; 1 where that is not positive.
+//     This is the conditional variance, smaller than the marginal one where
+//     the coordinate is correlated with others; the windows widen it.
+func (t *PanelTarget) StartMetric() []float64 {
+	c := t.coords
+	x0 := make([]float64, t.dim)
+	if !t.StartPoint(x0) {
+		return nil
+	}
+	m := make([]float64, t.dim)
+	known := make([]bool, t.dim)
+	set := func(free int, v float64) {
+		if free >= 0 && v > 0 && !math.IsInf(v, 1) {
+			m[free], known[free] = math.Min(v, 1), true
+		}
+	}
+	nb := t.lay.base.Len()
+	// the blocks' regions and hyperparameters; informing regions per spread
+	block := func(start int, lam []float64, tau float64, se []float64, cond bool) (hyperVar, nInf float64) {
+		prec := 0.0
+		for g, s := range se {
+			switch {
+			case cond:
+				set(start+g, 1)
+			case lam[g] == 1:
+				set(start+g, 1/(1/(s*s)+1/(tau*tau)))
+			default:
+				set(start+g, s*s/(s*s+tau*tau))
+			}
+			if !math.IsInf(s, 1) {
+				prec += 1 / (tau*tau + s*s)
+				nInf += tau * tau / (tau*tau + s*s)
+			}
+		}
+		return 1 / prec, nInf // 1 (the cap) when no region informs it
+	}
+	spread := func(free int, n float64) {
+		set(free, 1/(2*n)) // 1 (the cap) when no region informs it
+	}
+	hv, n := block(t.inter.block, c.Mu, c.TauMu, c.SEMu, c.MuConditional)
+	set(t.inter.free, hv)
+	spread(t.par[nb].free, n)
+	for k, pc := range t.coefs {
+		hv, n := block(pc.block, c.Coef[k], c.TauCoef[k], c.SECoef[k], false)
+		set(pc.free, hv)
+		spread(t.par[nb+1+k].free, n)
+	}
+	if t.par[t.sigma].sup == PositiveReal {
+		set(t.par[t.sigma].free, 1/(2*float64(t.nObs)))
+	}
+	for i, r := range t.p.Stages[0].Regressors {
+		if r.Name == QueryCoef || i >= len(c.SEReg) {
+			continue
+		}
+		for _, pr := range t.regs {
+			if pr.k == t.lay.base.RegressorSlot(i) && t.par[pr.k].sup == Real {
+				set(t.par[pr.k].free, c.SEReg[i]*c.SEReg[i])
+			}
+		}
+	}
+	// the rest from the curvature at the start point
+	const h = 1e-4
+	gp, gm, x := make([]float64, t.dim), make([]float64, t.dim), slices.Clone(x0)
+	for i := range m {
+		if known[i] {
+			continue
+		}
+		m[i] = 1
+		x[i] = x0[i] + h
+		lp := t.LogProbGrad(gp, x)
+		x[i] = x0[i] - h
+		lm := t.LogProbGrad(gm, x)
+		x[i] = x0[i]
+		if curv := -(gp[i] - gm[i]) / (2 * h); !notFinite(lp+lm) && curv > 0 && !math.IsInf(curv, 1) {
+			m[i] = math.Min(1/curv, 1)
+		}
+	}
+	return m
+}
+
+// StartPoint writes into dst (len Dim()) the least-squares point behind
+// the coordinates in sampling coordinates, a start for the chains near the
+// posterior's bulk instead of the sampler's uniform draw in (-2, 2) on
+// every coordinate (which puts sigma's log two orders of magnitude of its
+// posterior sd away), and reports whether it could (false with one region
+// or intercepts not in their conditional coordinates). The point: every
+// transform at the centre of its prior (retention 0.5, half-saturation 1,
+// shape 2, as ChooseCoordinates), the shared regressors at their combined
+// estimates, sigma at the residual sd, the intercepts' spread at its moment estimate,
+// each coefficient's median at its precision-weighted mean and each region
+// at its own estimate (at the median where that is not positive; a
+// coefficient no region's least squares finds positive starts at
+// startNoEffect everywhere, as those fits, near no effect), each spread at
+// its moment estimate but at most 1 (a factor e across regions), the
+// intercepts' conditional coordinates at 0 (each intercept at its
+// conditional mean). Any point with a finite density serves: only the
+// warm-up's length depends on it.
+func (t *PanelTarget) StartPoint(dst []float64) bool {
+	c := t.coords
+	if len(dst) != t.dim {
+		panic("model: dimension mismatch")
+	}
+	if t.inter.tauPos < 0 || c == nil || c.SEMu == nil || !c.MuConditional {
+		return false
+	}
+	clear(dst)
+	set := func(i int, v float64) {
+		if p := t.par[i]; p.free >= 0 && !notFinite(p.unconstrain(v)) {
+			dst[p.free] = p.unconstrain(v)
+		}
+	}
+	nb := t.lay.base.Len()
+	set(t.inter.mu, c.MuEst)
+	set(nb, c.TauMu)
+	set(t.sigma, c.SigmaEst)
+	for i, r := range t.p.Stages[0].Regressors {
+		if r.Name != QueryCoef && i < len(c.RegEst) && !math.IsNaN(c.RegEst[i]) {
+			set(t.lay.base.RegressorSlot(i), c.RegEst[i])
+		}
+	}
+	for _, ch := range t.chans {
+		if !ch.linear {
+			set(ch.k[1], 0.5)
+			set(ch.k[2], 1)
+			set(ch.k[3], 2)
+		}
+	}
+	for k, pc := range t.coefs {
+		tau := math.Min(c.TauCoef[k], 1)
+		set(nb+1+k, tau)
+		if pc.free < 0 {
+			continue
+		}
+		lref := 0.0 // log href at the start's transform
+		if pc.rescale {
+			href := pc.ch.abar
+			if !pc.ch.linear {
+				href = transform.Hill(pc.ch.abar, 1, 2)
+			}
+			lref = math.Log(href)
+		}
+		mid := c.CoefMid[k]
+		if math.IsNaN(mid) {
+			mid = math.Log(startNoEffect)
+		}
+		lu := mid + lref
+		dst[pc.free] = lu
+		for g, lam := range pc.lam {
+			l := lu
+			if e := c.CoefLog[k][g]; !math.IsNaN(e) && !math.IsNaN(c.CoefMid[k]) {
+				l = e + lref
+			}
+			dst[pc.block+g] = (l - (1-lam)*lu) / math.Pow(tau, 1-lam)
+		}
+	}
+	return true
+}
+
+// startNoEffect is the start of a coefficient whose least-squares estimates
+// are not positive: a hundredth of the response's scale (every series is
+// scaled to mean 1), near the no effect those fits found.
+const startNoEffect = 0.01

@@ -3,6 +3,8 @@ package pipeline
 import (
 	"context"
 	"fmt"
+	"math"
+	"math/rand/v2"
 	"slices"
 
 	"spillway/funnel/lifts"
@@ -52,7 +54,7 @@ func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcm
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, p.Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, panelStart(tg, settings(s, k)), hook, p.Name); err != nil {
 			return nil, err
 		}
 	}
@@ -98,3 +100,47 @@ func AssemblePanelLifts(ps *model.PanelScaled, o model.Options, tests []lifts.Te
 	}
 	return f, nil
 }
+
+// panelStart returns s with the panel's start (unless s has its own
+// metric or initial point): the warm-up's initial metric from the
+// least-squares errors behind the coordinates (model.PanelTarget.StartMetric)
+// and each chain's initial point drawn around the least-squares point
+// (StartPoint), uniform within two of those sds on every coordinate, so
+// the chains start apart, as R-hat needs, but near the posterior's bulk.
+// Chain c's draw uses its own stream of the seed, so a chain sampled alone
+// (Settings.Only) starts where it would in the whole run. On the 40-region
+// demand stage the sampler's usual start (identity metric, uniform in
+// (-2, 2)) spent 72,000 gradients per chain on its first 100 warm-up
+// iterations (step 0.002, 67 trees at the maximum depth).
+func panelStart(tg *model.PanelTarget, s mcmc.Settings) mcmc.Settings {
+	if s.InvMetric != nil || s.Init != nil {
+		return s
+	}
+	m := tg.StartMetric()
+	x0 := make([]float64, tg.Dim())
+	if m == nil || !tg.StartPoint(x0) {
+		return s
+	}
+	s.InvMetric = m
+	seed := s.Seed
+	s.Init = func(chain int, dst []float64) bool {
+		rng := rand.New(rand.NewPCG(seed, startStream+uint64(chain)))
+		ev := tg.Clone()
+		grad := make([]float64, len(dst))
+		for try := 0; try < mcmc.InitTries; try++ {
+			for i := range dst {
+				dst[i] = x0[i] + (4*rng.Float64()-2)*math.Sqrt(m[i])
+			}
+			if lp := ev.LogProbGrad(grad, dst); !math.IsNaN(lp) && !math.IsInf(lp, 0) {
+				return true
+			}
+		}
+		copy(dst, x0)
+		return true
+	}
+	return s
+}
+
+// startStream offsets the streams of the chains' initial points from the
+// chains' own (rand.NewPCG(seed, chain), mcmc.Run).
+const startStream = 1 << 40

@@ -18,10 +18,14 @@ import (
 // of a panel simulated from the region model, 40 regions x 156 weeks (two
 // upper channels, one paid search, one control; the last of every eight
 // regions never runs audio, the first is ten times the others' size), 4
-// chains x (1000 + 1000), the coordinates FitPanel chooses. Per stage it
+// chains x (1000 + 1000), the coordinates and start FitPanel chooses
+// (SPILLWAY_PANEL_START=identity: the sampler's usual start instead, the
+// identity metric and uniform initial points). Per stage it
 // logs wall and CPU (user + system) seconds, the load average beside them,
 // the worst R-hat and the least bulk and tail ESS over every parameter,
-// divergences, leapfrog steps per draw, step size and gradient evaluations;
+// divergences, leapfrog steps per draw, step size and gradient evaluations
+// (warm-up and sampling, and per warm-up stretch between metric updates,
+// summed over the chains);
 // it reports the total wall, the total CPU seconds, their half (the wall
 // two idle cores would take, the chains running two at a time) and the
 // peak resident memory. SPILLWAY_PANEL_BENCH=G,T[,warmup,draws] sets
@@ -84,6 +88,9 @@ func BenchmarkPanelFit(b *testing.B) {
 				b.Fatal(err)
 			}
 			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
+			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
+				set = panelStart(tg, set)
+			}
 			if memOnly {
 				set.Warmup, set.MaxTreeDepth = mcmc.NoWarmup, 1
 			}
@@ -95,13 +102,30 @@ func BenchmarkPanelFit(b *testing.B) {
 			}
 			w := time.Since(t0).Seconds()
 			c1, _ := usage()
-			g := 0
+			g, gw := 0, 0
+			stretches := make([]mcmc.WarmupStretch, len(fit.Chains[0].Stats.Warmup))
 			for _, c := range fit.Chains {
 				g += c.Stats.GradientEvaluations
+				gw += c.Stats.WarmupGradients
+				for i, w := range c.Stats.Warmup {
+					if i < len(stretches) {
+						s := &stretches[i]
+						s.Start, s.Iterations = w.Start, s.Iterations+w.Iterations
+						s.Gradients += w.Gradients
+						s.TreeDepthHits += w.TreeDepthHits
+						s.Divergences += w.Divergences
+						s.MeanTreeDepth += w.MeanTreeDepth / float64(len(fit.Chains))
+						s.MeanStepSize += w.MeanStepSize / float64(len(fit.Chains))
+					}
+				}
 			}
 			wall, cpu, grads = wall+w, cpu+c1-c0, grads+g
-			line := fmt.Sprintf("%d x %d, 4 x (%d + %d): %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%.0f us cpu each), load average %s",
-				G, T, warm, draws, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, 1e6*(c1-c0)/float64(g), loadAverage())
+			line := fmt.Sprintf("%d x %d, 4 x (%d + %d): %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%d warm-up, %d sampling; %.0f us cpu each), load average %s",
+				G, T, warm, draws, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, gw, g-gw, 1e6*(c1-c0)/float64(g), loadAverage())
+			for _, s := range stretches {
+				line += fmt.Sprintf("\n  warm-up from iteration %4d: %6d gradients (%4.0f per iteration), mean depth %.2f, step %.4f, %d at the maximum depth, %d divergent",
+					s.Start, s.Gradients, float64(s.Gradients)/float64(s.Iterations), s.MeanTreeDepth, s.MeanStepSize, s.TreeDepthHits, s.Divergences)
+			}
 			b.Log(line)
 			fmt.Fprintln(os.Stderr, line) // at once: a long run's log lines otherwise wait for its end
 		}
