@@ -143,3 +143,29 @@ func (j *PanelJoint) logProb(grad, x []float64) float64 {
 	}
 	return lp + tie
 }
+
+// StartMetric returns the panels' start metrics one after another
+// (PanelTarget.StartMetric), or nil when a panel has none.
+func (j *PanelJoint) StartMetric() []float64 {
+	var m []float64
+	for _, t := range j.parts {
+		mk := t.StartMetric()
+		if mk == nil {
+			return nil
+		}
+		m = append(m, mk...)
+	}
+	return m
+}
+
+// StartPoint writes each panel's start point into its part of dst
+// (PanelTarget.StartPoint) and reports whether every panel has one. The
+// lift tests do not move it: the start only has to be near the bulk.
+func (j *PanelJoint) StartPoint(dst []float64) bool {
+	for k, t := range j.parts {
+		if !t.StartPoint(dst[j.off[k]:j.off[k+1]]) {
+			return false
+		}
+	}
+	return true
+}

@@ -112,7 +112,7 @@ func AssemblePanelLifts(ps *model.PanelScaled, o model.Options, tests []lifts.Te
 // demand stage the sampler's usual start (identity metric, uniform in
 // (-2, 2)) spent 72,000 gradients per chain on its first 100 warm-up
 // iterations (step 0.002, 67 trees at the maximum depth).
-func panelStart(tg *model.PanelTarget, s mcmc.Settings) mcmc.Settings {
+func panelStart(tg startTarget, s mcmc.Settings) mcmc.Settings {
 	if s.InvMetric != nil || s.Init != nil {
 		return s
 	}
@@ -139,6 +139,14 @@ func panelStart(tg *model.PanelTarget, s mcmc.Settings) mcmc.Settings {
 		return true
 	}
 	return s
+}
+
+// startTarget is a panel target, or panels joined by lift tests, that
+// offers the sampler a start.
+type startTarget interface {
+	mcmc.Target
+	StartMetric() []float64
+	StartPoint(dst []float64) bool
 }
 
 // startStream offsets the streams of the chains' initial points from the
