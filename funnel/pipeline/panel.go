@@ -54,7 +54,7 @@ func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcm
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, panelStart(tg, settings(s, k)), hook, p.Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, settings(s, k)), hook, p.Name); err != nil {
 			return nil, err
 		}
 	}
@@ -101,7 +101,7 @@ func AssemblePanelLifts(ps *model.PanelScaled, o model.Options, tests []lifts.Te
 	return f, nil
 }
 
-// panelStart returns s with the panel's start (unless s has its own
+// PanelStart returns s with the panel's start (unless s has its own
 // metric or initial point): the warm-up's initial metric from the
 // least-squares errors behind the coordinates (model.PanelTarget.StartMetric)
 // and each chain's initial point drawn around the least-squares point
@@ -112,7 +112,7 @@ func AssemblePanelLifts(ps *model.PanelScaled, o model.Options, tests []lifts.Te
 // demand stage the sampler's usual start (identity metric, uniform in
 // (-2, 2)) spent 72,000 gradients per chain on its first 100 warm-up
 // iterations (step 0.002, 67 trees at the maximum depth).
-func panelStart(tg startTarget, s mcmc.Settings) mcmc.Settings {
+func PanelStart(tg startTarget, s mcmc.Settings) mcmc.Settings {
 	if s.InvMetric != nil || s.Init != nil {
 		return s
 	}

@@ -89,7 +89,7 @@ func BenchmarkPanelFit(b *testing.B) {
 			}
 			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
 			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
-				set = panelStart(tg, set)
+				set = PanelStart(tg, set)
 			}
 			if memOnly {
 				set.Warmup, set.MaxTreeDepth = mcmc.NoWarmup, 1

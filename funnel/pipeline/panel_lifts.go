@@ -54,7 +54,7 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 	if joint == 2 {
 		name = "demand and outcome"
 	}
-	fit, wall, err := run(ctx, j, panelStart(j, settings(s, 0)), hook, name)
+	fit, wall, err := run(ctx, j, PanelStart(j, settings(s, 0)), hook, name)
 	if err != nil {
 		return nil, err
 	}
@@ -72,7 +72,7 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", panels[k].Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, panelStart(tg, settings(s, k)), hook, panels[k].Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, settings(s, k)), hook, panels[k].Name); err != nil {
 			return nil, err
 		}
 	}

@@ -87,8 +87,8 @@ func panelAgainstStan(t *testing.T, wait time.Duration) {
 		}
 		// fit.R's adapt_delta: the same sampler settings as the reference,
 		// 4 x (1000 + 1000) at a target acceptance of 0.95, from the start
-		// FitPanel gives the chains (panelStart).
-		set := panelStart(tg, mcmc.Settings{Seed: 40 + uint64(k), TargetAccept: 0.95})
+		// FitPanel gives the chains (PanelStart).
+		set := PanelStart(tg, mcmc.Settings{Seed: 40 + uint64(k), TargetAccept: 0.95})
 		t0 := time.Now()
 		if fits[k], err = mcmc.Run(context.Background(), tg, &set); err != nil {
 			t.Fatal(err)

@@ -156,6 +156,7 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 		}
 		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k),
 			TargetAccept: pipeline.DefaultTargetAccept}
+		set = pipeline.PanelStart(tg, set) // the same start as fit's
 		if f.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
