@@ -255,19 +255,34 @@ func (c LiftCheck) Reconciled() bool { return c.Verdict() == LiftAgrees }
 // the test with the fit's options and settings (seed moved by 1000 times
 // the test's place). hook reports the refits' progress and may be nil.
 func (f *Fitted) CheckLifts(ctx context.Context, hook StageHook) ([]LiftCheck, error) {
-	out := make([]LiftCheck, len(f.Lifts))
-	for i := range f.Lifts {
-		draws := f.liftDraws(f, i)
-		c := loCheck(f.Tests[i], draws)
-		if c.K > MaxParetoK {
-			rest := append(append([]lifts.Test(nil), f.Tests[:i]...), f.Tests[i+1:]...)
-			set := f.settings
-			set.Seed += 1000 * uint64(i+1)
+	return checkEach(f.Tests, f.settings, func(i int) []float64 { return f.liftDraws(f, i) },
+		func(rest []lifts.Test, set mcmc.Settings, i int) ([]float64, error) {
 			g, err := fitLifts(ctx, f.Data, f.options, rest, set, hook, false)
 			if err != nil {
-				return nil, fmt.Errorf("lift test (line %d) left out: %w", f.Tests[i].Line, err)
+				return nil, err
 			}
-			pred := refitCheck(f.Tests[i], f.liftDraws(g, i))
+			return f.liftDraws(g, i), nil
+		})
+}
+
+// checkEach is CheckLifts' loop, for a national fit and a region panel
+// alike: draws(i) is test i's lift under the fit's paired draws; refit(rest,
+// set, i) fits without test i (the other tests, the fit's settings with the
+// seed moved by 1000 times the test's place) and returns test i's lift
+// under that fit's draws.
+func checkEach(tests []lifts.Test, settings mcmc.Settings, draws func(i int) []float64, refit func(rest []lifts.Test, set mcmc.Settings, i int) ([]float64, error)) ([]LiftCheck, error) {
+	out := make([]LiftCheck, len(tests))
+	for i := range tests {
+		c := loCheck(tests[i], draws(i))
+		if c.K > MaxParetoK {
+			rest := append(append([]lifts.Test(nil), tests[:i]...), tests[i+1:]...)
+			set := settings
+			set.Seed += 1000 * uint64(i+1)
+			d, err := refit(rest, set, i)
+			if err != nil {
+				return nil, fmt.Errorf("lift test (line %d) left out: %w", tests[i].Line, err)
+			}
+			pred := refitCheck(tests[i], d)
 			c.Without, c.WithoutSD, c.Z, c.P, c.Refit = pred.Without, pred.WithoutSD, pred.Z, pred.P, true
 		}
 		out[i] = c

@@ -104,24 +104,14 @@ func (f *PanelFitted) bindLifts() (*model.PanelJoint, error) {
 // out by Pareto-smoothed importance weights or, above MaxParetoK, by a refit
 // of the demand and outcome panels without it.
 func (f *PanelFitted) CheckLifts(ctx context.Context, hook StageHook) ([]LiftCheck, error) {
-	out := make([]LiftCheck, len(f.Lifts))
-	for i := range f.Lifts {
-		draws := f.liftDraws(f, i)
-		c := loCheck(f.Tests[i], draws)
-		if c.K > MaxParetoK {
-			rest := append(append([]lifts.Test(nil), f.Tests[:i]...), f.Tests[i+1:]...)
-			set := f.settings
-			set.Seed += 1000 * uint64(i+1)
+	return checkEach(f.Tests, f.settings, func(i int) []float64 { return f.liftDraws(f, i) },
+		func(rest []lifts.Test, set mcmc.Settings, i int) ([]float64, error) {
 			g, err := fitPanelLifts(ctx, f.Data, f.options, rest, set, hook, false)
 			if err != nil {
-				return nil, fmt.Errorf("lift test (line %d) left out: %w", f.Tests[i].Line, err)
+				return nil, err
 			}
-			pred := refitCheck(f.Tests[i], f.liftDraws(g, i))
-			c.Without, c.WithoutSD, c.Z, c.P, c.Refit = pred.Without, pred.WithoutSD, pred.Z, pred.P, true
-		}
-		out[i] = c
-	}
-	return out, nil
+			return f.liftDraws(g, i), nil
+		})
 }
 
 // liftDraws returns test i's lift (the metric's units) under every paired
