@@ -439,7 +439,7 @@ func TestPanelRecovery(t *testing.T) {
 
 // fitPanelTwoStages fits a panel's demand and outcome stages (the split
 // needs no naive stage) and pairs their draws, logging each stage's
-// convergence.
+// convergence; each stage starts as FitPanel starts it (PanelStart).
 func fitPanelTwoStages(t *testing.T, ps *model.PanelScaled, set mcmc.Settings) *mediation.PanelInputs {
 	t.Helper()
 	panels, err := model.PanelStages(ps, model.Options{})
@@ -457,7 +457,7 @@ func fitPanelTwoStages(t *testing.T, ps *model.PanelScaled, set mcmc.Settings) *
 			t.Fatal(err)
 		}
 		var wall float64
-		if fits[k], wall, err = run(context.Background(), tg, settings(set, k), nil, p.Name); err != nil {
+		if fits[k], wall, err = run(context.Background(), tg, PanelStart(tg, settings(set, k)), nil, p.Name); err != nil {
 			t.Fatal(err)
 		}
 		t.Logf("%d regions: %v", len(ps.Regions), diagnose(StageNames[k], fits[k], wall))
