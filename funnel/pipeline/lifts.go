@@ -299,12 +299,19 @@ func (f *Fitted) liftDraws(g *Fitted, i int) []float64 {
 		div = f.Data.QueriesScale
 	}
 	term := f.Lifts[i].Clone().(*model.LiftTest)
+	return pairedLifts(g.Fits[0], g.Fits[1], div, term.Lift)
+}
+
+// pairedLifts returns scale * lift(demand draw, outcome draw) for every
+// paired draw of the demand and outcome fits, chain by chain (outcome may
+// be nil: a test of the queries fitted without the outcome stage).
+func pairedLifts(demand, outcome *mcmc.Fit, scale float64, lift func(vd, vy []float64) float64) []float64 {
 	var draws []float64
-	for c := range g.Fits[0].Chains {
-		d := g.Fits[0].Chains[c].Draws
+	for c := range demand.Chains {
+		d := demand.Chains[c].Draws
 		var y *mat.Dense
-		if g.Fits[1] != nil {
-			y = g.Fits[1].Chains[c].Draws
+		if outcome != nil {
+			y = outcome.Chains[c].Draws
 		}
 		r, _ := d.Dims()
 		for k := 0; k < r; k++ {
@@ -312,7 +319,7 @@ func (f *Fitted) liftDraws(g *Fitted, i int) []float64 {
 			if y != nil {
 				vy = y.RawRowView(k)
 			}
-			draws = append(draws, div*term.Lift(d.RawRowView(k), vy))
+			draws = append(draws, scale*lift(d.RawRowView(k), vy))
 		}
 	}
 	return draws

@@ -4,8 +4,6 @@ import (
 	"context"
 	"fmt"
 
-	"gonum.org/v1/gonum/mat"
-
 	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
@@ -120,21 +118,5 @@ func (f *PanelFitted) CheckLifts(ctx context.Context, hook StageHook) ([]LiftChe
 func (f *PanelFitted) liftDraws(g *PanelFitted, i int) []float64 {
 	unit := f.Tests[i].PanelUnit(f.Data)
 	term := f.Lifts[i].Clone()
-	var draws []float64
-	for c := range g.Fits[0].Chains {
-		d := g.Fits[0].Chains[c].Draws
-		var y *mat.Dense
-		if g.Fits[1] != nil {
-			y = g.Fits[1].Chains[c].Draws
-		}
-		r, _ := d.Dims()
-		for k := 0; k < r; k++ {
-			var vy []float64
-			if y != nil {
-				vy = y.RawRowView(k)
-			}
-			draws = append(draws, unit*term.Lift(d.RawRowView(k), vy))
-		}
-	}
-	return draws
+	return pairedLifts(g.Fits[0], g.Fits[1], unit, term.Lift)
 }
