@@ -258,12 +258,14 @@ func ScalePanel(d *data.Dataset, train []bool) (*PanelScaled, error) {
 // A drifting coefficient drifts by one multiplier exp(f(t)) shared by
 // every region: each region's stage carries the same drift parameters,
 // once in the base layout. The naive panel never drifts, as the national
-// naive stage (pipeline.Stages says why). A moving baseline is not part of
-// the region model.
+// naive stage (pipeline.Stages says why). A moving baseline
+// (BaselineSmooth) is one smooth function of the week shared by every
+// region in place of the shared trend line, in each stage as nationally
+// (panel_baseline.go), its parameters once in the base layout.
 func PanelStages(ps *PanelScaled, o Options) ([3]*Panel, error) {
 	var out [3]*Panel
-	if o.Baseline != "" || o.Plain {
-		return out, fmt.Errorf("model: the region model has no moving baseline or plain coordinates")
+	if o.Plain {
+		return out, fmt.Errorf("model: the region model has no plain coordinates")
 	}
 	for k, build := range []func(*Scaled, Options) (*Stage, error){Demand, Outcome, Naive} {
 		p := &Panel{Regions: ps.Regions, TauMu: PriorTauMu, TauCoef: PriorTauCoef}

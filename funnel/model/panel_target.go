@@ -31,6 +31,7 @@ type PanelTarget struct {
 	chans   []*panelChannel
 	coefs   []*panelCoef // gamma, then each channel's coefficient
 	inter   *panelIntercept
+	base    *panelBaseline // a baseline that moves (panel_baseline.go), nil with the trend line
 	y       [][]float64
 	mask    [][]bool
 	nObs    int
@@ -162,6 +163,11 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		}
 		t.chans = append(t.chans, pc.clone()) // clone allocates the series' scratch
 	}
+	if s := bl.Baseline(); s.Has() {
+		// the national baseline's slots, once in the base layout: one f(t)
+		// for every region
+		t.base = newPanelBaseline(s)
+	}
 	for k, h := range hier {
 		hyper := bl.GammaSlot()
 		var ch *panelChannel
@@ -261,6 +267,7 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		in.cond = &cd
 	}
 	c.inter = &in
+	c.base = t.base.clone()
 	c.alloc()
 	return &c
 }
@@ -300,6 +307,9 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 	for _, c := range t.chans {
 		ok = c.prepare(nat, grad) && ok
 	}
+	if t.base != nil {
+		ok = t.base.prepare(nat) && ok
+	}
 	if !ok {
 		return false
 	}
@@ -320,6 +330,9 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 			} else {
 				s += c.v[g] * c.ch.series[g].hbar
 			}
+		}
+		if t.base != nil {
+			s += t.base.fbar
 		}
 		t.inter.s[g] = s
 	}
@@ -369,6 +382,9 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 			for i, v := range h {
 				n[i] += b * v
 			}
+		}
+		if t.base != nil {
+			t.base.forward(n)
 		}
 	}
 	// likelihood
@@ -468,6 +484,10 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 		if c.ch != nil && c.ch.sm != nil {
 			c.ch.driftBackward(gn, nat, c.v, t.w, t.gS)
 		}
+	}
+	// the moving baseline, the same way
+	if t.base != nil {
+		t.base.backward(gn, nat, t.w, t.gS)
 	}
 	return lp, true
 }

@@ -26,13 +26,24 @@ func testPanel(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, err
 // channel of each kind, and in testPanel's dark region one that never runs.
 var testDrift = Options{Drift: map[string]bool{"video": true, "search": true}, Linear: map[string]bool{"search": true}}
 
+// testBaseline is a baseline that moves (one f(t) for every region).
+var testBaseline = Options{Baseline: BaselineSmooth}
+
 // testPanelOpts is testPanel with each region's stage built with options o.
 func testPanelOpts(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, error), dark bool, o Options) *Panel {
+	t.Helper()
+	return testPanelMask(t, G, T, build, dark, o, nil)
+}
+
+// testPanelMask is testPanelOpts with the weeks mask marks held out of the
+// likelihood in every region (nil: none).
+func testPanelMask(t *testing.T, G, T int, build func(*Scaled, Options) (*Stage, error), dark bool, o Options, mask []bool) *Panel {
 	t.Helper()
 	p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
 	var first *Scaled
 	for g := 0; g < G; g++ {
 		sc := testScaled(T, uint64(20+g))
+		sc.Mask = mask
 		if g == 0 {
 			first = sc
 		}
@@ -92,7 +103,9 @@ var panelBuilds = []panelBuild{{"demand", Demand}, {"outcome", Outcome}, {"naive
 // central finite differences, for each stage, with mixed coordinates, a
 // region that never runs a channel, one region (pooled), and drifting
 // channels (a saturating and a linear one, one multiplier for every
-// region), and that an evaluation allocates nothing.
+// region), a baseline that moves (one f(t) for every region; with weeks
+// held out, where f's mean over every week is not 0), and that an
+// evaluation allocates nothing.
 func TestPanelGradient(t *testing.T) {
 	for _, b := range panelBuilds {
 		for _, c := range []struct {
@@ -100,7 +113,11 @@ func TestPanelGradient(t *testing.T) {
 			cond  bool
 			drift bool
 			jumps bool // the drift that can jump (jump.go)
-		}{{1, false, false, false}, {4, false, false, false}, {4, true, false, false}, {1, false, true, false}, {4, true, true, false}, {4, false, true, false}, {4, true, true, true}} {
+			base  bool // the moving baseline
+			mask  bool // weeks 22-26 held out
+		}{{1, false, false, false, false, false}, {4, false, false, false, false, false}, {4, true, false, false, false, false},
+			{1, false, true, false, false, false}, {4, true, true, false, false, false}, {4, false, true, false, false, false}, {4, true, true, true, false, false},
+			{1, false, false, false, true, false}, {4, true, false, false, true, false}, {4, false, false, false, true, true}, {4, true, true, false, true, true}} {
 			G := c.G
 			o := Options{}
 			if c.drift {
@@ -109,7 +126,17 @@ func TestPanelGradient(t *testing.T) {
 			if c.jumps {
 				o.DriftShape = DriftJumps
 			}
-			p := testPanelOpts(t, G, 30, b.build, G > 1, o)
+			if c.base {
+				o.Baseline = BaselineSmooth
+			}
+			var mask []bool
+			if c.mask {
+				mask = make([]bool, 30)
+				for i := 22; i <= 26; i++ {
+					mask[i] = true
+				}
+			}
+			p := testPanelMask(t, G, 30, b.build, G > 1, o, mask)
 			p.Coords = randomCoords(p, uint64(G))
 			p.Coords.MuConditional = c.cond
 			tg, err := p.Target()
@@ -119,7 +146,14 @@ func TestPanelGradient(t *testing.T) {
 			if c.drift && tg.chans[0].sm == nil {
 				t.Fatalf("%s: video does not drift", b.name)
 			}
-			t.Run(fmt.Sprintf("%s G=%d conditional=%v drift=%v jumps=%v", b.name, G, c.cond, c.drift, c.jumps), func(t *testing.T) {
+			if c.base != (tg.base != nil) {
+				t.Fatalf("%s: moving baseline %v, want %v", b.name, tg.base != nil, c.base)
+			}
+			name := fmt.Sprintf("%s G=%d conditional=%v drift=%v jumps=%v", b.name, G, c.cond, c.drift, c.jumps)
+			if c.base {
+				name += fmt.Sprintf(" baseline masked=%v", c.mask)
+			}
+			t.Run(name, func(t *testing.T) {
 				gs := &mcmctest.GradSettings{Seed: 5, Points: 6, Radius: 1}
 				if c.jumps {
 					// the jumps' large multipliers at these random points
@@ -167,6 +201,11 @@ func panelReference(p *Panel, v []float64) float64 {
 			}
 		}
 	}
+	if st.Baseline != nil {
+		for _, q := range st.Baseline.Params {
+			prior[q.Name] = q.Prior
+		}
+	}
 	for i, n := range base {
 		d, _ := prior[n].LogPdf(v[i])
 		lp += d
@@ -196,6 +235,9 @@ func panelReference(p *Panel, v []float64) float64 {
 		n := sg.Predict(nil, rv)
 		sigma := rv[sg.Layout().SigmaSlot()]
 		for i, y := range sg.Y {
+			if sg.Mask != nil && sg.Mask[i] {
+				continue
+			}
 			e := (y - n[i]) / sigma
 			lp += -0.5*e*e - math.Log(sigma)
 		}
@@ -232,12 +274,20 @@ func logDetJacobian(tg *PanelTarget, x []float64) float64 {
 // formula, lp(x) - log|det dC/dx| - reference(C(x)) must be one constant
 // over points and coordinates.
 func TestPanelSamePosterior(t *testing.T) {
+	held := make([]bool, 25)
+	for i := 19; i <= 22; i++ {
+		held[i] = true
+	}
 	for _, c := range []struct {
 		b     panelBuild
 		G     int
 		drift bool
 		jumps bool
-	}{{panelBuilds[0], 3, false, false}, {panelBuilds[1], 3, false, false}, {panelBuilds[1], 1, false, false}, {panelBuilds[0], 3, true, false}, {panelBuilds[1], 3, true, false}, {panelBuilds[1], 1, true, false}, {panelBuilds[1], 3, true, true}} {
+		base  bool   // the moving baseline
+		mask  []bool // weeks held out
+	}{{panelBuilds[0], 3, false, false, false, nil}, {panelBuilds[1], 3, false, false, false, nil}, {panelBuilds[1], 1, false, false, false, nil},
+		{panelBuilds[0], 3, true, false, false, nil}, {panelBuilds[1], 3, true, false, false, nil}, {panelBuilds[1], 1, true, false, false, nil}, {panelBuilds[1], 3, true, true, false, nil},
+		{panelBuilds[0], 3, false, false, true, nil}, {panelBuilds[1], 3, false, false, true, held}, {panelBuilds[1], 1, false, false, true, held}, {panelBuilds[2], 3, true, false, true, nil}} {
 		b := c.b
 		o := Options{}
 		if c.drift {
@@ -246,7 +296,10 @@ func TestPanelSamePosterior(t *testing.T) {
 		if c.jumps {
 			o.DriftShape = DriftJumps
 		}
-		p := testPanelOpts(t, c.G, 25, b.build, c.G > 1, o)
+		if c.base {
+			o.Baseline = BaselineSmooth
+		}
+		p := testPanelMask(t, c.G, 25, b.build, c.G > 1, o, c.mask)
 		rng := rand.New(rand.NewPCG(9, 9))
 		var c0 float64
 		for rep := 0; rep < 6; rep++ {
