@@ -1,5 +1,7 @@
 package model
 
+import "math"
+
 // panelBaseline is a baseline that moves on a region panel (Options.Baseline
 // BaselineSmooth): one smooth function f(t) of the week, in scaled units,
 // added to every region's linear predictor in place of the trend line, as
@@ -72,4 +74,43 @@ func (b *panelBaseline) backward(gn, nat []float64, w [][]float64, gS []float64)
 		}
 	}
 	b.sm.backward(gn, nat, b.r, 0, T)
+}
+
+// trendLine returns tau = (t-1)/(T-1), t = 1..T (Scaled.Tau).
+func trendLine(T int) []float64 {
+	x := make([]float64, T)
+	for i := range x {
+		if T > 1 {
+			x[i] = float64(i) / float64(T-1)
+		}
+	}
+	return x
+}
+
+// startBaseline gives the baseline's slots StartPoint's start: the
+// regions' shared least-squares line (slope b, Coords.BaseSlope, with the
+// intercepts' mean mu0 at its first week) as FromFixed turns a trend line
+// into a moving baseline: its level into mu, the rest the least-squares
+// projection on the basis over the fitted weeks (lineAsSmooth), at the
+// shortest length-scale the basis is sized for (MinLength) and an sd of
+// the prior's scale or |b| if larger, so that the weights stay within
+// about one of zero (the projection's weights grow with b/sd and, at
+// longer length-scales, without bound on the high frequencies). Without a
+// slope (NaN) the baseline starts flat and mu at mu0.
+func (t *PanelTarget) startBaseline(set func(int, float64), mu0, b float64) {
+	s := t.lay.base.Baseline()
+	v := make([]float64, t.lay.base.Len())
+	mu := t.inter.mu
+	v[mu] = mu0
+	v[s.SD], v[s.Len] = PriorBaseSD.P1, MinLength
+	if !math.IsNaN(b) {
+		v[s.SD] = math.Max(v[s.SD], math.Abs(b))
+		lineAsSmooth(s, t.mask[0], trendLine(t.T), b, v, mu)
+	}
+	set(mu, v[mu])
+	set(s.SD, v[s.SD])
+	set(s.Len, v[s.Len])
+	for j := 0; j < s.Basis.M; j++ {
+		set(s.Z+j, v[s.Z+j])
+	}
 }

@@ -5,6 +5,8 @@ import (
 	"math"
 	"math/rand/v2"
 	"testing"
+
+	"spillway/funnel/stat"
 )
 
 // TestPanelOneRegionBaseline checks that with one region the panel with a
@@ -101,6 +103,86 @@ func TestPanelRegionBaseline(t *testing.T) {
 		for w := range base {
 			if got[w] != base[w] {
 				t.Fatalf("region %d week %d: baseline %v, the panel's %v", g, w, got[w], base[w])
+			}
+		}
+	}
+}
+
+// TestPanelBaselineStart checks the start the panel offers the sampler
+// with a moving baseline (6 regions x 104 weeks): the least squares behind
+// the coordinates put a trend line in the baseline's place (adding 0.4 tau
+// to every region's response moves the shared slope, Coords.BaseSlope, by
+// 0.4), the start's baseline is that line less its mean within 0.02 over
+// the weeks, its weights within 1.5 of zero, its length-scale MinLength,
+// the start point's log density above that of 20 of the sampler's usual
+// starts, and every start variance in (0, 1].
+func TestPanelBaselineStart(t *testing.T) {
+	const T = 104
+	for _, b := range panelBuilds[:2] {
+		slope := func(shift float64) (*PanelTarget, *Panel) {
+			p := testPanelOpts(t, 6, T, b.build, true, testBaseline)
+			tau := trendLine(T)
+			for _, st := range p.Stages {
+				y := append([]float64(nil), st.Y...)
+				for i := range y {
+					y[i] += shift * tau[i]
+				}
+				st.Y = y
+			}
+			var err error
+			if p.Coords, err = ChooseCoordinates(p); err != nil {
+				t.Fatal(err)
+			}
+			tg, err := p.Target()
+			if err != nil {
+				t.Fatal(err)
+			}
+			return tg, p
+		}
+		t0, _ := slope(0)
+		tg, p := slope(0.4)
+		s0, s1 := t0.coords.BaseSlope, tg.coords.BaseSlope
+		if math.IsNaN(s1) || math.Abs(s1-s0-0.4) > 1e-9 {
+			t.Fatalf("%s: shared slope %v, %v without the added line: want 0.4 more", b.name, s1, s0)
+		}
+		x0 := make([]float64, tg.Dim())
+		if !tg.StartPoint(x0) {
+			t.Fatalf("%s: no start point", b.name)
+		}
+		v := tg.Constrain(nil, x0)
+		l := p.Layout().Base()
+		s := l.Baseline()
+		f := l.View(v[:l.Len()]).Baseline(make([]float64, T))
+		tau := trendLine(T)
+		mean := stat.Mean(tau)
+		for i := range f {
+			if d := f[i] - s1*(tau[i]-mean); math.Abs(d) > 0.02 {
+				t.Fatalf("%s week %d: start baseline %.4f, the shared line %.4f", b.name, i, f[i], s1*(tau[i]-mean))
+			}
+		}
+		if math.Abs(v[s.Len]-MinLength) > 1e-9 {
+			t.Errorf("%s: start length-scale %v, want %v", b.name, v[s.Len], MinLength)
+		}
+		for j := 0; j < s.Basis.M; j++ {
+			if z := v[s.Z+j]; math.Abs(z) > 1.5 {
+				t.Errorf("%s: start weight %d is %.3f", b.name, j+1, z)
+			}
+		}
+		lp0 := tg.LogProb(x0)
+		rng := rand.New(rand.NewPCG(7, 7))
+		x := make([]float64, tg.Dim())
+		for rep := 0; rep < 20; rep++ {
+			for i := range x {
+				x[i] = -2 + 4*rng.Float64()
+			}
+			if lp := tg.LogProb(x); !(lp0 > lp) {
+				t.Errorf("%s: log density %.6g at the start point, %.6g at a uniform start", b.name, lp0, lp)
+			}
+		}
+		names := tg.CoordNames()
+		for i, m := range tg.StartMetric() {
+			if !(m > 0 && m <= 1) {
+				t.Errorf("%s: %s start variance %v, want in (0, 1]", b.name, names[i], m)
 			}
 		}
 	}

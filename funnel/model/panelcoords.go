@@ -56,6 +56,11 @@ type Coords struct {
 	SigmaEst float64
 	CoefMid  []float64
 	CoefLog  [][]float64
+	// BaseSlope is, for a stage whose baseline moves (Stage.Baseline), the
+	// slope of the trend line in its place in every region's least squares,
+	// the regions' estimates combined by precision (NaN where none has
+	// it): StartPoint starts the baseline at that line (panel_baseline.go).
+	BaseSlope float64
 }
 
 // Uniform returns coordinates with every weight lam: 1 centred, 0
@@ -120,6 +125,7 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 	regPrec := make([]float64, len(p.Stages[0].Regressors))
 	regSum := make([]float64, len(regPrec))
 	ss, nss := 0.0, 0.0
+	basePrec, baseSum := 0.0, 0.0
 	for g, st := range p.Stages {
 		cols := [][]float64{}
 		ones := make([]float64, len(st.Y))
@@ -156,7 +162,16 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 			hierCol[k] = len(cols)
 			cols = append(cols, x)
 		}
+		baseCol := -1 // a moving baseline's place: the trend line it replaces
+		if st.Baseline != nil {
+			baseCol = len(cols)
+			cols = append(cols, trendLine(len(st.Y)))
+		}
 		b, cov, resSD, ok := leastSquares(cols, st.Y, st.Mask)
+		if ok && baseCol >= 0 {
+			basePrec += 1 / cov[baseCol]
+			baseSum += b[baseCol] / cov[baseCol]
+		}
 		if ok {
 			j := 1
 			for i, r := range st.Regressors {
@@ -191,6 +206,10 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 	}
 	c.SigmaEst = math.Sqrt(ss / nss)
 	c.MuEst = stat.Mean(muHat)
+	c.BaseSlope = math.NaN()
+	if basePrec > 0 {
+		c.BaseSlope = baseSum / basePrec
+	}
 	// The spread is estimated from G regions: a low plausible value, the
 	// estimate times 1 - 1.64/sqrt(2(G-1)) (the one-sided 95% bound of a
 	// normal sd from G values, by its standard error sd/sqrt(2(G-1))),
@@ -516,6 +535,9 @@ func (t *PanelTarget) StartPoint(dst []float64) bool {
 			}
 			dst[pc.block+g] = (l - (1-lam)*lu) / math.Pow(tau, 1-lam)
 		}
+	}
+	if t.base != nil {
+		t.startBaseline(set, c.MuEst, c.BaseSlope)
 	}
 	return true
 }
