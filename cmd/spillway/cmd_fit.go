@@ -145,9 +145,11 @@ each region scaled by its own means, with its own intercept and query and
 media coefficients pooled towards the regions' typical values (their
 spreads, tau_..., are learned and printed); trend, seasons, controls,
 transforms and noise are shared. --national fits the regions' national sum
-instead, as one series (recorded in spec.json); --baseline smooth, return
-priors and measured exposure need it for now. --drift on a panel drifts
-every region's coefficient by the same multiplier. On a panel a
+instead, as one series (recorded in spec.json); return priors and
+measured exposure need it for now. --drift on a panel drifts every
+region's coefficient by the same multiplier, and --baseline smooth puts
+one smooth function of time, shared by the regions, in place of their
+shared trend line. On a panel a
 lift test may name a region (the column region): it removed the channel's
 spend in that region alone and measured that region's metric; a test
 without one removed it in every region and measured the sum.
@@ -406,9 +408,6 @@ func panelChoices(opts *samplingFlags, spec data.Spec) error {
 	}
 	slices.Sort(flags)
 	flags = slices.Compact(flags)
-	if opts.baseline != "" && opts.baseline != "line" {
-		flags = append(flags, "--baseline "+opts.baseline)
-	}
 	if len(flags) > 0 {
 		return usagef("%s: not part of the region panel yet; add --national to fit the regions' national sum with %s", strings.Join(flags, ", "), strings.Join(flags, ", "))
 	}
