@@ -147,3 +147,73 @@ func TestPanelBaseline(t *testing.T) {
 		t.Errorf("--baseline smooth alone: drift.csv has %d rows", len(smooth.Drift))
 	}
 }
+
+// TestValidatePanelBaseline runs a tiny panel sweep (3 regions x 70 weeks,
+// recovery and holdout, one chain of 30 + 30) with --baseline smooth and
+// the same sweep with the trend line, same seed: validate's panel refits
+// take the model options straight through (model.PanelStages), so the
+// sweep with the moving baseline runs (it was refused before the region
+// model had one), every job of the line's sweep is there, and its fits'
+// numbers differ from the line's: the option reached the reference fit
+// and the refits.
+func TestValidatePanelBaseline(t *testing.T) {
+	if testing.Short() {
+		t.Skip("two tiny panel sweeps")
+	}
+	dir := t.TempDir()
+	if code, _, errs := runCmd(t, "simulate", "--scenario", "demo-regions", "--regions", "3", "--weeks", "70", "--seed", "4", "--out", filepath.Join(dir, "sim")); code != 0 {
+		t.Fatalf("simulate: %d %s", code, errs)
+	}
+	sweep := func(name string, extra ...string) map[string]string {
+		out := filepath.Join(dir, name)
+		args := append([]string{"validate", "--data", filepath.Join(dir, "sim", "data.csv"), "--date", "week", "--region", "region",
+			"--upper", "video_spend,audio_spend", "--search", "search_spend", "--queries", "branded_queries",
+			"--outcome", "conversions", "--controls", "price", "--chains", "1", "--warmup", "30", "--draws", "30", "--seed", "4", "--quiet",
+			"--checks", "recovery,holdout", "--replicates", "1", "--origins", "1", "--seeds", "0", "--out", out}, extra...)
+		code, stdout, errs := runCmd(t, args...)
+		if code != 0 {
+			t.Fatalf("validate %s: exit %d\n%s\n%s", name, code, stdout, errs)
+		}
+		b, err := os.ReadFile(filepath.Join(out, "jobs.csv"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		// job,kind,name,path,window,stat,value,region: the value by the rest
+		rows := map[string]string{}
+		for _, line := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
+			f := strings.Split(line, ",")
+			if len(f) != 8 {
+				t.Fatalf("jobs.csv row %q", line)
+			}
+			rows[strings.Join(append(f[:6:6], f[7]), ",")] = f[6]
+		}
+		return rows
+	}
+	base := sweep("smooth", "--baseline", "smooth")
+	line := sweep("line")
+	same, compared, kinds := 0, 0, map[string]bool{}
+	for k, v := range line {
+		w, ok := base[k]
+		if !ok {
+			t.Fatalf("the sweep with --baseline smooth has no %s", k)
+		}
+		f := strings.Split(k, ",")
+		kinds[f[1]] = true
+		if f[5] == "actual" || strings.HasPrefix(f[5], "base") || f[5] == "divergences" {
+			continue // the data, the seasonal baseline's forecast from them, and counts
+		}
+		compared++
+		if w == v {
+			same++
+		}
+	}
+	if len(base) != len(line) {
+		t.Errorf("jobs.csv: %d rows with the moving baseline, %d with the line", len(base), len(line))
+	}
+	if !kinds["effect"] || !kinds["forecast"] {
+		t.Errorf("jobs.csv's kinds %v, want effects (recovery) and forecasts (holdout)", kinds)
+	}
+	if same > 0 || compared < len(line)/2 {
+		t.Errorf("%d of %d values of jobs.csv's fits are the line sweep's", same, compared)
+	}
+}
