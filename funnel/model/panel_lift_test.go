@@ -49,11 +49,15 @@ func TestPanelJointGradient(t *testing.T) {
 	for _, c := range []struct {
 		G     int
 		drift bool
-	}{{1, false}, {4, false}, {1, true}, {4, true}} {
+		base  bool // the moving baseline
+	}{{1, false, false}, {4, false, false}, {1, true, false}, {4, true, false}, {4, true, true}, {1, false, true}} {
 		G := c.G
 		o := Options{}
 		if c.drift {
 			o = testDrift
+		}
+		if c.base {
+			o.Baseline = BaselineSmooth
 		}
 		panels, tests := panelLiftCase(t, G, 7, o)
 		if G == 1 {
@@ -66,7 +70,10 @@ func TestPanelJointGradient(t *testing.T) {
 		if c.drift && tests[0].regs[0].y.sm == nil {
 			t.Fatal("video's outcome test does not see its drift")
 		}
-		t.Run(fmt.Sprintf("G=%d drift=%v", G, c.drift), func(t *testing.T) {
+		if c.base && (j.parts[0].base == nil || j.parts[1].base == nil) {
+			t.Fatal("the panels have no moving baseline")
+		}
+		t.Run(fmt.Sprintf("G=%d drift=%v baseline=%v", G, c.drift, c.base), func(t *testing.T) {
 			// step 1e-5: the tests' quadratic terms make the density large
 			// at random points, and central differences' rounding error
 			// grows with it (about 1e-5 scaled at the default step 1e-6)
