@@ -476,8 +476,9 @@ func (t *PanelTarget) StartMetric() []float64 {
 // startNoEffect everywhere, as those fits, near no effect), each spread at
 // its moment estimate but at most 1 (a factor e across regions), the
 // intercepts' conditional coordinates at 0 (each intercept at its
-// conditional mean). Any point with a finite density serves: only the
-// warm-up's length depends on it.
+// conditional mean), a moving baseline at the regions' shared
+// least-squares line (startBaseline). Any point with a finite density
+// serves: only the warm-up's length depends on it.
 func (t *PanelTarget) StartPoint(dst []float64) bool {
 	c := t.coords
 	if len(dst) != t.dim {
