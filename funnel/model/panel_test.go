@@ -340,12 +340,14 @@ func TestPanelSamePosterior(t *testing.T) {
 // by region size): the channels' transforms are then computed once.
 // drift-regions has every channel drifting (one multiplier per channel,
 // shared by the regions): the drift's cost beside regions=40.
+// baseline-regions has the moving baseline in place of the trend line.
 func BenchmarkPanelLogProbGrad(b *testing.B) {
 	for _, c := range []struct {
 		G        int
 		national bool
 		drift    bool
-	}{{10, false, false}, {40, false, false}, {160, false, false}, {40, true, false}, {40, false, true}} {
+		base     bool
+	}{{10, false, false, false}, {40, false, false, false}, {160, false, false, false}, {40, true, false, false}, {40, false, true, false}, {40, false, false, true}} {
 		G := c.G
 		name := fmt.Sprintf("regions=%d", G)
 		if c.national {
@@ -355,6 +357,10 @@ func BenchmarkPanelLogProbGrad(b *testing.B) {
 		if c.drift {
 			name = fmt.Sprintf("drift-regions=%d", G)
 			o.Drift = map[string]bool{"video": true, "audio": true, "search": true}
+		}
+		if c.base {
+			name = fmt.Sprintf("baseline-regions=%d", G)
+			o.Baseline = BaselineSmooth
 		}
 		b.Run(name, func(b *testing.B) {
 			p := &Panel{TauMu: PriorTauMu, TauCoef: PriorTauCoef}
