@@ -49,13 +49,17 @@ func TestPanelJointGradient(t *testing.T) {
 	for _, c := range []struct {
 		G     int
 		drift bool
-	}{{1, false}, {4, false}, {1, true}, {4, true}} {
+		cond  bool // intercepts and gamma in their conditional coordinates
+	}{{1, false, false}, {4, false, false}, {4, false, true}, {1, true, false}, {4, true, false}} {
 		G := c.G
 		o := Options{}
 		if c.drift {
 			o = testDrift
 		}
 		panels, tests := panelLiftCase(t, G, 7, o)
+		for _, p := range panels {
+			p.Coords.MuConditional, p.Coords.GammaConditional = c.cond, c.cond
+		}
 		if G == 1 {
 			tests[2].Weights = []float64{1}
 		}
@@ -66,7 +70,10 @@ func TestPanelJointGradient(t *testing.T) {
 		if c.drift && tests[0].regs[0].y.sm == nil {
 			t.Fatal("video's outcome test does not see its drift")
 		}
-		t.Run(fmt.Sprintf("G=%d drift=%v", G, c.drift), func(t *testing.T) {
+		if c.cond && j.parts[1].condGamma() == nil {
+			t.Fatal("gamma is not in its conditional coordinates")
+		}
+		t.Run(fmt.Sprintf("G=%d drift=%v conditional=%v", G, c.drift, c.cond), func(t *testing.T) {
 			// step 1e-5: the tests' quadratic terms make the density large
 			// at random points, and central differences' rounding error
 			// grows with it (about 1e-5 scaled at the default step 1e-6)

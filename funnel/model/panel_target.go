@@ -192,6 +192,9 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			pc.block = block()
 			pc.slot = pl.Block.Start
 		}
+		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil && !t.drifts() {
+			pc.cond = newCondGamma(t.inter, coords, k, t.G)
+		}
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)
 	}
@@ -242,10 +245,19 @@ func (t *PanelTarget) Clone() mcmc.Target {
 	for i, ch := range t.chans {
 		c.chans[i] = ch.clone()
 	}
+	in := *t.inter
+	if t.inter.cond != nil {
+		cd := *t.inter.cond
+		in.cond = &cd
+	}
+	c.inter = &in
 	c.coefs = make([]*panelCoef, len(t.coefs))
 	for i, pc := range t.coefs {
 		d := *pc
 		d.v, d.g = make([]float64, t.G), make([]float64, t.G)
+		if pc.cond != nil {
+			d.cond = pc.cond.clone(c.inter)
+		}
 		if pc.ch != nil {
 			for j, ch := range t.chans {
 				if ch == pc.ch {
@@ -255,12 +267,6 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		}
 		c.coefs[i] = &d
 	}
-	in := *t.inter
-	if t.inter.cond != nil {
-		cd := *t.inter.cond
-		in.cond = &cd
-	}
-	c.inter = &in
 	c.alloc()
 	return &c
 }
@@ -308,20 +314,36 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 			return false
 		}
 	}
-	// S_g, the mean of region g's predictor without its intercept
+	// S_g, the mean of region g's predictor without its intercept; with
+	// gamma in its conditional coordinates, first S'_g without gamma's part,
+	// on which gamma[g] depends
+	cg := t.condGamma()
 	for g := 0; g < t.G; g++ {
 		s := 0.0
 		for _, r := range t.regs {
 			s += nat[r.k] * r.bar[g]
 		}
 		for _, c := range t.coefs {
-			if c.ch == nil {
+			switch {
+			case c.cond != nil:
+			case c.ch == nil:
 				s += c.v[g] * c.bar[g]
-			} else {
+			default:
 				s += c.v[g] * c.ch.series[g].hbar
 			}
 		}
+		if cg != nil {
+			cg.cond.sp[g] = s
+		}
 		t.inter.s[g] = s
+	}
+	if cg != nil {
+		if !cg.condValues(nat, x) {
+			return false
+		}
+		for g, v := range cg.v {
+			t.inter.s[g] += v * cg.bar[g]
+		}
 	}
 	return t.inter.values(nat, x)
 }
@@ -440,7 +462,22 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 	// depends on
 	lp += t.inter.prior(nat, gn)
 	t.inter.backward(grad, nat, gn, t.sw, t.gS)
-	for g, gs := range t.gS {
+	t.shear(gn, t.gS, nil)
+	// the drifting channels' smooth functions, through the likelihood
+	// and the intercepts' shear (S_g holds the drifted mean)
+	for _, c := range t.coefs {
+		if c.ch != nil && c.ch.sm != nil {
+			c.ch.driftBackward(gn, nat, c.v, t.w, t.gS)
+		}
+	}
+	return lp, true
+}
+
+// shear sends gS[g] = d lp/d S_g on to the terms S_g depends on (the
+// shared regressors, each region's coefficients but skip, the channels'
+// transforms).
+func (t *PanelTarget) shear(gn, gS []float64, skip *panelCoef) {
+	for g, gs := range gS {
 		if gs == 0 {
 			continue
 		}
@@ -448,6 +485,9 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 			gn[r.k] += gs * r.bar[g]
 		}
 		for _, c := range t.coefs {
+			if c == skip {
+				continue
+			}
 			if c.ch == nil {
 				c.g[g] += gs * c.bar[g]
 				continue
@@ -462,18 +502,34 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 			}
 		}
 	}
-	// the drifting channels' smooth functions, through the likelihood
-	// and the intercepts' shear (S_g holds the drifted mean)
-	for _, c := range t.coefs {
-		if c.ch != nil && c.ch.sm != nil {
-			c.ch.driftBackward(gn, nat, c.v, t.w, t.gS)
+}
+
+// drifts reports whether a channel drifts: gamma's conditional coordinates
+// then stay off (S'_g would carry the drift's mean, whose gradient goes
+// through driftBackward).
+func (t *PanelTarget) drifts() bool {
+	for _, c := range t.chans {
+		if c.sm != nil {
+			return true
 		}
 	}
-	return lp, true
+	return false
+}
+
+// condGamma returns gamma's coefficient when it is sampled in its
+// conditional coordinates (panel_condgamma.go), else nil.
+func (t *PanelTarget) condGamma() *panelCoef {
+	if len(t.coefs) > 0 && t.coefs[0].cond != nil {
+		return t.coefs[0]
+	}
+	return nil
 }
 
 // evalFinish adds the coefficients' hierarchies, through to the sampling
-// coordinates, and the transforms' Jacobians and chain rule.
+// coordinates, and the transforms' Jacobians and chain rule. Gamma comes
+// first: in its conditional coordinates it depends on S'_g, so its
+// gradient there goes on to the other coefficients before their
+// hierarchies pull theirs back.
 func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
 	var gn []float64
 	if grad != nil {
@@ -481,6 +537,9 @@ func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
 	}
 	for _, c := range t.coefs {
 		lp += c.prior(t.nat, gn, grad)
+		if c.cond != nil && grad != nil {
+			t.shear(gn, c.cond.gS, c)
+		}
 	}
 	return t.finish(grad, lp)
 }
@@ -814,6 +873,7 @@ type panelCoef struct {
 	pooled      bool
 	rescale     bool
 	ch          *panelChannel // nil for gamma
+	cond        *condGamma    // gamma's conditional coordinates, when chosen (lam unused)
 	q           [][]float64   // gamma's regressor per region (queries)
 	bar         []float64     // gamma's: mean_t q[g][t]
 	v, g        []float64     // theta[g] and d lp/d theta[g]
@@ -838,6 +898,9 @@ func (c *panelCoef) values(nat, x []float64) bool {
 			c.v[g] = th
 		}
 		return true
+	}
+	if c.cond != nil {
+		return true // condValues, once S'_g is known
 	}
 	tau := nat[c.tauPos]
 	for g := range c.v {
@@ -865,6 +928,9 @@ func (c *panelCoef) prior(nat, gn, grad []float64) float64 {
 			gn[c.hyper] += s
 		}
 		return 0
+	}
+	if c.cond != nil {
+		return c.condPrior(nat, gn, grad)
 	}
 	tau := nat[c.tauPos]
 	ltau := math.Log(tau)

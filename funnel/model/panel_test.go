@@ -74,9 +74,17 @@ func randomCoords(p *Panel, seed uint64) *Coords {
 		c.Mu[g] = pick()
 	}
 	for k := range c.Coef {
+		se, est := make([]float64, len(c.Coef[k])), make([]float64, len(c.Coef[k]))
 		for g := range c.Coef[k] {
 			c.Coef[k][g] = pick()
+			// least-squares estimates for gamma's conditional coordinates,
+			// one region without any
+			se[g], est[g] = 0.05+0.5*rng.Float64(), -2*rng.Float64()
+			if g == 1 {
+				est[g] = math.NaN()
+			}
 		}
+		c.SECoef, c.CoefLog = append(c.SECoef, se), append(c.CoefLog, est)
 	}
 	return c
 }
@@ -100,7 +108,8 @@ func TestPanelGradient(t *testing.T) {
 			cond  bool
 			drift bool
 			jumps bool // the drift that can jump (jump.go)
-		}{{1, false, false, false}, {4, false, false, false}, {4, true, false, false}, {1, false, true, false}, {4, true, true, false}, {4, false, true, false}, {4, true, true, true}} {
+			gamma bool // gamma in its conditional coordinates (with cond)
+		}{{1, false, false, false, false}, {4, false, false, false, false}, {4, true, false, false, false}, {4, true, false, false, true}, {1, false, true, false, false}, {4, true, true, false, false}, {4, false, true, false, false}, {4, true, true, true, false}} {
 			G := c.G
 			o := Options{}
 			if c.drift {
@@ -112,6 +121,7 @@ func TestPanelGradient(t *testing.T) {
 			p := testPanelOpts(t, G, 30, b.build, G > 1, o)
 			p.Coords = randomCoords(p, uint64(G))
 			p.Coords.MuConditional = c.cond
+			p.Coords.GammaConditional = c.gamma
 			tg, err := p.Target()
 			if err != nil {
 				t.Fatal(err)
@@ -119,7 +129,10 @@ func TestPanelGradient(t *testing.T) {
 			if c.drift && tg.chans[0].sm == nil {
 				t.Fatalf("%s: video does not drift", b.name)
 			}
-			t.Run(fmt.Sprintf("%s G=%d conditional=%v drift=%v jumps=%v", b.name, G, c.cond, c.drift, c.jumps), func(t *testing.T) {
+			if c.gamma && b.name == "outcome" && tg.condGamma() == nil {
+				t.Fatal("outcome: gamma is not in its conditional coordinates")
+			}
+			t.Run(fmt.Sprintf("%s G=%d conditional=%v gamma=%v drift=%v jumps=%v", b.name, G, c.cond, c.gamma, c.drift, c.jumps), func(t *testing.T) {
 				gs := &mcmctest.GradSettings{Seed: 5, Points: 6, Radius: 1}
 				if c.jumps {
 					// the jumps' large multipliers at these random points
@@ -252,6 +265,7 @@ func TestPanelSamePosterior(t *testing.T) {
 		for rep := 0; rep < 6; rep++ {
 			p.Coords = randomCoords(p, uint64(rep))
 			p.Coords.MuConditional = rep%2 == 1
+			p.Coords.GammaConditional = rep >= 3
 			if rep == 0 {
 				p.Coords = p.Uniform(1)
 			}
