@@ -32,12 +32,19 @@ import "math"
 // free of tau_mu and tau_gamma (Papaspiliopoulos, Roberts and Sköld 2007,
 // section 3, with the weights chosen afresh at every point, as
 // condIntercept does exactly for the intercepts).
+//
+// The population's intercept then mirrors the population's gamma (every
+// gamma[g] follows mu through m[g]) and the other regressors' means, so mu
+// is sampled as mu' = mu + gamma qbar + mean_g S'_g, qbar the regions' mean
+// of their query means: a shear with unit Jacobian (S'_g does not depend
+// on mu), as the national intercept is sampled at the regressors' means.
 type condGamma struct {
 	inter  *panelIntercept
 	aW, lW []float64 // per region: the within-weeks estimate's precision and centre (log scale; aW 0 when none)
 	sp     []float64 // S'_g
 	m, p   []float64 // the map's mean and precision per region
 	gS     []float64 // d lp / d S'_g from the map, for the terms S'_g depends on
+	qbar   float64   // the regions' mean of their query means: mu' = mu + gamma qbar
 }
 
 func newCondGamma(inter *panelIntercept, c *Coords, k, G int) *condGamma {

@@ -194,6 +194,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		}
 		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil && !t.drifts() {
 			pc.cond = newCondGamma(t.inter, coords, k, t.G)
+			pc.cond.qbar = stat.Mean(pc.bar)
 		}
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)
@@ -336,6 +337,10 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 			cg.cond.sp[g] = s
 		}
 		t.inter.s[g] = s
+	}
+	if cg != nil && t.inter.free >= 0 {
+		// the sampled mu' is mu + gamma qbar + the regions' mean of S'_g
+		nat[t.inter.mu] -= nat[cg.hyper]*cg.cond.qbar + stat.Mean(cg.cond.sp)
 	}
 	if cg != nil {
 		if !cg.condValues(nat, x) {
@@ -537,9 +542,18 @@ func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
 	}
 	for _, c := range t.coefs {
 		lp += c.prior(t.nat, gn, grad)
-		if c.cond != nil && grad != nil {
-			t.shear(gn, c.cond.gS, c)
+		if c.cond == nil || grad == nil {
+			continue
 		}
+		if t.inter.free >= 0 {
+			// mu = mu' - gamma qbar - mean_g S'_g; d lp/d mu is complete
+			gm := gn[t.inter.mu]
+			gn[c.hyper] -= gm * c.cond.qbar
+			for g := range c.cond.gS {
+				c.cond.gS[g] -= gm / float64(t.G)
+			}
+		}
+		t.shear(gn, c.cond.gS, c)
 	}
 	return t.finish(grad, lp)
 }

@@ -531,6 +531,12 @@ func (t *PanelTarget) StartPoint(dst []float64) bool {
 			dst[pc.block+g] = (l - (1-lam)*lu) / math.Pow(tau, 1-lam)
 		}
 	}
+	if cg := t.condGamma(); cg != nil && t.inter.free >= 0 {
+		// mu' = mu + gamma qbar + mean_g S'_g at the start
+		dst[t.inter.free] = 0
+		t.decode(dst, false)
+		dst[t.inter.free] = c.MuEst - t.nat[t.inter.mu]
+	}
 	return true
 }
 
