@@ -50,7 +50,7 @@ func TestPanelJointGradient(t *testing.T) {
 		G     int
 		drift bool
 		cond  bool // intercepts and gamma in their conditional coordinates
-	}{{1, false, false}, {4, false, false}, {4, false, true}, {1, true, false}, {4, true, false}} {
+	}{{1, false, false}, {4, false, false}, {4, false, true}, {1, true, false}, {4, true, false}, {4, true, true}} {
 		G := c.G
 		o := Options{}
 		if c.drift {

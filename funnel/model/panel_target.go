@@ -192,7 +192,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			pc.block = block()
 			pc.slot = pl.Block.Start
 		}
-		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil && !t.drifts() {
+		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil {
 			pc.cond = newCondGamma(t.inter, coords, k, t.G)
 			pc.cond.qbar = stat.Mean(pc.bar)
 		}
@@ -468,13 +468,6 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 	lp += t.inter.prior(nat, gn)
 	t.inter.backward(grad, nat, gn, t.sw, t.gS)
 	t.shear(gn, t.gS, nil)
-	// the drifting channels' smooth functions, through the likelihood
-	// and the intercepts' shear (S_g holds the drifted mean)
-	for _, c := range t.coefs {
-		if c.ch != nil && c.ch.sm != nil {
-			c.ch.driftBackward(gn, nat, c.v, t.w, t.gS)
-		}
-	}
 	return lp, true
 }
 
@@ -507,18 +500,6 @@ func (t *PanelTarget) shear(gn, gS []float64, skip *panelCoef) {
 			}
 		}
 	}
-}
-
-// drifts reports whether a channel drifts: gamma's conditional coordinates
-// then stay off (S'_g would carry the drift's mean, whose gradient goes
-// through driftBackward).
-func (t *PanelTarget) drifts() bool {
-	for _, c := range t.chans {
-		if c.sm != nil {
-			return true
-		}
-	}
-	return false
 }
 
 // condGamma returns gamma's coefficient when it is sampled in its
@@ -554,6 +535,19 @@ func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
 			}
 		}
 		t.shear(gn, c.cond.gS, c)
+		for g, v := range c.cond.gS {
+			t.gS[g] += v // the drifts' share, below
+		}
+	}
+	// the drifting channels' smooth functions, through the likelihood
+	// and S_g (which holds the drifted mean: the intercepts' shear and
+	// gamma's conditional coordinates)
+	if grad != nil {
+		for _, c := range t.coefs {
+			if c.ch != nil && c.ch.sm != nil {
+				c.ch.driftBackward(gn, t.nat, c.v, t.w, t.gS)
+			}
+		}
 	}
 	return t.finish(grad, lp)
 }

@@ -109,7 +109,7 @@ func TestPanelGradient(t *testing.T) {
 			drift bool
 			jumps bool // the drift that can jump (jump.go)
 			gamma bool // gamma in its conditional coordinates (with cond)
-		}{{1, false, false, false, false}, {4, false, false, false, false}, {4, true, false, false, false}, {4, true, false, false, true}, {1, false, true, false, false}, {4, true, true, false, false}, {4, false, true, false, false}, {4, true, true, true, false}} {
+		}{{1, false, false, false, false}, {4, false, false, false, false}, {4, true, false, false, false}, {4, true, false, false, true}, {1, false, true, false, false}, {4, true, true, false, false}, {4, true, true, false, true}, {4, false, true, false, false}, {4, true, true, true, false}} {
 			G := c.G
 			o := Options{}
 			if c.drift {

@@ -34,7 +34,7 @@ type Coords struct {
 	// GammaConditional samples gamma (the outcome stage's coefficient of
 	// the queries) in its conditional coordinates (condGamma,
 	// panel_condgamma.go; its weights in Coef are then unused). It needs
-	// MuConditional and is off while a channel drifts.
+	// MuConditional.
 	GammaConditional bool
 	Coef             [][]float64 // [coefficient][region]
 	// Estimates behind the weights (ChooseCoordinates): the spreads implied
