@@ -73,7 +73,14 @@
 // which removes both the ridge between a region's intercept and its gamma
 // and the funnel between the intercepts and their spread; the former
 // choice (centred, sampled as the region's predictor mean by a shear of
-// unit Jacobian, or non-centred) remains with Coords.MuConditional off. A
+// unit Jacobian, or non-centred) remains with Coords.MuConditional off. On
+// the outcome stage gamma is sampled in conditional coordinates too
+// (panel_condgamma.go: a normal approximation to each region's log gamma
+// given the rest, from gamma's hierarchy, the intercepts' collapsed
+// level and the region's least squares), which removes the funnel
+// between the intercepts' spread and gamma that the conditional
+// intercepts leave, and the population intercept is then sampled at the
+// regions' mean predictor (a shear). A
 // channel's transform is computed once for regions whose scaled flights
 // are equal. PanelLayout.Region turns a panel draw into a
 // region's national draw, which every national computation reads.

@@ -50,7 +50,9 @@ func TestPanelJointGradient(t *testing.T) {
 		G     int
 		drift bool
 		base  bool // the moving baseline
-	}{{1, false, false}, {4, false, false}, {1, true, false}, {4, true, false}, {4, true, true}, {1, false, true}} {
+		cond  bool // intercepts and gamma in their conditional coordinates
+	}{{1, false, false, false}, {4, false, false, false}, {1, true, false, false}, {4, true, false, false}, {4, true, true, false}, {1, false, true, false},
+		{4, false, false, true}, {4, true, false, true}, {4, true, true, true}} {
 		G := c.G
 		o := Options{}
 		if c.drift {
@@ -60,6 +62,9 @@ func TestPanelJointGradient(t *testing.T) {
 			o.Baseline = BaselineSmooth
 		}
 		panels, tests := panelLiftCase(t, G, 7, o)
+		for _, p := range panels {
+			p.Coords.MuConditional, p.Coords.GammaConditional = c.cond, c.cond
+		}
 		if G == 1 {
 			tests[2].Weights = []float64{1}
 		}
@@ -73,7 +78,10 @@ func TestPanelJointGradient(t *testing.T) {
 		if c.base && (j.parts[0].base == nil || j.parts[1].base == nil) {
 			t.Fatal("the panels have no moving baseline")
 		}
-		t.Run(fmt.Sprintf("G=%d drift=%v baseline=%v", G, c.drift, c.base), func(t *testing.T) {
+		if c.cond && j.parts[1].condGamma() == nil {
+			t.Fatal("gamma is not in its conditional coordinates")
+		}
+		t.Run(fmt.Sprintf("G=%d drift=%v baseline=%v conditional=%v", G, c.drift, c.base, c.cond), func(t *testing.T) {
 			// step 1e-5: the tests' quadratic terms make the density large
 			// at random points, and central differences' rounding error
 			// grows with it (about 1e-5 scaled at the default step 1e-6)

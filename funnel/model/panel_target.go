@@ -198,6 +198,10 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			pc.block = block()
 			pc.slot = pl.Block.Start
 		}
+		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil {
+			pc.cond = newCondGamma(t.inter, coords, k, t.G)
+			pc.cond.qbar = stat.Mean(pc.bar)
+		}
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)
 	}
@@ -248,10 +252,19 @@ func (t *PanelTarget) Clone() mcmc.Target {
 	for i, ch := range t.chans {
 		c.chans[i] = ch.clone()
 	}
+	in := *t.inter
+	if t.inter.cond != nil {
+		cd := *t.inter.cond
+		in.cond = &cd
+	}
+	c.inter = &in
 	c.coefs = make([]*panelCoef, len(t.coefs))
 	for i, pc := range t.coefs {
 		d := *pc
 		d.v, d.g = make([]float64, t.G), make([]float64, t.G)
+		if pc.cond != nil {
+			d.cond = pc.cond.clone(c.inter)
+		}
 		if pc.ch != nil {
 			for j, ch := range t.chans {
 				if ch == pc.ch {
@@ -261,12 +274,6 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		}
 		c.coefs[i] = &d
 	}
-	in := *t.inter
-	if t.inter.cond != nil {
-		cd := *t.inter.cond
-		in.cond = &cd
-	}
-	c.inter = &in
 	c.base = t.base.clone()
 	c.alloc()
 	return &c
@@ -318,23 +325,43 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 			return false
 		}
 	}
-	// S_g, the mean of region g's predictor without its intercept
+	// S_g, the mean of region g's predictor without its intercept; with
+	// gamma in its conditional coordinates, first S'_g without gamma's part,
+	// on which gamma[g] depends
+	cg := t.condGamma()
 	for g := 0; g < t.G; g++ {
 		s := 0.0
 		for _, r := range t.regs {
 			s += nat[r.k] * r.bar[g]
 		}
 		for _, c := range t.coefs {
-			if c.ch == nil {
+			switch {
+			case c.cond != nil:
+			case c.ch == nil:
 				s += c.v[g] * c.bar[g]
-			} else {
+			default:
 				s += c.v[g] * c.ch.series[g].hbar
 			}
 		}
 		if t.base != nil {
 			s += t.base.fbar
 		}
+		if cg != nil {
+			cg.cond.sp[g] = s
+		}
 		t.inter.s[g] = s
+	}
+	if cg != nil && t.inter.free >= 0 {
+		// the sampled mu' is mu + gamma qbar + the regions' mean of S'_g
+		nat[t.inter.mu] -= nat[cg.hyper]*cg.cond.qbar + stat.Mean(cg.cond.sp)
+	}
+	if cg != nil {
+		if !cg.condValues(nat, x) {
+			return false
+		}
+		for g, v := range cg.v {
+			t.inter.s[g] += v * cg.bar[g]
+		}
 	}
 	return t.inter.values(nat, x)
 }
@@ -456,7 +483,15 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 	// depends on
 	lp += t.inter.prior(nat, gn)
 	t.inter.backward(grad, nat, gn, t.sw, t.gS)
-	for g, gs := range t.gS {
+	t.shear(gn, t.gS, nil)
+	return lp, true
+}
+
+// shear sends gS[g] = d lp/d S_g on to the terms S_g depends on (the
+// shared regressors, each region's coefficients but skip, the channels'
+// transforms).
+func (t *PanelTarget) shear(gn, gS []float64, skip *panelCoef) {
+	for g, gs := range gS {
 		if gs == 0 {
 			continue
 		}
@@ -464,6 +499,9 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 			gn[r.k] += gs * r.bar[g]
 		}
 		for _, c := range t.coefs {
+			if c == skip {
+				continue
+			}
 			if c.ch == nil {
 				c.g[g] += gs * c.bar[g]
 				continue
@@ -478,22 +516,22 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 			}
 		}
 	}
-	// the drifting channels' smooth functions, through the likelihood
-	// and the intercepts' shear (S_g holds the drifted mean)
-	for _, c := range t.coefs {
-		if c.ch != nil && c.ch.sm != nil {
-			c.ch.driftBackward(gn, nat, c.v, t.w, t.gS)
-		}
+}
+
+// condGamma returns gamma's coefficient when it is sampled in its
+// conditional coordinates (panel_condgamma.go), else nil.
+func (t *PanelTarget) condGamma() *panelCoef {
+	if len(t.coefs) > 0 && t.coefs[0].cond != nil {
+		return t.coefs[0]
 	}
-	// the moving baseline, the same way
-	if t.base != nil {
-		t.base.backward(gn, nat, t.w, t.gS)
-	}
-	return lp, true
+	return nil
 }
 
 // evalFinish adds the coefficients' hierarchies, through to the sampling
-// coordinates, and the transforms' Jacobians and chain rule.
+// coordinates, and the transforms' Jacobians and chain rule. Gamma comes
+// first: in its conditional coordinates it depends on S'_g, so its
+// gradient there goes on to the other coefficients before their
+// hierarchies pull theirs back.
 func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
 	var gn []float64
 	if grad != nil {
@@ -501,6 +539,35 @@ func (t *PanelTarget) evalFinish(grad []float64, lp float64) float64 {
 	}
 	for _, c := range t.coefs {
 		lp += c.prior(t.nat, gn, grad)
+		if c.cond == nil || grad == nil {
+			continue
+		}
+		if t.inter.free >= 0 {
+			// mu = mu' - gamma qbar - mean_g S'_g; d lp/d mu is complete
+			gm := gn[t.inter.mu]
+			gn[c.hyper] -= gm * c.cond.qbar
+			for g := range c.cond.gS {
+				c.cond.gS[g] -= gm / float64(t.G)
+			}
+		}
+		t.shear(gn, c.cond.gS, c)
+		for g, v := range c.cond.gS {
+			t.gS[g] += v // the smooth functions' share, below
+		}
+	}
+	// the drifting channels' smooth functions and the moving baseline,
+	// through the likelihood and S_g (which holds the drifted mean and the
+	// baseline's: the intercepts' shear and gamma's conditional
+	// coordinates)
+	if grad != nil {
+		for _, c := range t.coefs {
+			if c.ch != nil && c.ch.sm != nil {
+				c.ch.driftBackward(gn, t.nat, c.v, t.w, t.gS)
+			}
+		}
+		if t.base != nil {
+			t.base.backward(gn, t.nat, t.w, t.gS)
+		}
 	}
 	return t.finish(grad, lp)
 }
@@ -834,6 +901,7 @@ type panelCoef struct {
 	pooled      bool
 	rescale     bool
 	ch          *panelChannel // nil for gamma
+	cond        *condGamma    // gamma's conditional coordinates, when chosen (lam unused)
 	q           [][]float64   // gamma's regressor per region (queries)
 	bar         []float64     // gamma's: mean_t q[g][t]
 	v, g        []float64     // theta[g] and d lp/d theta[g]
@@ -858,6 +926,9 @@ func (c *panelCoef) values(nat, x []float64) bool {
 			c.v[g] = th
 		}
 		return true
+	}
+	if c.cond != nil {
+		return true // condValues, once S'_g is known
 	}
 	tau := nat[c.tauPos]
 	for g := range c.v {
@@ -885,6 +956,9 @@ func (c *panelCoef) prior(nat, gn, grad []float64) float64 {
 			gn[c.hyper] += s
 		}
 		return 0
+	}
+	if c.cond != nil {
+		return c.condPrior(nat, gn, grad)
 	}
 	tau := nat[c.tauPos]
 	ltau := math.Log(tau)

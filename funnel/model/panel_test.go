@@ -85,9 +85,17 @@ func randomCoords(p *Panel, seed uint64) *Coords {
 		c.Mu[g] = pick()
 	}
 	for k := range c.Coef {
+		se, est := make([]float64, len(c.Coef[k])), make([]float64, len(c.Coef[k]))
 		for g := range c.Coef[k] {
 			c.Coef[k][g] = pick()
+			// least-squares estimates for gamma's conditional coordinates,
+			// one region without any
+			se[g], est[g] = 0.05+0.5*rng.Float64(), -2*rng.Float64()
+			if g == 1 {
+				est[g] = math.NaN()
+			}
 		}
+		c.SECoef, c.CoefLog = append(c.SECoef, se), append(c.CoefLog, est)
 	}
 	return c
 }
@@ -115,9 +123,11 @@ func TestPanelGradient(t *testing.T) {
 			jumps bool // the drift that can jump (jump.go)
 			base  bool // the moving baseline
 			mask  bool // weeks 22-26 held out
-		}{{1, false, false, false, false, false}, {4, false, false, false, false, false}, {4, true, false, false, false, false},
-			{1, false, true, false, false, false}, {4, true, true, false, false, false}, {4, false, true, false, false, false}, {4, true, true, true, false, false},
-			{1, false, false, false, true, false}, {4, true, false, false, true, false}, {4, false, false, false, true, true}, {4, true, true, false, true, true}} {
+			gamma bool // gamma in its conditional coordinates (with cond)
+		}{{1, false, false, false, false, false, false}, {4, false, false, false, false, false, false}, {4, true, false, false, false, false, false},
+			{1, false, true, false, false, false, false}, {4, true, true, false, false, false, false}, {4, false, true, false, false, false, false}, {4, true, true, true, false, false, false},
+			{1, false, false, false, true, false, false}, {4, true, false, false, true, false, false}, {4, false, false, false, true, true, false}, {4, true, true, false, true, true, false},
+			{4, true, false, false, false, false, true}, {4, true, true, false, false, false, true}, {4, true, true, false, true, true, true}} {
 			G := c.G
 			o := Options{}
 			if c.drift {
@@ -139,6 +149,7 @@ func TestPanelGradient(t *testing.T) {
 			p := testPanelMask(t, G, 30, b.build, G > 1, o, mask)
 			p.Coords = randomCoords(p, uint64(G))
 			p.Coords.MuConditional = c.cond
+			p.Coords.GammaConditional = c.gamma
 			tg, err := p.Target()
 			if err != nil {
 				t.Fatal(err)
@@ -149,7 +160,10 @@ func TestPanelGradient(t *testing.T) {
 			if c.base != (tg.base != nil) {
 				t.Fatalf("%s: moving baseline %v, want %v", b.name, tg.base != nil, c.base)
 			}
-			name := fmt.Sprintf("%s G=%d conditional=%v drift=%v jumps=%v", b.name, G, c.cond, c.drift, c.jumps)
+			if c.gamma && b.name == "outcome" && tg.condGamma() == nil {
+				t.Fatal("outcome: gamma is not in its conditional coordinates")
+			}
+			name := fmt.Sprintf("%s G=%d conditional=%v gamma=%v drift=%v jumps=%v", b.name, G, c.cond, c.gamma, c.drift, c.jumps)
 			if c.base {
 				name += fmt.Sprintf(" baseline masked=%v", c.mask)
 			}
@@ -305,6 +319,7 @@ func TestPanelSamePosterior(t *testing.T) {
 		for rep := 0; rep < 6; rep++ {
 			p.Coords = randomCoords(p, uint64(rep))
 			p.Coords.MuConditional = rep%2 == 1
+			p.Coords.GammaConditional = rep >= 3
 			if rep == 0 {
 				p.Coords = p.Uniform(1)
 			}
