@@ -87,8 +87,8 @@ type panelSweep struct {
 	tests []*model.PanelLiftTest
 	units []float64
 	// fitted, if not nil (tests only), sees every fit of the sweep with
-	// the lift tests it took; jobs run in parallel, so it may be called
-	// concurrently.
+	// the lift tests it took (as the fitted panels hold them); jobs run in
+	// parallel, so it may be called concurrently.
 	fitted func(f *panelFitted, tests []lifts.Test)
 	// the reference fit's split, computed once for the jobs leaving out a
 	// region
@@ -205,6 +205,7 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 // without them is unchanged.
 func (sw *Sweep) fitPanelTests(ctx context.Context, ps *model.PanelScaled, seed uint64, tests []lifts.Test) (*panelFitted, error) {
 	var f *panelFitted
+	var fitted []lifts.Test // the tests the fit took
 	if len(tests) == 0 {
 		var err error
 		if f, err = sw.fitPanel(ctx, ps, seed); err != nil {
@@ -218,9 +219,10 @@ func (sw *Sweep) fitPanelTests(ctx context.Context, ps *model.PanelScaled, seed 
 			return nil, err
 		}
 		f = &panelFitted{ps: ps, panels: [2]*model.Panel{pf.Panels[0], pf.Panels[1]}, fits: [2]*mcmc.Fit{pf.Fits[0], pf.Fits[1]}}
+		fitted = pf.Tests
 	}
 	if sw.pan.fitted != nil {
-		sw.pan.fitted(f, tests)
+		sw.pan.fitted(f, fitted)
 	}
 	return f, nil
 }
