@@ -8,7 +8,6 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 	"sync"
 	"time"
@@ -249,8 +248,6 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		switch {
 		case o.truth != "":
 			return usagef("--truth holds national true parameters; a region panel's recovery simulates from its reference fit (leave out --truth, or add --national)")
-		case slices.Contains(set.Checks, validate.Placebo):
-			return usagef("--checks placebo does not run on a region panel yet; leave it out, or add --national")
 		}
 		in.Panel = ds
 		set.LeaveOutRegions = o.leaveRegion

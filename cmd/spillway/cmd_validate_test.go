@@ -154,7 +154,7 @@ func TestValidateFromFitFolder(t *testing.T) {
 // region model through the command (a reference and two stability refits,
 // one chain of 30 + 30: enough to exercise the command, not to converge)
 // and checks the region file and the verdict's region lines, then the
-// region flags' refusals (exit 2, nothing written).
+// region flags' refusals and --truth's (exit 2, nothing written).
 func TestValidateRegionPanel(t *testing.T) {
 	if testing.Short() {
 		t.Skip("three tiny panel fits")
@@ -197,7 +197,6 @@ func TestValidateRegionPanel(t *testing.T) {
 		{args("--leave-out-regions", "R09", "--out", filepath.Join(dir, "x1")), `region "R09" is not in the data`},
 		{args("--truth", filepath.Join(dir, "sim", "truth.json"), "--out", filepath.Join(dir, "x2")), "--truth holds national true parameters"},
 		{args("--national", "--leave-out-regions", "R01", "--out", filepath.Join(dir, "x3")), "--leave-out-regions needs a region panel"},
-		{args("--checks", "placebo", "--out", filepath.Join(dir, "x4")), "placebo does not run on a region panel"},
 	} {
 		code, _, errs := runCmd(t, c.args...)
 		if code != 2 || !strings.Contains(errs, c.want) {
@@ -241,10 +240,11 @@ func panelJobs(t *testing.T, dir string) map[string][]string {
 // one, so it is the same fit as without tests, number for number (but for
 // the shifts of its sums, measured against the reference fit). The
 // manifest names the options; the lift-test sweep run as two shards and
-// merged gives the same folder byte for byte.
+// merged gives the same folder byte for byte. A sweep with the placebo
+// check judges the sums (validation.csv) and not the regions.
 func TestValidateRegionPanelOptions(t *testing.T) {
 	if testing.Short() {
-		t.Skip("five tiny panel sweeps")
+		t.Skip("six tiny panel sweeps")
 	}
 	dir := t.TempDir()
 	if code, _, errs := runCmd(t, "simulate", "--scenario", "demo-regions", "--regions", "3", "--weeks", "70", "--seed", "4", "--out", filepath.Join(dir, "sim")); code != 0 {
@@ -308,6 +308,17 @@ func TestValidateRegionPanelOptions(t *testing.T) {
 		}
 		if m := manifest(c.name); !strings.Contains(m, c.opts) {
 			t.Errorf("%s: manifest.json lacks %s:\n%s", c.name, c.opts, m)
+		}
+	}
+	// the placebo check judges the sums only
+	sweep("placebo", "--checks", "stability,placebo", "--placebos", "1")
+	for name, want := range map[string]bool{"validation.csv": true, "validation_by_region.csv": false} {
+		b, err := os.ReadFile(filepath.Join(dir, "placebo", name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := strings.Contains(string(b), "placebo,"); got != want {
+			t.Errorf("placebo rows in %s: %v, want %v:\n%s", name, got, want, b)
 		}
 	}
 	// the lift-test sweep as two shards, merged

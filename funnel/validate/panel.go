@@ -50,6 +50,14 @@ import (
 //     with the reference's) and the sum over the regions it kept, compared
 //     with the reference's sum over the same regions (Record Stat
 //     "shift_sd": the move in that sum's posterior sd).
+//   - placebo (when asked for): refits with one channel's spend moved
+//     circularly by the same number of weeks in every region (each
+//     region's flighting and the regions' common timing kept, only the
+//     timing against the outcome broken), without lift tests (as a national
+//     placebo: the tests no longer describe the moved spend), keeping the
+//     channel's effect summed over regions. Only the sum is judged: a
+//     region's own effect is a share of one fit of every region, and
+//     regions without the channel's spend have none to judge.
 //
 // Effects of a channel a region never runs are exactly zero in every draw
 // and in truth; they are not recorded.
@@ -107,8 +115,6 @@ func newPanel(in Input, set Settings) (*panelSweep, error) {
 		return nil, fmt.Errorf("validate: given true parameters are national; a region panel's recovery simulates from its reference fit")
 	case in.Reference != nil:
 		return nil, fmt.Errorf("validate: a region panel's reference is fitted by the sweep; a given fit is not taken")
-	case set.has(Placebo):
-		return nil, fmt.Errorf("validate: the placebo check does not run on a region panel yet")
 	}
 	p := &panelSweep{ds: ds}
 	var err error
@@ -338,6 +344,11 @@ func (sw *Sweep) runPanelJob(ctx context.Context, j Job, ref *panelFitted) ([]Re
 			return nil, err
 		}
 		recs, err := panelEffectRecords(j.Index, res, false, nil)
+		if sw.set.has(Placebo) {
+			for _, col := range append(append([]string(nil), sw.in.Spec.Upper...), sw.in.Spec.Search...) {
+				recs = append(recs, placeboRecord(j.Index, res.Total, col))
+			}
+		}
 		return append(panelFitRecords(j.Index, ref), recs...), err
 	case Recovery:
 		return sw.panelRecoveryJob(ctx, j, ref)
@@ -345,6 +356,8 @@ func (sw *Sweep) runPanelJob(ctx context.Context, j Job, ref *panelFitted) ([]Re
 		return sw.panelHoldoutJob(ctx, j)
 	case Stability:
 		return sw.panelStabilityJob(ctx, j, ref)
+	case Placebo:
+		return sw.panelPlaceboJob(ctx, j)
 	}
 	return nil, fmt.Errorf("validate: the %s check does not run on a region panel", j.Check)
 }
@@ -659,6 +672,53 @@ func (sw *Sweep) panelStabilityJob(ctx context.Context, j Job, ref *panelFitted)
 		recs = append(recs, Record{Job: j.Index, Kind: "effect", Name: e.Channel, Path: e.Path, Window: e.Window, Stat: "shift_sd", Value: shift})
 	}
 	return recs, nil
+}
+
+// panelPlaceboJob refits the panel with channel j.Channel's spend moved
+// circularly by j.Shift weeks in every region and keeps that channel's
+// effect summed over the regions.
+func (sw *Sweep) panelPlaceboJob(ctx context.Context, j Job) ([]Record, error) {
+	ds := sw.pan.ds
+	moved := *ds
+	moved.Regions = make([]data.Region, len(ds.Regions))
+	up, se := slices.Index(ds.Spec.Upper, j.Channel), slices.Index(ds.Spec.Search, j.Channel)
+	if up < 0 && se < 0 {
+		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
+	}
+	for g, r := range ds.Regions {
+		s := r.Series
+		s.Upper = append([][]float64(nil), s.Upper...)
+		s.Search = append([][]float64(nil), s.Search...)
+		if up >= 0 {
+			s.Upper[up] = ShiftSpend(nil, s.Upper[up], j.Shift)
+			// an exposure (and its frequency) moves with its spend
+			if s.Exposure != nil && s.Exposure[up] != nil {
+				s.Exposure = append([][]float64(nil), s.Exposure...)
+				s.Exposure[up] = ShiftSpend(nil, s.Exposure[up], j.Shift)
+			}
+			if s.Frequency != nil && s.Frequency[up] != nil {
+				s.Frequency = append([][]float64(nil), s.Frequency...)
+				s.Frequency[up] = ShiftSpend(nil, s.Frequency[up], j.Shift)
+			}
+		} else {
+			s.Search[se] = ShiftSpend(nil, s.Search[se], j.Shift)
+		}
+		r.Series = s
+		moved.Regions[g] = r
+	}
+	ps, err := model.ScalePanel(&moved, nil)
+	if err != nil {
+		return nil, err
+	}
+	f, err := sw.fitPanelTests(ctx, ps, j.Seed, nil)
+	if err != nil {
+		return nil, err
+	}
+	res, err := mediation.SplitPanel(f.inputs(), sw.windows[:1])
+	if err != nil {
+		return nil, err
+	}
+	return append(panelFitRecords(j.Index, f), placeboRecord(j.Index, res.Total, j.Channel)), nil
 }
 
 // panelID fingerprints a panel's data: every region's name and series,

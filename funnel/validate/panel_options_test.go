@@ -266,3 +266,126 @@ func TestPanelSweepTakesOptions(t *testing.T) {
 		})
 	}
 }
+
+// TestPanelPlacebo runs a panel sweep of placebo refits only (one per
+// channel; 3 regions x 64 weeks, 1 chain x (30 + 30) per fit) and checks
+// that each placebo refit moved its channel's spend by the job's shift in
+// every region and nothing else, that the reference's placebo numbers are
+// its summed total effects (an upper-funnel channel's; paid search's
+// controlled effect is not among the recorded effects), that every placebo
+// refit records its channel's summed effect, and that the placebo verdict is on the sums only:
+// validation.csv has its rows, validation_by_region.csv none.
+func TestPanelPlacebo(t *testing.T) {
+	if testing.Short() {
+		t.Skip("4 tiny panel fits")
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: 3, Weeks: 64, Seed: 12, Dark: 1, Big: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ds := sim.Data
+	in := Input{Series: ds.National(), Spec: ds.Spec, Panel: ds, Tool: "test"}
+	sw, err := New(in, Settings{Checks: []string{Placebo}, Placebos: 1, Chains: 1, Warmup: 30, Draws: 30, Seed: 9})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var mu sync.Mutex
+	var raw [][2][][]float64 // per fit, per region: upper then search raw spend
+	sw.pan.fitted = func(f *panelFitted, _ []lifts.Test) {
+		var x [2][][]float64
+		for _, sc := range f.ps.Scaled {
+			x[0] = append(x[0], sc.RawUpper...)
+			x[1] = append(x[1], sc.RawSearch...)
+		}
+		mu.Lock()
+		raw = append(raw, x)
+		mu.Unlock()
+	}
+	res, err := sw.Run(context.Background(), Shard{}, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	cols := append(append([]string(nil), ds.Spec.Upper...), ds.Spec.Search...)
+	found := map[string]bool{}
+	for _, j := range sw.Jobs() {
+		if j.Check != Placebo {
+			continue
+		}
+		// the expected spend: j.Channel moved in every region
+		var want [2][][]float64
+		for _, r := range ds.Regions {
+			for k, group := range [2][][]float64{r.Series.Upper, r.Series.Search} {
+				names := [2][]string{ds.Spec.Upper, ds.Spec.Search}[k]
+				for c, x := range group {
+					if names[c] == j.Channel {
+						x = ShiftSpend(nil, x, j.Shift)
+					}
+					want[k] = append(want[k], x)
+				}
+			}
+		}
+		for _, got := range raw {
+			same := true
+			for k := range got {
+				for i := range got[k] {
+					if !slices.Equal(got[k][i], want[k][i]) {
+						same = false
+					}
+				}
+			}
+			if same {
+				found[j.Channel] = true
+			}
+		}
+	}
+	for _, col := range cols {
+		if !found[col] {
+			t.Errorf("no placebo refit fitted %s moved in every region and nothing else", col)
+		}
+	}
+	// the reference's placebo numbers are its summed effects' means
+	mean := map[string]float64{}
+	plac := map[[2]any]float64{}
+	for _, r := range res.Records {
+		if r.Kind == "effect" && r.Job == 0 && r.Region == "" && r.Window == "all" && r.Stat == "mean" && (r.Path == "total" || r.Path == "controlled") {
+			mean[r.Name] = r.Value
+		}
+		if r.Kind == "placebo" {
+			if r.Region != "" {
+				t.Errorf("a placebo record of region %s", r.Region)
+			}
+			plac[[2]any{r.Job, r.Name}] = r.Value
+		}
+	}
+	for _, col := range cols {
+		v, ok := plac[[2]any{0, col}]
+		if !ok || !(v > 0) {
+			t.Errorf("the reference's placebo number of %s is %v (recorded: %v)", col, v, ok)
+		}
+		// paid search's controlled effect is not among the recorded effects
+		if m, has := mean[col]; has && math.Abs(v-m) > 1e-12*m {
+			t.Errorf("the reference's placebo number of %s is %v, its summed total effect's mean %v", col, v, m)
+		}
+	}
+	if len(mean) != len(ds.Spec.Upper) {
+		t.Errorf("summed total effects of %d channels, want %d", len(mean), len(ds.Spec.Upper))
+	}
+	for _, j := range sw.Jobs() {
+		if v, ok := plac[[2]any{j.Index, j.Channel}]; j.Check == Placebo && (!ok || math.IsNaN(v)) {
+			t.Errorf("%s: placebo number %v (recorded: %v)", j.Label, v, ok)
+		}
+	}
+	files, rep, err := Files(res)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(string(files[TableFile]), "\nplacebo,") {
+		t.Errorf("%s has no placebo rows:\n%s", TableFile, files[TableFile])
+	}
+	if strings.Contains(string(files[RegionTableFile]), ",placebo,") {
+		t.Errorf("%s has placebo rows:\n%s", RegionTableFile, files[RegionTableFile])
+	}
+	if !strings.Contains(rep.Text(), "placebo: ") {
+		t.Errorf("no placebo verdict:\n%s", rep.Text())
+	}
+}
