@@ -122,8 +122,10 @@ summed over regions; validation_by_region.csv has the same metrics for every
 region (region first). Every refit takes --drift (one multiplier shared by
 the regions) and --lifts as a national sweep's do; a lift test may name a
 region, and a refit leaving out a region drops that region's tests and the
-national ones (they measured every region). A panel sweep takes no --truth,
---fit or placebo check. --national validates the national sum instead.
+national ones (they measured every region). The placebo check moves a
+channel's spend by the same weeks in every region and judges the summed effect
+only. A panel sweep takes no --truth or --fit. --national validates the
+national sum instead.
 
 FOLDER gets validation.csv (check,effect,channel,metric,value),
 validation.png, verdict.txt (also printed), jobs.csv (every job's raw numbers

@@ -235,8 +235,8 @@ type Input struct {
 	// Panel, if not nil, is a region panel of at least 2 regions, to be
 	// validated with the region model (panel.go); Series must then be its
 	// national sum (Panel.National()), which the quarters, the holdout's
-	// summed forecasts and the manifest use. Truth, Reference and the
-	// placebo check are not taken with a panel.
+	// summed forecasts and the manifest use. Truth and Reference are not
+	// taken with a panel.
 	Panel *data.Dataset
 	// Tool names the program and its version in the manifest; shards of
 	// one sweep must agree on it.
