@@ -8,7 +8,6 @@ import (
 	"io"
 	"os"
 	"path/filepath"
-	"slices"
 	"strings"
 	"sync"
 	"time"
@@ -120,8 +119,13 @@ simulates each region from a posterior draw of the reference panel fit,
 holdout forecasts each region and their sum, stability also leaves out each
 region in turn (--leave-out-regions). validation.csv judges the effects
 summed over regions; validation_by_region.csv has the same metrics for every
-region (region first). A panel sweep takes no --truth, --fit, --lifts or
-placebo check. --national validates the national sum instead.
+region (region first). Every refit takes --drift (one multiplier shared by
+the regions) and --lifts as a national sweep's do; a lift test may name a
+region, and a refit leaving out a region drops that region's tests and the
+national ones (they measured every region). The placebo check moves a
+channel's spend by the same weeks in every region and judges the summed effect
+only. A panel sweep takes no --truth or --fit. --national validates the
+national sum instead.
 
 FOLDER gets validation.csv (check,effect,channel,metric,value),
 validation.png, verdict.txt (also printed), jobs.csv (every job's raw numbers
@@ -246,12 +250,6 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		switch {
 		case o.truth != "":
 			return usagef("--truth holds national true parameters; a region panel's recovery simulates from its reference fit (leave out --truth, or add --national)")
-		case liftFile != "":
-			return usagef("--lifts: fit and run take lift tests on a region panel, but validate's panel refits do not yet; leave them out, or add --national")
-		case len(o.sampling.drift) > 0:
-			return usagef("--drift: fit and run take drifting effectiveness on a region panel, but validate's panel refits do not yet; leave it out, or add --national")
-		case slices.Contains(set.Checks, validate.Placebo):
-			return usagef("--checks placebo does not run on a region panel yet; leave it out, or add --national")
 		}
 		in.Panel = ds
 		set.LeaveOutRegions = o.leaveRegion
@@ -260,7 +258,11 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	}
 	in.Series, in.Spec = ds.National(), ds.Spec
 	if liftFile != "" {
-		if in.Lifts, err = lifts.Load(liftFile, ds); err != nil {
+		load := lifts.Load
+		if panel {
+			load = lifts.LoadPanel // a row may name a region
+		}
+		if in.Lifts, err = load(liftFile, ds); err != nil {
 			return err
 		}
 	}

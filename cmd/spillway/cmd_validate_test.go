@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -153,7 +154,7 @@ func TestValidateFromFitFolder(t *testing.T) {
 // region model through the command (a reference and two stability refits,
 // one chain of 30 + 30: enough to exercise the command, not to converge)
 // and checks the region file and the verdict's region lines, then the
-// region flags' refusals (exit 2, nothing written).
+// region flags' refusals and --truth's (exit 2, nothing written).
 func TestValidateRegionPanel(t *testing.T) {
 	if testing.Short() {
 		t.Skip("three tiny panel fits")
@@ -196,7 +197,6 @@ func TestValidateRegionPanel(t *testing.T) {
 		{args("--leave-out-regions", "R09", "--out", filepath.Join(dir, "x1")), `region "R09" is not in the data`},
 		{args("--truth", filepath.Join(dir, "sim", "truth.json"), "--out", filepath.Join(dir, "x2")), "--truth holds national true parameters"},
 		{args("--national", "--leave-out-regions", "R01", "--out", filepath.Join(dir, "x3")), "--leave-out-regions needs a region panel"},
-		{args("--checks", "placebo", "--out", filepath.Join(dir, "x4")), "placebo does not run on a region panel"},
 	} {
 		code, _, errs := runCmd(t, c.args...)
 		if code != 2 || !strings.Contains(errs, c.want) {
@@ -204,6 +204,135 @@ func TestValidateRegionPanel(t *testing.T) {
 		}
 		if _, err := os.Stat(c.args[len(c.args)-1]); !os.IsNotExist(err) {
 			t.Errorf("%s was written", c.args[len(c.args)-1])
+		}
+	}
+}
+
+// panelJobs reads a validate folder's jobs.csv into each job's own
+// numbers (the file's lines without the job number, in order), leaving out
+// the shifts of a sum against the reference's ("shift_sd"), which depend
+// on the reference fit too.
+func panelJobs(t *testing.T, dir string) map[string][]string {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join(dir, "jobs.csv"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := map[string][]string{}
+	for _, line := range strings.Split(strings.TrimSpace(string(b)), "\n")[1:] {
+		job, rest, _ := strings.Cut(line, ",")
+		if !strings.Contains(rest, ",shift_sd,") {
+			out[job] = append(out[job], rest)
+		}
+	}
+	return out
+}
+
+// TestValidateRegionPanelOptions validates a simulated 3-region, 70-week
+// panel with the region model through the command, every check with one
+// job each (the reference, 1 replicate, 1 origin of 2 weeks, 2023Q3 left
+// out, R02 left out; one chain of 30 + 30 per fit), without options, with
+// --drift video_spend (smooth, and with --drift-shape jumps) and with
+// --lifts FILE (a test of video's outcome in R02 in 2023Q2 and a national
+// test of audio's queries in 2023Q3). Every job's numbers must differ from
+// the sweep without options (its fit took the option), except the refit
+// without R02 of the lift-test sweep: it drops R02's test and the national
+// one, so it is the same fit as without tests, number for number (but for
+// the shifts of its sums, measured against the reference fit). The
+// manifest names the options; the lift-test sweep run as two shards and
+// merged gives the same folder byte for byte. A sweep with the placebo
+// check judges the sums (validation.csv) and not the regions.
+func TestValidateRegionPanelOptions(t *testing.T) {
+	if testing.Short() {
+		t.Skip("six tiny panel sweeps")
+	}
+	dir := t.TempDir()
+	if code, _, errs := runCmd(t, "simulate", "--scenario", "demo-regions", "--regions", "3", "--weeks", "70", "--seed", "4", "--out", filepath.Join(dir, "sim")); code != 0 {
+		t.Fatalf("simulate: %d %s", code, errs)
+	}
+	// weeks 14-21 (2023-04-10 to 2023-05-29) lie in 2023Q2, 30-37 in 2023Q3
+	tests := writeFileIn(t, dir, "lifts.csv", "channel,start,end,estimate,se,metric,region\n"+
+		"video_spend,2023-04-10,2023-05-29,400,100,outcome,R02\n"+
+		"audio_spend,2023-07-31,2023-09-18,3000,1000,queries,\n")
+	sweep := func(out string, extra ...string) map[string][]string {
+		t.Helper()
+		a := []string{"validate", "--data", filepath.Join(dir, "sim", "data.csv"), "--date", "week", "--region", "region",
+			"--upper", "video_spend,audio_spend", "--search", "search_spend", "--queries", "branded_queries",
+			"--outcome", "conversions", "--controls", "price", "--replicates", "1", "--origins", "1", "--horizon", "2",
+			"--leave-out", "2023Q3", "--leave-out-regions", "R02", "--seeds", "0",
+			"--chains", "1", "--warmup", "30", "--draws", "30", "--seed", "4", "--quiet", "--out", filepath.Join(dir, out)}
+		code, stdout, errs := runCmd(t, append(a, extra...)...)
+		if code != 0 {
+			t.Fatalf("validate %v: exit %d\n%s", extra, code, errs)
+		}
+		if strings.Contains(out, "shard") {
+			return nil
+		}
+		if !strings.Contains(stdout, "By region") {
+			t.Errorf("validate %v: stdout lacks the region lines:\n%s", extra, stdout)
+		}
+		if _, err := os.Stat(filepath.Join(dir, out, "validation_by_region.csv")); err != nil {
+			t.Error(err)
+		}
+		return panelJobs(t, filepath.Join(dir, out))
+	}
+	manifest := func(out string) string {
+		b, err := os.ReadFile(filepath.Join(dir, out, "manifest.json"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		return string(b)
+	}
+	plain := sweep("plain")
+	labels := []string{"reference", "replicate 1", "origin", "without 2023Q3", "without region R02"}
+	if len(plain) != len(labels) {
+		t.Fatalf("%d jobs, want %d", len(plain), len(labels))
+	}
+	for _, c := range []struct {
+		name  string
+		flags []string
+		same  []string // jobs whose numbers equal the sweep without options
+		opts  string
+	}{
+		{"drift", []string{"--drift", "video_spend"}, nil, `"options": "drift=video_spend"`},
+		{"jumps", []string{"--drift", "video_spend", "--drift-shape", "jumps"}, nil, `"options": "drift=video_spend; drift shape=jumps"`},
+		{"lifts", []string{"--lifts", tests}, []string{"4"}, `"options": "default; lift video_spend outcome 14-21 400 100 in R02; lift audio_spend queries 30-37 3000 1000"`},
+	} {
+		got := sweep(c.name, c.flags...)
+		for job, label := range labels {
+			k := string(rune('0' + job))
+			same := strings.Join(got[k], "\n") == strings.Join(plain[k], "\n")
+			if want := slices.Contains(c.same, k); same != want {
+				t.Errorf("%s: job %s (%s) has the same numbers as without the option: %v, want %v", c.name, k, label, same, want)
+			}
+		}
+		if m := manifest(c.name); !strings.Contains(m, c.opts) {
+			t.Errorf("%s: manifest.json lacks %s:\n%s", c.name, c.opts, m)
+		}
+	}
+	// the placebo check judges the sums only
+	sweep("placebo", "--checks", "stability,placebo", "--placebos", "1")
+	for name, want := range map[string]bool{"validation.csv": true, "validation_by_region.csv": false} {
+		b, err := os.ReadFile(filepath.Join(dir, "placebo", name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if got := strings.Contains(string(b), "placebo,"); got != want {
+			t.Errorf("placebo rows in %s: %v, want %v:\n%s", name, got, want, b)
+		}
+	}
+	// the lift-test sweep as two shards, merged
+	sweep("shard1", "--lifts", tests, "--shard", "1/2")
+	sweep("shard2", "--lifts", tests, "--shard", "2/2")
+	merged := filepath.Join(dir, "merged")
+	if code, _, errs := runCmd(t, "validate", "--merge", filepath.Join(dir, "shard2"), filepath.Join(dir, "shard1"), "--out", merged, "--quiet"); code != 0 {
+		t.Fatalf("merge: exit %d\n%s", code, errs)
+	}
+	for _, name := range files(t, filepath.Join(dir, "lifts")) {
+		a, _ := os.ReadFile(filepath.Join(dir, "lifts", name))
+		b, err := os.ReadFile(filepath.Join(merged, name))
+		if err != nil || !bytes.Equal(a, b) {
+			t.Errorf("%s differs between the whole sweep and the merged shards (%v)", name, err)
 		}
 	}
 }

@@ -239,7 +239,7 @@ func TestPanelBadInput(t *testing.T) {
 		{"a lift test in an unknown region", cmdRegions(60).csv(), append([]string{"--lifts", lifts}, regionFlags...), "fit", []string{lifts + ":3:6: ", `unknown region "east"; expected one of the data's regions north, south`}},
 		{"a lift test in a region without the channel's spend", noVideo.csv(), append([]string{"--lifts", north}, regionFlags...), "fit", []string{north + ":2:6: ", "video has no spend in region north from 2023-04-10 to 2023-05-01"}},
 		{"a lift test in a region of the national sum", cmdRegions(60).csv(), append([]string{"--lifts", north, "--national"}, regionFlags...), "fit", []string{north + ":2:6: ", "fitted as their national sum"}},
-		{"drift in validate", cmdRegions(60).csv(), append([]string{"--drift", "video"}, regionFlags...), "validate", []string{"--drift", "validate's panel refits", "--national"}},
+		{"a lift test in an unknown region in validate", cmdRegions(60).csv(), append([]string{"--lifts", lifts}, regionFlags...), "validate", []string{lifts + ":3:6: ", `unknown region "east"; expected one of the data's regions north, south`}},
 		{"allocate", cmdRegions(60).csv(), append([]string{"--allocate"}, regionFlags...), "run", []string{"--allocate", "--national"}},
 	} {
 		t.Run(c.name, func(t *testing.T) {

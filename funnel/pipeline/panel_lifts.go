@@ -25,6 +25,15 @@ func FitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 	return fitPanelLifts(ctx, ps, o, tests, s, hook, true)
 }
 
+// FitPanelStages is FitPanelLifts without the naive panel (Fits[2] is
+// nil), as FitStages is FitLifts: the demand and outcome panels with the
+// lift tests, for refits that need only the two (validation). Unlike
+// FitPanelLifts it always binds the tests' joint target, so callers without
+// tests should use FitPanel.
+func FitPanelStages(ctx context.Context, ps *model.PanelScaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
+	return fitPanelLifts(ctx, ps, o, tests, s, hook, false)
+}
+
 // fitPanelLifts is FitPanelLifts with or without the naive panel (Fits[2]
 // nil without).
 func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, tests []lifts.Test, s mcmc.Settings, hook StageHook, naive bool) (*PanelFitted, error) {

@@ -96,6 +96,9 @@ func liftsID(tests []lifts.Test) string {
 	for _, t := range tests {
 		fmt.Fprintf(&b, "; lift %s %v %d-%d %s %s", t.Channel, t.Metric, t.From, t.To,
 			strconv.FormatFloat(t.Estimate, 'g', -1, 64), strconv.FormatFloat(t.SE, 'g', -1, 64))
+		if t.Region != "" {
+			b.WriteString(" in " + t.Region)
+		}
 	}
 	return b.String()
 }

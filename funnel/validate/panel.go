@@ -12,6 +12,7 @@ import (
 
 	"spillway/funnel/data"
 	"spillway/funnel/forward"
+	"spillway/funnel/lifts"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
 	"spillway/funnel/pipeline"
@@ -49,9 +50,32 @@ import (
 //     with the reference's) and the sum over the regions it kept, compared
 //     with the reference's sum over the same regions (Record Stat
 //     "shift_sd": the move in that sum's posterior sd).
+//   - placebo (when asked for): refits with one channel's spend moved
+//     circularly by the same number of weeks in every region (each
+//     region's flighting and the regions' common timing kept, only the
+//     timing against the outcome broken), without lift tests (as a national
+//     placebo: the tests no longer describe the moved spend), keeping the
+//     channel's effect summed over regions. Only the sum is judged: a
+//     region's own effect is a share of one fit of every region, and
+//     regions without the channel's spend have none to judge.
 //
 // Effects of a channel a region never runs are exactly zero in every draw
 // and in truth; they are not recorded.
+//
+// Every fit takes the sweep's model options (a drifting effectiveness
+// among them: the reference draw that simulates a replicate carries the
+// multiplier into every region's truth, through PanelLayout Region) and
+// the lift tests of the data it fits (Input.Lifts; a test may name a
+// region), as a national sweep's fits do: the reference every test, a
+// holdout fit those ending before its origin, a fit leaving a quarter out
+// those outside it, a recovery replicate the same tests simulated from its
+// truth (the true lift in the test's units, from the reference draw it was
+// simulated from, plus Normal(0, se) noise). A fit leaving out region g
+// drops the tests in g and the national tests too: a national test
+// measured the sum over every region, g included, which that fit cannot
+// take without crediting g's lift to the regions it kept. With a test of
+// the outcome the demand and outcome panels are fitted as one target
+// (pipeline.FitPanelStages).
 
 // RegionJobLabel prefixes the label of a stability job that leaves out a
 // region ("without region R03").
@@ -64,6 +88,16 @@ type panelSweep struct {
 	// panels are the demand and outcome panels built on ps (checked before
 	// any sampling; each fit builds its own on its data).
 	panels [2]*model.Panel
+	// tests are Input.Lifts as terms bound to panels, and units their
+	// units in the metric's own (lifts.Test PanelUnit): a test's true lift
+	// under a draw of the reference fit is units[i] * tests[i].Lift (a
+	// Clone of it); nil without tests.
+	tests []*model.PanelLiftTest
+	units []float64
+	// fitted, if not nil (tests only), sees every fit of the sweep with
+	// the lift tests it took (as the fitted panels hold them); jobs run in
+	// parallel, so it may be called concurrently.
+	fitted func(f *panelFitted, tests []lifts.Test)
 	// the reference fit's split, computed once for the jobs leaving out a
 	// region
 	once     sync.Once
@@ -81,10 +115,6 @@ func newPanel(in Input, set Settings) (*panelSweep, error) {
 		return nil, fmt.Errorf("validate: given true parameters are national; a region panel's recovery simulates from its reference fit")
 	case in.Reference != nil:
 		return nil, fmt.Errorf("validate: a region panel's reference is fitted by the sweep; a given fit is not taken")
-	case len(in.Lifts) > 0:
-		return nil, fmt.Errorf("validate: lift tests are not part of the region model yet; validate the panel without them")
-	case set.has(Placebo):
-		return nil, fmt.Errorf("validate: the placebo check does not run on a region panel yet")
 	}
 	p := &panelSweep{ds: ds}
 	var err error
@@ -97,8 +127,19 @@ func newPanel(in Input, set Settings) (*panelSweep, error) {
 	}
 	p.panels = [2]*model.Panel{all[0], all[1]}
 	for _, pn := range p.panels {
-		if _, err := model.ChooseCoordinates(pn); err != nil {
+		if pn.Coords, err = model.ChooseCoordinates(pn); err != nil {
 			return nil, fmt.Errorf("validate: %s stage: %w", pn.Name, err)
+		}
+	}
+	if len(in.Lifts) > 0 {
+		// bound to both panels whatever their metric, so that Lift reads
+		// a paired draw of the two
+		for _, t := range in.Lifts {
+			p.tests = append(p.tests, t.PanelTerm(p.ps, 0, 1))
+			p.units = append(p.units, t.PanelUnit(p.ps))
+		}
+		if _, err := model.NewPanelJoint(p.panels[:], p.tests...); err != nil {
+			return nil, fmt.Errorf("validate: %w", err)
 		}
 	}
 	for _, name := range set.LeaveOutRegions {
@@ -164,6 +205,63 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 	return f, nil
 }
 
+// fitPanelTests is fitPanel with lift tests as data (pipeline.FitPanelStages:
+// with a test of the outcome, the demand and outcome panels as one joint
+// target; seeds as fitPanel's); without tests, fitPanel itself, so a sweep
+// without them is unchanged.
+func (sw *Sweep) fitPanelTests(ctx context.Context, ps *model.PanelScaled, seed uint64, tests []lifts.Test) (*panelFitted, error) {
+	var f *panelFitted
+	var fitted []lifts.Test // the tests the fit took
+	if len(tests) == 0 {
+		var err error
+		if f, err = sw.fitPanel(ctx, ps, seed); err != nil {
+			return nil, err
+		}
+	} else {
+		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed,
+			TargetAccept: pipeline.DefaultTargetAccept}
+		pf, err := pipeline.FitPanelStages(ctx, ps, sw.in.Options, tests, set, nil)
+		if err != nil {
+			return nil, err
+		}
+		f = &panelFitted{ps: ps, panels: [2]*model.Panel{pf.Panels[0], pf.Panels[1]}, fits: [2]*mcmc.Fit{pf.Fits[0], pf.Fits[1]}}
+		fitted = pf.Tests
+	}
+	if sw.pan.fitted != nil {
+		sw.pan.fitted(f, fitted)
+	}
+	return f, nil
+}
+
+// testsWithoutRegion returns the lift tests a fit leaving out region
+// may take: those of the other regions. A national test is dropped too (it
+// measured the lift summed over every region, region's included).
+func (sw *Sweep) testsWithoutRegion(region string) []lifts.Test {
+	var out []lifts.Test
+	for _, t := range sw.in.Lifts {
+		if t.Region != "" && t.Region != region {
+			out = append(out, t)
+		}
+	}
+	return out
+}
+
+// simulatedPanelTests returns the sweep's lift tests as a replicate
+// simulated from the reference fit's paired draw (vd, vo) would have given
+// them: over the same weeks and regions with the same standard errors,
+// each estimate the true lift under that draw plus Normal(0, se) noise. A
+// lift in the metric's own units depends on the parameters and the spend
+// only, not on the replicate's noise, so it is read on the data's own
+// scaling, where the draw lives.
+func (p *panelSweep) simulatedPanelTests(tests []lifts.Test, vd, vo []float64, rng *rand.Rand) []lifts.Test {
+	out := make([]lifts.Test, len(tests))
+	for i, t := range tests {
+		t.Estimate = p.units[i]*p.tests[i].Clone().Lift(vd, vo) + t.SE*rng.NormFloat64()
+		out[i] = t
+	}
+	return out
+}
+
 // panelFitRecords are the convergence records of a panel fit (each stage's
 // worst over all its parameters, spreads and region blocks included).
 func panelFitRecords(job int, f *panelFitted) []Record {
@@ -222,7 +320,7 @@ func truthKey(region string, e mediation.Effect) string {
 
 // panelReference fits the whole panel with the sweep's seed.
 func (sw *Sweep) panelReference(ctx context.Context) (*panelFitted, error) {
-	f, err := sw.fitPanel(ctx, sw.pan.ps, sw.set.Seed)
+	f, err := sw.fitPanelTests(ctx, sw.pan.ps, sw.set.Seed, sw.in.Lifts)
 	if err != nil {
 		return nil, fmt.Errorf("validate: reference fit: %w", err)
 	}
@@ -246,6 +344,11 @@ func (sw *Sweep) runPanelJob(ctx context.Context, j Job, ref *panelFitted) ([]Re
 			return nil, err
 		}
 		recs, err := panelEffectRecords(j.Index, res, false, nil)
+		if sw.set.has(Placebo) {
+			for _, col := range append(append([]string(nil), sw.in.Spec.Upper...), sw.in.Spec.Search...) {
+				recs = append(recs, placeboRecord(j.Index, res.Total, col))
+			}
+		}
 		return append(panelFitRecords(j.Index, ref), recs...), err
 	case Recovery:
 		return sw.panelRecoveryJob(ctx, j, ref)
@@ -253,6 +356,8 @@ func (sw *Sweep) runPanelJob(ctx context.Context, j Job, ref *panelFitted) ([]Re
 		return sw.panelHoldoutJob(ctx, j)
 	case Stability:
 		return sw.panelStabilityJob(ctx, j, ref)
+	case Placebo:
+		return sw.panelPlaceboJob(ctx, j)
 	}
 	return nil, fmt.Errorf("validate: the %s check does not run on a region panel", j.Check)
 }
@@ -323,7 +428,11 @@ func (sw *Sweep) panelRecoveryJob(ctx context.Context, j Job, ref *panelFitted) 
 			tv[truthKey(r.Region, e)] = e.Draws[0]
 		}
 	}
-	f, err := sw.fitPanel(ctx, ps, j.Seed)
+	var tests []lifts.Test
+	if len(sw.in.Lifts) > 0 {
+		tests = p.simulatedPanelTests(sw.in.Lifts, in.DemandDraws.Rows[d], in.OutcomeDraws.Rows[d], rng)
+	}
+	f, err := sw.fitPanelTests(ctx, ps, j.Seed, tests)
 	if err != nil {
 		return nil, err
 	}
@@ -387,7 +496,7 @@ func (sw *Sweep) panelHoldoutJob(ctx context.Context, j Job) ([]Record, error) {
 	if err != nil {
 		return nil, err
 	}
-	f, err := sw.fitPanel(ctx, ps, j.Seed)
+	f, err := sw.fitPanelTests(ctx, ps, j.Seed, sw.testsBefore(j.Origin))
 	if err != nil {
 		return nil, err
 	}
@@ -488,6 +597,7 @@ func (sw *Sweep) panelStabilityJob(ctx context.Context, j Job, ref *panelFitted)
 	p := sw.pan
 	ds := p.ds
 	var train []bool
+	tests := sw.in.Lifts
 	switch {
 	case j.Quarter != "":
 		i := slices.IndexFunc(sw.windows, func(w window.Window) bool { return w.Name == j.Quarter })
@@ -496,7 +606,9 @@ func (sw *Sweep) panelStabilityJob(ctx context.Context, j Job, ref *panelFitted)
 		for t := range train {
 			train[t] = t < q.From || t > q.To
 		}
+		tests = sw.testsOutside(q.From, q.To)
 	case j.Region != "":
+		tests = sw.testsWithoutRegion(j.Region)
 		kept := *ds
 		kept.Regions = nil
 		for _, r := range ds.Regions {
@@ -510,7 +622,7 @@ func (sw *Sweep) panelStabilityJob(ctx context.Context, j Job, ref *panelFitted)
 	if err != nil {
 		return nil, err
 	}
-	f, err := sw.fitPanel(ctx, ps, j.Seed)
+	f, err := sw.fitPanelTests(ctx, ps, j.Seed, tests)
 	if err != nil {
 		return nil, err
 	}
@@ -560,6 +672,53 @@ func (sw *Sweep) panelStabilityJob(ctx context.Context, j Job, ref *panelFitted)
 		recs = append(recs, Record{Job: j.Index, Kind: "effect", Name: e.Channel, Path: e.Path, Window: e.Window, Stat: "shift_sd", Value: shift})
 	}
 	return recs, nil
+}
+
+// panelPlaceboJob refits the panel with channel j.Channel's spend moved
+// circularly by j.Shift weeks in every region and keeps that channel's
+// effect summed over the regions.
+func (sw *Sweep) panelPlaceboJob(ctx context.Context, j Job) ([]Record, error) {
+	ds := sw.pan.ds
+	moved := *ds
+	moved.Regions = make([]data.Region, len(ds.Regions))
+	up, se := slices.Index(ds.Spec.Upper, j.Channel), slices.Index(ds.Spec.Search, j.Channel)
+	if up < 0 && se < 0 {
+		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
+	}
+	for g, r := range ds.Regions {
+		s := r.Series
+		s.Upper = append([][]float64(nil), s.Upper...)
+		s.Search = append([][]float64(nil), s.Search...)
+		if up >= 0 {
+			s.Upper[up] = ShiftSpend(nil, s.Upper[up], j.Shift)
+			// an exposure (and its frequency) moves with its spend
+			if s.Exposure != nil && s.Exposure[up] != nil {
+				s.Exposure = append([][]float64(nil), s.Exposure...)
+				s.Exposure[up] = ShiftSpend(nil, s.Exposure[up], j.Shift)
+			}
+			if s.Frequency != nil && s.Frequency[up] != nil {
+				s.Frequency = append([][]float64(nil), s.Frequency...)
+				s.Frequency[up] = ShiftSpend(nil, s.Frequency[up], j.Shift)
+			}
+		} else {
+			s.Search[se] = ShiftSpend(nil, s.Search[se], j.Shift)
+		}
+		r.Series = s
+		moved.Regions[g] = r
+	}
+	ps, err := model.ScalePanel(&moved, nil)
+	if err != nil {
+		return nil, err
+	}
+	f, err := sw.fitPanelTests(ctx, ps, j.Seed, nil)
+	if err != nil {
+		return nil, err
+	}
+	res, err := mediation.SplitPanel(f.inputs(), sw.windows[:1])
+	if err != nil {
+		return nil, err
+	}
+	return append(panelFitRecords(j.Index, f), placeboRecord(j.Index, res.Total, j.Channel)), nil
 }
 
 // panelID fingerprints a panel's data: every region's name and series,

@@ -219,7 +219,9 @@ type Input struct {
 	// those before its origin, a fit leaving a quarter out those outside
 	// it), and a recovery replicate the same tests simulated from its
 	// truth; placebo refits take none (their spend moved, the tests no
-	// longer describe it).
+	// longer describe it). With a Panel a test may name a region
+	// (lifts.LoadPanel); a panel fit leaving out a region takes neither
+	// that region's tests nor the national ones (panel.go).
 	Lifts []lifts.Test
 	// Truth, if not nil, holds true parameter values in the model units of
 	// Series (as truth.json from a simulation has them); the recovery
@@ -233,8 +235,8 @@ type Input struct {
 	// Panel, if not nil, is a region panel of at least 2 regions, to be
 	// validated with the region model (panel.go); Series must then be its
 	// national sum (Panel.National()), which the quarters, the holdout's
-	// summed forecasts and the manifest use. Truth, Reference, Lifts and
-	// the placebo check are not taken with a panel.
+	// summed forecasts and the manifest use. Truth and Reference are not
+	// taken with a panel.
 	Panel *data.Dataset
 	// Tool names the program and its version in the manifest; shards of
 	// one sweep must agree on it.
@@ -580,6 +582,22 @@ func optionsID(o model.Options) string {
 	}
 	if o.Plain {
 		parts = append(parts, "plain")
+	}
+	var drift []string
+	for c, on := range o.Drift {
+		if on {
+			drift = append(drift, c)
+		}
+	}
+	sort.Strings(drift)
+	if len(drift) > 0 {
+		parts = append(parts, "drift="+strings.Join(drift, ","))
+		if o.DriftShape == model.DriftJumps {
+			parts = append(parts, "drift shape="+o.DriftShape)
+		}
+	}
+	if o.Baseline != "" {
+		parts = append(parts, "baseline="+o.Baseline)
 	}
 	parts = append(parts, returnsID(o)...)
 	if len(parts) == 0 {

@@ -5,6 +5,7 @@ import (
 	"encoding/csv"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -22,6 +23,8 @@ func (rep *Report) aggregateRegions(m Manifest, main []Record, byRegion map[stri
 			fits = append(fits, r)
 		}
 	}
+	// the placebo check judges the sums only (panel.go)
+	m.Settings.Checks = slices.DeleteFunc(slices.Clone(m.Settings.Checks), func(c string) bool { return c == Placebo })
 	for _, name := range m.Regions {
 		recs, ok := byRegion[name]
 		if !ok {
