@@ -210,7 +210,7 @@ func SumRegions(regions []RegionResult) (*PanelResult, error) {
 		}
 		ctl, app := find(tot.Borrowed, e.Channel, "controlled", e.Window), find(tot.Borrowed, e.Channel, "apparent", e.Window)
 		for d := range e.Draws {
-			tot.Borrowed[i].Draws[d] = (app[d] - ctl[d]) / app[d]
+			tot.Borrowed[i].Draws[d] = BorrowedShare(app[d], ctl[d])
 		}
 	}
 	for _, r := range regions {

@@ -10,11 +10,12 @@ import (
 // (not sums of ratios), weekly contributions add.
 func TestSumRegions(t *testing.T) {
 	region := func(via, dir, ctl, app []float64, spend float64) *Result {
-		tot, share, bshare := make([]float64, 2), make([]float64, 2), make([]float64, 2)
+		n := len(via)
+		tot, share, bshare := make([]float64, n), make([]float64, n), make([]float64, n)
 		for d := range tot {
 			tot[d] = via[d] + dir[d]
 			share[d] = via[d] / tot[d]
-			bshare[d] = (app[d] - ctl[d]) / app[d]
+			bshare[d] = BorrowedShare(app[d], ctl[d])
 		}
 		return &Result{
 			Effects: []Effect{
@@ -31,15 +32,18 @@ func TestSumRegions(t *testing.T) {
 			Weekly: [][2][][]float64{{{{1, 2}, {3, 4}}, {{5, 6}, {7, 8}}}},
 		}
 	}
-	a := region([]float64{10, 20}, []float64{30, 20}, []float64{5, 6}, []float64{10, 9}, 100)
-	b := region([]float64{1, 0}, []float64{1, 2}, []float64{1, 2}, []float64{2, 2}, 50)
+	// draw 3: the summed apparent return (0.0005) lies below the summed
+	// controlled one (6) and near zero, where (apparent - controlled) /
+	// apparent would be -11999; the share is BorrowedShare's, as nationally
+	a := region([]float64{10, 20, 1}, []float64{30, 20, 1}, []float64{5, 6, 5}, []float64{10, 9, 0.001}, 100)
+	b := region([]float64{1, 0, 1}, []float64{1, 2, 1}, []float64{1, 2, 1}, []float64{2, 2, -0.0005}, 50)
 	res, err := SumRegions([]RegionResult{{"A", a}, {"B", b}})
 	if err != nil {
 		t.Fatal(err)
 	}
 	want := map[string][]float64{
 		"direct": {31, 22}, "via_search": {11, 20}, "total": {42, 42}, "mediated_share": {11.0 / 42, 20.0 / 42},
-		"controlled": {6, 8}, "apparent": {12, 11}, "borrowed_share": {0.5, 3.0 / 11},
+		"controlled": {6, 8, 6}, "apparent": {12, 11, 0.0005}, "borrowed_share": {0.5, 3.0 / 11, (0.0005 - 6) / 6},
 	}
 	for _, e := range append(res.Total.Effects, res.Total.Borrowed...) {
 		for d, w := range want[e.Path] {
