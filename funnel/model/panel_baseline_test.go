@@ -168,22 +168,6 @@ func TestPanelBaselineStart(t *testing.T) {
 				t.Errorf("%s: start weight %d is %.3f", b.name, j+1, z)
 			}
 		}
-		lp0 := tg.LogProb(x0)
-		rng := rand.New(rand.NewPCG(7, 7))
-		x := make([]float64, tg.Dim())
-		for rep := 0; rep < 20; rep++ {
-			for i := range x {
-				x[i] = -2 + 4*rng.Float64()
-			}
-			if lp := tg.LogProb(x); !(lp0 > lp) {
-				t.Errorf("%s: log density %.6g at the start point, %.6g at a uniform start", b.name, lp0, lp)
-			}
-		}
-		names := tg.CoordNames()
-		for i, m := range tg.StartMetric() {
-			if !(m > 0 && m <= 1) {
-				t.Errorf("%s: %s start variance %v, want in (0, 1]", b.name, names[i], m)
-			}
-		}
+		checkStart(t, b.name, tg, x0)
 	}
 }

@@ -480,6 +480,36 @@ func TestPanelRegionDrift(t *testing.T) {
 	}
 }
 
+// checkStart checks a panel's start: the start point x0's log density is
+// above that of every one of 20 of the sampler's usual starts (uniform in
+// (-2, 2)) and every variance of the start metric, which it returns, is in
+// (0, 1].
+func checkStart(t *testing.T, name string, tg *PanelTarget, x0 []float64) []float64 {
+	t.Helper()
+	lp0 := tg.LogProb(x0)
+	rng := rand.New(rand.NewPCG(7, 7))
+	x := make([]float64, tg.Dim())
+	for rep := 0; rep < 20; rep++ {
+		for i := range x {
+			x[i] = -2 + 4*rng.Float64()
+		}
+		if lp := tg.LogProb(x); !(lp0 > lp) {
+			t.Errorf("%s: log density %.6g at the start point, %.6g at a uniform start", name, lp0, lp)
+		}
+	}
+	m := tg.StartMetric()
+	if len(m) != tg.Dim() {
+		t.Fatalf("%s: start metric of %d values, want %d", name, len(m), tg.Dim())
+	}
+	names := tg.CoordNames()
+	for i, v := range m {
+		if !(v > 0 && v <= 1) {
+			t.Errorf("%s: %s start variance %v, want in (0, 1]", name, names[i], v)
+		}
+	}
+	return m
+}
+
 // TestPanelStart: the start the panel offers the sampler (StartPoint,
 // StartMetric) on 6 regions of 104 weeks: the start point's log density is
 // above that of every one of 20 of the sampler's usual starts (uniform in
@@ -502,27 +532,8 @@ func TestPanelStart(t *testing.T) {
 		if !tg.StartPoint(x0) {
 			t.Fatalf("%s: no start point", b.name)
 		}
-		lp0 := tg.LogProb(x0)
-		rng := rand.New(rand.NewPCG(7, 7))
-		x := make([]float64, tg.Dim())
-		for rep := 0; rep < 20; rep++ {
-			for i := range x {
-				x[i] = -2 + 4*rng.Float64()
-			}
-			if lp := tg.LogProb(x); !(lp0 > lp) {
-				t.Errorf("%s: log density %.6g at the start point, %.6g at a uniform start", b.name, lp0, lp)
-			}
-		}
-		m := tg.StartMetric()
-		if len(m) != tg.Dim() {
-			t.Fatalf("%s: start metric of %d values, want %d", b.name, len(m), tg.Dim())
-		}
+		m := checkStart(t, b.name, tg, x0)
 		names := tg.CoordNames()
-		for i, v := range m {
-			if !(v > 0 && v <= 1) {
-				t.Errorf("%s: %s start variance %v, want in (0, 1]", b.name, names[i], v)
-			}
-		}
 		for g := 0; g < tg.G; g++ {
 			if v := m[tg.inter.block+g]; v != 1 {
 				t.Errorf("%s: %s start variance %v, want 1", b.name, names[tg.inter.block+g], v)
