@@ -560,14 +560,18 @@ func seriesID(s data.Series, spec data.Spec) string {
 // optionsID describes the model options in a stable text.
 func optionsID(o model.Options) string {
 	var parts []string
-	var lin []string
-	for c, on := range o.Linear {
-		if on {
-			lin = append(lin, c)
+	// the columns a set switches on, sorted
+	on := func(set map[string]bool) []string {
+		var cols []string
+		for c, yes := range set {
+			if yes {
+				cols = append(cols, c)
+			}
 		}
+		sort.Strings(cols)
+		return cols
 	}
-	sort.Strings(lin)
-	if len(lin) > 0 {
+	if lin := on(o.Linear); len(lin) > 0 {
 		parts = append(parts, "linear="+strings.Join(lin, ","))
 	}
 	var names []string
@@ -583,14 +587,7 @@ func optionsID(o model.Options) string {
 	if o.Plain {
 		parts = append(parts, "plain")
 	}
-	var drift []string
-	for c, on := range o.Drift {
-		if on {
-			drift = append(drift, c)
-		}
-	}
-	sort.Strings(drift)
-	if len(drift) > 0 {
+	if drift := on(o.Drift); len(drift) > 0 {
 		parts = append(parts, "drift="+strings.Join(drift, ","))
 		if o.DriftShape == model.DriftJumps {
 			parts = append(parts, "drift shape="+o.DriftShape)
