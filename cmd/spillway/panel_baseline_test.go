@@ -199,8 +199,12 @@ func TestValidatePanelBaseline(t *testing.T) {
 		}
 		f := strings.Split(k, ",")
 		kinds[f[1]] = true
-		if f[5] == "actual" || strings.HasPrefix(f[5], "base") || f[5] == "divergences" {
-			continue // the data, the seasonal baseline's forecast from them, and counts
+		if f[5] == "actual" || strings.HasPrefix(f[5], "base") || f[5] == "divergences" || f[5] == "ess_tail_min" {
+			// the data, the seasonal baseline's forecast from them, counts,
+			// and the least tail ESS, which on one chain of 30 draws
+			// takes few values (the 5% and 95% indicators hold one or two
+			// draws): both sweeps' outcome refits once had 12.66
+			continue
 		}
 		compared++
 		if w == v {
