@@ -681,29 +681,11 @@ func (sw *Sweep) panelPlaceboJob(ctx context.Context, j Job) ([]Record, error) {
 	ds := sw.pan.ds
 	moved := *ds
 	moved.Regions = make([]data.Region, len(ds.Regions))
-	up, se := slices.Index(ds.Spec.Upper, j.Channel), slices.Index(ds.Spec.Search, j.Channel)
-	if up < 0 && se < 0 {
-		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
-	}
 	for g, r := range ds.Regions {
-		s := r.Series
-		s.Upper = append([][]float64(nil), s.Upper...)
-		s.Search = append([][]float64(nil), s.Search...)
-		if up >= 0 {
-			s.Upper[up] = ShiftSpend(nil, s.Upper[up], j.Shift)
-			// an exposure (and its frequency) moves with its spend
-			if s.Exposure != nil && s.Exposure[up] != nil {
-				s.Exposure = append([][]float64(nil), s.Exposure...)
-				s.Exposure[up] = ShiftSpend(nil, s.Exposure[up], j.Shift)
-			}
-			if s.Frequency != nil && s.Frequency[up] != nil {
-				s.Frequency = append([][]float64(nil), s.Frequency...)
-				s.Frequency[up] = ShiftSpend(nil, s.Frequency[up], j.Shift)
-			}
-		} else {
-			s.Search[se] = ShiftSpend(nil, s.Search[se], j.Shift)
+		var err error
+		if r.Series, err = shiftedSeries(r.Series, ds.Spec, j.Channel, j.Shift); err != nil {
+			return nil, err
 		}
-		r.Series = s
 		moved.Regions[g] = r
 	}
 	ps, err := model.ScalePanel(&moved, nil)

@@ -6,6 +6,8 @@ import (
 	"math/rand/v2"
 	"slices"
 	"strings"
+
+	"spillway/funnel/data"
 )
 
 // Placebo refits (a falsification test; Abadie, Diamond and Hainmueller
@@ -43,6 +45,31 @@ func PlaceboShifts(seed uint64, T, n int) []int {
 	rng := rand.New(rand.NewPCG(seed, 5))
 	rng.Shuffle(len(all), func(i, j int) { all[i], all[j] = all[j], all[i] })
 	return all[:min(n, len(all))]
+}
+
+// shiftedSeries returns s with channel's spend moved circularly by shift
+// weeks (an upper channel's exposure and frequency with it), the placebo
+// check's data; s itself is not changed.
+func shiftedSeries(s data.Series, spec data.Spec, channel string, shift int) (data.Series, error) {
+	moved := s
+	moved.Upper = slices.Clone(s.Upper)
+	moved.Search = slices.Clone(s.Search)
+	moved.Exposure = slices.Clone(s.Exposure)
+	moved.Frequency = slices.Clone(s.Frequency)
+	if c := slices.Index(spec.Upper, channel); c >= 0 {
+		moved.Upper[c] = ShiftSpend(nil, s.Upper[c], shift)
+		if s.Exposure != nil && s.Exposure[c] != nil { // the exposure moves with its spend
+			moved.Exposure[c] = ShiftSpend(nil, s.Exposure[c], shift)
+		}
+		if s.Frequency != nil && s.Frequency[c] != nil { // and so does its frequency
+			moved.Frequency[c] = ShiftSpend(nil, s.Frequency[c], shift)
+		}
+	} else if c := slices.Index(spec.Search, channel); c >= 0 {
+		moved.Search[c] = ShiftSpend(nil, s.Search[c], shift)
+	} else {
+		return data.Series{}, fmt.Errorf("validate: placebo channel %q is not a spend column", channel)
+	}
+	return moved, nil
 }
 
 // ShiftSpend writes x circularly shifted by k weeks into dst (week t's

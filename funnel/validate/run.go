@@ -293,22 +293,9 @@ func placeboRecord(job int, res *mediation.Result, col string) Record {
 // placeboJob refits the data with channel j.Channel's spend moved
 // circularly by j.Shift weeks and keeps that channel's effect.
 func (sw *Sweep) placeboJob(ctx context.Context, j Job) ([]Record, error) {
-	s := sw.in.Series
-	moved := data.Series{Weeks: s.Weeks, Upper: append([][]float64(nil), s.Upper...), Search: append([][]float64(nil), s.Search...),
-		Queries: s.Queries, Outcome: s.Outcome, Controls: s.Controls, Exposure: append([][]float64(nil), s.Exposure...),
-		Frequency: append([][]float64(nil), s.Frequency...)}
-	if c := slices.Index(sw.in.Spec.Upper, j.Channel); c >= 0 {
-		moved.Upper[c] = ShiftSpend(nil, s.Upper[c], j.Shift)
-		if s.Exposure != nil && s.Exposure[c] != nil { // the exposure moves with its spend
-			moved.Exposure[c] = ShiftSpend(nil, s.Exposure[c], j.Shift)
-		}
-		if s.Frequency != nil && s.Frequency[c] != nil { // and so does its frequency
-			moved.Frequency[c] = ShiftSpend(nil, s.Frequency[c], j.Shift)
-		}
-	} else if c := slices.Index(sw.in.Spec.Search, j.Channel); c >= 0 {
-		moved.Search[c] = ShiftSpend(nil, s.Search[c], j.Shift)
-	} else {
-		return nil, fmt.Errorf("validate: placebo channel %q is not a spend column", j.Channel)
+	moved, err := shiftedSeries(sw.in.Series, sw.in.Spec, j.Channel, j.Shift)
+	if err != nil {
+		return nil, err
 	}
 	f, err := sw.fitTests(ctx, model.Scale(moved, sw.in.Spec), j.Seed, nil)
 	if err != nil {
