@@ -76,7 +76,9 @@ func (b *panelBaseline) backward(gn, nat []float64, w [][]float64, gS []float64)
 	b.sm.backward(gn, nat, b.r, 0, T)
 }
 
-// trendLine returns tau = (t-1)/(T-1), t = 1..T (Scaled.Tau).
+// trendLine returns (t-1)/(T-1), t = 1..T: Scaled.Tau when no week is
+// held out. Only the start uses it (ChooseCoordinates' least squares and
+// startBaseline the same line, so its scale cancels).
 func trendLine(T int) []float64 {
 	x := make([]float64, T)
 	for i := range x {

@@ -1,6 +1,10 @@
 package model
 
-import "math"
+import (
+	"math"
+
+	"spillway/funnel/stat"
+)
 
 // condGamma holds gamma's conditional coordinates on a panel's outcome
 // stage. With per-region scaling every region's queries and outcome
@@ -47,8 +51,11 @@ type condGamma struct {
 	qbar   float64   // the regions' mean of their query means: mu' = mu + gamma qbar
 }
 
-func newCondGamma(inter *panelIntercept, c *Coords, k, G int) *condGamma {
-	cg := &condGamma{inter: inter, aW: make([]float64, G), lW: make([]float64, G)}
+// newCondGamma builds gamma's conditional coordinates from the least
+// squares in c (coefficient k) and gamma's regressor means bar.
+func newCondGamma(inter *panelIntercept, c *Coords, k int, bar []float64) *condGamma {
+	G := len(bar)
+	cg := &condGamma{inter: inter, aW: make([]float64, G), lW: make([]float64, G), qbar: stat.Mean(bar)}
 	for g := 0; g < G; g++ {
 		if c.SECoef == nil || c.CoefLog == nil {
 			continue

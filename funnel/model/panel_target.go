@@ -199,8 +199,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			pc.slot = pl.Block.Start
 		}
 		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil {
-			pc.cond = newCondGamma(t.inter, coords, k, t.G)
-			pc.cond.qbar = stat.Mean(pc.bar)
+			pc.cond = newCondGamma(t.inter, coords, k, pc.bar)
 		}
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)

@@ -540,13 +540,13 @@ func (t *PanelTarget) StartPoint(dst []float64) bool {
 		}
 		lu := mid + lref
 		dst[pc.free] = lu
+		if pc.cond != nil {
+			continue // xi 0: gamma at its conditional mean given the rest
+		}
 		for g, lam := range pc.lam {
 			l := lu
 			if e := c.CoefLog[k][g]; !math.IsNaN(e) && !math.IsNaN(c.CoefMid[k]) {
 				l = e + lref
-			}
-			if pc.cond != nil {
-				continue // 0: gamma at its conditional mean given the rest
 			}
 			dst[pc.block+g] = (l - (1-lam)*lu) / math.Pow(tau, 1-lam)
 		}
@@ -555,10 +555,14 @@ func (t *PanelTarget) StartPoint(dst []float64) bool {
 		t.startBaseline(set, c.MuEst, c.BaseSlope)
 	}
 	if cg := t.condGamma(); cg != nil && t.inter.free >= 0 {
-		// mu' = mu + gamma qbar + mean_g S'_g at the start
+		// mu' = mu + gamma qbar + mean_g S'_g at the start (the decode at
+		// mu' = 0 gives minus that shift)
+		mu0 := dst[t.inter.free]
 		dst[t.inter.free] = 0
-		t.decode(dst, false)
-		dst[t.inter.free] = c.MuEst - t.nat[t.inter.mu]
+		if t.decode(dst, false) {
+			mu0 = c.MuEst - t.nat[t.inter.mu]
+		}
+		dst[t.inter.free] = mu0
 	}
 	return true
 }
