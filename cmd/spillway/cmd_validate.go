@@ -124,7 +124,8 @@ the regions) and --lifts as a national sweep's do; a lift test may name a
 region, and a refit leaving out a region drops that region's tests and the
 national ones (they measured every region). The placebo check moves a
 channel's spend by the same weeks in every region and judges the summed effect
-only. A panel sweep takes no --truth or --fit. --national validates the
+only. A panel sweep takes no --truth; --fit may name a region panel's fit,
+whose posterior is then the reference. --national validates the
 national sum instead.
 
 FOLDER gets validation.csv (check,effect,channel,metric,value),
@@ -213,6 +214,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	in := validate.Input{Tool: "spillway " + spillwayVersion()}
 	liftFile := o.sampling.lifts
 	var ds *data.Dataset
+	panelFit := false // --fit names a region panel's fit
 	switch {
 	case o.fitDir != "":
 		ff, err := readFitFolder(o.fitDir)
@@ -222,6 +224,13 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		ds = ff.Data.Dataset
 		in.Options = ff.options
 		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}
+		if ff.panel != nil {
+			if o.national {
+				return usagef("--fit %s holds a region panel's fit, whose posterior is the region model's; leave out --national to validate the panel, or fit the national sum with --national first", o.fitDir)
+			}
+			panelFit = true
+			in.Reference = &validate.Fits{Demand: ff.panel.Fits[0], Outcome: ff.panel.Fits[1]}
+		}
 		if ff.Run.Lifts != "" {
 			liftFile = filepath.Join(o.fitDir, fitfolder.LiftTestsFile)
 		}
@@ -238,11 +247,11 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		fmt.Fprintf(stderr, "spillway: warning: %s\n", w.Message)
 	}
 	// region panels (issue 12): regional data are validated with the
-	// region model unless --national (or --fit, whose fit is national)
+	// region model unless --national (or --fit names a national fit)
 	if o.national && ds.Spec.Region == "" {
 		return usagef("--national validates the national sum of regional data, but the data have no region column; name it with --region, or leave out --national")
 	}
-	panel := len(ds.Regions) > 1 && !o.national && o.fitDir == ""
+	panel := len(ds.Regions) > 1 && !o.national && (o.fitDir == "" || panelFit)
 	if len(ds.Regions) > 1 && !panel {
 		fmt.Fprintf(stderr, "spillway: note: %d regions are validated as their national sum\n", len(ds.Regions))
 	}
@@ -254,7 +263,7 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		in.Panel = ds
 		set.LeaveOutRegions = o.leaveRegion
 	} else if len(o.leaveRegion) > 0 {
-		return usagef("--leave-out-regions needs a region panel (--region, without --national or --fit)")
+		return usagef("--leave-out-regions needs a region panel (--region without --national, or --fit naming a region panel's fit)")
 	}
 	in.Series, in.Spec = ds.National(), ds.Spec
 	if liftFile != "" {

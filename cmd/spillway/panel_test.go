@@ -170,6 +170,58 @@ func TestPanelRun(t *testing.T) {
 	if code, _, errs := runCmd(t, "allocate", "--fit", again); code != exitUsage || !strings.Contains(errs, "--national") {
 		t.Errorf("allocate on a panel: exit %d, %s; want 2 naming --national", code, errs)
 	}
+
+	// validate --fit on the panel's folder: a region panel sweep whose
+	// reference is the folder's posterior, not a refit: the reference
+	// job's effects are the folder's, summed and per region, to the digit
+	val := filepath.Join(dir, "val")
+	code, so, errs := runCmd(t, "validate", "--fit", again, "--checks", "stability", "--leave-out", "2023Q2", "--leave-out-regions", "R02",
+		"--seeds", "0", "--chains", "1", "--warmup", "30", "--draws", "20", "--out", val)
+	if code != 0 {
+		t.Fatalf("validate --fit on a panel: exit %d\n%s\n%s", code, so, errs)
+	}
+	if strings.Contains(errs, "reference fit done") || strings.Contains(errs, "validated as their national sum") {
+		t.Errorf("validate --fit on a panel refitted the reference or summed the regions: %s", errs)
+	}
+	if m, _ := os.ReadFile(filepath.Join(val, "manifest.json")); !strings.Contains(string(m), `"reference_source": "given"`) {
+		t.Errorf("manifest does not name the given reference:\n%s", m)
+	}
+	jobs := readCSV(t, filepath.Join(val, "jobs.csv"))
+	refMean := func(region string) string {
+		for _, r := range jobs {
+			if r[0] == "0" && r[1] == "effect" && r[2] == "video_spend" && r[3] == "total" && r[4] == "all" && r[5] == "mean" && r[7] == region {
+				return r[6]
+			}
+		}
+		t.Fatalf("jobs.csv has no reference mean of video's total effect for region %q", region)
+		return ""
+	}
+	for _, c := range []struct{ file, region string }{{"effects.csv", ""}, {fitfolder.EffectsByRegionFile, "R02"}} {
+		want := ""
+		for _, r := range readCSV(t, filepath.Join(again, c.file)) {
+			if c.region != "" && r[0] != c.region {
+				continue
+			}
+			if c.region != "" {
+				r = r[1:]
+			}
+			if r[0] == "video_spend" && r[1] == "total" && r[2] == "all" {
+				want = r[3]
+			}
+		}
+		if got := refMean(c.region); got != want {
+			t.Errorf("region %q: the reference job's mean of video's total effect is %s, the fit folder's %s %s", c.region, got, c.file, want)
+		}
+	}
+	if _, err := os.Stat(filepath.Join(val, "validation_by_region.csv")); err != nil {
+		t.Errorf("validate --fit on a panel wrote no region file: %v", err)
+	}
+	if code, _, errs := runCmd(t, "validate", "--fit", again, "--national", "--out", filepath.Join(dir, "val2")); code != exitUsage || !strings.Contains(errs, "region panel's fit") {
+		t.Errorf("validate --fit of a panel with --national: exit %d, %s; want 2 naming the panel's fit", code, errs)
+	}
+	if _, err := os.Stat(filepath.Join(dir, "val2")); !os.IsNotExist(err) {
+		t.Errorf("the refused validate wrote its folder: %v", err)
+	}
 }
 
 // TestPanelChainsMerge runs a panel as two one-chain jobs merged with run

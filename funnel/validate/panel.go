@@ -113,8 +113,6 @@ func newPanel(in Input, set Settings) (*panelSweep, error) {
 		return nil, fmt.Errorf("validate: a region panel needs at least 2 regions, the data have %d", len(ds.Regions))
 	case in.Truth != nil:
 		return nil, fmt.Errorf("validate: given true parameters are national; a region panel's recovery simulates from its reference fit")
-	case in.Reference != nil:
-		return nil, fmt.Errorf("validate: a region panel's reference is fitted by the sweep; a given fit is not taken")
 	}
 	p := &panelSweep{ds: ds}
 	var err error
@@ -318,8 +316,12 @@ func truthKey(region string, e mediation.Effect) string {
 	return region + "\x00" + e.Channel + "\x00" + e.Path + "\x00" + e.Window
 }
 
-// panelReference fits the whole panel with the sweep's seed.
+// panelReference fits the whole panel with the sweep's seed, or returns
+// the given reference (Input.Reference).
 func (sw *Sweep) panelReference(ctx context.Context) (*panelFitted, error) {
+	if r := sw.in.Reference; r != nil {
+		return &panelFitted{ps: sw.pan.ps, panels: sw.pan.panels, fits: [2]*mcmc.Fit{r.Demand, r.Outcome}}, nil
+	}
 	f, err := sw.fitPanelTests(ctx, sw.pan.ps, sw.set.Seed, sw.in.Lifts)
 	if err != nil {
 		return nil, fmt.Errorf("validate: reference fit: %w", err)

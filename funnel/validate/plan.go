@@ -230,13 +230,14 @@ type Input struct {
 	Truth *Truth
 	// Reference, if not nil, is a fit of both stages to Series (for
 	// instance a full fit read from a fit folder) to use as the posterior
-	// instead of fitting one with the sweep's settings.
+	// instead of fitting one with the sweep's settings; with Panel, a fit
+	// of the region model's two stages to the panel.
 	Reference *Fits
 	// Panel, if not nil, is a region panel of at least 2 regions, to be
 	// validated with the region model (panel.go); Series must then be its
 	// national sum (Panel.National()), which the quarters, the holdout's
-	// summed forecasts and the manifest use. Truth and Reference are not
-	// taken with a panel.
+	// summed forecasts and the manifest use. Truth is not taken with a
+	// panel.
 	Panel *data.Dataset
 	// Tool names the program and its version in the manifest; shards of
 	// one sweep must agree on it.
@@ -300,8 +301,12 @@ func New(in Input, s Settings) (*Sweep, error) {
 	}
 	if in.Reference != nil {
 		for k, f := range []*mcmc.Fit{in.Reference.Demand, in.Reference.Outcome} {
-			if f == nil || strings.Join(f.Names, ",") != strings.Join(sw.stages[k].Names(), ",") {
-				return nil, fmt.Errorf("validate: the given %s fit does not match the model's parameters", sw.stages[k].Name)
+			want, model := sw.stages[k].Names(), "model's"
+			if sw.pan != nil {
+				want, model = sw.pan.panels[k].Names(), "region model's"
+			}
+			if f == nil || !slices.Equal(f.Names, want) {
+				return nil, fmt.Errorf("validate: the given %s fit does not match the %s parameters", sw.stages[k].Name, model)
 			}
 		}
 	}
