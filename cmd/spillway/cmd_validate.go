@@ -124,9 +124,10 @@ the regions) and --lifts as a national sweep's do; a lift test may name a
 region, and a refit leaving out a region drops that region's tests and the
 national ones (they measured every region). The placebo check moves a
 channel's spend by the same weeks in every region and judges the summed effect
-only. A panel sweep takes no --truth; --fit may name a region panel's fit,
-whose posterior is then the reference. --national validates the
-national sum instead.
+only. --truth may name a regional simulation's truth.json: recovery then
+simulates every region from its own true parameters. --fit may name a
+region panel's fit, whose posterior is then the reference. --national
+validates the national sum instead.
 
 FOLDER gets validation.csv (check,effect,channel,metric,value),
 validation.png, verdict.txt (also printed), jobs.csv (every job's raw numbers
@@ -256,10 +257,6 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		fmt.Fprintf(stderr, "spillway: note: %d regions are validated as their national sum\n", len(ds.Regions))
 	}
 	if panel {
-		switch {
-		case o.truth != "":
-			return usagef("--truth holds national true parameters; a region panel's recovery simulates from its reference fit (leave out --truth, or add --national)")
-		}
 		in.Panel = ds
 		set.LeaveOutRegions = o.leaveRegion
 	} else if len(o.leaveRegion) > 0 {
@@ -283,6 +280,12 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 	if o.truth != "" {
 		if in.Truth, err = readTruth(o.truth); err != nil {
 			return err
+		}
+		switch {
+		case panel && in.Truth.Regions == nil:
+			return usagef("--truth %s holds national true parameters; a region panel's recovery needs each region's (a truth.json of a regional simulation), or simulates from its reference fit without --truth (or add --national)", o.truth)
+		case !panel && in.Truth.Regions != nil:
+			return usagef("--truth %s holds each region's true parameters; validate the region panel (--region, without --national) or give national true parameters", o.truth)
 		}
 	}
 	sw, err := validate.New(in, set)
@@ -403,10 +406,17 @@ func readTruth(path string) (*validate.Truth, error) {
 	if err := dec.Decode(&t); err != nil {
 		return nil, badData(fmt.Errorf("%s: %w", path, err))
 	}
-	if len(t.Demand) == 0 || len(t.Outcome) == 0 {
-		if len(t.RegionTruth) > 0 {
-			return nil, badData(fmt.Errorf("%s holds per-region truth; the recovery check needs national true parameters (simulate a national scenario)", path))
+	if len(t.RegionTruth) > 0 {
+		out := &validate.Truth{Regions: map[string]*validate.Truth{}}
+		for _, r := range t.RegionTruth {
+			if len(r.Demand) == 0 || len(r.Outcome) == 0 {
+				return nil, badData(fmt.Errorf("%s: region %q has no demand and outcome parameters", path, r.Name))
+			}
+			out.Regions[r.Name] = &validate.Truth{Demand: r.Demand, Outcome: r.Outcome}
 		}
+		return out, nil
+	}
+	if len(t.Demand) == 0 || len(t.Outcome) == 0 {
 		return nil, badData(fmt.Errorf("%s has no demand and outcome parameters; expected a truth.json from 'spillway simulate'", path))
 	}
 	return &validate.Truth{Demand: t.Demand, Outcome: t.Outcome}, nil

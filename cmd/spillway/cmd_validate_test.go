@@ -2,9 +2,12 @@ package main
 
 import (
 	"bytes"
+	"encoding/json"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -190,13 +193,59 @@ func TestValidateRegionPanel(t *testing.T) {
 			t.Errorf("validation_by_region.csv has no shift of %s's video total:\n%s", g, b)
 		}
 	}
+
+	// recovery from the simulation's own truth per region: a replicate's
+	// true effects summed over regions are truth.json's (computed by the
+	// simulator on the same spend), to rounding
+	rec := filepath.Join(dir, "rec")
+	if code, _, errs := runCmd(t, args("--truth", filepath.Join(dir, "sim", "truth.json"), "--checks", "recovery", "--replicates", "1", "--out", rec)...); code != 0 {
+		t.Fatalf("validate --truth on a panel: exit %d\n%s", code, errs)
+	}
+	if m, _ := os.ReadFile(filepath.Join(rec, "manifest.json")); !strings.Contains(string(m), "given true parameters per region") {
+		t.Errorf("manifest does not name the regions' true parameters:\n%s", m)
+	}
+	var truth struct {
+		Effects []struct {
+			Channel, Path, Window string
+			Value                 float64
+		}
+	}
+	tb, err := os.ReadFile(filepath.Join(dir, "sim", "truth.json"))
+	if err != nil || json.Unmarshal(tb, &truth) != nil {
+		t.Fatalf("truth.json: %v", err)
+	}
+	got := map[string]float64{}
+	for _, r := range readCSV(t, filepath.Join(rec, "jobs.csv")) {
+		if r[1] == "effect" && r[5] == "truth" && r[7] == "" {
+			v, _ := strconv.ParseFloat(r[6], 64)
+			got[r[2]+" "+r[3]+" "+r[4]] = v
+		}
+	}
+	n := 0
+	for _, e := range truth.Effects {
+		g, ok := got[e.Channel+" "+e.Path+" "+e.Window]
+		if !ok {
+			continue
+		}
+		n++
+		if math.Abs(g-e.Value) > 1e-9*math.Max(1, math.Abs(e.Value)) {
+			t.Errorf("%s %s %s: the replicate's true summed effect %v, truth.json %v", e.Channel, e.Path, e.Window, g, e.Value)
+		}
+	}
+	if n < 8 {
+		t.Errorf("only %d of truth.json's effects are in the replicate's records", n)
+	}
+	if code, _, errs := runCmd(t, "simulate", "--weeks", "70", "--seed", "4", "--out", filepath.Join(dir, "national")); code != 0 {
+		t.Fatalf("simulate: %d %s", code, errs)
+	}
 	for _, c := range []struct {
 		args []string
 		want string
 	}{
 		{args("--leave-out-regions", "R09", "--out", filepath.Join(dir, "x1")), `region "R09" is not in the data`},
-		{args("--truth", filepath.Join(dir, "sim", "truth.json"), "--out", filepath.Join(dir, "x2")), "--truth holds national true parameters"},
+		{args("--truth", filepath.Join(dir, "national", "truth.json"), "--out", filepath.Join(dir, "x2")), "holds national true parameters"},
 		{args("--national", "--leave-out-regions", "R01", "--out", filepath.Join(dir, "x3")), "--leave-out-regions needs a region panel"},
+		{args("--national", "--truth", filepath.Join(dir, "sim", "truth.json"), "--out", filepath.Join(dir, "x4")), "holds each region's true parameters"},
 	} {
 		code, _, errs := runCmd(t, c.args...)
 		if code != 2 || !strings.Contains(errs, c.want) {

@@ -16,16 +16,21 @@ import (
 // given and the drift fits are judged against it. Without those options
 // the values are read as they are.
 func truthValues(sw *Sweep, t *Truth) (v1, v2 []float64, err error) {
-	o := sw.in.Options
+	return truthValuesOn(sw.base, sw.stages, sw.in.Options, t)
+}
+
+// truthValuesOn is truthValues for stages st built on sc with options o
+// (a region panel's region: its own scaling and national-shaped stages).
+func truthValuesOn(sc *model.Scaled, st [2]*model.Stage, o model.Options, t *Truth) (v1, v2 []float64, err error) {
 	if len(o.Drift) == 0 && o.Baseline == "" {
-		return truthPoint(sw.stages[0], sw.stages[1], t)
+		return truthPoint(st[0], st[1], t)
 	}
 	o.Drift, o.Baseline = nil, ""
-	f1, err := model.Demand(sw.base, o)
+	f1, err := model.Demand(sc, o)
 	if err != nil {
 		return nil, nil, err
 	}
-	f2, err := model.Outcome(sw.base, o)
+	f2, err := model.Outcome(sc, o)
 	if err != nil {
 		return nil, nil, err
 	}
@@ -33,10 +38,10 @@ func truthValues(sw *Sweep, t *Truth) (v1, v2 []float64, err error) {
 	if err != nil {
 		return nil, nil, err
 	}
-	if v1, _, err = sw.stages[0].FromFixed(f1, u1); err != nil {
+	if v1, _, err = st[0].FromFixed(f1, u1); err != nil {
 		return nil, nil, fmt.Errorf("validate: the truth's demand parameters: %w", err)
 	}
-	if v2, _, err = sw.stages[1].FromFixed(f2, u2); err != nil {
+	if v2, _, err = st[1].FromFixed(f2, u2); err != nil {
 		return nil, nil, fmt.Errorf("validate: the truth's outcome parameters: %w", err)
 	}
 	return v1, v2, nil

@@ -23,6 +23,11 @@ type generator struct {
 	// data), drawing from rng if it needs to; ref is the reference fit's
 	// paired draws (nil when fromPosterior is false).
 	draw func(rep int, rng *rand.Rand, ref *mediation.Inputs) (v1, v2 []float64, err error)
+	// regions, if not nil, holds a region panel's true values per region
+	// (demand, outcome; each region's stages' Names() order, model units
+	// of the region's scaling): every panel replicate is simulated from
+	// them (panelRecoveryJob), and draw is nil.
+	regions [][2][]float64
 	// ramp, if not nil, multiplies upper channel c's demand coefficient
 	// in week t by ramp[c][t] (a nil row: no drift): an effect that drifts
 	// over time, which the default model lacks. Tests use it to check

@@ -30,7 +30,7 @@ func TestSweepLiftTests(t *testing.T) {
 		{Channel: "video_spend", Metric: model.LiftOutcome, From: 14, To: 17, Estimate: 800, SE: 100},
 		{Channel: "video_spend", Metric: model.LiftQueries, From: 100, To: 103, Estimate: 30000, SE: 5000},
 	}
-	in := Input{Series: res.Data.National(), Spec: res.Data.Spec, Tool: "test", Truth: &Truth{res.Demand, res.Outcome}, Lifts: tests}
+	in := Input{Series: res.Data.National(), Spec: res.Data.Spec, Tool: "test", Truth: &Truth{Demand: res.Demand, Outcome: res.Outcome}, Lifts: tests}
 	sw, err := New(in, recoverySettings(1, 1))
 	if err != nil {
 		t.Fatal(err)

@@ -111,8 +111,10 @@ func newPanel(in Input, set Settings) (*panelSweep, error) {
 	switch {
 	case len(ds.Regions) < 2:
 		return nil, fmt.Errorf("validate: a region panel needs at least 2 regions, the data have %d", len(ds.Regions))
-	case in.Truth != nil:
-		return nil, fmt.Errorf("validate: given true parameters are national; a region panel's recovery simulates from its reference fit")
+	case in.Truth != nil && in.Truth.Regions == nil:
+		return nil, fmt.Errorf("validate: the given true parameters are national; a region panel's recovery needs each region's (a truth.json of a regional simulation), or simulates from its reference fit without them")
+	case in.Truth != nil && len(in.Lifts) > 0:
+		return nil, fmt.Errorf("validate: a region panel's recovery from given true parameters takes no lift tests (a replicate's tests are simulated from a draw of the reference panel fit); leave out the true parameters or the lift tests")
 	}
 	p := &panelSweep{ds: ds}
 	var err error
@@ -364,13 +366,46 @@ func (sw *Sweep) runPanelJob(ctx context.Context, j Job, ref *panelFitted) ([]Re
 	return nil, fmt.Errorf("validate: the %s check does not run on a region panel", j.Check)
 }
 
+// truthGenerator simulates every replicate of a panel from each region's
+// given true parameters (t.Regions), carried into stages with options o as
+// a national truth is (truthValuesOn).
+func (p *panelSweep) truthGenerator(t *Truth, o model.Options) (*generator, error) {
+	var f fingerprint
+	g := &generator{}
+	for r, name := range p.ps.Regions {
+		rt := t.Regions[name]
+		if rt == nil {
+			return nil, fmt.Errorf("validate: the given true parameters have no region %q; they have %d regions, the data %d", name, len(t.Regions), len(p.ps.Regions))
+		}
+		st := [2]*model.Stage{p.panels[0].Stages[r], p.panels[1].Stages[r]}
+		v1, v2, err := truthValuesOn(p.ps.Scaled[r], st, o, rt)
+		if err != nil {
+			return nil, fmt.Errorf("%w (region %s)", err, name)
+		}
+		g.regions = append(g.regions, [2][]float64{v1, v2})
+		f.str(name)
+		for k, v := range [][]float64{v1, v2} {
+			for i, n := range st[k].Names() {
+				f.str(n)
+				f.num(v[i])
+			}
+		}
+	}
+	g.name = "given true parameters per region (" + f.sum()[:16] + ")"
+	return g, nil
+}
+
 // panelRecoveryJob simulates one panel from a posterior draw of the
-// reference fit, refits it and records every region's and the summed
-// effects with their truth.
+// reference fit, or from each region's given true parameters, refits it
+// and records every region's and the summed effects with their truth.
 func (sw *Sweep) panelRecoveryJob(ctx context.Context, j Job, ref *panelFitted) ([]Record, error) {
 	rng := rand.New(rand.NewPCG(j.Seed, 1))
-	in := ref.inputs()
-	d := rng.IntN(len(in.DemandDraws.Rows))
+	var in *mediation.PanelInputs
+	d := 0
+	if sw.gen.regions == nil {
+		in = ref.inputs()
+		d = rng.IntN(len(in.DemandDraws.Rows))
+	}
 	p := sw.pan
 	G := len(p.ps.Regions)
 	ds := &data.Dataset{Spec: p.ds.Spec, File: p.ds.File, Weeks: p.ds.Weeks, Regions: make([]data.Region, G)}
@@ -380,8 +415,13 @@ func (sw *Sweep) panelRecoveryJob(ctx context.Context, j Job, ref *panelFitted) 
 	for g := range G {
 		sc := p.ps.Scaled[g]
 		st := [2]*model.Stage{p.panels[0].Stages[g], p.panels[1].Stages[g]}
-		v1 := p.panels[0].Layout().Region(nil, in.DemandDraws.Rows[d], g)
-		v2 := p.panels[1].Layout().Region(nil, in.OutcomeDraws.Rows[d], g)
+		var v1, v2 []float64
+		if sw.gen.regions != nil {
+			v1, v2 = sw.gen.regions[g][0], sw.gen.regions[g][1]
+		} else {
+			v1 = p.panels[0].Layout().Region(nil, in.DemandDraws.Rows[d], g)
+			v2 = p.panels[1].Layout().Region(nil, in.OutcomeDraws.Rows[d], g)
+		}
 		tr[g] = truth{v1, v2}
 		q, y, err := simulateSeries(sc, st, v1, v2, rng)
 		if err != nil {

@@ -236,8 +236,8 @@ type Input struct {
 	// Panel, if not nil, is a region panel of at least 2 regions, to be
 	// validated with the region model (panel.go); Series must then be its
 	// national sum (Panel.National()), which the quarters, the holdout's
-	// summed forecasts and the manifest use. Truth is not taken with a
-	// panel.
+	// summed forecasts and the manifest use. With a panel, Truth holds each
+	// region's true parameters (Truth.Regions).
 	Panel *data.Dataset
 	// Tool names the program and its version in the manifest; shards of
 	// one sweep must agree on it.
@@ -247,6 +247,10 @@ type Input struct {
 // Truth holds true parameter values by name, in model units.
 type Truth struct {
 	Demand, Outcome map[string]float64
+	// Regions holds, for a region panel, each region's true parameters in
+	// the model units of the region's own scaling (as truth.json from a
+	// regional simulation has them), by region name.
+	Regions map[string]*Truth
 }
 
 // Fits are fits of the demand and outcome stages.
@@ -311,7 +315,12 @@ func New(in Input, s Settings) (*Sweep, error) {
 		}
 	}
 	if set.has(Recovery) && set.Replicates > 0 {
-		if sw.pan != nil {
+		if sw.pan != nil && in.Truth != nil {
+			sw.gen, err = sw.pan.truthGenerator(in.Truth, in.Options)
+			if err != nil {
+				return nil, err
+			}
+		} else if sw.pan != nil {
 			sw.gen = &generator{name: "posterior draws of the reference panel fit", fromPosterior: true}
 		} else if in.Truth != nil {
 			sw.gen, err = truthGenerator(sw, in.Truth)

@@ -60,7 +60,7 @@ func TestSweepReturnPriors(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	in := Input{Series: nat, Spec: res.Data.Spec, Tool: "test", Options: o, Truth: &Truth{res.Demand, res.Outcome}}
+	in := Input{Series: nat, Spec: res.Data.Spec, Tool: "test", Options: o, Truth: &Truth{Demand: res.Demand, Outcome: res.Outcome}}
 	set := Settings{Checks: []string{Recovery, Holdout}, Replicates: 1, Origins: 2, Horizon: 13,
 		Chains: 2, Warmup: 100, Draws: 100, Seed: 5}
 	sw, err := New(in, set)
@@ -150,7 +150,7 @@ func TestSweepKeepsExposure(t *testing.T) {
 			t.Fatal(err)
 		}
 		nat := res.Data.National()
-		in := Input{Series: nat, Spec: s.Roles(), Tool: "test", Truth: &Truth{res.Demand, res.Outcome}}
+		in := Input{Series: nat, Spec: s.Roles(), Tool: "test", Truth: &Truth{Demand: res.Demand, Outcome: res.Outcome}}
 		sw, err := New(in, recoverySettings(1, 1))
 		if err != nil {
 			t.Fatal(err)
