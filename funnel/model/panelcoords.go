@@ -104,8 +104,8 @@ const (
 
 // ChooseCoordinates picks the weights of Coords from the data before any
 // sampling, so the target is fixed: per region, least squares of the
-// stage's response on its regressors with every channel's transform at the
-// centre of its prior (retention 0.5, half-saturation 1, shape 2) gives each
+// stage's response on its regressors with every channel's transform where
+// the regions' least squares fit best together (chooseTransforms) gives each
 // coefficient's estimate and standard error s[g]; the method of moments
 // across regions, var(estimates) - mean(s^2), gives the spread tau the data
 // imply (on the log scale for a coefficient, dividing by the
@@ -133,6 +133,12 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 	// 1.56), and centred gamma moved the funnel to tau_gamma (67
 	// divergences)
 	c.GammaConditional = true
+	// the channels' coefficients in their conditional coordinates, with
+	// the least squares at the transforms chooseTransforms picks: on
+	// simulated 12 x 104 outcome stages (two data seeds x two sampler
+	// seeds, 4 x (500 + 500)) max R-hat 1.007-1.009 in all four against
+	// 1.016-1.044 with the rounded weights and the prior's centre, and 24
+	// divergences against 35
 	c.CoefConditional = true
 	hier := p.hier()
 	G := len(p.Regions)
@@ -615,8 +621,8 @@ func (t *PanelTarget) StartMetric() []float64 {
 // every coordinate (which puts sigma's log two orders of magnitude of its
 // posterior sd away), and reports whether it could (false with one region
 // or intercepts not in their conditional coordinates). The point: every
-// transform at the centre of its prior (retention 0.5, half-saturation 1,
-// shape 2, as ChooseCoordinates), the shared regressors at their combined
+// transform where ChooseCoordinates made its least squares
+// (Coords.Transforms, chooseTransforms), the shared regressors at their combined
 // estimates, sigma at the residual sd, the intercepts' spread at its moment estimate,
 // each coefficient's median at its precision-weighted mean and each region
 // at its own estimate (at the median where that is not positive; a

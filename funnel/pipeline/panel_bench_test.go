@@ -36,7 +36,11 @@ import (
 // measures memory only: no warm-up and trajectories of at most two leapfrog
 // steps, so a run keeps as many draws as a real one (the draws, the summary
 // and the targets are what take memory) at a small fraction of its time;
-// its convergence figures mean nothing.
+// its convergence figures mean nothing. To compare coordinates on other
+// data: SPILLWAY_PANEL_SEED sets the simulation's seed (default 40),
+// SPILLWAY_PANEL_RUN_SEED offsets the sampler's, and
+// SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
+// rounded weights instead of their conditional coordinates.
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	var err error
