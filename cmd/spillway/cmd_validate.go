@@ -224,14 +224,14 @@ func runValidate(ctx context.Context, o *validateOptions, fs *pflag.FlagSet, arg
 		}
 		ds = ff.Data.Dataset
 		in.Options = ff.options
-		in.Reference = &validate.Fits{Demand: ff.fits[0], Outcome: ff.fits[1]}
+		fits := ff.fits
 		if ff.panel != nil {
 			if o.national {
 				return usagef("--fit %s holds a region panel's fit, whose posterior is the region model's; leave out --national to validate the panel, or fit the national sum with --national first", o.fitDir)
 			}
-			panelFit = true
-			in.Reference = &validate.Fits{Demand: ff.panel.Fits[0], Outcome: ff.panel.Fits[1]}
+			panelFit, fits = true, ff.panel.Fits
 		}
+		in.Reference = &validate.Fits{Demand: fits[0], Outcome: fits[1]}
 		if ff.Run.Lifts != "" {
 			liftFile = filepath.Join(o.fitDir, fitfolder.LiftTestsFile)
 		}

@@ -57,13 +57,18 @@ func truthGenerator(sw *Sweep, t *Truth) (*generator, error) {
 
 func truthID(sw *Sweep, v1, v2 []float64) string {
 	var f fingerprint
+	f.point(sw.stages, v1, v2)
+	return f.sum()[:16]
+}
+
+// point adds parameter values v1, v2 of stages st, each by its name.
+func (f *fingerprint) point(st [2]*model.Stage, v1, v2 []float64) {
 	for k, v := range [][]float64{v1, v2} {
-		for i, n := range sw.stages[k].Names() {
+		for i, n := range st[k].Names() {
 			f.str(n)
 			f.num(v[i])
 		}
 	}
-	return f.sum()[:16]
 }
 
 // replicate is one simulated data set and its truth.

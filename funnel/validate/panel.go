@@ -384,12 +384,7 @@ func (p *panelSweep) truthGenerator(t *Truth, o model.Options) (*generator, erro
 		}
 		g.regions = append(g.regions, [2][]float64{v1, v2})
 		f.str(name)
-		for k, v := range [][]float64{v1, v2} {
-			for i, n := range st[k].Names() {
-				f.str(n)
-				f.num(v[i])
-			}
-		}
+		f.point(st, v1, v2)
 	}
 	g.name = "given true parameters per region (" + f.sum()[:16] + ")"
 	return g, nil
