@@ -132,11 +132,8 @@ func (c *panelCoef) condPrior(nat, gn, grad []float64) float64 {
 		k := gam * c.bar[g]
 		R := cd.ybar[g] - cg.sp[g] - mu - k
 		G := c.g[g]*v - z/tau // d lp / d l[g], data and hierarchy
-		grad[c.block+g] = G / math.Sqrt(P)
-		// l = N/P + xi/sqrt(P): d l = (dN - (l + m)/2 dP)/P; the Jacobian
-		// -log(P)/2 adds -dP/(2P)
-		cN := G / P
-		cP := -G*(l+cg.m[g])/(2*P) - 1/(2*P)
+		gx, cN, cP := condPull(G, l, cg.m[g], P)
+		grad[c.block+g] = gx
 		// N = aP lu + (k^2 lu + k R)/V + aW lW, P = aP + k^2/V + aW
 		dNdu := aP + (2*k*k*lu+k*R)/V
 		dPdu := 2 * k * k / V

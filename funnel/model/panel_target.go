@@ -201,6 +201,9 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		if !pooled && k == 0 && ch == nil && coords.GammaConditional && t.inter.cond != nil {
 			pc.cond = newCondGamma(t.inter, coords, k, pc.bar)
 		}
+		if !pooled && ch != nil && coords.CoefConditional && coords.SECoef != nil && coords.CoefLog != nil {
+			pc.cc = newCondCoef(coords, k, t.G, pc.startRef(coords.transform(h.channel)))
+		}
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)
 	}
@@ -263,6 +266,9 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		d.v, d.g = make([]float64, t.G), make([]float64, t.G)
 		if pc.cond != nil {
 			d.cond = pc.cond.clone(c.inter)
+		}
+		if pc.cc != nil {
+			d.cc = pc.cc.clone()
 		}
 		if pc.ch != nil {
 			for j, ch := range t.chans {
@@ -901,6 +907,7 @@ type panelCoef struct {
 	rescale     bool
 	ch          *panelChannel // nil for gamma
 	cond        *condGamma    // gamma's conditional coordinates, when chosen (lam unused)
+	cc          *condCoef     // a channel's conditional coordinates, when chosen (lam unused)
 	q           [][]float64   // gamma's regressor per region (queries)
 	bar         []float64     // gamma's: mean_t q[g][t]
 	v, g        []float64     // theta[g] and d lp/d theta[g]
@@ -928,6 +935,9 @@ func (c *panelCoef) values(nat, x []float64) bool {
 	}
 	if c.cond != nil {
 		return true // condValues, once S'_g is known
+	}
+	if c.cc != nil {
+		return c.ccValues(nat, x, href)
 	}
 	tau := nat[c.tauPos]
 	for g := range c.v {
@@ -958,6 +968,9 @@ func (c *panelCoef) prior(nat, gn, grad []float64) float64 {
 	}
 	if c.cond != nil {
 		return c.condPrior(nat, gn, grad)
+	}
+	if c.cc != nil {
+		return c.ccPrior(nat, gn, grad)
 	}
 	tau := nat[c.tauPos]
 	ltau := math.Log(tau)

@@ -124,10 +124,12 @@ func TestPanelGradient(t *testing.T) {
 			base  bool // the moving baseline
 			mask  bool // weeks 22-26 held out
 			gamma bool // gamma in its conditional coordinates (with cond)
-		}{{1, false, false, false, false, false, false}, {4, false, false, false, false, false, false}, {4, true, false, false, false, false, false},
-			{1, false, true, false, false, false, false}, {4, true, true, false, false, false, false}, {4, false, true, false, false, false, false}, {4, true, true, true, false, false, false},
-			{1, false, false, false, true, false, false}, {4, true, false, false, true, false, false}, {4, false, false, false, true, true, false}, {4, true, true, false, true, true, false},
-			{4, true, false, false, false, false, true}, {4, true, true, false, false, false, true}, {4, true, true, false, true, true, true}} {
+			coef  bool // the channels' coefficients in theirs
+		}{{1, false, false, false, false, false, false, false}, {4, false, false, false, false, false, false, false}, {4, true, false, false, false, false, false, false},
+			{1, false, true, false, false, false, false, false}, {4, true, true, false, false, false, false, false}, {4, false, true, false, false, false, false, false}, {4, true, true, true, false, false, false, false},
+			{1, false, false, false, true, false, false, false}, {4, true, false, false, true, false, false, false}, {4, false, false, false, true, true, false, false}, {4, true, true, false, true, true, false, false},
+			{4, true, false, false, false, false, true, false}, {4, true, true, false, false, false, true, false}, {4, true, true, false, true, true, true, false},
+			{4, false, false, false, false, false, false, true}, {4, true, false, false, false, false, true, true}, {4, true, true, true, false, false, true, true}, {4, true, true, false, true, true, true, true}} {
 			G := c.G
 			o := Options{}
 			if c.drift {
@@ -150,6 +152,7 @@ func TestPanelGradient(t *testing.T) {
 			p.Coords = randomCoords(p, uint64(G))
 			p.Coords.MuConditional = c.cond
 			p.Coords.GammaConditional = c.gamma
+			p.Coords.CoefConditional = c.coef
 			tg, err := p.Target()
 			if err != nil {
 				t.Fatal(err)
@@ -163,7 +166,10 @@ func TestPanelGradient(t *testing.T) {
 			if c.gamma && b.name == "outcome" && tg.condGamma() == nil {
 				t.Fatal("outcome: gamma is not in its conditional coordinates")
 			}
-			name := fmt.Sprintf("%s G=%d conditional=%v gamma=%v drift=%v jumps=%v", b.name, G, c.cond, c.gamma, c.drift, c.jumps)
+			if c.coef && G > 1 && tg.coefs[len(tg.coefs)-1].cc == nil {
+				t.Fatalf("%s: the last channel's coefficient is not in its conditional coordinates", b.name)
+			}
+			name := fmt.Sprintf("%s G=%d conditional=%v gamma=%v coef=%v drift=%v jumps=%v", b.name, G, c.cond, c.gamma, c.coef, c.drift, c.jumps)
 			if c.base {
 				name += fmt.Sprintf(" baseline masked=%v", c.mask)
 			}
@@ -320,6 +326,7 @@ func TestPanelSamePosterior(t *testing.T) {
 			p.Coords = randomCoords(p, uint64(rep))
 			p.Coords.MuConditional = rep%2 == 1
 			p.Coords.GammaConditional = rep >= 3
+			p.Coords.CoefConditional = rep == 2 || rep >= 4
 			if rep == 0 {
 				p.Coords = p.Uniform(1)
 			}

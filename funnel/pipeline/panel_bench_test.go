@@ -36,9 +36,14 @@ import (
 // measures memory only: no warm-up and trajectories of at most two leapfrog
 // steps, so a run keeps as many draws as a real one (the draws, the summary
 // and the targets are what take memory) at a small fraction of its time;
-// its convergence figures mean nothing.
+// its convergence figures mean nothing. To compare coordinates on other
+// data: SPILLWAY_PANEL_SEED sets the simulation's seed (default 40),
+// SPILLWAY_PANEL_RUN_SEED offsets the sampler's, and
+// SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
+// rounded weights instead of their conditional coordinates.
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
+	var err error
 	if s := os.Getenv("SPILLWAY_PANEL_BENCH"); s != "" {
 		f := strings.Split(s, ",")
 		v := []*int{&G, &T, &warm, &draws}
@@ -63,7 +68,19 @@ func BenchmarkPanelFit(b *testing.B) {
 		}
 		stages = s
 	}
-	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: 40, Dark: G / 8, Big: true})
+	seed, runSeed := uint64(40), uint64(0)
+	if s := os.Getenv("SPILLWAY_PANEL_RUN_SEED"); s != "" {
+		// the sampler's seed, offset from the stage's
+		if runSeed, err = strconv.ParseUint(s, 10, 64); err != nil {
+			b.Fatalf("SPILLWAY_PANEL_RUN_SEED=%s: want a whole number", s)
+		}
+	}
+	if s := os.Getenv("SPILLWAY_PANEL_SEED"); s != "" {
+		if seed, err = strconv.ParseUint(s, 10, 64); err != nil {
+			b.Fatalf("SPILLWAY_PANEL_SEED=%s: want a whole number", s)
+		}
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: seed, Dark: G / 8, Big: true})
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -80,14 +97,19 @@ func BenchmarkPanelFit(b *testing.B) {
 		for _, ch := range stages {
 			k := int(ch - '0')
 			p := panels[k]
+			tc := time.Now()
 			if p.Coords, err = model.ChooseCoordinates(p); err != nil {
 				b.Fatal(err)
+			}
+			fmt.Fprintf(os.Stderr, "%s: least squares' transforms %v (%.2f s to choose the coordinates)\n", StageNames[k], p.Coords.Transforms, time.Since(tc).Seconds())
+			if os.Getenv("SPILLWAY_PANEL_COEF") == "rounded" {
+				p.Coords.CoefConditional = false // the channels' rounded weights
 			}
 			tg, err := p.Target()
 			if err != nil {
 				b.Fatal(err)
 			}
-			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k), TargetAccept: DefaultTargetAccept}
+			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k) + runSeed, TargetAccept: DefaultTargetAccept}
 			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
 				set = PanelStart(tg, set)
 			}

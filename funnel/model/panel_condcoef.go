@@ -1,0 +1,132 @@
+package model
+
+import (
+	"math"
+
+	"spillway/funnel/transform"
+)
+
+// condCoef holds a channel coefficient's conditional coordinates on a
+// panel: region g's log coefficient at the reference response, l[g] =
+// log(theta[g] href) (panelCoef.values), is sampled as
+//
+//	l[g] = m[g] + xi[g]/sqrt(P[g]),  P = 1/tau^2 + aW[g],
+//	m = (lu/tau^2 + aW[g] lW[g]) / P,
+//
+// the mean and precision of its conditional posterior under a normal
+// approximation: the hierarchy Normal(lu, tau) and the region's own
+// least-squares estimate lW[g] with precision aW[g] (Coords.CoefLog and
+// SECoef, fixed before sampling; aW 0 where a region never runs the
+// channel or its estimate is not positive, which leaves the region
+// non-centred). The weight of the centred end, aW/P, moves with tau at
+// every point: non-centred as tau falls below a region's standard error,
+// centred on its estimate as tau rises above it, the continuous form of
+// the weights ChooseCoordinates rounds to 0 or 1 for coordinates that do
+// not take this (Papaspiliopoulos, Roberts and Sköld 2007, section 3).
+// The map is triangular (m and P do not depend on xi), its log-Jacobian
+// -log(P)/2, so the posterior on DESIGN.md's parameters is unchanged.
+//
+// It is gamma's conditional coordinates (condGamma) without the level's
+// share: a channel's contribution to a region's mean is one of several,
+// and its estimate within the region's weeks already holds what the data
+// say.
+type condCoef struct {
+	aW, lW []float64 // per region: the estimate's precision and centre (l's scale)
+	m, p   []float64 // the map's mean and precision per region
+}
+
+// newCondCoef builds the conditional coordinates of coefficient k of c
+// for a channel whose reference response at the prior's centre has log
+// lref (startRef).
+func newCondCoef(c *Coords, k, G int, lref float64) *condCoef {
+	cc := &condCoef{aW: make([]float64, G), lW: make([]float64, G)}
+	for g := 0; g < G; g++ {
+		s, e := c.SECoef[k][g], c.CoefLog[k][g]
+		if s > 0 && !math.IsInf(s, 1) && !math.IsNaN(e) {
+			cc.aW[g], cc.lW[g] = 1/(s*s), e+lref
+		}
+	}
+	cc.alloc(G)
+	return cc
+}
+
+func (cc *condCoef) alloc(G int) { cc.m, cc.p = make([]float64, G), make([]float64, G) }
+
+func (cc *condCoef) clone() *condCoef {
+	d := *cc
+	d.alloc(len(cc.aW))
+	return &d
+}
+
+// startRef returns the log of a rescaled coefficient's reference response
+// href at transforms tr (retention, half-saturation, shape), the scale on
+// which Coords' least-squares estimates, made there, become l = log(theta
+// href); 0 for a coefficient that is not rescaled.
+func (c *panelCoef) startRef(tr [3]float64) float64 {
+	if !c.rescale {
+		return 0
+	}
+	if c.ch.linear {
+		return math.Log(c.ch.abar)
+	}
+	return math.Log(transform.Hill(c.ch.abar, tr[1], tr[2]))
+}
+
+// ccValues sets theta[g] from xi (x) given lu, tau and href.
+func (c *panelCoef) ccValues(nat, x []float64, href float64) bool {
+	cc := c.cc
+	tau := nat[c.tauPos]
+	aP := 1 / (tau * tau)
+	for g := range c.v {
+		P := aP + cc.aW[g]
+		m := c.lu + cc.aW[g]*(cc.lW[g]-c.lu)/P
+		cc.m[g], cc.p[g] = m, P
+		c.v[g] = math.Exp(m+x[c.block+g]/math.Sqrt(P)) / href
+		if notFinite(c.v[g]) || c.v[g] == 0 {
+			return false
+		}
+	}
+	return true
+}
+
+// ccPrior is prior for the conditional coordinates: the hierarchy plus the
+// map's log-Jacobian and (grad not nil) the pullback of d lp/d l[g] to
+// xi[g], lu (c.glu), tau and log href (c.gref).
+func (c *panelCoef) ccPrior(nat, gn, grad []float64) float64 {
+	cc := c.cc
+	lu := c.lu
+	tau := nat[c.tauPos]
+	ltau := math.Log(tau)
+	aP := 1 / (tau * tau)
+	lp, gtau := 0.0, 0.0
+	for g, v := range c.v {
+		// l = log(v href) = log v + (lu - log theta)
+		l := math.Log(v) + lu - math.Log(nat[c.hyper])
+		z := (l - lu) / tau
+		P := cc.p[g]
+		lp += -0.5*z*z - ltau - 0.5*math.Log(P)
+		if grad == nil {
+			continue
+		}
+		glik := c.g[g] * v
+		G := glik - z/tau
+		gx, cN, cP := condPull(G, l, cc.m[g], P)
+		grad[c.block+g] = gx
+		// N = aP lu + aW lW, P = aP + aW
+		c.glu += cN*aP + z/tau
+		gtau += (cN*lu+cP)*(-2*aP/tau) + z*z/tau - 1/tau
+		c.gref -= glik
+	}
+	if grad != nil {
+		gn[c.tauPos] += gtau
+	}
+	return lp
+}
+
+// condPull pulls G = d lp/d l back through l = N/P + xi/sqrt(P) with the
+// log-Jacobian -log(P)/2: the gradient in xi and the coefficients on dN
+// and dP of the rest (d l = (dN - (l + m)/2 dP)/P, m = N/P; the Jacobian
+// adds -dP/(2P)).
+func condPull(G, l, m, P float64) (gx, cN, cP float64) {
+	return G / math.Sqrt(P), G / P, -G*(l+m)/(2*P) - 1/(2*P)
+}
