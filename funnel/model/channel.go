@@ -91,7 +91,7 @@ func (c *channelTerm) values(lam, k, s float64) {
 // S, their means, and href with its derivatives.
 func (c *channelTerm) series(lam, k, s float64) {
 	transform.AdstockGrad(c.a, c.da, c.x, lam)
-	sh, shl, shk, shs := hillSeries(c.h, c.hl, c.hk, c.hs, c.a, c.da, k, s)
+	sh, shl, shk, shs := transform.HillSeries(c.h, c.hl, c.hk, c.hs, c.a, c.da, k, s)
 	T := float64(len(c.x))
 	c.hbar, c.hlbar, c.hkbar, c.hsbar = sh/T, shl/T, shk/T, shs/T
 	if c.plain {
@@ -99,37 +99,6 @@ func (c *channelTerm) series(lam, k, s float64) {
 	} else {
 		c.href, _, c.hrefK, c.hrefS = transform.HillGrad(c.abar, k, s)
 	}
-}
-
-// hillSeries writes H(ad[t]; K, S) into h and its derivatives in lam (through
-// da = da/dlam), K and S into hl, hk and hs, and returns their sums. It is
-// transform.HillGrad with the constants hoisted: one log, one exp and two
-// divisions per week (the hot loop of every evaluation).
-func hillSeries(h, hl, hk, hs, ad, da []float64, k, s float64) (sh, shl, shk, shs float64) {
-	logK, invK := math.Log(k), 1/k
-	for i, a := range ad {
-		if a <= 0 {
-			h[i], hl[i], hk[i], hs[i] = 0, 0, 0, 0
-			continue
-		}
-		la := math.Log(a) - logK
-		r := math.Exp(s * la)
-		if r > 1e300 {
-			h[i], hl[i], hk[i], hs[i] = 1, 0, 0, 0
-			sh++
-			continue
-		}
-		inv := 1 / (1 + r)
-		hi := r * inv
-		w := hi * inv // H(1-H)
-		sw := s * w
-		h[i], hl[i], hk[i], hs[i] = hi, sw/a*da[i], -sw*invK, w*la
-		sh += hi
-		shl += hl[i]
-		shk += hk[i]
-		shs += hs[i]
-	}
-	return sh, shl, shk, shs
 }
 
 func (c *channelTerm) response() []float64 {

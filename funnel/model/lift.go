@@ -3,6 +3,8 @@ package model
 import (
 	"fmt"
 	"math"
+
+	"spillway/funnel/transform"
 )
 
 // LiftMetric is what a lift test measured.
@@ -313,8 +315,8 @@ func (p *liftPath) diff(v []float64, from, to int) {
 	}
 	k, s := v[p.slots.K], v[p.slots.S]
 	w := to + 1
-	hillSeries(p.h[from:w], p.hl[from:w], p.hk[from:w], p.hs[from:w], p.a[from:w], p.da[from:w], k, s)
-	hillSeries(p.hc[from:w], p.hlc[from:w], p.hkc[from:w], p.hsc[from:w], p.ac[from:w], p.dac[from:w], k, s)
+	transform.HillSeries(p.h[from:w], p.hl[from:w], p.hk[from:w], p.hs[from:w], p.a[from:w], p.da[from:w], k, s)
+	transform.HillSeries(p.hc[from:w], p.hlc[from:w], p.hkc[from:w], p.hsc[from:w], p.ac[from:w], p.dac[from:w], k, s)
 	for t := from; t <= to; t++ {
 		m := p.mult[t]
 		p.dh[t] = p.h[t] - p.hc[t]

@@ -643,7 +643,7 @@ type panelReg struct {
 // the channel is linear, its response with derivatives and their means.
 type panelSeries struct {
 	x                         []float64
-	a, da, h, hl, hk, hs      []float64
+	h, hl, hk, hs             []float64
 	hbar, hlbar, hkbar, hsbar float64
 }
 
@@ -702,11 +702,10 @@ func (c *panelChannel) clone() *panelChannel {
 		for g := range d.series {
 			s := &d.series[g]
 			if f := c.same[g]; f != g {
-				s.a, s.da, s.h, s.hl, s.hk, s.hs = d.series[f].a, d.series[f].da, d.series[f].h, d.series[f].hl, d.series[f].hk, d.series[f].hs
+				s.h, s.hl, s.hk, s.hs = d.series[f].h, d.series[f].hl, d.series[f].hk, d.series[f].hs
 				continue
 			}
 			T := len(s.x)
-			s.a, s.da = make([]float64, T), make([]float64, T)
 			s.h, s.hl, s.hk, s.hs = make([]float64, T), make([]float64, T), make([]float64, T), make([]float64, T)
 		}
 	}
@@ -750,14 +749,13 @@ func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 		}
 		T := float64(len(r.x))
 		if grad {
-			transform.AdstockGrad(r.a, r.da, r.x, lam)
-			sh, shl, shk, shs := hillSeries(r.h, r.hl, r.hk, r.hs, r.a, r.da, k, s)
+			sh, shl, shk, shs := transform.AdstockHillSeries(r.h, r.hl, r.hk, r.hs, r.x, lam, k, s)
 			r.hbar, r.hlbar, r.hkbar, r.hsbar = sh/T, shl/T, shk/T, shs/T
 			continue
 		}
-		transform.Adstock(r.a, r.x, lam)
+		transform.Adstock(r.h, r.x, lam) // the adstock, then its response in place
 		sh := 0.0
-		for i, a := range r.a {
+		for i, a := range r.h {
 			r.h[i] = transform.Hill(a, k, s)
 			sh += r.h[i]
 		}

@@ -5,6 +5,7 @@ import (
 	"math"
 	"math/rand/v2"
 
+	"spillway/funnel/transform"
 	"spillway/funnel/window"
 )
 
@@ -383,8 +384,8 @@ func (p *effectPath) diff(v []float64, from, to int) {
 		dprev = d
 	}
 	k, s := v[p.slots.K], v[p.slots.S]
-	hillSeries(p.h[from:], p.hl[from:], p.hk[from:], p.hs[from:], p.a[from:], p.da[from:], k, s)
-	hillSeries(p.hc[from:], p.hlc[from:], p.hkc[from:], p.hsc[from:], p.ac[from:], p.dac[from:], k, s)
+	transform.HillSeries(p.h[from:], p.hl[from:], p.hk[from:], p.hs[from:], p.a[from:], p.da[from:], k, s)
+	transform.HillSeries(p.hc[from:], p.hlc[from:], p.hkc[from:], p.hsc[from:], p.ac[from:], p.dac[from:], k, s)
 	for t := from; t < T; t++ {
 		m := p.mult[t]
 		p.dh[t] = p.h[t] - p.hc[t]
