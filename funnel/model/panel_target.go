@@ -38,6 +38,12 @@ type PanelTarget struct {
 	nat, gn []float64 // natural values and gradients, len(names)
 	n, w    [][]float64
 	sw, gS  []float64 // per region: sum_t w, d lp / d S_g (the intercept's shear)
+	// evalData's scratch: a region's predictor terms (fb, fx) and the
+	// series its gradient sums run over (dx, sums in acc; the regressors'
+	// sums over every region in racc, the transforms' in bacc, three per
+	// coefficient)
+	fb, acc, racc, bacc []float64
+	fx, dx              [][]float64
 }
 
 var _ mcmc.Target = (*PanelTarget)(nil)
@@ -222,6 +228,10 @@ func (t *PanelTarget) alloc() {
 		t.n[g], t.w[g] = make([]float64, t.T), make([]float64, t.T)
 	}
 	t.sw, t.gS = make([]float64, t.G), make([]float64, t.G)
+	nr, nc := len(t.regs), len(t.coefs)
+	t.fb, t.fx = make([]float64, nr+nc), make([][]float64, nr+nc)
+	t.dx, t.acc = make([][]float64, nr+4*nc), make([]float64, nr+4*nc)
+	t.racc, t.bacc = make([]float64, nr), make([]float64, 3*nc)
 	t.inter.alloc(t.G)
 }
 
@@ -390,40 +400,29 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 	}
 	nat, gn := t.nat, t.gn
 	clear(gn)
-	// linear predictor, region by region
+	// region by region: the linear predictor, the likelihood and, with
+	// grad, the sums over the region's weeks that the gradients need
+	// (panel_kernels.go: each sum in the order of a loop per series)
+	sigma := nat[t.sigma]
+	inv2 := 1 / (sigma * sigma)
+	nr, nc := len(t.regs), len(t.coefs)
+	fb, fx, dx, acc := t.fb, t.fx, t.dx, t.acc
+	racc := t.racc // the regressors' sums run over every region
+	clear(racc)
+	clear(t.bacc)
+	ss := 0.0
 	for g := 0; g < t.G; g++ {
 		n := t.n[g]
-		m := t.inter.v[g]
-		for i := range n {
-			n[i] = m
+		for j, r := range t.regs {
+			fb[j], fx[j] = nat[r.k], r.x[g]
 		}
-		for _, r := range t.regs {
-			b := nat[r.k]
-			for i, v := range r.x[g] {
-				n[i] += b * v
-			}
+		for j, c := range t.coefs {
+			fb[nr+j], fx[nr+j] = c.v[g], c.response(g)
 		}
-		for _, c := range t.coefs {
-			b := c.v[g]
-			var h []float64
-			if c.ch == nil {
-				h = c.q[g]
-			} else {
-				h = c.ch.series[g].response()
-			}
-			for i, v := range h {
-				n[i] += b * v
-			}
-		}
+		axpys(n, t.inter.v[g], fb, fx)
 		if t.base != nil {
 			t.base.forward(n)
 		}
-	}
-	// likelihood
-	sigma := nat[t.sigma]
-	inv2 := 1 / (sigma * sigma)
-	ss := 0.0
-	for g := 0; g < t.G; g++ {
 		sw := 0.0
 		mask := t.mask[g]
 		w := t.w[g]
@@ -432,12 +431,41 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 				w[i] = 0
 				continue
 			}
-			e := y - t.n[g][i]
+			e := y - n[i]
 			ss += e * e
 			w[i] = e * inv2
 			sw += w[i]
 		}
 		t.sw[g] = sw
+		if grad == nil {
+			continue
+		}
+		// the regressors' running sums, each coefficient's and each
+		// transform's (lam, K, S) sum for this region
+		copy(acc, racc)
+		clear(acc[nr:])
+		copy(dx, fx)
+		k := nr + nc
+		for _, c := range t.coefs {
+			if c.ch != nil && !c.ch.linear {
+				s := &c.ch.series[g]
+				dx[k], dx[k+1], dx[k+2] = s.hl, s.hk, s.hs
+				k += 3
+			}
+		}
+		dots(acc[:k], w, dx[:k])
+		copy(racc, acc[:nr])
+		k = nr + nc
+		for j, c := range t.coefs {
+			c.g[g] = acc[nr+j]
+			if c.ch != nil && !c.ch.linear {
+				b := c.v[g]
+				t.bacc[3*j] += b * acc[k]
+				t.bacc[3*j+1] += b * acc[k+1]
+				t.bacc[3*j+2] += b * acc[k+2]
+				k += 3
+			}
+		}
 	}
 	lp := -float64(t.nObs)*math.Log(sigma) - 0.5*ss*inv2
 	gn[t.sigma] += -float64(t.nObs)/sigma + ss*inv2/sigma
@@ -456,32 +484,16 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 	if grad == nil {
 		return lp + t.inter.prior(nat, nil), true
 	}
-	// natural gradients from the likelihood
-	for _, r := range t.regs {
-		s := 0.0
-		for g := 0; g < t.G; g++ {
-			for i, v := range r.x[g] {
-				s += t.w[g][i] * v
-			}
-		}
-		gn[r.k] += s
+	// natural gradients from the likelihood: the shared regressors' and
+	// the transforms' (each coefficient's per region is in c.g)
+	for j, r := range t.regs {
+		gn[r.k] += racc[j]
 	}
-	for _, c := range t.coefs {
-		for g := 0; g < t.G; g++ {
-			var h []float64
-			if c.ch == nil {
-				h = c.q[g]
-			} else {
-				h = c.ch.series[g].response()
-			}
-			s := 0.0
-			for i, v := range h {
-				s += t.w[g][i] * v
-			}
-			c.g[g] = s
-		}
-		if c.ch != nil {
-			c.ch.backward(gn, c.v, t.w)
+	for j, c := range t.coefs {
+		if c.ch != nil && !c.ch.linear {
+			gn[c.ch.k[1]] += t.bacc[3*j]
+			gn[c.ch.k[2]] += t.bacc[3*j+1]
+			gn[c.ch.k[3]] += t.bacc[3*j+2]
 		}
 	}
 	// the intercepts: their hierarchy, then the shear back to what S_g
@@ -847,30 +859,6 @@ func (c *panelChannel) driftBackward(gn, nat, b []float64, w [][]float64, gS []f
 	c.sm.backward(gn, nat, c.r, 0, T)
 }
 
-// backward adds the likelihood's gradient in lam, K and S given the
-// coefficient per region b and w[g][t] = d lp/d n[g][t].
-func (c *panelChannel) backward(gn, b []float64, w [][]float64) {
-	if c.linear {
-		return
-	}
-	var gl, gk, gs float64
-	for g := range c.series {
-		r := &c.series[g]
-		var sl, sk, ss float64
-		for i, wi := range w[g] {
-			sl += wi * r.hl[i]
-			sk += wi * r.hk[i]
-			ss += wi * r.hs[i]
-		}
-		gl += b[g] * sl
-		gk += b[g] * sk
-		gs += b[g] * ss
-	}
-	gn[c.k[1]] += gl
-	gn[c.k[2]] += gk
-	gn[c.k[3]] += gs
-}
-
 // pullback adds href's dependence on K and S: gref = d lp / d log href.
 func (c *panelChannel) pullback(grad, nat []float64, gref float64) {
 	if c.linear {
@@ -913,6 +901,15 @@ type panelCoef struct {
 	lu          float64
 	gref        float64 // d lp / d log href
 	glu         float64
+}
+
+// response returns region g's series the coefficient multiplies: gamma's
+// regressor or the channel's response.
+func (c *panelCoef) response(g int) []float64 {
+	if c.ch == nil {
+		return c.q[g]
+	}
+	return c.ch.series[g].response()
 }
 
 // values sets theta (dividing by href when rescaled) and theta[g].
