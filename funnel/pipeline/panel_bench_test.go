@@ -40,7 +40,9 @@ import (
 // data: SPILLWAY_PANEL_SEED sets the simulation's seed (default 40),
 // SPILLWAY_PANEL_RUN_SEED offsets the sampler's, and
 // SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
-// rounded weights instead of their conditional coordinates.
+// rounded weights instead of their conditional coordinates;
+// SPILLWAY_PANEL_ACCEPT sets the target acceptance (default the fit's,
+// DefaultTargetAccept).
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	var err error
@@ -67,6 +69,12 @@ func BenchmarkPanelFit(b *testing.B) {
 			}
 		}
 		stages = s
+	}
+	accept := DefaultTargetAccept
+	if s := os.Getenv("SPILLWAY_PANEL_ACCEPT"); s != "" {
+		if accept, err = strconv.ParseFloat(s, 64); err != nil || accept <= 0 || accept >= 1 {
+			b.Fatalf("SPILLWAY_PANEL_ACCEPT=%s: want a target acceptance between 0 and 1", s)
+		}
 	}
 	seed, runSeed := uint64(40), uint64(0)
 	if s := os.Getenv("SPILLWAY_PANEL_RUN_SEED"); s != "" {
@@ -109,7 +117,7 @@ func BenchmarkPanelFit(b *testing.B) {
 			if err != nil {
 				b.Fatal(err)
 			}
-			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k) + runSeed, TargetAccept: DefaultTargetAccept}
+			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k) + runSeed, TargetAccept: accept}
 			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
 				set = PanelStart(tg, set)
 			}
