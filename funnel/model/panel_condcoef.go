@@ -66,10 +66,28 @@ func (c *panelCoef) startRef(tr [3]float64) float64 {
 	if !c.rescale {
 		return 0
 	}
-	if c.ch.linear {
-		return math.Log(c.ch.abar)
+	ch := c.ch
+	if ch.linear {
+		return math.Log(ch.abar)
 	}
-	return math.Log(transform.Hill(c.ch.abar, tr[1], tr[2]))
+	if !ch.spread {
+		return math.Log(transform.Hill(ch.abar, tr[1], tr[2]))
+	}
+	// the response's spread (panelChannel.spreadRef) at tr, once before
+	// sampling
+	var m, m2 float64
+	n := 0
+	for g := range ch.series {
+		h := transform.Adstock(nil, ch.series[ch.same[g]].x, tr[0])
+		for _, a := range h {
+			v := transform.Hill(a, tr[1], tr[2])
+			m += v
+			m2 += v * v
+		}
+		n += len(h)
+	}
+	m, m2 = m/float64(n), m2/float64(n)
+	return 0.5 * math.Log(max(m2-m*m, 0))
 }
 
 // ccValues sets theta[g] from xi (x) given lu, tau and href.

@@ -145,7 +145,8 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		cs := bl.Channels()[j]
 		pc := &panelChannel{k: [4]int{cs.Coef, cs.Lam, cs.K, cs.S}, linear: cs.Linear(), series: make([]panelSeries, t.G)}
 		if !pc.linear {
-			pc.kFree, pc.sFree = t.par[cs.K].free, t.par[cs.S].free
+			pc.lFree, pc.kFree, pc.sFree = t.par[cs.Lam].free, t.par[cs.K].free, t.par[cs.S].free
+			pc.lSup = t.par[cs.Lam].sup
 		}
 		ref, nref := 0.0, 0
 		for g, st := range p.Stages {
@@ -158,6 +159,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			}
 		}
 		pc.same = sameSeries(pc.series)
+		pc.spread = t.G > 1 && !pc.linear && varies(pc.series)
 		if d := cs.Drift; d.Has() {
 			// the national drift's slots, once in the base layout: one
 			// multiplier for every region
@@ -652,11 +654,15 @@ type panelReg struct {
 }
 
 // panelSeries is one region's series of a channel: its spend and, unless
-// the channel is linear, its response with derivatives and their means.
+// the channel is linear, its response with derivatives and their means,
+// and the means of the response's square and of its products with its
+// derivatives (the response's spread, panelChannel.spread).
 type panelSeries struct {
 	x                         []float64
 	h, hl, hk, hs             []float64
 	hbar, hlbar, hkbar, hsbar float64
+	h2bar                     float64
+	hh                        [3]float64 // means of h hl, h hk, h hs
 }
 
 func (s *panelSeries) response() []float64 {
@@ -668,22 +674,42 @@ func (s *panelSeries) response() []float64 {
 
 // panelChannel is a media channel with transforms shared by the regions:
 // H(adstock(x[g]; lam); K, S) in region g. Its coefficients are a
-// panelCoef's; like the national channel it rescales the hyper
-// coefficient by href = H(abar; K, S), the response at the regions' mean
-// scaled spend (doc.go).
+// panelCoef's, which rescale the hyper coefficient by a reference
+// response href: with one region H(abar; K, S), the response at mean
+// spend, as the national channel does (doc.go), so that one region is the
+// national model in the same coordinates; with several (spread) the
+// response's standard deviation over the panel's region-weeks.
+//
+// Why the spread: what the data pin down is the coefficient times how
+// much the response moves, since its level trades with the intercepts
+// (mu' takes it off). A channel that runs every week near saturation
+// (paid search that follows the queries) has a flat response whose level
+// H(abar) is near 1 whatever K, S and the coefficient: on a 40-region,
+// 156-week panel log(beta H(abar)) had posterior sd 0.79 and correlation
+// -0.70 with log K_s, and the outcome stage's divergent transitions sat at
+// its tail (beta 5 times its median, K_s small, every intercept low),
+// while log(beta sd(H)) had sd 0.23 and no correlation with log K_s or
+// log S_s (and for video and audio, which run in flights, 0.045 and 0.057
+// against 0.048 and 0.069). The map from (log(theta href), lam, K, S) to
+// (theta, lam, K, S) is triangular with unit diagonal in log theta, so the
+// posterior is unchanged; href's derivatives in lam, K and S go to the
+// sampling coordinates through pullback.
 type panelChannel struct {
-	k            [4]int // coef, lam, K, S
-	kFree, sFree int
-	linear       bool
-	abar         float64
-	series       []panelSeries
+	k                   [4]int // coef, lam, K, S
+	lFree, kFree, sFree int
+	lSup                Support // lam's
+	linear              bool
+	spread              bool // href is the response's spread (several regions, spend that varies)
+	abar                float64
+	series              []panelSeries
 	// same[g] is the first region whose spend series equals region g's
 	// (g itself if none before it): regions with the same scaled flights
 	// (a national buy split by size, regions that never run the channel)
 	// share one transformed series, computed once.
-	same         []int
-	href         float64
-	hrefK, hrefS float64
+	same                []int
+	href                float64
+	hrefL, hrefK, hrefS float64 // href's derivatives in lam, K and S
+	quad                [4][]float64
 	// sm is the drift (nil when the coefficient does not drift): every
 	// region's response is multiplied by mult[t] = exp(f(t)), one f shared
 	// by the regions (drift.go's multiplier, smooth.go's function); r is
@@ -744,7 +770,7 @@ func sameSeries(series []panelSeries) []int {
 // and href.
 func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 	if c.linear {
-		c.href, c.hrefK, c.hrefS = c.abar, 0, 0
+		c.href, c.hrefL, c.hrefK, c.hrefS = c.abar, 0, 0, 0
 		if c.sm != nil {
 			return c.drift(nat, grad)
 		}
@@ -757,25 +783,37 @@ func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 			// the same arrays as region f's (Target, clone): only the means
 			q := &c.series[f]
 			r.hbar, r.hlbar, r.hkbar, r.hsbar = q.hbar, q.hlbar, q.hkbar, q.hsbar
+			r.h2bar, r.hh = q.h2bar, q.hh
 			continue
 		}
 		T := float64(len(r.x))
 		if grad {
 			sh, shl, shk, shs := transform.AdstockHillSeries(r.h, r.hl, r.hk, r.hs, r.x, lam, k, s)
 			r.hbar, r.hlbar, r.hkbar, r.hsbar = sh/T, shl/T, shk/T, shs/T
+			if c.spread {
+				var sq [4]float64
+				c.quad = [4][]float64{r.h, r.hl, r.hk, r.hs}
+				dots(sq[:], r.h, c.quad[:])
+				r.h2bar, r.hh = sq[0]/T, [3]float64{sq[1] / T, sq[2] / T, sq[3] / T}
+			}
 			continue
 		}
 		transform.Adstock(r.h, r.x, lam) // the adstock, then its response in place
-		sh := 0.0
+		sh, sh2 := 0.0, 0.0
 		for i, a := range r.h {
-			r.h[i] = transform.Hill(a, k, s)
-			sh += r.h[i]
+			h := transform.Hill(a, k, s)
+			r.h[i] = h
+			sh += h
+			sh2 += h * h
 		}
-		r.hbar = sh / T
+		r.hbar, r.h2bar = sh/T, sh2/T
 	}
-	if grad {
+	switch {
+	case c.spread:
+		c.spreadRef(grad)
+	case grad:
 		c.href, _, c.hrefK, c.hrefS = transform.HillGrad(c.abar, k, s)
-	} else {
+	default:
 		c.href = transform.Hill(c.abar, k, s)
 	}
 	ok := c.href > 0 && !math.IsNaN(c.href)
@@ -859,10 +897,58 @@ func (c *panelChannel) driftBackward(gn, nat, b []float64, w [][]float64, gS []f
 	c.sm.backward(gn, nat, c.r, 0, T)
 }
 
-// pullback adds href's dependence on K and S: gref = d lp / d log href.
+// spreadRef sets href to the response's standard deviation over the
+// region-weeks (every region has the same weeks) from the regions' means,
+// and with grad its derivatives: d var = 2 (mean(h dh) - mean(h) mean(dh)).
+func (c *panelChannel) spreadRef(grad bool) {
+	var m, m2 float64
+	var mh, md [3]float64
+	for g := range c.series {
+		r := &c.series[g]
+		m += r.hbar
+		m2 += r.h2bar
+		if grad {
+			for i, d := range [3]float64{r.hlbar, r.hkbar, r.hsbar} {
+				mh[i] += r.hh[i]
+				md[i] += d
+			}
+		}
+	}
+	G := float64(len(c.series))
+	m, m2 = m/G, m2/G
+	c.href = math.Sqrt(max(m2-m*m, 0))
+	if !grad {
+		return
+	}
+	d := [3]*float64{&c.hrefL, &c.hrefK, &c.hrefS}
+	for i := range d {
+		*d[i] = (mh[i]/G - m*md[i]/G) / c.href // d sqrt(var) = d var / (2 sd)
+	}
+}
+
+// varies reports whether a channel's scaled spend takes more than one value
+// over the region-weeks: otherwise its response is the same in every
+// region-week and has no spread.
+func varies(series []panelSeries) bool {
+	x0 := series[0].x[0]
+	for _, s := range series {
+		for _, x := range s.x {
+			if x != x0 {
+				return true
+			}
+		}
+	}
+	return false
+}
+
+// pullback adds href's dependence on lam, K and S: gref = d lp / d log
+// href.
 func (c *panelChannel) pullback(grad, nat []float64, gref float64) {
 	if c.linear {
 		return
+	}
+	if c.lFree >= 0 && c.hrefL != 0 {
+		grad[c.lFree] += gref * c.hrefL / c.href * slope(c.lSup, nat[c.k[1]])
 	}
 	if c.kFree >= 0 {
 		grad[c.kFree] += gref * c.hrefK / c.href * nat[c.k[2]]
@@ -875,8 +961,9 @@ func (c *panelChannel) pullback(grad, nat []float64, gref float64) {
 // panelCoef is a coefficient that varies by region, gamma or a channel's:
 // theta[g] = theta exp(tau eta[g]), eta ~ Normal(0, 1), so log theta[g] ~
 // Normal(log theta, tau). With rescale (a channel whose hyperparameter is
-// sampled) it works on the log of the contribution at mean spend,
-// l[g] = log(theta[g] href), a shift that leaves the hierarchy unchanged.
+// sampled) it works on the log of the coefficient times the channel's
+// reference response (panelChannel), l[g] = log(theta[g] href), a shift
+// that leaves the hierarchy unchanged.
 // Region g's sampling coordinate v[g] is partially non-centred with weight
 // lam[g] (panelcoords.go):
 //

@@ -54,6 +54,18 @@ func (p *param) logJac(v float64) float64 {
 	return 0
 }
 
+// slope returns dv/du, the derivative of the natural value v in its
+// sampling coordinate u, at v.
+func slope(sup Support, v float64) float64 {
+	switch sup {
+	case PositiveReal:
+		return v
+	case UnitInterval:
+		return v * (1 - v)
+	}
+	return 1
+}
+
 // chainGrad returns d/du of the log density plus log |dv/du| given
 // g = d lp/dv at the natural value v.
 func (p *param) chainGrad(g, v float64) float64 {
