@@ -146,7 +146,8 @@ media coefficients pooled towards the regions' typical values (their
 spreads, tau_..., are learned and printed); trend, seasons, controls,
 transforms and noise are shared. --national fits the regions' national sum
 instead, as one series (recorded in spec.json); return priors and
-measured exposure need it for now. --drift on a panel drifts every
+measured exposure need it for now, as does --drift-shape jumps on an
+upper-funnel channel. --drift on a panel drifts every
 region's coefficient by the same multiplier, and --baseline smooth puts
 one smooth function of time, shared by the regions, in place of their
 shared trend line. On a panel a
@@ -161,7 +162,10 @@ without the query term does not drift); FOLDER/drift.csv holds each weekly
 multiplier with its 90% interval and FOLDER/drift_change.csv the last full
 quarter's against the first's. --drift-shape jumps lets the drift also
 jump, at candidate weeks about a month apart, for a sudden change such as
-a creative refresh, which a smooth drift spreads over months. --baseline smooth puts a smooth function
+a creative refresh, which a smooth drift spreads over months; an
+upper-funnel channel's two paths (its lift of the queries and its direct
+effect) then tend to jump in the same week, which ties the two stages, so
+they are fitted as one. --baseline smooth puts a smooth function
 of time in place of the trend line. --lifts FILE adds lift tests as data
 (channel,start,end,estimate,se and optionally metric, outcome or queries):
 removing the channel's spend from start to end (week start dates) lowered
@@ -364,6 +368,15 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 	}
 	if p.panel != nil && len(p.o.Returns) > 0 {
 		return nil, usagef("--priors %s: priors on returns are not part of the region panel yet; leave out the return rows, or add --national to fit the regions' sum", opts.priors)
+	}
+	if p.panel != nil && p.o.DriftShape == model.DriftJumps {
+		st, err := pipeline.Stages(p.sc, p.o)
+		if err != nil {
+			return nil, err
+		}
+		if ties := pipeline.JumpTies(st[0], st[1], p.o); len(ties) > 0 {
+			return nil, usagef("%s", pipeline.PanelJumpsRefusal(ties))
+		}
 	}
 	if opts.priors != "" {
 		if p.priorBytes, err = os.ReadFile(opts.priors); err != nil {

@@ -179,12 +179,14 @@ func TestDriftCalibration(t *testing.T) {
 		cases = some
 	}
 	// drift: the smooth drift; jumps: the drift that can jump
-	// (--drift-shape jumps); default: no drift
+	// (--drift-shape jumps, an upper-funnel channel's two paths' jumps
+	// tied); jumps-apart: the same with the two paths' jumps independent
+	// (model.Options.JumpsApart, only on demand); default: no drift
 	models := []string{"drift", "jumps", "default"}
 	if v := os.Getenv("SPILLWAY_DRIFT_MODELS"); v != "" {
 		models = strings.Split(v, ",")
 	}
-	drifting := func(m string) bool { return m == "drift" || m == "jumps" }
+	drifting := func(m string) bool { return m == "drift" || m == "jumps" || m == "jumps-apart" }
 	quantities := []string{"video_spend/via_search", "video_spend/direct", "audio_spend/via_search", "audio_spend/direct", "gamma"}
 	whole := map[string]*calibCount{}
 	quarters := map[string]*clusterCoverage{}
@@ -228,8 +230,8 @@ func TestDriftCalibration(t *testing.T) {
 				if drifting(m) {
 					o.Drift = allDrift(tm.sc)
 				}
-				if m == "jumps" {
-					o.DriftShape = model.DriftJumps
+				if m == "jumps" || m == "jumps-apart" {
+					o.DriftShape, o.JumpsApart = model.DriftJumps, m == "jumps-apart"
 				}
 				f, err := FitStages(ctx, tm.sc, o, tests, mcmc.Settings{Seed: seed, Chains: 2, Warmup: 200, Draws: 150}, nil)
 				if err != nil {

@@ -119,7 +119,29 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 			return o, fmt.Errorf("%s: %w", c.Priors, err)
 		}
 	}
+	if ties := JumpTies(st[0], st[1], o); len(ties) > 0 {
+		// a prior on a jump weight must leave the tie a Student-t to join
+		cross := make([]model.CrossTerm, len(ties))
+		for i, t := range ties {
+			cross[i] = t
+		}
+		if _, err := model.NewJoint(st[:2], cross...); err != nil {
+			return o, fmt.Errorf("%s: %w", c.Priors, err)
+		}
+	}
 	return o, nil
+}
+
+// PanelJumpsRefusal is why a region panel refuses the options of ties, the
+// jump ties of its upper-funnel channels (JumpTies): the panel's joint
+// target takes lift tests only.
+func PanelJumpsRefusal(ties []*model.JumpTie) string {
+	cols := make([]string, len(ties))
+	for i, t := range ties {
+		cols[i] = t.Column
+	}
+	return fmt.Sprintf("--drift-shape %s with an upper-funnel channel drifting (%s): its two paths jump together, which ties the demand and the outcome stage, and the region panel does not tie them that way yet; add --national to fit the regions' national sum, drift paid search alone, or use --drift-shape %s",
+		model.DriftJumps, strings.Join(cols, ", "), model.DriftSmooth)
 }
 
 func setTrue(m map[string]bool, k string) map[string]bool {
