@@ -3,7 +3,10 @@ package model
 import (
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"slices"
+
+	"gonum.org/v1/gonum/stat/distuv"
 )
 
 // JumpTie is the prior that a channel's two paths tend to jump in the same
@@ -150,6 +153,32 @@ func (j *JumpTie) LogDensity(pts []Point, grad bool) float64 {
 		}
 	}
 	return lp
+}
+
+// JumpTieDraws binds the jump ties of the demand and the outcome stage
+// (JumpTies) for Draw, outside a Joint target; nil when there are none.
+func JumpTieDraws(demand, outcome *Stage) ([]*JumpTie, error) {
+	pts := []Point{{Stage: demand, Layout: demand.Layout()}, {Stage: outcome, Layout: outcome.Layout()}}
+	ties := JumpTies(demand, outcome, 0, 1)
+	for _, t := range ties {
+		if err := t.Bind(pts); err != nil {
+			return nil, err
+		}
+	}
+	return ties, nil
+}
+
+// Draw replaces the tied jump weights in a pair of prior draws (vd of the
+// demand stage, vy of the outcome stage, each in its stage's Names order)
+// by a draw from the tie's bivariate Student-t: each week's two normals
+// times s over the square root of their one Gamma(nu/2, rate nu/2) mixing
+// variable.
+func (j *JumpTie) Draw(vd, vy []float64, rng *rand.Rand) {
+	g := distuv.Gamma{Alpha: j.nu / 2, Beta: j.nu / 2, Src: rng}
+	for k := 0; k < j.n; k++ {
+		r := j.s / math.Sqrt(g.Rand())
+		vd[j.a+k], vy[j.d+k] = r*rng.NormFloat64(), r*rng.NormFloat64()
+	}
 }
 
 // Clone returns a copy: the tie keeps no scratch, so the copy is the same.

@@ -3,6 +3,7 @@ package model
 import (
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"testing"
 
@@ -167,4 +168,61 @@ func TestJumpTie(t *testing.T) {
 		t.Errorf("tie of Student-t(4, 0, 2) weights: nu %v, scale %v", ties4[0].nu, ties4[0].s)
 	}
 	mcmctest.CheckGradient(t, j4, 1e-6, &mcmctest.GradSettings{Seed: 13, Points: 2, Radius: 1, Step: 1e-5})
+}
+
+// TestJumpTieDraw checks the tie's prior draws against its law: each
+// weight alone Student-t(nu), and (ua^2 + ud^2) / 2 F(2, nu), the law of a
+// bivariate t's squared radius over its dimension, by Kolmogorov-Smirnov
+// statistics under their 0.1% critical value 1.95 / sqrt(n) (Massey 1951,
+// from memory); the same statistic of two independent t weights, the
+// untied prior, is above it, so the check tells the two apart. Draw
+// touches no other value.
+func TestJumpTieDraw(t *testing.T) {
+	sc := testScaled(70, 7)
+	st, _ := jumpTieStages(t, sc, Options{})
+	ties, err := JumpTieDraws(st[0], st[1])
+	if err != nil || len(ties) != 2 {
+		t.Fatalf("ties %v, %v", ties, err)
+	}
+	tie := ties[0]
+	rng := rand.New(rand.NewPCG(8, 8))
+	const n = 20000
+	vd, vy := make([]float64, len(st[0].Names())), make([]float64, len(st[1].Names()))
+	var ua, r2, indep []float64
+	uni := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: JumpDF, Src: rng}
+	for range n {
+		tie.Draw(vd, vy, rng)
+		k := rng.IntN(tie.n)
+		a, d := vd[tie.a+k], vy[tie.d+k]
+		ua, r2 = append(ua, a), append(r2, (a*a+d*d)/2)
+		a, d = uni.Rand(), uni.Rand()
+		indep = append(indep, (a*a+d*d)/2)
+	}
+	for i := range vd {
+		if (i < tie.a || i >= tie.a+tie.n) && vd[i] != 0 {
+			t.Fatalf("Draw wrote the demand stage's value %d", i)
+		}
+	}
+	ks := func(x []float64, cdf func(float64) float64) float64 {
+		s := slices.Clone(x)
+		slices.Sort(s)
+		d := 0.0
+		for i, v := range s {
+			c := cdf(v)
+			d = math.Max(d, math.Max(math.Abs(float64(i+1)/n-c), math.Abs(c-float64(i)/n)))
+		}
+		return d
+	}
+	crit := 1.95 / math.Sqrt(n)
+	f := distuv.F{D1: 2, D2: JumpDF}
+	if d := ks(ua, distuv.StudentsT{Mu: 0, Sigma: 1, Nu: JumpDF}.CDF); d > crit {
+		t.Errorf("a tied weight against t_%d: KS %.4f above %.4f", JumpDF, d, crit)
+	}
+	if d := ks(r2, f.CDF); d > crit {
+		t.Errorf("the pair's squared radius over 2 against F(2, %d): KS %.4f above %.4f", JumpDF, d, crit)
+	}
+	t.Logf("KS: tied weight %.4f, tied radius %.4f, independent radius %.4f; critical %.4f", ks(ua, distuv.StudentsT{Mu: 0, Sigma: 1, Nu: JumpDF}.CDF), ks(r2, f.CDF), ks(indep, f.CDF), crit)
+	if d := ks(indep, f.CDF); d <= crit {
+		t.Errorf("independent weights pass as tied: KS %.4f, not above %.4f", d, crit)
+	}
 }
