@@ -146,8 +146,7 @@ media coefficients pooled towards the regions' typical values (their
 spreads, tau_..., are learned and printed); trend, seasons, controls,
 transforms and noise are shared. --national fits the regions' national sum
 instead, as one series (recorded in spec.json); return priors and
-measured exposure need it for now, as does --drift-shape jumps on an
-upper-funnel channel. --drift on a panel drifts every
+measured exposure need it for now. --drift on a panel drifts every
 region's coefficient by the same multiplier, and --baseline smooth puts
 one smooth function of time, shared by the regions, in place of their
 shared trend line. On a panel a
@@ -368,15 +367,6 @@ func planFit(roles *roleFlags, opts *samplingFlags, demo string, stderr io.Write
 	}
 	if p.panel != nil && len(p.o.Returns) > 0 {
 		return nil, usagef("--priors %s: priors on returns are not part of the region panel yet; leave out the return rows, or add --national to fit the regions' sum", opts.priors)
-	}
-	if p.panel != nil && p.o.DriftShape == model.DriftJumps {
-		st, err := pipeline.Stages(p.sc, p.o)
-		if err != nil {
-			return nil, err
-		}
-		if ties := pipeline.JumpTies(st[0], st[1], p.o); len(ties) > 0 {
-			return nil, usagef("%s", pipeline.PanelJumpsRefusal(ties))
-		}
 	}
 	if opts.priors != "" {
 		if p.priorBytes, err = os.ReadFile(opts.priors); err != nil {

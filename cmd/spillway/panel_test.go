@@ -266,8 +266,7 @@ func TestPanelChainsMerge(t *testing.T) {
 // weeks, regions of different lengths, lift tests in a region the data lack
 // or that does not run the channel in the window (or in a region of data
 // fitted as their national sum), and the options the panel does not have
-// yet (drifts that jump on an upper-funnel channel's two paths included)
-// are refused with the file, line and column (or the flag), exit
+// yet are refused with the file, line and column (or the flag), exit
 // status 2, before any sampling, and nothing is written.
 func TestPanelBadInput(t *testing.T) {
 	short := cmdRegions(60)
@@ -294,8 +293,6 @@ func TestPanelBadInput(t *testing.T) {
 		{"a lift test in a region of the national sum", cmdRegions(60).csv(), append([]string{"--lifts", north, "--national"}, regionFlags...), "fit", []string{north + ":2:6: ", "fitted as their national sum"}},
 		{"a lift test in an unknown region in validate", cmdRegions(60).csv(), append([]string{"--lifts", lifts}, regionFlags...), "validate", []string{lifts + ":3:6: ", `unknown region "east"; expected one of the data's regions north, south`}},
 		{"allocate", cmdRegions(60).csv(), append([]string{"--allocate"}, regionFlags...), "run", []string{"--allocate", "--national"}},
-		{"jumps on an upper-funnel channel", cmdRegions(60).csv(), append([]string{"--drift", "video,search", "--drift-shape", "jumps"}, regionFlags...), "fit", []string{"--drift-shape jumps with an upper-funnel channel drifting (video)", "--national"}},
-		{"jumps on an upper-funnel channel in validate", cmdRegions(60).csv(), append([]string{"--drift", "all", "--drift-shape", "jumps"}, regionFlags...), "validate", []string{"--drift-shape jumps with an upper-funnel channel drifting (video, audio)", "--national"}},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			path := writeFile(t, "regions.csv", c.data)

@@ -226,3 +226,57 @@ func TestJumpTieDraw(t *testing.T) {
 		t.Errorf("independent weights pass as tied: KS %.4f, not above %.4f", d, crit)
 	}
 }
+
+// TestPanelJumpTie checks the tie on region panels, whose drift every
+// region shares: on a demand and an outcome panel of 4 regions with video
+// and paid search drifting with jumps, one tie (video's), its gradient
+// through the panel joint target against central differences, no
+// allocation, a clone that agrees, and the tie's share of the log density:
+// the joint with the tie less the joint without it is the bivariate t less
+// the two marginals at the shared jump weights, read by the base layout.
+func TestPanelJumpTie(t *testing.T) {
+	o := testDrift
+	o.DriftShape = DriftJumps
+	panels, _ := panelLiftCase(t, 4, 7, o)
+	ties := JumpTies(panels[0].Stages[0], panels[1].Stages[0], 0, 1)
+	if len(ties) != 1 || ties[0].Column != "video" {
+		t.Fatalf("ties %+v, want video's", ties)
+	}
+	j, err := NewPanelJoint(panels)
+	if err != nil {
+		t.Fatal(err)
+	}
+	plain, _ := NewPanelJoint(panels)
+	if err := j.Tie(ties...); err != nil {
+		t.Fatal(err)
+	}
+	r := mcmctest.CheckGradient(t, j, 1e-5, &mcmctest.GradSettings{Seed: 6, Points: 4, Radius: 1, Step: 1e-5})
+	if r.Checked < 3 {
+		t.Fatalf("only %d points had a finite density", r.Checked)
+	}
+	x := make([]float64, j.Dim())
+	for i := range x {
+		x[i] = 0.1 * float64(i%5)
+	}
+	mcmctest.CheckNoAlloc(t, j, x)
+	cl := j.Clone()
+	uni := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: JumpDF}
+	biv, _ := distmv.NewStudentsT([]float64{0, 0}, mat.NewSymDense(2, []float64{1, 0, 0, 1}), JumpDF, nil)
+	g := make([]float64, j.Dim())
+	lp := j.LogProbGrad(g, x)
+	if lc := cl.LogProbGrad(g, x); lc != lp {
+		t.Errorf("clone: %v, want %v", lc, lp)
+	}
+	v := j.Constrain(nil, x)
+	vd, vy := v[:j.Offset(1)], v[j.Offset(1):]
+	cd, _ := panels[0].Stages[0].Layout().Channel("video")
+	cy, _ := panels[1].Stages[0].Layout().Channel("video")
+	want := 0.0
+	for k := 0; k < cd.Drift.Basis.J(); k++ {
+		ua, ud := vd[cd.Drift.Jump+1+k], vy[cy.Drift.Jump+1+k]
+		want += biv.LogProb([]float64{ua, ud}) - uni.LogProb(ua) - uni.LogProb(ud)
+	}
+	if got := lp - plain.LogProb(x); math.Abs(got-want) > 1e-9*math.Max(1, math.Abs(want)) {
+		t.Errorf("the tie's share %v, want %v", got, want)
+	}
+}

@@ -46,7 +46,10 @@ func TestChainsAssembled(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	fits := byChain(t, set, func(s mcmc.Settings) (*Fitted, error) { return FitLifts(ctx, sc, o, tests, s, nil) })
+	fits := byChain(t, set, func(s mcmc.Settings) ([3]*mcmc.Fit, error) {
+		f, err := FitLifts(ctx, sc, o, tests, s, nil)
+		return fitsOf(f), err
+	})
 	base := &mcmc.Fit{}
 	for c := range set.Chains {
 		s := set
@@ -99,7 +102,7 @@ func TestChainsAssembled(t *testing.T) {
 
 // byChain fits set's chains one at a time (mcmc.Settings.Only) and puts
 // each stage's chains together, as the merge of a sharded fit does.
-func byChain(t *testing.T, set mcmc.Settings, fit func(mcmc.Settings) (*Fitted, error)) [3]*mcmc.Fit {
+func byChain(t *testing.T, set mcmc.Settings, fit func(mcmc.Settings) ([3]*mcmc.Fit, error)) [3]*mcmc.Fit {
 	t.Helper()
 	var fits [3]*mcmc.Fit
 	for c := range set.Chains {
@@ -111,10 +114,18 @@ func byChain(t *testing.T, set mcmc.Settings, fit func(mcmc.Settings) (*Fitted, 
 		}
 		for k := range fits {
 			if fits[k] == nil {
-				fits[k] = &mcmc.Fit{Names: part.Fits[k].Names}
+				fits[k] = &mcmc.Fit{Names: part[k].Names}
 			}
-			fits[k].Chains = append(fits[k].Chains, part.Fits[k].Chains...)
+			fits[k].Chains = append(fits[k].Chains, part[k].Chains...)
 		}
 	}
 	return fits
+}
+
+// fitsOf returns f's fits (none when f is nil).
+func fitsOf(f *Fitted) [3]*mcmc.Fit {
+	if f == nil {
+		return [3]*mcmc.Fit{}
+	}
+	return f.Fits
 }

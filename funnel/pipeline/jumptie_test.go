@@ -56,18 +56,15 @@ func TestJumpTieFit(t *testing.T) {
 	if !joint(whole) {
 		t.Error("video drifting with jumps: the demand and outcome stages were not fitted as one")
 	}
-	fits := byChain(t, set, func(s mcmc.Settings) (*Fitted, error) { return FitLifts(ctx, sc, o, nil, s, nil) })
+	fits := byChain(t, set, func(s mcmc.Settings) ([3]*mcmc.Fit, error) {
+		f, err := FitLifts(ctx, sc, o, nil, s, nil)
+		return fitsOf(f), err
+	})
 	merged, err := Assemble(sc, o, nil, set, fits, whole.Wall)
 	if err != nil {
 		t.Fatal(err)
 	}
-	for k, name := range StageNames {
-		for c := range whole.Fits[k].Chains {
-			if !mat.Equal(whole.Fits[k].Chains[c].Draws, merged.Fits[k].Chains[c].Draws) {
-				t.Errorf("%s chain %d: draws differ", name, c+1)
-			}
-		}
-	}
+	sameDraws(t, whole.Fits, merged.Fits)
 	if !reflect.DeepEqual(whole.Drifts(), merged.Drifts()) || len(whole.Drifts()) == 0 {
 		t.Error("weekly multipliers differ")
 	}
@@ -175,5 +172,57 @@ func TestJumpTieStep(t *testing.T) {
 	}
 	if s := truth[DriftDirect]; math.Abs(got[0].step[DriftDirect]-s) >= math.Abs(got[1].step[DriftDirect]-s) {
 		t.Errorf("video's direct step %.3f tied, %.3f apart: the tie did not bring it nearer %.3f", got[0].step[DriftDirect], got[1].step[DriftDirect], s)
+	}
+}
+
+// TestPanelJumpTieFit is TestJumpTieFit on a region panel (3 regions x 60
+// weeks): with video drifting with jumps the demand and outcome panels are
+// one joint target (model.PanelJoint.Tie), and chains fitted one at a time
+// and put together by AssemblePanel give the whole fit's draws.
+func TestPanelJumpTieFit(t *testing.T) {
+	if testing.Short() {
+		t.Skip("short fits of a small panel; skipped with -short")
+	}
+	res, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: 3, Weeks: 60, Seed: 3, Dark: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ps, err := model.ScalePanel(res.Data, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	o := model.Options{Drift: map[string]bool{"video_spend": true}, DriftShape: model.DriftJumps}
+	set := mcmc.Settings{Chains: 2, Warmup: 30, Draws: 20, Seed: 5, MaxTreeDepth: 5}
+	ctx := context.Background()
+	whole, err := FitPanel(ctx, ps, o, set, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if whole.Wall[1] != 0 || !reflect.DeepEqual(whole.Fits[0].Chains[0].Stats, whole.Fits[1].Chains[0].Stats) {
+		t.Error("video drifting with jumps: the demand and outcome panels were not fitted as one")
+	}
+	fits := byChain(t, set, func(s mcmc.Settings) ([3]*mcmc.Fit, error) {
+		f, err := FitPanelLifts(ctx, ps, o, nil, s, nil)
+		if err != nil {
+			return [3]*mcmc.Fit{}, err
+		}
+		return f.Fits, nil
+	})
+	merged, err := AssemblePanel(ps, o, fits, whole.Wall)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sameDraws(t, whole.Fits, merged.Fits)
+}
+
+// sameDraws requires every stage's chains of b to hold a's draws.
+func sameDraws(t *testing.T, a, b [3]*mcmc.Fit) {
+	t.Helper()
+	for k, name := range StageNames {
+		for c := range a[k].Chains {
+			if !mat.Equal(a[k].Chains[c].Draws, b[k].Chains[c].Draws) {
+				t.Errorf("%s chain %d: draws differ", name, c+1)
+			}
+		}
 	}
 }

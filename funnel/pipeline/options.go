@@ -132,18 +132,6 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 	return o, nil
 }
 
-// PanelJumpsRefusal is why a region panel refuses the options of ties, the
-// jump ties of its upper-funnel channels (JumpTies): the panel's joint
-// target takes lift tests only.
-func PanelJumpsRefusal(ties []*model.JumpTie) string {
-	cols := make([]string, len(ties))
-	for i, t := range ties {
-		cols[i] = t.Column
-	}
-	return fmt.Sprintf("--drift-shape %s with an upper-funnel channel drifting (%s): its two paths jump together, which ties the demand and the outcome stage, and the region panel does not tie them that way yet; add --national to fit the regions' national sum, drift paid search alone, or use --drift-shape %s",
-		model.DriftJumps, strings.Join(cols, ", "), model.DriftSmooth)
-}
-
 func setTrue(m map[string]bool, k string) map[string]bool {
 	if m == nil {
 		m = map[string]bool{}

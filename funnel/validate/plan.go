@@ -302,12 +302,7 @@ func New(in Input, s Settings) (*Sweep, error) {
 		}
 	}
 	sw.windows = window.Quarters(in.Series.Weeks)
-	if ties := pipeline.JumpTies(sw.stages[0], sw.stages[1], in.Options); len(ties) > 0 {
-		if in.Panel != nil {
-			return nil, fmt.Errorf("validate: %s", pipeline.PanelJumpsRefusal(ties))
-		}
-		sw.tied = true
-	}
+	sw.tied = len(pipeline.JumpTies(sw.stages[0], sw.stages[1], in.Options)) > 0
 	if in.Panel != nil {
 		if sw.pan, err = newPanel(in, set); err != nil {
 			return nil, err
