@@ -59,6 +59,17 @@ func PriorInputs(in *Inputs, n int, seed uint64) (*Inputs, error) {
 			r.Draw(out.DemandDraws.Rows[d], out.OutcomeDraws.Rows[d], rng)
 		}
 	}
+	// an upper channel's two paths' jump weights are drawn as a pair
+	// (model.JumpTie.Draw)
+	ties, err := model.JumpTieDraws(in.Demand, in.Outcome)
+	if err != nil {
+		return nil, err
+	}
+	for d := range n {
+		for _, t := range ties {
+			t.Draw(out.DemandDraws.Rows[d], out.OutcomeDraws.Rows[d], rng)
+		}
+	}
 	out.NaiveDraws = Draws{}
 	if in.Naive != nil && len(in.NaiveDraws.Rows) > 0 {
 		if out.NaiveDraws, err = draw(in.Naive); err != nil {

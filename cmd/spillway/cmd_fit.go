@@ -161,7 +161,10 @@ without the query term does not drift); FOLDER/drift.csv holds each weekly
 multiplier with its 90% interval and FOLDER/drift_change.csv the last full
 quarter's against the first's. --drift-shape jumps lets the drift also
 jump, at candidate weeks about a month apart, for a sudden change such as
-a creative refresh, which a smooth drift spreads over months. --baseline smooth puts a smooth function
+a creative refresh, which a smooth drift spreads over months; an
+upper-funnel channel's two paths (its lift of the queries and its direct
+effect) then tend to jump in the same week, which ties the two stages, so
+they are fitted as one. --baseline smooth puts a smooth function
 of time in place of the trend line. --lifts FILE adds lift tests as data
 (channel,start,end,estimate,se and optionally metric, outcome or queries):
 removing the channel's spend from start to end (week start dates) lowered

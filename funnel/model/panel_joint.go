@@ -18,6 +18,8 @@ type PanelJoint struct {
 	off   []int // parts[k] holds x[off[k]:off[k+1]]
 	voff  []int // and constrained values dst[voff[k]:voff[k+1]]
 	tests []*PanelLiftTest
+	ties  []*JumpTie
+	pts   []Point // each panel's shared part, as its ties see it
 	lp    []float64
 	names []string
 }
@@ -52,7 +54,32 @@ func NewPanelJoint(panels []*Panel, tests ...*PanelLiftTest) (*PanelJoint, error
 	}
 	j.tests = tests
 	j.lp = make([]float64, len(j.parts))
+	j.points()
 	return j, nil
+}
+
+// points sets each panel's Point for the ties: its first region's stage
+// and the base layout, whose slots lead the panel's natural values and
+// their gradients (the drifts every region shares).
+func (j *PanelJoint) points() {
+	j.pts = make([]Point, len(j.parts))
+	for k, t := range j.parts {
+		j.pts[k] = Point{Stage: t.p.Stages[0], Layout: t.lay.base, Values: t.nat, Grad: t.gn}
+	}
+}
+
+// Tie binds the jump ties of upper-funnel channels (JumpTie, its Demand
+// and Outcome the panels' places) and adds them to the target: the jumps
+// of the multiplier every region shares, tied across the two panels as
+// nationally.
+func (j *PanelJoint) Tie(ties ...*JumpTie) error {
+	for _, c := range ties {
+		if err := c.Bind(j.pts); err != nil {
+			return err
+		}
+	}
+	j.ties = append(j.ties, ties...)
+	return nil
 }
 
 // Dim returns the number of free parameters of all panels.
@@ -77,6 +104,11 @@ func (j *PanelJoint) Clone() mcmc.Target {
 		c.tests[k] = l.clonePanel()
 	}
 	c.lp = make([]float64, len(j.parts))
+	c.points()
+	c.ties = make([]*JumpTie, len(j.ties))
+	for k, t := range j.ties {
+		c.ties[k] = t.Clone().(*JumpTie)
+	}
 	return &c
 }
 
@@ -125,6 +157,9 @@ func (j *PanelJoint) logProb(grad, x []float64) float64 {
 	tie := 0.0
 	for _, l := range j.tests {
 		tie += l.logDensity(j.parts, grad != nil)
+	}
+	for _, c := range j.ties {
+		tie += c.LogDensity(j.pts, grad != nil)
 	}
 	if notFinite(tie) {
 		return math.Inf(-1)

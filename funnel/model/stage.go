@@ -139,45 +139,49 @@ func (s *Stage) smooths() []*Smooth {
 // SetPrior replaces the prior of the named parameter and reports whether the
 // stage has it.
 func (s *Stage) SetPrior(name string, p Prior) bool {
+	q := s.prior(name)
+	if q != nil {
+		*q = p
+	}
+	return q != nil
+}
+
+// prior returns where the prior of the named parameter is kept, or nil
+// when the stage has no such parameter.
+func (s *Stage) prior(name string) *Prior {
 	switch name {
 	case s.Intercept:
-		s.MuPrior = p
-		return true
+		return &s.MuPrior
 	case s.Sigma:
-		s.SigmaPrior = p
-		return true
+		return &s.SigmaPrior
 	}
 	for i := range s.Regressors {
 		if s.Regressors[i].Name == name {
-			s.Regressors[i].Prior = p
-			return true
+			return &s.Regressors[i].Prior
 		}
 	}
 	for i := range s.Channels {
 		for k := range s.Channels[i].Params {
 			if q := &s.Channels[i].Params[k]; q.Name == name {
-				q.Prior = p
-				return true
+				return &q.Prior
 			}
 		}
 	}
 	for _, sm := range s.smooths() {
 		for k := range sm.Params {
 			if q := &sm.Params[k]; q.Name == name {
-				q.Prior = p
-				return true
+				return &q.Prior
 			}
 		}
 	}
 	for i := range s.Channels {
 		for _, q := range s.Channels[i].measureParams() {
 			if q.Name == name {
-				q.Prior = p
-				return true
+				return &q.Prior
 			}
 		}
 	}
-	return false
+	return nil
 }
 
 // Predict writes the linear predictor n[t] (scaled units) at the constrained

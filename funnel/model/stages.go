@@ -30,8 +30,13 @@ type Options struct {
 	// the fitted weeks (smooth.go, drift.go). Empty: no drift.
 	Drift map[string]bool
 	// DriftShape is "" (or DriftSmooth) for a smooth drift, or DriftJumps
-	// for a drift that can also jump at candidate weeks (jump.go).
+	// for a drift that can also jump at candidate weeks (jump.go); an
+	// upper-funnel channel's two paths then jump together (JumpTie).
 	DriftShape string
+	// JumpsApart leaves an upper-funnel channel's two paths' jumps
+	// independent, without the JumpTie that DriftJumps has (for comparison
+	// only).
+	JumpsApart bool
 	// Baseline is "" for the default trend line, or BaselineSmooth for a
 	// baseline that moves: a smooth function of the week in its place.
 	Baseline string

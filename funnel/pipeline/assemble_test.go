@@ -46,21 +46,14 @@ func TestChainsAssembled(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var fits [3]*mcmc.Fit
+	fits := byChain(t, set, func(s mcmc.Settings) ([3]*mcmc.Fit, error) {
+		f, err := FitLifts(ctx, sc, o, tests, s, nil)
+		return fitsOf(f), err
+	})
 	base := &mcmc.Fit{}
 	for c := range set.Chains {
 		s := set
 		s.Only = []int{c}
-		part, err := FitLifts(ctx, sc, o, tests, s, nil)
-		if err != nil {
-			t.Fatal(err)
-		}
-		for k := range fits {
-			if fits[k] == nil {
-				fits[k] = &mcmc.Fit{Names: part.Fits[k].Names}
-			}
-			fits[k].Chains = append(fits[k].Chains, part.Fits[k].Chains...)
-		}
 		_, bf, err := FitBaseline(ctx, sc, o, s)
 		if err != nil {
 			t.Fatal(err)
@@ -105,4 +98,34 @@ func TestChainsAssembled(t *testing.T) {
 	if !reflect.DeepEqual(whole.Drifts(), merged.Drifts()) || len(whole.Drifts()) == 0 {
 		t.Error("weekly multipliers differ")
 	}
+}
+
+// byChain fits set's chains one at a time (mcmc.Settings.Only) and puts
+// each stage's chains together, as the merge of a sharded fit does.
+func byChain(t *testing.T, set mcmc.Settings, fit func(mcmc.Settings) ([3]*mcmc.Fit, error)) [3]*mcmc.Fit {
+	t.Helper()
+	var fits [3]*mcmc.Fit
+	for c := range set.Chains {
+		s := set
+		s.Only = []int{c}
+		part, err := fit(s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for k := range fits {
+			if fits[k] == nil {
+				fits[k] = &mcmc.Fit{Names: part[k].Names}
+			}
+			fits[k].Chains = append(fits[k].Chains, part[k].Chains...)
+		}
+	}
+	return fits
+}
+
+// fitsOf returns f's fits (none when f is nil).
+func fitsOf(f *Fitted) [3]*mcmc.Fit {
+	if f == nil {
+		return [3]*mcmc.Fit{}
+	}
+	return f.Fits
 }

@@ -119,6 +119,16 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 			return o, fmt.Errorf("%s: %w", c.Priors, err)
 		}
 	}
+	if ties := JumpTies(st[0], st[1], o); len(ties) > 0 {
+		// a prior on a jump weight must leave the tie a Student-t to join
+		cross := make([]model.CrossTerm, len(ties))
+		for i, t := range ties {
+			cross[i] = t
+		}
+		if _, err := model.NewJoint(st[:2], cross...); err != nil {
+			return o, fmt.Errorf("%s: %w", c.Priors, err)
+		}
+	}
 	return o, nil
 }
 

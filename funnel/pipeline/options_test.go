@@ -114,6 +114,18 @@ func TestChoicesDrift(t *testing.T) {
 	if _, err := (Choices{Drift: []string{"video_spend"}, Priors: neg}).Options(sc); err == nil || !strings.Contains(err.Error(), "a scale needs a positive prior") {
 		t.Errorf("a normal prior on a drift's sd: %v", err)
 	}
+	// a jump weight of video's direct effect with a prior that its
+	// demand-side twin does not share: the two paths' tie cannot hold it
+	jump := filepath.Join(t.TempDir(), "jump.csv")
+	if err := os.WriteFile(jump, []byte("parameter,family,p1,p2\n\"drift_jump_delta[video_spend,3]\",normal,0,1\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := (Choices{Drift: []string{"video_spend"}, DriftShape: "jumps", Priors: jump}).Options(sc); err == nil || !strings.Contains(err.Error(), jump) || !strings.Contains(err.Error(), "needs a Student-t") {
+		t.Errorf("a normal prior on a tied jump weight: %v", err)
+	}
+	if _, err := (Choices{Drift: []string{"video_spend"}, DriftShape: "jumps", Priors: p}).Options(sc); err != nil {
+		t.Errorf("jumps with a prior on a drift's length-scale: %v", err)
+	}
 	for _, c := range []struct {
 		ch   Choices
 		flag string

@@ -36,11 +36,16 @@ type PanelFitted struct {
 // FitPanel runs the region model's three stages (demand, outcome, naive)
 // with settings s, as Fit does for one series: chains in parallel, stages
 // one after another, stage k with seed s.Seed + k, a zero TargetAccept
-// meaning DefaultTargetAccept. hook may be nil.
+// meaning DefaultTargetAccept. hook may be nil. With an upper channel's
+// jumps tied across its two paths (JumpTies) the demand and outcome panels
+// are one joint fit, as FitPanelLifts fits them.
 func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
 	panels, err := model.PanelStages(ps, o)
 	if err != nil {
 		return nil, err
+	}
+	if len(panelTies(panels, o)) > 0 {
+		return fitPanelLifts(ctx, ps, o, nil, s, hook, true)
 	}
 	f := &PanelFitted{Data: ps, Panels: panels}
 	for k, p := range panels {

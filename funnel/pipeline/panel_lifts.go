@@ -11,8 +11,10 @@ import (
 
 // FitPanelLifts is FitPanel with lift tests as data, as FitLifts is Fit: a
 // test of the outcome ties the demand and the outcome panel (region g's
-// via search needs alpha[c,g] and gamma[g]), so the two are then fitted as
-// one joint target (model.PanelJoint) with every test; with tests of the
+// via search needs alpha[c,g] and gamma[g]), as does an upper channel's
+// two paths' jumps (JumpTies, on the multiplier every region shares), so
+// the two are then fitted as one joint target (model.PanelJoint) with
+// every test and tie; with tests of the
 // queries alone, the demand panel is fitted with them and the outcome panel
 // on its own; the naive panel always on its own. The joint fit uses seed
 // s.Seed and its wall time is the demand stage's (the outcome's is 0); its
@@ -88,20 +90,35 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 
 // bindLifts sets f.Lifts, the terms of f.Tests, bound to the panels in the
 // joint target they are sampled in: the demand panel, and the outcome panel
-// too when a test of the outcome ties them. It returns that target.
+// too when a test of the outcome or a jump tie ties them (the ties join
+// the target, PanelJoint.Tie). It returns that target.
 func (f *PanelFitted) bindLifts() (*model.PanelJoint, error) {
 	joint := []*model.Panel{f.Panels[0]}
+	ties := panelTies(f.Panels, f.options)
 	for _, t := range f.Tests {
 		if t.Metric == model.LiftOutcome {
 			joint = append(joint, f.Panels[1])
 			break
 		}
 	}
+	if len(ties) > 0 && len(joint) == 1 {
+		joint = append(joint, f.Panels[1])
+	}
 	f.Lifts = nil
 	for _, t := range f.Tests {
 		f.Lifts = append(f.Lifts, t.PanelTerm(f.Data, 0, 1))
 	}
-	return model.NewPanelJoint(joint, f.Lifts...)
+	j, err := model.NewPanelJoint(joint, f.Lifts...)
+	if err != nil {
+		return nil, err
+	}
+	return j, j.Tie(ties...)
+}
+
+// panelTies are JumpTies of the panels' shared drifts: the jumps of the
+// multiplier every region shares, tied as nationally (PanelJoint.Tie).
+func panelTies(panels [3]*model.Panel, o model.Options) []*model.JumpTie {
+	return JumpTies(panels[0].Stages[0], panels[1].Stages[0], o)
 }
 
 // CheckLifts is Fitted.CheckLifts for a region panel fitted with lift

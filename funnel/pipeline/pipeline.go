@@ -45,6 +45,17 @@ func Stages(sc *model.Scaled, o model.Options) ([3]*model.Stage, error) {
 	return out, nil
 }
 
+// JumpTies returns the ties (model.JumpTie, not bound) of the two paths'
+// jumps of every upper-funnel channel drifting with jumps in the demand
+// and the outcome stage, parts 0 and 1 of their joint target; none with
+// o.JumpsApart. A tie makes the two stages one joint fit.
+func JumpTies(demand, outcome *model.Stage, o model.Options) []*model.JumpTie {
+	if o.JumpsApart {
+		return nil
+	}
+	return model.JumpTies(demand, outcome, 0, 1)
+}
+
 // Known reports whether name is a parameter of any of the stages.
 func Known(st [3]*model.Stage) func(string) bool {
 	names := map[string]bool{}
@@ -99,16 +110,17 @@ type StageHook func(stage string) (mcmc.Recorder, func())
 // after another). Stage k uses seed s.Seed + k so the fits draw independent
 // streams; a zero s.TargetAccept means DefaultTargetAccept. hook may be nil.
 //
-// With return priors (o.Returns) the demand and the outcome stage are
-// fitted as one joint target with the priors as its cross terms, as
-// FitLifts does.
+// With return priors (o.Returns), or an upper-funnel channel whose two
+// paths drift with jumps (JumpTies), the demand and the outcome stage are
+// fitted as one joint target with the priors and the ties as its cross
+// terms, as FitLifts does.
 func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings, hook StageHook) (*Fitted, error) {
-	if len(o.Returns) > 0 {
-		return fitLifts(ctx, sc, o, nil, s, hook, true)
-	}
 	st, err := Stages(sc, o)
 	if err != nil {
 		return nil, err
+	}
+	if len(o.Returns) > 0 || len(JumpTies(st[0], st[1], o)) > 0 {
+		return fitLifts(ctx, sc, o, nil, s, hook, true)
 	}
 	f := &Fitted{Data: sc, Stages: st}
 	for k, stage := range st {

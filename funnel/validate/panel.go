@@ -206,13 +206,14 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 }
 
 // fitPanelTests is fitPanel with lift tests as data (pipeline.FitPanelStages:
-// with a test of the outcome, the demand and outcome panels as one joint
-// target; seeds as fitPanel's); without tests, fitPanel itself, so a sweep
-// without them is unchanged.
+// with a test of the outcome, or an upper channel's jumps tied across the
+// two paths, the demand and outcome panels as one joint target; seeds as
+// fitPanel's); without tests or ties, fitPanel itself, so a sweep without
+// them is unchanged.
 func (sw *Sweep) fitPanelTests(ctx context.Context, ps *model.PanelScaled, seed uint64, tests []lifts.Test) (*panelFitted, error) {
 	var f *panelFitted
 	var fitted []lifts.Test // the tests the fit took
-	if len(tests) == 0 {
+	if len(tests) == 0 && !sw.tied {
 		var err error
 		if f, err = sw.fitPanel(ctx, ps, seed); err != nil {
 			return nil, err

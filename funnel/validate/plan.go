@@ -16,6 +16,7 @@ import (
 	"spillway/funnel/data"
 	"spillway/funnel/mcmc"
 	"spillway/funnel/model"
+	"spillway/funnel/pipeline"
 	"spillway/funnel/window"
 )
 
@@ -270,6 +271,9 @@ type Sweep struct {
 	gen      *generator
 	manifest Manifest
 	pan      *panelSweep // nil for a national sweep
+	// tied: an upper-funnel channel's two paths jump together
+	// (pipeline.JumpTies), so every refit is one joint fit of both stages
+	tied bool
 }
 
 // New plans a sweep over in with settings s: it checks the settings
@@ -298,6 +302,7 @@ func New(in Input, s Settings) (*Sweep, error) {
 		}
 	}
 	sw.windows = window.Quarters(in.Series.Weeks)
+	sw.tied = len(pipeline.JumpTies(sw.stages[0], sw.stages[1], in.Options)) > 0
 	if in.Panel != nil {
 		if sw.pan, err = newPanel(in, set); err != nil {
 			return nil, err
