@@ -86,8 +86,7 @@ func (c *panelCoef) startRef(tr [3]float64) float64 {
 		}
 		n += len(h)
 	}
-	m, m2 = m/float64(n), m2/float64(n)
-	return 0.5 * math.Log(max(m2-m*m, 0))
+	return 0.5 * math.Log(variance(m/float64(n), m2/float64(n)))
 }
 
 // ccValues sets theta[g] from xi (x) given lu, tau and href.

@@ -709,7 +709,6 @@ type panelChannel struct {
 	same                []int
 	href                float64
 	hrefL, hrefK, hrefS float64 // href's derivatives in lam, K and S
-	quad                [4][]float64
 	// sm is the drift (nil when the coefficient does not drift): every
 	// region's response is multiplied by mult[t] = exp(f(t)), one f shared
 	// by the regions (drift.go's multiplier, smooth.go's function); r is
@@ -792,8 +791,8 @@ func (c *panelChannel) prepare(nat []float64, grad bool) bool {
 			r.hbar, r.hlbar, r.hkbar, r.hsbar = sh/T, shl/T, shk/T, shs/T
 			if c.spread {
 				var sq [4]float64
-				c.quad = [4][]float64{r.h, r.hl, r.hk, r.hs}
-				dots(sq[:], r.h, c.quad[:])
+				quad := [4][]float64{r.h, r.hl, r.hk, r.hs}
+				dots(sq[:], r.h, quad[:])
 				r.h2bar, r.hh = sq[0]/T, [3]float64{sq[1] / T, sq[2] / T, sq[3] / T}
 			}
 			continue
@@ -916,7 +915,7 @@ func (c *panelChannel) spreadRef(grad bool) {
 	}
 	G := float64(len(c.series))
 	m, m2 = m/G, m2/G
-	c.href = math.Sqrt(max(m2-m*m, 0))
+	c.href = math.Sqrt(variance(m, m2))
 	if !grad {
 		return
 	}
@@ -925,6 +924,10 @@ func (c *panelChannel) spreadRef(grad bool) {
 		*d[i] = (mh[i]/G - m*md[i]/G) / c.href // d sqrt(var) = d var / (2 sd)
 	}
 }
+
+// variance returns the variance of values whose mean is m and mean square
+// m2 (0 where rounding would make it negative).
+func variance(m, m2 float64) float64 { return max(m2-m*m, 0) }
 
 // varies reports whether a channel's scaled spend takes more than one value
 // over the region-weeks: otherwise its response is the same in every
