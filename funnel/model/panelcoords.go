@@ -695,9 +695,10 @@ func (t *PanelTarget) StartPoint(dst []float64) bool {
 	if t.base != nil {
 		t.startBaseline(set, c.MuEst, c.BaseSlope)
 	}
-	if cg := t.condGamma(); cg != nil && t.inter.free >= 0 {
-		// mu' = mu + gamma qbar + mean_g S'_g at the start (the decode at
-		// mu' = 0 gives minus that shift)
+	if cg := t.condGamma(); cg != nil && t.inter.free >= 0 || t.meanShear() {
+		// mu' = mu + gamma qbar + mean_g S'_g (or mu + mean_g S_g,
+		// meanShear) at the start (the decode at mu' = 0 gives minus that
+		// shift)
 		mu0 := dst[t.inter.free]
 		dst[t.inter.free] = 0
 		if t.decode(dst, false) {
