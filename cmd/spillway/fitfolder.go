@@ -172,7 +172,9 @@ func rerunCommand(verb string, fs *fitfolder.Run, out string) string {
 	add("chains", strconv.Itoa(fs.Chains))
 	add("warmup", strconv.Itoa(fs.Warmup))
 	add("draws", strconv.Itoa(fs.Draws))
-	add("target-accept", strconv.FormatFloat(fs.Accept, 'g', -1, 64))
+	if fs.Accept != 0 { // 0: each stage's default
+		add("target-accept", strconv.FormatFloat(fs.Accept, 'g', -1, 64))
+	}
 	for la := range slices.Chunk(labelArgs(fs.Labels), 2) {
 		add(strings.TrimPrefix(la[0], "--"), la[1])
 	}

@@ -154,6 +154,24 @@ func settings(s mcmc.Settings, k int) mcmc.Settings {
 	return set
 }
 
+// panelSettings is settings for stage k of a region panel: with outcome
+// (the outcome panel, or a joint fit holding it) PanelOutcomeAccept
+// unless s sets a target acceptance.
+func panelSettings(s mcmc.Settings, k int, outcome bool) mcmc.Settings {
+	set := settings(s, k)
+	if s.TargetAccept == 0 && outcome {
+		set.TargetAccept = PanelOutcomeAccept
+	}
+	return set
+}
+
+// PanelAccept is the target acceptance a region panel's stage k (0 demand,
+// 1 outcome, 2 naive) samples with under settings s: s's own, or the
+// stage's default.
+func PanelAccept(s mcmc.Settings, k int) float64 {
+	return panelSettings(s, k, k == 1).TargetAccept
+}
+
 func run(ctx context.Context, tg mcmc.Target, set mcmc.Settings, hook StageHook, name string) (*mcmc.Fit, float64, error) {
 	var done func()
 	if hook != nil {

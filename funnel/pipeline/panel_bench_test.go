@@ -30,9 +30,10 @@ import (
 // two idle cores would take, the chains running two at a time) and the
 // peak resident memory. SPILLWAY_PANEL_BENCH=G,T[,warmup,draws] sets
 // another size or chain length (the 200 x 156 run:
-// SPILLWAY_PANEL_BENCH=200,156); SPILLWAY_PANEL_STAGES=0 or 1 runs the
-// demand or the outcome stage alone (each stage has its own seed, so the
-// two run apart give the figures of one run of both). SPILLWAY_PANEL_MEMORY=1
+// SPILLWAY_PANEL_BENCH=200,156); SPILLWAY_PANEL_STAGES=0, 1 or 2 runs the
+// demand, the outcome or the naive stage alone (each stage has its own
+// seed, so stages run apart give the figures of one run of them; the
+// default runs demand and outcome). SPILLWAY_PANEL_MEMORY=1
 // measures memory only: no warm-up and trajectories of at most two leapfrog
 // steps, so a run keeps as many draws as a real one (the draws, the summary
 // and the targets are what take memory) at a small fraction of its time;
@@ -41,8 +42,8 @@ import (
 // SPILLWAY_PANEL_RUN_SEED offsets the sampler's, and
 // SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
 // rounded weights instead of their conditional coordinates;
-// SPILLWAY_PANEL_ACCEPT sets the target acceptance (default the fit's,
-// DefaultTargetAccept).
+// SPILLWAY_PANEL_ACCEPT sets the target acceptance (default each stage's,
+// as FitPanel's: PanelAccept).
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	var err error
@@ -64,13 +65,13 @@ func BenchmarkPanelFit(b *testing.B) {
 	stages := "01"
 	if s := os.Getenv("SPILLWAY_PANEL_STAGES"); s != "" {
 		for _, ch := range s {
-			if ch != '0' && ch != '1' {
-				b.Fatalf("SPILLWAY_PANEL_STAGES=%s: want stage numbers, 0 demand and 1 outcome", s)
+			if ch < '0' || ch > '2' {
+				b.Fatalf("SPILLWAY_PANEL_STAGES=%s: want stage numbers, 0 demand, 1 outcome and 2 naive", s)
 			}
 		}
 		stages = s
 	}
-	accept := DefaultTargetAccept
+	accept := 0.0 // each stage's default, as FitPanel's
 	if s := os.Getenv("SPILLWAY_PANEL_ACCEPT"); s != "" {
 		if accept, err = strconv.ParseFloat(s, 64); err != nil || accept <= 0 || accept >= 1 {
 			b.Fatalf("SPILLWAY_PANEL_ACCEPT=%s: want a target acceptance between 0 and 1", s)
@@ -117,7 +118,7 @@ func BenchmarkPanelFit(b *testing.B) {
 			if err != nil {
 				b.Fatal(err)
 			}
-			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k) + runSeed, TargetAccept: accept}
+			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k) + runSeed, TargetAccept: PanelAccept(mcmc.Settings{TargetAccept: accept}, k)}
 			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
 				set = PanelStart(tg, set)
 			}
@@ -150,8 +151,8 @@ func BenchmarkPanelFit(b *testing.B) {
 				}
 			}
 			wall, cpu, grads = wall+w, cpu+c1-c0, grads+g
-			line := fmt.Sprintf("%d x %d, 4 x (%d + %d): %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%d warm-up, %d sampling; %.0f us cpu each), load average %s",
-				G, T, warm, draws, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, gw, g-gw, 1e6*(c1-c0)/float64(g), loadAverage())
+			line := fmt.Sprintf("%d x %d, 4 x (%d + %d), target acceptance %g: %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%d warm-up, %d sampling; %.0f us cpu each), load average %s",
+				G, T, warm, draws, set.TargetAccept, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, gw, g-gw, 1e6*(c1-c0)/float64(g), loadAverage())
 			for _, s := range stretches {
 				line += fmt.Sprintf("\n  warm-up from iteration %4d: %6d gradients (%4.0f per iteration), mean depth %.2f, step %.4f, %d at the maximum depth, %d divergent",
 					s.Start, s.Gradients, float64(s.Gradients)/float64(s.Iterations), s.MeanTreeDepth, s.MeanStepSize, s.TreeDepthHits, s.Divergences)

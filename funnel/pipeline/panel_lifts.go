@@ -63,7 +63,7 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 	if joint == 2 {
 		name = "demand and outcome"
 	}
-	fit, wall, err := run(ctx, j, PanelStart(j, settings(s, 0)), hook, name)
+	fit, wall, err := run(ctx, j, PanelStart(j, panelSettings(s, 0, joint == 2)), hook, name)
 	if err != nil {
 		return nil, err
 	}
@@ -81,7 +81,7 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", panels[k].Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, settings(s, k)), hook, panels[k].Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, panelSettings(s, k, k == 1)), hook, panels[k].Name); err != nil {
 			return nil, err
 		}
 	}

@@ -77,6 +77,19 @@ func TestPanelOneRegion(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
+	// each stage adapted to its own default acceptance (PanelAccept): the
+	// outcome stage at 0.99, the others at 0.9 (whose sampling, at the
+	// warm-up's averaged step, accepts about 0.95 here)
+	for k, fit := range pf.Fits {
+		a := 0.0
+		for _, c := range fit.Chains {
+			a += c.Stats.MeanAccept / float64(len(fit.Chains))
+		}
+		t.Logf("%s stage: mean acceptance %.3f", StageNames[k], a)
+		if hi := PanelAccept(set, k) > 0.95; hi != (a > 0.975) {
+			t.Errorf("%s stage: mean acceptance %.3f at its default target %.2f", StageNames[k], a, PanelAccept(set, k))
+		}
+	}
 	set.Seed = 77
 	nf, err := Fit(context.Background(), ps.Scaled[0], model.Options{}, set, nil)
 	if err != nil {
@@ -471,4 +484,20 @@ func quantile(x []float64, p float64) float64 {
 	s := append([]float64(nil), x...)
 	sort.Float64s(s)
 	return stat.Quantile(s, p)
+}
+
+// TestPanelAccept checks each panel stage's default target acceptance and
+// that a chosen one applies to every stage.
+func TestPanelAccept(t *testing.T) {
+	for k, want := range []float64{DefaultTargetAccept, PanelOutcomeAccept, DefaultTargetAccept} {
+		if got := PanelAccept(mcmc.Settings{}, k); got != want {
+			t.Errorf("%s stage: default acceptance %g, want %g", StageNames[k], got, want)
+		}
+		if got := PanelAccept(mcmc.Settings{TargetAccept: 0.85}, k); got != 0.85 {
+			t.Errorf("%s stage: acceptance %g with 0.85 chosen", StageNames[k], got)
+		}
+	}
+	if PanelOutcomeAccept <= DefaultTargetAccept {
+		t.Errorf("the outcome panel's default %g is not above the fits' %g", PanelOutcomeAccept, DefaultTargetAccept)
+	}
 }

@@ -17,6 +17,19 @@ import (
 // simulated data and none at 0.9, for 15-45% more leapfrog steps.
 const DefaultTargetAccept = 0.9
 
+// PanelOutcomeAccept is the target acceptance of a region panel's outcome
+// stage, and of a joint fit that holds the outcome panel, unless
+// Settings.TargetAccept says otherwise. On the 40-region benchmark
+// (BenchmarkPanelFit, 4 x (1000 + 1000)) that stage had 10 divergent
+// transitions of 4,000 at 0.9, 8 at 0.95 and 5 at 0.97, nearly all where
+// paid search, which runs every week in every region, is near saturation
+// (K_s small, S_s large, its coefficient several times its median and
+// every intercept low), and none at 0.99, for 2.4 times the leapfrog
+// steps (79 per draw at step 0.062). The other stages keep
+// DefaultTargetAccept: with their intercept mean sheared
+// (PanelTarget.meanShear) they had none at 0.9.
+const PanelOutcomeAccept = 0.99
+
 // StageNames are the three fits in the order they run.
 var StageNames = [3]string{"demand", "outcome", "naive"}
 

@@ -196,7 +196,7 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
 		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k),
-			TargetAccept: pipeline.DefaultTargetAccept}
+			TargetAccept: pipeline.PanelAccept(mcmc.Settings{}, k)} // the stage's default, as fit's
 		set = pipeline.PanelStart(tg, set) // the same start as fit's
 		if f.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
@@ -219,8 +219,8 @@ func (sw *Sweep) fitPanelTests(ctx context.Context, ps *model.PanelScaled, seed 
 			return nil, err
 		}
 	} else {
-		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed,
-			TargetAccept: pipeline.DefaultTargetAccept}
+		// each stage's default target acceptance, as fit's
+		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed}
 		pf, err := pipeline.FitPanelStages(ctx, ps, sw.in.Options, tests, set, nil)
 		if err != nil {
 			return nil, err
