@@ -522,9 +522,10 @@ func (t *PanelTarget) evalData(grad, x []float64) (float64, bool) {
 // a panel whose gamma is not in its conditional coordinates (the demand
 // and naive stages), with more than one region. Every region's intercept
 // follows its S_g (condIntercept) and mu follows them, so unsheared mu
-// lies on a ridge with whatever moves the regions' levels. Paid search,
-// which runs every week, moves them most: near saturation its level, its
-// coefficient over its response's spread, grows fast as K_s falls, and on
+// lies on a ridge with whatever moves the regions' levels. In the naive
+// stage paid search, which runs every week, moves them most: near
+// saturation its level (its coefficient, sampled against its response's
+// spread, times the response's mean) grows fast as K_s falls, and on
 // the 40-region benchmark's naive stage (4 x (1000 + 1000), acceptance
 // 0.9) mu followed it with 55 divergent transitions. A shear with unit
 // Jacobian (S_g does not depend on mu), as mu' is with gamma's conditional
