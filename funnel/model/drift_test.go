@@ -291,10 +291,7 @@ func BenchmarkDriftLogProbGrad(b *testing.B) {
 	sc := testScaled(156, 3)
 	st, _ := Outcome(sc, Options{Drift: map[string]bool{"video": true, "audio": true, "search": true}})
 	tg, _ := st.Target()
-	x := make([]float64, tg.Dim())
-	for i := range x {
-		x[i] = 0.1 * float64(i%5)
-	}
+	x := mcmctest.Ramp(tg.Dim())
 	g := make([]float64, tg.Dim())
 	b.ReportAllocs()
 	for b.Loop() {

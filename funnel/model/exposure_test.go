@@ -358,10 +358,7 @@ func BenchmarkMeasuredLogProbGrad(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	x := make([]float64, tg.Dim())
-	for i := range x {
-		x[i] = 0.1 * float64(i%5)
-	}
+	x := mcmctest.Ramp(tg.Dim())
 	g := make([]float64, tg.Dim())
 	b.ReportAllocs()
 	for b.Loop() {

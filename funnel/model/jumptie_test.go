@@ -254,10 +254,7 @@ func TestPanelJumpTie(t *testing.T) {
 	if r.Checked < 3 {
 		t.Fatalf("only %d points had a finite density", r.Checked)
 	}
-	x := make([]float64, j.Dim())
-	for i := range x {
-		x[i] = 0.1 * float64(i%5)
-	}
+	x := mcmctest.Ramp(j.Dim())
 	mcmctest.CheckNoAlloc(t, j, x)
 	cl := j.Clone()
 	uni := distuv.StudentsT{Mu: 0, Sigma: 1, Nu: JumpDF}

@@ -241,10 +241,7 @@ func benchTarget() (*Target, []float64) {
 	sc := testScaled(156, 3)
 	st, _ := Outcome(sc, Options{})
 	tg, _ := st.Target()
-	x := make([]float64, tg.Dim())
-	for i := range x {
-		x[i] = 0.1 * float64(i%5)
-	}
+	x := mcmctest.Ramp(tg.Dim())
 	return tg, x
 }
 

@@ -89,10 +89,7 @@ func TestPanelJointGradient(t *testing.T) {
 			if r.Checked < 4 {
 				t.Fatalf("only %d points had a finite density", r.Checked)
 			}
-			x := make([]float64, j.Dim())
-			for i := range x {
-				x[i] = 0.1 * float64(i%5)
-			}
+			x := mcmctest.Ramp(j.Dim())
 			mcmctest.CheckNoAlloc(t, j, x)
 			mcmctest.CheckNoAlloc(t, j.Clone(), x)
 		})
@@ -205,10 +202,7 @@ func BenchmarkPanelJointLift(b *testing.B) {
 			if err != nil {
 				b.Fatal(err)
 			}
-			x := make([]float64, j.Dim())
-			for i := range x {
-				x[i] = 0.1 * float64(i%5)
-			}
+			x := mcmctest.Ramp(j.Dim())
 			g := make([]float64, j.Dim())
 			b.ReportAllocs()
 			cpu0 := cpuSeconds()

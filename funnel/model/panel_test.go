@@ -186,10 +186,7 @@ func TestPanelGradient(t *testing.T) {
 				if r.Checked < 4 {
 					t.Fatalf("only %d points had a finite density", r.Checked)
 				}
-				x := make([]float64, tg.Dim())
-				for i := range x {
-					x[i] = 0.1 * float64(i%5)
-				}
+				x := mcmctest.Ramp(tg.Dim())
 				mcmctest.CheckNoAlloc(t, tg, x)
 			})
 		}
@@ -401,10 +398,7 @@ func BenchmarkPanelLogProbGrad(b *testing.B) {
 			if err != nil {
 				b.Fatal(err)
 			}
-			x := make([]float64, tg.Dim())
-			for i := range x {
-				x[i] = 0.1 * float64(i%5)
-			}
+			x := mcmctest.Ramp(tg.Dim())
 			g := make([]float64, tg.Dim())
 			b.ReportAllocs()
 			cpu0 := cpuSeconds()

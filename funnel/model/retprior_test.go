@@ -402,10 +402,7 @@ func BenchmarkJointReturnPrior(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		x := make([]float64, j.Dim())
-		for i := range x {
-			x[i] = 0.1 * float64(i%5)
-		}
+		x := mcmctest.Ramp(j.Dim())
 		g := make([]float64, j.Dim())
 		b.Run(name, func(b *testing.B) {
 			b.ReportAllocs()

@@ -153,6 +153,16 @@ func CheckGradient(t testing.TB, m mcmc.Model, tol float64, s *GradSettings) Gra
 	return r
 }
 
+// Ramp returns a fixed point of dimension n off the origin (0, 0.1, ...,
+// 0.4, repeated), where the allocation checks evaluate a density.
+func Ramp(n int) []float64 {
+	x := make([]float64, n)
+	for i := range x {
+		x[i] = 0.1 * float64(i%5)
+	}
+	return x
+}
+
 // CheckNoAlloc reports through t an error if LogProbGrad at x allocates in
 // steady state (testing.AllocsPerRun after one warm-up call).
 func CheckNoAlloc(t testing.TB, m mcmc.Model, x []float64) {
