@@ -134,6 +134,12 @@ func (s *windowSchedule) step() (inWindow, endWindow bool) {
 	return inWindow, endWindow
 }
 
+// lastDone reports whether the window that step just ended was the last:
+// what follows is the terminal buffer.
+func (s *windowSchedule) lastDone() bool {
+	return s.counter-1 == s.numWarmup-s.termBuffer-1
+}
+
 func (s *windowSchedule) computeNextWindow() {
 	last := s.numWarmup - s.termBuffer - 1
 	if s.nextWindow == last {

@@ -41,7 +41,9 @@
 // for the user's initial step size 1 (it helps models whose scales are far
 // from 1), and the reduced 15%/75%/10% schedule for short warm-ups restarts
 // its window counter (Stan's code skips that restart, leaving the window
-// never ending). Every buffer the transition needs, including one set of
+// never ending). An option Stan does not have: Settings.WarmupAccept, a
+// target for the windows before the last metric update, the terminal
+// window and the draws keeping TargetAccept. Every buffer the transition needs, including one set of
 // temporaries per tree depth, is allocated once per chain, so a transition
 // makes no allocation and the cost per leapfrog step is the model's gradient
 // plus a few passes over n numbers. Chain c draws from

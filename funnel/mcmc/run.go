@@ -40,6 +40,15 @@ type Settings struct {
 	// TargetAccept is the dual-averaging target δ for the mean acceptance
 	// statistic, in (0, 1). Zero means 0.8.
 	TargetAccept float64
+	// WarmupAccept, if not zero, is the target δ of the warm-up's step size
+	// until its last metric update; the terminal window (the last 50
+	// iterations, where the sampling step size is learned) and the draws
+	// use TargetAccept. A target near 1 buys its small steps only where
+	// they matter: the metric's windows need the chain to explore, not to
+	// integrate without divergence, and with a higher target every
+	// warm-up trajectory costs as much as a draw's. Ignored when the
+	// warm-up is too short to have metric windows.
+	WarmupAccept float64
 	// MaxTreeDepth caps the trajectory at 2^MaxTreeDepth leapfrog steps.
 	// Zero means 10.
 	MaxTreeDepth int
@@ -118,6 +127,8 @@ func (s *Settings) resolved() (Settings, error) {
 		return r, fmt.Errorf("mcmc: draws = %d, want > 0", r.Draws)
 	case !(r.TargetAccept > 0 && r.TargetAccept < 1):
 		return r, fmt.Errorf("mcmc: target acceptance %v, want in (0, 1)", r.TargetAccept)
+	case r.WarmupAccept != 0 && !(r.WarmupAccept > 0 && r.WarmupAccept < 1):
+		return r, fmt.Errorf("mcmc: warm-up target acceptance %v, want in (0, 1) or 0", r.WarmupAccept)
 	case r.MaxTreeDepth < 0 || r.MaxTreeDepth > 30:
 		return r, fmt.Errorf("mcmc: max tree depth %d, want in [1, 30]", r.MaxTreeDepth)
 	case r.Only != nil && len(r.Only) == 0:
@@ -340,8 +351,12 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 		return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
 	}
 
-	da := NewDualAveraging(set.TargetAccept, math.Log(10*s.eps))
 	sched := newWindowSchedule(set.Warmup, DefaultInitBuffer, DefaultTermBuffer, DefaultBaseWindow)
+	delta := set.TargetAccept
+	if set.WarmupAccept != 0 && sched.enabled {
+		delta = set.WarmupAccept // until the last metric update
+	}
+	da := NewDualAveraging(delta, math.Log(10*s.eps))
 	wf := newWelford(dim)
 	varBuf := make([]float64, dim)
 
@@ -381,6 +396,9 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 				return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
 			}
 			da.Mu = math.Log(10 * s.eps)
+			if sched.lastDone() {
+				da.Delta = set.TargetAccept
+			}
 			da.Restart()
 		}
 		if endWin || it == set.Warmup-1 {

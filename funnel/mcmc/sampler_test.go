@@ -552,7 +552,7 @@ func TestInit(t *testing.T) {
 
 // TestSettingsErrors: unusable settings are errors, not panics.
 func TestSettingsErrors(t *testing.T) {
-	for _, s := range []mcmc.Settings{{Chains: -1}, {Draws: -2}, {TargetAccept: 1.5}, {MaxTreeDepth: -1}, {Warmup: -5}} {
+	for _, s := range []mcmc.Settings{{Chains: -1}, {Draws: -2}, {TargetAccept: 1.5}, {WarmupAccept: 1}, {WarmupAccept: -0.5}, {MaxTreeDepth: -1}, {Warmup: -5}} {
 		if _, err := mcmc.Run(context.Background(), correlated2{1, 1, 0}, &s); err == nil {
 			t.Errorf("settings %+v: got nil error", s)
 		}
@@ -697,5 +697,50 @@ func TestWarmupStretches(t *testing.T) {
 	}
 	if sampling := st.GradientEvaluations - st.WarmupGradients; sampling < 100 {
 		t.Errorf("sampling gradients %d, want at least one per draw", sampling)
+	}
+}
+
+// TestWarmupAccept samples the 100-dimensional normal of TestGaussian100
+// with the warm-up's metric windows at target acceptance 0.6 and the
+// terminal window and draws at 0.95, against the whole run at 0.95: the
+// draws' mean acceptance and step size are the 0.95 run's (within 0.03 and
+// 25%), while the windows before the last metric update take larger steps
+// and fewer gradients; the moments hold.
+func TestWarmupAccept(t *testing.T) {
+	sigma := scales100()
+	mu := make([]float64, len(sigma))
+	m := &gaussian{mu: mu, sigma: sigma}
+	run := func(s mcmc.Settings) *mcmc.Fit {
+		s.Chains, s.Seed = 2, 6
+		fit, err := mcmc.Run(context.Background(), m, &s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return fit
+	}
+	plain := run(mcmc.Settings{TargetAccept: 0.95})
+	split := run(mcmc.Settings{TargetAccept: 0.95, WarmupAccept: 0.6})
+	checkConverged(t, split)
+	for i, name := range split.Names {
+		checkMoment(t, name, split.Column(name), mu[i], 4)
+	}
+	for c := range split.Chains {
+		p, s := plain.Chains[c].Stats, split.Chains[c].Stats
+		if math.Abs(s.MeanAccept-p.MeanAccept) > 0.03 || s.MeanAccept < 0.9 {
+			t.Errorf("chain %d: draws' mean acceptance %.3f, want the 0.95 run's %.3f", c+1, s.MeanAccept, p.MeanAccept)
+		}
+		if r := s.StepSize / p.StepSize; r < 0.8 || r > 1.25 {
+			t.Errorf("chain %d: sampling step %.4f, want the 0.95 run's %.4f within 25%%", c+1, s.StepSize, p.StepSize)
+		}
+		n := len(s.Warmup) - 1 // the stretches before the terminal window
+		for i := 1; i < n; i++ {
+			if r := s.Warmup[i].MeanStepSize / p.Warmup[i].MeanStepSize; r < 1.3 {
+				t.Errorf("chain %d, warm-up stretch %d: step %.4f against %.4f at 0.95, want at least 1.3 times", c+1, i, s.Warmup[i].MeanStepSize, p.Warmup[i].MeanStepSize)
+			}
+		}
+		if s.WarmupGradients >= p.WarmupGradients {
+			t.Errorf("chain %d: %d warm-up gradients, want fewer than the 0.95 run's %d", c+1, s.WarmupGradients, p.WarmupGradients)
+		}
+		t.Logf("chain %d: warm-up gradients %d against %d, step %.4f against %.4f, acceptance %.3f against %.3f", c+1, s.WarmupGradients, p.WarmupGradients, s.StepSize, p.StepSize, s.MeanAccept, p.MeanAccept)
 	}
 }
