@@ -155,21 +155,23 @@ func settings(s mcmc.Settings, k int) mcmc.Settings {
 }
 
 // panelSettings is settings for stage k of a region panel: with outcome
-// (the outcome panel, or a joint fit holding it) PanelOutcomeAccept
-// unless s sets a target acceptance.
+// (the outcome panel, or a joint fit holding it) PanelOutcomeAccept for
+// the draws and the warm-up's terminal window and DefaultTargetAccept for
+// the warm-up's metric windows (mcmc.Settings.WarmupAccept), unless s sets
+// a target acceptance, which then applies throughout.
 func panelSettings(s mcmc.Settings, k int, outcome bool) mcmc.Settings {
 	set := settings(s, k)
 	if s.TargetAccept == 0 && outcome {
-		set.TargetAccept = PanelOutcomeAccept
+		set.TargetAccept, set.WarmupAccept = PanelOutcomeAccept, DefaultTargetAccept
 	}
 	return set
 }
 
-// PanelAccept is the target acceptance a region panel's stage k (0 demand,
-// 1 outcome, 2 naive) samples with under settings s: s's own, or the
-// stage's default.
-func PanelAccept(s mcmc.Settings, k int) float64 {
-	return panelSettings(s, k, k == 1).TargetAccept
+// PanelSettings is s for a region panel's stage k (0 demand, 1 outcome, 2
+// naive), as FitPanel samples it: seed s.Seed + k and the stage's target
+// acceptance, s's own or the stage's default (panelSettings).
+func PanelSettings(s mcmc.Settings, k int) mcmc.Settings {
+	return panelSettings(s, k, k == 1)
 }
 
 func run(ctx context.Context, tg mcmc.Target, set mcmc.Settings, hook StageHook, name string) (*mcmc.Fit, float64, error) {

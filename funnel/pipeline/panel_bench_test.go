@@ -43,7 +43,10 @@ import (
 // SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
 // rounded weights instead of their conditional coordinates;
 // SPILLWAY_PANEL_ACCEPT sets the target acceptance (default each stage's,
-// as FitPanel's: PanelAccept).
+// as FitPanel's: PanelSettings) and SPILLWAY_PANEL_WARMUP_ACCEPT the
+// warm-up's own until its last metric update (mcmc.Settings.WarmupAccept;
+// 0 for none); SPILLWAY_PANEL_BASELINE=smooth fits the baseline that
+// moves (model.BaselineSmooth) in place of the trend line.
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	var err error
@@ -97,7 +100,15 @@ func BenchmarkPanelFit(b *testing.B) {
 	if err != nil {
 		b.Fatal(err)
 	}
-	panels, err := model.PanelStages(ps, model.Options{})
+	var opts model.Options
+	switch s := os.Getenv("SPILLWAY_PANEL_BASELINE"); s {
+	case "":
+	case model.BaselineSmooth:
+		opts.Baseline = s
+	default:
+		b.Fatalf("SPILLWAY_PANEL_BASELINE=%s: want %s", s, model.BaselineSmooth)
+	}
+	panels, err := model.PanelStages(ps, opts)
 	if err != nil {
 		b.Fatal(err)
 	}
@@ -118,7 +129,13 @@ func BenchmarkPanelFit(b *testing.B) {
 			if err != nil {
 				b.Fatal(err)
 			}
-			set := mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + uint64(k) + runSeed, TargetAccept: PanelAccept(mcmc.Settings{TargetAccept: accept}, k)}
+			set := PanelSettings(mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + runSeed, TargetAccept: accept}, k)
+			if v := os.Getenv("SPILLWAY_PANEL_WARMUP_ACCEPT"); v != "" {
+				// 0: the target throughout, as before the warm-up's own
+				if set.WarmupAccept, err = strconv.ParseFloat(v, 64); err != nil {
+					b.Fatalf("SPILLWAY_PANEL_WARMUP_ACCEPT=%s: %v", v, err)
+				}
+			}
 			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
 				set = PanelStart(tg, set)
 			}
@@ -151,8 +168,8 @@ func BenchmarkPanelFit(b *testing.B) {
 				}
 			}
 			wall, cpu, grads = wall+w, cpu+c1-c0, grads+g
-			line := fmt.Sprintf("%d x %d, 4 x (%d + %d), target acceptance %g: %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%d warm-up, %d sampling; %.0f us cpu each), load average %s",
-				G, T, warm, draws, set.TargetAccept, diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, gw, g-gw, 1e6*(c1-c0)/float64(g), loadAverage())
+			line := fmt.Sprintf("%d x %d, 4 x (%d + %d), target acceptance %g%s: %v\n  cpu %.1f s (2 idle cores: ~%.1f s wall), %d gradients (%d warm-up, %d sampling; %.0f us cpu each), load average %s",
+				G, T, warm, draws, set.TargetAccept, warmAccept(set), diagnose(StageNames[k], fit, w), c1-c0, (c1-c0)/2, g, gw, g-gw, 1e6*(c1-c0)/float64(g), loadAverage())
 			for _, s := range stretches {
 				line += fmt.Sprintf("\n  warm-up from iteration %4d: %6d gradients (%4.0f per iteration), mean depth %.2f, step %.4f, %d at the maximum depth, %d divergent",
 					s.Start, s.Gradients, float64(s.Gradients)/float64(s.Iterations), s.MeanTreeDepth, s.MeanStepSize, s.TreeDepthHits, s.Divergences)
@@ -167,6 +184,14 @@ func BenchmarkPanelFit(b *testing.B) {
 		b.ReportMetric(float64(grads), "gradients")
 		b.ReportMetric(float64(peak)/(1<<20), "peak-MB")
 	}
+}
+
+// warmAccept describes the warm-up's own target acceptance, if any.
+func warmAccept(s mcmc.Settings) string {
+	if s.WarmupAccept == 0 {
+		return ""
+	}
+	return fmt.Sprintf(" (%g until the warm-up's last metric update)", s.WarmupAccept)
 }
 
 // loadAverage returns the 1, 5 and 15 minute load averages, or "?" where

@@ -77,7 +77,7 @@ func TestPanelOneRegion(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	// each stage adapted to its own default acceptance (PanelAccept): the
+	// each stage adapted to its own default acceptance (PanelSettings): the
 	// outcome stage at 0.99, the others at 0.9 (whose sampling, at the
 	// warm-up's averaged step, accepts about 0.95 here)
 	for k, fit := range pf.Fits {
@@ -86,8 +86,8 @@ func TestPanelOneRegion(t *testing.T) {
 			a += c.Stats.MeanAccept / float64(len(fit.Chains))
 		}
 		t.Logf("%s stage: mean acceptance %.3f", StageNames[k], a)
-		if hi := PanelAccept(set, k) > 0.95; hi != (a > 0.975) {
-			t.Errorf("%s stage: mean acceptance %.3f at its default target %.2f", StageNames[k], a, PanelAccept(set, k))
+		if ta := PanelSettings(set, k).TargetAccept; (ta > 0.95) != (a > 0.975) {
+			t.Errorf("%s stage: mean acceptance %.3f at its default target %.2f", StageNames[k], a, ta)
 		}
 	}
 	set.Seed = 77
@@ -486,15 +486,21 @@ func quantile(x []float64, p float64) float64 {
 	return stat.Quantile(s, p)
 }
 
-// TestPanelAccept checks each panel stage's default target acceptance and
-// that a chosen one applies to every stage.
+// TestPanelAccept checks each panel stage's default target acceptance (the
+// outcome stage's warm-up windows at the fits' default, its terminal window
+// and draws at PanelOutcomeAccept), its seed, and that a chosen acceptance
+// applies to every stage throughout.
 func TestPanelAccept(t *testing.T) {
 	for k, want := range []float64{DefaultTargetAccept, PanelOutcomeAccept, DefaultTargetAccept} {
-		if got := PanelAccept(mcmc.Settings{}, k); got != want {
-			t.Errorf("%s stage: default acceptance %g, want %g", StageNames[k], got, want)
+		s := PanelSettings(mcmc.Settings{Seed: 10}, k)
+		if s.TargetAccept != want || s.Seed != 10+uint64(k) {
+			t.Errorf("%s stage: default acceptance %g and seed %d, want %g and %d", StageNames[k], s.TargetAccept, s.Seed, want, 10+k)
 		}
-		if got := PanelAccept(mcmc.Settings{TargetAccept: 0.85}, k); got != 0.85 {
-			t.Errorf("%s stage: acceptance %g with 0.85 chosen", StageNames[k], got)
+		if wantWarm := map[bool]float64{true: DefaultTargetAccept}[k == 1]; s.WarmupAccept != wantWarm {
+			t.Errorf("%s stage: warm-up acceptance %g, want %g", StageNames[k], s.WarmupAccept, wantWarm)
+		}
+		if s := PanelSettings(mcmc.Settings{TargetAccept: 0.85}, k); s.TargetAccept != 0.85 || s.WarmupAccept != 0 {
+			t.Errorf("%s stage: acceptance %g, warm-up %g with 0.85 chosen", StageNames[k], s.TargetAccept, s.WarmupAccept)
 		}
 	}
 	if PanelOutcomeAccept <= DefaultTargetAccept {

@@ -195,8 +195,8 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
-		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k),
-			TargetAccept: pipeline.PanelAccept(mcmc.Settings{}, k)} // the stage's default, as fit's
+		// seed + k and the stage's default acceptance, as fit's
+		set := pipeline.PanelSettings(mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed}, k)
 		set = pipeline.PanelStart(tg, set) // the same start as fit's
 		if f.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
