@@ -44,6 +44,9 @@ type PanelTarget struct {
 	// coefficient)
 	fb, acc, racc, bacc []float64
 	fx, dx              [][]float64
+	// bc samples the moving baseline's weights against the data's
+	// precision for them (panel_basecoords.go), nil where it does not.
+	bc *baseCoord
 }
 
 var _ mcmc.Target = (*PanelTarget)(nil)
@@ -215,6 +218,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)
 	}
+	t.bc = newBaseCoord(t, coords.SigmaEst)
 	// the spreads follow the national part in the names; par holds them in
 	// the same order (tau_mu, then each coefficient's), so their slots are
 	// the layout's.
@@ -292,6 +296,7 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		c.coefs[i] = &d
 	}
 	c.base = t.base.clone()
+	c.bc = t.bc.clone()
 	c.alloc()
 	return &c
 }
@@ -326,6 +331,9 @@ func (t *PanelTarget) decode(x []float64, grad bool) bool {
 		if notFinite(nat[t.natSlot(i)]) {
 			return false
 		}
+	}
+	if t.bc != nil {
+		t.bc.decode(t, nat)
 	}
 	ok := true
 	for _, c := range t.chans {
@@ -648,6 +656,9 @@ func (t *PanelTarget) finish(grad []float64, lp float64) float64 {
 				c.ch.pullback(grad, nat, c.gref)
 			}
 		}
+	}
+	if t.bc != nil {
+		lp = t.bc.finish(t, grad, lp)
 	}
 	return lp
 }

@@ -97,6 +97,11 @@ func randomCoords(p *Panel, seed uint64) *Coords {
 		}
 		c.SECoef, c.CoefLog = append(c.SECoef, se), append(c.CoefLog, est)
 	}
+	// the residual sd behind a moving baseline's coordinates (baseCoord):
+	// large enough that its weights' data and prior precisions are
+	// comparable at the tests' points, so both ends of the interpolation
+	// count
+	c.SigmaEst = 0.5 + rng.Float64()
 	return c
 }
 

@@ -694,6 +694,9 @@ func (t *PanelTarget) StartPoint(dst []float64) bool {
 	}
 	if t.base != nil {
 		t.startBaseline(set, c.MuEst, c.BaseSlope)
+		if t.bc != nil {
+			t.bc.encode(t, dst) // the weights' z_j to their sampling coordinates
+		}
 	}
 	if cg := t.condGamma(); cg != nil && t.inter.free >= 0 || t.meanShear() {
 		// mu' = mu + gamma qbar + mean_g S'_g (or mu + mean_g S_g,
