@@ -26,17 +26,17 @@ import "math"
 // must follow sd and the length-scale along a narrow ridge.
 //
 // The map is triangular (q_j depends on sd and the length-scale only), with
-// log-Jacobian -1/2 sum_j log q_j; baseFinish adds it and pulls the
+// log-Jacobian -1/2 sum_j log q_j; finish adds it and pulls the
 // gradient in z_j, complete after finish, back to xi_j, sd and the
 // length-scale. With one region the baseline keeps the national
 // coordinates, so that a one-region panel is the national model.
 type baseCoord struct {
-	a        []float64 // a_j
-	s, q, k  []float64 // per evaluation: s_j, q_j and a_j s_j^2 / q_j
-	sd, ell  int       // parameters of sd and the length-scale
-	z        int       // parameter of the first weight
-	zFree    int       // sampling coordinate of the first weight
-	sdv, elv float64   // per evaluation: sd and the length-scale
+	a       []float64 // a_j
+	s, q, k []float64 // per evaluation: s_j, q_j and a_j s_j^2 / q_j
+	sd, ell int       // parameters of sd and the length-scale
+	z       int       // parameter of the first weight
+	zFree   int       // sampling coordinate of the first weight
+	elv     float64   // per evaluation: the length-scale
 }
 
 // newBaseCoord returns the coordinates of t's baseline, or nil where there
@@ -92,8 +92,8 @@ func (c *baseCoord) clone() *baseCoord {
 // decode turns the weights' sampling coordinates in nat (xi_j, decoded as
 // they are) into z_j, given sd and the length-scale already decoded.
 func (c *baseCoord) decode(t *PanelTarget, nat []float64) {
-	c.sdv, c.elv = nat[t.natSlot(c.sd)], nat[t.natSlot(c.ell)]
-	t.base.sm.b.scales(c.s, nil, c.sdv, c.elv)
+	c.elv = nat[t.natSlot(c.ell)]
+	t.base.sm.b.scales(c.s, nil, nat[t.natSlot(c.sd)], c.elv)
 	for j, s := range c.s {
 		q := 1 + c.a[j]*s*s
 		c.q[j], c.k[j] = q, c.a[j]*s*s/q
