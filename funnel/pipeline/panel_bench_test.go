@@ -131,7 +131,7 @@ func BenchmarkPanelFit(b *testing.B) {
 			}
 			set := PanelSettings(mcmc.Settings{Warmup: warm, Draws: draws, Seed: 60 + runSeed, TargetAccept: accept}, k)
 			if v := os.Getenv("SPILLWAY_PANEL_WARMUP_ACCEPT"); v != "" {
-				// 0: the target throughout, as before the warm-up's own
+				// 0: the stage's target throughout the warm-up, as before WarmupAccept
 				if set.WarmupAccept, err = strconv.ParseFloat(v, 64); err != nil {
 					b.Fatalf("SPILLWAY_PANEL_WARMUP_ACCEPT=%s: %v", v, err)
 				}
