@@ -137,11 +137,14 @@ func (s *windowSchedule) step() (inWindow, endWindow bool) {
 // lastDone reports whether the window that step just ended was the last:
 // what follows is the terminal buffer.
 func (s *windowSchedule) lastDone() bool {
-	return s.counter-1 == s.numWarmup-s.termBuffer-1
+	return s.counter-1 == s.lastEnd()
 }
 
+// lastEnd is the iteration that ends the last metric window.
+func (s *windowSchedule) lastEnd() int { return s.numWarmup - s.termBuffer - 1 }
+
 func (s *windowSchedule) computeNextWindow() {
-	last := s.numWarmup - s.termBuffer - 1
+	last := s.lastEnd()
 	if s.nextWindow == last {
 		return
 	}

@@ -89,14 +89,21 @@ func (c *baseCoord) clone() *baseCoord {
 	return &d
 }
 
-// decode turns the weights' sampling coordinates in nat (xi_j, decoded as
-// they are) into z_j, given sd and the length-scale already decoded.
-func (c *baseCoord) decode(t *PanelTarget, nat []float64) {
-	c.elv = nat[t.natSlot(c.ell)]
-	t.base.sm.b.scales(c.s, nil, nat[t.natSlot(c.sd)], c.elv)
+// at sets s_j, q_j and k_j at sd and the length-scale ell.
+func (c *baseCoord) at(t *PanelTarget, sd, ell float64) {
+	c.elv = ell
+	t.base.sm.b.scales(c.s, nil, sd, ell)
 	for j, s := range c.s {
 		q := 1 + c.a[j]*s*s
 		c.q[j], c.k[j] = q, c.a[j]*s*s/q
+	}
+}
+
+// decode turns the weights' sampling coordinates in nat (xi_j, decoded as
+// they are) into z_j, given sd and the length-scale already decoded.
+func (c *baseCoord) decode(t *PanelTarget, nat []float64) {
+	c.at(t, nat[t.natSlot(c.sd)], nat[t.natSlot(c.ell)])
+	for j, q := range c.q {
 		nat[t.natSlot(c.z+j)] /= math.Sqrt(q)
 	}
 }
@@ -104,11 +111,9 @@ func (c *baseCoord) decode(t *PanelTarget, nat []float64) {
 // encode turns dst's z_j into xi_j at dst's sd and length-scale, in place
 // (the start point).
 func (c *baseCoord) encode(t *PanelTarget, dst []float64) {
-	sd, ell := t.par[c.sd].value(dst), t.par[c.ell].value(dst)
-	s := make([]float64, len(c.a))
-	t.base.sm.b.scales(s, nil, sd, ell)
-	for j, v := range s {
-		dst[c.zFree+j] *= math.Sqrt(1 + c.a[j]*v*v)
+	c.at(t, t.par[c.sd].value(dst), t.par[c.ell].value(dst))
+	for j, q := range c.q {
+		dst[c.zFree+j] *= math.Sqrt(q)
 	}
 }
 
@@ -116,7 +121,9 @@ func (c *baseCoord) encode(t *PanelTarget, dst []float64) {
 // in (z_j, log sd, log ell), complete after PanelTarget.finish, into the
 // gradient in (xi_j, log sd, log ell): d z_j / d xi_j = q_j^(-1/2), and
 // d log q_j / d log s_j = 2 k_j with d log s_j / d log sd = 1 and
-// d log s_j / d log ell = 1/2 - ell^2 lambda_j / 2.
+// d log s_j / d log ell = 1/2 - ell^2 lambda_j / 2 (in closed form, not
+// ell ds_j / s_j from Basis.scales: s_j underflows to 0 for high
+// frequencies at long length-scales, where that ratio is 0/0).
 func (c *baseCoord) finish(t *PanelTarget, grad []float64, lp float64) float64 {
 	sdFree, ellFree := t.par[c.sd].free, t.par[c.ell].free
 	b := t.base.sm.b
