@@ -213,7 +213,17 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			pc.cond = newCondGamma(t.inter, coords, k, pc.bar)
 		}
 		if !pooled && ch != nil && coords.CoefConditional && coords.SECoef != nil && coords.CoefLog != nil {
-			pc.cc = newCondCoef(coords, k, t.G, pc.startRef(coords.transform(h.channel)))
+			if pc.rescale && ch.spread && ch.regional == nil {
+				ch.regional = make([]bool, t.G)
+				for g := range ch.series {
+					ch.regional[g] = !constant(ch.series[g].x)
+				}
+				ch.rho, ch.rhoD = make([]float64, t.G), make([][3]float64, t.G)
+			}
+			if pc.rescale && ch.regional != nil {
+				pc.grho = make([]float64, t.G)
+			}
+			pc.cc = newCondCoef(coords, k, t.G, pc.startRefs(coords.transform(h.channel)))
 		}
 		t.own[hyper] = true
 		t.coefs = append(t.coefs, pc)
@@ -285,6 +295,9 @@ func (t *PanelTarget) Clone() mcmc.Target {
 		}
 		if pc.cc != nil {
 			d.cc = pc.cc.clone()
+		}
+		if pc.grho != nil {
+			d.grho = make([]float64, t.G)
 		}
 		if pc.ch != nil {
 			for j, ch := range t.chans {
@@ -654,6 +667,9 @@ func (t *PanelTarget) finish(grad []float64, lp float64) float64 {
 		for _, c := range t.coefs {
 			if c.ch != nil && c.rescale {
 				c.ch.pullback(grad, nat, c.gref)
+				if c.grho != nil {
+					c.ch.pullbackRegions(grad, nat, c.grho)
+				}
 			}
 		}
 	}
@@ -748,6 +764,14 @@ type panelChannel struct {
 	same                []int
 	href                float64
 	hrefL, hrefK, hrefS float64 // href's derivatives in lam, K and S
+	// regional[g] (nil unless a coefficient of the channel takes its
+	// conditional coordinates, condCoef) says region g's spend changes
+	// over its weeks, so that its response has a spread of its own: rho[g]
+	// is the log of that spread (log href where regional[g] is false) and
+	// rhoD[g] its derivatives in lam, K and S.
+	regional []bool
+	rho      []float64
+	rhoD     [][3]float64
 	// sm is the drift (nil when the coefficient does not drift): every
 	// region's response is multiplied by mult[t] = exp(f(t)), one f shared
 	// by the regions (drift.go's multiplier, smooth.go's function); r is
@@ -759,6 +783,9 @@ type panelChannel struct {
 func (c *panelChannel) clone() *panelChannel {
 	d := *c
 	d.series = append([]panelSeries(nil), c.series...)
+	if c.regional != nil {
+		d.rho, d.rhoD = make([]float64, len(c.series)), make([][3]float64, len(c.series))
+	}
 	if c.sm != nil {
 		d.sm = c.sm.clone()
 		T := len(c.series[0].x)
@@ -955,6 +982,7 @@ func (c *panelChannel) spreadRef(grad bool) {
 	G := float64(len(c.series))
 	m, m2 = m/G, m2/G
 	c.href = math.Sqrt(variance(m, m2))
+	c.regionRef(grad)
 	if !grad {
 		return
 	}
@@ -962,6 +990,40 @@ func (c *panelChannel) spreadRef(grad bool) {
 	for i := range d {
 		*d[i] = (mh[i]/G - m*md[i]/G) / c.href // d sqrt(var) = d var / (2 sd)
 	}
+}
+
+// regionRef sets rho[g], the log of region g's own response spread over
+// its weeks, and with grad its derivatives, d log sd = d var / (2 var); a
+// region whose spend never changes takes log href.
+func (c *panelChannel) regionRef(grad bool) {
+	if c.regional == nil {
+		return
+	}
+	lh := math.Log(c.href)
+	for g := range c.series {
+		if !c.regional[g] {
+			c.rho[g], c.rhoD[g] = lh, [3]float64{}
+			continue
+		}
+		r := &c.series[g]
+		v := variance(r.hbar, r.h2bar)
+		c.rho[g] = 0.5 * math.Log(v)
+		if grad {
+			for i, d := range [3]float64{r.hlbar, r.hkbar, r.hsbar} {
+				c.rhoD[g][i] = (r.hh[i] - r.hbar*d) / v
+			}
+		}
+	}
+}
+
+// constant reports whether a series takes one value throughout.
+func constant(x []float64) bool {
+	for _, v := range x {
+		if v != x[0] {
+			return false
+		}
+	}
+	return true
 }
 
 // variance returns the variance of values whose mean is m and mean square
@@ -1000,6 +1062,26 @@ func (c *panelChannel) pullback(grad, nat []float64, gref float64) {
 	}
 }
 
+// pullbackRegions adds rho's dependence on lam, K and S: grho[g] = d lp / d
+// rho[g].
+func (c *panelChannel) pullbackRegions(grad, nat, grho []float64) {
+	var d [3]float64
+	for g, w := range grho {
+		for i := range d {
+			d[i] += w * c.rhoD[g][i]
+		}
+	}
+	if c.lFree >= 0 {
+		grad[c.lFree] += d[0] * slope(c.lSup, nat[c.k[1]])
+	}
+	if c.kFree >= 0 {
+		grad[c.kFree] += d[1] * nat[c.k[2]]
+	}
+	if c.sFree >= 0 {
+		grad[c.sFree] += d[2] * nat[c.k[3]]
+	}
+}
+
 // panelCoef is a coefficient that varies by region, gamma or a channel's:
 // theta[g] = theta exp(tau eta[g]), eta ~ Normal(0, 1), so log theta[g] ~
 // Normal(log theta, tau). With rescale (a channel whose hyperparameter is
@@ -1028,7 +1110,8 @@ type panelCoef struct {
 	v, g        []float64     // theta[g] and d lp/d theta[g]
 	x           []float64     // the point being evaluated (not owned)
 	lu          float64
-	gref        float64 // d lp / d log href
+	gref        float64   // d lp / d log href
+	grho        []float64 // d lp / d rho[g] (condCoef on a regional channel)
 	glu         float64
 }
 
