@@ -5,6 +5,7 @@ import (
 	"math/rand/v2"
 	"testing"
 
+	"spillway/funnel/mcmc/mcmctest"
 	"spillway/funnel/transform"
 )
 
@@ -78,7 +79,9 @@ func TestPanelSpreadRef(t *testing.T) {
 // its weeks, a region whose spend never changes (the dark region) at the
 // panel's log href; that startRefs gives them at the same transforms; and
 // that region g's coefficient is exp(m[g] + xi[g]/sqrt(P[g]) - rho[g]), so
-// that xi[g] moves the coefficient times the region's own spread.
+// that xi[g] moves the coefficient times the region's own spread; and the
+// gradient against finite differences when the dark region has an
+// estimate, where rho's derivatives there are href's.
 func TestPanelRegionRef(t *testing.T) {
 	p := testPanel(t, 4, 30, Outcome, true)
 	p.Coords = randomCoords(p, 9)
@@ -152,5 +155,18 @@ func TestPanelRegionRef(t *testing.T) {
 	}
 	if flats == 0 {
 		t.Error("no region whose spend never changes: the dark region was not checked")
+	}
+	// The dark region with an estimate of its own (randomCoords leaves it
+	// none): its centre then weighs the estimate against the hierarchy, so
+	// its reference, the panel's href, must pass its derivatives on too.
+	for k := range p.Coords.CoefLog {
+		p.Coords.CoefLog[k][1] = -1
+	}
+	pt, err = p.Target()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if r := mcmctest.CheckGradient(t, pt, 1e-5, &mcmctest.GradSettings{Seed: 7, Points: 6, Radius: 1}); r.Checked < 4 {
+		t.Fatalf("only %d points had a finite density", r.Checked)
 	}
 }

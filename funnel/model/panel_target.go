@@ -982,19 +982,19 @@ func (c *panelChannel) spreadRef(grad bool) {
 	G := float64(len(c.series))
 	m, m2 = m/G, m2/G
 	c.href = math.Sqrt(variance(m, m2))
+	if grad {
+		d := [3]*float64{&c.hrefL, &c.hrefK, &c.hrefS}
+		for i := range d {
+			*d[i] = (mh[i]/G - m*md[i]/G) / c.href // d sqrt(var) = d var / (2 sd)
+		}
+	}
 	c.regionRef(grad)
-	if !grad {
-		return
-	}
-	d := [3]*float64{&c.hrefL, &c.hrefK, &c.hrefS}
-	for i := range d {
-		*d[i] = (mh[i]/G - m*md[i]/G) / c.href // d sqrt(var) = d var / (2 sd)
-	}
 }
 
 // regionRef sets rho[g], the log of region g's own response spread over
 // its weeks, and with grad its derivatives, d log sd = d var / (2 var); a
-// region whose spend never changes takes log href.
+// region whose spend never changes takes log href, and its derivatives
+// (set by spreadRef before).
 func (c *panelChannel) regionRef(grad bool) {
 	if c.regional == nil {
 		return
@@ -1002,7 +1002,10 @@ func (c *panelChannel) regionRef(grad bool) {
 	lh := math.Log(c.href)
 	for g := range c.series {
 		if !c.regional[g] {
-			c.rho[g], c.rhoD[g] = lh, [3]float64{}
+			c.rho[g] = lh
+			if grad {
+				c.rhoD[g] = [3]float64{c.hrefL / c.href, c.hrefK / c.href, c.hrefS / c.href}
+			}
 			continue
 		}
 		r := &c.series[g]
