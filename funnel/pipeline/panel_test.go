@@ -26,14 +26,15 @@ type fitDiag struct {
 	stage                 string
 	wall                  float64
 	rhat, essBulk, essTai float64
-	worst                 string
+	worst                 string // the largest R-hat's parameter
+	slowBulk, slowTail    string // the least bulk and tail ESS's
 	div                   int
 	steps, step           float64 // mean leapfrog steps per draw and step size over chains
 }
 
 func (d fitDiag) String() string {
-	return fmt.Sprintf("%-8s wall %6.1f s  max R-hat %.3f  min bulk ESS %5.0f  min tail ESS %5.0f (worst %s)  divergences %d  steps/draw %.0f  step %.3g",
-		d.stage, d.wall, d.rhat, d.essBulk, d.essTai, d.worst, d.div, d.steps, d.step)
+	return fmt.Sprintf("%-8s wall %6.1f s  max R-hat %.3f (%s)  min bulk ESS %5.0f (%s)  min tail ESS %5.0f (%s)  divergences %d  steps/draw %.0f  step %.3g",
+		d.stage, d.wall, d.rhat, d.worst, d.essBulk, d.slowBulk, d.essTai, d.slowTail, d.div, d.steps, d.step)
 }
 
 func diagnose(stage string, f *mcmc.Fit, wall float64) fitDiag {
@@ -45,8 +46,12 @@ func diagnose(stage string, f *mcmc.Fit, wall float64) fitDiag {
 		if s.Rhat > d.rhat {
 			d.rhat, d.worst = s.Rhat, s.Parameter
 		}
-		d.essBulk = math.Min(d.essBulk, s.ESSBulk)
-		d.essTai = math.Min(d.essTai, s.ESSTail)
+		if s.ESSBulk < d.essBulk || math.IsNaN(s.ESSBulk) { // NaN stays, as math.Min keeps it
+			d.essBulk, d.slowBulk = s.ESSBulk, s.Parameter
+		}
+		if s.ESSTail < d.essTai || math.IsNaN(s.ESSTail) {
+			d.essTai, d.slowTail = s.ESSTail, s.Parameter
+		}
 	}
 	for _, c := range f.Chains {
 		d.div += c.Stats.Divergences
