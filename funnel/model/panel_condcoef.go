@@ -94,8 +94,9 @@ func (c *panelCoef) startRef(tr [3]float64) float64 {
 func (c *panelCoef) startRefs(tr [3]float64) []float64 {
 	lref := make([]float64, len(c.v))
 	if !c.rescale || c.ch.linear || !c.ch.spread || c.ch.regional == nil {
+		l := c.startRef(tr) // once: the same for every region
 		for g := range lref {
-			lref[g] = c.startRef(tr)
+			lref[g] = l
 		}
 		return lref
 	}
