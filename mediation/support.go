@@ -60,14 +60,16 @@ func PriorInputs(in *Inputs, n int, seed uint64) (*Inputs, error) {
 		}
 	}
 	// an upper channel's two paths' jump weights are drawn as a pair
-	// (model.JumpTie.Draw)
-	ties, err := model.JumpTieDraws(in.Demand, in.Outcome)
-	if err != nil {
-		return nil, err
-	}
-	for d := range n {
-		for _, t := range ties {
-			t.Draw(out.DemandDraws.Rows[d], out.OutcomeDraws.Rows[d], rng)
+	// (model.JumpTie.Draw), unless they were fitted apart
+	if !in.JumpsApart {
+		ties, err := model.JumpTieDraws(in.Demand, in.Outcome)
+		if err != nil {
+			return nil, err
+		}
+		for d := range n {
+			for _, t := range ties {
+				t.Draw(out.DemandDraws.Rows[d], out.OutcomeDraws.Rows[d], rng)
+			}
 		}
 	}
 	out.NaiveDraws = Draws{}

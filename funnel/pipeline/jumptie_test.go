@@ -226,3 +226,58 @@ func sameDraws(t *testing.T, a, b [3]*mcmc.Fit) {
 		}
 	}
 }
+
+// TestPriorInputsJumpsApart checks that the prior draws behind the support
+// verdict follow the fit's jumps: tied (the default), video's two paths'
+// jump weights share their Student-t mixing variable, so both exceed 3 in
+// size far more often than two independent t_3 weights would (P(|t_3| > 3)
+// about 0.058, so about 0.0034 of pairs); apart (Options.JumpsApart), they
+// are each stage's own draws and the joint rate is the product of the
+// marginal ones.
+func TestPriorInputsJumpsApart(t *testing.T) {
+	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := model.Scale(ds.National(), ds.Spec)
+	for _, apart := range []bool{false, true} {
+		o := model.Options{Drift: map[string]bool{"video_spend": true}, DriftShape: model.DriftJumps, JumpsApart: apart}
+		st, err := Stages(sc, o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		f := &Fitted{Data: sc, Stages: st, Fits: [3]*mcmc.Fit{{}, {}, nil}, options: o}
+		pin, err := mediation.PriorInputs(f.Inputs(), 4000, 3)
+		if err != nil {
+			t.Fatal(err)
+		}
+		dc, _ := st[0].Layout().Channel("video_spend")
+		yc, _ := st[1].Layout().Channel("video_spend")
+		J := dc.Drift.Basis.J()
+		var both, a, d, n float64
+		for i, rd := range pin.DemandDraws.Rows {
+			ry := pin.OutcomeDraws.Rows[i]
+			for k := 1; k <= J; k++ {
+				ea, ed := math.Abs(rd[dc.Drift.Jump+k]) > 3, math.Abs(ry[yc.Drift.Jump+k]) > 3
+				n++
+				if ea {
+					a++
+				}
+				if ed {
+					d++
+				}
+				if ea && ed {
+					both++
+				}
+			}
+		}
+		ratio := both / n / (a / n * d / n)
+		t.Logf("apart %v: %d pairs, P(both above 3) %.4f, product of marginals %.4f, ratio %.2f", apart, int(n), both/n, a/n*d/n, ratio)
+		if apart && (ratio < 0.6 || ratio > 1.5) {
+			t.Errorf("jumps apart: joint exceedance %.2f times the product of the marginals, want near 1", ratio)
+		}
+		if !apart && ratio < 3 {
+			t.Errorf("jumps tied: joint exceedance %.2f times the product of the marginals, want well above 1", ratio)
+		}
+	}
+}

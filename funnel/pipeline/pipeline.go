@@ -112,7 +112,8 @@ type Fitted struct {
 	Tests []lifts.Test
 	Lifts []*model.LiftTest
 	// options and settings of a FitLifts fit, for the refits that leave a
-	// lift test out (CheckLifts)
+	// lift test out (CheckLifts) and the prior draws of jumps fitted apart
+	// (Inputs)
 	options  model.Options
 	settings mcmc.Settings
 }
@@ -153,7 +154,9 @@ func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings
 
 // Inputs pairs the fits' draws for the effect split.
 func (f *Fitted) Inputs() *mediation.Inputs {
-	return Pair(f.Data, f.Stages, f.Fits)
+	in := Pair(f.Data, f.Stages, f.Fits)
+	in.JumpsApart = f.options.JumpsApart
+	return in
 }
 
 // Pair builds the split's inputs from stages and their fits (e.g. read back
