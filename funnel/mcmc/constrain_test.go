@@ -28,6 +28,7 @@ func TestTransforms(t *testing.T) {
 		{"Positive", mcmc.Positive{}},
 		{"Unit", mcmc.Unit{}},
 		{"Bounded", mcmc.Bounded{Lo: -1, Hi: 3}},
+		{"Asinh", mcmc.Asinh{S: 0.5}},
 	} {
 		for _, u := range []float64{-6, -1.5, -0.2, 0, 0.7, 2, 5} {
 			dx := fd.Derivative(c.tr.Value, u, &fd.Settings{Formula: fd.Central, Step: 1e-6})
@@ -77,6 +78,7 @@ func TestTransformsAt(t *testing.T) {
 		{"Positive", mcmc.Positive{}},
 		{"Unit", mcmc.Unit{}},
 		{"Bounded", mcmc.Bounded{Lo: -1, Hi: 3}},
+		{"Asinh", mcmc.Asinh{S: 0.5}},
 	} {
 		for _, u := range []float64{-6, -1.5, -0.2, 0, 0.7, 2, 5} {
 			x := c.tr.Value(u)
