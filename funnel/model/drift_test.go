@@ -159,17 +159,18 @@ func TestSmoothStages(t *testing.T) {
 				}
 				// step 1e-5: central differences at 1e-6 lose eps |lp| / h,
 				// about 1e-6 at these stages' densities, to rounding. With
-				// jumps 3e-5: at the random points the jump weights make
-				// multipliers of e^several and gradients up to 4e9, and the
-				// largest scaled error over steps 1e-3, 3e-4, 1e-4, 3e-5,
-				// 1e-5, 3e-6 ran 4.5e-5, 4.1e-6, 4.5e-7, 2.8e-7, 1.7e-6,
-				// 3.0e-6 on the masked demand stage: truncation, then
-				// rounding, with no floor a wrong term would leave
-				step := 1e-5
+				// jumps radius 0.6: the jump weights are sinh of their
+				// coordinates (HeavyReal), and at random points of radius 1
+				// they make multipliers of e^several and gradients in the
+				// thousands, whose central differences lose 2e-6 to 5e-6
+				// (scaled) to truncation and rounding at every step from
+				// 1e-4 to 1e-5; at radius 0.6 the weights' cosh is at most
+				// 1.19, so a missing factor of it would still show
+				radius := 1.0
 				if oc.o.DriftShape == DriftJumps {
-					step = 3e-5
+					radius = 0.6
 				}
-				mcmctest.CheckGradient(t, tg, 1e-6, &mcmctest.GradSettings{Seed: 4, Points: 4, Radius: 1, Step: step})
+				mcmctest.CheckGradient(t, tg, 1e-6, &mcmctest.GradSettings{Seed: 4, Points: 4, Radius: radius, Step: 1e-5})
 				mcmctest.CheckNoAlloc(t, tg, make([]float64, tg.Dim()))
 				x := make([]float64, tg.Dim())
 				for i := range x {

@@ -38,6 +38,11 @@ const (
 	Real Support = iota
 	PositiveReal
 	UnitInterval
+	// HeavyReal is the real line sampled as asinh(2x) (mcmc.Asinh): the
+	// default of a parameter whose prior has heavy tails (a jump weight's
+	// Student-t, jump.go). A normal or Student-t prior keeps it; the
+	// posterior is the same, only the sampler's coordinate differs.
+	HeavyReal
 )
 
 // Prior is a prior distribution for one parameter.
@@ -99,6 +104,9 @@ func (p Prior) LogPdf(x float64) (lp, d float64) {
 func (p Prior) Support(def Support) Support {
 	switch p.Family {
 	case Normal, StudentT:
+		if def == HeavyReal {
+			return HeavyReal
+		}
 		return Real
 	case HalfNormal, Gamma, InvGamma, Jeffreys, Conditional:
 		return PositiveReal
