@@ -54,7 +54,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 	if err != nil {
 		return nil, err
 	}
-	set := settings(s, 0)
+	set := fitSettings(s, 0, joint...)
 	name := "demand"
 	if len(joint) == 2 {
 		name = "demand and outcome"
@@ -78,7 +78,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", st[k].Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k), hook, st[k].Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, fitSettings(s, k, st[k]), hook, st[k].Name); err != nil {
 			return nil, err
 		}
 	}
@@ -152,6 +152,30 @@ func settings(s mcmc.Settings, k int) mcmc.Settings {
 		set.TargetAccept = DefaultTargetAccept
 	}
 	return set
+}
+
+// fitSettings is settings for stage k fitted in a target holding the
+// stages sts, with StageAccept(sts...) when s sets no target acceptance.
+func fitSettings(s mcmc.Settings, k int, sts ...*model.Stage) mcmc.Settings {
+	set := settings(s, k)
+	if s.TargetAccept == 0 {
+		set.TargetAccept = StageAccept(sts...)
+	}
+	return set
+}
+
+// StageAccept is the target acceptance of a national fit's target holding
+// the stages sts when its settings set none: JumpsAccept when a channel of
+// one of them drifts with jumps, else DefaultTargetAccept.
+func StageAccept(sts ...*model.Stage) float64 {
+	for _, st := range sts {
+		for _, c := range st.Layout().Channels() {
+			if c.Drift.Jump >= 0 {
+				return JumpsAccept
+			}
+		}
+	}
+	return DefaultTargetAccept
 }
 
 // panelSettings is settings for stage k of a region panel: with outcome

@@ -25,8 +25,8 @@ func (sw *Sweep) fitTests(ctx context.Context, sc *model.Scaled, seed uint64, te
 	if err != nil {
 		return nil, err
 	}
-	set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed,
-		TargetAccept: pipeline.DefaultTargetAccept}
+	// the target acceptance FitStages gives these stages (StageAccept)
+	set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed}
 	pf, err := pipeline.FitStages(ctx, sc, o, tests, set, nil)
 	if err != nil {
 		return nil, err

@@ -222,7 +222,7 @@ func (sw *Sweep) fit(ctx context.Context, sc *model.Scaled, seed uint64) (*fitte
 			return nil, fmt.Errorf("%s stage: %w", st.Name, err)
 		}
 		set := mcmc.Settings{Chains: sw.set.Chains, Warmup: sw.set.Warmup, Draws: sw.set.Draws, Seed: seed + uint64(k),
-			TargetAccept: pipeline.DefaultTargetAccept}
+			TargetAccept: pipeline.StageAccept(st)}
 		if f.fits[k], err = mcmc.Run(ctx, tg, &set); err != nil {
 			return nil, fmt.Errorf("%s stage: %w", st.Name, err)
 		}
