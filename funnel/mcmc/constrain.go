@@ -118,8 +118,12 @@ func (a Asinh) LogJacAt(x float64) float64 {
 	return math.Log(a.S) + 0.5*math.Log1p(r*r)
 }
 
+// Slope returns dx/du = S cosh u = sqrt(S² + x²) at x = S sinh(u).
+func (a Asinh) Slope(x float64) float64 { return math.Sqrt(a.S*a.S + x*x) }
+
 // ChainGrad returns d/du [f(x) + log |dx/du|] at x = S sinh(u), given
-// dfdx = f'(x): dfdx S cosh u + tanh u, with cosh u = sqrt(1 + (x/S)²).
+// dfdx = f'(x): dfdx S cosh u + tanh u, with cosh u = sqrt(1 + (x/S)²)
+// (Slope's value, by arithmetic the measured draws were made with).
 func (a Asinh) ChainGrad(dfdx, x float64) float64 {
 	r := x / a.S
 	c := math.Sqrt(1 + r*r)

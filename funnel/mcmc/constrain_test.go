@@ -53,6 +53,13 @@ func TestTransforms(t *testing.T) {
 	if v, j := b.Value(0), b.LogJac(0); v != 6 || !scalar.EqualWithinAbs(j, math.Log(2), 1e-15) {
 		t.Errorf("Bounded at 0: %v, %v", v, j)
 	}
+	// Asinh's Slope is dx/du, exp of its log-Jacobian.
+	a := mcmc.Asinh{S: 0.5}
+	for _, u := range []float64{-6, -0.2, 0, 2, 5} {
+		if got, want := a.Slope(a.Value(u)), math.Exp(a.LogJac(u)); !scalar.EqualWithinAbsOrRel(got, want, 1e-12, 1e-12) {
+			t.Errorf("Asinh.Slope(Value(%v)) = %v, want %v", u, got, want)
+		}
+	}
 	// Far tails stay finite.
 	if j := (mcmc.Unit{}).LogJac(-800); math.IsInf(j, 0) || math.IsNaN(j) {
 		t.Errorf("Unit.LogJac(-800) = %v", j)

@@ -70,7 +70,7 @@ func slope(sup Support, v float64) float64 {
 	case UnitInterval:
 		return v * (1 - v)
 	case HeavyReal:
-		return math.Sqrt(heavy.S*heavy.S + v*v)
+		return heavy.Slope(v)
 	}
 	return 1
 }

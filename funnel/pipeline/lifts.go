@@ -54,7 +54,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 	if err != nil {
 		return nil, err
 	}
-	set := fitSettings(s, 0, joint...)
+	set := settings(s, 0, joint...)
 	name := "demand"
 	if len(joint) == 2 {
 		name = "demand and outcome"
@@ -78,7 +78,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", st[k].Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, fitSettings(s, k, st[k]), hook, st[k].Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k, st[k]), hook, st[k].Name); err != nil {
 			return nil, err
 		}
 	}
@@ -143,22 +143,13 @@ func Assemble(sc *model.Scaled, o model.Options, tests []lifts.Test, s mcmc.Sett
 	return f, nil
 }
 
-// settings returns s for stage k: seed s.Seed + k, the default target
-// acceptance unless s sets one.
-func settings(s mcmc.Settings, k int) mcmc.Settings {
+// settings returns s for stage k fitted in a target holding the stages
+// sts (none for a panel's, whose acceptance panelSettings sets): seed
+// s.Seed + k, and StageAccept(sts...) unless s sets a target acceptance.
+func settings(s mcmc.Settings, k int, sts ...*model.Stage) mcmc.Settings {
 	set := s
 	set.Seed = s.Seed + uint64(k)
 	if set.TargetAccept == 0 {
-		set.TargetAccept = DefaultTargetAccept
-	}
-	return set
-}
-
-// fitSettings is settings for stage k fitted in a target holding the
-// stages sts, with StageAccept(sts...) when s sets no target acceptance.
-func fitSettings(s mcmc.Settings, k int, sts ...*model.Stage) mcmc.Settings {
-	set := settings(s, k)
-	if s.TargetAccept == 0 {
 		set.TargetAccept = StageAccept(sts...)
 	}
 	return set

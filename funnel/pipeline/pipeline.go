@@ -156,7 +156,7 @@ func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", stage.Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, fitSettings(s, k, stage), hook, stage.Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, settings(s, k, stage), hook, stage.Name); err != nil {
 			return nil, err
 		}
 	}
