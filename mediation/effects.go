@@ -24,10 +24,10 @@ type Inputs struct {
 	DemandDraws            Draws
 	OutcomeDraws           Draws
 	NaiveDraws             Draws // may be empty
-	// JumpsApart says the stages were fitted with an upper channel's two
-	// paths' jumps independent (model.Options.JumpsApart): their prior
+	// DriftsApart says the stages were fitted with an upper channel's two
+	// paths' drifts independent (model.Options.DriftsApart): their prior
 	// draws are then each stage's own, not the tie's pair (PriorInputs).
-	JumpsApart bool
+	DriftsApart bool
 }
 
 // Effect draws of one channel and path over one window, outcome units.

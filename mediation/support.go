@@ -59,10 +59,10 @@ func PriorInputs(in *Inputs, n int, seed uint64) (*Inputs, error) {
 			r.Draw(out.DemandDraws.Rows[d], out.OutcomeDraws.Rows[d], rng)
 		}
 	}
-	// an upper channel's two paths' jump weights are drawn as a pair
-	// (model.JumpTie.Draw), unless they were fitted apart
-	if !in.JumpsApart {
-		ties, err := model.JumpTieDraws(in.Demand, in.Outcome)
+	// an upper channel's two paths' drift weights are drawn in pairs
+	// (model.DriftTie.Draw), unless they were fitted apart
+	if !in.DriftsApart {
+		ties, err := model.DriftTieDraws(in.Demand, in.Outcome)
 		if err != nil {
 			return nil, err
 		}

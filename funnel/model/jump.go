@@ -23,7 +23,7 @@ import "fmt"
 // transform known puts gamma 0.4-0.6 se high with a smooth multiplier and
 // on target with a step at the true week). An upper-funnel channel's two
 // paths' weights u_k are each t_3 in their own stage and tied across the
-// stages week by week (jumptie.go), so a step found in one path makes the
+// stages week by week (drifttie.go), so a step found in one path makes the
 // same week's step in the other plausible.
 //
 // How it samples: u_k are unit-scale and jsd is their common scale (the

@@ -18,7 +18,7 @@ type PanelJoint struct {
 	off   []int // parts[k] holds x[off[k]:off[k+1]]
 	voff  []int // and constrained values dst[voff[k]:voff[k+1]]
 	tests []*PanelLiftTest
-	ties  []*JumpTie
+	ties  []*DriftTie
 	pts   []Point // each panel's shared part, as its ties see it
 	lp    []float64
 	names []string
@@ -68,11 +68,11 @@ func (j *PanelJoint) points() {
 	}
 }
 
-// Tie binds the jump ties of upper-funnel channels (JumpTie, its Demand
-// and Outcome the panels' places) and adds them to the target: the jumps
+// Tie binds the drift ties of upper-funnel channels (DriftTie, its Demand
+// and Outcome the panels' places) and adds them to the target: the drift
 // of the multiplier every region shares, tied across the two panels as
 // nationally.
-func (j *PanelJoint) Tie(ties ...*JumpTie) error {
+func (j *PanelJoint) Tie(ties ...*DriftTie) error {
 	for _, c := range ties {
 		if err := c.Bind(j.pts); err != nil {
 			return err
@@ -105,9 +105,9 @@ func (j *PanelJoint) Clone() mcmc.Target {
 	}
 	c.lp = make([]float64, len(j.parts))
 	c.points()
-	c.ties = make([]*JumpTie, len(j.ties))
+	c.ties = make([]*DriftTie, len(j.ties))
 	for k, t := range j.ties {
-		c.ties[k] = t.Clone().(*JumpTie)
+		c.ties[k] = t.Clone().(*DriftTie)
 	}
 	return &c
 }

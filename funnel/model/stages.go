@@ -30,13 +30,12 @@ type Options struct {
 	// the fitted weeks (smooth.go, drift.go). Empty: no drift.
 	Drift map[string]bool
 	// DriftShape is "" (or DriftSmooth) for a smooth drift, or DriftJumps
-	// for a drift that can also jump at candidate weeks (jump.go); an
-	// upper-funnel channel's two paths then jump together (JumpTie).
+	// for a drift that can also jump at candidate weeks (jump.go). Either way
+	// an upper-funnel channel's two paths then drift together (DriftTie).
 	DriftShape string
-	// JumpsApart leaves an upper-funnel channel's two paths' jumps
-	// independent, without the JumpTie that DriftJumps has (for comparison
-	// only).
-	JumpsApart bool
+	// DriftsApart leaves an upper-funnel channel's two paths' drifts
+	// independent, without the DriftTie (for comparison only).
+	DriftsApart bool
 	// Baseline is "" for the default trend line, or BaselineSmooth for a
 	// baseline that moves: a smooth function of the week in its place.
 	Baseline string

@@ -143,7 +143,7 @@ const calibWeeks = 104
 // The drift that can jump, on the step scenarios alone over seeds 101-110,
 // 2026-12-03 at load 3-9, niced. With an upper channel's two paths' jumps
 // independent (model "jumps-apart", what --drift-shape jumps was before
-// model.JumpTie; 424 CPU s for the 20 fits): quarterly 90% coverage 0.881
+// model.DriftTie; 424 CPU s for the 20 fits): quarterly 90% coverage 0.881
 // (se 0.032) without and 0.884 (se 0.028) with the lift tests, against the
 // smooth drift's 0.866 and 0.869; gamma covered by 7 of 10 90% intervals
 // in both, but by 0 and 1 of 10 50% intervals, which fails the 50%
@@ -214,14 +214,20 @@ func TestDriftCalibration(t *testing.T) {
 		cases = some
 	}
 	// drift: the smooth drift; jumps: the drift that can jump
-	// (--drift-shape jumps, an upper-funnel channel's two paths' jumps
-	// tied); jumps-apart: the same with the two paths' jumps independent
-	// (model.Options.JumpsApart, only on demand); default: no drift
+	// (--drift-shape jumps); an upper-funnel channel's two paths' drifts
+	// tied in both (model.DriftTie); drift-apart and jumps-apart: the same
+	// with the two paths' drifts independent (model.Options.DriftsApart,
+	// only on demand); default: no drift
 	models := []string{"drift", "jumps", "default"}
 	if v := os.Getenv("SPILLWAY_DRIFT_MODELS"); v != "" {
 		models = strings.Split(v, ",")
+		for _, m := range models {
+			if !slices.Contains([]string{"drift", "jumps", "drift-apart", "jumps-apart", "default"}, m) {
+				t.Fatalf("SPILLWAY_DRIFT_MODELS: no model %q", m)
+			}
+		}
 	}
-	drifting := func(m string) bool { return m == "drift" || m == "jumps" || m == "jumps-apart" }
+	drifting := func(m string) bool { return m != "default" }
 	quantities := []string{"video_spend/via_search", "video_spend/direct", "audio_spend/via_search", "audio_spend/direct", "gamma"}
 	whole := map[string]*calibCount{}
 	quarters := map[string]*clusterCoverage{}
@@ -266,8 +272,9 @@ func TestDriftCalibration(t *testing.T) {
 					o.Drift = allDrift(tm.sc)
 				}
 				if m == "jumps" || m == "jumps-apart" {
-					o.DriftShape, o.JumpsApart = model.DriftJumps, m == "jumps-apart"
+					o.DriftShape = model.DriftJumps
 				}
+				o.DriftsApart = strings.HasSuffix(m, "-apart")
 				f, err := FitStages(ctx, tm.sc, o, tests, mcmc.Settings{Seed: seed, Chains: 2, Warmup: 200, Draws: 150}, nil)
 				if err != nil {
 					t.Fatal(err)

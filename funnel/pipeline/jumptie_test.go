@@ -18,16 +18,17 @@ import (
 	"spillway/mediation"
 )
 
-// TestJumpTieFit fits the demo with video and paid search drifting with
-// jumps and no lift test: video's two paths jump together (model.JumpTie),
+// TestDriftTieFit fits the demo with video and paid search drifting,
+// smoothly and with jumps, and no lift test: video's two paths drift together
+// (model.DriftTie),
 // so demand and outcome are one joint target (its sampler statistics are
 // both stages', the outcome's wall time 0); fitted chain by chain and put
 // together by Assemble, the draws and weekly multipliers are the whole
 // fit's (what the merge of a sharded fit rests on). With the ties left out
-// (Options.JumpsApart), or with paid search alone drifting with jumps (one
-// path), the stages are fitted apart as before. Short chains: the
+// (Options.DriftsApart), or with paid search alone drifting (one path), the
+// stages are fitted apart. Short chains: the
 // plumbing, not the posterior.
-func TestJumpTieFit(t *testing.T) {
+func TestDriftTieFit(t *testing.T) {
 	if testing.Short() {
 		t.Skip("short fits of the demo; skipped with -short")
 	}
@@ -36,14 +37,20 @@ func TestJumpTieFit(t *testing.T) {
 		t.Fatal(err)
 	}
 	sc := model.Scale(ds.National(), ds.Spec)
-	o := model.Options{Drift: map[string]bool{"video_spend": true, "search_spend": true}, DriftShape: model.DriftJumps}
 	set := mcmc.Settings{Chains: 2, Warmup: 40, Draws: 20, Seed: 11, MaxTreeDepth: 5}
 	ctx := context.Background()
+	for _, shape := range []string{model.DriftSmooth, model.DriftJumps} {
+		t.Run("shape "+shape, func(t *testing.T) { driftTieFit(t, ctx, sc, shape, set) })
+	}
+}
+
+func driftTieFit(t *testing.T, ctx context.Context, sc *model.Scaled, shape string, set mcmc.Settings) {
+	o := model.Options{Drift: map[string]bool{"video_spend": true, "search_spend": true}, DriftShape: shape}
 	st, err := Stages(sc, o)
 	if err != nil {
 		t.Fatal(err)
 	}
-	if ties := JumpTies(st[0], st[1], o); len(ties) != 1 || ties[0].Column != "video_spend" {
+	if ties := DriftTies(st[0], st[1], o); len(ties) != 1 || ties[0].Column != "video_spend" {
 		t.Fatalf("ties %+v, want video's alone", ties)
 	}
 	joint := func(f *Fitted) bool {
@@ -54,7 +61,7 @@ func TestJumpTieFit(t *testing.T) {
 		t.Fatal(err)
 	}
 	if !joint(whole) {
-		t.Error("video drifting with jumps: the demand and outcome stages were not fitted as one")
+		t.Error("video drifting: the demand and outcome stages were not fitted as one")
 	}
 	fits := byChain(t, set, func(s mcmc.Settings) ([3]*mcmc.Fit, error) {
 		f, err := FitLifts(ctx, sc, o, nil, s, nil)
@@ -69,8 +76,8 @@ func TestJumpTieFit(t *testing.T) {
 		t.Error("weekly multipliers differ")
 	}
 	apart := o
-	apart.JumpsApart = true
-	search := model.Options{Drift: map[string]bool{"search_spend": true}, DriftShape: model.DriftJumps}
+	apart.DriftsApart = true
+	search := model.Options{Drift: map[string]bool{"search_spend": true}, DriftShape: shape}
 	for _, oo := range []model.Options{apart, search} {
 		f, err := Fit(ctx, sc, oo, set, nil)
 		if err != nil {
@@ -125,7 +132,7 @@ func readStep(t *testing.T, label string, f *Fitted, tm truthModel, at int, trut
 // weeks: video's lift of the queries x2.08 and its direct effect x1.5 at
 // week 52), every channel drifting with jumps, demand and outcome at
 // 4 x (1000 + 1000), with video's two paths' jumps tied (--drift-shape
-// jumps) and apart (Options.JumpsApart), and requires the tie to bring
+// jumps) and apart (Options.DriftsApart), and requires the tie to bring
 // gamma's posterior mean and video's direct step nearer the truth.
 //
 // Measured 2026-12-03 with the jump weights sampled as asinh(2 u)
@@ -158,7 +165,7 @@ func TestJumpTieStep(t *testing.T) {
 	}
 	var got [2]jumpStep
 	for k, apart := range []bool{false, true} {
-		o := model.Options{Drift: allDrift(tm.sc), DriftShape: model.DriftJumps, JumpsApart: apart}
+		o := model.Options{Drift: allDrift(tm.sc), DriftShape: model.DriftJumps, DriftsApart: apart}
 		c0, _ := usage()
 		f, err := FitStages(context.Background(), tm.sc, o, nil, set, nil)
 		if err != nil {
@@ -228,21 +235,21 @@ func sameDraws(t *testing.T, a, b [3]*mcmc.Fit) {
 	}
 }
 
-// TestPriorInputsJumpsApart checks that the prior draws behind the support
-// verdict follow the fit's jumps: tied (the default), video's two paths'
-// jump weights share their Student-t mixing variable, so both exceed 3 in
+// TestPriorInputsDriftsApart checks that the prior draws behind the support
+// verdict follow the fit's drift tie: tied (the default), video's two
+// paths' smooth weights have correlation model.DriftTieCorr and its jump weights share their Student-t mixing variable, so both exceed 3 in
 // size far more often than two independent t_3 weights would (P(|t_3| > 3)
-// about 0.058, so about 0.0034 of pairs); apart (Options.JumpsApart), they
+// about 0.058, so about 0.0034 of pairs); apart (Options.DriftsApart), they
 // are each stage's own draws and the joint rate is the product of the
-// marginal ones.
-func TestPriorInputsJumpsApart(t *testing.T) {
+// marginal ones and the smooth weights uncorrelated.
+func TestPriorInputsDriftsApart(t *testing.T) {
 	ds, err := data.Load("../../testdata/demo/data.csv", scenario.Spec)
 	if err != nil {
 		t.Fatal(err)
 	}
 	sc := model.Scale(ds.National(), ds.Spec)
 	for _, apart := range []bool{false, true} {
-		o := model.Options{Drift: map[string]bool{"video_spend": true}, DriftShape: model.DriftJumps, JumpsApart: apart}
+		o := model.Options{Drift: map[string]bool{"video_spend": true}, DriftShape: model.DriftJumps, DriftsApart: apart}
 		st, err := Stages(sc, o)
 		if err != nil {
 			t.Fatal(err)
@@ -254,10 +261,14 @@ func TestPriorInputsJumpsApart(t *testing.T) {
 		}
 		dc, _ := st[0].Layout().Channel("video_spend")
 		yc, _ := st[1].Layout().Channel("video_spend")
-		J := dc.Drift.Basis.J()
-		var both, a, d, n float64
+		J, M := dc.Drift.Basis.J(), dc.Drift.Basis.M
+		var both, a, d, n, zz, nz float64
 		for i, rd := range pin.DemandDraws.Rows {
 			ry := pin.OutcomeDraws.Rows[i]
+			for k := 0; k < M; k++ {
+				zz += rd[dc.Drift.Z+k] * ry[yc.Drift.Z+k]
+				nz++
+			}
 			for k := 1; k <= J; k++ {
 				ea, ed := math.Abs(rd[dc.Drift.Jump+k]) > 3, math.Abs(ry[yc.Drift.Jump+k]) > 3
 				n++
@@ -279,6 +290,16 @@ func TestPriorInputsJumpsApart(t *testing.T) {
 		}
 		if !apart && ratio < 3 {
 			t.Errorf("jumps tied: joint exceedance %.2f times the product of the marginals, want well above 1", ratio)
+		}
+		// the smooth weights: mean product rho tied, 0 apart (standard error
+		// about sqrt(1.64 / nz), 0.006)
+		c, want := zz/nz, model.DriftTieCorr
+		if apart {
+			want = 0
+		}
+		t.Logf("apart %v: smooth weights' mean product %.4f over %d pairs", apart, c, int(nz))
+		if math.Abs(c-want) > 0.04 {
+			t.Errorf("apart %v: the two paths' smooth weights have mean product %.4f, want %v", apart, c, want)
 		}
 	}
 }

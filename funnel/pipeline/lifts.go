@@ -21,7 +21,7 @@ import (
 // demand and the outcome stage (via search needs alpha and gamma), so then
 // the two are fitted as one joint target (model.Joint) with every test; with
 // tests of the queries alone, the demand stage is fitted with them and the
-// outcome stage on its own, unless a return prior or a jump tie (JumpTies)
+// outcome stage on its own, unless a return prior or a drift tie (DriftTies)
 // joins them as in Fit. The naive stage is always fitted on its own,
 // without tests: it is the cross-check of what a model without the query
 // term credits to paid search. The joint fit uses seed s.Seed and its wall
@@ -88,7 +88,7 @@ func fitLifts(ctx context.Context, sc *model.Scaled, o model.Options, tests []li
 // bindLifts sets f.Lifts, the terms of f.Tests in the likelihood, bound
 // to f's stages in the joint target they are sampled in: the demand stage,
 // and the outcome stage too when a test of the outcome, a return prior or
-// a jump tie ties them (the priors and ties join the target's terms). It
+// a drift tie ties them (the priors and ties join the target's terms). It
 // returns the stages of that target and the target.
 func bindLifts(f *Fitted, o model.Options) ([]*model.Stage, *model.Joint, error) {
 	st := f.Stages
@@ -99,10 +99,10 @@ func bindLifts(f *Fitted, o model.Options) ([]*model.Stage, *model.Joint, error)
 			break
 		}
 	}
-	ties := JumpTies(st[0], st[1], o)
+	ties := DriftTies(st[0], st[1], o)
 	if (len(o.Returns) > 0 || len(ties) > 0) && len(joint) == 1 {
-		// a return prior ties alpha to gamma and delta; a jump tie alpha's
-		// jumps to delta's
+		// a return prior ties alpha to gamma and delta; a drift tie alpha's
+		// drift to delta's
 		joint = append(joint, st[1])
 	}
 	f.Lifts = nil

@@ -119,8 +119,9 @@ func (c Choices) Options(sc *model.Scaled) (model.Options, error) {
 			return o, fmt.Errorf("%s: %w", c.Priors, err)
 		}
 	}
-	if ties := JumpTies(st[0], st[1], o); len(ties) > 0 {
-		// a prior on a jump weight must leave the tie a Student-t to join
+	if ties := DriftTies(st[0], st[1], o); len(ties) > 0 {
+		// a prior on a drift weight must leave the tie its normal smooth
+		// weights and Student-t jump weights to join
 		cross := make([]model.CrossTerm, len(ties))
 		for i, t := range ties {
 			cross[i] = t

@@ -38,7 +38,7 @@ type PanelFitted struct {
 // one after another, stage k with seed s.Seed + k, a zero TargetAccept
 // meaning PanelOutcomeAccept for the outcome stage and DefaultTargetAccept
 // for the others. hook may be nil. With an upper channel's
-// jumps tied across its two paths (JumpTies) the demand and outcome panels
+// drift tied across its two paths (DriftTies) the demand and outcome panels
 // are one joint fit, as FitPanelLifts fits them.
 func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
 	panels, err := model.PanelStages(ps, o)

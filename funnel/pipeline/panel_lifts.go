@@ -12,7 +12,7 @@ import (
 // FitPanelLifts is FitPanel with lift tests as data, as FitLifts is Fit: a
 // test of the outcome ties the demand and the outcome panel (region g's
 // via search needs alpha[c,g] and gamma[g]), as does an upper channel's
-// two paths' jumps (JumpTies, on the multiplier every region shares), so
+// two paths' drift (DriftTies, on the multiplier every region shares), so
 // the two are then fitted as one joint target (model.PanelJoint) with
 // every test and tie; with tests of the
 // queries alone, the demand panel is fitted with them and the outcome panel
@@ -90,7 +90,7 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 
 // bindLifts sets f.Lifts, the terms of f.Tests, bound to the panels in the
 // joint target they are sampled in: the demand panel, and the outcome panel
-// too when a test of the outcome or a jump tie ties them (the ties join
+// too when a test of the outcome or a drift tie ties them (the ties join
 // the target, PanelJoint.Tie). It returns that target.
 func (f *PanelFitted) bindLifts() (*model.PanelJoint, error) {
 	joint := []*model.Panel{f.Panels[0]}
@@ -115,10 +115,10 @@ func (f *PanelFitted) bindLifts() (*model.PanelJoint, error) {
 	return j, j.Tie(ties...)
 }
 
-// panelTies are JumpTies of the panels' shared drifts: the jumps of the
-// multiplier every region shares, tied as nationally (PanelJoint.Tie).
-func panelTies(panels [3]*model.Panel, o model.Options) []*model.JumpTie {
-	return JumpTies(panels[0].Stages[0], panels[1].Stages[0], o)
+// panelTies are DriftTies of the panels' shared drifts: the multiplier
+// every region shares, tied as nationally (PanelJoint.Tie).
+func panelTies(panels [3]*model.Panel, o model.Options) []*model.DriftTie {
+	return DriftTies(panels[0].Stages[0], panels[1].Stages[0], o)
 }
 
 // CheckLifts is Fitted.CheckLifts for a region panel fitted with lift

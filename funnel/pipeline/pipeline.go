@@ -71,15 +71,15 @@ func Stages(sc *model.Scaled, o model.Options) ([3]*model.Stage, error) {
 	return out, nil
 }
 
-// JumpTies returns the ties (model.JumpTie, not bound) of the two paths'
-// jumps of every upper-funnel channel drifting with jumps in the demand
-// and the outcome stage, parts 0 and 1 of their joint target; none with
-// o.JumpsApart. A tie makes the two stages one joint fit.
-func JumpTies(demand, outcome *model.Stage, o model.Options) []*model.JumpTie {
-	if o.JumpsApart {
+// DriftTies returns the ties (model.DriftTie, not bound) of the two paths'
+// drifts of every upper-funnel channel drifting in the demand and the
+// outcome stage, parts 0 and 1 of their joint target; none with
+// o.DriftsApart. A tie makes the two stages one joint fit.
+func DriftTies(demand, outcome *model.Stage, o model.Options) []*model.DriftTie {
+	if o.DriftsApart {
 		return nil
 	}
-	return model.JumpTies(demand, outcome, 0, 1)
+	return model.DriftTies(demand, outcome, 0, 1)
 }
 
 // Known reports whether name is a parameter of any of the stages.
@@ -139,7 +139,7 @@ type StageHook func(stage string) (mcmc.Recorder, func())
 // a target holding a drift that can jump). hook may be nil.
 //
 // With return priors (o.Returns), or an upper-funnel channel whose two
-// paths drift with jumps (JumpTies), the demand and the outcome stage are
+// paths drift (DriftTies), the demand and the outcome stage are
 // fitted as one joint target with the priors and the ties as its cross
 // terms, as FitLifts does.
 func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings, hook StageHook) (*Fitted, error) {
@@ -147,7 +147,7 @@ func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings
 	if err != nil {
 		return nil, err
 	}
-	if len(o.Returns) > 0 || len(JumpTies(st[0], st[1], o)) > 0 {
+	if len(o.Returns) > 0 || len(DriftTies(st[0], st[1], o)) > 0 {
 		return fitLifts(ctx, sc, o, nil, s, hook, true)
 	}
 	f := &Fitted{Data: sc, Stages: st}
@@ -166,7 +166,7 @@ func Fit(ctx context.Context, sc *model.Scaled, o model.Options, s mcmc.Settings
 // Inputs pairs the fits' draws for the effect split.
 func (f *Fitted) Inputs() *mediation.Inputs {
 	in := Pair(f.Data, f.Stages, f.Fits)
-	in.JumpsApart = f.options.JumpsApart
+	in.DriftsApart = f.options.DriftsApart
 	return in
 }
 

@@ -15,7 +15,7 @@ import (
 
 // fitTests is fit with lift tests as data and the stated return priors
 // restated on sc (pipeline.FitStages: the two stages as one joint target
-// when a test is of the outcome, a return prior or a jump tie ties them);
+// when a test is of the outcome, a return prior or a drift tie ties them);
 // with none of them, fit itself, so a sweep without them is unchanged.
 func (sw *Sweep) fitTests(ctx context.Context, sc *model.Scaled, seed uint64, tests []lifts.Test) (*fitted, error) {
 	if len(tests) == 0 && len(sw.in.Options.Returns) == 0 && !sw.tied {

@@ -206,7 +206,7 @@ func (sw *Sweep) fitPanel(ctx context.Context, ps *model.PanelScaled, seed uint6
 }
 
 // fitPanelTests is fitPanel with lift tests as data (pipeline.FitPanelStages:
-// with a test of the outcome, or an upper channel's jumps tied across the
+// with a test of the outcome, or an upper channel's drift tied across the
 // two paths, the demand and outcome panels as one joint target; seeds as
 // fitPanel's); without tests or ties, fitPanel itself, so a sweep without
 // them is unchanged.

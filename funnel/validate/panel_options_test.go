@@ -247,9 +247,10 @@ func TestPanelSweepTakesOptions(t *testing.T) {
 					t.Errorf("%s: the refit takes the tests on lines %v, want %v", kind, got, wantLines)
 				}
 				outcomeTest := slices.ContainsFunc(r.tests, func(x lifts.Test) bool { return x.Metric == model.LiftOutcome })
-				// video's two paths' jumps tied tie the panels too
-				if tied := shape == model.DriftJumps; r.joint != (outcomeTest || tied) {
-					t.Errorf("%s: demand and outcome fitted as one run: %v; a test of the outcome among its tests: %v; jumps tied: %v", kind, r.joint, outcomeTest, tied)
+				// video's two paths' drifts, tied in either shape (model.DriftTie),
+				// tie the panels too
+				if tied := sw.tied; !tied || r.joint != (outcomeTest || tied) {
+					t.Errorf("%s: demand and outcome fitted as one run: %v; a test of the outcome among its tests: %v; drifts tied: %v", kind, r.joint, outcomeTest, tied)
 				}
 				want := []string{"drift_sd_alpha[video_spend]", "drift_sd_delta[video_spend]"}
 				if shape == model.DriftJumps {

@@ -271,8 +271,8 @@ type Sweep struct {
 	gen      *generator
 	manifest Manifest
 	pan      *panelSweep // nil for a national sweep
-	// tied: an upper-funnel channel's two paths jump together
-	// (pipeline.JumpTies), so every refit is one joint fit of both stages
+	// tied: an upper-funnel channel's two paths drift together
+	// (pipeline.DriftTies), so every refit is one joint fit of both stages
 	tied bool
 }
 
@@ -302,7 +302,7 @@ func New(in Input, s Settings) (*Sweep, error) {
 		}
 	}
 	sw.windows = window.Quarters(in.Series.Weeks)
-	sw.tied = len(pipeline.JumpTies(sw.stages[0], sw.stages[1], in.Options)) > 0
+	sw.tied = len(pipeline.DriftTies(sw.stages[0], sw.stages[1], in.Options)) > 0
 	if in.Panel != nil {
 		if sw.pan, err = newPanel(in, set); err != nil {
 			return nil, err
