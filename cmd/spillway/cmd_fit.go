@@ -44,7 +44,7 @@ type samplingFlags struct {
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
-	fs.Float64Var(&s.targetAccept, "target-accept", 0, "the acceptance rate the step size adapts to during warm-up (default 0.9; 0.95 for a national fit with --drift-shape jumps; 0.99 for a region panel's outcome stage, whose warm-up adapts at 0.9 until its last window); raise it (0.95; on a panel, where it applies to every stage, 0.995) if the verdict reports divergent transitions")
+	fs.Float64Var(&s.targetAccept, "target-accept", 0, "the acceptance rate the step size adapts to during warm-up (default 0.9; 0.95 for a national fit with --drift; 0.99 for a region panel's outcome stage, whose warm-up adapts at 0.9 until its last window); raise it (0.95; on a panel, where it applies to every stage, 0.995) if the verdict reports divergent transitions")
 	fs.StringVar(&s.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data: channel,start,end,estimate,se[,metric,region]")
 	s.labels.addFlags(fs)
 	fs.BoolVar(&s.national, "national", false, "fit regional data (--region) as their national sum, one series, as national data are fitted")
@@ -159,13 +159,14 @@ coefficient is multiplied by a smooth function of the week whose logarithm
 averages 0 over the data, its smoothness learned (the cross-check refit
 without the query term does not drift); FOLDER/drift.csv holds each weekly
 multiplier with its 90% interval and FOLDER/drift_change.csv the last full
-quarter's against the first's. --drift-shape jumps lets the drift also
-jump, at candidate weeks about a month apart, for a sudden change such as
-a creative refresh, which a smooth drift spreads over months; an
-upper-funnel channel's two paths (its lift of the queries and its direct
-effect) then tend to jump in the same week, which ties the two stages, so
-they are fitted as one. --baseline smooth puts a smooth function
-of time in place of the trend line. --lifts FILE adds lift tests as data
+quarter's against the first's. An upper-funnel channel's two paths (its
+lift of the queries and its direct effect) are taken to drift together,
+as a new creative or its wearing out moves both: that ties the two
+stages, so they are fitted as one. --drift-shape jumps lets the drift
+also jump, at candidate weeks about a month apart, for a sudden change
+such as a creative refresh, which a smooth drift spreads over months; the
+two paths then tend to jump in the same week. --baseline smooth puts a
+smooth function of time in place of the trend line. --lifts FILE adds lift tests as data
 (channel,start,end,estimate,se and optionally metric, outcome or queries):
 removing the channel's spend from start to end (week start dates) lowered
 the metric summed over those weeks by estimate; an outcome test ties the

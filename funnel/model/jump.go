@@ -37,7 +37,7 @@ import "fmt"
 // 4 x (1000 + 1000)) had least ESS 278 at target acceptance 0.95 (a paid
 // search weight); in asinh(2 u_k) the tails are exponential: least ESS
 // 1,296, max R-hat 1.005 and no divergent transition at 0.95
-// (pipeline.JumpsAccept; 15 at 0.9).
+// (pipeline.DriftAccept; 15 at 0.9).
 // Evaluating it costs O(T + J): a running sum over the weeks forward, and
 // a suffix sum of d lp / d f backward.
 const (

@@ -137,7 +137,7 @@ func readStep(t *testing.T, label string, f *Fitted, tm truthModel, at int, trut
 //
 // Measured 2026-12-03 with the jump weights sampled as asinh(2 u)
 // (model.HeavyReal) at the fit's default target acceptance for jumps, 0.95
-// (pipeline.JumpsAccept), idle machine: tied, gamma 0.405 [0.208, 0.589]
+// (pipeline.DriftAccept), idle machine: tied, gamma 0.405 [0.208, 0.589]
 // against a true 0.386, the direct step 1.37 [0.93, 1.89] (true 1.50), the
 // queries' step 2.17 [1.82, 2.59] (true 2.08), R-hat 1.007, least ESS 931,
 // no divergent transition, 121 CPU s; apart, gamma 0.470 [0.305, 0.620],

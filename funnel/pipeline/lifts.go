@@ -156,13 +156,13 @@ func settings(s mcmc.Settings, k int, sts ...*model.Stage) mcmc.Settings {
 }
 
 // StageAccept is the target acceptance of a national fit's target holding
-// the stages sts when its settings set none: JumpsAccept when a channel of
-// one of them drifts with jumps, else DefaultTargetAccept.
+// the stages sts when its settings set none: DriftAccept when a channel of
+// one of them drifts, else DefaultTargetAccept.
 func StageAccept(sts ...*model.Stage) float64 {
 	for _, st := range sts {
 		for _, c := range st.Layout().Channels() {
-			if c.Drift.Jump >= 0 {
-				return JumpsAccept
+			if c.Drift.Has() {
+				return DriftAccept
 			}
 		}
 	}
