@@ -60,7 +60,7 @@ type DriftTie struct {
 	Demand, Outcome int
 
 	za, zd, m int     // the first smooth weight's position in each stage's values; the weights
-	rho       float64 // the smooth weights' correlation
+	rho, zc   float64 // the smooth weights' correlation; their log ratio's constant, -log(1 - rho^2)/2
 	a, d      int     // the first jump weight's position in each stage's values
 	n         int     // the candidate weeks (0: no jumps)
 	nu, s     float64 // the jump weights' Student-t
@@ -105,16 +105,13 @@ func DriftTies(demand, outcome *Stage, d, o int) []*DriftTie {
 // their layouts and checks that both carry the standard normal on every
 // smooth weight and the same Student-t on every jump weight.
 func (j *DriftTie) Bind(pts []Point) error {
-	bad := func(f string, args ...any) error {
-		return fmt.Errorf("drift tie of %s: "+f, append([]any{j.Column}, args...)...)
-	}
 	if j.Demand < 0 || j.Demand >= len(pts) || j.Outcome < 0 || j.Outcome >= len(pts) || j.Demand == j.Outcome {
-		return bad("stages %d and %d of %d", j.Demand, j.Outcome, len(pts))
+		return j.errorf("stages %d and %d of %d", j.Demand, j.Outcome, len(pts))
 	}
 	drift := func(pt Point) (SmoothSlots, error) {
 		c, ok := pt.Layout.Channel(j.Column)
 		if !ok || !c.Drift.Has() {
-			return SmoothSlots{}, bad("the %s stage has no such channel drifting", pt.Stage.Name)
+			return SmoothSlots{}, j.errorf("the %s stage has no such channel drifting", pt.Stage.Name)
 		}
 		return c.Drift, nil
 	}
@@ -127,52 +124,44 @@ func (j *DriftTie) Bind(pts []Point) error {
 		return err
 	}
 	if sa.Basis.M != sd.Basis.M || sa.Basis.L != sd.Basis.L || sa.Basis.T != sd.Basis.T {
-		return bad("the stages' smooth bases differ")
+		return j.errorf("the stages' smooth bases differ")
 	}
 	if (sa.Jump >= 0) != (sd.Jump >= 0) {
-		return bad("one stage's drift can jump, the other's cannot")
+		return j.errorf("one stage's drift can jump, the other's cannot")
 	}
-	for k := 0; k < sa.Basis.M; k++ {
-		for _, w := range []struct {
-			pt   Point
-			slot int
-		}{{pts[j.Demand], sa.Z + k}, {pts[j.Outcome], sd.Z + k}} {
-			name := w.pt.Layout.Names()[w.slot]
-			if p := w.pt.Stage.prior(name); p == nil {
-				return bad("the %s stage has no parameter %s", w.pt.Stage.Name, name)
-			} else if *p != PriorWeight {
-				return bad("%s has the prior %v; tying the two paths' drifts needs %v on every smooth weight", name, *p, PriorWeight)
-			}
+	err = j.pairPriors(pts, sa.Z, sd.Z, sa.Basis.M, func(name string, p Prior) error {
+		if p != PriorWeight {
+			return j.errorf("%s has the prior %v; tying the two paths' drifts needs %v on every smooth weight", name, p, PriorWeight)
 		}
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	j.za, j.zd, j.m, j.rho = sa.Z, sd.Z, sa.Basis.M, DriftTieCorr
+	j.zc = -0.5 * math.Log(1-j.rho*j.rho)
 	j.n, j.nu, j.s, j.c = 0, 0, 0, 0
 	if sa.Jump < 0 {
 		return nil
 	}
 	a, d, na := sa.Jump+1, sd.Jump+1, sa.Basis.J()
 	if na != sd.Basis.J() || !slices.Equal(pts[j.Demand].Layout.channelJumps(j.Column), pts[j.Outcome].Layout.channelJumps(j.Column)) {
-		return bad("the stages' candidate weeks differ")
+		return j.errorf("the stages' candidate weeks differ")
 	}
-	var first Prior
-	for k := 0; k < na; k++ {
-		for _, w := range []struct {
-			pt   Point
-			slot int
-		}{{pts[j.Demand], a + k}, {pts[j.Outcome], d + k}} {
-			name := w.pt.Layout.Names()[w.slot]
-			p := w.pt.Stage.prior(name)
-			switch {
-			case p == nil:
-				return bad("the %s stage has no parameter %s", w.pt.Stage.Name, name)
-			case p.Family != StudentT || !(p.P1 > 0) || !(p.P2 > 0):
-				return bad("%s has the prior %v; tying the two paths' jumps needs a Student-t on every jump weight", name, *p)
-			case k == 0 && w.slot == a:
-				first = *p
-			case *p != first:
-				return bad("%s has the prior %v and %s %v; tying the two paths' jumps needs one Student-t on all of them", name, *p, pts[j.Demand].Layout.Names()[a], first)
-			}
+	var first *Prior
+	err = j.pairPriors(pts, a, d, na, func(name string, p Prior) error {
+		switch {
+		case p.Family != StudentT || !(p.P1 > 0) || !(p.P2 > 0):
+			return j.errorf("%s has the prior %v; tying the two paths' jumps needs a Student-t on every jump weight", name, p)
+		case first == nil:
+			first = &p
+		case p != *first:
+			return j.errorf("%s has the prior %v and %s %v; tying the two paths' jumps needs one Student-t on all of them", name, p, pts[j.Demand].Layout.Names()[a], *first)
 		}
+		return nil
+	})
+	if err != nil {
+		return err
 	}
 	j.a, j.d, j.n, j.nu, j.s = a, d, na, first.P1, first.P2
 	// log of Gamma((nu+2)/2) / (Gamma(nu/2) nu pi s^2) over the square of
@@ -181,6 +170,33 @@ func (j *DriftTie) Bind(pts []Point) error {
 	l0, _ := math.Lgamma(j.nu / 2)
 	l1, _ := math.Lgamma((j.nu + 1) / 2)
 	j.c = l2 + l0 - 2*l1
+	return nil
+}
+
+// errorf is an error of the tie, naming its channel.
+func (j *DriftTie) errorf(f string, args ...any) error {
+	return fmt.Errorf("drift tie of %s: "+f, append([]any{j.Column}, args...)...)
+}
+
+// pairPriors calls check with the name and prior of each of n pairs'
+// weights, the demand stage's from its value a and the outcome stage's from
+// d, demand first in each pair.
+func (j *DriftTie) pairPriors(pts []Point, a, d, n int, check func(name string, p Prior) error) error {
+	for k := 0; k < n; k++ {
+		for _, w := range [2]struct {
+			pt   Point
+			slot int
+		}{{pts[j.Demand], a + k}, {pts[j.Outcome], d + k}} {
+			name := w.pt.Layout.Names()[w.slot]
+			p := w.pt.Stage.prior(name)
+			if p == nil {
+				return j.errorf("the %s stage has no parameter %s", w.pt.Stage.Name, name)
+			}
+			if err := check(name, *p); err != nil {
+				return err
+			}
+		}
+	}
 	return nil
 }
 
@@ -204,7 +220,7 @@ func (j *DriftTie) LogDensity(pts []Point, grad bool) float64 {
 		q := 1 - r*r
 		for k := range za {
 			a, d := za[k], zd[k]
-			lp += -0.5*math.Log(q) - (a*a-2*r*a*d+d*d)/(2*q) + (a*a+d*d)/2
+			lp += j.zc - (a*a-2*r*a*d+d*d)/(2*q) + (a*a+d*d)/2
 			if grad {
 				pa.Grad[j.za+k] += a - (a-r*d)/q
 				pd.Grad[j.zd+k] += d - (d-r*a)/q
