@@ -94,6 +94,11 @@ type Basis struct {
 	L       float64   // half-width of the domain, weeks
 	sqrtLam []float64 // sqrt(lambda_j) = pi j / (2 L)
 	phi     []float64 // T x M, row t: phi~_j(t)
+	// col[j] is phi~_j over the weeks, the same values by column: f and
+	// the gradient's projection run over weeks for several j at once
+	// (axpys, dots), independent sums side by side, where a row at a time
+	// waits on one running sum per week.
+	col [][]float64
 	// jumps are the candidate weeks of a drift that can jump (jump.go),
 	// none for a smooth function; jmean[k] the share of the fitted weeks
 	// at or after jumps[k].
@@ -144,6 +149,14 @@ func NewBasis(T int, mask []bool) *Basis {
 			b.phi[t*M+j] -= means[j]
 		}
 	}
+	b.col = make([][]float64, M)
+	cols := make([]float64, M*T)
+	for j := range b.col {
+		b.col[j] = cols[j*T : (j+1)*T : (j+1)*T]
+		for t := range b.col[j] {
+			b.col[j][t] = b.phi[t*M+j]
+		}
+	}
 	return b
 }
 
@@ -166,7 +179,7 @@ func (b *Basis) scales(s, ds []float64, sd, ell float64) {
 func (b *Basis) Eval(dst []float64, sd, ell float64, z []float64) []float64 {
 	dst = resizeTo(dst, b.T)
 	var buf [64]float64
-	b.apply(dst, b.coefs(buf[:0], sd, ell, z), 0, b.T)
+	b.apply(dst, b.coefs(buf[:0], sd, ell, z), 0, b.T, nil)
 	return dst
 }
 
@@ -195,17 +208,23 @@ func (b *Basis) at(t int, c []float64) float64 {
 	return v
 }
 
-// apply writes sum_j c_j phi~_j(t) into f[t] for t in [lo, hi).
-func (b *Basis) apply(f, c []float64, lo, hi int) {
-	M := b.M
-	for t := lo; t < hi; t++ {
-		row := b.phi[t*M : t*M+M]
-		v := 0.0
-		for j, p := range row {
-			v += p * c[j]
-		}
-		f[t] = v
+// apply writes sum_j c_j phi~_j(t) into f[t] for t in [lo, hi), the terms
+// added in the order of j (the bits of a loop over j per week); win is
+// scratch of len M for the columns' windows.
+func (b *Basis) apply(f, c []float64, lo, hi int, win [][]float64) {
+	axpys(f[lo:hi], 0, c, b.window(win, lo, hi))
+}
+
+// window returns the columns over the weeks [lo, hi): col itself for every
+// week, else win filled with the columns' sub-slices.
+func (b *Basis) window(win [][]float64, lo, hi int) [][]float64 {
+	if lo == 0 && hi == b.T {
+		return b.col
 	}
+	for j, c := range b.col {
+		win[j] = c[lo:hi]
+	}
+	return win
 }
 
 // smoothParams returns the parameters of a smooth function: its sd, its
@@ -256,6 +275,7 @@ type smoothEval struct {
 	jsd       int // position of the jumps' scale, -1 without jumps
 	s, ds, c  []float64
 	f, p, pj  []float64
+	win       [][]float64 // scratch: the basis columns' windows
 	sdv, ellv float64
 }
 
@@ -273,6 +293,7 @@ func (e *smoothEval) alloc() {
 	e.s, e.ds, e.c, e.p = make([]float64, M), make([]float64, M), make([]float64, M), make([]float64, M)
 	e.f = make([]float64, e.b.T)
 	e.pj = make([]float64, e.b.J())
+	e.win = make([][]float64, M)
 }
 
 // full returns f over every week at the natural values v (allocating: for
@@ -299,7 +320,7 @@ func (e *smoothEval) eval(nat []float64, lo, hi int) {
 	for j, s := range e.s {
 		e.c[j] = s * z[j]
 	}
-	e.b.apply(e.f, e.c, lo, hi)
+	e.b.apply(e.f, e.c, lo, hi, e.win)
 	if e.jsd >= 0 {
 		e.b.addJumps(e.f, nat[e.jsd], nat[e.jsd+1:e.jsd+1+e.b.J()], lo, hi)
 	}
@@ -312,16 +333,7 @@ func (e *smoothEval) backward(g, nat, r []float64, lo, hi int) {
 	M := e.b.M
 	p := e.p
 	clear(p)
-	for t := lo; t < hi; t++ {
-		rt := r[t]
-		if rt == 0 {
-			continue
-		}
-		row := e.b.phi[t*M : t*M+M]
-		for j, v := range row {
-			p[j] += v * rt
-		}
-	}
+	dots(p, r[lo:hi], e.b.window(e.win, lo, hi))
 	z := nat[e.z : e.z+M]
 	gz := g[e.z : e.z+M]
 	var gsd, gell float64
