@@ -161,6 +161,54 @@ func driftScenario(t testing.TB, name string) (*scenario.Result, truthModel) {
 	return driftReplicate(t, name, 11, 0)
 }
 
+// priorDrift draws a replicate's weekly multipliers from the drift model's
+// own prior, every spend column drifting and an upper channel's two paths
+// tied (model.DriftTie), through the stages a fit of the replicate builds:
+// a truth the model can express, drawn as the model says truths are, the
+// rest of the truth the demo's. Its own stream, from the seed.
+func priorDrift(t testing.TB, s *scenario.Scenario, seed uint64) *scenario.Drift {
+	t.Helper()
+	res, err := s.Simulate() // the layout the fit will have; the data do not matter
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := model.Scale(res.Data.National(), res.Data.Spec)
+	o := model.Options{Drift: allDrift(sc)}
+	dem, err := model.Demand(sc, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	out, err := model.Outcome(sc, o)
+	if err != nil {
+		t.Fatal(err)
+	}
+	rng := rand.New(rand.NewPCG(seed, 0xd41f7))
+	vd, err := dem.PriorDraw(nil, rng)
+	if err != nil {
+		t.Fatal(err)
+	}
+	vy, err := out.PriorDraw(nil, rng)
+	if err != nil {
+		t.Fatal(err)
+	}
+	ties, err := model.DriftTieDraws(dem, out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, tie := range ties {
+		tie.Draw(vd, vy, rng)
+	}
+	mult := func(st *model.Stage, v []float64, col string) []float64 {
+		return st.Layout().View(v).Multiplier(make([]float64, sc.T), st.ChannelIndex(col))
+	}
+	d := &scenario.Drift{Search: mult(out, vy, sc.SearchNames[0])}
+	for _, col := range sc.UpperNames {
+		d.Demand = append(d.Demand, mult(dem, vd, col))
+		d.Direct = append(d.Direct, mult(out, vy, col))
+	}
+	return d
+}
+
 // driftReplicate is driftScenario with the demo scenario's seed and length
 // given (weeks 0: its 156): the same truth and drift over the weeks
 // there are, another draw of spend, noise and paid search.
@@ -196,6 +244,8 @@ func driftReplicate(t testing.TB, name string, seed uint64, weeks int) (*scenari
 			})
 		}
 		s.P.Drift = &scenario.Drift{Demand: [][]float64{step(0.65, 1.35)}, Direct: [][]float64{step(0.8, 1.2)}}
+	case "prior":
+		s.P.Drift = priorDrift(t, s, seed)
 	default:
 		t.Fatalf("no drift scenario %q", name)
 	}
