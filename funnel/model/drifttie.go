@@ -32,15 +32,16 @@ import (
 // still its own.
 //
 // The jump weights, candidate week by candidate week: (ua_k, ud_k) the
-// bivariate Student-t(nu) with scale s I, the two weights sharing one gamma
-// mixing variable,
+// bivariate Student-t(nu) with scale matrix s^2 [1 rho; rho 1], the same
+// rho as the smooth weights', the two weights sharing one gamma mixing
+// variable,
 //
-//	log p(ua, ud) = c - (nu+2)/2 log(1 + (ua^2 + ud^2) / (nu s^2)),
+//	log p(ua, ud) = c - (nu+2)/2 log(1 + (ua^2 - 2 rho ua ud + ud^2) / ((1 - rho^2) nu s^2)),
 //
 // whose marginals are the stages' own t_nu; a large jump in one path makes
-// one in the other at the same week far less penalised (given ua, ud is
-// t_{nu+1} with scale s sqrt((nu + ua^2/s^2) / (nu + 1))), in either
-// direction.
+// one in the other at the same week far less penalised, the more so in the
+// same direction (given ua, ud is t_{nu+1} at rho ua with scale
+// s sqrt((nu + ua^2/s^2) (1 - rho^2) / (nu + 1))).
 //
 // Why (issue 13): a creative refresh, or creative wearing out, moves both
 // paths at once. With the paths apart the demand stage finds the change in
@@ -68,7 +69,8 @@ type DriftTie struct {
 }
 
 // DriftTieCorr is the prior correlation of an upper-funnel channel's two
-// paths' smooth drift weights at each frequency. At 0.8 each of the direct
+// paths' smooth drift weights at each frequency, and the correlation of
+// their jump weights' bivariate t at each candidate week. At 0.8 each of the direct
 // effect's weights, given the queries' weight z, is N(0.8 z, 0.6^2): a
 // strong lean, as a refresh or wear-out of the creative is the common cause
 // of both; a direct effect moving on its own is still possible where the
@@ -169,7 +171,7 @@ func (j *DriftTie) Bind(pts []Point) error {
 	l2, _ := math.Lgamma(j.nu/2 + 1)
 	l0, _ := math.Lgamma(j.nu / 2)
 	l1, _ := math.Lgamma((j.nu + 1) / 2)
-	j.c = l2 + l0 - 2*l1
+	j.c = l2 + l0 - 2*l1 + j.zc // and -log(1 - rho^2)/2, as the smooth part's
 	return nil
 }
 
@@ -228,15 +230,18 @@ func (j *DriftTie) LogDensity(pts []Point, grad bool) float64 {
 		}
 	}
 	ua, ud := pa.Values[j.a:j.a+j.n], pd.Values[j.d:j.d+j.n]
-	nu, s2 := j.nu, j.s*j.s
+	nu, s2, r := j.nu, j.s*j.s, j.rho
+	qs2 := (1 - r*r) * s2
 	for k := range ua {
 		a, d := ua[k]*ua[k]/s2, ud[k]*ud[k]/s2
-		qa, qd, q := nu+a, nu+d, nu+a+d
+		qa, qd := nu+a, nu+d
+		q := nu + (ua[k]*ua[k]-2*r*ua[k]*ud[k]+ud[k]*ud[k])/qs2
 		lp += j.c - 0.5*(nu+2)*math.Log(q/nu) + 0.5*(nu+1)*(math.Log(qa/nu)+math.Log(qd/nu))
 		if grad {
-			// d/du of -(nu+2)/2 log q + (nu+1)/2 log q_u, with d(u^2/s^2)/du = 2u/s^2
-			pa.Grad[j.a+k] += ua[k] / s2 * ((nu+1)/qa - (nu+2)/q)
-			pd.Grad[j.d+k] += ud[k] / s2 * ((nu+1)/qd - (nu+2)/q)
+			// d/du of -(nu+2)/2 log q + (nu+1)/2 log q_u, with
+			// d q/d ua = 2 (ua - r ud) / ((1 - r^2) s^2), d(u^2/s^2)/du = 2u/s^2
+			pa.Grad[j.a+k] += (nu+1)*ua[k]/(s2*qa) - (nu+2)*(ua[k]-r*ud[k])/(qs2*q)
+			pd.Grad[j.d+k] += (nu+1)*ud[k]/(s2*qd) - (nu+2)*(ud[k]-r*ua[k])/(qs2*q)
 		}
 	}
 	return lp
@@ -272,7 +277,8 @@ func (j *DriftTie) Draw(vd, vy []float64, rng *rand.Rand) {
 	g := distuv.Gamma{Alpha: j.nu / 2, Beta: j.nu / 2, Src: rng}
 	for k := 0; k < j.n; k++ {
 		r := j.s / math.Sqrt(g.Rand())
-		vd[j.a+k], vy[j.d+k] = r*rng.NormFloat64(), r*rng.NormFloat64()
+		e1, e2 := rng.NormFloat64(), rng.NormFloat64()
+		vd[j.a+k], vy[j.d+k] = r*e1, r*(j.rho*e1+math.Sqrt(1-j.rho*j.rho)*e2)
 	}
 }
 

@@ -45,8 +45,8 @@ func crossTerms(ties []*DriftTie) []CrossTerm {
 // jump; its log density against the bivariate normal and Student-t and the
 // univariate laws of gonum's distmv and distuv, normalising constants
 // included; the conditional law it gives one path's weight given the
-// other's (N(rho za, 1 - rho^2) for a smooth weight, t_{nu+1} with scale
-// sqrt((nu + ua^2) / (nu + 1)) for a jump weight); its gradient against
+// other's (N(rho za, 1 - rho^2) for a smooth weight, t_{nu+1} at rho ua with
+// scale sqrt((nu + ua^2) (1 - rho^2) / (nu + 1)) for a jump weight); its gradient against
 // central differences, alone at weights up to 6 and through the joint
 // target; no allocation; clones that agree; and its refusals.
 func TestDriftTie(t *testing.T) {
@@ -164,11 +164,13 @@ func TestDriftTie(t *testing.T) {
 		return lp
 	}}
 	mcmctest.CheckGradient(t, alone, 1e-7, &mcmctest.GradSettings{Seed: 4, Points: 6, Radius: 6})
-	// given ua, ud is t_{nu+1} with scale sqrt((nu + ua^2) / (nu + 1)):
-	// the tie plus ud's own marginal differs from that law by a constant
+	// given ua, ud is t_{nu+1} at rho ua with scale
+	// sqrt((nu + ua^2) (1 - rho^2) / (nu + 1)): the tie plus ud's own
+	// marginal differs from that law by a constant
 	u := make([]float64, 2*n+2*m)
+	rho := DriftTieCorr
 	for _, ua := range []float64{0, 1.5, 6} {
-		cond := distuv.StudentsT{Mu: 0, Sigma: math.Sqrt((JumpDF + ua*ua) / (JumpDF + 1)), Nu: JumpDF + 1}
+		cond := distuv.StudentsT{Mu: rho * ua, Sigma: math.Sqrt((JumpDF + ua*ua) * (1 - rho*rho) / (JumpDF + 1)), Nu: JumpDF + 1}
 		at := func(ud float64) float64 {
 			u[0], u[n] = ua, ud
 			return alone.F(nil, u) + uni.LogProb(ud) - cond.LogProb(ud)
@@ -224,8 +226,9 @@ func TestDriftTie(t *testing.T) {
 
 // TestDriftTieDraw checks the tie's prior draws against its law: each
 // smooth weight standard normal and its pair N(rho za, 1 - rho^2) given it;
-// each jump weight alone Student-t(nu), and (ua^2 + ud^2) / 2 F(2, nu), the law of a
-// bivariate t's squared radius over its dimension, by Kolmogorov-Smirnov
+// each jump weight alone Student-t(nu), and
+// (ua^2 - 2 rho ua ud + ud^2) / (2 (1 - rho^2)) F(2, nu), the law of a
+// bivariate t's quadratic form over its dimension, by Kolmogorov-Smirnov
 // statistics under their 0.1% critical value 1.95 / sqrt(n) (Massey 1951,
 // from memory); the same statistic of two independent t weights, the
 // untied prior, is above it, so the check tells the two apart. Draw
@@ -253,9 +256,9 @@ func TestDriftTieDraw(t *testing.T) {
 		szz += a0 * d0
 		k := rng.IntN(tie.n)
 		a, d := vd[tie.a+k], vy[tie.d+k]
-		ua, r2 = append(ua, a), append(r2, (a*a+d*d)/2)
+		ua, r2 = append(ua, a), append(r2, (a*a-2*rho*a*d+d*d)/(2*(1-rho*rho)))
 		a, d = uni.Rand(), uni.Rand()
-		indep = append(indep, (a*a+d*d)/2)
+		indep = append(indep, (a*a-2*rho*a*d+d*d)/(2*(1-rho*rho)))
 	}
 	for i := range vd {
 		if (i < tie.a || i >= tie.a+tie.n) && (i < tie.za || i >= tie.za+tie.m) && vd[i] != 0 {
@@ -278,7 +281,7 @@ func TestDriftTieDraw(t *testing.T) {
 		t.Errorf("a tied weight against t_%d: KS %.4f above %.4f", JumpDF, d, crit)
 	}
 	if d := ks(r2, f.CDF); d > crit {
-		t.Errorf("the pair's squared radius over 2 against F(2, %d): KS %.4f above %.4f", JumpDF, d, crit)
+		t.Errorf("the pair's quadratic form over 2 against F(2, %d): KS %.4f above %.4f", JumpDF, d, crit)
 	}
 	t.Logf("KS: tied weight %.4f, tied radius %.4f, independent radius %.4f; critical %.4f", ks(ua, distuv.StudentsT{Mu: 0, Sigma: 1, Nu: JumpDF}.CDF), ks(r2, f.CDF), ks(indep, f.CDF), crit)
 	if d := ks(indep, f.CDF); d <= crit {
@@ -366,7 +369,7 @@ func tieWant(t *testing.T, vd, vy []float64, cd, cy ChannelSlots) float64 {
 	if cd.Drift.Jump < 0 {
 		return want
 	}
-	biv, ok := distmv.NewStudentsT([]float64{0, 0}, mat.NewSymDense(2, []float64{1, 0, 0, 1}), JumpDF, nil)
+	biv, ok := distmv.NewStudentsT([]float64{0, 0}, mat.NewSymDense(2, []float64{1, r, r, 1}), JumpDF, nil)
 	if !ok {
 		t.Fatal("bivariate t")
 	}
