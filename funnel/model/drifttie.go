@@ -70,16 +70,16 @@ type DriftTie struct {
 
 // DriftTieCorr is the prior correlation of an upper-funnel channel's two
 // paths' smooth drift weights at each frequency, and the correlation of
-// their jump weights' bivariate t at each candidate week. At 0.8 each of the direct
-// effect's weights, given the queries' weight z, is N(0.8 z, 0.6^2): a
-// strong lean, as a refresh or wear-out of the creative is the common cause
-// of both; a direct effect moving on its own is still possible where the
-// outcome's data say so. Chosen over 0.5 on the calibration sweep
-// (TestDriftCalibration, seeds 101-110, the smooth drift at target
-// acceptance 0.9, before pipeline.DriftAccept covered it): under the step
-// gamma's 90% and 50% intervals held the truth in 9 and 2 of 10
-// replicates at 0.8, 7 and 1 at 0.5, 5 and 0 with the paths apart; with
-// fixed effects and under the smooth drift, where video's two paths move
+// their jump weights' bivariate t at each candidate week. At 0.8 each of
+// the direct effect's weights, given the queries' weight z, is
+// N(0.8 z, 0.6^2): a strong lean, as a refresh or wear-out of the creative
+// is the common cause of both; a direct effect moving on its own is still
+// possible where the outcome's data say so. Chosen over 0.5 on the
+// calibration sweep (TestDriftCalibration, seeds 101-110, the smooth
+// drift at target acceptance 0.9, before pipeline.DriftAccept covered it):
+// under the step gamma's 90% and 50% intervals held the truth in 9 and 2
+// of 10 replicates at 0.8, 7 and 1 at 0.5, 5 and 0 with the paths apart;
+// with fixed effects and under the smooth drift, where video's two paths move
 // differently, quarterly 90% coverage stayed 0.97-0.99 either way.
 const DriftTieCorr = 0.8
 

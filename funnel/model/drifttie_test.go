@@ -46,9 +46,10 @@ func crossTerms(ties []*DriftTie) []CrossTerm {
 // univariate laws of gonum's distmv and distuv, normalising constants
 // included; the conditional law it gives one path's weight given the
 // other's (N(rho za, 1 - rho^2) for a smooth weight, t_{nu+1} at rho ua with
-// scale sqrt((nu + ua^2) (1 - rho^2) / (nu + 1)) for a jump weight); its gradient against
-// central differences, alone at weights up to 6 and through the joint
-// target; no allocation; clones that agree; and its refusals.
+// scale sqrt((nu + ua^2) (1 - rho^2) / (nu + 1)) for a jump weight); its
+// gradient against central differences, alone at weights up to 6 and
+// through the joint target; no allocation; clones that agree; and its
+// refusals.
 func TestDriftTie(t *testing.T) {
 	sc := testScaled(70, 7)
 	st, ties := jumpTieStages(t, sc, Options{})

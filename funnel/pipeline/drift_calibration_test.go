@@ -258,7 +258,7 @@ const calibWeeks = 104
 // models and scenarios).
 func TestDriftCalibration(t *testing.T) {
 	if testing.Short() || os.Getenv("SPILLWAY_LONG") == "" {
-		t.Skip("fits the drift and the default model to four scenarios per replicate; set SPILLWAY_LONG=1 to run it")
+		t.Skip("fits the drift models and the default model to five scenarios per replicate; set SPILLWAY_LONG=1 to run it")
 	}
 	R := calibReplicates(t)
 	ctx := context.Background()
