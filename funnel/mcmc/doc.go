@@ -30,7 +30,9 @@
 // other. A leaf whose energy error exceeds 1000 is divergent and ends the
 // trajectory; only sampling-phase divergences are counted. The acceptance
 // statistic is the mean Metropolis probability over all leaves built. The
-// metric is diagonal. Warm-up follows Stan exactly: a step-size heuristic
+// metric is diagonal, or diagonal with one dense block (Settings.DenseBlock:
+// Welford covariances over the block's coordinates, regularised likewise,
+// Stan's dense_e confined to a few coordinates). Warm-up follows Stan exactly: a step-size heuristic
 // (double or halve until one leapfrog step crosses acceptance 0.8), Nesterov
 // dual averaging of log ε toward TargetAccept (γ 0.05, κ 0.75, t0 10; see
 // DualAveraging), and the diagonal inverse metric from Welford variances in

@@ -49,7 +49,8 @@ type nuts struct {
 	eps       float64
 	maxDepth  int
 	invMetric []float64
-	sqrtInvM  []float64 // 1/sqrt(invMetric), the momentum standard deviations
+	sqrtInvM  []float64   // 1/sqrt(invMetric), the momentum standard deviations
+	dense     *denseBlock // nil: the metric is diagonal
 
 	z                          point // current state
 	zFwd, zBck, zSample, zProp point
@@ -109,6 +110,33 @@ func (s *nuts) setMetric(invMetric []float64) {
 	}
 }
 
+// setDense installs cov as the dense block's inverse metric (k × k) and
+// takes the block's coordinates out of the diagonal loops: their diagonal
+// entries become 0 and their momentum scale 1 (the block's draw is made
+// from the standard normals by denseBlock.momentum).
+func (s *nuts) setDense(cov []float64) error {
+	if err := s.dense.set(cov); err != nil {
+		return err
+	}
+	for _, i := range s.dense.idx {
+		s.invMetric[i], s.sqrtInvM[i] = 0, 1
+	}
+	return nil
+}
+
+// metricDiag returns the inverse metric's diagonal, the dense block's
+// included.
+func (s *nuts) metricDiag() []float64 {
+	out := append([]float64(nil), s.invMetric...)
+	if d := s.dense; d != nil {
+		k := len(d.idx)
+		for j, i := range d.idx {
+			out[i] = d.cov[j*k+j]
+		}
+	}
+	return out
+}
+
 // setPosition evaluates the model at q and makes it the current state. It
 // reports whether log p(q) and its gradient are finite.
 func (s *nuts) setPosition(q []float64) bool {
@@ -130,6 +158,9 @@ func (s *nuts) samplePNorm(z *point) {
 	for i := range z.p {
 		z.p[i] = s.rng.NormFloat64() * s.sqrtInvM[i]
 	}
+	if s.dense != nil {
+		s.dense.momentum(z.p)
+	}
 }
 
 // hamiltonian returns H(z) = −log p(q) + ½ pᵀ M⁻¹ p; NaN becomes +Inf.
@@ -137,6 +168,9 @@ func (s *nuts) hamiltonian(z *point) float64 {
 	k := 0.0
 	for i, p := range z.p {
 		k += s.invMetric[i] * p * p
+	}
+	if s.dense != nil {
+		k += s.dense.quad(z.p)
 	}
 	h := -z.logp + 0.5*k
 	if math.IsNaN(h) {
@@ -150,6 +184,11 @@ func (s *nuts) pSharp(dst, p []float64) {
 	for i, v := range p {
 		dst[i] = s.invMetric[i] * v
 	}
+	if d := s.dense; d != nil {
+		for j, v := range d.sharp(p) {
+			dst[d.idx[j]] = v
+		}
+	}
 }
 
 // leapfrog advances z by one leapfrog step of size eps (negative for a
@@ -162,6 +201,11 @@ func (s *nuts) leapfrog(z *point, eps float64) {
 		p += half * g[i]
 		z.p[i] = p
 		q[i] += eps * invM[i] * p
+	}
+	if d := s.dense; d != nil {
+		for j, v := range d.sharp(z.p) {
+			q[d.idx[j]] += eps * v
+		}
 	}
 	z.logp = s.m.LogProbGrad(z.g, z.q)
 	s.gradEvals++
@@ -184,6 +228,11 @@ func (s *nuts) leaf(eps float64, pSharpBeg, pSharpEnd, rho, pBeg, pEnd []float64
 		z.p[i] = p
 		q[i] += eps * invM[i] * p
 	}
+	if d := s.dense; d != nil {
+		for j, v := range d.sharp(z.p) {
+			q[d.idx[j]] += eps * v
+		}
+	}
 	z.logp = s.m.LogProbGrad(z.g, z.q)
 	s.gradEvals++
 	pSharpBeg, pSharpEnd = pSharpBeg[:n], pSharpEnd[:n]
@@ -197,6 +246,13 @@ func (s *nuts) leaf(eps float64, pSharpBeg, pSharpEnd, rho, pBeg, pEnd []float64
 		pSharpBeg[i], pSharpEnd[i] = ps, ps
 		pBeg[i], pEnd[i] = p, p
 		rho[i] += p
+	}
+	if d := s.dense; d != nil {
+		for j, ps := range d.sharp(z.p) {
+			i := d.idx[j]
+			k += ps * z.p[i]
+			pSharpBeg[i], pSharpEnd[i] = ps, ps
+		}
 	}
 	h := -z.logp + 0.5*k
 	if math.IsNaN(h) {

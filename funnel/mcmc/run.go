@@ -75,6 +75,14 @@ type Settings struct {
 	// toward 1e-3 times it (Stan: 1e-3 times the identity) so that the
 	// shrinkage keeps the coordinates' relative scales.
 	InvMetric []float64
+	// DenseBlock, if not nil, lists coordinates (increasing, each below
+	// Dim()) whose inverse metric the warm-up adapts as one dense
+	// covariance instead of a variance each (denseBlock); the others stay
+	// diagonal. Meant for a few dozen shared parameters beside many
+	// region-level ones: the block costs k² per leapfrog step. Its start
+	// is InvMetric's diagonal on the block (or the identity), and its
+	// windows shrink toward 1e-3 times that diagonal, as the diagonal's do.
+	DenseBlock []int
 }
 
 // NoWarmup as Settings.Warmup asks for no warm-up at all: the step size comes
@@ -189,7 +197,7 @@ type ChainStats struct {
 	// MeanAccept is the mean acceptance statistic over the sampling draws.
 	MeanAccept float64
 	// InvMetric is the adapted diagonal inverse metric (variance estimate of
-	// each unconstrained coordinate).
+	// each unconstrained coordinate; on a dense block, its diagonal).
 	InvMetric []float64
 }
 
@@ -275,6 +283,11 @@ func Run(ctx context.Context, t Target, s *Settings) (*Fit, error) {
 			}
 		}
 	}
+	for i, c := range set.DenseBlock {
+		if c < 0 || c >= t.Dim() || i > 0 && c <= set.DenseBlock[i-1] {
+			return nil, fmt.Errorf("mcmc: dense block %v, want increasing coordinates from 0 to %d", set.DenseBlock, t.Dim()-1)
+		}
+	}
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	chains := set.Only
@@ -326,6 +339,20 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 	s := newNUTS(t, rng, set.MaxTreeDepth)
 	if set.InvMetric != nil {
 		s.setMetric(set.InvMetric)
+	}
+	var wc welfordCov
+	var covBuf []float64
+	if blk := set.DenseBlock; len(blk) > 0 {
+		s.dense = newDenseBlock(blk)
+		k := len(blk)
+		covBuf = make([]float64, k*k)
+		for j, i := range blk {
+			covBuf[j*k+j] = s.invMetric[i]
+		}
+		if err := s.setDense(covBuf); err != nil {
+			return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
+		}
+		wc = newWelfordCov(s.dense.idx)
 	}
 	q0 := make([]float64, dim)
 	if set.Init != nil {
@@ -382,6 +409,9 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 		inWin, endWin := sched.step()
 		if inWin {
 			wf.add(s.z.q)
+			if s.dense != nil {
+				wc.add(s.z.q)
+			}
 		}
 		if endWin {
 			wf.regularizedVariance(varBuf, set.InvMetric)
@@ -392,6 +422,13 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 			}
 			wf.restart()
 			s.setMetric(varBuf)
+			if s.dense != nil {
+				wc.regularized(covBuf, set.InvMetric)
+				wc.restart()
+				if err := s.setDense(covBuf); err != nil {
+					return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
+				}
+			}
 			if err := s.findStepSize(); err != nil {
 				return Chain{}, fmt.Errorf("mcmc: chain %d: %w", c+1, err)
 			}
@@ -456,7 +493,7 @@ func runChain(ctx context.Context, t Target, c, pos int, set *Settings, nNames i
 	st.EBFMI = ebfmi(energy)
 	st.MeanLeapfrogs = float64(leapfrogs) / float64(set.Draws)
 	st.MeanAccept = acceptSum / float64(set.Draws)
-	st.InvMetric = append([]float64(nil), s.invMetric...)
+	st.InvMetric = s.metricDiag()
 	return Chain{Draws: draws, Stats: st}, nil
 }
 
