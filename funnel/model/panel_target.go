@@ -1417,3 +1417,30 @@ func (t *PanelTarget) CoordNames() []string {
 	}
 	return out
 }
+
+// SharedCoords returns the sampling coordinates outside the regions'
+// hierarchical blocks, increasing: the national and hyper parameters
+// (CoordNames without the "v:" prefix), the few a dense metric block can
+// afford (mcmc.Settings.DenseBlock) beside the regions' many.
+func (t *PanelTarget) SharedCoords() []int {
+	region := make([]bool, t.dim)
+	if t.inter.tauPos >= 0 {
+		for g := 0; g < t.G; g++ {
+			region[t.inter.block+g] = true
+		}
+	}
+	for _, c := range t.coefs {
+		if c.tauPos >= 0 {
+			for g := 0; g < t.G; g++ {
+				region[c.block+g] = true
+			}
+		}
+	}
+	var out []int
+	for i, r := range region {
+		if !r {
+			out = append(out, i)
+		}
+	}
+	return out
+}

@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -559,5 +560,37 @@ func TestPanelStart(t *testing.T) {
 	}
 	if m, ok := tg.StartMetric(), tg.StartPoint(make([]float64, tg.Dim())); m != nil || ok {
 		t.Errorf("one region: start metric %v and point %v, want none", m, ok)
+	}
+}
+
+// TestSharedCoords: on 6 regions of 104 weeks, the shared coordinates are
+// the ones CoordNames does not mark "v:" (a region's), named after a shared
+// or hyper parameter (no region in the name), and as many as the target's
+// dimension less one block of 6 per hierarchical coefficient and the
+// intercepts'.
+func TestSharedCoords(t *testing.T) {
+	for _, b := range panelBuilds[:2] {
+		p := testPanel(t, 6, 104, b.build, true)
+		tg, err := p.Target()
+		if err != nil {
+			t.Fatal(err)
+		}
+		names := tg.CoordNames()
+		sh := tg.SharedCoords()
+		in := make([]bool, tg.Dim())
+		for _, i := range sh {
+			in[i] = true
+			if strings.HasPrefix(names[i], "v:") || strings.Contains(names[i], ",R") {
+				t.Errorf("%s: shared coordinate %d is %s", b.name, i, names[i])
+			}
+		}
+		for i, n := range names {
+			if !in[i] && !strings.HasPrefix(n, "v:") {
+				t.Errorf("%s: coordinate %d (%s) is neither shared nor a region's", b.name, i, n)
+			}
+		}
+		if want := tg.Dim() - 6*(1+len(tg.coefs)); len(sh) != want {
+			t.Errorf("%s: %d shared coordinates, want %d", b.name, len(sh), want)
+		}
 	}
 }

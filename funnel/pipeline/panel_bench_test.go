@@ -46,7 +46,9 @@ import (
 // as FitPanel's: PanelSettings) and SPILLWAY_PANEL_WARMUP_ACCEPT the
 // warm-up's own until its last metric update (mcmc.Settings.WarmupAccept;
 // 0 for none); SPILLWAY_PANEL_BASELINE=smooth fits the baseline that
-// moves (model.BaselineSmooth) in place of the trend line.
+// moves (model.BaselineSmooth) in place of the trend line;
+// SPILLWAY_PANEL_DENSE=1 adapts one dense metric block over the shared
+// coordinates (mcmc.Settings.DenseBlock, model.PanelTarget.SharedCoords).
 func BenchmarkPanelFit(b *testing.B) {
 	G, T, warm, draws := 40, 156, 1000, 1000
 	var err error
@@ -138,6 +140,10 @@ func BenchmarkPanelFit(b *testing.B) {
 			}
 			if os.Getenv("SPILLWAY_PANEL_START") != "identity" {
 				set = PanelStart(tg, set)
+			}
+			if os.Getenv("SPILLWAY_PANEL_DENSE") == "1" {
+				set.DenseBlock = tg.SharedCoords()
+				fmt.Fprintf(os.Stderr, "dense metric block of %d shared coordinates\n", len(set.DenseBlock))
 			}
 			if memOnly {
 				set.Warmup, set.MaxTreeDepth = mcmc.NoWarmup, 1
