@@ -101,3 +101,37 @@ func TestWelfordCov(t *testing.T) {
 		}
 	}
 }
+
+// TestDenseNoAlloc: with a dense block a transition and a leapfrog step
+// still allocate nothing, and a leapfrog step of ε then −ε returns to the
+// start (the integrator stays reversible with the block's Σ p).
+func TestDenseNoAlloc(t *testing.T) {
+	s := newTestNUTS(20)
+	s.dense = newDenseBlock([]int{2, 5, 11})
+	cov := []float64{1, 0.5, 0.2, 0.5, 2, -0.3, 0.2, -0.3, 0.7}
+	if err := s.setDense(cov); err != nil {
+		t.Fatal(err)
+	}
+	if n := testing.AllocsPerRun(200, s.transition); n != 0 {
+		t.Errorf("transition allocates %v times per call, want 0", n)
+	}
+	if n := testing.AllocsPerRun(200, func() { s.leapfrog(&s.z, 0.1) }); n != 0 {
+		t.Errorf("leapfrog allocates %v times per call, want 0", n)
+	}
+	s.samplePNorm(&s.z)
+	q0 := append([]float64(nil), s.z.q...)
+	s.leapfrog(&s.z, 0.2)
+	moved := math.Abs(s.z.q[5]-q0[5]) > 1e-6
+	for i := range s.z.p {
+		s.z.p[i] = -s.z.p[i]
+	}
+	s.leapfrog(&s.z, 0.2)
+	for i := range q0 {
+		if math.Abs(s.z.q[i]-q0[i]) > 1e-12 {
+			t.Errorf("coordinate %d: %v after a step there and back, want %v", i, s.z.q[i], q0[i])
+		}
+	}
+	if !moved {
+		t.Errorf("the block's coordinate did not move in a leapfrog step")
+	}
+}

@@ -39,8 +39,9 @@ type level struct {
 	zProposeFinal                       point
 }
 
-// nuts is one chain's No-U-Turn transition kernel with a diagonal metric:
-// H(q, p) = −log p(q) + ½ Σ invMetric[i] p[i]². All buffers are allocated in
+// nuts is one chain's No-U-Turn transition kernel with a diagonal metric,
+// H(q, p) = −log p(q) + ½ Σ invMetric[i] p[i]², plus ½ p_bᵀ Σ p_b over a
+// dense block when there is one (denseBlock). All buffers are allocated in
 // newNUTS; transition allocates nothing.
 type nuts struct {
 	m         Model
