@@ -1403,19 +1403,26 @@ func (t *PanelTarget) CoordNames() []string {
 			out[p.free] = p.name
 		}
 	}
+	t.regionCoords(func(coord, slot int) { out[coord] = "v:" + t.names[slot] })
+	return out
+}
+
+// regionCoords calls f with each region coordinate of a hierarchical block
+// (the intercepts' and each varying coefficient's) and the draw position
+// of the region's parameter it sets.
+func (t *PanelTarget) regionCoords(f func(coord, slot int)) {
 	if t.inter.tauPos >= 0 {
 		for g := 0; g < t.G; g++ {
-			out[t.inter.block+g] = "v:" + t.names[t.lay.mu.Start+g]
+			f(t.inter.block+g, t.lay.mu.Start+g)
 		}
 	}
 	for _, c := range t.coefs {
 		if c.tauPos >= 0 {
 			for g := 0; g < t.G; g++ {
-				out[c.block+g] = "v:" + t.names[c.slot+g]
+				f(c.block+g, c.slot+g)
 			}
 		}
 	}
-	return out
 }
 
 // SharedCoords returns the sampling coordinates outside the regions'
@@ -1424,18 +1431,7 @@ func (t *PanelTarget) CoordNames() []string {
 // afford (mcmc.Settings.DenseBlock) beside the regions' many.
 func (t *PanelTarget) SharedCoords() []int {
 	region := make([]bool, t.dim)
-	if t.inter.tauPos >= 0 {
-		for g := 0; g < t.G; g++ {
-			region[t.inter.block+g] = true
-		}
-	}
-	for _, c := range t.coefs {
-		if c.tauPos >= 0 {
-			for g := 0; g < t.G; g++ {
-				region[c.block+g] = true
-			}
-		}
-	}
+	t.regionCoords(func(coord, _ int) { region[coord] = true })
 	var out []int
 	for i, r := range region {
 		if !r {
