@@ -7,7 +7,7 @@ import (
 )
 
 // condCoef holds a channel coefficient's conditional coordinates on a
-// panel: region g's log coefficient at its own reference response, l[g] =
+// panel: region g's log coefficient at its reference response, l[g] =
 // log(theta[g] r[g]) (panelCoef.values), is sampled as
 //
 //	l[g] = m[g] + xi[g]/sqrt(P[g]),  P = 1/tau^2 + aW[g],
@@ -27,17 +27,31 @@ import (
 // triangular (m, P and r do not depend on xi), its log-Jacobian -log(P)/2,
 // so the posterior on DESIGN.md's parameters is unchanged.
 //
-// r[g] is region g's own response spread at the current transforms
-// (panelChannel.regionRef; the panel's href where the region's spend never
-// changes), not the panel's href: what region g's weeks pin down is its
+// r[g] is the panel's href by default, the same for every region. With
+// Coords.CoefOwnSpread it is region g's own response spread at the
+// current transforms (panelChannel.regionRef; href where the region's
+// spend never changes): what region g's weeks pin down is its
 // coefficient times how much its own response moves, and the regions'
-// spreads change unequally with the transforms. On a 200-region, 156-week
-// panel paid search's curve had two regimes (S_s near 7 with tau_beta near
-// 0.55, S_s near 1.6 with tau_beta near 0.03); measured against href, all
-// 200 xi[g] had to move together to cross between them, and the outcome
-// stage's 4 x (500 + 500) draws reached R-hat 1.19 (bulk ESS 16); against
-// r[g], R-hat 1.03 (bulk ESS 125) with a third fewer leapfrog steps.
+// spreads change unequally with the transforms. Each choice has its cost,
+// measured on simulated panels (4 chains, seed 40, outcome stage alone):
 //
+//   - 200 x 156, 500 + 500 draws, where paid search's curve has two
+//     regimes (S_s near 7 with tau_beta near 0.55, S_s near 1.8 with
+//     tau_beta near 0.1) and every xi[g] moves to cross between them:
+//     against href R-hat 1.06, bulk ESS 52, 264 leapfrog steps per draw,
+//     927 s; against r[g] R-hat 1.16, bulk ESS 19, 63 steps, 257 s.
+//     Neither converges.
+//   - 40 x 156, 1000 + 1000 draws, sampler seeds 0-3: against r[g] 3, 1,
+//     1 and 1 divergent transitions, all at paid search's tail (K_s in its
+//     lowest 2% or S_s in its highest 1%, tau_beta in its highest 2%),
+//     where a region's own spread moves with K_s and S_s much faster than
+//     the panel's and theta[g] with it at fixed xi[g]; against href none
+//     on any seed (least bulk ESS 1,370-2,260 against 1,106-1,820, 88-105
+//     steps per draw against 63-89). A soft bound on r[g]/href (log ratio
+//     through 0.5 tanh) still left 1, 0, 0 and 1.
+//
+// href is the default because the 40-region fit then converges cleanly.
+
 // It is gamma's conditional coordinates (condGamma) without the level's
 // share: a channel's contribution to a region's mean is one of several,
 // and its estimate within the region's weeks already holds what the data

@@ -86,6 +86,7 @@ func TestPanelRegionRef(t *testing.T) {
 	p := testPanel(t, 4, 30, Outcome, true)
 	p.Coords = randomCoords(p, 9)
 	p.Coords.CoefConditional = true
+	p.Coords.CoefOwnSpread = true
 	pt, err := p.Target()
 	if err != nil {
 		t.Fatal(err)
@@ -155,6 +156,30 @@ func TestPanelRegionRef(t *testing.T) {
 	}
 	if flats == 0 {
 		t.Error("no region whose spend never changes: the dark region was not checked")
+	}
+	// Without CoefOwnSpread every region is referenced to the panel's
+	// href: no region's own spread is computed, and theta[g] is
+	// exp(m[g] + xi[g]/sqrt(P[g])) / href.
+	p.Coords.CoefOwnSpread = false
+	if pt, err = p.Target(); err != nil {
+		t.Fatal(err)
+	}
+	if lp := pt.LogProbGrad(make([]float64, pt.Dim()), x); math.IsInf(lp, 0) || math.IsNaN(lp) {
+		t.Fatalf("log density %v", lp)
+	}
+	for _, c := range pt.coefs {
+		if c.ch == nil || c.cc == nil {
+			continue
+		}
+		if c.ch.regional != nil || c.grho != nil {
+			t.Fatal("regional references without CoefOwnSpread")
+		}
+		for r := range c.v {
+			v := math.Exp(c.cc.m[r]+x[c.block+r]/math.Sqrt(c.cc.p[r])) / c.ch.href
+			if math.Abs(c.v[r]-v) > 1e-12*v {
+				t.Errorf("panel reference, region %d: coefficient %.15g, want %.15g", r, c.v[r], v)
+			}
+		}
 	}
 	// The dark region with an estimate of its own (randomCoords leaves it
 	// none): its centre then weighs the estimate against the hierarchy, so

@@ -213,7 +213,7 @@ func (p *Panel) Target() (*PanelTarget, error) {
 			pc.cond = newCondGamma(t.inter, coords, k, pc.bar)
 		}
 		if !pooled && ch != nil && coords.CoefConditional && coords.SECoef != nil && coords.CoefLog != nil {
-			if pc.rescale && ch.spread && ch.regional == nil {
+			if pc.rescale && ch.spread && ch.regional == nil && coords.CoefOwnSpread {
 				ch.regional = make([]bool, t.G)
 				for g := range ch.series {
 					ch.regional[g] = !constant(ch.series[g].x)

@@ -159,6 +159,7 @@ func TestPanelGradient(t *testing.T) {
 			p.Coords.MuConditional = c.cond
 			p.Coords.GammaConditional = c.gamma
 			p.Coords.CoefConditional = c.coef
+			p.Coords.CoefOwnSpread = c.coef && c.drift // both references
 			tg, err := p.Target()
 			if err != nil {
 				t.Fatal(err)
@@ -333,6 +334,7 @@ func TestPanelSamePosterior(t *testing.T) {
 			p.Coords.MuConditional = rep%2 == 1
 			p.Coords.GammaConditional = rep >= 3
 			p.Coords.CoefConditional = rep == 2 || rep >= 4
+			p.Coords.CoefOwnSpread = rep == 4
 			if rep == 0 {
 				p.Coords = p.Uniform(1)
 			}

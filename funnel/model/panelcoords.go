@@ -40,7 +40,12 @@ type Coords struct {
 	// conditional coordinates (condCoef, panel_condcoef.go; their weights
 	// in Coef are then unused).
 	CoefConditional bool
-	Coef            [][]float64 // [coefficient][region]
+	// CoefOwnSpread references each region's conditional coordinate of a
+	// saturating channel's coefficient to that region's own response
+	// spread at the current transforms (panelChannel.regional) instead of
+	// the panel's href; it needs CoefConditional.
+	CoefOwnSpread bool
+	Coef          [][]float64 // [coefficient][region]
 	// Estimates behind the weights (ChooseCoordinates): the spreads implied
 	// by the data (tau_mu; each coefficient's on the log scale) and each
 	// region's standard error (log scale for coefficients; +Inf where the
@@ -140,6 +145,12 @@ func ChooseCoordinates(p *Panel) (*Coords, error) {
 	// 1.016-1.044 with the rounded weights and the prior's centre, and 24
 	// divergences against 35
 	c.CoefConditional = true
+	// the coefficients referenced to the panel's href, not each region's
+	// own response spread (CoefOwnSpread off): on the simulated 40 x 156
+	// outcome stage the own spreads left divergent transitions at paid
+	// search's tail on every sampler seed, the panel's none (the figures
+	// are condCoef's)
+	c.CoefOwnSpread = false
 	hier := p.hier()
 	G := len(p.Regions)
 	tr := chooseTransforms(p)

@@ -41,7 +41,9 @@ import (
 // data: SPILLWAY_PANEL_SEED sets the simulation's seed (default 40),
 // SPILLWAY_PANEL_RUN_SEED offsets the sampler's, and
 // SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
-// rounded weights instead of their conditional coordinates;
+// rounded weights instead of their conditional coordinates, =ownspread
+// references theirs to each region's own response spread
+// (model.Coords.CoefOwnSpread);
 // SPILLWAY_PANEL_ACCEPT sets the target acceptance (default each stage's,
 // as FitPanel's: PanelSettings) and SPILLWAY_PANEL_WARMUP_ACCEPT the
 // warm-up's own until its last metric update (mcmc.Settings.WarmupAccept;
@@ -124,8 +126,11 @@ func BenchmarkPanelFit(b *testing.B) {
 				b.Fatal(err)
 			}
 			fmt.Fprintf(os.Stderr, "%s: least squares' transforms %v (%.2f s to choose the coordinates)\n", StageNames[k], p.Coords.Transforms, time.Since(tc).Seconds())
-			if os.Getenv("SPILLWAY_PANEL_COEF") == "rounded" {
+			switch os.Getenv("SPILLWAY_PANEL_COEF") {
+			case "rounded":
 				p.Coords.CoefConditional = false // the channels' rounded weights
+			case "ownspread":
+				p.Coords.CoefOwnSpread = true // each region's own response spread
 			}
 			tg, err := p.Target()
 			if err != nil {
