@@ -170,7 +170,7 @@ func StageAccept(sts ...*model.Stage) float64 {
 }
 
 // panelSettings is settings for stage k of a region panel: with outcome
-// (the outcome panel, or a joint fit holding it) PanelOutcomeAccept for
+// (the outcome or naive panel, or a joint fit holding the outcome's) PanelOutcomeAccept for
 // the draws and the warm-up's terminal window and DefaultTargetAccept for
 // the warm-up's metric windows (mcmc.Settings.WarmupAccept), unless s sets
 // a target acceptance, which then applies throughout.
@@ -186,8 +186,13 @@ func panelSettings(s mcmc.Settings, k int, outcome bool) mcmc.Settings {
 // naive), as FitPanel samples it: seed s.Seed + k and the stage's target
 // acceptance, s's own or the stage's default (panelSettings).
 func PanelSettings(s mcmc.Settings, k int) mcmc.Settings {
-	return panelSettings(s, k, k == 1)
+	return panelSettings(s, k, regressesOutcome(k))
 }
+
+// regressesOutcome reports whether panel stage k regresses the outcome
+// (the outcome and naive stages), whose paid-search tail needs
+// PanelOutcomeAccept.
+func regressesOutcome(k int) bool { return k != 0 }
 
 func run(ctx context.Context, tg mcmc.Target, set mcmc.Settings, hook StageHook, name string) (*mcmc.Fit, float64, error) {
 	var done func()

@@ -36,8 +36,8 @@ type PanelFitted struct {
 // FitPanel runs the region model's three stages (demand, outcome, naive)
 // with settings s, as Fit does for one series: chains in parallel, stages
 // one after another, stage k with seed s.Seed + k, a zero TargetAccept
-// meaning PanelOutcomeAccept for the outcome stage and DefaultTargetAccept
-// for the others. hook may be nil. With an upper channel's
+// meaning PanelOutcomeAccept for the outcome and naive stages and
+// DefaultTargetAccept for the demand stage. hook may be nil. With an upper channel's
 // drift tied across its two paths (DriftTies) the demand and outcome panels
 // are one joint fit, as FitPanelLifts fits them.
 func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
@@ -60,7 +60,7 @@ func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcm
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", p.Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, panelSettings(s, k, k == 1)), hook, p.Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, panelSettings(s, k, regressesOutcome(k))), hook, p.Name); err != nil {
 			return nil, err
 		}
 	}

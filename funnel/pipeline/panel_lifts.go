@@ -81,7 +81,7 @@ func fitPanelLifts(ctx context.Context, ps *model.PanelScaled, o model.Options, 
 		if err != nil {
 			return nil, fmt.Errorf("%s stage: %w", panels[k].Name, err)
 		}
-		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, panelSettings(s, k, k == 1)), hook, panels[k].Name); err != nil {
+		if f.Fits[k], f.Wall[k], err = run(ctx, tg, PanelStart(tg, panelSettings(s, k, regressesOutcome(k))), hook, panels[k].Name); err != nil {
 			return nil, err
 		}
 	}

@@ -83,7 +83,7 @@ func TestPanelOneRegion(t *testing.T) {
 		t.Fatal(err)
 	}
 	// each stage adapted to its own default acceptance (PanelSettings): the
-	// outcome stage at 0.99, the others at 0.9 (whose sampling, at the
+	// outcome and naive stages at 0.99, the demand stage at 0.9 (whose sampling, at the
 	// warm-up's averaged step, accepts about 0.95 here)
 	for k, fit := range pf.Fits {
 		a := 0.0
@@ -492,16 +492,16 @@ func quantile(x []float64, p float64) float64 {
 }
 
 // TestPanelAccept checks each panel stage's default target acceptance (the
-// outcome stage's warm-up windows at the fits' default, its terminal window
+// outcome and naive stages' warm-up windows at the fits' default, its terminal window
 // and draws at PanelOutcomeAccept), its seed, and that a chosen acceptance
 // applies to every stage throughout.
 func TestPanelAccept(t *testing.T) {
-	for k, want := range []float64{DefaultTargetAccept, PanelOutcomeAccept, DefaultTargetAccept} {
+	for k, want := range []float64{DefaultTargetAccept, PanelOutcomeAccept, PanelOutcomeAccept} {
 		s := PanelSettings(mcmc.Settings{Seed: 10}, k)
 		if s.TargetAccept != want || s.Seed != 10+uint64(k) {
 			t.Errorf("%s stage: default acceptance %g and seed %d, want %g and %d", StageNames[k], s.TargetAccept, s.Seed, want, 10+k)
 		}
-		if wantWarm := map[bool]float64{true: DefaultTargetAccept}[k == 1]; s.WarmupAccept != wantWarm {
+		if wantWarm := map[bool]float64{true: DefaultTargetAccept}[k != 0]; s.WarmupAccept != wantWarm {
 			t.Errorf("%s stage: warm-up acceptance %g, want %g", StageNames[k], s.WarmupAccept, wantWarm)
 		}
 		if s := PanelSettings(mcmc.Settings{TargetAccept: 0.85}, k); s.TargetAccept != 0.85 || s.WarmupAccept != 0 {

@@ -18,21 +18,25 @@ import (
 const DefaultTargetAccept = 0.9
 
 // PanelOutcomeAccept is the target acceptance of a region panel's outcome
-// stage, and of a joint fit that holds the outcome panel, unless
+// and naive stages, and of a joint fit that holds the outcome panel, unless
 // Settings.TargetAccept says otherwise. On the 40-region benchmark
-// (BenchmarkPanelFit, 4 x (1000 + 1000)) that stage had 10 divergent
-// transitions of 4,000 at 0.9, 8 at 0.95 and 5 at 0.97, nearly all where
-// paid search, which runs every week in every region, is near saturation
-// (K_s small, S_s large, its coefficient several times its median and
-// every intercept low), and none at 0.99, for 2.4 times the leapfrog
-// steps (79 per draw at step 0.062). That was one sampler seed: on
-// 2026-12-04 four seeds gave 1 to 3 at 0.99, and 0.995 (warm-up windows
-// at 0.9) did not remove them (1, 2 and 33 on three seeds), so 0.99 stays. The warm-up reaches 0.99 only in its
-// terminal window (panelSettings: mcmc.Settings.WarmupAccept at
+// (BenchmarkPanelFit, 4 x (1000 + 1000)) the outcome stage had 10
+// divergent transitions of 4,000 at 0.9, 8 at 0.95 and 5 at 0.97, nearly
+// all where paid search, which runs every week in every region, is near
+// saturation (K_s small, S_s large, its coefficient several times its
+// median and every intercept low), and none at 0.99, for 2.4 times the
+// leapfrog steps (79 per draw at step 0.062). That was one sampler seed:
+// on 2026-12-04 four seeds gave 1 to 3 at 0.99 (0.995, warm-up windows at
+// 0.9, gave 1, 2 and 33 on three), until the channels' coefficients were
+// referenced to the panel's response spread (model.Coords.CoefOwnSpread
+// off): then 0 on all four. The naive stage, the same regression without
+// the queries, had 1, 11, 0 and 0 on those seeds at 0.9 and 0, 0, 1 and 0
+// at 0.99 (78-92 s wall against 51-55 s). The warm-up reaches 0.99 only in
+// its terminal window (panelSettings: mcmc.Settings.WarmupAccept at
 // DefaultTargetAccept before it), which on that benchmark took 162,279
 // warm-up gradients instead of 340,289, with no divergent draw either
-// way. The other stages keep DefaultTargetAccept: with their intercept
-// mean sheared (PanelTarget.meanShear) they had none at 0.9.
+// way. The demand stage keeps DefaultTargetAccept: with its intercept mean
+// sheared (PanelTarget.meanShear) it had none at 0.9.
 const PanelOutcomeAccept = 0.99
 
 // DriftAccept is the target acceptance of a national fit whose target
