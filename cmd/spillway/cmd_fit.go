@@ -44,7 +44,7 @@ type samplingFlags struct {
 func (s *samplingFlags) addFlags(fs *pflag.FlagSet) {
 	s.addFlagsWith(fs, samplingDefaults{mcmc.DefaultChains, mcmc.DefaultWarmup, mcmc.DefaultDraws,
 		"random seed; the same data, flags and seed give the same draws", "chains", "iterations per chain"})
-	fs.Float64Var(&s.targetAccept, "target-accept", 0, "the acceptance rate the step size adapts to during warm-up (default 0.9; 0.95 for a national fit with --drift; 0.99 for a region panel's outcome stage, whose warm-up adapts at 0.9 until its last window); raise it (0.95; on a panel, where it applies to every stage, 0.995) if the verdict reports divergent transitions")
+	fs.Float64Var(&s.targetAccept, "target-accept", 0, "the acceptance rate the step size adapts to during warm-up (default 0.9; 0.95 for a national fit with --drift; 0.99 for a region panel's outcome and naive stages, whose warm-up adapts at 0.9 until its last window); raise it (0.95; on a panel, where it applies to every stage, 0.995) if the verdict reports divergent transitions")
 	fs.StringVar(&s.lifts, "lifts", "", "a CSV `FILE` of lift tests fitted as data: channel,start,end,estimate,se[,metric,region]")
 	s.labels.addFlags(fs)
 	fs.BoolVar(&s.national, "national", false, "fit regional data (--region) as their national sum, one series, as national data are fitted")
