@@ -51,7 +51,7 @@ import (
 //     through 0.5 tanh) still left 1, 0, 0 and 1.
 //
 // href is the default because the 40-region fit then converges cleanly.
-
+//
 // It is gamma's conditional coordinates (condGamma) without the level's
 // share: a channel's contribution to a region's mean is one of several,
 // and its estimate within the region's weeks already holds what the data

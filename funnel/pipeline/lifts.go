@@ -170,10 +170,11 @@ func StageAccept(sts ...*model.Stage) float64 {
 }
 
 // panelSettings is settings for stage k of a region panel: with outcome
-// (the outcome or naive panel, or a joint fit holding the outcome's) PanelOutcomeAccept for
-// the draws and the warm-up's terminal window and DefaultTargetAccept for
-// the warm-up's metric windows (mcmc.Settings.WarmupAccept), unless s sets
-// a target acceptance, which then applies throughout.
+// (the outcome or naive panel, or a joint fit holding the outcome's)
+// PanelOutcomeAccept for the draws and the warm-up's terminal window and
+// DefaultTargetAccept for the warm-up's metric windows
+// (mcmc.Settings.WarmupAccept), unless s sets a target acceptance, which
+// then applies throughout.
 func panelSettings(s mcmc.Settings, k int, outcome bool) mcmc.Settings {
 	set := settings(s, k)
 	if s.TargetAccept == 0 && outcome {

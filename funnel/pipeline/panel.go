@@ -37,9 +37,9 @@ type PanelFitted struct {
 // with settings s, as Fit does for one series: chains in parallel, stages
 // one after another, stage k with seed s.Seed + k, a zero TargetAccept
 // meaning PanelOutcomeAccept for the outcome and naive stages and
-// DefaultTargetAccept for the demand stage. hook may be nil. With an upper channel's
-// drift tied across its two paths (DriftTies) the demand and outcome panels
-// are one joint fit, as FitPanelLifts fits them.
+// DefaultTargetAccept for the demand stage. hook may be nil. With an upper
+// channel's drift tied across its two paths (DriftTies) the demand and
+// outcome panels are one joint fit, as FitPanelLifts fits them.
 func FitPanel(ctx context.Context, ps *model.PanelScaled, o model.Options, s mcmc.Settings, hook StageHook) (*PanelFitted, error) {
 	panels, err := model.PanelStages(ps, o)
 	if err != nil {

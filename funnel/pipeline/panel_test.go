@@ -83,8 +83,8 @@ func TestPanelOneRegion(t *testing.T) {
 		t.Fatal(err)
 	}
 	// each stage adapted to its own default acceptance (PanelSettings): the
-	// outcome and naive stages at 0.99, the demand stage at 0.9 (whose sampling, at the
-	// warm-up's averaged step, accepts about 0.95 here)
+	// outcome and naive stages at 0.99, the demand stage at 0.9 (whose
+	// sampling, at the warm-up's averaged step, accepts about 0.95 here)
 	for k, fit := range pf.Fits {
 		a := 0.0
 		for _, c := range fit.Chains {
@@ -492,9 +492,9 @@ func quantile(x []float64, p float64) float64 {
 }
 
 // TestPanelAccept checks each panel stage's default target acceptance (the
-// outcome and naive stages' warm-up windows at the fits' default, its terminal window
-// and draws at PanelOutcomeAccept), its seed, and that a chosen acceptance
-// applies to every stage throughout.
+// outcome and naive stages' warm-up windows at the fits' default, their
+// terminal window and draws at PanelOutcomeAccept), its seed, and that a
+// chosen acceptance applies to every stage throughout.
 func TestPanelAccept(t *testing.T) {
 	for k, want := range []float64{DefaultTargetAccept, PanelOutcomeAccept, PanelOutcomeAccept} {
 		s := PanelSettings(mcmc.Settings{Seed: 10}, k)
