@@ -39,6 +39,10 @@ import (
 // and the targets are what take memory) at a small fraction of its time;
 // its convergence figures mean nothing. To compare coordinates on other
 // data: SPILLWAY_PANEL_SEED sets the simulation's seed (default 40),
+// SPILLWAY_PANEL_SCALE the national totals the regions share as a
+// multiple of the demo's (default G/40, so every region is the size of a
+// 40-region panel's; 1 splits the demo's totals, about 11 conversions a
+// week a region at 200, scenario.PanelOptions.Scale),
 // SPILLWAY_PANEL_RUN_SEED offsets the sampler's, and
 // SPILLWAY_PANEL_COEF=rounded samples the channels' coefficients with the
 // rounded weights instead of their conditional coordinates, =ownspread
@@ -96,7 +100,13 @@ func BenchmarkPanelFit(b *testing.B) {
 			b.Fatalf("SPILLWAY_PANEL_SEED=%s: want a whole number", s)
 		}
 	}
-	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: seed, Dark: G / 8, Big: true})
+	scale := float64(G) / 40 // every region the size of a 40-region panel's
+	if s := os.Getenv("SPILLWAY_PANEL_SCALE"); s != "" {
+		if scale, err = strconv.ParseFloat(s, 64); err != nil || !(scale > 0) {
+			b.Fatalf("SPILLWAY_PANEL_SCALE=%s: want a positive number", s)
+		}
+	}
+	sim, err := scenario.SimulatePanel(scenario.PanelOptions{Regions: G, Weeks: T, Seed: seed, Dark: G / 8, Big: true, Scale: scale})
 	if err != nil {
 		b.Fatal(err)
 	}

@@ -79,3 +79,43 @@ func demoInModelUnits(t *testing.T) map[string]float64 {
 	}
 	return out
 }
+
+// TestPanelScale: Scale multiplies every region's raw series and changes
+// nothing else (the same draws, so each outcome is 5 times the unscaled
+// one up to the two roundings to whole numbers, 5 x 0.5 + 0.5), and a scale
+// that is not a positive number is refused.
+func TestPanelScale(t *testing.T) {
+	opts := PanelOptions{Regions: 12, Weeks: 60, Seed: 9, Dark: 2, Big: true}
+	one, err := SimulatePanel(opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	opts.Scale = 5
+	five, err := SimulatePanel(opts)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for g, r := range one.Data.Regions {
+		r5 := five.Data.Regions[g]
+		for w := range r.Outcome {
+			if d := math.Abs(r5.Outcome[w] - 5*r.Outcome[w]); d > 3 {
+				t.Fatalf("region %s week %d: outcome %g at scale 5, %g at 1", r.Name, w, r5.Outcome[w], r.Outcome[w])
+			}
+			if d := math.Abs(r5.Queries[w] - 5*r.Queries[w]); d > 3 {
+				t.Fatalf("region %s week %d: queries %g at scale 5, %g at 1", r.Name, w, r5.Queries[w], r.Queries[w])
+			}
+		}
+		if r5.Population != r.Population {
+			t.Errorf("region %s: population %g at scale 5, %g at 1", r.Name, r5.Population, r.Population)
+		}
+		if a, b := five.Regions[g].Outcome["gamma"], one.Regions[g].Outcome["gamma"]; math.Abs(a-b) > 0.01*b {
+			t.Errorf("region %s: gamma %g at scale 5, %g at 1", r.Name, a, b)
+		}
+	}
+	for _, bad := range []float64{-1, math.NaN(), math.Inf(1)} {
+		opts.Scale = bad
+		if _, err := SimulatePanel(opts); err == nil {
+			t.Errorf("scale %g accepted", bad)
+		}
+	}
+}
