@@ -1,6 +1,7 @@
 package data
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"slices"
@@ -28,6 +29,9 @@ const (
 	KindFlat = "flat"
 	// KindNames marks column or region names that differ only in case.
 	KindNames = "names"
+	// KindCounts marks a queries or outcome column of whole numbers whose
+	// weekly mean is below SmallCount in a region (or nationally).
+	KindCounts = "counts"
 )
 
 // Thresholds of the warnings (common practice, not estimated).
@@ -37,6 +41,11 @@ const (
 	OutlierSDs     = 5.0
 	FlatShare      = 0.9
 	FlatCV         = 0.05
+	// SmallCount is the weekly mean below which whole-number counts are
+	// far from the normal noise the model assumes: a normal curve describes
+	// counting noise well from a mean of about 20 (common practice for the
+	// Poisson's normal approximation).
+	SmallCount = 20.0
 	// madToSD turns a median absolute deviation into a standard deviation
 	// for normal data (1/Phi^-1(3/4); common practice).
 	madToSD = 1.4826
@@ -58,7 +67,8 @@ type Warning struct {
 func (w Warning) String() string { return w.Kind + ": " + w.Message }
 
 // warnings finds the warnings of d, in a fixed order: collinear pairs, sparse
-// columns, then outliers region by region and column by column.
+// and flat columns, small counts, then outliers region by region and column
+// by column.
 func warnings(d *Dataset) []Warning {
 	var ws []Warning
 	nat := d.National()
@@ -95,6 +105,11 @@ func warnings(d *Dataset) []Warning {
 						fmt.Sprintf("%q has no spend in region %q; that region says nothing about its effect", names[i], r.Name)})
 				}
 			}
+		}
+	}
+	for i, name := range []string{d.Spec.Queries, d.Spec.Outcome} {
+		if w, ok := smallCounts(d, name, i == 1); ok {
+			ws = append(ws, w)
 		}
 	}
 	for _, r := range d.Regions {
@@ -183,6 +198,48 @@ func outliers(name, region string, x []float64, weeks []time.Time, spend bool) (
 	}
 	return Warning{KindOutlier, name, fmt.Sprintf("%q%s has %d %s more than %g robust standard deviations from its median %s: %s%s",
 		name, in, len(hits), weeksWord, OutlierSDs, strconv.FormatFloat(center, 'g', 6, 64), strings.Join(list, ", "), more)}, true
+}
+
+// smallCounts looks for regions (or the one national series) where the
+// queries (outcome false) or outcome column holds whole numbers averaging
+// under SmallCount a week. Counts that small carry rounding and counting
+// noise far from the model's normal noise with one sigma for every region;
+// on a simulated 200-region panel whose outcome averaged 11 a week, the
+// rounding alone gave the posterior a second mode with a step-shaped paid
+// search curve (DEVELOPERS.md).
+func smallCounts(d *Dataset, name string, outcome bool) (Warning, bool) {
+	type small struct {
+		region string
+		mean   float64
+	}
+	var hits []small
+	for _, r := range d.Regions {
+		x := r.Queries
+		if outcome {
+			x = r.Outcome
+		}
+		whole := len(x) > 0
+		for _, v := range x {
+			if v != math.Trunc(v) {
+				whole = false
+				break
+			}
+		}
+		if m := stat.Mean(x, nil); whole && m < SmallCount {
+			hits = append(hits, small{r.Name, m})
+		}
+	}
+	if len(hits) == 0 {
+		return Warning{}, false
+	}
+	least := slices.MinFunc(hits, func(a, b small) int { return cmp.Compare(a.mean, b.mean) })
+	mean := strconv.FormatFloat(least.mean, 'f', 1, 64)
+	where, advice := "("+mean+")", "read its intervals with that in mind"
+	if len(d.Regions) > 1 {
+		where = fmt.Sprintf("in %d of %d regions (least: %q, %s)", len(hits), len(d.Regions), least.region, mean)
+		advice = "summing small regions into larger ones would help"
+	}
+	return Warning{KindCounts, name, fmt.Sprintf("%q averages fewer than %g a week %s; whole-number counts this small carry rounding and counting noise that the model's normal noise does not describe, which can bias the fit or give its posterior more than one mode; %s", name, SmallCount, where, advice)}, true
 }
 
 // median returns the median of x (the mean of the two middle values for an

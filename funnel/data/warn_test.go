@@ -143,3 +143,62 @@ func TestFlatAndCaseWarnings(t *testing.T) {
 		t.Errorf("warnings:\n got %q\nwant %q", got, want)
 	}
 }
+
+// TestSmallCounts: whole numbers averaging under SmallCount a week are
+// named, with the region of least mean (by hand: 19 and 20 alternate, mean
+// 19.5); the same counts plus 1 (mean 20.5) and 19.25 and 19.75 (not whole
+// numbers) are not.
+func TestSmallCounts(t *testing.T) {
+	counts := func(f *frame, rows func(week int) int, col string, lo, hi string) *frame {
+		for w := range 60 {
+			v := lo
+			if w%2 == 1 {
+				v = hi
+			}
+			f.set(rows(w), col, v)
+		}
+		return f
+	}
+	west := func(w int) int { return 3*w + 2 }
+	south := func(w int) int { return 3*w + 1 }
+	national := func(w int) int { return w }
+	tests := []struct {
+		name string
+		f    *frame
+		spec Spec
+		want []string
+	}{
+		{"small outcome in one region", counts(regionFrame(60), west, "sales", "19", "20"), regionSpec,
+			[]string{`counts: "sales" averages fewer than 20 a week in 1 of 3 regions (least: "west", 19.5); whole-number counts this small carry rounding and counting noise that the model's normal noise does not describe, which can bias the fit or give its posterior more than one mode; summing small regions into larger ones would help`}},
+		{"two regions, the least named", counts(counts(regionFrame(60), west, "queries", "19", "20"), south, "queries", "3", "4"), regionSpec,
+			[]string{`counts: "queries" averages fewer than 20 a week in 2 of 3 regions (least: "south", 3.5)`}},
+		{"mean 20.5", counts(regionFrame(60), west, "sales", "20", "21"), regionSpec, nil},
+		{"not whole numbers", counts(regionFrame(60), west, "sales", "19.25", "19.75"), regionSpec, nil},
+		{"national", counts(baseFrame(60), national, "sales", "3", "6"), baseSpec,
+			[]string{`counts: "sales" averages fewer than 20 a week (4.5); whole-number counts`, `read its intervals with that in mind`}},
+	}
+	for _, test := range tests {
+		d := mustRead(t, test.f.csv(), test.spec)
+		var got []string
+		for _, w := range d.Warnings {
+			if w.Kind == KindCounts {
+				got = append(got, w.String())
+			}
+		}
+		if len(test.want) == 0 {
+			if len(got) != 0 {
+				t.Errorf("%s: want no counts warning, got %q", test.name, got)
+			}
+			continue
+		}
+		if len(got) != 1 {
+			t.Errorf("%s: want one counts warning, got %q", test.name, got)
+			continue
+		}
+		for _, w := range test.want {
+			if !strings.Contains(got[0], w) {
+				t.Errorf("%s: warning %q lacks %q", test.name, got[0], w)
+			}
+		}
+	}
+}
