@@ -582,8 +582,14 @@ func TestSharedCoords(t *testing.T) {
 		in := make([]bool, tg.Dim())
 		for _, i := range sh {
 			in[i] = true
-			if strings.HasPrefix(names[i], "v:") || strings.Contains(names[i], ",R") {
+			if strings.HasPrefix(names[i], "v:") {
 				t.Errorf("%s: shared coordinate %d is %s", b.name, i, names[i])
+			}
+			for _, r := range p.Regions {
+				// a region's own: mu_y[r1], beta[search,r1]
+				if strings.Contains(names[i], "["+r+"]") || strings.Contains(names[i], ","+r+"]") {
+					t.Errorf("%s: shared coordinate %d is region %s's %s", b.name, i, r, names[i])
+				}
 			}
 		}
 		for i, n := range names {
