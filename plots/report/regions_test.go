@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	"spillway/funnel/data"
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/fitfolder/fitfoldertest"
 	"spillway/plots"
@@ -121,5 +122,42 @@ func TestReportNationalHasNoRegions(t *testing.T) {
 	page := parse(t, write(t, x, ""))
 	if page.byID("regions") != nil || page.byID("chart-regions") != nil {
 		t.Error("a national report has a Regions section or chart")
+	}
+}
+
+// TestReportSmallCounts: the data's small-counts warning (data.KindCounts)
+// stands under the verdict, and the other data warnings do not (they are
+// printed when the data are read). The fixture's own data have neither.
+func TestReportSmallCounts(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "fit")
+	if _, err := fitfoldertest.WritePanel(dir, fitfoldertest.PanelOptions{Options: fitfoldertest.Options{Draws: 200}, Regions: 6}); err != nil {
+		t.Fatal(err)
+	}
+	f, err := fitfolder.Load(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range f.Data.Warnings {
+		if w.Kind == data.KindCounts || w.Kind == data.KindOutlier {
+			t.Fatalf("the fixture already warns: %s", w)
+		}
+	}
+	counts := `"conversions" averages fewer than 20 a week in 4 of 6 regions (least: "r3", 7.5); sum them`
+	f.Data.Warnings = append(f.Data.Warnings, data.Warning{Kind: data.KindOutlier, Column: "conversions", Message: "an outlier here"},
+		data.Warning{Kind: data.KindCounts, Column: "conversions", Message: counts})
+	var buf bytes.Buffer
+	if err := report.Write(&buf, f, "all", nil); err != nil {
+		t.Fatal(err)
+	}
+	notes := parse(t, buf.Bytes()).byID("support")
+	if notes == nil {
+		t.Fatal("no notes under the verdict")
+	}
+	text := notes.fullText()
+	if !strings.Contains(text, "Data: "+counts+".") {
+		t.Errorf("notes %q lack the small-counts warning", text)
+	}
+	if strings.Contains(text, "an outlier here") {
+		t.Errorf("notes %q show an outlier warning", text)
 	}
 }

@@ -11,6 +11,7 @@ import (
 	"slices"
 	"strings"
 
+	"spillway/funnel/data"
 	"spillway/funnel/fitfolder"
 	"spillway/funnel/window"
 	"spillway/mediation"
@@ -59,8 +60,8 @@ type view struct {
 	Title, Subtitle string
 	Trustworthy     bool
 	Reasons         []string
-	// Notes are the support check's result and what the data cannot tell,
-	// shown under the verdict.
+	// Notes are the support check's result, what the data cannot tell and
+	// counts too small for the model's noise, shown under the verdict.
 	Notes        []string
 	Checks       string
 	Job          string
@@ -252,6 +253,13 @@ func build(f *fitfolder.Fit, w window.Window, charts map[string][]byte) (*view, 
 			v.Reasons = append(v.Reasons, r.Stage+" stage: "+r.Text)
 		default:
 			v.Reasons = append(v.Reasons, r.Text)
+		}
+	}
+	for _, w := range f.Data.Warnings {
+		// small counts weaken the noise model itself, so they stand beside
+		// the verdict; the other data warnings are printed when reading
+		if w.Kind == data.KindCounts {
+			v.Notes = append(v.Notes, "Data: "+w.Message+".")
 		}
 	}
 	v.Job = fmt.Sprintf("This report splits the effect of %s on %s into the part that runs through branded search "+
