@@ -35,12 +35,14 @@ import (
 // spreads change unequally with the transforms. Each choice has its cost,
 // measured on simulated panels (4 chains, seed 40, outcome stage alone):
 //
-//   - 200 x 156, 500 + 500 draws, where paid search's curve has two
-//     regimes (S_s near 7 with tau_beta near 0.55, S_s near 1.8 with
-//     tau_beta near 0.1) and every xi[g] moves to cross between them:
-//     against href R-hat 1.06, bulk ESS 52, 264 leapfrog steps per draw,
-//     927 s; against r[g] R-hat 1.16, bulk ESS 19, 63 steps, 257 s.
-//     Neither converges.
+//   - 200 x 156 cut from the demo's totals (outcomes of a few a week,
+//     whose rounding gives paid search's curve two regimes: S_s near 7
+//     with tau_beta near 0.55, S_s near 1.8 with tau_beta near 0.1; every
+//     xi[g] moves to cross between them), 500 + 500 draws: against href
+//     R-hat 1.06, bulk ESS 52, 264 leapfrog steps per draw, 927 s; against
+//     r[g] R-hat 1.16, bulk ESS 19, 63 steps, 257 s. Neither converges.
+//     With regions 20 times larger (one regime) against href: R-hat
+//     1.012, bulk ESS 804, 93 steps, 314 s.
 //   - 40 x 156, 1000 + 1000 draws, sampler seeds 0-3: against r[g] 3, 1,
 //     1 and 1 divergent transitions, all at paid search's tail (K_s in its
 //     lowest 2% or S_s in its highest 1%, tau_beta in its highest 2%),
