@@ -204,9 +204,10 @@ func outliers(name, region string, x []float64, weeks []time.Time, spend bool) (
 // queries (outcome false) or outcome column holds whole numbers averaging
 // under SmallCount a week. Counts that small carry rounding and counting
 // noise far from the model's normal noise with one sigma for every region;
-// on a simulated 200-region panel whose outcome averaged 11 a week, the
-// rounding alone gave the posterior a second mode with a step-shaped paid
-// search curve (DEVELOPERS.md).
+// on a simulated 200-region panel whose outcome averaged 11 a week and
+// whose paid search spend followed the queries, the rounding gave the
+// posterior a second mode with a step-shaped paid search curve
+// (DEVELOPERS.md).
 func smallCounts(d *Dataset, name string, outcome bool) (Warning, bool) {
 	type small struct {
 		region string
