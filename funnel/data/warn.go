@@ -219,13 +219,7 @@ func smallCounts(d *Dataset, name string, outcome bool) (Warning, bool) {
 		if outcome {
 			x = r.Outcome
 		}
-		whole := len(x) > 0
-		for _, v := range x {
-			if v != math.Trunc(v) {
-				whole = false
-				break
-			}
-		}
+		whole := len(x) > 0 && !slices.ContainsFunc(x, func(v float64) bool { return v != math.Trunc(v) })
 		if m := stat.Mean(x, nil); whole && m < SmallCount {
 			hits = append(hits, small{r.Name, m})
 		}
